@@ -1,0 +1,164 @@
+//! The pressure ripple a pump makes at every measurement point, harmonic by
+//! harmonic (what `ripline solve` reports).
+//!
+//! For pump harmonic k at f = k·f_p the network is solved with the pump's
+//! source flow ripple Qs(k) injected at its node (every pump's source
+//! impedance stays in the network). Overall levels follow methods.md §7.4:
+//! P_rms = √(Σ_k |P_k|²/2), L = 20 log10(P_rms/p_ref), and the peak-to-peak
+//! value of the waveform rebuilt from the harmonics.
+
+use super::waveform;
+use crate::circuit::{Circuit, Tap, TapLocation};
+use crate::elements::{Connection, ElementKind};
+use crate::network::{Plan, Solution, SolveError};
+use num_complex::Complex64 as C64;
+
+/// The ripple of one harmonic at one point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct HarmonicPressure {
+    /// Harmonic order k of the pumping frequency.
+    pub order: u32,
+    /// Frequency k·f_p in Hz.
+    pub freq_hz: f64,
+    /// Pressure ripple phasor (peak) in Pa.
+    pub pressure: C64,
+}
+
+/// All harmonics at one measurement point.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TapRipple {
+    /// The point's name.
+    pub name: String,
+    /// One entry per harmonic, in order.
+    pub harmonics: Vec<HarmonicPressure>,
+}
+
+impl TapRipple {
+    /// Overall rms ripple √(Σ|P_k|²/2) in Pa.
+    pub fn rms_pa(&self) -> f64 {
+        (self
+            .harmonics
+            .iter()
+            .map(|h| h.pressure.norm_sqr())
+            .sum::<f64>()
+            / 2.0)
+            .sqrt()
+    }
+
+    /// Overall level 20·log10(P_rms/p_ref) in dB re `p_ref_pa`.
+    pub fn level_db(&self, p_ref_pa: f64) -> f64 {
+        20.0 * (self.rms_pa() / p_ref_pa).log10()
+    }
+
+    /// Peak-to-peak of the waveform rebuilt from the harmonics, in Pa.
+    pub fn peak_to_peak_pa(&self) -> f64 {
+        let h: Vec<(u32, C64)> = self
+            .harmonics
+            .iter()
+            .map(|h| (h.order, h.pressure))
+            .collect();
+        waveform::peak_to_peak(&h)
+    }
+}
+
+/// The ripple of one pump at every measurement point.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RippleReport {
+    /// The pump's name.
+    pub pump: String,
+    /// Shaft speed in rev/s.
+    pub speed_rev_s: f64,
+    /// Pumping frequency f_p in Hz.
+    pub pumping_frequency_hz: f64,
+    /// One entry per measurement point.
+    pub taps: Vec<TapRipple>,
+}
+
+/// The measurement points a report covers: the circuit's taps, or every node
+/// when it defines none.
+pub fn report_points(circuit: &Circuit) -> Vec<Tap> {
+    if circuit.taps.is_empty() {
+        circuit
+            .nodes
+            .iter()
+            .enumerate()
+            .map(|(id, n)| Tap {
+                name: n.name.clone(),
+                location: TapLocation::Node(id),
+            })
+            .collect()
+    } else {
+        circuit.taps.clone()
+    }
+}
+
+/// The pressure ripple at a measurement point from a solved network.
+pub fn tap_pressure(circuit: &Circuit, solution: &Solution, location: TapLocation) -> C64 {
+    match location {
+        TapLocation::Node(id) => solution.node_pressures[id],
+        TapLocation::AlongTube {
+            element,
+            distance_m,
+        } => {
+            let e = &circuit.elements[element];
+            let (ElementKind::Tube(tube), Connection::Series { a, b }) = (&e.kind, e.connection)
+            else {
+                unreachable!("taps along elements are validated to be on tubes");
+            };
+            let (qa, qb) = solution.end_flows[element].expect("a tube is a two-port");
+            let omega = 2.0 * std::f64::consts::PI * solution.freq_hz;
+            let prop = tube.propagation(omega);
+            let (p, _) = tube.line.state_at(
+                &prop,
+                distance_m,
+                (solution.node_pressures[a], qa),
+                (solution.node_pressures[b], qb),
+            );
+            p
+        }
+    }
+}
+
+/// Solves harmonics 1..=`harmonics` of pump `pump_index` and reads every
+/// measurement point.
+///
+/// # Errors
+/// [`SolveError`] if the network is singular at a harmonic frequency.
+///
+/// # Panics
+/// If `pump_index` is out of range.
+pub fn harmonic_ripple(
+    plan: &Plan<'_>,
+    pump_index: usize,
+    harmonics: u32,
+) -> Result<RippleReport, SolveError> {
+    let circuit = plan.circuit();
+    let pump = &circuit.pumps[pump_index];
+    let points = report_points(circuit);
+    let fp = pump.pumping_frequency_hz();
+    let mut taps: Vec<TapRipple> = points
+        .iter()
+        .map(|t| TapRipple {
+            name: t.name.clone(),
+            harmonics: Vec::with_capacity(harmonics as usize),
+        })
+        .collect();
+    let mut ws = plan.workspace();
+    for order in 1..=harmonics {
+        let freq_hz = f64::from(order) * fp;
+        let solution = plan.solve(freq_hz, &[(pump.node, pump.flow_ripple(order))], &mut ws)?;
+        for (tap, point) in taps.iter_mut().zip(&points) {
+            tap.harmonics.push(HarmonicPressure {
+                order,
+                freq_hz,
+                pressure: tap_pressure(circuit, &solution, point.location),
+            });
+        }
+    }
+    Ok(RippleReport {
+        pump: pump.name.clone(),
+        speed_rev_s: pump.speed_rev_s,
+        pumping_frequency_hz: fp,
+        taps,
+    })
+}

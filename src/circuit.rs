@@ -1,0 +1,108 @@
+//! The validated circuit model: what a circuit file describes, in SI, with
+//! every cross-reference resolved to an index.
+//!
+//! A [`Circuit`] is built by `io::circuit_file` (or directly through the API,
+//! see `examples/`), then compiled into a network plan for solving.
+
+use crate::elements::{Connection, Element, ElementKind, NodeId};
+use crate::fluid::Fluid;
+use crate::source::Pump;
+
+/// A junction of the circuit.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Node {
+    /// Unique name.
+    pub name: String,
+}
+
+/// Where a measurement point (a *tap*) reads the pressure ripple.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum TapLocation {
+    /// At a node.
+    Node(NodeId),
+    /// Inside a tube, at a distance from its "from" end.
+    AlongTube {
+        /// Index of the tube in [`Circuit::elements`].
+        element: usize,
+        /// Distance from the tube's "from" end in m (0 ≤ x ≤ l).
+        distance_m: f64,
+    },
+}
+
+/// A named measurement point.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Tap {
+    /// Unique name.
+    pub name: String,
+    /// Where it reads.
+    pub location: TapLocation,
+}
+
+/// A complete, validated circuit.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Circuit {
+    /// Optional title for reports.
+    pub title: Option<String>,
+    /// The working fluid.
+    pub fluid: Fluid,
+    /// All nodes.
+    pub nodes: Vec<Node>,
+    /// All elements.
+    pub elements: Vec<Element>,
+    /// The pumps (Norton sources).
+    pub pumps: Vec<Pump>,
+    /// The measurement points.
+    pub taps: Vec<Tap>,
+    /// Number of harmonics of the pumping frequency to solve (1..=N).
+    pub harmonics: u32,
+}
+
+impl Circuit {
+    /// The index of the node called `name`.
+    pub fn node_id(&self, name: &str) -> Option<NodeId> {
+        self.nodes.iter().position(|n| n.name == name)
+    }
+
+    /// The index of the element called `name`.
+    pub fn element_id(&self, name: &str) -> Option<usize> {
+        self.elements.iter().position(|e| e.name == name)
+    }
+
+    /// Whether node `id` is held at zero ripple by a tank.
+    pub fn is_tank(&self, id: NodeId) -> bool {
+        self.elements.iter().any(|e| {
+            matches!(e.kind, ElementKind::Tank) && e.connection == Connection::Shunt { at: id }
+        })
+    }
+
+    /// The nodes an element touches.
+    pub fn element_nodes(&self, index: usize) -> Vec<NodeId> {
+        match self.elements[index].connection {
+            Connection::Series { a, b } => vec![a, b],
+            Connection::Shunt { at } => vec![at],
+        }
+    }
+
+    /// How many elements touch node `id`, counting two-ports and shunts.
+    pub fn degree(&self, id: NodeId) -> usize {
+        (0..self.elements.len())
+            .filter(|&i| self.element_nodes(i).contains(&id))
+            .count()
+    }
+
+    /// Nodes that end a line with no element saying what the end is: a node
+    /// touched by exactly one two-port and nothing else. ripline treats
+    /// them as closed ends; `check` lists them so a user can confirm.
+    pub fn implicit_closed_ends(&self) -> Vec<NodeId> {
+        (0..self.nodes.len())
+            .filter(|&id| {
+                self.degree(id) == 1
+                    && !self.pumps.iter().any(|p| p.node == id)
+                    && self
+                        .elements
+                        .iter()
+                        .any(|e| matches!(e.connection, Connection::Series { a, b } if a == id || b == id))
+            })
+            .collect()
+    }
+}

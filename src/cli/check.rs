@@ -1,0 +1,159 @@
+//! `ripline check FILE`: validate a circuit and report what it holds.
+
+use super::common;
+use clap::Args;
+use ripline::circuit::TapLocation;
+use ripline::elements::{Connection, ElementKind};
+use ripline::network::Plan;
+use ripline::source::SourceImpedance;
+use ripline::wall::Wall;
+use std::io::Write;
+use std::path::PathBuf;
+
+#[derive(Debug, Args)]
+pub struct CheckArgs {
+    /// Circuit file (YAML); the built-in demo circuit when omitted.
+    file: Option<PathBuf>,
+}
+
+pub fn run(args: CheckArgs) -> anyhow::Result<()> {
+    let loaded = common::load_circuit(args.file.as_deref())?;
+    let c = &loaded.circuit;
+    let plan = Plan::compile(c)?;
+    let mut out = std::io::stdout().lock();
+    writeln!(out, "ripline check: {}", loaded.source)?;
+    if let Some(t) = &c.title {
+        writeln!(out, "circuit: {t}")?;
+    }
+    let f = &c.fluid;
+    writeln!(
+        out,
+        "fluid: density {:.1} kg/m³, bulk modulus {:.3} GPa, viscosity {:.2} cSt (dynamic {:.4} Pa·s), speed of sound {:.1} m/s",
+        f.density_kg_m3,
+        f.bulk_modulus_pa / 1e9,
+        f.kinematic_viscosity_m2_s * 1e6,
+        f.dynamic_viscosity_pa_s(),
+        f.speed_of_sound_m_s()
+    )?;
+    for p in &c.pumps {
+        write!(
+            out,
+            "pump `{}` at node `{}`: {:.0} rpm, {} pumping elements, pumping frequency {:.2} Hz, {} harmonics in its table",
+            p.name,
+            c.nodes[p.node].name,
+            p.speed_rev_s * 60.0,
+            p.pumping_elements,
+            p.pumping_frequency_hz(),
+            p.max_order()
+        )?;
+        if let Some(q) = p.mean_flow_m3_s() {
+            write!(out, ", mean flow {:.2} L/min", q * 60e3)?;
+        }
+        writeln!(out)?;
+        match p.source_impedance {
+            SourceImpedance::Volume {
+                capacitance_m3_pa,
+                leakage_resistance_pa_s_m3,
+            } => {
+                write!(
+                    out,
+                    "  source impedance: internal volume {:.4} L (capacitance {:.4e} m³/Pa)",
+                    capacitance_m3_pa * f.bulk_modulus_pa * 1e3,
+                    capacitance_m3_pa
+                )?;
+                match leakage_resistance_pa_s_m3 {
+                    Some(r) => writeln!(out, ", leakage resistance {r:.4e} Pa·s/m³")?,
+                    None => writeln!(out)?,
+                }
+            }
+            _ => writeln!(out, "  source impedance: {:?}", p.source_impedance)?,
+        }
+    }
+    let implicit = c.implicit_closed_ends();
+    writeln!(out, "nodes ({}):", c.nodes.len())?;
+    for (id, n) in c.nodes.iter().enumerate() {
+        let mut notes = Vec::new();
+        if c.is_tank(id) {
+            notes.push("tank (zero ripple)".to_string());
+        }
+        if implicit.contains(&id) {
+            notes.push("line end with no termination: treated as a closed end".to_string());
+        }
+        notes.push(format!("{} element(s)", c.degree(id)));
+        writeln!(out, "  {}: {}", n.name, notes.join(", "))?;
+    }
+    writeln!(out, "elements ({}):", c.elements.len())?;
+    for e in &c.elements {
+        let place = match e.connection {
+            Connection::Series { a, b } => format!("{} → {}", c.nodes[a].name, c.nodes[b].name),
+            Connection::Shunt { at } => format!("at {}", c.nodes[at].name),
+        };
+        let detail = match &e.kind {
+            ElementKind::Tube(t) => {
+                let p = &t.line.properties;
+                let wall = match t.wall {
+                    Wall::Rigid => "rigid wall".to_string(),
+                    Wall::Elastic {
+                        thickness_m,
+                        youngs_modulus_pa,
+                    } => format!(
+                        "wall {:.2} mm, E = {:.0} GPa",
+                        thickness_m * 1e3,
+                        youngs_modulus_pa / 1e9
+                    ),
+                };
+                format!(
+                    "length {:.3} m, bore {:.2} mm, {wall}; wave speed {:.1} m/s, Z0 = {:.4e} Pa·s/m³, {} model",
+                    t.line.length_m,
+                    t.bore_m() * 1e3,
+                    p.wave_speed_m_s(),
+                    p.z0(),
+                    p.model.name()
+                )
+            }
+            ElementKind::Volume(v) => format!(
+                "{:.4} L (capacitance {:.4e} m³/Pa)",
+                v.volume_m3 * 1e3,
+                v.capacitance()
+            ),
+            ElementKind::Orifice(o) => format!("resistance {:.4e} Pa·s/m³", o.resistance_pa_s_m3),
+            ElementKind::LoadValve(v) => format!("resistance {:.4e} Pa·s/m³", v.resistance_pa_s_m3),
+            ElementKind::Inertance(i) => format!(
+                "inertance {:.4e} kg/m⁴, resistance {:.4e} Pa·s/m³",
+                i.inertance_kg_m4, i.resistance_pa_s_m3
+            ),
+            ElementKind::Anechoic(a) => format!("matches Z0 = {:.4e} Pa·s/m³", a.line.z0()),
+            _ => String::new(),
+        };
+        writeln!(out, "  {} ({}, {place}): {detail}", e.name, e.kind.name())?;
+    }
+    writeln!(out, "taps ({}):", c.taps.len())?;
+    for t in &c.taps {
+        let place = match t.location {
+            TapLocation::Node(id) => format!("node {}", c.nodes[id].name),
+            TapLocation::AlongTube {
+                element,
+                distance_m,
+            } => format!("{distance_m:.3} m along {}", c.elements[element].name),
+        };
+        writeln!(out, "  {}: {place}", t.name)?;
+    }
+    if c.taps.is_empty() {
+        writeln!(out, "  (none: reports cover every node)")?;
+    }
+    let top = c
+        .pumps
+        .iter()
+        .map(|p| p.pumping_frequency_hz())
+        .fold(0.0, f64::max)
+        * f64::from(c.harmonics);
+    writeln!(
+        out,
+        "solve: {} harmonics (up to {top:.1} Hz), {} unknowns per frequency",
+        c.harmonics,
+        plan.unknowns()
+    )?;
+    writeln!(out, "OK")?;
+    out.flush()?;
+    Ok(())
+}

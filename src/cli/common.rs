@@ -1,0 +1,111 @@
+//! Helpers shared by the commands: loading circuits, exit codes, output files.
+
+use super::{EXIT_COMPUTE, EXIT_INPUT};
+use anyhow::Context;
+use ripline::io::InputError;
+use ripline::io::output::StagedOutputs;
+use ripline::units::{Dimension, parse_quantity};
+use ripline::{Circuit, demo};
+use std::path::{Path, PathBuf};
+
+/// A circuit and the name to report it by.
+pub struct LoadedCircuit {
+    pub circuit: Circuit,
+    pub source: String,
+}
+
+/// Loads FILE, or the built-in demo when none is given.
+pub fn load_circuit(file: Option<&Path>) -> anyhow::Result<LoadedCircuit> {
+    match file {
+        Some(path) => Ok(LoadedCircuit {
+            circuit: ripline::io::load_circuit(path)?,
+            source: path.display().to_string(),
+        }),
+        None => Ok(LoadedCircuit {
+            circuit: ripline::io::parse_circuit(demo::DEMO_CIRCUIT, demo::DEMO_NAME)?,
+            source: demo::DEMO_NAME.to_string(),
+        }),
+    }
+}
+
+/// A user error in a command-line value (exit code 2).
+#[derive(Debug, thiserror::Error)]
+#[error("{0}")]
+pub struct UsageError(pub String);
+
+/// Parses a command-line quantity; a bare number is read in `bare_unit`.
+pub fn cli_quantity(
+    option: &str,
+    text: &str,
+    dim: Dimension,
+    bare_unit: &str,
+) -> anyhow::Result<f64> {
+    let with_unit = if text.trim().parse::<f64>().is_ok() {
+        format!("{text} {bare_unit}")
+    } else {
+        text.to_string()
+    };
+    let v = parse_quantity(&with_unit, dim).map_err(|e| UsageError(format!("{option}: {e}")))?;
+    Ok(v)
+}
+
+/// Exit code for an error: 2 for input and usage errors, 1 otherwise.
+pub fn exit_code(err: &anyhow::Error) -> u8 {
+    let input = err
+        .chain()
+        .any(|c| c.is::<InputError>() || c.is::<UsageError>());
+    if input { EXIT_INPUT } else { EXIT_COMPUTE }
+}
+
+/// Whether the error is a closed stdout pipe (e.g. `ripline solve | head`).
+pub fn is_broken_pipe(err: &anyhow::Error) -> bool {
+    err.chain().any(|c| {
+        c.downcast_ref::<std::io::Error>()
+            .is_some_and(|e| e.kind() == std::io::ErrorKind::BrokenPipe)
+    })
+}
+
+/// Checks an output path before any work: its folder exists and, for plots,
+/// the extension is one we can write.
+pub fn check_output(option: &str, path: &Path, extensions: &[&str]) -> anyhow::Result<PathBuf> {
+    let ext = path
+        .extension()
+        .map(|e| e.to_string_lossy().to_lowercase())
+        .unwrap_or_default();
+    if !extensions.contains(&ext.as_str()) {
+        return Err(UsageError(format!(
+            "{option} {}: the file name must end in {}",
+            path.display(),
+            extensions
+                .iter()
+                .map(|e| format!(".{e}"))
+                .collect::<Vec<_>>()
+                .join(" or ")
+        ))
+        .into());
+    }
+    if let Some(dir) = path.parent().filter(|d| !d.as_os_str().is_empty()) {
+        if !dir.is_dir() {
+            return Err(UsageError(format!(
+                "{option} {}: the folder {} does not exist",
+                path.display(),
+                dir.display()
+            ))
+            .into());
+        }
+    }
+    Ok(path.to_path_buf())
+}
+
+/// Stages a CSV table produced by `write`.
+pub fn stage_csv(
+    outputs: &mut StagedOutputs,
+    path: &Path,
+    write: impl FnOnce(&mut Vec<u8>) -> Result<(), csv::Error>,
+) -> anyhow::Result<()> {
+    let mut bytes = Vec::new();
+    write(&mut bytes).context("formatting the CSV table")?;
+    outputs
+        .stage_bytes(path, &bytes)
+        .with_context(|| format!("writing {}", path.display()))
+}

@@ -1,0 +1,68 @@
+//! Command-line interface: argument types (clap) and one file per command.
+//!
+//! Raw arguments are turned into a resolved configuration (circuit loaded,
+//! overrides applied, outputs chosen) before any library call; no clap type
+//! reaches the library. Exit codes: 0 success, 1 a computation failed (for
+//! example a singular network), 2 invalid input or usage.
+
+mod check;
+mod common;
+mod solve;
+
+use clap::{Parser, Subcommand};
+use std::process::ExitCode;
+
+/// Pressure ripple in hydraulic line networks: solve a circuit harmonic by
+/// harmonic from a Norton pump source.
+#[derive(Debug, Parser)]
+#[command(name = "ripline", version, about, long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Pressure ripple at every measurement point, harmonic by harmonic
+    /// (the built-in demo circuit when no FILE is given).
+    Solve(solve::SolveArgs),
+    /// Validate a circuit file without solving and report what it holds.
+    Check(check::CheckArgs),
+}
+
+/// Exit code for invalid input or usage.
+pub const EXIT_INPUT: u8 = 2;
+/// Exit code for a computation that failed.
+pub const EXIT_COMPUTE: u8 = 1;
+
+pub fn main() -> ExitCode {
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => {
+            let _ = e.print();
+            return if e.use_stderr() {
+                ExitCode::from(EXIT_INPUT)
+            } else {
+                ExitCode::SUCCESS
+            };
+        }
+    };
+    let result = match cli.command {
+        Command::Solve(args) => solve::run(args),
+        Command::Check(args) => check::run(args),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(err) => {
+            if common::is_broken_pipe(&err) {
+                return ExitCode::SUCCESS;
+            }
+            let mut text = format!("error: {err}");
+            for cause in err.chain().skip(1) {
+                text.push_str(&format!("\n  caused by: {cause}"));
+            }
+            eprintln!("{text}");
+            ExitCode::from(common::exit_code(&err))
+        }
+    }
+}

@@ -1,0 +1,160 @@
+//! Circuit elements: what each kind presents to the network at one frequency.
+//!
+//! Every element connects either as a two-port between two nodes (a tube, an
+//! orifice, an inertance) or as a shunt from one node to the reference (a
+//! volume, a load valve, an anechoic end), or it fixes a node's condition (a
+//! tank holds zero ripple; a closed end adds nothing). Per frequency an element
+//! returns its [`Behaviour`]; the network plan scatters it into the nodal
+//! matrix. Element physics never sees the assembled matrix.
+//!
+//! To add a kind: write its model in a file of this folder with a
+//! `behaviour(omega)` method and unit tests, add a variant to [`ElementKind`]
+//! and a match arm in [`ElementKind::behaviour`] and
+//! [`ElementKind::connection_kind`], then teach the circuit file
+//! (`io::circuit_file`) to build it.
+
+mod ends;
+mod lumped;
+mod tube;
+
+pub use ends::Anechoic;
+pub use lumped::{Inertance, LoadValve, Orifice, Volume, orifice_resistance};
+pub use tube::Tube;
+
+use crate::line::{Admittance2, Transfer2};
+use num_complex::Complex64 as C64;
+
+/// Index of a node in a circuit's node list.
+pub type NodeId = usize;
+
+/// How an element attaches to nodes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Connection {
+    /// A two-port between node `a` (its "from" end) and node `b`.
+    Series {
+        /// The "from" node (x = 0 for a line).
+        a: NodeId,
+        /// The "to" node.
+        b: NodeId,
+    },
+    /// A one-port from a node to the reference (zero ripple).
+    Shunt {
+        /// The node.
+        at: NodeId,
+    },
+}
+
+/// What the network must reserve for an element.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ConnectionKind {
+    /// A two-port stamped by its admittance matrix.
+    AdmittanceTwoPort,
+    /// A two-port stamped by its transfer matrix with two branch-flow unknowns
+    /// (modified nodal analysis), for elements with no bounded admittance form
+    /// (lossless lines at half-wave resonance).
+    TransferTwoPort,
+    /// A shunt admittance.
+    Shunt,
+    /// Holds its node at zero ripple (the node is eliminated).
+    Tank,
+    /// Adds nothing (documents a closed end).
+    Nothing,
+}
+
+/// What an element presents at one frequency.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Behaviour {
+    /// Two-port admittance: flows leaving the end nodes into the element per end pressures.
+    Admittance(Admittance2),
+    /// Two-port transfer matrix [Pa; Qa] = T [Pb; Qb].
+    Transfer(Transfer2),
+    /// Shunt admittance to reference in m³/(Pa·s).
+    Shunt(C64),
+    /// No contribution.
+    Nothing,
+}
+
+/// The element kinds ripline models.
+#[derive(Debug, Clone, PartialEq)]
+#[non_exhaustive]
+pub enum ElementKind {
+    /// A uniform tube (distributed line).
+    Tube(Tube),
+    /// A lumped volume of liquid (shunt capacitance).
+    Volume(Volume),
+    /// A restriction between two nodes (series resistance).
+    Orifice(Orifice),
+    /// A short passage as a lumped mass (series inertance with resistance).
+    Inertance(Inertance),
+    /// A valve to tank at a node (shunt resistance).
+    LoadValve(LoadValve),
+    /// A non-reflecting termination of a line.
+    Anechoic(Anechoic),
+    /// A closed (dead) end: no flow leaves the node.
+    ClosedEnd,
+    /// An open end to a constant-pressure reservoir: zero ripple.
+    Tank,
+}
+
+impl ElementKind {
+    /// The kind's name in circuit files.
+    pub fn name(&self) -> &'static str {
+        match self {
+            ElementKind::Tube(_) => "tube",
+            ElementKind::Volume(_) => "volume",
+            ElementKind::Orifice(_) => "orifice",
+            ElementKind::Inertance(_) => "inertance",
+            ElementKind::LoadValve(_) => "load_valve",
+            ElementKind::Anechoic(_) => "anechoic_end",
+            ElementKind::ClosedEnd => "closed_end",
+            ElementKind::Tank => "tank",
+        }
+    }
+
+    /// What the network reserves for this kind.
+    pub fn connection_kind(&self) -> ConnectionKind {
+        match self {
+            ElementKind::Tube(t) if t.needs_branch_flows() => ConnectionKind::TransferTwoPort,
+            ElementKind::Tube(_) | ElementKind::Orifice(_) | ElementKind::Inertance(_) => {
+                ConnectionKind::AdmittanceTwoPort
+            }
+            ElementKind::Volume(_) | ElementKind::LoadValve(_) | ElementKind::Anechoic(_) => {
+                ConnectionKind::Shunt
+            }
+            ElementKind::Tank => ConnectionKind::Tank,
+            ElementKind::ClosedEnd => ConnectionKind::Nothing,
+        }
+    }
+
+    /// The element's behaviour at angular frequency ω > 0 (rad/s).
+    pub fn behaviour(&self, omega: f64) -> Behaviour {
+        match self {
+            ElementKind::Tube(t) => t.behaviour(omega),
+            ElementKind::Volume(v) => Behaviour::Shunt(v.admittance(omega)),
+            ElementKind::Orifice(o) => series_admittance(C64::new(o.resistance_pa_s_m3, 0.0)),
+            ElementKind::Inertance(i) => series_admittance(i.impedance(omega)),
+            ElementKind::LoadValve(v) => {
+                Behaviour::Shunt(C64::new(1.0 / v.resistance_pa_s_m3, 0.0))
+            }
+            ElementKind::Anechoic(a) => Behaviour::Shunt(a.admittance(omega)),
+            ElementKind::ClosedEnd | ElementKind::Tank => Behaviour::Nothing,
+        }
+    }
+}
+
+/// The two-port admittance of a series impedance Z: (1/Z)[[1, −1], [−1, 1]].
+pub fn series_admittance(z: C64) -> Behaviour {
+    let y = z.inv();
+    Behaviour::Admittance([[y, -y], [-y, y]])
+}
+
+/// A named element and where it connects.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Element {
+    /// Unique name.
+    pub name: String,
+    /// What it is.
+    pub kind: ElementKind,
+    /// Where it connects.
+    pub connection: Connection,
+}

@@ -1,0 +1,866 @@
+//! The circuit file: YAML text → validated [`Circuit`].
+//!
+//! Parsing happens in two steps. First the YAML is read into plain `Raw*`
+//! structs that mirror the file (unknown keys, wrong types and unknown units
+//! are rejected here by the parser, which knows the line and column). Then
+//! [`Checker`] validates values and cross-references and builds the model in
+//! SI; its errors carry the key path, mapped back to a line by
+//! [`super::locate`]. The file format is documented in README.md.
+
+use super::InputError;
+use super::locate::KeyPath;
+use super::quantity::{self as q, Q};
+use crate::circuit::{Circuit, Node, Tap, TapLocation};
+use crate::elements::{
+    Anechoic, Connection, Element, ElementKind, Inertance, LoadValve, Orifice, Tube, Volume,
+};
+use crate::fluid::Fluid;
+use crate::line::{Line, LineModel, LineProperties};
+use crate::source::{FlowHarmonic, FlowRipple, Pump, SourceImpedance};
+use crate::wall::{Material, Wall};
+use serde::Deserialize;
+use std::collections::HashSet;
+use std::path::Path;
+
+/// Default number of harmonics solved and reported.
+pub const DEFAULT_HARMONICS: u32 = 10;
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawCircuit {
+    title: Option<String>,
+    fluid: RawFluid,
+    line_model: Option<RawLineModel>,
+    harmonics: Option<u32>,
+    pump: Option<RawPump>,
+    #[serde(default)]
+    elements: Vec<RawElement>,
+    #[serde(default)]
+    taps: Vec<RawTap>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawFluid {
+    density: Q<q::Density>,
+    bulk_modulus: Q<q::Modulus>,
+    viscosity: Q<q::KinematicViscosity>,
+}
+
+#[derive(Debug, Clone, Copy, Deserialize)]
+#[serde(rename_all = "snake_case")]
+enum RawLineModel {
+    Lossless,
+    Laminar,
+}
+
+impl From<RawLineModel> for LineModel {
+    fn from(m: RawLineModel) -> Self {
+        match m {
+            RawLineModel::Lossless => LineModel::Lossless,
+            RawLineModel::Laminar => LineModel::Laminar,
+        }
+    }
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawPump {
+    name: Option<String>,
+    node: String,
+    speed: Q<q::ShaftSpeed>,
+    pumping_elements: u32,
+    displacement: Option<Q<q::Volume>>,
+    flow_ripple: Vec<RawHarmonic>,
+    source_impedance: RawSourceImpedance,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawHarmonic {
+    harmonic: u32,
+    amplitude: Q<q::Flow>,
+    #[serde(default)]
+    phase: Option<Q<q::Angle>>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawSourceImpedance {
+    volume: Q<q::Volume>,
+    leakage_resistance: Option<Q<q::Resistance>>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+enum RawKind {
+    Tube,
+    Volume,
+    Orifice,
+    Inertance,
+    LoadValve,
+    AnechoicEnd,
+    ClosedEnd,
+    Tank,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawElement {
+    name: String,
+    kind: RawKind,
+    from: Option<String>,
+    to: Option<String>,
+    at: Option<String>,
+    length: Option<Q<q::Length>>,
+    bore: Option<Q<q::Length>>,
+    wall: Option<Q<q::Length>>,
+    material: Option<String>,
+    youngs_modulus: Option<Q<q::Modulus>>,
+    rigid: Option<bool>,
+    model: Option<RawLineModel>,
+    volume: Option<Q<q::Volume>>,
+    resistance: Option<Q<q::Resistance>>,
+    mean_flow: Option<Q<q::Flow>>,
+    pressure_drop: Option<Q<q::Pressure>>,
+    inertance: Option<Q<q::Inertance>>,
+    line: Option<String>,
+}
+
+impl RawElement {
+    /// The optional keys that are present, by name.
+    fn present_keys(&self) -> Vec<&'static str> {
+        let mut keys = Vec::new();
+        let mut add = |name: &'static str, present: bool| {
+            if present {
+                keys.push(name);
+            }
+        };
+        add("from", self.from.is_some());
+        add("to", self.to.is_some());
+        add("at", self.at.is_some());
+        add("length", self.length.is_some());
+        add("bore", self.bore.is_some());
+        add("wall", self.wall.is_some());
+        add("material", self.material.is_some());
+        add("youngs_modulus", self.youngs_modulus.is_some());
+        add("rigid", self.rigid.is_some());
+        add("model", self.model.is_some());
+        add("volume", self.volume.is_some());
+        add("resistance", self.resistance.is_some());
+        add("mean_flow", self.mean_flow.is_some());
+        add("pressure_drop", self.pressure_drop.is_some());
+        add("inertance", self.inertance.is_some());
+        add("line", self.line.is_some());
+        keys
+    }
+}
+
+impl RawKind {
+    fn name(self) -> &'static str {
+        match self {
+            RawKind::Tube => "tube",
+            RawKind::Volume => "volume",
+            RawKind::Orifice => "orifice",
+            RawKind::Inertance => "inertance",
+            RawKind::LoadValve => "load_valve",
+            RawKind::AnechoicEnd => "anechoic_end",
+            RawKind::ClosedEnd => "closed_end",
+            RawKind::Tank => "tank",
+        }
+    }
+
+    /// The optional keys this kind accepts (besides `name` and `kind`).
+    fn allowed_keys(self) -> &'static [&'static str] {
+        match self {
+            RawKind::Tube => &[
+                "from",
+                "to",
+                "length",
+                "bore",
+                "wall",
+                "material",
+                "youngs_modulus",
+                "rigid",
+                "model",
+            ],
+            RawKind::Volume => &["at", "volume"],
+            RawKind::Orifice => &["from", "to", "resistance", "mean_flow", "pressure_drop"],
+            RawKind::Inertance => &["from", "to", "inertance", "resistance", "length", "bore"],
+            RawKind::LoadValve => &["at", "resistance", "mean_flow", "pressure_drop"],
+            RawKind::AnechoicEnd => &["at", "line"],
+            RawKind::ClosedEnd | RawKind::Tank => &["at"],
+        }
+    }
+
+    fn is_two_port(self) -> bool {
+        matches!(self, RawKind::Tube | RawKind::Orifice | RawKind::Inertance)
+    }
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawTap {
+    name: String,
+    node: Option<String>,
+    element: Option<String>,
+    distance: Option<Q<q::Length>>,
+}
+
+/// Reads and validates a circuit file.
+///
+/// # Errors
+/// [`InputError`] naming the file, the line and the key at fault.
+pub fn load_circuit(path: &Path) -> Result<Circuit, InputError> {
+    let text = super::read_text(path)?;
+    parse_circuit(&text, &path.display().to_string())
+}
+
+/// Parses and validates circuit text; `file` names it in error messages.
+///
+/// # Errors
+/// [`InputError`] naming the file, the line and the key at fault.
+pub fn parse_circuit(text: &str, file: &str) -> Result<Circuit, InputError> {
+    let raw: RawCircuit = super::parse_yaml(text, file)?;
+    Checker { text, file }.circuit(raw)
+}
+
+/// Validates raw values; every error is located in the file.
+struct Checker<'a> {
+    text: &'a str,
+    file: &'a str,
+}
+
+type Res<T> = Result<T, InputError>;
+
+impl Checker<'_> {
+    fn err(&self, path: &KeyPath, message: impl Into<String>) -> InputError {
+        InputError::located(self.file, self.text, path, message)
+    }
+
+    /// A value within [lo, hi] (SI), with a message naming the range.
+    fn in_range(&self, path: &KeyPath, value: f64, lo: f64, hi: f64, unit: &str) -> Res<f64> {
+        if value <= 0.0 && lo > 0.0 {
+            return Err(self.err(
+                path,
+                format!("must be greater than zero, found {value} {unit}"),
+            ));
+        }
+        if !(lo..=hi).contains(&value) {
+            return Err(self.err(
+                path,
+                format!(
+                    "{value} {unit} is outside the plausible range {lo:e} .. {hi:e} {unit}: check the unit (a bare number is SI)"
+                ),
+            ));
+        }
+        Ok(value)
+    }
+
+    fn circuit(&self, raw: RawCircuit) -> Res<Circuit> {
+        let root = KeyPath::root();
+        let fluid = self.fluid(&root.key("fluid"), &raw.fluid)?;
+        let line_model = raw.line_model.map_or(LineModel::Laminar, LineModel::from);
+        let harmonics = match raw.harmonics {
+            None => DEFAULT_HARMONICS,
+            Some(n) if (1..=200).contains(&n) => n,
+            Some(n) => {
+                return Err(self.err(
+                    &root.key("harmonics"),
+                    format!("must be between 1 and 200, found {n}"),
+                ));
+            }
+        };
+        if raw.elements.is_empty() {
+            return Err(self.err(
+                &root,
+                "the circuit has no `elements`: add at least one tube or other element",
+            ));
+        }
+
+        // Nodes, in order of first mention by an element.
+        let mut nodes: Vec<Node> = Vec::new();
+        let mut node_id = |name: &str| -> usize {
+            match nodes.iter().position(|n| n.name == name) {
+                Some(i) => i,
+                None => {
+                    nodes.push(Node {
+                        name: name.to_string(),
+                    });
+                    nodes.len() - 1
+                }
+            }
+        };
+
+        let mut names = HashSet::new();
+        let mut connections = Vec::with_capacity(raw.elements.len());
+        for (i, e) in raw.elements.iter().enumerate() {
+            let path = root.key("elements").index(i);
+            if e.name.trim().is_empty() {
+                return Err(self.err(&path.key("name"), "an element name must not be empty"));
+            }
+            if !names.insert(e.name.as_str()) {
+                return Err(self.err(
+                    &path.key("name"),
+                    format!("duplicate element name `{}`: names must be unique", e.name),
+                ));
+            }
+            for key in e.present_keys() {
+                if !e.kind.allowed_keys().contains(&key) {
+                    return Err(self.err(
+                        &path.key(key),
+                        format!(
+                            "key `{key}` does not apply to a `{}`; it takes: name, kind, {}",
+                            e.kind.name(),
+                            e.kind.allowed_keys().join(", ")
+                        ),
+                    ));
+                }
+            }
+            let connection = if e.kind.is_two_port() {
+                let from = self.node_name(&path, "from", e.from.as_deref(), e.kind)?;
+                let to = self.node_name(&path, "to", e.to.as_deref(), e.kind)?;
+                if from == to {
+                    return Err(self.err(
+                        &path.key("to"),
+                        format!("`from` and `to` are the same node `{from}`"),
+                    ));
+                }
+                Connection::Series {
+                    a: node_id(from),
+                    b: node_id(to),
+                }
+            } else {
+                let at = self.node_name(&path, "at", e.at.as_deref(), e.kind)?;
+                Connection::Shunt { at: node_id(at) }
+            };
+            connections.push(connection);
+        }
+
+        // Element models; anechoic ends match a tube, so they are built last.
+        let mut kinds: Vec<Option<ElementKind>> = Vec::with_capacity(raw.elements.len());
+        for (i, e) in raw.elements.iter().enumerate() {
+            let path = root.key("elements").index(i);
+            kinds.push(match e.kind {
+                RawKind::Tube => Some(ElementKind::Tube(self.tube(&path, e, &fluid, line_model)?)),
+                RawKind::Volume => Some(ElementKind::Volume(Volume {
+                    volume_m3: self.in_range(
+                        &path.key("volume"),
+                        self.required(&path, "volume", e.volume, e.kind)?,
+                        1e-9,
+                        10.0,
+                        "m³",
+                    )?,
+                    bulk_modulus_pa: fluid.bulk_modulus_pa,
+                })),
+                RawKind::Orifice => Some(ElementKind::Orifice(Orifice {
+                    resistance_pa_s_m3: self.resistance(&path, e)?,
+                })),
+                RawKind::LoadValve => Some(ElementKind::LoadValve(LoadValve {
+                    resistance_pa_s_m3: self.resistance(&path, e)?,
+                })),
+                RawKind::Inertance => {
+                    Some(ElementKind::Inertance(self.inertance(&path, e, &fluid)?))
+                }
+                RawKind::ClosedEnd => Some(ElementKind::ClosedEnd),
+                RawKind::Tank => Some(ElementKind::Tank),
+                RawKind::AnechoicEnd => None,
+            });
+        }
+        for i in 0..raw.elements.len() {
+            if kinds[i].is_none() {
+                let path = root.key("elements").index(i);
+                let line = self.anechoic_line(&path, &raw.elements[i], &raw.elements, &kinds)?;
+                kinds[i] = Some(ElementKind::Anechoic(Anechoic { line }));
+            }
+        }
+        let elements: Vec<Element> = raw
+            .elements
+            .iter()
+            .zip(kinds)
+            .zip(&connections)
+            .map(|((e, kind), &connection)| Element {
+                name: e.name.clone(),
+                kind: kind.expect("every kind is built above"),
+                connection,
+            })
+            .collect();
+        self.check_node_conditions(&root, &raw.elements, &connections, &nodes)?;
+
+        let mut circuit = Circuit {
+            title: raw.title.clone(),
+            fluid,
+            nodes,
+            elements,
+            pumps: Vec::new(),
+            taps: Vec::new(),
+            harmonics,
+        };
+        let pump_path = root.key("pump");
+        let raw_pump = raw.pump.as_ref().ok_or_else(|| {
+            self.err(
+                &root,
+                "the circuit has no `pump`: add a pump section (node, speed, pumping_elements, flow_ripple, source_impedance)",
+            )
+        })?;
+        let pump = self.pump(&pump_path, raw_pump, &circuit)?;
+        circuit.pumps.push(pump);
+        let mut tap_names = HashSet::new();
+        for (i, t) in raw.taps.iter().enumerate() {
+            let path = root.key("taps").index(i);
+            if !tap_names.insert(t.name.as_str()) {
+                return Err(self.err(
+                    &path.key("name"),
+                    format!("duplicate tap name `{}`: names must be unique", t.name),
+                ));
+            }
+            let tap = self.tap(&path, t, &circuit)?;
+            circuit.taps.push(tap);
+        }
+        crate::network::Plan::compile(&circuit).map_err(|e| {
+            let path = match &e {
+                crate::network::NetworkError::Disconnected { element } => circuit
+                    .element_id(element)
+                    .map_or(root.clone(), |i| root.key("elements").index(i)),
+                crate::network::NetworkError::PumpIntoTank { .. } => pump_path.key("node"),
+                _ => root.clone(),
+            };
+            self.err(&path, e.to_string())
+        })?;
+        Ok(circuit)
+    }
+
+    fn fluid(&self, path: &KeyPath, raw: &RawFluid) -> Res<Fluid> {
+        Ok(Fluid {
+            density_kg_m3: self.in_range(
+                &path.key("density"),
+                raw.density.si,
+                100.0,
+                3000.0,
+                "kg/m³",
+            )?,
+            bulk_modulus_pa: self.in_range(
+                &path.key("bulk_modulus"),
+                raw.bulk_modulus.si,
+                1e6,
+                1e11,
+                "Pa",
+            )?,
+            kinematic_viscosity_m2_s: self.in_range(
+                &path.key("viscosity"),
+                raw.viscosity.si,
+                1e-8,
+                1e-1,
+                "m²/s",
+            )?,
+        })
+    }
+
+    fn node_name<'r>(
+        &self,
+        path: &KeyPath,
+        key: &str,
+        value: Option<&'r str>,
+        kind: RawKind,
+    ) -> Res<&'r str> {
+        match value {
+            Some(v) if !v.trim().is_empty() => Ok(v),
+            Some(_) => Err(self.err(&path.key(key), "a node name must not be empty")),
+            None => Err(self.err(
+                path,
+                format!(
+                    "a `{}` needs the key `{key}` (the node it connects)",
+                    kind.name()
+                ),
+            )),
+        }
+    }
+
+    fn required<D: q::Dim>(
+        &self,
+        path: &KeyPath,
+        key: &str,
+        value: Option<Q<D>>,
+        kind: RawKind,
+    ) -> Res<f64> {
+        value.map(|v| v.si).ok_or_else(|| {
+            self.err(
+                path,
+                format!(
+                    "a `{}` needs the key `{key}` ({})",
+                    kind.name(),
+                    D::DIM.name()
+                ),
+            )
+        })
+    }
+
+    fn tube(&self, path: &KeyPath, e: &RawElement, fluid: &Fluid, default: LineModel) -> Res<Tube> {
+        let length = self.in_range(
+            &path.key("length"),
+            self.required(path, "length", e.length, e.kind)?,
+            1e-4,
+            1e4,
+            "m",
+        )?;
+        let bore = self.in_range(
+            &path.key("bore"),
+            self.required(path, "bore", e.bore, e.kind)?,
+            1e-4,
+            1.0,
+            "m",
+        )?;
+        let wall = match (e.rigid, e.wall) {
+            (Some(true), Some(_)) | (Some(true), None)
+                if e.material.is_some() || e.youngs_modulus.is_some() =>
+            {
+                return Err(self.err(
+                    &path.key("rigid"),
+                    "a rigid tube takes no `material` or `youngs_modulus`",
+                ));
+            }
+            (Some(true), _) => Wall::Rigid,
+            (_, None) => {
+                return Err(self.err(
+                    path,
+                    "a `tube` needs its wall: give `wall` (thickness) with `material` or `youngs_modulus`, or say `rigid: true`",
+                ));
+            }
+            (_, Some(w)) => {
+                let thickness = self.in_range(&path.key("wall"), w.si, 1e-5, 0.5, "m")?;
+                if thickness >= bore / 2.0 {
+                    return Err(self.err(
+                        &path.key("wall"),
+                        format!(
+                            "wall thickness {:.3} mm is not less than the bore radius {:.3} mm: the thin-wall (Korteweg) model does not hold; check the values",
+                            thickness * 1e3,
+                            bore * 5e2
+                        ),
+                    ));
+                }
+                let modulus = match (&e.material, e.youngs_modulus) {
+                    (Some(_), Some(_)) => {
+                        return Err(self.err(
+                            &path.key("youngs_modulus"),
+                            "give either `material` or `youngs_modulus`, not both",
+                        ));
+                    }
+                    (Some(m), None) => Material::from_name(m)
+                        .ok_or_else(|| {
+                            self.err(
+                                &path.key("material"),
+                                format!(
+                                    "unknown material `{m}`; use one of: {} (or give `youngs_modulus`)",
+                                    Material::ALL.map(|m| m.name()).join(", ")
+                                ),
+                            )
+                        })?
+                        .youngs_modulus_pa(),
+                    (None, Some(ey)) => {
+                        self.in_range(&path.key("youngs_modulus"), ey.si, 1e6, 1e12, "Pa")?
+                    }
+                    (None, None) => {
+                        return Err(self.err(
+                            &path.key("wall"),
+                            "a tube wall needs `material` or `youngs_modulus`",
+                        ));
+                    }
+                };
+                Wall::Elastic {
+                    thickness_m: thickness,
+                    youngs_modulus_pa: modulus,
+                }
+            }
+        };
+        let properties = LineProperties {
+            radius_m: bore / 2.0,
+            density_kg_m3: fluid.density_kg_m3,
+            kinematic_viscosity_m2_s: fluid.kinematic_viscosity_m2_s,
+            effective_bulk_modulus_pa: wall.effective_bulk_modulus(fluid.bulk_modulus_pa, bore),
+            model: e.model.map_or(default, LineModel::from),
+        };
+        Ok(Tube {
+            line: Line {
+                properties,
+                length_m: length,
+            },
+            wall,
+        })
+    }
+
+    /// A resistance given directly, or linearised from a mean operating point.
+    fn resistance(&self, path: &KeyPath, e: &RawElement) -> Res<f64> {
+        match (e.resistance, e.mean_flow, e.pressure_drop) {
+            (Some(r), None, None) => self.in_range(&path.key("resistance"), r.si, 1e3, 1e18, "Pa·s/m³"),
+            (None, Some(qm), Some(dp)) => {
+                let qm = self.in_range(&path.key("mean_flow"), qm.si, 1e-9, 10.0, "m³/s")?;
+                let dp = self.in_range(&path.key("pressure_drop"), dp.si, 1.0, 1e9, "Pa")?;
+                Ok(crate::elements::orifice_resistance(dp, qm))
+            }
+            _ => Err(self.err(
+                path,
+                format!(
+                    "a `{}` needs either `resistance`, or both `mean_flow` and `pressure_drop` (linearised as R = 2Δp/Q)",
+                    e.kind.name()
+                ),
+            )),
+        }
+    }
+
+    fn inertance(&self, path: &KeyPath, e: &RawElement, fluid: &Fluid) -> Res<Inertance> {
+        let extra_r = match e.resistance {
+            Some(r) => self.in_range(&path.key("resistance"), r.si, 0.0, 1e18, "Pa·s/m³")?,
+            None => 0.0,
+        };
+        match (e.inertance, e.length, e.bore) {
+            (Some(i), None, None) => Ok(Inertance {
+                inertance_kg_m4: self.in_range(&path.key("inertance"), i.si, 1.0, 1e15, "kg/m⁴")?,
+                resistance_pa_s_m3: extra_r,
+            }),
+            (None, Some(l), Some(d)) => {
+                let l = self.in_range(&path.key("length"), l.si, 1e-5, 10.0, "m")?;
+                let d = self.in_range(&path.key("bore"), d.si, 1e-4, 1.0, "m")?;
+                let r = d / 2.0;
+                let area = std::f64::consts::PI * r * r;
+                Ok(Inertance {
+                    inertance_kg_m4: fluid.density_kg_m3 * l / area,
+                    resistance_pa_s_m3: extra_r
+                        + 8.0 * fluid.dynamic_viscosity_pa_s() * l / (std::f64::consts::PI * r.powi(4)),
+                })
+            }
+            _ => Err(self.err(
+                path,
+                "an `inertance` needs either `inertance`, or both `length` and `bore` of the passage",
+            )),
+        }
+    }
+
+    /// The line an anechoic end matches: the named tube, or the only tube at its node.
+    fn anechoic_line(
+        &self,
+        path: &KeyPath,
+        e: &RawElement,
+        raws: &[RawElement],
+        kinds: &[Option<ElementKind>],
+    ) -> Res<LineProperties> {
+        let candidates: Vec<usize> = match &e.line {
+            Some(name) => {
+                let i = raws.iter().position(|r| &r.name == name).ok_or_else(|| {
+                    self.err(&path.key("line"), format!("no element is called `{name}`"))
+                })?;
+                vec![i]
+            }
+            None => raws
+                .iter()
+                .enumerate()
+                .filter(|(_, r)| {
+                    r.kind == RawKind::Tube
+                        && (r.from.as_deref() == e.at.as_deref()
+                            || r.to.as_deref() == e.at.as_deref())
+                })
+                .map(|(i, _)| i)
+                .collect(),
+        };
+        match candidates.as_slice() {
+            [i] => match &kinds[*i] {
+                Some(ElementKind::Tube(t)) => Ok(t.line.properties),
+                _ => Err(self.err(&path.key("line"), format!("`{}` is not a tube", raws[*i].name))),
+            },
+            [] => Err(self.err(
+                path,
+                "an `anechoic_end` must sit at the end of a tube: no tube reaches its node",
+            )),
+            _ => Err(self.err(
+                path,
+                "several tubes meet at this node: say which one the `anechoic_end` matches with `line: <tube name>`",
+            )),
+        }
+    }
+
+    fn check_node_conditions(
+        &self,
+        root: &KeyPath,
+        raws: &[RawElement],
+        connections: &[Connection],
+        nodes: &[Node],
+    ) -> Res<()> {
+        for (id, node) in nodes.iter().enumerate() {
+            let at_node: Vec<usize> = (0..raws.len())
+                .filter(|&i| connections[i] == Connection::Shunt { at: id })
+                .collect();
+            let has = |k: RawKind| at_node.iter().find(|&&i| raws[i].kind == k).copied();
+            if let (Some(_), Some(i)) = (has(RawKind::Tank), has(RawKind::ClosedEnd)) {
+                return Err(self.err(
+                    &root.key("elements").index(i),
+                    format!(
+                        "node `{}` cannot be both a tank and a closed end",
+                        node.name
+                    ),
+                ));
+            }
+            let reached_by_two_port = connections
+                .iter()
+                .any(|c| matches!(c, Connection::Series { a, b } if *a == id || *b == id));
+            if !reached_by_two_port {
+                let i = at_node[0];
+                return Err(self.err(
+                    &root.key("elements").index(i).key("at"),
+                    format!(
+                        "node `{}` is reached by no tube, orifice or inertance: a `{}` must sit at a node of the line network",
+                        node.name,
+                        raws[i].kind.name()
+                    ),
+                ));
+            }
+        }
+        Ok(())
+    }
+
+    fn pump(&self, path: &KeyPath, raw: &RawPump, circuit: &Circuit) -> Res<Pump> {
+        let node = circuit.node_id(&raw.node).ok_or_else(|| {
+            self.err(
+                &path.key("node"),
+                format!(
+                    "no element reaches node `{}`: the pump must feed a node of the circuit",
+                    raw.node
+                ),
+            )
+        })?;
+        let speed = self.in_range(&path.key("speed"), raw.speed.si, 0.1, 1000.0, "rev/s")?;
+        if !(1..=99).contains(&raw.pumping_elements) {
+            return Err(self.err(
+                &path.key("pumping_elements"),
+                format!(
+                    "the number of teeth or pistons must be between 1 and 99, found {}",
+                    raw.pumping_elements
+                ),
+            ));
+        }
+        let displacement = match raw.displacement {
+            Some(d) => Some(self.in_range(&path.key("displacement"), d.si, 1e-8, 1e-2, "m³")?),
+            None => None,
+        };
+        if raw.flow_ripple.is_empty() {
+            return Err(self.err(
+                &path.key("flow_ripple"),
+                "the flow ripple table is empty: list at least one harmonic",
+            ));
+        }
+        let mut harmonics: Vec<FlowHarmonic> = Vec::new();
+        for (i, h) in raw.flow_ripple.iter().enumerate() {
+            let hp = path.key("flow_ripple").index(i);
+            if h.harmonic == 0 || h.harmonic > 200 {
+                return Err(self.err(
+                    &hp.key("harmonic"),
+                    format!(
+                        "harmonic order must be between 1 and 200, found {}",
+                        h.harmonic
+                    ),
+                ));
+            }
+            if harmonics.iter().any(|x| x.order == h.harmonic) {
+                return Err(self.err(
+                    &hp.key("harmonic"),
+                    format!("harmonic {} is listed twice", h.harmonic),
+                ));
+            }
+            if !(0.0..=10.0).contains(&h.amplitude.si) {
+                return Err(self.err(
+                    &hp.key("amplitude"),
+                    format!(
+                        "flow ripple amplitude must be between 0 and 10 m³/s, found {} m³/s: check the unit",
+                        h.amplitude.si
+                    ),
+                ));
+            }
+            harmonics.push(FlowHarmonic {
+                order: h.harmonic,
+                amplitude_m3_s: h.amplitude.si,
+                phase_rad: h.phase.map_or(0.0, |p| p.si),
+            });
+        }
+        let zs = &raw.source_impedance;
+        let zp = path.key("source_impedance");
+        let volume = zs.volume.si;
+        if !(0.0..=1.0).contains(&volume) {
+            return Err(self.err(
+                &zp.key("volume"),
+                format!(
+                    "internal volume must be between 0 and 1 m³, found {volume} m³: check the unit"
+                ),
+            ));
+        }
+        let leakage = match zs.leakage_resistance {
+            Some(r) => {
+                Some(self.in_range(&zp.key("leakage_resistance"), r.si, 1e3, 1e20, "Pa·s/m³")?)
+            }
+            None => None,
+        };
+        Ok(Pump {
+            name: raw.name.clone().unwrap_or_else(|| "pump".to_string()),
+            node,
+            speed_rev_s: speed,
+            pumping_elements: raw.pumping_elements,
+            displacement_m3: displacement,
+            flow_ripple: FlowRipple::Table {
+                reference_speed_rev_s: speed,
+                harmonics,
+            },
+            source_impedance: SourceImpedance::Volume {
+                capacitance_m3_pa: volume / circuit.fluid.bulk_modulus_pa,
+                leakage_resistance_pa_s_m3: leakage,
+            },
+        })
+    }
+
+    fn tap(&self, path: &KeyPath, raw: &RawTap, circuit: &Circuit) -> Res<Tap> {
+        let location = match (&raw.node, &raw.element, raw.distance) {
+            (Some(node), None, None) => {
+                TapLocation::Node(circuit.node_id(node).ok_or_else(|| {
+                    self.err(
+                        &path.key("node"),
+                        format!("no element reaches node `{node}`"),
+                    )
+                })?)
+            }
+            (None, Some(name), Some(distance)) => {
+                let element = circuit.element_id(name).ok_or_else(|| {
+                    self.err(
+                        &path.key("element"),
+                        format!("no element is called `{name}`"),
+                    )
+                })?;
+                let ElementKind::Tube(tube) = &circuit.elements[element].kind else {
+                    return Err(self.err(
+                        &path.key("element"),
+                        format!("`{name}` is not a tube: a tap along an element needs a tube"),
+                    ));
+                };
+                let length = tube.line.length_m;
+                if !(0.0..=length).contains(&distance.si) {
+                    return Err(self.err(
+                        &path.key("distance"),
+                        format!(
+                            "distance {} m is outside tube `{name}`, which is {length} m long",
+                            distance.si
+                        ),
+                    ));
+                }
+                TapLocation::AlongTube {
+                    element,
+                    distance_m: distance.si,
+                }
+            }
+            _ => {
+                return Err(self.err(
+                    path,
+                    "a tap needs either `node`, or `element` (a tube) with `distance` from its `from` end",
+                ));
+            }
+        };
+        Ok(Tap {
+            name: raw.name.clone(),
+            location,
+        })
+    }
+}

@@ -1,0 +1,259 @@
+//! Uniform liquid-filled lines as frequency-domain two-ports.
+//!
+//! A line of length l carries plane waves P(x) = F e^{−Γx} + G e^{+Γx} with
+//! the propagation coefficient Γ = √(Z'Y') (Re Γ ≥ 0) and the characteristic
+//! impedance Zc = Z'/Γ, where Z' and Y' are the series impedance and shunt
+//! admittance per unit length (methods.md §2.1). Two models of Z' are offered
+//! ([`LineModel`]):
+//!
+//! * lossless: Z' = jωρ/A, Y' = jωA/B → Γ = jω/c0, Zc = ρc0/A;
+//! * laminar (default): Z' = jωρ/(A(1 − F)) with the exact viscous factor F
+//!   of [`viscous`] (Womersley 1955; Brown 1962), Y' = jωA/B.
+//!
+//! B is the effective bulk modulus of liquid and wall together (see
+//! [`crate::wall`]). The two-port is evaluated in the admittance form with
+//! E = e^{−Γl} (|E| ≤ 1), which never overflows for long lossy lines:
+//!
+//! ```text
+//! [Qa]        1  [ (1+E²)/(1−E²)   −2E/(1−E²)  ] [Pa]
+//! [Qb]  =  ——— · [ −2E/(1−E²)     (1+E²)/(1−E²)] [Pb]     (flows leaving each node)
+//!           Zc
+//! ```
+
+pub mod viscous;
+
+use num_complex::Complex64 as C64;
+
+const J: C64 = C64 { re: 0.0, im: 1.0 };
+const ONE: C64 = C64 { re: 1.0, im: 0.0 };
+
+/// How the series impedance of a line is modelled at each frequency.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+#[non_exhaustive]
+pub enum LineModel {
+    /// No friction: Γ = jω/c0, Zc = ρc0/A.
+    Lossless,
+    /// Exact laminar oscillating-flow friction (frequency-dependent).
+    #[default]
+    Laminar,
+}
+
+impl LineModel {
+    /// The name used in circuit files.
+    pub fn name(self) -> &'static str {
+        match self {
+            LineModel::Lossless => "lossless",
+            LineModel::Laminar => "laminar",
+        }
+    }
+}
+
+/// The properties of a uniform line that its wave propagation depends on.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LineProperties {
+    /// Bore radius r in m.
+    pub radius_m: f64,
+    /// Liquid density ρ in kg/m³.
+    pub density_kg_m3: f64,
+    /// Liquid kinematic viscosity ν in m²/s.
+    pub kinematic_viscosity_m2_s: f64,
+    /// Effective bulk modulus of liquid and wall, 1/B = 1/B_liquid + 1/B_wall, in Pa.
+    pub effective_bulk_modulus_pa: f64,
+    /// Friction model.
+    pub model: LineModel,
+}
+
+/// Γ and Zc of a line at one frequency.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Propagation {
+    /// Propagation coefficient Γ in 1/m (Re Γ ≥ 0: attenuation; Im Γ: ω/phase speed).
+    pub gamma: C64,
+    /// Characteristic impedance Zc in Pa·s/m³.
+    pub zc: C64,
+}
+
+impl LineProperties {
+    /// Bore area A = πr² in m².
+    pub fn area_m2(&self) -> f64 {
+        std::f64::consts::PI * self.radius_m * self.radius_m
+    }
+
+    /// Lossless wave speed c0 = √(B_eff/ρ) in m/s (Korteweg when B_eff includes the wall).
+    pub fn wave_speed_m_s(&self) -> f64 {
+        (self.effective_bulk_modulus_pa / self.density_kg_m3).sqrt()
+    }
+
+    /// Lossless characteristic impedance Z0 = ρc0/A in Pa·s/m³.
+    pub fn z0(&self) -> f64 {
+        self.density_kg_m3 * self.wave_speed_m_s() / self.area_m2()
+    }
+
+    /// Shear-wave number s = r√(ω/ν).
+    pub fn shear_number(&self, omega: f64) -> f64 {
+        self.radius_m * (omega / self.kinematic_viscosity_m2_s).sqrt()
+    }
+
+    /// Hagen–Poiseuille resistance per unit length R' = 8μ/(πr⁴) in Pa·s/m⁴.
+    pub fn poiseuille_resistance_per_m(&self) -> f64 {
+        let mu = self.density_kg_m3 * self.kinematic_viscosity_m2_s;
+        8.0 * mu / (std::f64::consts::PI * self.radius_m.powi(4))
+    }
+
+    /// Γ and Zc at angular frequency ω > 0.
+    ///
+    /// Laminar: Γ = (jω/c0)(1 − F)^{−1/2}, Zc = Z'/Γ (methods.md §2.3).
+    pub fn propagation(&self, omega: f64) -> Propagation {
+        let c0 = self.wave_speed_m_s();
+        let area = self.area_m2();
+        match self.model {
+            LineModel::Lossless => Propagation {
+                gamma: J * (omega / c0),
+                zc: C64::new(self.density_kg_m3 * c0 / area, 0.0),
+            },
+            LineModel::Laminar => {
+                let g = viscous::one_minus_viscous_factor(self.shear_number(omega));
+                let series = J * (omega * self.density_kg_m3 / area) / g; // Z'
+                let mut gamma = J * (omega / c0) / g.sqrt();
+                if gamma.re < 0.0 {
+                    gamma = -gamma;
+                }
+                Propagation {
+                    gamma,
+                    zc: series / gamma,
+                }
+            }
+        }
+    }
+}
+
+/// e^z − 1 without cancellation near z = 0:
+/// e^{x+jy} − 1 = (expm1(x) cos y − 2 sin²(y/2)) + j e^x sin y.
+fn exp_m1(z: C64) -> C64 {
+    let (sin_half, sin_y, cos_y) = ((0.5 * z.im).sin(), z.im.sin(), z.im.cos());
+    C64::new(
+        z.re.exp_m1() * cos_y - 2.0 * sin_half * sin_half,
+        z.re.exp() * sin_y,
+    )
+}
+
+/// A uniform line: its properties and its length.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Line {
+    /// What the waves depend on.
+    pub properties: LineProperties,
+    /// Length l in m.
+    pub length_m: f64,
+}
+
+/// The two-port admittance matrix y (flows leaving the end nodes per end pressures).
+pub type Admittance2 = [[C64; 2]; 2];
+
+/// A two-port transfer matrix T: [Pa; Qa] = T·[Pb; Qb], flows in the a→b sense.
+pub type Transfer2 = [[C64; 2]; 2];
+
+impl Line {
+    /// The admittance two-port at Γ, Zc, in the stable e^{−Γl} form.
+    ///
+    /// Returns `None` when 1 − E² is exactly zero (Γl = 0, or a lossless
+    /// line exactly at a half-wave resonance), where no admittance form exists.
+    pub fn admittance(&self, prop: &Propagation) -> Option<Admittance2> {
+        let gl = prop.gamma * self.length_m;
+        let e = (-gl).exp();
+        let e2 = e * e;
+        // 1 − E² without cancellation for short lines: −expm1(−2Γl).
+        let den = -exp_m1(-2.0 * gl);
+        if den == C64::new(0.0, 0.0) || !den.is_finite() {
+            return None;
+        }
+        let coth = (ONE + e2) / den;
+        let csch = 2.0 * e / den;
+        let yc = prop.zc.inv();
+        Some([[coth * yc, -csch * yc], [-csch * yc, coth * yc]])
+    }
+
+    /// The transfer matrix T = [[cosh Γl, Zc sinh Γl], [sinh Γl / Zc, cosh Γl]].
+    ///
+    /// Overflows for Re(Γl) ≳ 700; use it only for lossless or short lines.
+    pub fn transfer(&self, prop: &Propagation) -> Transfer2 {
+        let gl = prop.gamma * self.length_m;
+        let (c, s) = (gl.cosh(), gl.sinh());
+        [[c, prop.zc * s], [s / prop.zc, c]]
+    }
+
+    /// Pressure and flow (a→b sense) at distance x from end a, from the end
+    /// values, using only decaying exponentials (methods.md §2.6):
+    /// F_a = (Pa + Zc Qa)/2, G_b = (Pb − Zc Qb)/2,
+    /// P(x) = F_a e^{−Γx} + G_b e^{−Γ(l−x)}, Q(x) = [F_a e^{−Γx} − G_b e^{−Γ(l−x)}]/Zc.
+    pub fn state_at(
+        &self,
+        prop: &Propagation,
+        x_m: f64,
+        end_a: (C64, C64),
+        end_b: (C64, C64),
+    ) -> (C64, C64) {
+        let (pa, qa) = end_a;
+        let (pb, qb) = end_b;
+        let fwd = (pa + prop.zc * qa) * 0.5 * (-prop.gamma * x_m).exp();
+        let bwd = (pb - prop.zc * qb) * 0.5 * (-prop.gamma * (self.length_m - x_m)).exp();
+        (fwd + bwd, (fwd - bwd) / prop.zc)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn oil_line(model: LineModel) -> LineProperties {
+        // methods.md §2.3 check case: r = 5 mm, ν = 32e-6, ρ = 870, c0 = 1350.
+        LineProperties {
+            radius_m: 5e-3,
+            density_kg_m3: 870.0,
+            kinematic_viscosity_m2_s: 32e-6,
+            effective_bulk_modulus_pa: 870.0 * 1350.0 * 1350.0,
+            model,
+        }
+    }
+
+    #[test]
+    fn lossless_admittance_matches_the_transfer_matrix() {
+        // Y = (1/T12)[[T22, −det T], [−1, T11]] (methods.md §7.1).
+        let line = Line {
+            properties: oil_line(LineModel::Laminar),
+            length_m: 2.0,
+        };
+        let prop = line
+            .properties
+            .propagation(2.0 * std::f64::consts::PI * 225.0);
+        let y = line.admittance(&prop).unwrap();
+        let t = line.transfer(&prop);
+        let det = t[0][0] * t[1][1] - t[0][1] * t[1][0];
+        let want = [
+            [t[1][1] / t[0][1], -det / t[0][1]],
+            [-ONE / t[0][1], t[0][0] / t[0][1]],
+        ];
+        for i in 0..2 {
+            for k in 0..2 {
+                assert!((y[i][k] - want[i][k]).norm() < 1e-12 * y[0][0].norm());
+            }
+        }
+    }
+
+    #[test]
+    fn long_lossy_line_stays_finite() {
+        // methods.md §2.6: r = 2 mm, ν = 1e-4, 20 kHz, 2000 m: Re Γl ≈ 1.9e3.
+        let props = LineProperties {
+            radius_m: 2e-3,
+            kinematic_viscosity_m2_s: 1e-4,
+            ..oil_line(LineModel::Laminar)
+        };
+        let line = Line {
+            properties: props,
+            length_m: 2000.0,
+        };
+        let prop = props.propagation(2.0 * std::f64::consts::PI * 20e3);
+        assert!((prop.gamma * line.length_m).re > 1000.0);
+        let y = line.admittance(&prop).unwrap();
+        let yzc = [y[0][0] * prop.zc, y[0][1] * prop.zc];
+        assert!((yzc[0] - ONE).norm() < 1e-15 && yzc[1].norm() < 1e-15);
+    }
+}

@@ -1,0 +1,177 @@
+//! Pump sources: the Norton model of a positive-displacement pump.
+//!
+//! At its outlet node a pump is a source flow ripple Qs in parallel with a
+//! source impedance Zs to the reference (ISO 10767-1 convention): the flow it
+//! delivers into the circuit is Q = Qs − P/Zs. Harmonic k of the ripple sits at
+//! k·f_p, with the pumping frequency f_p = n·z (shaft speed n in rev/s times
+//! the number z of teeth or pistons).
+
+use crate::elements::NodeId;
+use num_complex::Complex64 as C64;
+
+/// One harmonic of a source flow ripple table.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FlowHarmonic {
+    /// Harmonic order k of the pumping frequency (1 = f_p).
+    pub order: u32,
+    /// Peak amplitude |Qs| in m³/s.
+    pub amplitude_m3_s: f64,
+    /// Phase in rad against the pump's shaft-angle reference (e^{+jωt}).
+    pub phase_rad: f64,
+}
+
+/// The source flow ripple of a pump.
+#[derive(Debug, Clone, PartialEq)]
+#[non_exhaustive]
+pub enum FlowRipple {
+    /// A table of harmonics measured (or computed) at a reference speed.
+    ///
+    /// At another speed the amplitudes scale in proportion to speed and the
+    /// phases are kept: at a fixed displacement the kinematic ripple is a fixed
+    /// fraction of the mean flow, which is proportional to speed (common
+    /// practice).
+    Table {
+        /// Shaft speed at which the table holds, in rev/s.
+        reference_speed_rev_s: f64,
+        /// The harmonics, each order at most once.
+        harmonics: Vec<FlowHarmonic>,
+    },
+}
+
+/// The source impedance of a pump.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[non_exhaustive]
+pub enum SourceImpedance {
+    /// Internal (discharge) volume, with an optional leakage path in parallel:
+    /// Zs = 1/(jωC + 1/R), C = V/B (methods.md §5, forms a and b).
+    /// C = 0 and no leakage gives an ideal flow source (Zs = ∞).
+    Volume {
+        /// Capacitance C = V/B in m³/Pa.
+        capacitance_m3_pa: f64,
+        /// Leakage resistance R in Pa·s/m³, if any.
+        leakage_resistance_pa_s_m3: Option<f64>,
+    },
+}
+
+impl SourceImpedance {
+    /// Source admittance Ys = 1/Zs at ω.
+    pub fn admittance(&self, omega: f64) -> C64 {
+        match *self {
+            SourceImpedance::Volume {
+                capacitance_m3_pa,
+                leakage_resistance_pa_s_m3,
+            } => C64::new(
+                leakage_resistance_pa_s_m3.map_or(0.0, |r| 1.0 / r),
+                omega * capacitance_m3_pa,
+            ),
+        }
+    }
+}
+
+/// A pump in a circuit.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Pump {
+    /// Name, for reports.
+    pub name: String,
+    /// The outlet node it feeds.
+    pub node: NodeId,
+    /// Shaft speed n in rev/s.
+    pub speed_rev_s: f64,
+    /// Number of pumping elements z (teeth of one gear, or pistons).
+    pub pumping_elements: u32,
+    /// Geometric displacement per revolution in m³, if known.
+    pub displacement_m3: Option<f64>,
+    /// The source flow ripple.
+    pub flow_ripple: FlowRipple,
+    /// The source impedance.
+    pub source_impedance: SourceImpedance,
+}
+
+impl Pump {
+    /// Pumping frequency f_p = n·z in Hz at the pump's speed.
+    pub fn pumping_frequency_hz(&self) -> f64 {
+        self.speed_rev_s * f64::from(self.pumping_elements)
+    }
+
+    /// Mean delivered flow (displacement × speed) in m³/s, if the
+    /// displacement is known.
+    pub fn mean_flow_m3_s(&self) -> Option<f64> {
+        self.displacement_m3.map(|d| d * self.speed_rev_s)
+    }
+
+    /// The highest harmonic order the flow ripple defines.
+    pub fn max_order(&self) -> u32 {
+        match &self.flow_ripple {
+            FlowRipple::Table { harmonics, .. } => {
+                harmonics.iter().map(|h| h.order).max().unwrap_or(0)
+            }
+        }
+    }
+
+    /// Complex source flow ripple Qs of harmonic `order` at the pump's speed
+    /// (zero for an order the table does not list).
+    pub fn flow_ripple(&self, order: u32) -> C64 {
+        match &self.flow_ripple {
+            FlowRipple::Table {
+                reference_speed_rev_s,
+                harmonics,
+            } => harmonics
+                .iter()
+                .find(|h| h.order == order)
+                .map_or(C64::new(0.0, 0.0), |h| {
+                    C64::from_polar(
+                        h.amplitude_m3_s * self.speed_rev_s / reference_speed_rev_s,
+                        h.phase_rad,
+                    )
+                }),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // methods.md §5 worked example: C_s = 6.25e-14 m³/Pa (0.1 L at 1.6 GPa),
+    // R_leak = 1.2e12 Pa·s/m³; at 225 Hz Zs = 1.067322e8 − j1.131668e10
+    // (computed with numpy; recomputable by hand from Zs = 1/(jωC + 1/R)).
+    #[test]
+    fn volume_with_leakage_impedance() {
+        let zs = SourceImpedance::Volume {
+            capacitance_m3_pa: 1e-4 / 1.6e9,
+            leakage_resistance_pa_s_m3: Some(1.2e12),
+        };
+        let z = zs.admittance(2.0 * std::f64::consts::PI * 225.0).inv();
+        assert!((z.re - 1.067322e8).abs() / 1.067322e8 < 1e-6);
+        assert!((z.im + 1.131668e10).abs() / 1.131668e10 < 1e-6);
+    }
+
+    #[test]
+    fn ripple_scales_with_speed_and_pumping_frequency_is_n_times_z() {
+        let pump = Pump {
+            name: "p".into(),
+            node: 0,
+            speed_rev_s: 30.0,
+            pumping_elements: 12,
+            displacement_m3: Some(25e-6),
+            flow_ripple: FlowRipple::Table {
+                reference_speed_rev_s: 25.0,
+                harmonics: vec![FlowHarmonic {
+                    order: 1,
+                    amplitude_m3_s: 1e-5,
+                    phase_rad: 0.5,
+                }],
+            },
+            source_impedance: SourceImpedance::Volume {
+                capacitance_m3_pa: 0.0,
+                leakage_resistance_pa_s_m3: None,
+            },
+        };
+        assert_eq!(pump.pumping_frequency_hz(), 360.0);
+        let q = pump.flow_ripple(1);
+        assert!((q.norm() - 1.2e-5).abs() < 1e-18);
+        assert!((q.arg() - 0.5).abs() < 1e-15);
+        assert_eq!(pump.flow_ripple(2), C64::new(0.0, 0.0));
+        assert!((pump.mean_flow_m3_s().unwrap() - 7.5e-4).abs() < 1e-18);
+    }
+}
