@@ -34,6 +34,7 @@ use plotters::style::text_anchor::{HPos, Pos, VPos};
 use plotters::style::{
     Color, FontStyle, FontTransform, IntoFont, RGBColor, ShapeStyle, TextStyle, register_font,
 };
+use plotters_backend::{BackendColor, BackendCoord, DrawingErrorKind};
 
 /// Default picture size in pixels (width, height).
 pub const DEFAULT_SIZE: (u32, u32) = (1000, 600);
@@ -251,19 +252,24 @@ pub struct LineChart {
     pub x_label: String,
     /// Description of the y axis including its unit.
     pub y_label: String,
-    /// The curves.
+    /// The curves. A series without points is allowed (it only appears in the
+    /// legend), but at least one series must have points.
     pub series: Vec<XySeries>,
     /// Logarithmic x axis (all x values must then be positive).
     pub log_x: bool,
     /// Logarithmic y axis (all y values must then be positive).
     pub log_y: bool,
-    /// Fixed x range (low, high) in data units; `None` fits the data.
+    /// Fixed x range (low, high) in data units; `None` fits the curves and the
+    /// point markers. Anything outside the range is clipped.
     pub x_range: Option<(f64, f64)>,
-    /// Fixed y range (low, high) in data units; `None` fits the data.
+    /// Fixed y range (low, high) in data units; `None` fits the curves, their
+    /// error bars and the point markers, with a small margin.
     pub y_range: Option<(f64, f64)>,
-    /// Vertical dashed lines, labelled above the plot (e.g. resonances).
+    /// Vertical dashed lines, labelled above the plot (e.g. resonances). They do
+    /// not widen the x range; markers outside it are left out.
     pub x_markers: Vec<Marker>,
-    /// Horizontal dashed lines, labelled at the right end.
+    /// Horizontal dashed lines, labelled at the right end. They do not widen the
+    /// y range; markers outside it are left out.
     pub y_markers: Vec<Marker>,
     /// Labelled dots (e.g. pressure nodes along a line).
     pub point_markers: Vec<PointMarker>,
@@ -312,7 +318,7 @@ pub struct HeatMap {
     pub x_label: String,
     /// Description of the y axis including its unit.
     pub y_label: String,
-    /// Description of the colour scale including its unit, e.g. "level [dB]".
+    /// Description of the colour scale including its unit, e.g. `level [dB]`.
     pub z_label: String,
     /// Cell centres along x, strictly increasing.
     pub x: Vec<f64>,
@@ -449,16 +455,21 @@ fn render<F: Figure>(
                 fig.draw(&root)?;
                 root.present().map_err(be)?;
             }
-            std::fs::write(path, svg).map_err(|source| PlotError::Io {
-                path: path.to_path_buf(),
-                source,
+            std::fs::write(path, svg).map_err(|source| {
+                // do not leave a partly written file behind
+                let _ = std::fs::remove_file(path);
+                PlotError::Io {
+                    path: path.to_path_buf(),
+                    source,
+                }
             })
         }
         OutputFormat::Png => {
             let (w, h) = size;
             let mut pixels = vec![0u8; w as usize * h as usize * 3];
             {
-                let root = BitMapBackend::with_buffer(&mut pixels, size).into_drawing_area();
+                let root =
+                    RasterText(BitMapBackend::with_buffer(&mut pixels, size)).into_drawing_area();
                 root.fill(&BACKGROUND).map_err(be)?;
                 fig.draw(&root)?;
                 root.present().map_err(be)?;
@@ -474,10 +485,193 @@ fn render<F: Figure>(
                     path: path.to_path_buf(),
                     source,
                 })?;
-            let mut file = BitMapBackend::new(path, size);
-            file.blit_bitmap((0, 0), size, &pixels).map_err(be)?;
-            file.present().map_err(be)
+            let result = {
+                let mut file = BitMapBackend::new(path, size);
+                file.blit_bitmap((0, 0), size, &pixels)
+                    .and_then(|()| file.present())
+                    .map_err(be)
+            }; // the backend is dropped here, before any clean-up
+            if result.is_err() {
+                let _ = std::fs::remove_file(path);
+            }
+            result
         }
+    }
+}
+
+/// The embedded font as seen by the glyph rasteriser (`None` if it cannot be
+/// parsed, which [`ensure_font`] would already have reported).
+fn glyph_font() -> Option<&'static ab_glyph::FontRef<'static>> {
+    static FONT: OnceLock<Option<ab_glyph::FontRef<'static>>> = OnceLock::new();
+    FONT.get_or_init(|| ab_glyph::FontRef::try_from_slice(FONT_BYTES).ok())
+        .as_ref()
+}
+
+/// A bitmap backend wrapper that rasterises text itself.
+///
+/// plotters 0.3.7 places every glyph at the pen position without its left side
+/// bearing, which makes the letter spacing in PNG output visibly uneven. This
+/// wrapper draws each glyph at pen position plus bearing, with kerning, and
+/// otherwise keeps the layout of plotters (same text box, anchors, baseline and
+/// rotations), so that labels stay where plotters expects them.
+struct RasterText<B>(B);
+
+impl<B: DrawingBackend> DrawingBackend for RasterText<B> {
+    type ErrorType = B::ErrorType;
+
+    fn get_size(&self) -> (u32, u32) {
+        self.0.get_size()
+    }
+
+    fn ensure_prepared(&mut self) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.ensure_prepared()
+    }
+
+    fn present(&mut self) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.present()
+    }
+
+    fn draw_pixel(
+        &mut self,
+        point: BackendCoord,
+        color: BackendColor,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.draw_pixel(point, color)
+    }
+
+    fn draw_line<S: plotters_backend::BackendStyle>(
+        &mut self,
+        from: BackendCoord,
+        to: BackendCoord,
+        style: &S,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.draw_line(from, to, style)
+    }
+
+    fn draw_rect<S: plotters_backend::BackendStyle>(
+        &mut self,
+        upper_left: BackendCoord,
+        bottom_right: BackendCoord,
+        style: &S,
+        fill: bool,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.draw_rect(upper_left, bottom_right, style, fill)
+    }
+
+    fn draw_path<S: plotters_backend::BackendStyle, I: IntoIterator<Item = BackendCoord>>(
+        &mut self,
+        path: I,
+        style: &S,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.draw_path(path, style)
+    }
+
+    fn draw_circle<S: plotters_backend::BackendStyle>(
+        &mut self,
+        center: BackendCoord,
+        radius: u32,
+        style: &S,
+        fill: bool,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.draw_circle(center, radius, style, fill)
+    }
+
+    fn fill_polygon<S: plotters_backend::BackendStyle, I: IntoIterator<Item = BackendCoord>>(
+        &mut self,
+        vert: I,
+        style: &S,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.fill_polygon(vert, style)
+    }
+
+    fn blit_bitmap(
+        &mut self,
+        pos: BackendCoord,
+        size: (u32, u32),
+        src: &[u8],
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        self.0.blit_bitmap(pos, size, src)
+    }
+
+    fn estimate_text_size<S: plotters_backend::BackendTextStyle>(
+        &self,
+        text: &str,
+        style: &S,
+    ) -> Result<(u32, u32), DrawingErrorKind<Self::ErrorType>> {
+        self.0.estimate_text_size(text, style)
+    }
+
+    fn draw_text<S: plotters_backend::BackendTextStyle>(
+        &mut self,
+        text: &str,
+        style: &S,
+        pos: BackendCoord,
+    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
+        use ab_glyph::{Font, ScaleFont};
+        let color = style.color();
+        if color.alpha == 0.0 || text.is_empty() {
+            return Ok(());
+        }
+        let Some(font) = glyph_font() else {
+            return self.0.draw_text(text, style, pos);
+        };
+        // Text box and anchor offsets exactly as plotters computes them.
+        let ((min_x, min_y), (max_x, max_y)) = style
+            .layout_box(text)
+            .map_err(|e| DrawingErrorKind::FontError(Box::new(e)))?;
+        let (width, height) = (max_x - min_x, max_y - min_y);
+        let anchor = style.anchor();
+        let dx = match anchor.h_pos {
+            HPos::Left => 0,
+            HPos::Right => -width,
+            HPos::Center => -width / 2,
+        };
+        let dy = match anchor.v_pos {
+            VPos::Top => 0,
+            VPos::Center => -height / 2,
+            VPos::Bottom => -height,
+        };
+        let trans = style.transform();
+        let size = style.size() as f32;
+        let scaled = font.as_scaled(size);
+        let (w, h) = self.0.get_size();
+        let mut pen = 0.0f32;
+        let mut prev = None;
+        for ch in text.chars() {
+            let id = scaled.glyph_id(ch);
+            if let Some(p) = prev {
+                pen += scaled.kern(p, id);
+            }
+            prev = Some(id);
+            let glyph = id.with_scale_and_position(size, ab_glyph::point(pen, 0.0));
+            pen += scaled.h_advance(id);
+            let Some(outline) = font.outline_glyph(glyph) else {
+                continue; // blank glyph such as a space
+            };
+            let bounds = outline.px_bounds();
+            let ox = bounds.min.x as i32;
+            // baseline at half the font size below the box top, as in plotters
+            let oy = (size / 2.0 + bounds.min.y) as i32;
+            let mut result = Ok(());
+            let inner = &mut self.0;
+            outline.draw(|gx, gy, coverage| {
+                if result.is_err() || coverage <= 0.0 {
+                    return;
+                }
+                let (x, y) =
+                    trans.transform(ox + gx as i32 + dx - min_x, oy + gy as i32 + dy - min_y);
+                let (x, y) = (pos.0 + x, pos.1 + y);
+                if x >= 0 && y >= 0 && x < w as i32 && y < h as i32 {
+                    let c = BackendColor {
+                        alpha: color.alpha * f64::from(coverage.min(1.0)),
+                        rgb: color.rgb,
+                    };
+                    result = inner.draw_pixel((x, y), c);
+                }
+            });
+            result?;
+        }
+        Ok(())
     }
 }
 
@@ -774,7 +968,7 @@ fn multiples(lo: f64, hi: f64, step: f64) -> Vec<f64> {
     let tol = step * 1e-9;
     let k0 = ((lo - tol) / step).ceil() as i64;
     let k1 = ((hi + tol) / step).floor() as i64;
-    if k1 < k0 || k1 - k0 > 10_000 {
+    if k1 < k0 || i128::from(k1) - i128::from(k0) > 10_000 {
         return Vec::new();
     }
     (k0..=k1).map(|k| k as f64 * step).collect()
@@ -783,11 +977,18 @@ fn multiples(lo: f64, hi: f64, step: f64) -> Vec<f64> {
 /// Ticks for a linear axis and a matching label format.
 fn linear_ticks(lo: f64, hi: f64, target: usize) -> (Vec<f64>, Vec<f64>, LabelFormat) {
     let span = hi - lo;
-    if !(span > 0.0) || !span.is_finite() {
+    if span.is_nan() || span <= 0.0 || !span.is_finite() {
         return (vec![lo], Vec::new(), LabelFormat::Auto);
     }
-    let (step, div) = nice_step(span, target);
-    let major = multiples(lo, hi, step);
+    // Ask for more intervals until at least three ticks fall inside the range.
+    let (mut step, mut div) = nice_step(span, target);
+    let mut major = multiples(lo, hi, step);
+    let mut t = target;
+    while major.len() < 3 && t < 64 {
+        t *= 2;
+        (step, div) = nice_step(span, t);
+        major = multiples(lo, hi, step);
+    }
     let minor_step = step / div as f64;
     let minor = multiples(lo, hi, minor_step)
         .into_iter()
@@ -848,7 +1049,7 @@ fn log_ticks(lo: f64, hi: f64, target: usize) -> (Vec<f64>, Vec<f64>, LabelForma
     };
     let decades = with_mantissas(&[1.0]);
     if decades.len() >= 2 {
-        if span * 3.0 <= target as f64 && span <= 4.0 {
+        if span * 3.0 <= target as f64 * 1.25 && span <= 4.0 {
             let major = with_mantissas(&[1.0, 2.0, 5.0]);
             let minor = with_mantissas(&[3.0, 4.0, 6.0, 7.0, 8.0, 9.0]);
             return (major, minor, LabelFormat::Auto);
@@ -1405,6 +1606,17 @@ fn checked_range(
     Ok(Some(if log { (a.log10(), b.log10()) } else { (a, b) }))
 }
 
+/// Rejects axis ranges that overflowed (data near the largest `f64`).
+fn finite_range(r: (f64, f64), what: &str) -> Result<(f64, f64), PlotError> {
+    if r.0.is_finite() && r.1.is_finite() && (r.1 - r.0).is_finite() && r.1 > r.0 {
+        Ok(r)
+    } else {
+        Err(PlotError::InvalidData(format!(
+            "the {what} values are too large in magnitude to be plotted"
+        )))
+    }
+}
+
 /// Tracks the minimum and maximum of a set of values.
 #[derive(Debug, Clone, Copy)]
 struct Extent(Option<(f64, f64)>);
@@ -1522,6 +1734,7 @@ impl<'a> BarFigure<'a> {
                 )
             }
         };
+        let y_range = finite_range(y_range, "y")?;
         Ok(BarFigure { chart, y_range })
     }
 }
@@ -1552,7 +1765,11 @@ impl Figure for BarFigure<'_> {
         let x = Axis::categories(&c.categories, max_labels);
         let layout = Layout {
             top: MARGIN,
-            right: MARGIN + legend_w,
+            right: if legend_w == 0 {
+                2 * MARGIN
+            } else {
+                MARGIN + legend_w
+            },
             x_area,
             y_area,
         };
@@ -1577,7 +1794,7 @@ impl Figure for BarFigure<'_> {
                 }
                 let u0 = ci as f64 + (1.0 - group) / 2.0 + si as f64 * bar_w;
                 let x0 = frame.px_x(u0);
-                let x1 = (frame.px_x(u0 + bar_w) - 1).max(x0);
+                let x1 = frame.px_x(u0 + bar_w).max(x0 + 1);
                 let yv = y.frac(y.unit(v)).clamp(0.0, 1.0);
                 let py = frame.px((0.0, yv)).1;
                 if py == py_base {
@@ -1750,6 +1967,7 @@ impl<'a> StackFigure<'a> {
                     padded(a, b, c.log_y, 0.05)
                 }
             };
+            let y_range = finite_range(y_range, "y")?;
             panels.push(Panel { chart: c, y_range });
         }
         if height > MAX_DIMENSION {
@@ -1765,6 +1983,7 @@ impl<'a> StackFigure<'a> {
                 padded(a, b, log_x, 0.0)
             }
         };
+        let x_range = finite_range(x_range, "x")?;
         let x_desc = charts
             .iter()
             .rev()
@@ -1822,7 +2041,7 @@ impl Figure for StackFigure<'_> {
         }
         let (w, _) = root.dim_in_pixel();
         let est_w = w.saturating_sub(y_area + legend_w + 2 * MARGIN).max(50);
-        let x_target = (est_w / 95).max(2) as usize;
+        let x_target = (est_w / 80).max(2) as usize;
         let x_shown = Axis::numeric(self.x_range.0, self.x_range.1, self.log_x, x_target);
         for (i, p) in self.panels.iter().enumerate() {
             let bottom = i + 1 == n;
@@ -1831,7 +2050,11 @@ impl Figure for StackFigure<'_> {
             let area = with_title(&areas[i], &p.chart.title, title_px)?;
             let layout = Layout {
                 top: MARGIN,
-                right: MARGIN + legend_w,
+                right: if legend_w == 0 {
+                    2 * MARGIN
+                } else {
+                    MARGIN + legend_w
+                },
                 x_area: x_area_height(bottom, !self.x_desc.is_empty()),
                 y_area,
             };
@@ -1844,6 +2067,9 @@ impl Figure for StackFigure<'_> {
     }
 }
 
+/// Row, left pixel and width of an x-marker label above the plot.
+type LabelSlot = (usize, i32, i32);
+
 /// Assigns each x-marker label a row above the plot so that labels in one row do
 /// not overlap. Returns (row, left x, width) per marker, `None` for markers
 /// outside the x range.
@@ -1851,7 +2077,7 @@ fn marker_rows<DB: DrawingBackend>(
     root: &DrawingArea<DB, Shift>,
     frame: &Frame,
     markers: &[Marker],
-) -> Result<Vec<Option<(usize, i32, i32)>>, PlotError> {
+) -> Result<Vec<Option<LabelSlot>>, PlotError> {
     let mut rows: Vec<Vec<(i32, i32)>> = Vec::new();
     let mut out = Vec::with_capacity(markers.len());
     let (root_w, _) = root.dim_in_pixel();
@@ -2244,10 +2470,15 @@ impl<'a> HeatFigure<'a> {
         for (i, m) in map.y_markers.iter().enumerate() {
             check_finite(m.value, &format!("y marker '{}'", m.label), i, "position")?;
         }
+        let x_edges = cell_edges(&map.x);
+        let y_edges = cell_edges(&map.y);
+        finite_range((x_edges[0], x_edges[x_edges.len() - 1]), "x grid")?;
+        finite_range((y_edges[0], y_edges[y_edges.len() - 1]), "y grid")?;
+        let z_range = finite_range(z_range, "z")?;
         Ok(HeatFigure {
             map,
-            x_edges: cell_edges(&map.x),
-            y_edges: cell_edges(&map.y),
+            x_edges,
+            y_edges,
             z_range,
         })
     }
@@ -2444,7 +2675,7 @@ impl Figure for HeatFigure<'_> {
                 (p, l) => {
                     if let Some((pl, start)) = p {
                         root.draw(&Rectangle::new(
-                            [(bx0, start), (bx1, row - 1)],
+                            [(bx0, start), (bx1, row)],
                             level_colour(pl).filled(),
                         ))
                         .map_err(be)?;
@@ -2834,6 +3065,39 @@ mod tests {
         }
         assert!(matches!(heat_map(&p, &h), Err(PlotError::NoData(_))));
         assert!(dir.is_empty());
+    }
+
+    #[test]
+    fn huge_values_are_rejected_not_drawn() {
+        let dir = TempDir::new("huge");
+        let p = dir.path("x.png");
+        let l = LineChart {
+            series: vec![XySeries {
+                name: "big".into(),
+                points: vec![(0.0, -1.5e308), (1.0, 1.5e308)],
+                ..XySeries::default()
+            }],
+            ..LineChart::default()
+        };
+        assert!(matches!(line_chart(&p, &l), Err(PlotError::InvalidData(_))));
+        let h = HeatMap {
+            x: vec![-1e308, 1e308],
+            y: vec![0.0],
+            z: vec![vec![1.0], vec![2.0]],
+            ..HeatMap::default()
+        };
+        assert!(matches!(heat_map(&p, &h), Err(PlotError::InvalidData(_))));
+        // large but representable values are fine
+        let l = LineChart {
+            series: vec![XySeries {
+                name: "big".into(),
+                points: vec![(0.0, -1e300), (1.0, 1e300)],
+                ..XySeries::default()
+            }],
+            ..LineChart::default()
+        };
+        line_chart(&p, &l).unwrap();
+        assert_png(&p, DEFAULT_SIZE);
     }
 
     #[test]

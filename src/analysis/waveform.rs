@@ -88,7 +88,7 @@ mod tests {
     // (tests/oracles/line_refs.py item 8).
     #[test]
     fn gear_parabola_peak_to_peak() {
-        let dq = 6.160327046218468e-5;
+        let dq = 6.160_327_046_218_468e-5;
         let h: Vec<(u32, C64)> = (1..=10)
             .map(|k| {
                 let sign = if k % 2 == 1 { 1.0 } else { -1.0 };
@@ -98,7 +98,7 @@ mod tests {
             .collect();
         let pp = peak_to_peak(&h);
         assert!(
-            (pp - 5.911479321806250e-5).abs() < 1e-12 * 5.9e-5 * 1e3,
+            (pp - 5.911_479_321_806_25e-5).abs() < 1e-9 * 5.9e-5,
             "{pp:e}"
         );
     }

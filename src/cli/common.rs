@@ -84,15 +84,16 @@ pub fn check_output(option: &str, path: &Path, extensions: &[&str]) -> anyhow::R
         ))
         .into());
     }
-    if let Some(dir) = path.parent().filter(|d| !d.as_os_str().is_empty()) {
-        if !dir.is_dir() {
-            return Err(UsageError(format!(
-                "{option} {}: the folder {} does not exist",
-                path.display(),
-                dir.display()
-            ))
-            .into());
-        }
+    if let Some(dir) = path
+        .parent()
+        .filter(|d| !d.as_os_str().is_empty() && !d.is_dir())
+    {
+        return Err(UsageError(format!(
+            "{option} {}: the folder {} does not exist",
+            path.display(),
+            dir.display()
+        ))
+        .into());
     }
     Ok(path.to_path_buf())
 }

@@ -21,7 +21,7 @@ pub use ends::Anechoic;
 pub use lumped::{Inertance, LoadValve, Orifice, Volume, orifice_resistance};
 pub use tube::Tube;
 
-use crate::line::{Admittance2, Transfer2};
+use crate::line::{Admittance2, LineProperties, Propagation, Transfer2};
 use num_complex::Complex64 as C64;
 
 /// Index of a node in a circuit's node list.
@@ -126,17 +126,40 @@ impl ElementKind {
         }
     }
 
+    /// The line whose Γ and Zc this element needs, if any (tubes, and the
+    /// line an anechoic end matches). The network evaluates each distinct
+    /// line once per frequency and hands the result to
+    /// [`ElementKind::behaviour_with`].
+    pub fn line_properties(&self) -> Option<&LineProperties> {
+        match self {
+            ElementKind::Tube(t) => Some(&t.line.properties),
+            ElementKind::Anechoic(a) => Some(&a.line),
+            _ => None,
+        }
+    }
+
     /// The element's behaviour at angular frequency ω > 0 (rad/s).
     pub fn behaviour(&self, omega: f64) -> Behaviour {
+        let prop = self.line_properties().map(|p| p.propagation(omega));
+        self.behaviour_with(omega, prop.as_ref())
+    }
+
+    /// The element's behaviour at ω, given the propagation of its line
+    /// (from [`ElementKind::line_properties`]) when it has one.
+    ///
+    /// # Panics
+    /// If the element has a line and `prop` is `None`.
+    pub fn behaviour_with(&self, omega: f64, prop: Option<&Propagation>) -> Behaviour {
+        let line = || prop.expect("the caller evaluates the element's line");
         match self {
-            ElementKind::Tube(t) => t.behaviour(omega),
+            ElementKind::Tube(t) => t.behaviour(line()),
             ElementKind::Volume(v) => Behaviour::Shunt(v.admittance(omega)),
             ElementKind::Orifice(o) => series_admittance(C64::new(o.resistance_pa_s_m3, 0.0)),
             ElementKind::Inertance(i) => series_admittance(i.impedance(omega)),
             ElementKind::LoadValve(v) => {
                 Behaviour::Shunt(C64::new(1.0 / v.resistance_pa_s_m3, 0.0))
             }
-            ElementKind::Anechoic(a) => Behaviour::Shunt(a.admittance(omega)),
+            ElementKind::Anechoic(_) => Behaviour::Shunt(line().zc.inv()),
             ElementKind::ClosedEnd | ElementKind::Tank => Behaviour::Nothing,
         }
     }

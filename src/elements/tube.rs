@@ -31,14 +31,14 @@ impl Tube {
         self.line.properties.propagation(omega)
     }
 
-    /// The tube's two-port at ω: the stable admittance form for lossy lines,
-    /// the transfer matrix for lossless ones.
-    pub fn behaviour(&self, omega: f64) -> Behaviour {
-        let prop = self.propagation(omega);
+    /// The tube's two-port given its line's Γ and Zc at the frequency: the
+    /// stable admittance form for lossy lines, the transfer matrix for
+    /// lossless ones.
+    pub fn behaviour(&self, prop: &Propagation) -> Behaviour {
         if self.needs_branch_flows() {
-            return Behaviour::Transfer(self.line.transfer(&prop));
+            return Behaviour::Transfer(self.line.transfer(prop));
         }
-        match self.line.admittance(&prop) {
+        match self.line.admittance(prop) {
             Some(y) => Behaviour::Admittance(y),
             // Only for Γl = 0 exactly, which a lossy line never has at ω > 0;
             // the network reports it as a singular frequency.

@@ -26,7 +26,10 @@ use std::path::Path;
 pub const DEFAULT_HARMONICS: u32 = 10;
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a circuit: a mapping with fluid, pump, elements and taps"
+)]
 struct RawCircuit {
     title: Option<String>,
     fluid: RawFluid,
@@ -40,7 +43,10 @@ struct RawCircuit {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a fluid section: a mapping with density, bulk_modulus and viscosity"
+)]
 struct RawFluid {
     density: Q<q::Density>,
     bulk_modulus: Q<q::Modulus>,
@@ -64,7 +70,10 @@ impl From<RawLineModel> for LineModel {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a pump section: a mapping with node, speed, pumping_elements, flow_ripple and source_impedance"
+)]
 struct RawPump {
     name: Option<String>,
     node: String,
@@ -76,7 +85,10 @@ struct RawPump {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a harmonic: a mapping with harmonic, amplitude and phase"
+)]
 struct RawHarmonic {
     harmonic: u32,
     amplitude: Q<q::Flow>,
@@ -85,7 +97,10 @@ struct RawHarmonic {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a source impedance: a mapping with volume and optionally leakage_resistance"
+)]
 struct RawSourceImpedance {
     volume: Q<q::Volume>,
     leakage_resistance: Option<Q<q::Resistance>>,
@@ -105,7 +120,10 @@ enum RawKind {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "an element: a mapping with name, kind and the kind's keys"
+)]
 struct RawElement {
     name: String,
     kind: RawKind,
@@ -199,7 +217,10 @@ impl RawKind {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a tap: a mapping with name and node, or name, element and distance"
+)]
 struct RawTap {
     name: String,
     node: Option<String>,

@@ -101,8 +101,9 @@ fn parse_lines(text: &str) -> Vec<Line<'_>> {
 }
 
 /// The (line, column), both 1-based, where `path` is written in `text`, or
-/// the deepest enclosing position found; `None` if not even the first step is
-/// found.
+/// the deepest enclosing entry found (a key missing from its entry, or an
+/// entry written in flow style, points at the entry); `None` if not even the
+/// first step is found.
 pub fn locate(text: &str, path: &KeyPath) -> Option<(usize, usize)> {
     let lines = parse_lines(text);
     let mut found = None;
@@ -131,7 +132,8 @@ pub fn locate(text: &str, path: &KeyPath) -> Option<(usize, usize)> {
                         !l.dash && l.indent == block_indent
                     };
                     at_indent && l.key == Some(k.as_str())
-                })?;
+                });
+                let Some(pos) = pos else { break };
                 found = Some((lines[pos].number, lines[pos].key_col));
                 let own = if Some(pos) == item_first {
                     lines[pos].key_col - 1
@@ -146,11 +148,11 @@ pub fn locate(text: &str, path: &KeyPath) -> Option<(usize, usize)> {
                 item_first = None;
             }
             PathSegment::Index(n) => {
-                let seq_indent = lines.get(lo).map(|l| l.indent)?;
+                let seq_indent = lines[lo].indent;
                 let items: Vec<usize> = (lo..hi)
                     .filter(|&i| lines[i].dash && lines[i].indent == seq_indent)
                     .collect();
-                let &start = items.get(*n)?;
+                let Some(&start) = items.get(*n) else { break };
                 let end = items.get(n + 1).copied().unwrap_or(hi);
                 found = Some((lines[start].number, lines[start].indent + 1));
                 lo = start;
@@ -214,7 +216,12 @@ taps:
 
     #[test]
     fn missing_keys_fall_back_to_the_enclosing_entry() {
-        assert_eq!(locate(TEXT, &path(&["elements", "1", "bore"])), None);
+        let flow = "taps:\n  - {name: a, node: b}\n  - {name: c, node: d}\n";
+        assert_eq!(locate(flow, &path(&["taps", "1", "node"])), Some((3, 3)));
+        assert_eq!(
+            locate(TEXT, &path(&["elements", "1", "bore"])),
+            Some((8, 3))
+        );
         assert_eq!(locate(TEXT, &path(&["nothing"])), None);
         assert_eq!(
             path(&["elements", "1", "bore"]).to_string(),

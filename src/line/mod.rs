@@ -113,7 +113,7 @@ impl LineProperties {
             LineModel::Laminar => {
                 let g = viscous::one_minus_viscous_factor(self.shear_number(omega));
                 let series = J * (omega * self.density_kg_m3 / area) / g; // Z'
-                let mut gamma = J * (omega / c0) / g.sqrt();
+                let mut gamma = J * (omega / c0) / sqrt(g);
                 if gamma.re < 0.0 {
                     gamma = -gamma;
                 }
@@ -123,6 +123,24 @@ impl LineProperties {
                 }
             }
         }
+    }
+}
+
+/// Principal square root (Re ≥ 0) with one hypot and two real square roots:
+/// √z = √((|z| + x)/2) + j·sign(y)·√((|z| − x)/2), the larger part computed
+/// directly and the other from y/(2·larger) to avoid cancellation.
+fn sqrt(z: C64) -> C64 {
+    let (x, y) = (z.re, z.im);
+    if x == 0.0 && y == 0.0 {
+        return C64::new(0.0, 0.0);
+    }
+    let m = x.hypot(y);
+    if x >= 0.0 {
+        let re = (0.5 * (m + x)).sqrt();
+        C64::new(re, y / (2.0 * re))
+    } else {
+        let im = (0.5 * (m - x)).sqrt().copysign(y);
+        C64::new(y / (2.0 * im), im)
     }
 }
 
@@ -160,8 +178,12 @@ impl Line {
         let gl = prop.gamma * self.length_m;
         let e = (-gl).exp();
         let e2 = e * e;
-        // 1 − E² without cancellation for short lines: −expm1(−2Γl).
-        let den = -exp_m1(-2.0 * gl);
+        // 1 − E², without cancellation for electrically short lines.
+        let den = if gl.norm_sqr() < 0.25 {
+            -exp_m1(-2.0 * gl)
+        } else {
+            ONE - e2
+        };
         if den == C64::new(0.0, 0.0) || !den.is_finite() {
             return None;
         }
@@ -235,6 +257,26 @@ mod tests {
             for k in 0..2 {
                 assert!((y[i][k] - want[i][k]).norm() < 1e-12 * y[0][0].norm());
             }
+        }
+    }
+
+    #[test]
+    fn square_root_is_the_principal_branch() {
+        for z in [
+            C64::new(3.0, 4.0),
+            C64::new(-3.0, 4.0),
+            C64::new(-3.0, -4.0),
+            C64::new(2.0, -1e-300),
+            C64::new(-1.0, 0.0),
+        ] {
+            let r = sqrt(z);
+            assert!((r * r - z).norm() < 1e-15 * z.norm(), "{z}");
+            assert!(r.re >= 0.0);
+            assert!(
+                (r - z.sqrt()).norm() < 1e-15 * r.norm(),
+                "{z}: {r} vs {}",
+                z.sqrt()
+            );
         }
     }
 

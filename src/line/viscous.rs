@@ -73,7 +73,10 @@ fn series_sums(s: f64) -> (C64, C64, C64) {
         s1 += t1;
         s2 += t2;
         // Terms grow until k ≈ |u|^{1/2} and then fall monotonically.
-        if k * k > u.im && t0.norm() <= 1e-17 * s0.norm() && t2.norm() <= 1e-17 * s2.norm() {
+        if k * k > u.im
+            && t0.norm_sqr() <= 1e-34 * s0.norm_sqr()
+            && t2.norm_sqr() <= 1e-34 * s2.norm_sqr()
+        {
             break;
         }
     }
@@ -91,46 +94,56 @@ fn series_f(s: f64) -> C64 {
     s1 / s0
 }
 
+/// Number of tabulated Hankel coefficients.
+const HANKEL_TERMS: usize = 48;
+
+/// Hankel's coefficients a_k(ν) = Π_{m=1..k} (4ν² − (2m−1)²) / (k! 8^k)
+/// (A&S 9.2.9–9.2.10) for ν = 0 (`.0`) and ν = 1 (`.1`).
+const HANKEL: ([f64; HANKEL_TERMS], [f64; HANKEL_TERMS]) = {
+    let mut a0 = [0.0; HANKEL_TERMS];
+    let mut a1 = [0.0; HANKEL_TERMS];
+    a0[0] = 1.0;
+    a1[0] = 1.0;
+    let mut k = 1;
+    while k < HANKEL_TERMS {
+        let odd = ((2 * k - 1) * (2 * k - 1)) as f64;
+        let step = 8.0 * k as f64;
+        a0[k] = a0[k - 1] * (0.0 - odd) / step;
+        a1[k] = a1[k - 1] * (4.0 - odd) / step;
+        k += 1;
+    }
+    (a0, a1)
+};
+
 /// Hankel asymptotic expansion of F for large s (F is small there, so 1 − F
 /// is formed without cancellation by the caller).
+///
+/// With z = s·e^{j3π/4}, P_ν − jQ_ν = Σ_k a_k(ν) u^k where u = −j/z =
+/// e^{j3π/4}/s, so J1/J0 = j (P1 − jQ1)/(P0 − jQ0) and
+/// F = 2(J1/J0)/z = (2/s)·e^{−jπ/4}·S1/S0 with S_ν = Σ_k a_k(ν) u^k.
 fn asymptotic_f(s: f64) -> C64 {
-    let z = C64::from_polar(s, 0.75 * std::f64::consts::PI);
-    let inv_z = z.inv();
-    // a_k(ν) = Π_{m=1..k} (4ν² − (2m−1)²) / (k! 8^k); P takes even k with
-    // alternating signs, Q the odd ones.
-    let (mut p0, mut q0) = (C64::new(1.0, 0.0), C64::new(0.0, 0.0));
-    let (mut p1, mut q1) = (C64::new(1.0, 0.0), C64::new(0.0, 0.0));
-    let mut a0 = 1.0_f64; // a_k(0)
-    let mut a1 = 1.0_f64; // a_k(1)
-    let mut zpow = C64::new(1.0, 0.0); // z^{-k}
+    let h = std::f64::consts::FRAC_1_SQRT_2;
+    let inv_s = 1.0 / s;
+    let u = C64::new(-h * inv_s, h * inv_s);
+    let (mut s0, mut s1) = (C64::new(1.0, 0.0), C64::new(1.0, 0.0));
+    let mut upow = C64::new(1.0, 0.0);
+    let mut upow_abs = 1.0; // |u|^k = s^{-k}
     let mut last = f64::INFINITY;
-    for k in 1..60 {
-        let kf = k as f64;
-        let odd = (2.0 * kf - 1.0) * (2.0 * kf - 1.0);
-        a0 *= (0.0 - odd) / (kf * 8.0);
-        a1 *= (4.0 - odd) / (kf * 8.0);
-        zpow *= inv_z;
-        let size = a0.abs().max(a1.abs()) * zpow.norm();
+    for k in 1..HANKEL_TERMS {
+        upow *= u;
+        upow_abs *= inv_s;
+        let size = HANKEL.0[k].abs().max(HANKEL.1[k].abs()) * upow_abs;
         if size > last {
             break; // the asymptotic series has started to diverge
         }
         last = size;
-        // sign (−1)^{floor(k/2)}
-        let sign = if (k / 2) % 2 == 0 { 1.0 } else { -1.0 };
-        if k % 2 == 0 {
-            p0 += zpow * (sign * a0);
-            p1 += zpow * (sign * a1);
-        } else {
-            q0 += zpow * (sign * a0);
-            q1 += zpow * (sign * a1);
-        }
+        s0 += upow * HANKEL.0[k];
+        s1 += upow * HANKEL.1[k];
         if size < 1e-17 {
             break;
         }
     }
-    let j = C64::new(0.0, 1.0);
-    let ratio = j * (p1 - j * q1) / (p0 - j * q0); // J1(z)/J0(z)
-    2.0 * ratio * inv_z
+    C64::new(h, -h) * (2.0 * inv_s) * s1 / s0
 }
 
 #[cfg(test)]

@@ -19,6 +19,7 @@ pub use solve::{Solution, SolveError, Workspace};
 
 use crate::circuit::Circuit;
 use crate::elements::{Connection, ConnectionKind, ElementKind, NodeId};
+use crate::line::LineProperties;
 
 /// Why a circuit cannot be compiled into a network.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -73,6 +74,10 @@ pub struct Plan<'c> {
     /// Matrix index of each node; `None` for nodes held by a tank.
     node_index: Vec<Option<usize>>,
     slots: Vec<Slot>,
+    /// For each element, the index of its line in `lines` (if it has one).
+    line_of: Vec<Option<usize>>,
+    /// The distinct lines of the circuit, each evaluated once per frequency.
+    lines: Vec<LineProperties>,
     unknowns: usize,
     z_ref: f64,
 }
@@ -138,10 +143,25 @@ impl<'c> Plan<'c> {
             };
             slots.push(slot);
         }
+        let mut lines: Vec<LineProperties> = Vec::new();
+        let line_of = circuit
+            .elements
+            .iter()
+            .map(|e| {
+                e.kind.line_properties().map(|p| {
+                    lines.iter().position(|q| q == p).unwrap_or_else(|| {
+                        lines.push(*p);
+                        lines.len() - 1
+                    })
+                })
+            })
+            .collect();
         Ok(Plan {
             circuit,
             node_index,
             slots,
+            line_of,
+            lines,
             unknowns: next,
             z_ref: reference_impedance(circuit),
         })
@@ -159,7 +179,7 @@ impl<'c> Plan<'c> {
 
     /// A reusable workspace for [`Plan::solve`].
     pub fn workspace(&self) -> Workspace {
-        Workspace::new(self.unknowns, self.circuit.elements.len())
+        Workspace::new(self.unknowns, self.circuit.elements.len(), self.lines.len())
     }
 }
 

@@ -1,0 +1,351 @@
+//! End-to-end tests of the `ripline` command.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn ripline(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(args)
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .output()
+        .expect("the ripline binary runs")
+}
+
+fn stdout(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stdout).into_owned()
+}
+
+fn stderr(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stderr).into_owned()
+}
+
+/// A fresh scratch folder for one test.
+fn scratch(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("ripline-cli-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+fn files_in(dir: &Path) -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    v.sort();
+    v
+}
+
+#[test]
+fn demo_solves_and_reports_every_point() {
+    let o = ripline(&["solve"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    for point in [
+        "pump outlet",
+        "line midpoint",
+        "tee",
+        "gauge",
+        "valve block",
+    ] {
+        assert!(
+            out.contains(&format!("point `{point}`")),
+            "missing {point}:\n{out}"
+        );
+    }
+    assert!(out.contains("pumping frequency 300.00 Hz"), "{out}");
+    assert!(out.contains("rms") && out.contains("dB") && out.contains("peak-to-peak"));
+    assert!(!out.contains("NaN") && !out.contains("inf"), "{out}");
+}
+
+#[test]
+fn csv_has_the_header_and_one_row_per_point_and_harmonic() {
+    let dir = scratch("csv");
+    let csv = dir.join("ripple.csv");
+    let o = ripline(&["solve", "--harmonics", "7", "--csv", csv.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(
+        lines.next(),
+        Some("point,harmonic,frequency_hz,amplitude_pa,phase_deg")
+    );
+    let rows: Vec<Vec<String>> = lines
+        .map(|l| l.split(',').map(str::to_string).collect())
+        .collect();
+    assert_eq!(rows.len(), 5 * 7);
+    for point in ["pump outlet", "valve block"] {
+        let mine: Vec<_> = rows.iter().filter(|r| r[0] == point).collect();
+        assert_eq!(mine.len(), 7);
+        for (k, r) in mine.iter().enumerate() {
+            assert_eq!(r[1], (k + 1).to_string());
+            // frequency = k · 300 Hz for the demo pump (1500 rpm × 12 teeth)
+            let f: f64 = r[2].parse().unwrap();
+            assert!((f - 300.0 * (k + 1) as f64).abs() < 1e-9);
+            let a: f64 = r[3].parse().unwrap();
+            assert!(a.is_finite() && a >= 0.0);
+        }
+    }
+    assert_eq!(
+        files_in(&dir),
+        vec!["ripple.csv"],
+        "no temporary file left behind"
+    );
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+#[test]
+fn speed_override_moves_the_harmonics() {
+    let o = ripline(&["solve", "--speed", "1800", "--harmonics", "2"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(stdout(&o).contains("pumping frequency 360.00 Hz"));
+}
+
+#[test]
+fn plots_are_written_as_svg_and_png() {
+    let dir = scratch("plot");
+    for name in ["bars.svg", "bars.png"] {
+        let path = dir.join(name);
+        let o = ripline(&["solve", "--plot", path.to_str().unwrap()]);
+        assert!(o.status.success(), "{}", stderr(&o));
+        let bytes = std::fs::read(&path).unwrap();
+        assert!(bytes.len() > 1000, "{name} is too small");
+    }
+    assert!(
+        std::fs::read_to_string(dir.join("bars.svg"))
+            .unwrap()
+            .contains("<svg")
+    );
+    assert!(
+        std::fs::read(dir.join("bars.png"))
+            .unwrap()
+            .starts_with(b"\x89PNG")
+    );
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+#[test]
+fn check_reports_what_the_circuit_holds() {
+    let o = ripline(&["check", "networks/crane_pressure_line.yaml"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    assert!(out.contains("nodes (4)") && out.contains("elements (6)") && out.contains("taps (5)"));
+    assert!(out.trim_end().ends_with("OK"));
+}
+
+#[test]
+fn every_example_network_checks() {
+    for entry in std::fs::read_dir(Path::new(env!("CARGO_MANIFEST_DIR")).join("networks")).unwrap()
+    {
+        let path = entry.unwrap().path();
+        if path.extension().is_some_and(|e| e == "yaml") {
+            let o = ripline(&["check", path.to_str().unwrap()]);
+            assert!(o.status.success(), "{}: {}", path.display(), stderr(&o));
+        }
+    }
+}
+
+/// Each malformed circuit in tests/bad/ must fail with exit code 2 and a
+/// message that names the file, the place and the fault.
+const BAD_FILES: &[(&str, &str)] = &[
+    (
+        "absurd_bore.yaml",
+        ":50:5: elements[0].bore: 12 m is outside the plausible range",
+    ),
+    ("binary_junk.yaml", "not UTF-8 text"),
+    (
+        "disconnected.yaml",
+        "element `stray` is not connected to any pump",
+    ),
+    (
+        "duplicate_element.yaml",
+        ":54:5: elements[1].name: duplicate element name `pressure_line`",
+    ),
+    ("duplicate_key.yaml", "duplicate field `length`"),
+    ("empty.yaml", "the file is empty"),
+    (
+        "harmonic_zero.yaml",
+        ":30:5: pump.flow_ripple[0].harmonic: harmonic order must be between 1 and 200",
+    ),
+    (
+        "huge_number.yaml",
+        ":17:17: fluid.bulk_modulus: `1e300 GPa` is not a finite number",
+    ),
+    (
+        "infinite_number.yaml",
+        "fluid.density: density must be a finite number",
+    ),
+    (
+        "key_for_other_kind.yaml",
+        "key `bore` does not apply to a `volume`",
+    ),
+    ("missing_wall.yaml", "a `tube` needs its wall"),
+    (
+        "negative_length.yaml",
+        ":49:5: elements[0].length: must be greater than zero",
+    ),
+    ("no_pump.yaml", "the circuit has no `pump`"),
+    ("not_yaml.yaml", "not_yaml.yaml:1:"),
+    (
+        "orifice_without_resistance.yaml",
+        "needs either `resistance`, or both `mean_flow` and `pressure_drop`",
+    ),
+    (
+        "pump_on_missing_node.yaml",
+        ":25:3: pump.node: no element reaches node `pump_outlet`",
+    ),
+    (
+        "same_from_to.yaml",
+        "`from` and `to` are the same node `pump_out`",
+    ),
+    (
+        "tap_beyond_tube.yaml",
+        ":89:3: taps[1].distance: distance 2.8 m is outside tube `pressure_line`",
+    ),
+    (
+        "tap_on_missing_element.yaml",
+        "taps[1].element: no element is called `suction_line`",
+    ),
+    (
+        "unknown_key.yaml",
+        ":53:5: elements[0]: unknown field `colour`",
+    ),
+    ("unknown_kind.yaml", "unknown variant `bucket`"),
+    (
+        "unknown_material.yaml",
+        "unknown material `unobtainium`; use one of: steel",
+    ),
+    (
+        "unknown_unit.yaml",
+        ":49:13: elements[0].length: unknown unit `furlong` for a length",
+    ),
+    (
+        "unreached_node.yaml",
+        "taps[3].node: no element reaches node `nowhere`",
+    ),
+    (
+        "wall_too_thick.yaml",
+        "wall thickness 7.000 mm is not less than the bore radius 6.000 mm",
+    ),
+    (
+        "wrong_type.yaml",
+        ":27:21: pump.pumping_elements: invalid type: string \"twelve\"",
+    ),
+    (
+        "zero_bore.yaml",
+        "elements[0].bore: must be greater than zero",
+    ),
+];
+
+#[test]
+fn bad_circuit_files_exit_2_with_a_located_message_and_write_nothing() {
+    let dir = scratch("bad");
+    let csv = dir.join("out.csv");
+    let plot = dir.join("out.svg");
+    let listed: Vec<&str> = BAD_FILES.iter().map(|(f, _)| *f).collect();
+    for entry in std::fs::read_dir(Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/bad")).unwrap()
+    {
+        let name = entry.unwrap().file_name().to_string_lossy().into_owned();
+        assert!(
+            listed.contains(&name.as_str()),
+            "tests/bad/{name} has no expectation in BAD_FILES"
+        );
+    }
+    for (file, fragment) in BAD_FILES {
+        let path = format!("tests/bad/{file}");
+        for cmd in ["solve", "check"] {
+            let mut args = vec![cmd, path.as_str()];
+            if cmd == "solve" {
+                args.extend([
+                    "--csv",
+                    csv.to_str().unwrap(),
+                    "--plot",
+                    plot.to_str().unwrap(),
+                ]);
+            }
+            let o = ripline(&args);
+            let err = stderr(&o);
+            assert_eq!(o.status.code(), Some(2), "{cmd} {file}: {err}");
+            assert!(
+                err.contains(&path),
+                "{file}: message does not name the file: {err}"
+            );
+            assert!(
+                err.contains(fragment),
+                "{file}: expected `{fragment}` in: {err}"
+            );
+            assert!(
+                !err.contains("panicked") && !err.contains("RUST_BACKTRACE"),
+                "{err}"
+            );
+        }
+        assert!(
+            files_in(&dir).is_empty(),
+            "{file}: an output file was written"
+        );
+    }
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+#[test]
+fn a_lossless_circuit_at_its_resonance_is_a_clear_error_not_nan() {
+    // An ideal flow source (no internal volume) into a lossless 2 m line open
+    // to tank: Zin = jZ0 tan(kL) has a pole at c/4L = 168.75 Hz for c =
+    // 1350 m/s (Kinsler et al.). Pumping frequency 168.75 Hz = 843.75 rpm × 12.
+    let dir = scratch("singular");
+    let file = dir.join("singular.yaml");
+    std::fs::write(
+        &file,
+        "fluid: {density: 870, bulk_modulus: 1585575000, viscosity: 32 cSt}\n\
+         line_model: lossless\n\
+         pump:\n  node: a\n  speed: 843.75 rpm\n  pumping_elements: 12\n\
+         \x20 flow_ripple: [{harmonic: 1, amplitude: 1 L/min}]\n\
+         \x20 source_impedance: {volume: 0}\n\
+         elements:\n\
+         \x20 - {name: line, kind: tube, from: a, to: b, length: 2 m, bore: 10 mm, rigid: true}\n\
+         \x20 - {name: reservoir, kind: tank, at: b}\n",
+    )
+    .unwrap();
+    let csv = dir.join("x.csv");
+    let o = ripline(&[
+        "solve",
+        file.to_str().unwrap(),
+        "--csv",
+        csv.to_str().unwrap(),
+    ]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(err.contains("no unique solution at 168.750000 Hz"), "{err}");
+    assert!(!stdout(&o).contains("NaN") && !csv.exists());
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+#[test]
+fn bad_options_are_usage_errors() {
+    for args in [
+        vec!["solve", "--harmonics", "0"],
+        vec!["solve", "--speed", "fast"],
+        vec!["solve", "--plot", "x.jpg"],
+        vec!["solve", "--csv", "/no/such/folder/x.csv"],
+        vec!["solve", "no_such_file.yaml"],
+        vec!["frobnicate"],
+    ] {
+        let o = ripline(&args);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {}", stderr(&o));
+    }
+}
+
+#[test]
+fn the_readme_example_circuit_is_valid() {
+    let readme =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("README.md")).unwrap();
+    let start = readme.find("```yaml\n").expect("README has a YAML example") + 8;
+    let len = readme[start..].find("```").unwrap();
+    let dir = scratch("readme");
+    let file = dir.join("example.yaml");
+    std::fs::write(&file, &readme[start..start + len]).unwrap();
+    let o = ripline(&["solve", file.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(stdout(&o).contains("point `mid`"));
+    std::fs::remove_dir_all(dir).unwrap();
+}
