@@ -84,6 +84,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             name: "piston pump".into(),
             node: 0,
             speed_rev_s: 30.0,
+            speed_range_rev_s: None,
             pumping_elements: 9,
             displacement_m3: Some(33e-6),
             flow_ripple: FlowRipple::Table {

@@ -40,6 +40,7 @@
 pub mod analysis;
 pub mod circuit;
 pub mod demo;
+pub mod diagnostics;
 pub mod elements;
 pub mod fluid;
 pub mod io;

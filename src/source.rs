@@ -77,6 +77,9 @@ pub struct Pump {
     pub node: NodeId,
     /// Shaft speed n in rev/s.
     pub speed_rev_s: f64,
+    /// Operating speed range (lowest, highest) in rev/s, for sweeps and
+    /// resonance checks, if the circuit states one.
+    pub speed_range_rev_s: Option<(f64, f64)>,
     /// Number of pumping elements z (teeth of one gear, or pistons).
     pub pumping_elements: u32,
     /// Geometric displacement per revolution in m³, if known.
@@ -152,6 +155,7 @@ mod tests {
             name: "p".into(),
             node: 0,
             speed_rev_s: 30.0,
+            speed_range_rev_s: None,
             pumping_elements: 12,
             displacement_m3: Some(25e-6),
             flow_ripple: FlowRipple::Table {

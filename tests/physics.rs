@@ -55,6 +55,7 @@ fn ideal_pump() -> Pump {
         name: "ideal".into(),
         node: 0,
         speed_rev_s: 10.0,
+        speed_range_rev_s: None,
         pumping_elements: 1,
         displacement_m3: None,
         flow_ripple: FlowRipple::Table {

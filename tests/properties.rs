@@ -157,6 +157,7 @@ fn random_circuit() -> impl Strategy<Value = Circuit> {
                     name: "p".into(),
                     node: 0,
                     speed_rev_s: 25.0,
+                    speed_range_rev_s: None,
                     pumping_elements: 9,
                     displacement_m3: None,
                     flow_ripple: FlowRipple::Table {

@@ -73,6 +73,10 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
         }
     }
     let circuit = &loaded.circuit;
+    let top_hz = circuit.pumps[0].pumping_frequency_hz() * f64::from(circuit.harmonics);
+    for w in ripline::diagnostics::circuit_warnings(circuit, top_hz) {
+        eprintln!("warning: {w}");
+    }
     let plan = Plan::compile(circuit).map_err(|e| UsageError(format!("{}: {e}", loaded.source)))?;
     let report = harmonic_ripple(&plan, 0, circuit.harmonics)
         .with_context(|| format!("solving {}", loaded.source))?;

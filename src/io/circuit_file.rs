@@ -78,6 +78,7 @@ struct RawPump {
     name: Option<String>,
     node: String,
     speed: Q<q::ShaftSpeed>,
+    speed_range: Option<[Q<q::ShaftSpeed>; 2]>,
     pumping_elements: u32,
     displacement: Option<Q<q::Volume>>,
     flow_ripple: Vec<RawHarmonic>,
@@ -748,6 +749,25 @@ impl Checker<'_> {
             )
         })?;
         let speed = self.in_range(&path.key("speed"), raw.speed.si, 0.1, 1000.0, "rev/s")?;
+        let speed_range = match raw.speed_range {
+            None => None,
+            Some([lo, hi]) => {
+                let rp = path.key("speed_range");
+                let lo = self.in_range(&rp, lo.si, 0.1, 1000.0, "rev/s")?;
+                let hi = self.in_range(&rp, hi.si, 0.1, 1000.0, "rev/s")?;
+                if lo >= hi {
+                    return Err(self.err(
+                        &rp,
+                        format!(
+                            "the speed range must go from the lower to the higher speed, found {:.1} .. {:.1} rpm",
+                            lo * 60.0,
+                            hi * 60.0
+                        ),
+                    ));
+                }
+                Some((lo, hi))
+            }
+        };
         if !(1..=99).contains(&raw.pumping_elements) {
             return Err(self.err(
                 &path.key("pumping_elements"),
@@ -821,6 +841,7 @@ impl Checker<'_> {
             name: raw.name.clone().unwrap_or_else(|| "pump".to_string()),
             node,
             speed_rev_s: speed,
+            speed_range_rev_s: speed_range,
             pumping_elements: raw.pumping_elements,
             displacement_m3: displacement,
             flow_ripple: FlowRipple::Table {
