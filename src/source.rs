@@ -39,7 +39,7 @@ pub enum FlowRipple {
 }
 
 /// The source impedance of a pump.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 #[non_exhaustive]
 pub enum SourceImpedance {
     /// Internal (discharge) volume, with an optional leakage path in parallel:
@@ -51,12 +51,15 @@ pub enum SourceImpedance {
         /// Leakage resistance R in Pa·s/m³, if any.
         leakage_resistance_pa_s_m3: Option<f64>,
     },
+    /// A measured table of Zs against frequency (e.g. from a bench
+    /// estimation), interpolated (see [`ImpedanceTable::at`]).
+    Table(ImpedanceTable),
 }
 
 impl SourceImpedance {
     /// Source admittance Ys = 1/Zs at ω.
     pub fn admittance(&self, omega: f64) -> C64 {
-        match *self {
+        match self {
             SourceImpedance::Volume {
                 capacitance_m3_pa,
                 leakage_resistance_pa_s_m3,
@@ -64,7 +67,85 @@ impl SourceImpedance {
                 leakage_resistance_pa_s_m3.map_or(0.0, |r| 1.0 / r),
                 omega * capacitance_m3_pa,
             ),
+            SourceImpedance::Table(t) => t.at(omega / std::f64::consts::TAU).inv(),
         }
+    }
+}
+
+/// Source impedance known at discrete frequencies.
+///
+/// Between points, the amplitude and the (unwrapped) phase are interpolated
+/// linearly in frequency; outside the table the end values are held (the
+/// circuit's warnings say when a solve leaves the table's range).
+#[derive(Debug, Clone, PartialEq)]
+pub struct ImpedanceTable {
+    points: Vec<(f64, f64, f64)>, // (frequency Hz, |Zs| Pa·s/m³, unwrapped phase rad)
+}
+
+impl ImpedanceTable {
+    /// Builds a table from (frequency in Hz, Zs) pairs.
+    ///
+    /// # Errors
+    /// A message when the table is empty, a frequency is not finite and
+    /// positive, frequencies are not strictly increasing, or a Zs is zero or
+    /// not finite.
+    pub fn new(points: &[(f64, C64)]) -> Result<Self, String> {
+        if points.is_empty() {
+            return Err("the impedance table is empty".into());
+        }
+        let mut out: Vec<(f64, f64, f64)> = Vec::with_capacity(points.len());
+        for (i, &(f, z)) in points.iter().enumerate() {
+            if !(f.is_finite() && f > 0.0) {
+                return Err(format!(
+                    "point {}: frequency {f} Hz is not finite and positive",
+                    i + 1
+                ));
+            }
+            if let Some(&(prev, _, _)) = out.last() {
+                if f <= prev {
+                    return Err(format!(
+                        "point {}: frequencies must increase strictly ({f} Hz after {prev} Hz)",
+                        i + 1
+                    ));
+                }
+            }
+            if !(z.is_finite() && z.norm() > 0.0) {
+                return Err(format!(
+                    "point {}: impedance {z} is zero or not finite",
+                    i + 1
+                ));
+            }
+            let mut phase = z.arg();
+            if let Some(&(_, _, last)) = out.last() {
+                // unwrap: keep each step within ±π of the previous phase
+                phase += std::f64::consts::TAU * ((last - phase) / std::f64::consts::TAU).round();
+            }
+            out.push((f, z.norm(), phase));
+        }
+        Ok(ImpedanceTable { points: out })
+    }
+
+    /// The frequency range covered, in Hz.
+    pub fn range_hz(&self) -> (f64, f64) {
+        (self.points[0].0, self.points[self.points.len() - 1].0)
+    }
+
+    /// Zs at `freq_hz`: linear in amplitude and unwrapped phase between
+    /// points, end values held outside.
+    pub fn at(&self, freq_hz: f64) -> C64 {
+        let p = &self.points;
+        let i = p.partition_point(|q| q.0 < freq_hz);
+        let (amp, phase) = if i == 0 {
+            (p[0].1, p[0].2)
+        } else if i == p.len() {
+            (p[i - 1].1, p[i - 1].2)
+        } else {
+            let (f0, a0, ph0) = p[i - 1];
+            let (f1, a1, ph1) = p[i];
+            let t = (freq_hz - f0) / (f1 - f0);
+            (a0 + t * (a1 - a0), ph0 + t * (ph1 - ph0))
+        };
+        C64::from_polar(amp, phase)
     }
 }
 
@@ -147,6 +228,27 @@ mod tests {
         let z = zs.admittance(2.0 * std::f64::consts::PI * 225.0).inv();
         assert!((z.re - 1.067322e8).abs() / 1.067322e8 < 1e-6);
         assert!((z.im + 1.131668e10).abs() / 1.131668e10 < 1e-6);
+    }
+
+    #[test]
+    fn impedance_table_interpolates_amplitude_and_unwrapped_phase() {
+        // Two points either side of the ±180° cut: the phase must pass
+        // through 180°, not through 0°.
+        let t = ImpedanceTable::new(&[
+            (100.0, C64::from_polar(2.0, 170f64.to_radians())),
+            (200.0, C64::from_polar(4.0, -170f64.to_radians())),
+        ])
+        .unwrap();
+        let mid = t.at(150.0);
+        assert!((mid.norm() - 3.0).abs() < 1e-12);
+        assert!((mid.arg().abs() - std::f64::consts::PI).abs() < 1e-12);
+        assert_eq!(t.at(50.0), t.at(100.0));
+        assert_eq!(t.at(500.0), t.at(200.0));
+        assert!(
+            ImpedanceTable::new(&[(200.0, C64::new(1.0, 0.0)), (100.0, C64::new(1.0, 0.0))])
+                .is_err()
+        );
+        assert!(ImpedanceTable::new(&[]).is_err());
     }
 
     #[test]

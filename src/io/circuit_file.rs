@@ -77,12 +77,13 @@ impl From<RawLineModel> for LineModel {
 struct RawPump {
     name: Option<String>,
     node: String,
-    speed: Q<q::ShaftSpeed>,
+    speed: Option<Q<q::ShaftSpeed>>,
     speed_range: Option<[Q<q::ShaftSpeed>; 2]>,
-    pumping_elements: u32,
+    pumping_elements: Option<u32>,
     displacement: Option<Q<q::Volume>>,
-    flow_ripple: Vec<RawHarmonic>,
-    source_impedance: RawSourceImpedance,
+    flow_ripple: Option<Vec<RawHarmonic>>,
+    source_impedance: Option<RawSourceImpedance>,
+    source_file: Option<String>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -748,7 +749,26 @@ impl Checker<'_> {
                 ),
             )
         })?;
-        let speed = self.in_range(&path.key("speed"), raw.speed.si, 0.1, 1000.0, "rev/s")?;
+        let file_source = match &raw.source_file {
+            None => None,
+            Some(name) => {
+                if raw.flow_ripple.is_some() || raw.source_impedance.is_some() {
+                    return Err(self.err(
+                        &path.key("source_file"),
+                        "give either `source_file`, or `flow_ripple` with `source_impedance`, not both",
+                    ));
+                }
+                let base = Path::new(self.file).parent().unwrap_or(Path::new(""));
+                Some(super::source_file::load_source_file(&base.join(name))?)
+            }
+        };
+        let speed = match (raw.speed, &file_source) {
+            (Some(v), _) => self.in_range(&path.key("speed"), v.si, 0.1, 1000.0, "rev/s")?,
+            (None, Some(src)) => src.speed_rev_s,
+            (None, None) => {
+                return Err(self.err(path, "the pump needs `speed` (e.g. `speed: 1500 rpm`)"));
+            }
+        };
         let speed_range = match raw.speed_range {
             None => None,
             Some([lo, hi]) => {
@@ -768,12 +788,30 @@ impl Checker<'_> {
                 Some((lo, hi))
             }
         };
-        if !(1..=99).contains(&raw.pumping_elements) {
+        let pumping_elements = match (raw.pumping_elements, &file_source) {
+            (Some(z), Some(src)) if z != src.pumping_elements => {
+                return Err(self.err(
+                    &path.key("pumping_elements"),
+                    format!(
+                        "{z} differs from the {} pumping elements of the source file",
+                        src.pumping_elements
+                    ),
+                ));
+            }
+            (Some(z), _) => z,
+            (None, Some(src)) => src.pumping_elements,
+            (None, None) => {
+                return Err(self.err(
+                    path,
+                    "the pump needs `pumping_elements` (the number of teeth or pistons)",
+                ));
+            }
+        };
+        if !(1..=99).contains(&pumping_elements) {
             return Err(self.err(
                 &path.key("pumping_elements"),
                 format!(
-                    "the number of teeth or pistons must be between 1 and 99, found {}",
-                    raw.pumping_elements
+                    "the number of teeth or pistons must be between 1 and 99, found {pumping_elements}"
                 ),
             ));
         }
@@ -781,14 +819,36 @@ impl Checker<'_> {
             Some(d) => Some(self.in_range(&path.key("displacement"), d.si, 1e-8, 1e-2, "m³")?),
             None => None,
         };
-        if raw.flow_ripple.is_empty() {
+        let name = raw.name.clone().unwrap_or_else(|| "pump".to_string());
+        if let Some(src) = file_source {
+            let source_impedance = src
+                .source_impedance()
+                .map_err(|m| self.err(&path.key("source_file"), m))?;
+            return Ok(Pump {
+                name,
+                node,
+                speed_rev_s: speed,
+                speed_range_rev_s: speed_range,
+                pumping_elements,
+                displacement_m3: displacement,
+                flow_ripple: src.flow_ripple(),
+                source_impedance,
+            });
+        }
+        let (Some(flow_ripple), Some(zs)) = (&raw.flow_ripple, &raw.source_impedance) else {
+            return Err(self.err(
+                path,
+                "the pump needs `flow_ripple` and `source_impedance`, or a `source_file`",
+            ));
+        };
+        if flow_ripple.is_empty() {
             return Err(self.err(
                 &path.key("flow_ripple"),
                 "the flow ripple table is empty: list at least one harmonic",
             ));
         }
         let mut harmonics: Vec<FlowHarmonic> = Vec::new();
-        for (i, h) in raw.flow_ripple.iter().enumerate() {
+        for (i, h) in flow_ripple.iter().enumerate() {
             let hp = path.key("flow_ripple").index(i);
             if h.harmonic == 0 || h.harmonic > 200 {
                 return Err(self.err(
@@ -820,7 +880,6 @@ impl Checker<'_> {
                 phase_rad: h.phase.map_or(0.0, |p| p.si),
             });
         }
-        let zs = &raw.source_impedance;
         let zp = path.key("source_impedance");
         let volume = zs.volume.si;
         if !(0.0..=1.0).contains(&volume) {
@@ -838,11 +897,11 @@ impl Checker<'_> {
             None => None,
         };
         Ok(Pump {
-            name: raw.name.clone().unwrap_or_else(|| "pump".to_string()),
+            name,
             node,
             speed_rev_s: speed,
             speed_range_rev_s: speed_range,
-            pumping_elements: raw.pumping_elements,
+            pumping_elements,
             displacement_m3: displacement,
             flow_ripple: FlowRipple::Table {
                 reference_speed_rev_s: speed,

@@ -8,6 +8,7 @@ pub mod csv_out;
 pub mod locate;
 pub mod output;
 pub mod quantity;
+pub mod source_file;
 
 pub use circuit_file::{load_circuit, parse_circuit};
 
