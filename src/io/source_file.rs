@@ -161,16 +161,14 @@ pub fn parse_source(text: &str, file: &str) -> Result<PumpSource, InputError> {
     let mut harmonics: Vec<SourceHarmonic> = Vec::with_capacity(raw.harmonics.len());
     for (i, h) in raw.harmonics.iter().enumerate() {
         let hp = root.key("harmonics").index(i);
-        if let Some(prev) = harmonics.last() {
-            if h.harmonic <= prev.order {
-                return Err(err(
-                    &hp.key("harmonic"),
-                    format!(
-                        "harmonics must be listed in increasing order without repeats ({} after {})",
-                        h.harmonic, prev.order
-                    ),
-                ));
-            }
+        if let Some(prev) = harmonics.last().filter(|p| h.harmonic <= p.order) {
+            return Err(err(
+                &hp.key("harmonic"),
+                format!(
+                    "harmonics must be listed in increasing order without repeats ({} after {})",
+                    h.harmonic, prev.order
+                ),
+            ));
         }
         if h.harmonic == 0 || h.harmonic > 200 {
             return Err(err(
@@ -190,7 +188,7 @@ pub fn parse_source(text: &str, file: &str) -> Result<PumpSource, InputError> {
                 ),
             ));
         }
-        if !(h.impedance_amplitude.si > 0.0) {
+        if h.impedance_amplitude.si <= 0.0 {
             return Err(err(
                 &hp.key("impedance_amplitude"),
                 format!(
