@@ -101,13 +101,11 @@ impl ImpedanceTable {
                     i + 1
                 ));
             }
-            if let Some(&(prev, _, _)) = out.last() {
-                if f <= prev {
-                    return Err(format!(
-                        "point {}: frequencies must increase strictly ({f} Hz after {prev} Hz)",
-                        i + 1
-                    ));
-                }
+            if let Some(&(prev, _, _)) = out.last().filter(|p| f <= p.0) {
+                return Err(format!(
+                    "point {}: frequencies must increase strictly ({f} Hz after {prev} Hz)",
+                    i + 1
+                ));
             }
             if !(z.is_finite() && z.norm() > 0.0) {
                 return Err(format!(
