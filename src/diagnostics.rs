@@ -5,6 +5,7 @@
 
 use crate::circuit::Circuit;
 use crate::elements::ElementKind;
+use crate::network::{ILL_CONDITIONED, Solution};
 use std::fmt;
 
 /// A warning about a circuit or a result.
@@ -54,6 +55,19 @@ pub fn circuit_warnings(circuit: &Circuit, max_freq_hz: f64) -> Vec<Warning> {
         }
     }
     out
+}
+
+/// A warning when a solution lies so close to an undamped resonance that
+/// round-off may have cost more than 8 significant digits.
+pub fn conditioning_warning(solution: &Solution) -> Option<Warning> {
+    (solution.condition > ILL_CONDITIONED).then(|| Warning {
+        subject: format!("{:.3} Hz", solution.freq_hz),
+        message: format!(
+            "the network is nearly singular here (condition number {:.1e}): an undamped or lightly damped resonance lies at or very near this frequency; about {:.0} significant digits are lost to round-off",
+            solution.condition,
+            solution.condition.log10()
+        ),
+    })
 }
 
 #[cfg(test)]

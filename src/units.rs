@@ -302,6 +302,33 @@ fn example(dimension: Dimension) -> String {
     format!("2.5 {unit}").trim().to_string()
 }
 
+/// A number with at most `digits` significant digits and no trailing
+/// zeros, for messages: 2.9999999999999997e-5 → "3e-5", 1500 → "1500".
+pub fn format_sig(value: f64, digits: usize) -> String {
+    if !value.is_finite() || value == 0.0 {
+        return format!("{value}");
+    }
+    let exp = value.abs().log10().floor() as i32;
+    if (-4..6).contains(&exp) {
+        let decimals = (digits as i32 - 1 - exp).max(0) as usize;
+        let s = format!("{value:.decimals$}");
+        if s.contains('.') {
+            s.trim_end_matches('0').trim_end_matches('.').to_string()
+        } else {
+            s
+        }
+    } else {
+        let s = format!("{:.*e}", digits.saturating_sub(1), value);
+        let (mantissa, exponent) = s.split_once('e').unwrap_or((&s, "0"));
+        let mantissa = if mantissa.contains('.') {
+            mantissa.trim_end_matches('0').trim_end_matches('.')
+        } else {
+            mantissa
+        };
+        format!("{mantissa}e{exponent}")
+    }
+}
+
 /// Formats an SI pressure for people: bar when at least 0.1 bar, else kPa,
 /// else Pa.
 pub struct PressureDisplay(pub f64);
@@ -380,6 +407,15 @@ mod tests {
             Err(UnitError::NotFinite { .. })
         ));
         assert!(parse_quantity("", Dimension::Length).is_err());
+    }
+
+    #[test]
+    fn numbers_in_messages_are_short() {
+        assert_eq!(format_sig(-2.9999999999999997e-5, 6), "-3e-5");
+        assert_eq!(format_sig(1500.0, 6), "1500");
+        assert_eq!(format_sig(0.35, 6), "0.35");
+        assert_eq!(format_sig(2e12, 6), "2e12");
+        assert_eq!(format_sig(1.23456789, 4), "1.235");
     }
 
     #[test]

@@ -235,7 +235,117 @@ const BAD_FILES: &[(&str, &str)] = &[
         "zero_bore.yaml",
         "elements[0].bore: must be greater than zero",
     ),
+    (
+        "negative_viscosity.yaml",
+        ":18:3: fluid.viscosity: must be greater than zero, found -3e-5 m²/s",
+    ),
+    (
+        "zero_density.yaml",
+        "fluid.density: must be greater than zero",
+    ),
+    (
+        "absurd_density.yaml",
+        "fluid.density: 8.6e6 kg/m³ is outside the plausible range",
+    ),
+    (
+        "too_many_harmonics.yaml",
+        ":21:1: harmonics: must be between 1 and 200, found 5000",
+    ),
+    ("speed_zero.yaml", "pump.speed: must be greater than zero"),
+    (
+        "speed_range_reversed.yaml",
+        "pump.speed_range: the speed range must go from the lower to the higher speed",
+    ),
+    (
+        "pumping_elements_zero.yaml",
+        "pump.pumping_elements: the number of teeth or pistons must be between 1 and 99",
+    ),
+    (
+        "negative_volume.yaml",
+        ":79:5: elements[4].volume: must be greater than zero",
+    ),
+    (
+        "flow_ripple_empty.yaml",
+        "pump.flow_ripple: the flow ripple table is empty",
+    ),
+    (
+        "harmonic_twice.yaml",
+        ":32:5: pump.flow_ripple[2].harmonic: harmonic 2 is listed twice",
+    ),
+    (
+        "tap_without_location.yaml",
+        "taps[2]: a tap needs either `node`, or `element`",
+    ),
+    (
+        "duplicate_tap.yaml",
+        "taps[3].name: duplicate tap name `gauge`",
+    ),
+    ("tap_on_volume.yaml", "`block_galleries` is not a tube"),
+    (
+        "pump_into_tank.yaml",
+        "pump.node: pump `PTO gear pump` feeds node `pump_out`, which a tank holds at zero ripple",
+    ),
+    (
+        "tank_and_closed_end.yaml",
+        "node `gauge` cannot be both a tank and a closed end",
+    ),
+    (
+        "rigid_with_material.yaml",
+        "a rigid tube takes no `material` or `youngs_modulus`",
+    ),
+    (
+        "material_and_modulus.yaml",
+        "give either `material` or `youngs_modulus`, not both",
+    ),
+    (
+        "unknown_line_model.yaml",
+        "line_model: unknown variant `turbulent`",
+    ),
+    (
+        "wrong_dimension_unit.yaml",
+        "unknown unit `bar` for a length",
+    ),
+    ("missing_fluid.yaml", "missing field `fluid`"),
+    (
+        "elements_not_a_list.yaml",
+        "elements: invalid type: map, expected a sequence",
+    ),
+    (
+        "source_file_missing.yaml",
+        "pump.source_file: tests/bad/no_such_pump_source.yaml: cannot read the file",
+    ),
+    (
+        "negative_leakage.yaml",
+        "pump.source_impedance.leakage_resistance: must be greater than zero, found -2e12",
+    ),
+    ("anechoic_ambiguous.yaml", "several tubes meet at this node"),
+    (
+        "shunt_on_isolated_node.yaml",
+        "node `island` is reached by no tube, orifice or inertance",
+    ),
+    (
+        "tab_indentation.yaml",
+        "tab_indentation.yaml:49:1: found a tab character",
+    ),
+    ("utf16.yaml", "not UTF-8 text"),
 ];
+
+#[test]
+fn a_huge_input_file_is_refused_without_reading_it() {
+    // Generated here rather than committed: 10 MB of valid-looking YAML.
+    let dir = scratch("huge");
+    let file = dir.join("huge.yaml");
+    let line = "# padding comment line to make the file large, nothing else\n";
+    std::fs::write(&file, line.repeat(10 * 1024 * 1024 / line.len() + 1)).unwrap();
+    let o = ripline(&["check", file.to_str().unwrap()]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("huge.yaml") && err.contains("input files larger than"),
+        "{err}"
+    );
+    std::fs::remove_dir_all(dir).unwrap();
+}
 
 #[test]
 fn bad_circuit_files_exit_2_with_a_located_message_and_write_nothing() {

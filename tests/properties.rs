@@ -7,6 +7,11 @@
 //! * Reciprocity: for networks of reciprocal elements the transfer impedance
 //!   is symmetric, P_j/Q_i = P_i/Q_j (Rayleigh's reciprocity theorem; for
 //!   lines it follows from det T = 1).
+//! * Energy balance: the mean power the pump delivers into the network,
+//!   ½Re(P·Q*), equals the sum of the powers its elements absorb
+//!   (conservation of energy; Tellegen's theorem for networks).
+//! * Lossless networks (lossless lines, pure inertances and volumes, closed
+//!   ends, tanks) absorb no mean power, so Re Zin = 0.
 
 use proptest::prelude::*;
 use ripline::C64;
@@ -29,6 +34,7 @@ const FLUID: Fluid = Fluid {
 #[derive(Debug, Clone)]
 enum Part {
     Tube { length: f64, bore: f64 },
+    LosslessTube { length: f64, bore: f64 },
     Orifice { r: f64 },
     Inertance { i: f64, r: f64 },
 }
@@ -39,7 +45,7 @@ enum Shunt {
     Valve(f64),
 }
 
-fn part() -> impl Strategy<Value = Part> {
+fn part() -> impl Strategy<Value = Part> + Clone {
     prop_oneof![
         4 => (0.05f64..8.0, 3e-3f64..30e-3).prop_map(|(length, bore)| Part::Tube { length, bore }),
         1 => (1e8f64..1e12).prop_map(|r| Part::Orifice { r }),
@@ -47,7 +53,7 @@ fn part() -> impl Strategy<Value = Part> {
     ]
 }
 
-fn shunt() -> impl Strategy<Value = Shunt> {
+fn shunt() -> impl Strategy<Value = Shunt> + Clone {
     prop_oneof![
         (1e-6f64..5e-3).prop_map(Shunt::Volume),
         (1e9f64..1e12).prop_map(Shunt::Valve),
@@ -57,24 +63,43 @@ fn shunt() -> impl Strategy<Value = Shunt> {
 /// A connected random network: a spanning tree, extra branches making
 /// loops, shunts, and possibly one tank node.
 fn random_circuit() -> impl Strategy<Value = Circuit> {
+    random_network(part(), shunt(), true)
+}
+
+/// Lossless parts only: lossless tubes, pure inertances, volumes.
+fn lossless_part() -> impl Strategy<Value = Part> + Clone {
+    prop_oneof![
+        4 => (0.05f64..8.0, 3e-3f64..30e-3).prop_map(|(length, bore)| Part::LosslessTube { length, bore }),
+        1 => (1e5f64..1e8).prop_map(|i| Part::Inertance { i, r: 0.0 }),
+    ]
+}
+
+/// A random network from the given parts and shunts; `lossy_source` gives
+/// the pump an internal volume and leakage, otherwise it is an ideal flow
+/// source.
+fn random_network(
+    parts: impl Strategy<Value = Part> + Clone,
+    shunts: impl Strategy<Value = Shunt> + Clone,
+    lossy_source: bool,
+) -> impl Strategy<Value = Circuit> {
     (2usize..8)
-        .prop_flat_map(|n| {
+        .prop_flat_map(move |n| {
             (
                 Just(n),
-                proptest::collection::vec((any::<prop::sample::Index>(), part()), n - 1),
+                proptest::collection::vec((any::<prop::sample::Index>(), parts.clone()), n - 1),
                 proptest::collection::vec(
                     (
                         any::<prop::sample::Index>(),
                         any::<prop::sample::Index>(),
-                        part(),
+                        parts.clone(),
                     ),
                     0..3,
                 ),
-                proptest::collection::vec((any::<prop::sample::Index>(), shunt()), 0..4),
+                proptest::collection::vec((any::<prop::sample::Index>(), shunts.clone()), 0..4),
                 proptest::option::of(any::<prop::sample::Index>()),
             )
         })
-        .prop_map(|(n, tree, loops, shunts, tank)| {
+        .prop_map(move |(n, tree, loops, shunts, tank)| {
             let mut elements = Vec::new();
             let mut push = |kind: ElementKind, connection: Connection| {
                 elements.push(Element {
@@ -84,7 +109,12 @@ fn random_circuit() -> impl Strategy<Value = Circuit> {
                 });
             };
             let to_kind = |p: &Part| match *p {
-                Part::Tube { length, bore } => {
+                Part::Tube { length, bore } | Part::LosslessTube { length, bore } => {
+                    let model = if matches!(p, Part::Tube { .. }) {
+                        LineModel::Laminar
+                    } else {
+                        LineModel::Lossless
+                    };
                     let wall = Wall::Elastic {
                         thickness_m: bore / 5.0,
                         youngs_modulus_pa: 206e9,
@@ -97,7 +127,7 @@ fn random_circuit() -> impl Strategy<Value = Circuit> {
                                 kinematic_viscosity_m2_s: FLUID.kinematic_viscosity_m2_s,
                                 effective_bulk_modulus_pa: wall
                                     .effective_bulk_modulus(FLUID.bulk_modulus_pa, bore),
-                                model: LineModel::Laminar,
+                                model,
                             },
                             length_m: length,
                         },
@@ -169,8 +199,8 @@ fn random_circuit() -> impl Strategy<Value = Circuit> {
                         }],
                     },
                     source_impedance: SourceImpedance::Volume {
-                        capacitance_m3_pa: 1e-4 / 1.6e9,
-                        leakage_resistance_pa_s_m3: Some(1e12),
+                        capacitance_m3_pa: if lossy_source { 1e-4 / 1.6e9 } else { 0.0 },
+                        leakage_resistance_pa_s_m3: lossy_source.then_some(1e12),
                     },
                 }],
                 taps: Vec::new(),
@@ -200,5 +230,56 @@ proptest! {
                 prop_assert!((zij - zji).norm() <= 1e-9 * scale, "Z[{i}][{j}] = {zij}, Z[{j}][{i}] = {zji}");
             }
         }
+    }
+}
+
+/// ½Re(P·Q*) delivered by pump 0 at its node for a source flow `qs`, the
+/// sum of the powers absorbed by every element, the scale ½|P|(|Qs| + |Ys·P|)
+/// of the powers involved, and the relative tolerance the solve supports:
+/// 1e-9, or 100·ε·κ near a resonance where the condition number κ is large
+/// (the usual forward-error bound of an LU solve).
+fn power_balance(c: &Circuit, f: f64, qs: C64) -> Option<(f64, f64, f64, f64)> {
+    let plan = Plan::compile(c).unwrap();
+    let mut ws = plan.workspace();
+    let sol = plan.solve(f, &[(0, qs)], &mut ws).ok()?;
+    let p = sol.node_pressures[0];
+    let ys = c.pumps[0]
+        .source_impedance
+        .admittance(std::f64::consts::TAU * f);
+    let delivered_flow = qs - ys * p;
+    let delivered = 0.5 * (p * delivered_flow.conj()).re;
+    let absorbed: f64 = (0..c.elements.len())
+        .map(|i| sol.absorbed_power(c, i))
+        .sum();
+    let scale = 0.5 * p.norm() * (qs.norm() + (ys * p).norm());
+    let tolerance = 1e-9_f64.max(100.0 * f64::EPSILON * sol.condition);
+    Some((delivered, absorbed, scale, tolerance))
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 200, ..ProptestConfig::default() })]
+
+    #[test]
+    fn energy_is_conserved(c in random_circuit(), f in 1.0f64..3000.0) {
+        let (delivered, absorbed, scale, tol) = power_balance(&c, f, C64::new(1e-5, 3e-6)).unwrap();
+        prop_assert!(absorbed >= -tol * scale, "negative absorbed power {absorbed:e}");
+        prop_assert!(
+            (delivered - absorbed).abs() <= tol * scale,
+            "delivered {delivered:e} W, absorbed {absorbed:e} W, scale {scale:e} W"
+        );
+    }
+
+    #[test]
+    fn lossless_networks_dissipate_nothing(
+        c in random_network(lossless_part(), (1e-6f64..5e-3).prop_map(Shunt::Volume), false),
+        f in 1.0f64..3000.0,
+    ) {
+        // An exact resonance of a lossless network is singular; those cases
+        // are rejected (proptest fails the test if too many are).
+        let balance = power_balance(&c, f, C64::new(1e-5, 0.0));
+        prop_assume!(balance.is_some());
+        let (delivered, absorbed, scale, tol) = balance.unwrap();
+        prop_assert!(delivered.abs() <= tol * scale, "delivered {delivered:e} of scale {scale:e}");
+        prop_assert!(absorbed.abs() <= tol * scale, "absorbed {absorbed:e} of scale {scale:e}");
     }
 }

@@ -9,6 +9,7 @@
 
 use super::waveform;
 use crate::circuit::{Circuit, Tap, TapLocation};
+use crate::diagnostics::{Warning, conditioning_warning};
 use crate::elements::{Connection, ElementKind};
 use crate::network::{Plan, Solution, SolveError};
 use num_complex::Complex64 as C64;
@@ -72,6 +73,8 @@ pub struct RippleReport {
     pub pumping_frequency_hz: f64,
     /// One entry per measurement point.
     pub taps: Vec<TapRipple>,
+    /// Harmonics solved close to an undamped resonance (ill-conditioned).
+    pub warnings: Vec<Warning>,
 }
 
 /// The measurement points a report covers: the circuit's taps, or every node
@@ -144,9 +147,11 @@ pub fn harmonic_ripple(
         })
         .collect();
     let mut ws = plan.workspace();
+    let mut warnings = Vec::new();
     for order in 1..=harmonics {
         let freq_hz = f64::from(order) * fp;
         let solution = plan.solve(freq_hz, &[(pump.node, pump.flow_ripple(order))], &mut ws)?;
+        warnings.extend(conditioning_warning(&solution));
         for (tap, point) in taps.iter_mut().zip(&points) {
             tap.harmonics.push(HarmonicPressure {
                 order,
@@ -160,5 +165,6 @@ pub fn harmonic_ripple(
         speed_rev_s: pump.speed_rev_s,
         pumping_frequency_hz: fp,
         taps,
+        warnings,
     })
 }

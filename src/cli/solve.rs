@@ -81,6 +81,9 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
     let report = harmonic_ripple(&plan, 0, circuit.harmonics)
         .with_context(|| format!("solving {}", loaded.source))?;
     ensure_finite(&report)?;
+    for w in &report.warnings {
+        eprintln!("warning: {w}");
+    }
 
     // Every output is prepared before anything is shown or renamed into place.
     let mut outputs = StagedOutputs::new();

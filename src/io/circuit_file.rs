@@ -17,6 +17,7 @@ use crate::elements::{
 use crate::fluid::Fluid;
 use crate::line::{Line, LineModel, LineProperties};
 use crate::source::{FlowHarmonic, FlowRipple, Pump, SourceImpedance};
+use crate::units::format_sig;
 use crate::wall::{Material, Wall};
 use serde::Deserialize;
 use std::collections::HashSet;
@@ -263,17 +264,15 @@ impl Checker<'_> {
 
     /// A value within [lo, hi] (SI), with a message naming the range.
     fn in_range(&self, path: &KeyPath, value: f64, lo: f64, hi: f64, unit: &str) -> Res<f64> {
+        let v = format_sig(value, 6);
         if value <= 0.0 && lo > 0.0 {
-            return Err(self.err(
-                path,
-                format!("must be greater than zero, found {value} {unit}"),
-            ));
+            return Err(self.err(path, format!("must be greater than zero, found {v} {unit}")));
         }
         if !(lo..=hi).contains(&value) {
             return Err(self.err(
                 path,
                 format!(
-                    "{value} {unit} is outside the plausible range {lo:e} .. {hi:e} {unit}: check the unit (a bare number is SI)"
+                    "{v} {unit} is outside the plausible range {lo:e} .. {hi:e} {unit}: check the unit (a bare number is SI)"
                 ),
             ));
         }
@@ -759,7 +758,12 @@ impl Checker<'_> {
                     ));
                 }
                 let base = Path::new(self.file).parent().unwrap_or(Path::new(""));
-                Some(super::source_file::load_source_file(&base.join(name))?)
+                let loaded = super::source_file::load_source_file(&base.join(name));
+                Some(loaded.map_err(|e| match e {
+                    // errors inside the source file name that file and line
+                    InputError::Invalid(_) => e,
+                    other => self.err(&path.key("source_file"), other.to_string()),
+                })?)
             }
         };
         let speed = match (raw.speed, &file_source) {

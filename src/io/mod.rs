@@ -56,12 +56,12 @@ impl fmt::Display for Located {
 #[non_exhaustive]
 pub enum InputError {
     /// The file could not be read.
-    #[error("{file}: cannot read the file: {source}")]
+    #[error("{file}: cannot read the file: {cause}")]
     Read {
         /// The file.
         file: String,
-        /// The I/O error.
-        source: std::io::Error,
+        /// The I/O error (shown in the message, so not chained again).
+        cause: std::io::Error,
     },
     /// The file is not UTF-8 text, or too large to be an input file.
     #[error("{file}: {reason}")]
@@ -97,9 +97,9 @@ impl InputError {
 /// [`InputError::Read`] or [`InputError::NotText`].
 pub fn read_text(path: &Path) -> Result<String, InputError> {
     let file = path.display().to_string();
-    let meta = std::fs::metadata(path).map_err(|source| InputError::Read {
+    let meta = std::fs::metadata(path).map_err(|cause| InputError::Read {
         file: file.clone(),
-        source,
+        cause,
     })?;
     if meta.is_dir() {
         return Err(InputError::NotText {
@@ -117,9 +117,9 @@ pub fn read_text(path: &Path) -> Result<String, InputError> {
             ),
         });
     }
-    let bytes = std::fs::read(path).map_err(|source| InputError::Read {
+    let bytes = std::fs::read(path).map_err(|cause| InputError::Read {
         file: file.clone(),
-        source,
+        cause,
     })?;
     let text = String::from_utf8(bytes).map_err(|e| InputError::NotText {
         file: file.clone(),

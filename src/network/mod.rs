@@ -15,7 +15,7 @@
 
 mod solve;
 
-pub use solve::{Solution, SolveError, Workspace};
+pub use solve::{ILL_CONDITIONED, SINGULAR_CONDITION, Solution, SolveError, Workspace};
 
 use crate::circuit::Circuit;
 use crate::elements::{Connection, ConnectionKind, ElementKind, NodeId};
