@@ -244,7 +244,7 @@ impl Plan<'_> {
         let a_norm = norm1(&ws.matrix);
         let singular = |condition: f64| SolveError::Singular { freq_hz, condition };
         let pivot_ratio = lu_factor_in_place(&mut ws.matrix, &mut ws.swaps);
-        if !a_norm.is_finite() || !(pivot_ratio > 0.0) {
+        if !a_norm.is_finite() || pivot_ratio.is_nan() || pivot_ratio <= 0.0 {
             return Err(singular(f64::INFINITY));
         }
         // Screen: the Hager–Higham estimate costs several triangular solves,
