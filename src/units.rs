@@ -37,6 +37,8 @@ pub enum Dimension {
     Inertance,
     /// Dimensionless number.
     Ratio,
+    /// Speed (of sound), SI unit m/s.
+    Speed,
 }
 
 impl Dimension {
@@ -56,6 +58,7 @@ impl Dimension {
             Dimension::Resistance => "hydraulic resistance",
             Dimension::Inertance => "hydraulic inertance",
             Dimension::Ratio => "ratio",
+            Dimension::Speed => "speed",
         }
     }
 
@@ -146,6 +149,7 @@ impl Dimension {
             ],
             Dimension::Inertance => &[("kg/m4", 1.0), ("Pa.s2/m3", 1.0)],
             Dimension::Ratio => &[("", 1.0), ("%", 0.01)],
+            Dimension::Speed => &[("m/s", 1.0), ("km/s", 1e3), ("ft/s", 0.3048)],
         }
     }
 
@@ -164,6 +168,7 @@ impl Dimension {
             Dimension::Resistance => "Pa·s/m³",
             Dimension::Inertance => "kg/m⁴",
             Dimension::Ratio => "(dimensionless)",
+            Dimension::Speed => "m/s",
         }
     }
 }

@@ -42,6 +42,8 @@ dims! {
     Angle => Angle,
     Resistance => Resistance,
     Inertance => Inertance,
+    Ratio => Ratio,
+    Speed => Speed,
 }
 
 /// A quantity of dimension `D`, stored in SI.
