@@ -40,38 +40,55 @@ pub struct Ls2 {
 /// If the slices differ in length or hold fewer than two rows.
 pub fn ls2(rows: &[(C64, C64)], y: &[C64], w: &[f64]) -> Option<Ls2> {
     assert!(rows.len() == y.len() && y.len() == w.len() && rows.len() >= 2);
-    let sw: Vec<f64> = w.iter().map(|v| v.sqrt()).collect();
-    let c1: Vec<C64> = rows.iter().zip(&sw).map(|(r, s)| r.0 * *s).collect();
-    let c2: Vec<C64> = rows.iter().zip(&sw).map(|(r, s)| r.1 * *s).collect();
-    let yy: Vec<C64> = y.iter().zip(&sw).map(|(v, s)| v * *s).collect();
-    let norm = |v: &[C64]| v.iter().map(|z| z.norm_sqr()).sum::<f64>().sqrt();
-    let dot = |a: &[C64], b: &[C64]| a.iter().zip(b).map(|(p, q)| p.conj() * q).sum::<C64>();
-    let r11 = norm(&c1);
-    let n2 = norm(&c2);
+    // Weighted columns and right-hand side, recomputed in each pass (no
+    // allocation: this runs many times in the speed-of-sound search).
+    let col = |i: usize| {
+        let s = w[i].sqrt();
+        (rows[i].0 * s, rows[i].1 * s, y[i] * s)
+    };
+    let n = rows.len();
+    let (mut n1, mut n2) = (0.0, 0.0);
+    for i in 0..n {
+        let (a, b, _) = col(i);
+        n1 += a.norm_sqr();
+        n2 += b.norm_sqr();
+    }
+    let (r11, n2) = (n1.sqrt(), n2.sqrt());
     if !(r11 > 0.0 && n2 > 0.0 && r11.is_finite() && n2.is_finite()) {
         return None;
     }
-    let q1: Vec<C64> = c1.iter().map(|z| z / r11).collect();
-    let mut r12 = dot(&q1, &c2);
-    let mut v: Vec<C64> = c2.iter().zip(&q1).map(|(c, q)| c - q * r12).collect();
-    let s = dot(&q1, &v);
-    for (vi, qi) in v.iter_mut().zip(&q1) {
-        *vi -= qi * s;
+    // r12 = q1ᴴ c2, then once more against the remainder (re-orthogonalised).
+    let mut r12 = C64::new(0.0, 0.0);
+    for _ in 0..2 {
+        let mut s = C64::new(0.0, 0.0);
+        for i in 0..n {
+            let (a, b, _) = col(i);
+            let q1 = a / r11;
+            s += q1.conj() * (b - q1 * r12);
+        }
+        r12 += s;
     }
-    r12 += s;
-    let r22 = norm(&v);
+    let mut r22 = 0.0;
+    let (mut q1y, mut vy) = (C64::new(0.0, 0.0), C64::new(0.0, 0.0));
+    for i in 0..n {
+        let (a, b, t) = col(i);
+        let q1 = a / r11;
+        let v = b - q1 * r12;
+        r22 += v.norm_sqr();
+        q1y += q1.conj() * t;
+        vy += v.conj() * t;
+    }
+    let r22 = r22.sqrt();
     if !(r22 > 0.0) || r22 <= 1e-15 * n2 {
         return None;
     }
-    let q2: Vec<C64> = v.iter().map(|z| z / r22).collect();
-    let x2 = dot(&q2, &yy) / r22;
-    let x1 = (dot(&q1, &yy) - r12 * x2) / r11;
-    let residual = c1
-        .iter()
-        .zip(&c2)
-        .zip(&yy)
-        .map(|((a, b), t)| (a * x1 + b * x2 - t).norm_sqr())
-        .sum();
+    let x2 = vy / (r22 * r22);
+    let x1 = (q1y - r12 * x2) / r11;
+    let mut residual = 0.0;
+    for i in 0..n {
+        let (a, b, t) = col(i);
+        residual += (a * x1 + b * x2 - t).norm_sqr();
+    }
     // Singular values of R with unit columns: [[1, r12/n2], [0, r22/n2]].
     let b = (r12 / n2).norm_sqr();
     let d = (r22 / n2).powi(2);

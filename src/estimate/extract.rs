@@ -3,14 +3,15 @@
 //!
 //! 1. **Coarse speed.** The Hann-windowed, zero-padded FFT of every channel
 //!    (rustfft) gives a power spectrum; the fundamental within the stated
-//!    speed tolerance is the frequency whose harmonics 1..N carry the most
-//!    power (a harmonic-sum search on the FFT grid).
+//!    speed tolerance is the frequency whose harmonics 1..N all carry power
+//!    (a harmonic-product search on the FFT grid, with another series'
+//!    lines masked).
 //! 2. **Refined speed.** The fundamental is refined by minimising, over the
 //!    whole record, the residual of a weighted least-squares fit of the
 //!    harmonic series (a multi-harmonic sine fit in the manner of IEEE Std
 //!    1057's sine-fitting, with the frequency as the one nonlinear
-//!    parameter), by golden-section search. For noise-free data the minimum
-//!    is exact.
+//!    parameter), by golden-section searches with 1, 2, 4, … harmonics. For
+//!    noise-free data the minimum is exact.
 //! 3. **Segments.** The record is cut into S equal segments; in each the
 //!    Hann-weighted least-squares fit of all modelled lines (DC, pump
 //!    harmonics up to 2N or the Nyquist limit, secondary lines) gives the
@@ -143,30 +144,56 @@ pub fn extract(
     }
     observer.stage(&format!("extracting {file}"), 3 + req.segments as u64);
 
-    // 1–2. The pumping frequency.
-    let fp = refine_fundamental(record, req.pump_fundamental_hz, req.harmonics, req.speed_tolerance)?;
+    // 1–2. The pumping frequency, then the secondary source's (its search
+    // masks the pump harmonics and models them at their refined frequencies).
+    let mut fp = refine_fundamental(
+        record,
+        req.pump_fundamental_hz,
+        req.harmonics,
+        req.speed_tolerance,
+        &[],
+    )?;
     observer.advance(1);
     let model_k = (2 * req.harmonics).min(((0.9 * nyquist) / fp).floor() as u32);
     let mut lines: Vec<(u32, f64, bool)> = (1..=model_k)
         .map(|k| (k, f64::from(k) * fp, true))
         .collect();
     let fsec = match req.secondary_fundamental_hz {
-        None => None,
+        None => {
+            fp = gauss_newton(record, fp, model_k, &[]);
+            None
+        }
         Some(nominal) => {
             let top_sec = (f64::from(req.harmonics) + 0.5) * fp;
             let m_max = (top_sec / nominal).floor().max(1.0) as u32;
-            let f = refine_fundamental(record, nominal, m_max, req.speed_tolerance)?;
-            // Secondary lines too close to a pump line cannot be separated.
-            let guard = 2.0 / seg_time;
-            for m in 1..=(top_sec / f).floor() as u32 {
-                let fm = f64::from(m) * f;
-                if lines.iter().all(|l| (l.1 - fm).abs() > guard) && fm < 0.9 * nyquist {
-                    lines.push((m, fm, false));
-                }
+            let pump_freqs = |fp: f64| (1..=model_k).map(|k| f64::from(k) * fp).collect::<Vec<_>>();
+            let mut f = refine_fundamental(record, nominal, m_max, req.speed_tolerance, &pump_freqs(fp))?;
+            // Each series refined with the other modelled, twice round.
+            for _ in 0..2 {
+                let sec: Vec<f64> = (1..=m_max).map(|m| f64::from(m) * f).collect();
+                fp = gauss_newton(record, fp, model_k, &sec);
+                f = gauss_newton(record, f, m_max, &pump_freqs(fp));
             }
             Some(f)
         }
     };
+    for (k, line) in lines.iter_mut().enumerate() {
+        line.1 = (k + 1) as f64 * fp;
+    }
+    if let Some(f) = fsec {
+        // A secondary line closer to a pump line than half the segment
+        // resolution cannot be separated from it: it is left out.
+        let resolution = 0.5 / seg_time;
+        let top_sec = (f64::from(req.harmonics) + 0.5) * fp;
+        for m in 1..=(top_sec / f).floor() as u32 {
+            let fm = f64::from(m) * f;
+            if (1..=model_k).all(|k| (f64::from(k) * fp - fm).abs() > resolution)
+                && fm < 0.9 * nyquist
+            {
+                lines.push((m, fm, false));
+            }
+        }
+    }
     observer.advance(1);
 
     // 3. Per-segment fits.
@@ -258,36 +285,138 @@ fn weighted_fit(
     freqs: &[f64],
     m: usize,
 ) -> Option<Vec<Vec<f64>>> {
-    let mut gram = DMatrix::<f64>::zeros(m, m);
     let channels = record.channels.len();
-    let mut rhs = vec![DVector::<f64>::zeros(m); channels];
+    let mut upper = vec![0.0; m * m];
+    let mut rhs = vec![0.0; m * channels];
     let mut basis = vec![0.0; m];
     for i in 0..len {
         let w = hann(i, len);
         fill_basis(&mut basis, freqs, (start + i) as f64 / record.sample_rate_hz);
         for r in 0..m {
             let br = w * basis[r];
-            for c in r..m {
-                gram[(r, c)] += br * basis[c];
+            let row = &mut upper[r * m..(r + 1) * m];
+            for (g, b) in row[r..].iter_mut().zip(&basis[r..]) {
+                *g += br * b;
             }
-            for (ch, v) in rhs.iter_mut().enumerate() {
-                v[r] += br * record.channels[ch][start + i];
+            for (ch, data) in record.channels.iter().enumerate() {
+                rhs[ch * m + r] += br * data[start + i];
             }
         }
     }
-    for r in 0..m {
-        for c in 0..r {
-            gram[(r, c)] = gram[(c, r)];
+    let gram = DMatrix::<f64>::from_fn(m, m, |r, c| {
+        if c >= r {
+            upper[r * m + c]
+        } else {
+            upper[c * m + r]
         }
-    }
+    });
     let chol = gram.cholesky()?;
-    let out: Vec<Vec<f64>> = rhs
-        .into_iter()
-        .map(|b| chol.solve(&b).iter().copied().collect())
+    let out: Vec<Vec<f64>> = (0..channels)
+        .map(|ch| {
+            chol.solve(&DVector::from_column_slice(&rhs[ch * m..(ch + 1) * m]))
+                .iter()
+                .copied()
+                .collect()
+        })
         .collect();
     out.iter()
         .all(|v| v.iter().all(|x| x.is_finite()))
         .then_some(out)
+}
+
+/// One Gauss–Newton refinement of the fundamental `f` of a harmonic series
+/// (harmonics 1..=k) fitted over the whole record together with lines at
+/// `fixed` (Hz), all channels sharing the frequency: with the fit residual
+/// e_c and the derivative J_c = ∂(model)/∂f at the current coefficients,
+/// δf = Σ_c ⟨J_c, e_c⟩ / Σ_c ‖P⊥J_c‖² (Hann-weighted inner products, P⊥ the
+/// projection off the model's columns). This is the frequency step of the
+/// four-parameter sine fit of IEEE Std 1057 carried to harmonic series.
+/// Returns the new frequency, or `None` if the fit fails.
+fn gauss_newton_step(record: &TimeRecord, f: f64, k: u32, fixed: &[f64]) -> Option<f64> {
+    let n = record.channels[0].len();
+    let fs = record.sample_rate_hz;
+    let mut freqs: Vec<f64> = (1..=k).map(|i| f64::from(i) * f).collect();
+    let resolution = fs / n as f64;
+    freqs.extend(
+        fixed
+            .iter()
+            .copied()
+            .filter(|p| (1..=k).all(|i| (p - f64::from(i) * f).abs() > resolution)),
+    );
+    let m = 1 + 2 * freqs.len();
+    let theta = weighted_fit(record, 0, n, &freqs, m)?;
+    let channels = record.channels.len();
+    let mut v = vec![0.0; m * channels];
+    let (mut je, mut jj) = (0.0, 0.0);
+    let mut basis = vec![0.0; m];
+    for i in 0..n {
+        let w = hann(i, n);
+        let t = i as f64 / fs;
+        fill_basis(&mut basis, &freqs, t);
+        for (ch, th) in theta.iter().enumerate() {
+            let model: f64 = basis.iter().zip(th).map(|(b, c)| b * c).sum();
+            let e = record.channels[ch][i] - model;
+            // ∂/∂f of Σ_h (a_h cos 2πhft + b_h sin 2πhft), series lines only.
+            let mut jac = 0.0;
+            for h in 0..k as usize {
+                let order = (h + 1) as f64;
+                let (a, b) = (th[1 + 2 * h], th[2 + 2 * h]);
+                let (c, s) = (basis[1 + 2 * h], basis[2 + 2 * h]);
+                jac += std::f64::consts::TAU * order * t * (-a * s + b * c);
+            }
+            je += w * jac * e;
+            jj += w * jac * jac;
+            for (r, b) in basis.iter().enumerate() {
+                v[ch * m + r] += w * b * jac;
+            }
+        }
+    }
+    // ‖P⊥J‖² = ⟨J, J⟩ − vᵀ G⁻¹ v, with G rebuilt from the basis.
+    let mut upper = vec![0.0; m * m];
+    for i in 0..n {
+        let w = hann(i, n);
+        fill_basis(&mut basis, &freqs, i as f64 / fs);
+        for r in 0..m {
+            let br = w * basis[r];
+            for (g, b) in upper[r * m + r..(r + 1) * m].iter_mut().zip(&basis[r..]) {
+                *g += br * b;
+            }
+        }
+    }
+    let gram = DMatrix::<f64>::from_fn(m, m, |r, c| {
+        if c >= r {
+            upper[r * m + c]
+        } else {
+            upper[c * m + r]
+        }
+    });
+    let chol = gram.cholesky()?;
+    let mut proj = 0.0;
+    for ch in 0..channels {
+        let vc = DVector::from_column_slice(&v[ch * m..(ch + 1) * m]);
+        proj += vc.dot(&chol.solve(&vc));
+    }
+    let den = jj - proj;
+    (den > 0.0).then(|| f + je / den)
+}
+
+/// Gauss–Newton refinement to convergence (relative step below 1e-14, at
+/// most 8 steps).
+fn gauss_newton(record: &TimeRecord, f: f64, k: u32, fixed: &[f64]) -> f64 {
+    let mut f = f;
+    for _ in 0..8 {
+        match gauss_newton_step(record, f, k, fixed) {
+            Some(next) if next.is_finite() => {
+                let done = (next - f).abs() <= 1e-14 * f;
+                f = next;
+                if done {
+                    break;
+                }
+            }
+            _ => break,
+        }
+    }
+    f
 }
 
 /// [1, cos ω1t, sin ω1t, cos ω2t, …] at time t.
@@ -300,8 +429,8 @@ fn fill_basis(basis: &mut [f64], freqs: &[f64], t: f64) {
     }
 }
 
-/// Weighted residual of the harmonic-series fit over the whole record with
-/// fundamental `f` and harmonics 1..=k.
+/// Weighted residual of the fit over the whole record of the harmonic series
+/// with fundamental `f` and harmonics 1..=k.
 fn series_residual(record: &TimeRecord, f: f64, k: u32) -> f64 {
     let freqs: Vec<f64> = (1..=k).map(|i| f64::from(i) * f).collect();
     let m = 1 + 2 * freqs.len();
@@ -324,13 +453,15 @@ fn series_residual(record: &TimeRecord, f: f64, k: u32) -> f64 {
 }
 
 /// The fundamental of a harmonic series near `nominal` (within ±tolerance):
-/// a harmonic-sum search on the FFT power spectrum, then a golden-section
-/// search on the residual of the series fit.
+/// a harmonic-product search on the FFT power spectrum, then golden-section
+/// searches on the residual of the series fit. Lines at `other` (another
+/// series, already known) are masked in the search.
 fn refine_fundamental(
     record: &TimeRecord,
     nominal: f64,
     harmonics: u32,
     tolerance: f64,
+    other: &[f64],
 ) -> Result<f64, EstimateError> {
     let fs = record.sample_rate_hz;
     let n = record.channels[0].len();
@@ -354,14 +485,27 @@ fn refine_fundamental(
         }
     }
     let bin = fs / nfft as f64;
-    let at = |f: f64| -> f64 {
+    // Mask the other series: ±(main-lobe half-width of the Hann window).
+    let half = 2.0 * fs / n as f64;
+    let mut masked = vec![false; power.len()];
+    for &p in other {
+        let lo = ((p - half) / bin).floor().max(0.0) as usize;
+        let hi = (((p + half) / bin).ceil() as usize).min(power.len() - 1);
+        for m in &mut masked[lo..=hi] {
+            *m = true;
+        }
+    }
+    let peak = power.iter().copied().fold(0.0, f64::max);
+    let floor = 1e-14 * peak;
+    // Log power at f (linear interpolation on the grid); None where masked.
+    let at = |f: f64| -> Option<f64> {
         let x = f / bin;
         let i = x.floor() as usize;
-        if i + 1 >= power.len() {
-            return 0.0;
+        if i + 1 >= power.len() || masked[i] || masked[i + 1] {
+            return None;
         }
         let t = x - i as f64;
-        power[i] * (1.0 - t) + power[i + 1] * t
+        Some((power[i] * (1.0 - t) + power[i + 1] * t + floor).ln())
     };
     let k_top = harmonics
         .min(((0.9 * fs / 2.0) / (nominal * (1.0 + tolerance))).floor() as u32)
@@ -370,15 +514,20 @@ fn refine_fundamental(
     let lo = nominal * (1.0 - tolerance);
     let hi = nominal * (1.0 + tolerance);
     let count = ((hi - lo) / step).ceil() as usize + 1;
+    // Harmonic product spectrum (Schroeder 1968; Noll 1969): the mean log
+    // power over the unmasked harmonics, so that a candidate must meet every
+    // harmonic, not a few strong lines of another series.
     let mut best = (nominal, f64::NEG_INFINITY);
     for i in 0..count {
         let f = lo + i as f64 * step;
-        let s: f64 = (1..=k_top).map(|k| at(f64::from(k) * f)).sum();
-        if s > best.1 {
-            best = (f, s);
+        let (sum, used) = (1..=k_top)
+            .filter_map(|k| at(f64::from(k) * f))
+            .fold((0.0, 0u32), |(s, u), v| (s + v, u + 1));
+        if used > 0 && sum / f64::from(used) > best.1 {
+            best = (f, sum / f64::from(used));
         }
     }
-    if !(best.1 > 0.0) {
+    if !(peak > 0.0) || best.1 == f64::NEG_INFINITY {
         return Err(data_err(
             &record.file,
             format!(
@@ -386,17 +535,40 @@ fn refine_fundamental(
             ),
         ));
     }
-    // Golden-section search on the series-fit residual.
+    // Golden-section searches on the series-fit residual, with 1, 2, 4, …
+    // harmonics: each stage's estimate lies well inside the next stage's
+    // bracket, ±0.75/(k·T), where the residual has a single minimum; the
+    // caller polishes the last stage's estimate by Gauss–Newton.
+    let duration = n as f64 / fs;
+    let mut f = best.0;
+    let mut k = 1;
+    loop {
+        let half = 0.75 / (f64::from(k) * duration);
+        let last = k == k_top;
+        f = golden_min(
+            |x| series_residual(record, x, k),
+            f - half,
+            f + half,
+            10,
+        );
+        if last {
+            break;
+        }
+        k = (2 * k).min(k_top);
+    }
+    Ok(f)
+}
+
+/// Golden-section search (Kiefer 1953) for the minimum of `g` on [a, b],
+/// stopping at a relative width of 1e-14 or after `iterations` steps.
+fn golden_min(g: impl Fn(f64) -> f64, a: f64, b: f64, iterations: usize) -> f64 {
     let ratio = (5f64.sqrt() - 1.0) / 2.0;
-    let (mut a, mut b) = (best.0 - 2.0 * step, best.0 + 2.0 * step);
+    let (mut a, mut b) = (a, b);
     let mut x1 = b - ratio * (b - a);
     let mut x2 = a + ratio * (b - a);
-    let (mut f1, mut f2) = (
-        series_residual(record, x1, k_top),
-        series_residual(record, x2, k_top),
-    );
-    for _ in 0..80 {
-        if b - a <= 1e-14 * b {
+    let (mut f1, mut f2) = (g(x1), g(x2));
+    for _ in 0..iterations {
+        if b - a <= 1e-14 * b.abs() {
             break;
         }
         if f1 <= f2 {
@@ -404,16 +576,16 @@ fn refine_fundamental(
             x2 = x1;
             f2 = f1;
             x1 = b - ratio * (b - a);
-            f1 = series_residual(record, x1, k_top);
+            f1 = g(x1);
         } else {
             a = x1;
             x1 = x2;
             f1 = f2;
             x2 = a + ratio * (b - a);
-            f2 = series_residual(record, x2, k_top);
+            f2 = g(x2);
         }
     }
-    Ok(if f1 <= f2 { x1 } else { x2 })
+    if f1 <= f2 { x1 } else { x2 }
 }
 
 #[cfg(test)]

@@ -293,9 +293,9 @@ pub fn fit(
         observer.stage("uncertainty (Monte Carlo)", draws as u64);
         let mut rng = Rng::new(options.seed);
         let search = SearchSettings {
-            range: 0.05,
-            scan_points: 41,
-            tolerance: 1e-12,
+            range: 0.03,
+            scan_points: 25,
+            tolerance: 1e-10,
             ..SearchSettings::default()
         };
         for _ in 0..draws {

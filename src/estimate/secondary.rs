@@ -10,8 +10,9 @@
 //! R_s = F/G,      Zs = Zc (1 + R_s)/(1 − R_s) = −P0/Q0
 //! ```
 //!
-//! Zs is carried to the pump harmonics by interpolation (amplitude and
-//! unwrapped phase, linear in frequency) or by a least-squares fit of a
+//! Zs is carried to the pump harmonics by interpolation (log amplitude and
+//! unwrapped phase, linear in log frequency, so that a capacitive impedance
+//! ∝ 1/f is interpolated exactly) or by a least-squares fit of a
 //! physical form, Ys = G + jωC (internal volume with leakage, methods.md
 //! §5 form b); fitting a physical form is the more repeatable of the two
 //! (Johnston & Drew). Then, at each pump harmonic, from the pump's own run:
@@ -22,7 +23,6 @@
 
 use super::bench::ImpedanceFit;
 use crate::C64;
-use crate::source::ImpedanceTable;
 
 /// Zs at one secondary-source frequency from the outlet state, −P0/Q0.
 pub fn impedance_point(p0: C64, q0: C64) -> C64 {
@@ -33,8 +33,8 @@ pub fn impedance_point(p0: C64, q0: C64) -> C64 {
 /// measured at the secondary-source frequencies.
 #[derive(Debug, Clone, PartialEq)]
 pub enum ImpedanceModel {
-    /// Interpolated between the points.
-    Table(ImpedanceTable),
+    /// Interpolated between the points: (frequency Hz, ln |Zs|, unwrapped phase).
+    Table(Vec<(f64, f64, f64)>),
     /// Ys = G + jωC.
     CapacitanceLeakage {
         /// Conductance G in m³/(Pa·s).
@@ -75,7 +75,18 @@ impl ImpedanceModel {
             .map(|(f, z, n)| (f, z / n as f64))
             .collect();
         match fit {
-            ImpedanceFit::Interpolate => ImpedanceTable::new(&pts).map(ImpedanceModel::Table),
+            ImpedanceFit::Interpolate => {
+                let mut table: Vec<(f64, f64, f64)> = Vec::with_capacity(pts.len());
+                for (f, z) in pts {
+                    let mut phase = z.arg();
+                    if let Some(&(_, _, last)) = table.last() {
+                        phase += std::f64::consts::TAU
+                            * ((last - phase) / std::f64::consts::TAU).round();
+                    }
+                    table.push((f, z.norm().ln(), phase));
+                }
+                Ok(ImpedanceModel::Table(table))
+            }
             ImpedanceFit::CapacitanceLeakage => {
                 // Least squares on Ys = G + jωC: G = mean Re Ys,
                 // C = Σ ω Im Ys / Σ ω².
@@ -99,7 +110,20 @@ impl ImpedanceModel {
     /// Zs at `freq_hz`.
     pub fn at(&self, freq_hz: f64) -> C64 {
         match self {
-            ImpedanceModel::Table(t) => t.at(freq_hz),
+            ImpedanceModel::Table(t) => {
+                let i = t.partition_point(|p| p.0 < freq_hz);
+                let (ln_amp, phase) = if i == 0 {
+                    (t[0].1, t[0].2)
+                } else if i == t.len() {
+                    (t[i - 1].1, t[i - 1].2)
+                } else {
+                    let (f0, a0, p0) = t[i - 1];
+                    let (f1, a1, p1) = t[i];
+                    let x = (freq_hz / f0).ln() / (f1 / f0).ln();
+                    (a0 + x * (a1 - a0), p0 + x * (p1 - p0))
+                };
+                C64::from_polar(ln_amp.exp(), phase)
+            }
             ImpedanceModel::CapacitanceLeakage {
                 conductance,
                 capacitance,
@@ -110,7 +134,7 @@ impl ImpedanceModel {
     /// The frequency range the points cover (Hz), for interpolation.
     pub fn range_hz(&self) -> Option<(f64, f64)> {
         match self {
-            ImpedanceModel::Table(t) => Some(t.range_hz()),
+            ImpedanceModel::Table(t) => Some((t[0].0, t[t.len() - 1].0)),
             ImpedanceModel::CapacitanceLeakage { .. } => None,
         }
     }
@@ -140,5 +164,10 @@ mod tests {
         let t = ImpedanceModel::build(&pts, ImpedanceFit::Interpolate).unwrap();
         assert_eq!(t.range_hz(), Some((90.0, 410.0)));
         assert!((t.at(180.0) - z(180.0)).norm() < 1e-14 * z(180.0).norm());
+        // A pure capacitance (∝ 1/f) is interpolated exactly in log-log.
+        let cap = |f: f64| C64::new(0.0, std::f64::consts::TAU * f * c).inv();
+        let pts: Vec<(f64, C64)> = [90.0, 410.0].map(|f| (f, cap(f))).to_vec();
+        let t = ImpedanceModel::build(&pts, ImpedanceFit::Interpolate).unwrap();
+        assert!((t.at(225.0) - cap(225.0)).norm() < 1e-13 * cap(225.0).norm());
     }
 }

@@ -23,6 +23,9 @@ use super::decompose::ls2;
 use crate::C64;
 use crate::line::Propagation;
 
+/// Most transducers a bench may have.
+pub const MAX_TRANSDUCERS: usize = 16;
+
 /// Why the search stopped.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum FitStatus {
@@ -97,11 +100,13 @@ pub fn cost(positions: &[f64], obs: &[Observation], c_ref: f64, c0: f64) -> f64 
     obs.iter()
         .map(|o| {
             let p = scale_propagation(&o.prop_ref, c_ref, c0);
-            let rows: Vec<(C64, C64)> = positions
-                .iter()
-                .map(|&x| ((-p.gamma * x).exp(), (p.gamma * x).exp()))
-                .collect();
-            ls2(&rows, &o.pressures, &o.weights).map_or(f64::INFINITY, |s| s.residual)
+            let mut rows = [(C64::new(0.0, 0.0), C64::new(0.0, 0.0)); MAX_TRANSDUCERS];
+            for (r, &x) in rows.iter_mut().zip(positions) {
+                let e = (-p.gamma * x).exp();
+                *r = (e, e.inv());
+            }
+            ls2(&rows[..positions.len()], &o.pressures, &o.weights)
+                .map_or(f64::INFINITY, |s| s.residual)
         })
         .sum()
 }
@@ -118,7 +123,10 @@ pub fn fit_speed_of_sound(
     c_start: f64,
     settings: SearchSettings,
 ) -> WaveSpeedFit {
-    assert!(positions.len() >= 3, "the in-situ fit needs three transducers");
+    assert!(
+        (3..=MAX_TRANSDUCERS).contains(&positions.len()),
+        "the in-situ fit needs 3 to {MAX_TRANSDUCERS} transducers"
+    );
     let f = |c: f64| cost(positions, obs, c_ref, c);
     let n = settings.scan_points.max(3);
     let lo = c_start * (1.0 - settings.range);
