@@ -39,6 +39,8 @@ pub enum Dimension {
     Ratio,
     /// Speed (of sound), SI unit m/s.
     Speed,
+    /// Time, SI unit s.
+    Time,
 }
 
 impl Dimension {
@@ -59,6 +61,7 @@ impl Dimension {
             Dimension::Inertance => "hydraulic inertance",
             Dimension::Ratio => "ratio",
             Dimension::Speed => "speed",
+            Dimension::Time => "time",
         }
     }
 
@@ -150,6 +153,7 @@ impl Dimension {
             Dimension::Inertance => &[("kg/m4", 1.0), ("Pa.s2/m3", 1.0)],
             Dimension::Ratio => &[("", 1.0), ("%", 0.01)],
             Dimension::Speed => &[("m/s", 1.0), ("km/s", 1e3), ("ft/s", 0.3048)],
+            Dimension::Time => &[("s", 1.0), ("ms", 1e-3), ("min", 60.0)],
         }
     }
 
@@ -169,6 +173,7 @@ impl Dimension {
             Dimension::Inertance => "kg/m⁴",
             Dimension::Ratio => "(dimensionless)",
             Dimension::Speed => "m/s",
+            Dimension::Time => "s",
         }
     }
 }

@@ -44,6 +44,7 @@ dims! {
     Inertance => Inertance,
     Ratio => Ratio,
     Speed => Speed,
+    Time => Time,
 }
 
 /// A quantity of dimension `D`, stored in SI.
