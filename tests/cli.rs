@@ -358,21 +358,60 @@ fn the_readme_example_circuit_is_valid() {
 /// `ripline fit` fail with exit code 2 and a message naming the file, the
 /// place (line of the bench file or CSV row) and the fault, writing nothing.
 const BAD_BENCH_FILES: &[(&str, &str)] = &[
-    ("in_situ_two_transducers.yaml", "speed_of_sound: the speed of sound in situ needs at least three transducers"),
-    ("irregular_time.yaml", "data/irregular_time.csv:7: column `t`: time 0.0009 s is off the uniform sampling grid"),
-    ("low_sample_rate.yaml", "data/good.csv: the sample rate 1000 Hz is too low"),
-    ("missing_harmonic.yaml", "data/spectra_gap.csv: harmonic 3 is missing"),
-    ("missing_records.yaml", "data/nowhere.csv: cannot read the file"),
-    ("nan_value.yaml", "data/nan_value.csv:4: column `p1`: `NaN` is not a finite number"),
+    (
+        "in_situ_two_transducers.yaml",
+        "speed_of_sound: the speed of sound in situ needs at least three transducers",
+    ),
+    (
+        "irregular_time.yaml",
+        "data/irregular_time.csv:7: column `t`: time 0.0009 s is off the uniform sampling grid",
+    ),
+    (
+        "low_sample_rate.yaml",
+        "data/good.csv: the sample rate 1000 Hz is too low",
+    ),
+    (
+        "missing_harmonic.yaml",
+        "data/spectra_gap.csv: harmonic 3 is missing",
+    ),
+    (
+        "missing_records.yaml",
+        "data/nowhere.csv: cannot read the file",
+    ),
+    (
+        "nan_value.yaml",
+        "data/nan_value.csv:4: column `p1`: `NaN` is not a finite number",
+    ),
     ("no_unit.yaml", "say the unit of the values"),
-    ("not_a_number.yaml", "data/not_a_number.csv:5: column `p2`: `1.5o2e2` is not a number"),
-    ("one_system.yaml", "conditions: `method: two_systems` needs at least two pump conditions"),
-    ("ragged_row.yaml", "data/ragged_row.csv:6: the row has 2 fields, the header has 3 columns"),
-    ("rate_mismatch.yaml", "the time column gives a sample rate of 6000.000 Hz, the bench file states 5000 Hz"),
-    ("short_record.yaml", "data/short.csv: the record is too short"),
-    ("transducer_beyond_line.yaml", "conditions[1].line_length: the line (0.9 m) must reach beyond the last transducer (1.05 m)"),
+    (
+        "not_a_number.yaml",
+        "data/not_a_number.csv:5: column `p2`: `1.5o2e2` is not a number",
+    ),
+    (
+        "one_system.yaml",
+        "conditions: `method: two_systems` needs at least two pump conditions",
+    ),
+    (
+        "ragged_row.yaml",
+        "data/ragged_row.csv:6: the row has 2 fields, the header has 3 columns",
+    ),
+    (
+        "rate_mismatch.yaml",
+        "the time column gives a sample rate of 6000.000 Hz, the bench file states 5000 Hz",
+    ),
+    (
+        "short_record.yaml",
+        "data/short.csv: the record is too short",
+    ),
+    (
+        "transducer_beyond_line.yaml",
+        "conditions[1].line_length: the line (0.9 m) must reach beyond the last transducer (1.05 m)",
+    ),
     ("unknown_bench_key.yaml", "unknown field `colour`"),
-    ("wrong_columns.yaml", "data/two_columns.csv:1: no column `p3` in the header"),
+    (
+        "wrong_columns.yaml",
+        "data/two_columns.csv:1: no column `p3` in the header",
+    ),
 ];
 
 #[test]
@@ -386,18 +425,42 @@ fn bad_bench_files_exit_2_with_a_located_message_and_write_nothing() {
         let path = entry.unwrap().path();
         if path.extension().is_some_and(|e| e == "yaml") {
             let name = path.file_name().unwrap().to_string_lossy().into_owned();
-            assert!(listed.contains(&name.as_str()), "tests/bad/bench/{name} has no expectation in BAD_BENCH_FILES");
+            assert!(
+                listed.contains(&name.as_str()),
+                "tests/bad/bench/{name} has no expectation in BAD_BENCH_FILES"
+            );
         }
     }
     for (file, fragment) in BAD_BENCH_FILES {
         let path = format!("tests/bad/bench/{file}");
-        let o = ripline(&["fit", &path, "--draws", "0", "--csv", csv.to_str().unwrap(), "--source-out", src.to_str().unwrap()]);
+        let o = ripline(&[
+            "fit",
+            &path,
+            "--draws",
+            "0",
+            "--csv",
+            csv.to_str().unwrap(),
+            "--source-out",
+            src.to_str().unwrap(),
+        ]);
         let err = stderr(&o);
         assert_eq!(o.status.code(), Some(2), "{file}: {err}");
-        assert!(err.contains("tests/bad/bench/"), "{file}: message does not name the file: {err}");
-        assert!(err.contains(fragment), "{file}: expected `{fragment}` in: {err}");
-        assert!(!err.contains("panicked") && !err.contains("NaN"), "{err}");
-        assert!(files_in(&dir).is_empty(), "{file}: an output file was written");
+        assert!(
+            err.contains("tests/bad/bench/"),
+            "{file}: message does not name the file: {err}"
+        );
+        assert!(
+            err.contains(fragment),
+            "{file}: expected `{fragment}` in: {err}"
+        );
+        assert!(
+            !err.contains("panicked") && !stdout(&o).contains("NaN"),
+            "{err}"
+        );
+        assert!(
+            files_in(&dir).is_empty(),
+            "{file}: an output file was written"
+        );
     }
     std::fs::remove_dir_all(dir).unwrap();
 }
@@ -409,29 +472,57 @@ fn demo_bench_fit_recovers_the_known_source() {
     // at the measured speed), Zs = 1/(jωV/B + 1/R) with V = 0.1 L,
     // B = 1.6 GPa, R = 1.2e12 (methods.md §5 form b), c = √(B/ρ) = 1356.1 m/s.
     let dir = scratch("demofit");
-    let (csv, src, png) = (dir.join("fit.csv"), dir.join("pump.yaml"), dir.join("fit.png"));
+    let (csv, src, png) = (
+        dir.join("fit.csv"),
+        dir.join("pump.yaml"),
+        dir.join("fit.png"),
+    );
     let o = ripline(&[
-        "fit", "networks/bench/demo_bench.yaml", "--draws", "50",
-        "--csv", csv.to_str().unwrap(), "--source-out", src.to_str().unwrap(), "--plot", png.to_str().unwrap(),
+        "fit",
+        "networks/bench/demo_bench.yaml",
+        "--draws",
+        "50",
+        "--csv",
+        csv.to_str().unwrap(),
+        "--source-out",
+        src.to_str().unwrap(),
+        "--plot",
+        png.to_str().unwrap(),
     ]);
     assert!(o.status.success(), "{}", stderr(&o));
     let out = stdout(&o);
-    assert!(out.contains("1503.0 rpm measured") && out.contains("estimated in situ"), "{out}");
+    assert!(
+        out.contains("1503.0 rpm measured") && out.contains("estimated in situ"),
+        "{out}"
+    );
     assert!(!out.contains("NaN") && !out.contains("inf"), "{out}");
     let text = std::fs::read_to_string(&csv).unwrap();
     let mut lines = text.lines();
     assert_eq!(
         lines.next(),
-        Some("harmonic,frequency_hz,flow_amplitude_m3s,flow_phase_deg,impedance_amplitude_pa_s_m3,impedance_phase_deg,flow_uncertainty_m3s,impedance_uncertainty_pa_s_m3")
+        Some(
+            "harmonic,frequency_hz,flow_amplitude_m3s,flow_phase_deg,impedance_amplitude_pa_s_m3,impedance_phase_deg,flow_uncertainty_m3s,impedance_uncertainty_pa_s_m3"
+        )
     );
-    let row: Vec<f64> = lines.next().unwrap().split(',').map(|v| v.parse().unwrap()).collect();
+    let row: Vec<f64> = lines
+        .next()
+        .unwrap()
+        .split(',')
+        .map(|v| v.parse().unwrap())
+        .collect();
     let want_q = 0.6 / 60_000.0 * 1.002;
     let f = 225.0 * 1.002;
     let w = std::f64::consts::TAU * f;
     let want_z = 1.0 / ((1.0 / 1.2e12f64).powi(2) + (w * 1e-4 / 1.6e9).powi(2)).sqrt();
     assert!((row[1] - f).abs() < 1e-3, "{row:?}");
-    assert!((row[2] - want_q).abs() < 3.0 * row[6], "{row:?} vs {want_q}");
-    assert!((row[4] - want_z).abs() < 3.0 * row[7], "{row:?} vs {want_z}");
+    assert!(
+        (row[2] - want_q).abs() < 3.0 * row[6],
+        "{row:?} vs {want_q}"
+    );
+    assert!(
+        (row[4] - want_z).abs() < 3.0 * row[7],
+        "{row:?} vs {want_z}"
+    );
     assert_eq!(text.lines().count(), 11);
     assert!(std::fs::read(&png).unwrap().starts_with(b"\x89PNG"));
     // The source file is read by `solve` through pump.source_file.
@@ -447,7 +538,11 @@ fn demo_bench_fit_recovers_the_known_source() {
     .unwrap();
     let o = ripline(&["solve", circuit.to_str().unwrap()]);
     assert!(o.status.success(), "{}", stderr(&o));
-    assert!(stdout(&o).contains("pumping frequency 225.45 Hz"), "{}", stdout(&o));
+    assert!(
+        stdout(&o).contains("pumping frequency 225.45 Hz"),
+        "{}",
+        stdout(&o)
+    );
     std::fs::remove_dir_all(dir).unwrap();
 }
 
@@ -467,7 +562,14 @@ fn synth_then_fit_round_trip_without_noise() {
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(stdout(&o).contains("data/system_a.csv"));
     let csv = dir.join("fit.csv");
-    let o = ripline(&["fit", bench.to_str().unwrap(), "--draws", "0", "--csv", csv.to_str().unwrap()]);
+    let o = ripline(&[
+        "fit",
+        bench.to_str().unwrap(),
+        "--draws",
+        "0",
+        "--csv",
+        csv.to_str().unwrap(),
+    ]);
     assert!(o.status.success(), "{}", stderr(&o));
     let text = std::fs::read_to_string(&csv).unwrap();
     let row: Vec<&str> = text.lines().nth(2).unwrap().split(',').collect();

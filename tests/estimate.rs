@@ -1,3 +1,4 @@
+#![allow(clippy::excessive_precision)] // reference values pasted with all their digits
 //! Bench estimation: the methods.md §6d synthetic bench (check values from
 //! tests/oracles/estimate_refs.py, mpmath 1.3.0 at 30 digits), and round
 //! trips known source → synthetic records → estimate for each estimator.
@@ -126,7 +127,11 @@ fn bench_6d(harmonics: u32, method: Method, speed_of_sound: SpeedOfSound) -> Ben
             },
             noise: 0.0,
             seed: 1,
-            duration_s: if let Method::SecondarySource { .. } = method { 1.0 } else { 0.5 },
+            duration_s: if let Method::SecondarySource { .. } = method {
+                1.0
+            } else {
+                0.5
+            },
             sample_rate_hz: Some(6000.0),
             speed_error: 0.0,
             mean_pressure_pa: 0.0,
@@ -178,10 +183,18 @@ fn section_6d_intermediate_phasors() {
     assert!(close(prop.gamma, cc(GAMMA_225), 1e-12), "{}", prop.gamma);
     assert!(close(prop.zc, cc(ZC_225), 1e-12), "{}", prop.zc);
     let w1 = waves(&b, 0, 225.0, Drive::Pump(c(1e-5, 0.0)));
-    assert!(close(w1.pressure(0.0), cc(P0_L1), 1e-12), "{}", w1.pressure(0.0));
+    assert!(
+        close(w1.pressure(0.0), cc(P0_L1), 1e-12),
+        "{}",
+        w1.pressure(0.0)
+    );
     assert!(close(w1.flow(0.0), cc(Q0_L1), 1e-12), "{}", w1.flow(0.0));
     for (x, want) in X.iter().zip(PX_L1) {
-        assert!(close(w1.pressure(*x), cc(want), 1e-12), "P({x}) = {}", w1.pressure(*x));
+        assert!(
+            close(w1.pressure(*x), cc(want), 1e-12),
+            "P({x}) = {}",
+            w1.pressure(*x)
+        );
     }
     let w2 = waves(&b, 1, 225.0, Drive::Pump(c(1e-5, 0.0)));
     assert!(close(w2.pressure(0.0), cc(P0_L2), 1e-12));
@@ -199,12 +212,20 @@ fn section_6d_decomposition_and_two_system_estimate() {
         // Three transducers (least squares) and the first pair alone.
         let d3 = decompose(&prop, &X, &p, &[1.0; 3]).unwrap();
         let d2 = decompose(&prop, &X[..2], &p[..2], &[1.0; 2]).unwrap();
-        let (p0, q0) = if cond == 0 { (P0_L1, Q0_L1) } else { (P0_L2, Q0_L2) };
+        let (p0, q0) = if cond == 0 {
+            (P0_L1, Q0_L1)
+        } else {
+            (P0_L2, Q0_L2)
+        };
         for d in [d3, d2] {
             assert!(close(d.p0, cc(p0), 1e-12), "{}", d.p0);
             assert!(close(d.q0, cc(q0), 1e-12), "{}", d.q0);
         }
-        assert!(d3.cond < 3.82 + 1e-3, "methods.md §6: 3-row cond ≤ 3.82 ({})", d3.cond);
+        assert!(
+            d3.cond < 3.82 + 1e-3,
+            "methods.md §6: 3-row cond ≤ 3.82 ({})",
+            d3.cond
+        );
         states.push((d3.p0, d3.q0));
     }
     // oracle section [2]: Qs = 1e-5, Zs = Zs(225 Hz).
@@ -223,7 +244,11 @@ fn section_6d_secondary_source_at_240_hz() {
         SpeedOfSound::Fixed(1350.0),
     );
     let w = waves(&b, 1, 240.0, Drive::Secondary(c(1e-5, 0.0)));
-    assert!(close(w.pressure(0.0), cc(P0_SEC), 1e-12), "{}", w.pressure(0.0));
+    assert!(
+        close(w.pressure(0.0), cc(P0_SEC), 1e-12),
+        "{}",
+        w.pressure(0.0)
+    );
     assert!(close(w.flow(0.0), cc(Q0_SEC), 1e-12), "{}", w.flow(0.0));
     let prop = b.line_properties(1350.0).propagation(TAU * 240.0);
     let p: Vec<C64> = X.iter().map(|&x| w.pressure(x)).collect();
@@ -254,7 +279,11 @@ fn section_6c_speed_of_sound_in_situ() {
     }
     let fit = wavespeed::fit_speed_of_sound(&X, &obs, c_ref, c_ref, SearchSettings::default());
     assert_eq!(fit.status, FitStatus::Converged);
-    assert!((fit.c0_m_s - 1350.0).abs() < 1e-9 * 1350.0, "{}", fit.c0_m_s);
+    assert!(
+        (fit.c0_m_s - 1350.0).abs() < 1e-9 * 1350.0,
+        "{}",
+        fit.c0_m_s
+    );
     let g = wavespeed::scale_propagation(&obs[0].prop_ref, c_ref, fit.c0_m_s).gamma;
     assert!(close(g, cc(GAMMA_225), 1e-10), "{g}");
     let w = waves(&b, 0, 225.0, Drive::Pump(c(1e-5, 0.0)));
@@ -325,11 +354,6 @@ fn truth(bench: &Bench, speed_error: f64) -> Vec<(C64, C64)> {
         .collect()
 }
 
-fn run(bench: &Bench, noise: f64, seed: u64) -> FitReport {
-    let data = extracted(bench, noise, seed, 0.0);
-    fit(bench, &data, &FitOptions { draws: 60, seed: 11 }, &mut Quiet).unwrap()
-}
-
 fn max_rel_error(bench: &Bench, report: &FitReport) -> (f64, f64) {
     let t = truth(bench, 0.0);
     let mut worst = (0.0f64, 0.0f64);
@@ -359,7 +383,11 @@ fn normalised_errors(bench: &Bench, report: &FitReport) -> Vec<f64> {
 /// noise errors consistent with the reported standard uncertainties (every
 /// well-conditioned harmonic within 3u, the median within 1.5u).
 fn check_round_trip(bench: &Bench) -> (FitReport, FitReport) {
-    check_round_trip_on(bench, &extracted(bench, 0.0, 1, 0.0), &extracted(bench, 0.01, 2, 0.0))
+    check_round_trip_on(
+        bench,
+        &extracted(bench, 0.0, 1, 0.0),
+        &extracted(bench, 0.01, 2, 0.0),
+    )
 }
 
 fn check_round_trip_on(
@@ -367,7 +395,10 @@ fn check_round_trip_on(
     exact_data: &[ConditionSpectra],
     noisy_data: &[ConditionSpectra],
 ) -> (FitReport, FitReport) {
-    let options = FitOptions { draws: 60, seed: 11 };
+    let options = FitOptions {
+        draws: 60,
+        seed: 11,
+    };
     let exact = fit(bench, exact_data, &options, &mut Quiet).unwrap();
     assert_eq!(exact.harmonics.len(), bench.harmonics as usize);
     let (eq, ez) = max_rel_error(bench, &exact);
@@ -396,7 +427,9 @@ fn decomposition_flagged(report: &FitReport, order: u32) -> bool {
     report.harmonics[(order - 1) as usize]
         .flags
         .iter()
-        .any(|f| f.contains("wave decomposition is ill-conditioned") && f.contains("half-wavelength"))
+        .any(|f| {
+            f.contains("wave decomposition is ill-conditioned") && f.contains("half-wavelength")
+        })
 }
 
 #[test]
@@ -420,11 +453,18 @@ fn two_systems_with_three_transducers_and_speed_of_sound_in_situ() {
     assert!((c - 1350.0).abs() < 1e-8 * 1350.0, "{c}");
     let c = noisy.speed_of_sound.estimate;
     assert!((c.value - 1350.0).abs() < 0.005 * 1350.0, "{c:?}");
-    assert!((c.value - 1350.0).abs() < 3.0 * c.uncertainty.unwrap(), "{c:?}");
+    assert!(
+        (c.value - 1350.0).abs() < 3.0 * c.uncertainty.unwrap(),
+        "{c:?}"
+    );
     // Three unequal spacings stay well-conditioned where the pair fails.
     for r in [&exact, &noisy] {
         assert!(!decomposition_flagged(r, 9));
-        assert!(r.harmonics.iter().all(|h| h.flags.iter().all(|f| !f.contains("wave decomposition"))));
+        assert!(
+            r.harmonics
+                .iter()
+                .all(|h| h.flags.iter().all(|f| !f.contains("wave decomposition")))
+        );
     }
 }
 
@@ -470,14 +510,24 @@ fn extraction_recovers_amplitudes_with_a_speed_error_of_0_3_percent() {
         let f = data[0].pump_fundamental_hz;
         assert!((f - 225.0 * 1.003).abs() < f_tol, "{f}");
         for (got, want) in data[0].pump.iter().zip(&lines) {
-            for ((g, w), u) in got.pressures.iter().zip(&want.pressures).zip(&got.uncertainty) {
+            for ((g, w), u) in got
+                .pressures
+                .iter()
+                .zip(&want.pressures)
+                .zip(&got.uncertainty)
+            {
                 let rel = (g.norm() - w.norm()).abs() / w.norm();
                 if noise == 0.0 {
                     assert!(rel < 1e-9, "harmonic {}: {rel:e}", got.order);
                 } else {
                     // Within three reported standard uncertainties.
                     let u = u.unwrap();
-                    assert!((g - w).norm() < 3.0 * u, "harmonic {}: {} > 3 × {u}", got.order, (g - w).norm());
+                    assert!(
+                        (g - w).norm() < 3.0 * u,
+                        "harmonic {}: {} > 3 × {u}",
+                        got.order,
+                        (g - w).norm()
+                    );
                 }
             }
         }

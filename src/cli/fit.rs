@@ -73,7 +73,9 @@ impl Observer for Progress {
 
 pub fn run(args: FitArgs) -> anyhow::Result<()> {
     let out = |o: &Option<PathBuf>, name: &str, ext: &[&str]| {
-        o.as_deref().map(|p| common::check_output(name, p, ext)).transpose()
+        o.as_deref()
+            .map(|p| common::check_output(name, p, ext))
+            .transpose()
     };
     let csv_path = out(&args.csv, "--csv", &["csv"])?;
     let source_path = out(&args.source_out, "--source-out", &["yaml", "yml"])?;
@@ -81,16 +83,25 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
     let mut bench = ripline::io::bench_file::load_bench(&args.file)?;
     if let Some(n) = args.harmonics {
         if !(1..=50).contains(&n) {
-            return Err(UsageError(format!("--harmonics must be between 1 and 50, found {n}")).into());
+            return Err(
+                UsageError(format!("--harmonics must be between 1 and 50, found {n}")).into(),
+            );
         }
         bench.harmonics = n;
     }
     let mut progress = Progress(None);
     let mut data = Vec::with_capacity(bench.conditions.len());
     for cond in &bench.conditions {
-        data.push(ripline::io::records::load_condition(&bench, cond, &mut progress)?);
+        data.push(ripline::io::records::load_condition(
+            &bench,
+            cond,
+            &mut progress,
+        )?);
     }
-    let options = FitOptions { draws: args.draws, seed: args.seed };
+    let options = FitOptions {
+        draws: args.draws,
+        seed: args.seed,
+    };
     let report = fit(&bench, &data, &options, &mut progress)
         .map_err(|e| UsageError(format!("{}: {e}", args.file.display())))?;
     progress.finish();
@@ -106,7 +117,9 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
     if let Some(path) = &csv_path {
         let mut bytes = Vec::new();
         write_csv(&report, &mut bytes)?;
-        outputs.stage_bytes(path, &bytes).with_context(|| format!("writing {}", path.display()))?;
+        outputs
+            .stage_bytes(path, &bytes)
+            .with_context(|| format!("writing {}", path.display()))?;
     }
     if let Some(path) = &source_path {
         let mut bytes = Vec::new();
@@ -119,7 +132,9 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
                 report.method.name()
             ),
         )?;
-        outputs.stage_bytes(path, &bytes).with_context(|| format!("writing {}", path.display()))?;
+        outputs
+            .stage_bytes(path, &bytes)
+            .with_context(|| format!("writing {}", path.display()))?;
     }
     if let Some(path) = &plot_path {
         let charts = charts(&report, bench.title.as_deref());
@@ -131,16 +146,29 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
         eprintln!("warning: {w}");
     }
     print_report(&args.file, &bench, &report)?;
-    outputs.commit().context("moving the output files into place")?;
+    outputs
+        .commit()
+        .context("moving the output files into place")?;
     Ok(())
 }
 
 fn ensure_finite(report: &FitReport) -> anyhow::Result<()> {
     for h in &report.harmonics {
-        for (what, e) in [("flow ripple", &h.flow), ("source impedance", &h.impedance), ("anechoic ripple", &h.anechoic), ("blocked ripple", &h.blocked)] {
-            let u_ok = e.uncertainty.is_none_or(|u| u.amplitude.is_finite() && u.phase_rad.is_finite());
+        for (what, e) in [
+            ("flow ripple", &h.flow),
+            ("source impedance", &h.impedance),
+            ("anechoic ripple", &h.anechoic),
+            ("blocked ripple", &h.blocked),
+        ] {
+            let u_ok = e
+                .uncertainty
+                .is_none_or(|u| u.amplitude.is_finite() && u.phase_rad.is_finite());
             if !(e.value.is_finite() && u_ok) {
-                anyhow::bail!("the {what} of harmonic {} ({:.2} Hz) is not a finite number", h.order, h.freq_hz);
+                anyhow::bail!(
+                    "the {what} of harmonic {} ({:.2} Hz) is not a finite number",
+                    h.order,
+                    h.freq_hz
+                );
             }
         }
     }
@@ -196,7 +224,11 @@ fn pm(e: &Estimate, scale: f64, prec: usize) -> (String, String) {
         None => format!("{a:.prec$e}"),
     };
     let ph = match e.uncertainty {
-        Some(u) => format!("{:.1} ± {:.1}", e.value.arg().to_degrees(), u.phase_rad.to_degrees()),
+        Some(u) => format!(
+            "{:.1} ± {:.1}",
+            e.value.arg().to_degrees(),
+            u.phase_rad.to_degrees()
+        ),
         None => format!("{:.1}", e.value.arg().to_degrees()),
     };
     (amp, ph)
@@ -204,7 +236,11 @@ fn pm(e: &Estimate, scale: f64, prec: usize) -> (String, String) {
 
 fn bar_pm(e: &Estimate) -> String {
     match e.uncertainty {
-        Some(u) => format!("{} ± {}", PressureDisplay(e.value.norm()), PressureDisplay(u.amplitude)),
+        Some(u) => format!(
+            "{} ± {}",
+            PressureDisplay(e.value.norm()),
+            PressureDisplay(u.amplitude)
+        ),
         None => PressureDisplay(e.value.norm()).to_string(),
     }
 }
@@ -224,7 +260,13 @@ fn print_report(file: &Path, bench: &Bench, report: &FitReport) -> anyhow::Resul
         report.pumping_elements,
         report.pumping_frequency_hz()
     )?;
-    writeln!(out, "method: {}, {} conditions, {} transducers", report.method.name(), bench.conditions.len(), bench.transducers.len())?;
+    writeln!(
+        out,
+        "method: {}, {} conditions, {} transducers",
+        report.method.name(),
+        bench.conditions.len(),
+        bench.transducers.len()
+    )?;
     let c = &report.speed_of_sound;
     let source = match c.source {
         SpeedOfSound::InSitu => "estimated in situ",
@@ -232,12 +274,24 @@ fn print_report(file: &Path, bench: &Bench, report: &FitReport) -> anyhow::Resul
         SpeedOfSound::FromFluid => "from the fluid and the wall",
     };
     match c.estimate.uncertainty {
-        Some(u) => writeln!(out, "speed of sound: {:.2} ± {:.2} m/s ({source})", c.estimate.value, u)?,
-        None => writeln!(out, "speed of sound: {:.2} m/s ({source})", c.estimate.value)?,
+        Some(u) => writeln!(
+            out,
+            "speed of sound: {:.2} ± {:.2} m/s ({source})",
+            c.estimate.value, u
+        )?,
+        None => writeln!(
+            out,
+            "speed of sound: {:.2} m/s ({source})",
+            c.estimate.value
+        )?,
     }
     for ci in &report.conditions {
         let snr = ci.snr_db.iter().flatten().copied().reduce(f64::min);
-        write!(out, "condition `{}`: pumping frequency {:.3} Hz", ci.name, ci.pumping_frequency_hz)?;
+        write!(
+            out,
+            "condition `{}`: pumping frequency {:.3} Hz",
+            ci.name, ci.pumping_frequency_hz
+        )?;
         if let Some(f) = ci.secondary_fundamental_hz {
             write!(out, ", secondary source {f:.3} Hz")?;
         }
@@ -247,7 +301,11 @@ fn print_report(file: &Path, bench: &Bench, report: &FitReport) -> anyhow::Resul
             None => writeln!(out)?,
         }
     }
-    writeln!(out, "amplitudes are peak values; ± standard uncertainties (k = 1, {} Monte Carlo draws); phases in degrees against the shaft reference; * = flagged (see the warnings)", report.draws)?;
+    writeln!(
+        out,
+        "amplitudes are peak values; ± standard uncertainties (k = 1, {} Monte Carlo draws); phases in degrees against the shaft reference; * = flagged (see the warnings)",
+        report.draws
+    )?;
     writeln!(out)?;
     writeln!(
         out,
@@ -286,16 +344,27 @@ fn print_report(file: &Path, bench: &Bench, report: &FitReport) -> anyhow::Resul
     Ok(())
 }
 
-fn series(name: &str, hs: &[HarmonicResult], value: impl Fn(&HarmonicResult) -> (f64, Option<f64>)) -> plot::XySeries {
-    let pts: Vec<(f64, f64, Option<f64>)> = hs.iter().map(|h| {
-        let (v, u) = value(h);
-        (h.freq_hz, v, u)
-    }).collect();
+fn series(
+    name: &str,
+    hs: &[HarmonicResult],
+    value: impl Fn(&HarmonicResult) -> (f64, Option<f64>),
+) -> plot::XySeries {
+    let pts: Vec<(f64, f64, Option<f64>)> = hs
+        .iter()
+        .map(|h| {
+            let (v, u) = value(h);
+            (h.freq_hz, v, u)
+        })
+        .collect();
     let bars = pts.iter().all(|p| p.2.is_some());
     plot::XySeries {
         name: name.into(),
         points: pts.iter().map(|p| (p.0, p.1)).collect(),
-        error_bars: bars.then(|| pts.iter().map(|p| (p.1 - p.2.unwrap_or(0.0), p.1 + p.2.unwrap_or(0.0))).collect()),
+        error_bars: bars.then(|| {
+            pts.iter()
+                .map(|p| (p.1 - p.2.unwrap_or(0.0), p.1 + p.2.unwrap_or(0.0)))
+                .collect()
+        }),
         style: plot::SeriesStyle::LineAndPoints,
         color: None,
     }
@@ -305,7 +374,12 @@ fn charts(report: &FitReport, title: Option<&str>) -> Vec<plot::LineChart> {
     let hs = &report.harmonics;
     let name = title.unwrap_or(&report.pump);
     let amp = |e: &Estimate, s: f64| (e.value.norm() / s, e.uncertainty.map(|u| u.amplitude / s));
-    let ph = |e: &Estimate| (e.value.arg().to_degrees(), e.uncertainty.map(|u| u.phase_rad.to_degrees()));
+    let ph = |e: &Estimate| {
+        (
+            e.value.arg().to_degrees(),
+            e.uncertainty.map(|u| u.phase_rad.to_degrees()),
+        )
+    };
     let chart = |t: String, y: &str, s: plot::XySeries, log_y: bool| plot::LineChart {
         title: t,
         x_label: "frequency (Hz)".into(),
@@ -316,13 +390,32 @@ fn charts(report: &FitReport, title: Option<&str>) -> Vec<plot::LineChart> {
     };
     vec![
         chart(
-            format!("Source flow ripple — {name} ({:.0} rpm, f_p = {:.1} Hz); error bars ± standard uncertainty", report.speed_rev_s * 60.0, report.pumping_frequency_hz()),
+            format!(
+                "Source flow ripple — {name} ({:.0} rpm, f_p = {:.1} Hz); error bars ± standard uncertainty",
+                report.speed_rev_s * 60.0,
+                report.pumping_frequency_hz()
+            ),
             "|Qs|, peak (L/min)",
             series("flow ripple", hs, |h| amp(&h.flow, 1.0 / 60_000.0)),
             false,
         ),
-        chart(String::new(), "phase of Qs (deg)", series("flow ripple phase", hs, |h| ph(&h.flow)), false),
-        chart("Source impedance".into(), "|Zs| (Pa·s/m³)", series("source impedance", hs, |h| amp(&h.impedance, 1.0)), true),
-        chart(String::new(), "phase of Zs (deg)", series("impedance phase", hs, |h| ph(&h.impedance)), false),
+        chart(
+            String::new(),
+            "phase of Qs (deg)",
+            series("flow ripple phase", hs, |h| ph(&h.flow)),
+            false,
+        ),
+        chart(
+            "Source impedance".into(),
+            "|Zs| (Pa·s/m³)",
+            series("source impedance", hs, |h| amp(&h.impedance, 1.0)),
+            true,
+        ),
+        chart(
+            String::new(),
+            "phase of Zs (deg)",
+            series("impedance phase", hs, |h| ph(&h.impedance)),
+            false,
+        ),
     ]
 }

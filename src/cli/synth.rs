@@ -36,14 +36,20 @@ pub struct SynthArgs {
 fn fraction(option: &str, text: &str, lo: f64, hi: f64) -> anyhow::Result<f64> {
     let v = common::cli_quantity(option, text, Dimension::Ratio, "")?;
     if !(lo..=hi).contains(&v) {
-        return Err(UsageError(format!("{option} must be between {lo} and {hi}, found {v}")).into());
+        return Err(
+            UsageError(format!("{option} must be between {lo} and {hi}, found {v}")).into(),
+        );
     }
     Ok(v)
 }
 
 pub fn run(args: SynthArgs) -> anyhow::Result<()> {
     if let Some(dir) = args.out_dir.as_deref().filter(|d| !d.is_dir()) {
-        return Err(UsageError(format!("--out-dir {}: the folder does not exist", dir.display())).into());
+        return Err(UsageError(format!(
+            "--out-dir {}: the folder does not exist",
+            dir.display()
+        ))
+        .into());
     }
     let bench = ripline::io::bench_file::load_bench(&args.file)?;
     let mut syn: Synthesis = bench.synthesis.clone().ok_or_else(|| {
@@ -76,15 +82,27 @@ pub fn run(args: SynthArgs) -> anyhow::Result<()> {
         let lines = synth::condition_lines(&bench, &syn, cond)
             .map_err(|e| UsageError(format!("{}: {e}", args.file.display())))?;
         let target = match &args.out_dir {
-            Some(dir) => dir.join(cond.data.path().strip_prefix(base).unwrap_or(cond.data.path())),
+            Some(dir) => dir.join(
+                cond.data
+                    .path()
+                    .strip_prefix(base)
+                    .unwrap_or(cond.data.path()),
+            ),
             None => cond.data.path().to_path_buf(),
         };
         if let Some(parent) = target.parent().filter(|p| !p.as_os_str().is_empty()) {
-            std::fs::create_dir_all(parent).with_context(|| format!("creating {}", parent.display()))?;
+            std::fs::create_dir_all(parent)
+                .with_context(|| format!("creating {}", parent.display()))?;
         }
         let mut bytes = Vec::new();
         match &cond.data {
-            DataFile::TimeSeries { unit_pa, sample_rate_hz, time_column, columns, .. } => {
+            DataFile::TimeSeries {
+                unit_pa,
+                sample_rate_hz,
+                time_column,
+                columns,
+                ..
+            } => {
                 let fs = sample_rate_hz.or(syn.sample_rate_hz).ok_or_else(|| {
                     UsageError(format!(
                         "{}: condition `{}` states no sample rate: give `synthesis.sample_rate`",
@@ -102,21 +120,43 @@ pub fn run(args: SynthArgs) -> anyhow::Result<()> {
                     &mut rng,
                 );
                 let exact = syn.noise == 0.0;
-                write_time_record(&mut bytes, &comment, time_column.as_deref(), columns, &channels, fs, *unit_pa, exact)?;
+                write_time_record(
+                    &mut bytes,
+                    &comment,
+                    time_column.as_deref(),
+                    columns,
+                    &channels,
+                    fs,
+                    *unit_pa,
+                    exact,
+                )?;
             }
-            DataFile::Spectra { unit_pa, columns, .. } => {
+            DataFile::Spectra {
+                unit_pa, columns, ..
+            } => {
                 // Noise on the phasors: circular Gaussian, E|δP|² = (noise·|P|)².
                 let phasors: Vec<Phasors> = lines
                     .iter()
                     .map(|l| Phasors {
                         order: l.order,
                         freq_hz: l.freq_hz,
-                        pressures: l.pressures.iter().map(|p| p + rng.complex_normal() * (syn.noise * p.norm())).collect(),
-                        uncertainty: l.pressures.iter().map(|p| Some(syn.noise * p.norm())).collect(),
+                        pressures: l
+                            .pressures
+                            .iter()
+                            .map(|p| p + rng.complex_normal() * (syn.noise * p.norm()))
+                            .collect(),
+                        uncertainty: l
+                            .pressures
+                            .iter()
+                            .map(|p| Some(syn.noise * p.norm()))
+                            .collect(),
                     })
                     .filter(|p| match cond.kind {
                         ripline::estimate::bench::ConditionKind::Pump => true,
-                        _ => !lines.iter().take(bench.harmonics as usize).any(|h| h.order == p.order && h.freq_hz == p.freq_hz),
+                        _ => !lines
+                            .iter()
+                            .take(bench.harmonics as usize)
+                            .any(|h| h.order == p.order && h.freq_hz == p.freq_hz),
                     })
                     .collect();
                 write_spectra(&mut bytes, &comment, columns, &phasors, *unit_pa)?;

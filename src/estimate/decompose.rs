@@ -79,7 +79,7 @@ pub fn ls2(rows: &[(C64, C64)], y: &[C64], w: &[f64]) -> Option<Ls2> {
         vy += v.conj() * t;
     }
     let r22 = r22.sqrt();
-    if !(r22 > 0.0) || r22 <= 1e-15 * n2 {
+    if r22.is_nan() || r22 <= 1e-15 * n2 {
         return None;
     }
     let x2 = vy / (r22 * r22);
@@ -154,9 +154,18 @@ mod tests {
         // LS optimum of three equations: normal equations [[2,0],[0,2]] + [[1,0],[0,0]]
         // → 3 x1 = 3 + 1 + 2.5 → x1 = 6.5/3, x2 = (3 − 1)/2 = 1 (worked by hand).
         let one = C64::new(1.0, 0.0);
-        let s = ls2(&[(one, one), (one, -one)], &[3.0.into(), 1.0.into()], &[1.0, 1.0]).unwrap();
+        let s = ls2(
+            &[(one, one), (one, -one)],
+            &[3.0.into(), 1.0.into()],
+            &[1.0, 1.0],
+        )
+        .unwrap();
         assert!((s.x[0] - 2.0).norm() < 1e-15 && (s.x[1] - 1.0).norm() < 1e-15);
-        assert!((s.cond - 1.0).abs() < 1e-12, "orthogonal columns: {}", s.cond);
+        assert!(
+            (s.cond - 1.0).abs() < 1e-12,
+            "orthogonal columns: {}",
+            s.cond
+        );
         let s = ls2(
             &[(one, one), (one, -one), (one, 0.0.into())],
             &[3.0.into(), 1.0.into(), 2.5.into()],
@@ -164,7 +173,14 @@ mod tests {
         )
         .unwrap();
         assert!((s.x[0] - 6.5 / 3.0).norm() < 1e-14 && (s.x[1] - 1.0).norm() < 1e-14);
-        assert!(ls2(&[(one, one), (one, one)], &[1.0.into(), 1.0.into()], &[1.0, 1.0]).is_none());
+        assert!(
+            ls2(
+                &[(one, one), (one, one)],
+                &[1.0.into(), 1.0.into()],
+                &[1.0, 1.0]
+            )
+            .is_none()
+        );
     }
 
     #[test]
@@ -178,8 +194,13 @@ mod tests {
             zc: C64::new(1.0, 0.0),
         };
         for delta in [0.2, 0.7, 1.3] {
-            let d = decompose(&prop, &[0.1, 0.1 + delta], &[1.0.into(), 2.0.into()], &[1.0, 1.0])
-                .unwrap();
+            let d = decompose(
+                &prop,
+                &[0.1, 0.1 + delta],
+                &[1.0.into(), 2.0.into()],
+                &[1.0, 1.0],
+            )
+            .unwrap();
             let t = (k * delta / 2.0).tan().abs();
             let want = t.max(1.0 / t);
             assert!((d.cond - want).abs() < 1e-9 * want, "{} vs {want}", d.cond);

@@ -60,7 +60,10 @@ impl Phasors {
         self.pressures
             .iter()
             .zip(&self.uncertainty)
-            .map(|(p, u)| u.filter(|u| *u > 0.0).map(|u| 20.0 * (p.norm() / u).log10()))
+            .map(|(p, u)| {
+                u.filter(|u| *u > 0.0)
+                    .map(|u| 20.0 * (p.norm() / u).log10())
+            })
             .collect()
     }
 }
@@ -167,7 +170,8 @@ pub fn extract(
             let top_sec = (f64::from(req.harmonics) + 0.5) * fp;
             let m_max = (top_sec / nominal).floor().max(1.0) as u32;
             let pump_freqs = |fp: f64| (1..=model_k).map(|k| f64::from(k) * fp).collect::<Vec<_>>();
-            let mut f = refine_fundamental(record, nominal, m_max, req.speed_tolerance, &pump_freqs(fp))?;
+            let mut f =
+                refine_fundamental(record, nominal, m_max, req.speed_tolerance, &pump_freqs(fp))?;
             // Each series refined with the other modelled, twice round.
             for _ in 0..2 {
                 let sec: Vec<f64> = (1..=m_max).map(|m| f64::from(m) * f).collect();
@@ -291,7 +295,11 @@ fn weighted_fit(
     let mut basis = vec![0.0; m];
     for i in 0..len {
         let w = hann(i, len);
-        fill_basis(&mut basis, freqs, (start + i) as f64 / record.sample_rate_hz);
+        fill_basis(
+            &mut basis,
+            freqs,
+            (start + i) as f64 / record.sample_rate_hz,
+        );
         for r in 0..m {
             let br = w * basis[r];
             let row = &mut upper[r * m..(r + 1) * m];
@@ -527,7 +535,7 @@ fn refine_fundamental(
             best = (f, sum / f64::from(used));
         }
     }
-    if !(peak > 0.0) || best.1 == f64::NEG_INFINITY {
+    if peak.is_nan() || peak <= 0.0 || best.1 == f64::NEG_INFINITY {
         return Err(data_err(
             &record.file,
             format!(
@@ -545,12 +553,7 @@ fn refine_fundamental(
     loop {
         let half = 0.75 / (f64::from(k) * duration);
         let last = k == k_top;
-        f = golden_min(
-            |x| series_residual(record, x, k),
-            f - half,
-            f + half,
-            10,
-        );
+        f = golden_min(|x| series_residual(record, x, k), f - half, f + half, 10);
         if last {
             break;
         }
@@ -630,9 +633,18 @@ mod tests {
             speed_tolerance: 0.05,
         };
         let out = extract(&rec, &req, &mut Quiet).unwrap();
-        assert!((out.pump_fundamental_hz - 47.3).abs() < 1e-9, "{}", out.pump_fundamental_hz);
+        assert!(
+            (out.pump_fundamental_hz - 47.3).abs() < 1e-9,
+            "{}",
+            out.pump_fundamental_hz
+        );
         for (p, a) in out.pump.iter().zip(&amps) {
-            assert!((p.pressures[0] - a).norm() < 1e-8, "{} {}", p.pressures[0], a);
+            assert!(
+                (p.pressures[0] - a).norm() < 1e-8,
+                "{} {}",
+                p.pressures[0],
+                a
+            );
         }
     }
 }

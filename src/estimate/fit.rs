@@ -270,7 +270,12 @@ pub fn fit(
             match (known, d, dof > 0.0) {
                 (true, Some(d), true) => {
                     let factor = (d.residual / dof).sqrt().max(1.0);
-                    Some(l.uncertainty.iter().map(|u| u.unwrap_or(0.0) * factor).collect())
+                    Some(
+                        l.uncertainty
+                            .iter()
+                            .map(|u| u.unwrap_or(0.0) * factor)
+                            .collect(),
+                    )
                 }
                 (true, _, _) => Some(l.uncertainty.iter().map(|u| u.unwrap_or(0.0)).collect()),
                 (false, Some(d), true) => Some(vec![(d.residual / dof).sqrt(); n_t]),
@@ -424,7 +429,11 @@ pub fn fit(
         }
         let est = |v: C64, d: &[C64]| Estimate {
             value: v,
-            uncertainty: if draws > 0 { complex_spread(v, d) } else { None },
+            uncertainty: if draws > 0 {
+                complex_spread(v, d)
+            } else {
+                None
+            },
         };
         harmonics.push(HarmonicResult {
             order: k,
@@ -528,7 +537,13 @@ pub fn fit(
 }
 
 /// Why a decomposition is ill-conditioned, in the words of the trade.
-fn spacing_reason(bench: &Bench, positions: &[f64], prop_ref: &Propagation, c_ref: f64, c0: f64) -> String {
+fn spacing_reason(
+    bench: &Bench,
+    positions: &[f64],
+    prop_ref: &Propagation,
+    c_ref: f64,
+    c0: f64,
+) -> String {
     let k = wavespeed::scale_propagation(prop_ref, c_ref, c0).gamma.im;
     let mut widest = 0.0f64;
     let mut near = Vec::new();

@@ -102,7 +102,10 @@ mod tests {
         let mean = s1 / n as f64;
         let var = s2 / n as f64 - mean * mean;
         // Standard errors: mean 1/√n = 0.0022, variance √(2/n) = 0.0032.
-        assert!(mean.abs() < 0.01 && (var - 1.0).abs() < 0.015, "{mean} {var}");
+        assert!(
+            mean.abs() < 0.01 && (var - 1.0).abs() < 0.015,
+            "{mean} {var}"
+        );
         assert_eq!(Rng::new(7).next_u64(), Rng::new(7).next_u64());
     }
 }

@@ -188,10 +188,12 @@ pub fn condition_waves(
     freq_hz: f64,
     drive: Drive,
 ) -> Result<Waves, SynthError> {
-    let length = condition.line_length_m.ok_or_else(|| SynthError::Condition {
-        condition: condition.name.clone(),
-        message: "synthesis needs `line_length` (the reference line to the termination)".into(),
-    })?;
+    let length = condition
+        .line_length_m
+        .ok_or_else(|| SynthError::Condition {
+            condition: condition.name.clone(),
+            message: "synthesis needs `line_length` (the reference line to the termination)".into(),
+        })?;
     let omega = std::f64::consts::TAU * freq_hz;
     let prop = bench.line_properties(c0_m_s).propagation(omega);
     let term = condition.termination.unwrap_or_default();
@@ -295,9 +297,7 @@ pub fn time_series(
 ) -> Vec<Vec<f64>> {
     let n = (duration_s * sample_rate_hz).round() as usize;
     let rms: Vec<f64> = (0..channels)
-        .map(|c| {
-            (lines.iter().map(|l| l.pressures[c].norm_sqr()).sum::<f64>() / 2.0).sqrt()
-        })
+        .map(|c| (lines.iter().map(|l| l.pressures[c].norm_sqr()).sum::<f64>() / 2.0).sqrt())
         .collect();
     let mut out = vec![vec![mean_pa; n]; channels];
     for i in 0..n {

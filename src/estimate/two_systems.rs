@@ -39,7 +39,9 @@ pub fn estimate(states: &[(C64, C64)]) -> Option<NortonEstimate> {
     let rows: Vec<(C64, C64)> = states.iter().map(|&(p0, _)| (one, -p0)).collect();
     let y: Vec<C64> = states.iter().map(|&(_, q0)| q0).collect();
     let w = vec![1.0; states.len()];
-    let Ls2 { x: [qs, ys], cond, .. } = ls2(&rows, &y, &w)?;
+    let Ls2 {
+        x: [qs, ys], cond, ..
+    } = ls2(&rows, &y, &w)?;
     if ys.norm() == 0.0 {
         return None;
     }

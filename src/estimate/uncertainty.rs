@@ -71,8 +71,16 @@ mod tests {
         let nominal = C64::new(10.0, 0.0);
         let draws: Vec<C64> = (0..20000).map(|_| nominal + rng.complex_normal()).collect();
         let s = complex_spread(nominal, &draws).unwrap();
-        assert!((s.amplitude - 0.7071).abs() < 0.02, "{}", s.amplitude);
-        assert!((s.phase_rad - 0.07071).abs() < 0.002, "{}", s.phase_rad);
+        assert!(
+            (s.amplitude - std::f64::consts::FRAC_1_SQRT_2).abs() < 0.02,
+            "{}",
+            s.amplitude
+        );
+        assert!(
+            (s.phase_rad - 0.1 * std::f64::consts::FRAC_1_SQRT_2).abs() < 0.002,
+            "{}",
+            s.phase_rad
+        );
         assert_eq!(real_spread(&[1.0]), None);
         assert!((real_spread(&[1.0, 3.0]).unwrap() - 2f64.sqrt()).abs() < 1e-15);
     }

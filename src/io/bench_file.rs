@@ -47,7 +47,10 @@ struct RawBench {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields, expecting = "a mapping with density, bulk_modulus and viscosity")]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping with density, bulk_modulus and viscosity"
+)]
 struct RawFluid {
     density: Q<q::Density>,
     bulk_modulus: Q<q::Modulus>,
@@ -55,7 +58,10 @@ struct RawFluid {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields, expecting = "a mapping with speed and pumping_elements")]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping with speed and pumping_elements"
+)]
 struct RawPump {
     name: Option<String>,
     speed: Q<q::ShaftSpeed>,
@@ -84,7 +90,10 @@ enum RawLineModel {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(untagged, expecting = "`in_situ`, `from_fluid` or a speed such as \"1350 m/s\"")]
+#[serde(
+    untagged,
+    expecting = "`in_situ`, `from_fluid` or a speed such as \"1350 m/s\""
+)]
 enum RawSpeed {
     Number(f64),
     Text(String),
@@ -112,14 +121,20 @@ enum RawImpedanceFit {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields, expecting = "a mapping with segments and speed_tolerance")]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping with segments and speed_tolerance"
+)]
 struct RawExtraction {
     segments: Option<usize>,
     speed_tolerance: Option<Q<q::Ratio>>,
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields, expecting = "a mapping with unit, sample_rate and time_column")]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping with unit, sample_rate and time_column"
+)]
 struct RawRecords {
     unit: Option<String>,
     sample_rate: Option<Q<q::Frequency>>,
@@ -153,21 +168,30 @@ struct RawCondition {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields, expecting = "a mapping with resistance and/or volume")]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping with resistance and/or volume"
+)]
 struct RawTermination {
     resistance: Option<Q<q::Resistance>>,
     volume: Option<Q<q::Volume>>,
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields, expecting = "a mapping with fundamental and optionally flow")]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping with fundamental and optionally flow"
+)]
 struct RawSecondary {
     fundamental: Q<q::Frequency>,
     flow: Option<Q<q::Flow>>,
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields, expecting = "a mapping with harmonic, amplitude and phase")]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping with harmonic, amplitude and phase"
+)]
 struct RawHarmonic {
     harmonic: u32,
     amplitude: Q<q::Flow>,
@@ -175,7 +199,10 @@ struct RawHarmonic {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields, expecting = "a mapping with volume and optionally leakage_resistance")]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a mapping with volume and optionally leakage_resistance"
+)]
 struct RawImpedance {
     volume: Q<q::Volume>,
     leakage_resistance: Option<Q<q::Resistance>>,
@@ -258,9 +285,27 @@ impl Checker<'_> {
         let root = KeyPath::root();
         let fp = root.key("fluid");
         let fluid = Fluid {
-            density_kg_m3: self.range(&fp.key("density"), raw.fluid.density.si, 100.0, 3000.0, "kg/m³")?,
-            bulk_modulus_pa: self.range(&fp.key("bulk_modulus"), raw.fluid.bulk_modulus.si, 1e6, 1e11, "Pa")?,
-            kinematic_viscosity_m2_s: self.range(&fp.key("viscosity"), raw.fluid.viscosity.si, 1e-8, 1e-1, "m²/s")?,
+            density_kg_m3: self.range(
+                &fp.key("density"),
+                raw.fluid.density.si,
+                100.0,
+                3000.0,
+                "kg/m³",
+            )?,
+            bulk_modulus_pa: self.range(
+                &fp.key("bulk_modulus"),
+                raw.fluid.bulk_modulus.si,
+                1e6,
+                1e11,
+                "Pa",
+            )?,
+            kinematic_viscosity_m2_s: self.range(
+                &fp.key("viscosity"),
+                raw.fluid.viscosity.si,
+                1e-8,
+                1e-1,
+                "m²/s",
+            )?,
         };
         let pp = root.key("pump");
         let pump = BenchPump {
@@ -280,7 +325,10 @@ impl Checker<'_> {
             None => 10,
             Some(n @ 1..=50) => n,
             Some(n) => {
-                return Err(self.err(&root.key("harmonics"), format!("must be between 1 and 50, found {n}")));
+                return Err(self.err(
+                    &root.key("harmonics"),
+                    format!("must be between 1 and 50, found {n}"),
+                ));
             }
         };
         let line = self.line(&root.key("reference_line"), &raw.reference_line)?;
@@ -304,13 +352,19 @@ impl Checker<'_> {
         if speed_of_sound == SpeedOfSound::InSitu && transducers.len() < 3 {
             return Err(self.err(
                 &root.key("speed_of_sound"),
-                format!("the speed of sound in situ needs at least three transducers, the bench has {}", transducers.len()),
+                format!(
+                    "the speed of sound in situ needs at least three transducers, the bench has {}",
+                    transducers.len()
+                ),
             ));
         }
         let method = match (raw.method, raw.impedance_fit) {
             (RawMethod::TwoSystems, None) => Method::TwoSystems,
             (RawMethod::TwoSystems, Some(_)) => {
-                return Err(self.err(&root.key("impedance_fit"), "`impedance_fit` applies only to `method: secondary_source`"));
+                return Err(self.err(
+                    &root.key("impedance_fit"),
+                    "`impedance_fit` applies only to `method: secondary_source`",
+                ));
             }
             (RawMethod::SecondarySource, f) => Method::SecondarySource {
                 impedance_fit: match f {
@@ -335,7 +389,10 @@ impl Checker<'_> {
                     None => 0.05,
                     Some(t) => self.range(&ep.key("speed_tolerance"), t.si, 1e-4, 0.2, "")?,
                 };
-                Extraction { segments, speed_tolerance: tol }
+                Extraction {
+                    segments,
+                    speed_tolerance: tol,
+                }
             }
         };
         let defaults = raw.records.as_ref();
@@ -346,11 +403,17 @@ impl Checker<'_> {
         for (i, c) in raw.conditions.iter().enumerate() {
             let cp = root.key("conditions").index(i);
             if conditions.iter().any(|o| o.name == c.name) {
-                return Err(self.err(&cp.key("name"), format!("duplicate condition name `{}`", c.name)));
+                return Err(self.err(
+                    &cp.key("name"),
+                    format!("duplicate condition name `{}`", c.name),
+                ));
             }
             conditions.push(self.condition(&cp, c, defaults, &transducers)?);
         }
-        let pumps = conditions.iter().filter(|c| c.kind == ConditionKind::Pump).count();
+        let pumps = conditions
+            .iter()
+            .filter(|c| c.kind == ConditionKind::Pump)
+            .count();
         let secondaries = conditions.len() - pumps;
         match method {
             Method::TwoSystems if pumps < 2 || secondaries > 0 => {
@@ -371,7 +434,9 @@ impl Checker<'_> {
                 if len <= last {
                     return Err(self.err(
                         &root.key("conditions").index(i).key("line_length"),
-                        format!("the line ({len} m) must reach beyond the last transducer ({last} m)"),
+                        format!(
+                            "the line ({len} m) must reach beyond the last transducer ({last} m)"
+                        ),
                     ));
                 }
             }
@@ -399,9 +464,14 @@ impl Checker<'_> {
     fn line(&self, lp: &KeyPath, raw: &RawLine) -> Res<ReferenceLine> {
         let bore = self.range(&lp.key("bore"), raw.bore.si, 1e-3, 0.5, "m")?;
         let wall = match (raw.rigid, raw.wall) {
-            (Some(true), None) if raw.material.is_none() && raw.youngs_modulus.is_none() => Wall::Rigid,
+            (Some(true), None) if raw.material.is_none() && raw.youngs_modulus.is_none() => {
+                Wall::Rigid
+            }
             (Some(true), _) => {
-                return Err(self.err(&lp.key("rigid"), "a rigid line takes no `wall`, `material` or `youngs_modulus`"));
+                return Err(self.err(
+                    &lp.key("rigid"),
+                    "a rigid line takes no `wall`, `material` or `youngs_modulus`",
+                ));
             }
             (_, None) => {
                 return Err(self.err(lp, "the reference line needs its wall: `wall` (thickness) with `material` or `youngs_modulus`, or `rigid: true`"));
@@ -409,23 +479,38 @@ impl Checker<'_> {
             (_, Some(w)) => {
                 let t = self.range(&lp.key("wall"), w.si, 1e-5, 0.2, "m")?;
                 if t >= bore / 2.0 {
-                    return Err(self.err(&lp.key("wall"), format!(
-                        "wall thickness {:.3} mm is not less than the bore radius {:.3} mm", t * 1e3, bore * 5e2
-                    )));
+                    return Err(self.err(
+                        &lp.key("wall"),
+                        format!(
+                            "wall thickness {:.3} mm is not less than the bore radius {:.3} mm",
+                            t * 1e3,
+                            bore * 5e2
+                        ),
+                    ));
                 }
                 let e = match (&raw.material, raw.youngs_modulus) {
                     (Some(m), None) => Material::from_name(m)
-                        .ok_or_else(|| self.err(&lp.key("material"), format!(
+                        .ok_or_else(|| {
+                            self.err(&lp.key("material"), format!(
                             "unknown material `{m}`; use one of: {} (or give `youngs_modulus`)",
                             Material::ALL.map(|m| m.name()).join(", ")
-                        )))?
+                        ))
+                        })?
                         .youngs_modulus_pa(),
-                    (None, Some(e)) => self.range(&lp.key("youngs_modulus"), e.si, 1e6, 1e12, "Pa")?,
+                    (None, Some(e)) => {
+                        self.range(&lp.key("youngs_modulus"), e.si, 1e6, 1e12, "Pa")?
+                    }
                     _ => {
-                        return Err(self.err(&lp.key("wall"), "give the wall's `material` or its `youngs_modulus` (one of them)"));
+                        return Err(self.err(
+                            &lp.key("wall"),
+                            "give the wall's `material` or its `youngs_modulus` (one of them)",
+                        ));
                     }
                 };
-                Wall::Elastic { thickness_m: t, youngs_modulus_pa: e }
+                Wall::Elastic {
+                    thickness_m: t,
+                    youngs_modulus_pa: e,
+                }
             }
         };
         Ok(ReferenceLine {
@@ -441,7 +526,13 @@ impl Checker<'_> {
     fn transducers(&self, root: &KeyPath, raw: &[RawTransducer]) -> Res<Vec<Transducer>> {
         let tp = root.key("transducers");
         if !(2..=MAX_TRANSDUCERS).contains(&raw.len()) {
-            return Err(self.err(&tp, format!("a bench needs 2 to {MAX_TRANSDUCERS} transducers, found {}", raw.len())));
+            return Err(self.err(
+                &tp,
+                format!(
+                    "a bench needs 2 to {MAX_TRANSDUCERS} transducers, found {}",
+                    raw.len()
+                ),
+            ));
         }
         let mut out: Vec<Transducer> = Vec::new();
         for (i, t) in raw.iter().enumerate() {
@@ -450,7 +541,10 @@ impl Checker<'_> {
                 return Err(self.err(&p.key("name"), "a transducer name must not be empty"));
             }
             if out.iter().any(|o| o.name == t.name) {
-                return Err(self.err(&p.key("name"), format!("duplicate transducer name `{}`", t.name)));
+                return Err(self.err(
+                    &p.key("name"),
+                    format!("duplicate transducer name `{}`", t.name),
+                ));
             }
             let x = self.range(&p.key("position"), t.position.si, 0.0, 100.0, "m")?;
             if let Some(prev) = out.last().filter(|o| x <= o.position_m + 1e-6) {
@@ -459,7 +553,10 @@ impl Checker<'_> {
                     prev.position_m
                 )));
             }
-            out.push(Transducer { name: t.name.clone(), position_m: x });
+            out.push(Transducer {
+                name: t.name.clone(),
+                position_m: x,
+            });
         }
         Ok(out)
     }
@@ -477,15 +574,27 @@ impl Checker<'_> {
         let kind = match (c.kind.unwrap_or(RawKind::Pump), &c.secondary_source) {
             (RawKind::Pump, None) => ConditionKind::Pump,
             (RawKind::Pump, Some(_)) => {
-                return Err(self.err(&cp.key("secondary_source"), "`secondary_source` needs `kind: secondary_source`"));
+                return Err(self.err(
+                    &cp.key("secondary_source"),
+                    "`secondary_source` needs `kind: secondary_source`",
+                ));
             }
             (RawKind::SecondarySource, None) => {
-                return Err(self.err(cp, "a secondary-source condition needs `secondary_source: {fundamental: …}`"));
+                return Err(self.err(
+                    cp,
+                    "a secondary-source condition needs `secondary_source: {fundamental: …}`",
+                ));
             }
             (RawKind::SecondarySource, Some(s)) => {
                 let sp = cp.key("secondary_source");
                 ConditionKind::SecondarySource {
-                    fundamental_hz: self.range(&sp.key("fundamental"), s.fundamental.si, 1.0, 1e5, "Hz")?,
+                    fundamental_hz: self.range(
+                        &sp.key("fundamental"),
+                        s.fundamental.si,
+                        1.0,
+                        1e5,
+                        "Hz",
+                    )?,
                     flow_m3_s: match s.flow {
                         None => None,
                         Some(f) => Some(self.range(&sp.key("flow"), f.si, 1e-12, 1.0, "m³/s")?),
@@ -504,7 +613,9 @@ impl Checker<'_> {
                 Some(Termination {
                     resistance_pa_s_m3: match t.resistance {
                         None => None,
-                        Some(r) => Some(self.range(&tp.key("resistance"), r.si, 1e3, 1e18, "Pa·s/m³")?),
+                        Some(r) => {
+                            Some(self.range(&tp.key("resistance"), r.si, 1e3, 1e18, "Pa·s/m³")?)
+                        }
                     },
                     volume_m3: match t.volume {
                         None => None,
@@ -513,16 +624,25 @@ impl Checker<'_> {
                 })
             }
         };
-        let unit_text = c.unit.as_deref().or(defaults.and_then(|d| d.unit.as_deref()));
+        let unit_text = c
+            .unit
+            .as_deref()
+            .or(defaults.and_then(|d| d.unit.as_deref()));
         let unit_pa = match unit_text {
-            None => return Err(self.err(cp, "say the unit of the values: `unit: bar` or `unit: Pa` (here or under `records`)")),
+            None => return Err(self.err(
+                cp,
+                "say the unit of the values: `unit: bar` or `unit: Pa` (here or under `records`)",
+            )),
             Some(u) => self.pressure_unit(&cp.key("unit"), u)?,
         };
         let mut columns = Vec::with_capacity(transducers.len());
         let map = c.columns.clone().unwrap_or_default();
         for key in map.keys() {
             if !transducers.iter().any(|t| &t.name == key) {
-                return Err(self.err(&cp.key("columns"), format!("`{key}` is not a transducer of the bench")));
+                return Err(self.err(
+                    &cp.key("columns"),
+                    format!("`{key}` is not a transducer of the bench"),
+                ));
             }
         }
         for t in transducers {
@@ -535,21 +655,46 @@ impl Checker<'_> {
                     None => None,
                     Some(r) => Some(self.range(&cp.key("sample_rate"), r.si, 10.0, 1e7, "Hz")?),
                 };
-                let time_column = c.time_column.clone().or(defaults.and_then(|d| d.time_column.clone()));
+                let time_column = c
+                    .time_column
+                    .clone()
+                    .or(defaults.and_then(|d| d.time_column.clone()));
                 if sample_rate_hz.is_none() && time_column.is_none() {
                     return Err(self.err(cp, "time-series records need `sample_rate` or `time_column` (here or under `records`)"));
                 }
-                DataFile::TimeSeries { path: base.join(f), unit_pa, sample_rate_hz, time_column, columns }
+                DataFile::TimeSeries {
+                    path: base.join(f),
+                    unit_pa,
+                    sample_rate_hz,
+                    time_column,
+                    columns,
+                }
             }
-            (None, Some(f)) => DataFile::Spectra { path: base.join(f), unit_pa, columns },
+            (None, Some(f)) => DataFile::Spectra {
+                path: base.join(f),
+                unit_pa,
+                columns,
+            },
             _ => {
                 return Err(self.err(cp, "a condition needs its data: either `records` (a time-series CSV) or `spectra` (a spectra CSV)"));
             }
         };
-        Ok(Condition { name: c.name.clone(), kind, line_length_m, termination, data })
+        Ok(Condition {
+            name: c.name.clone(),
+            kind,
+            line_length_m,
+            termination,
+            data,
+        })
     }
 
-    fn synthesis(&self, sp: &KeyPath, s: &RawSynthesis, fluid: &Fluid, pump: &BenchPump) -> Res<Synthesis> {
+    fn synthesis(
+        &self,
+        sp: &KeyPath,
+        s: &RawSynthesis,
+        fluid: &Fluid,
+        pump: &BenchPump,
+    ) -> Res<Synthesis> {
         let (flow_ripple, impedance) = match (&s.flow_ripple, &s.source_impedance, &s.source_file) {
             (Some(flow), Some(z), None) => {
                 if flow.is_empty() {
@@ -559,11 +704,20 @@ impl Checker<'_> {
                 for (i, h) in flow.iter().enumerate() {
                     let hp = sp.key("flow_ripple").index(i);
                     if h.harmonic == 0 || harmonics.iter().any(|o| o.order == h.harmonic) {
-                        return Err(self.err(&hp.key("harmonic"), format!("harmonic {} is zero or listed twice", h.harmonic)));
+                        return Err(self.err(
+                            &hp.key("harmonic"),
+                            format!("harmonic {} is zero or listed twice", h.harmonic),
+                        ));
                     }
                     harmonics.push(FlowHarmonic {
                         order: h.harmonic,
-                        amplitude_m3_s: self.range(&hp.key("amplitude"), h.amplitude.si, 0.0, 10.0, "m³/s")?,
+                        amplitude_m3_s: self.range(
+                            &hp.key("amplitude"),
+                            h.amplitude.si,
+                            0.0,
+                            10.0,
+                            "m³/s",
+                        )?,
                         phase_rad: h.phase.map_or(0.0, |p| p.si),
                     });
                 }
@@ -571,29 +725,47 @@ impl Checker<'_> {
                 let volume = self.range(&zp.key("volume"), z.volume.si, 0.0, 1.0, "m³")?;
                 let leak = match z.leakage_resistance {
                     None => None,
-                    Some(r) => Some(self.range(&zp.key("leakage_resistance"), r.si, 1e3, 1e20, "Pa·s/m³")?),
+                    Some(r) => Some(self.range(
+                        &zp.key("leakage_resistance"),
+                        r.si,
+                        1e3,
+                        1e20,
+                        "Pa·s/m³",
+                    )?),
                 };
                 (
-                    FlowRipple::Table { reference_speed_rev_s: pump.speed_rev_s, harmonics },
-                    SourceImpedance::Volume { capacitance_m3_pa: volume / fluid.bulk_modulus_pa, leakage_resistance_pa_s_m3: leak },
+                    FlowRipple::Table {
+                        reference_speed_rev_s: pump.speed_rev_s,
+                        harmonics,
+                    },
+                    SourceImpedance::Volume {
+                        capacitance_m3_pa: volume / fluid.bulk_modulus_pa,
+                        leakage_resistance_pa_s_m3: leak,
+                    },
                 )
             }
             (None, None, Some(f)) => {
                 let src = super::source_file::load_source_file(&self.base().join(f))?;
-                let z = src.source_impedance().map_err(|m| self.err(&sp.key("source_file"), m))?;
+                let z = src
+                    .source_impedance()
+                    .map_err(|m| self.err(&sp.key("source_file"), m))?;
                 (src.flow_ripple(), z)
             }
             _ => {
                 return Err(self.err(sp, "give the known source as `flow_ripple` with `source_impedance`, or as a `source_file`"));
             }
         };
-        let ratio = |key: &str, v: Option<Q<q::Ratio>>, lo: f64, hi: f64, default: f64| -> Res<f64> {
-            match v {
-                None => Ok(default),
-                Some(v) if (lo..=hi).contains(&v.si) => Ok(v.si),
-                Some(v) => Err(self.err(&sp.key(key), format!("must be between {lo} and {hi}, found {}", v.si))),
-            }
-        };
+        let ratio =
+            |key: &str, v: Option<Q<q::Ratio>>, lo: f64, hi: f64, default: f64| -> Res<f64> {
+                match v {
+                    None => Ok(default),
+                    Some(v) if (lo..=hi).contains(&v.si) => Ok(v.si),
+                    Some(v) => Err(self.err(
+                        &sp.key(key),
+                        format!("must be between {lo} and {hi}, found {}", v.si),
+                    )),
+                }
+            };
         Ok(Synthesis {
             flow_ripple,
             impedance,
