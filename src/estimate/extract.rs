@@ -290,6 +290,31 @@ fn weighted_fit(
     m: usize,
 ) -> Option<Vec<Vec<f64>>> {
     let channels = record.channels.len();
+    let (chol, rhs) = normal_equations(record, start, len, freqs, m)?;
+    let out: Vec<Vec<f64>> = (0..channels)
+        .map(|ch| {
+            chol.solve(&DVector::from_column_slice(&rhs[ch * m..(ch + 1) * m]))
+                .iter()
+                .copied()
+                .collect()
+        })
+        .collect();
+    out.iter()
+        .all(|v| v.iter().all(|x| x.is_finite()))
+        .then_some(out)
+}
+
+/// The Cholesky factor of the Hann-weighted normal matrix of the basis over
+/// samples start..start+len, and the right-hand sides of every channel
+/// (channel-major, m each); `None` if the matrix is not positive definite.
+fn normal_equations(
+    record: &TimeRecord,
+    start: usize,
+    len: usize,
+    freqs: &[f64],
+    m: usize,
+) -> Option<(nalgebra::Cholesky<f64, nalgebra::Dyn>, Vec<f64>)> {
+    let channels = record.channels.len();
     let mut upper = vec![0.0; m * m];
     let mut rhs = vec![0.0; m * channels];
     let mut basis = vec![0.0; m];
@@ -318,18 +343,7 @@ fn weighted_fit(
             upper[c * m + r]
         }
     });
-    let chol = gram.cholesky()?;
-    let out: Vec<Vec<f64>> = (0..channels)
-        .map(|ch| {
-            chol.solve(&DVector::from_column_slice(&rhs[ch * m..(ch + 1) * m]))
-                .iter()
-                .copied()
-                .collect()
-        })
-        .collect();
-    out.iter()
-        .all(|v| v.iter().all(|x| x.is_finite()))
-        .then_some(out)
+    Some((gram.cholesky()?, rhs))
 }
 
 /// One Gauss–Newton refinement of the fundamental `f` of a harmonic series
@@ -379,26 +393,8 @@ fn gauss_newton_step(record: &TimeRecord, f: f64, k: u32, fixed: &[f64]) -> Opti
             }
         }
     }
-    // ‖P⊥J‖² = ⟨J, J⟩ − vᵀ G⁻¹ v, with G rebuilt from the basis.
-    let mut upper = vec![0.0; m * m];
-    for i in 0..n {
-        let w = hann(i, n);
-        fill_basis(&mut basis, &freqs, i as f64 / fs);
-        for r in 0..m {
-            let br = w * basis[r];
-            for (g, b) in upper[r * m + r..(r + 1) * m].iter_mut().zip(&basis[r..]) {
-                *g += br * b;
-            }
-        }
-    }
-    let gram = DMatrix::<f64>::from_fn(m, m, |r, c| {
-        if c >= r {
-            upper[r * m + c]
-        } else {
-            upper[c * m + r]
-        }
-    });
-    let chol = gram.cholesky()?;
+    // ‖P⊥J‖² = ⟨J, J⟩ − vᵀ G⁻¹ v.
+    let (chol, _) = normal_equations(record, 0, n, &freqs, m)?;
     let mut proj = 0.0;
     for ch in 0..channels {
         let vc = DVector::from_column_slice(&v[ch * m..(ch + 1) * m]);
@@ -553,42 +549,20 @@ fn refine_fundamental(
     loop {
         let half = 0.75 / (f64::from(k) * duration);
         let last = k == k_top;
-        f = golden_min(|x| series_residual(record, x, k), f - half, f + half, 10);
+        f = super::golden_section(
+            |x| series_residual(record, x, k),
+            f - half,
+            f + half,
+            1e-14,
+            10,
+        )
+        .x;
         if last {
             break;
         }
         k = (2 * k).min(k_top);
     }
     Ok(f)
-}
-
-/// Golden-section search (Kiefer 1953) for the minimum of `g` on [a, b],
-/// stopping at a relative width of 1e-14 or after `iterations` steps.
-fn golden_min(g: impl Fn(f64) -> f64, a: f64, b: f64, iterations: usize) -> f64 {
-    let ratio = (5f64.sqrt() - 1.0) / 2.0;
-    let (mut a, mut b) = (a, b);
-    let mut x1 = b - ratio * (b - a);
-    let mut x2 = a + ratio * (b - a);
-    let (mut f1, mut f2) = (g(x1), g(x2));
-    for _ in 0..iterations {
-        if b - a <= 1e-14 * b.abs() {
-            break;
-        }
-        if f1 <= f2 {
-            b = x2;
-            x2 = x1;
-            f2 = f1;
-            x1 = b - ratio * (b - a);
-            f1 = g(x1);
-        } else {
-            a = x1;
-            x1 = x2;
-            f1 = f2;
-            x2 = a + ratio * (b - a);
-            f2 = g(x2);
-        }
-    }
-    if f1 <= f2 { x1 } else { x2 }
 }
 
 #[cfg(test)]

@@ -148,34 +148,20 @@ pub fn fit_speed_of_sound(
         };
     }
     // Golden-section search on [grid[best−1], grid[best+1]].
-    let ratio = (5f64.sqrt() - 1.0) / 2.0;
-    let (mut a, mut b) = (grid[best - 1], grid[best + 1]);
-    let mut x1 = b - ratio * (b - a);
-    let mut x2 = a + ratio * (b - a);
-    let (mut f1, mut f2) = (f(x1), f(x2));
-    evaluations += 2;
-    let mut status = FitStatus::MaxIterations;
-    for _ in 0..settings.max_iterations {
-        if (b - a) <= settings.tolerance * b {
-            status = FitStatus::Converged;
-            break;
-        }
-        if f1 <= f2 {
-            b = x2;
-            x2 = x1;
-            f2 = f1;
-            x1 = b - ratio * (b - a);
-            f1 = f(x1);
-        } else {
-            a = x1;
-            x1 = x2;
-            f1 = f2;
-            x2 = a + ratio * (b - a);
-            f2 = f(x2);
-        }
-        evaluations += 1;
-    }
-    let (c0, cost) = if f1 <= f2 { (x1, f1) } else { (x2, f2) };
+    let r = super::golden_section(
+        f,
+        grid[best - 1],
+        grid[best + 1],
+        settings.tolerance,
+        settings.max_iterations,
+    );
+    evaluations += r.evaluations;
+    let status = if r.converged {
+        FitStatus::Converged
+    } else {
+        FitStatus::MaxIterations
+    };
+    let (c0, cost) = (r.x, r.value);
     WaveSpeedFit {
         c0_m_s: c0,
         status,
