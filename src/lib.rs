@@ -42,6 +42,7 @@ pub mod circuit;
 pub mod demo;
 pub mod diagnostics;
 pub mod elements;
+pub mod estimate;
 pub mod fluid;
 pub mod io;
 pub mod line;

@@ -37,6 +37,10 @@ pub enum Dimension {
     Inertance,
     /// Dimensionless number.
     Ratio,
+    /// Speed (of sound), SI unit m/s.
+    Speed,
+    /// Time, SI unit s.
+    Time,
 }
 
 impl Dimension {
@@ -56,6 +60,8 @@ impl Dimension {
             Dimension::Resistance => "hydraulic resistance",
             Dimension::Inertance => "hydraulic inertance",
             Dimension::Ratio => "ratio",
+            Dimension::Speed => "speed",
+            Dimension::Time => "time",
         }
     }
 
@@ -146,6 +152,8 @@ impl Dimension {
             ],
             Dimension::Inertance => &[("kg/m4", 1.0), ("Pa.s2/m3", 1.0)],
             Dimension::Ratio => &[("", 1.0), ("%", 0.01)],
+            Dimension::Speed => &[("m/s", 1.0), ("km/s", 1e3), ("ft/s", 0.3048)],
+            Dimension::Time => &[("s", 1.0), ("ms", 1e-3), ("min", 60.0)],
         }
     }
 
@@ -164,6 +172,8 @@ impl Dimension {
             Dimension::Resistance => "Pa·s/m³",
             Dimension::Inertance => "kg/m⁴",
             Dimension::Ratio => "(dimensionless)",
+            Dimension::Speed => "m/s",
+            Dimension::Time => "s",
         }
     }
 }

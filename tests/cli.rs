@@ -355,7 +355,11 @@ fn bad_circuit_files_exit_2_with_a_located_message_and_write_nothing() {
     let listed: Vec<&str> = BAD_FILES.iter().map(|(f, _)| *f).collect();
     for entry in std::fs::read_dir(Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/bad")).unwrap()
     {
-        let name = entry.unwrap().file_name().to_string_lossy().into_owned();
+        let entry = entry.unwrap();
+        if entry.path().is_dir() {
+            continue; // tests/bad/bench: see BAD_BENCH_FILES
+        }
+        let name = entry.file_name().to_string_lossy().into_owned();
         assert!(
             listed.contains(&name.as_str()),
             "tests/bad/{name} has no expectation in BAD_FILES"
@@ -457,5 +461,233 @@ fn the_readme_example_circuit_is_valid() {
     let o = ripline(&["solve", file.to_str().unwrap()]);
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(stdout(&o).contains("point `mid`"));
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+/// Each malformed bench (or bench record) in tests/bad/bench/ must make
+/// `ripline fit` fail with exit code 2 and a message naming the file, the
+/// place (line of the bench file or CSV row) and the fault, writing nothing.
+const BAD_BENCH_FILES: &[(&str, &str)] = &[
+    (
+        "in_situ_two_transducers.yaml",
+        "speed_of_sound: the speed of sound in situ needs at least three transducers",
+    ),
+    (
+        "irregular_time.yaml",
+        "data/irregular_time.csv:7: column `t`: time 0.0009 s is off the uniform sampling grid",
+    ),
+    (
+        "low_sample_rate.yaml",
+        "data/good.csv: the sample rate 1000 Hz is too low",
+    ),
+    (
+        "missing_harmonic.yaml",
+        "data/spectra_gap.csv: harmonic 3 is missing",
+    ),
+    (
+        "missing_records.yaml",
+        "data/nowhere.csv: cannot read the file",
+    ),
+    (
+        "nan_value.yaml",
+        "data/nan_value.csv:4: column `p1`: `NaN` is not a finite number",
+    ),
+    ("no_unit.yaml", "say the unit of the values"),
+    (
+        "not_a_number.yaml",
+        "data/not_a_number.csv:5: column `p2`: `1.5o2e2` is not a number",
+    ),
+    (
+        "one_system.yaml",
+        "conditions: `method: two_systems` needs at least two pump conditions",
+    ),
+    (
+        "ragged_row.yaml",
+        "data/ragged_row.csv:6: the row has 2 fields, the header has 3 columns",
+    ),
+    (
+        "rate_mismatch.yaml",
+        "the time column gives a sample rate of 6000.000 Hz, the bench file states 5000 Hz",
+    ),
+    (
+        "short_record.yaml",
+        "data/short.csv: the record is too short",
+    ),
+    (
+        "transducer_beyond_line.yaml",
+        "conditions[1].line_length: the line (0.9 m) must reach beyond the last transducer (1.05 m)",
+    ),
+    ("unknown_bench_key.yaml", "unknown field `colour`"),
+    (
+        "wrong_columns.yaml",
+        "data/two_columns.csv:1: no column `p3` in the header",
+    ),
+];
+
+#[test]
+fn bad_bench_files_exit_2_with_a_located_message_and_write_nothing() {
+    let dir = scratch("badbench");
+    let csv = dir.join("out.csv");
+    let src = dir.join("src.yaml");
+    let listed: Vec<&str> = BAD_BENCH_FILES.iter().map(|(f, _)| *f).collect();
+    let folder = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/bad/bench");
+    for entry in std::fs::read_dir(&folder).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().is_some_and(|e| e == "yaml") {
+            let name = path.file_name().unwrap().to_string_lossy().into_owned();
+            assert!(
+                listed.contains(&name.as_str()),
+                "tests/bad/bench/{name} has no expectation in BAD_BENCH_FILES"
+            );
+        }
+    }
+    for (file, fragment) in BAD_BENCH_FILES {
+        let path = format!("tests/bad/bench/{file}");
+        let o = ripline(&[
+            "fit",
+            &path,
+            "--draws",
+            "0",
+            "--csv",
+            csv.to_str().unwrap(),
+            "--source-out",
+            src.to_str().unwrap(),
+        ]);
+        let err = stderr(&o);
+        assert_eq!(o.status.code(), Some(2), "{file}: {err}");
+        assert!(
+            err.contains("tests/bad/bench/"),
+            "{file}: message does not name the file: {err}"
+        );
+        assert!(
+            err.contains(fragment),
+            "{file}: expected `{fragment}` in: {err}"
+        );
+        assert!(
+            !err.contains("panicked") && !stdout(&o).contains("NaN"),
+            "{err}"
+        );
+        assert!(
+            files_in(&dir).is_empty(),
+            "{file}: an output file was written"
+        );
+    }
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+#[test]
+fn demo_bench_fit_recovers_the_known_source() {
+    // networks/bench/demo_bench.yaml: records written by `ripline synth`
+    // from Qs(1) = 0.6 L/min at 1500 rpm, speed 0.2 % high (so 1.002e-5 m³/s
+    // at the measured speed), Zs = 1/(jωV/B + 1/R) with V = 0.1 L,
+    // B = 1.6 GPa, R = 1.2e12 (methods.md §5 form b), c = √(B/ρ) = 1356.1 m/s.
+    let dir = scratch("demofit");
+    let (csv, src, png) = (
+        dir.join("fit.csv"),
+        dir.join("pump.yaml"),
+        dir.join("fit.png"),
+    );
+    let o = ripline(&[
+        "fit",
+        "networks/bench/demo_bench.yaml",
+        "--draws",
+        "50",
+        "--csv",
+        csv.to_str().unwrap(),
+        "--source-out",
+        src.to_str().unwrap(),
+        "--plot",
+        png.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    assert!(
+        out.contains("1503.0 rpm measured") && out.contains("estimated in situ"),
+        "{out}"
+    );
+    assert!(!out.contains("NaN") && !out.contains("inf"), "{out}");
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(
+        lines.next(),
+        Some(
+            "harmonic,frequency_hz,flow_amplitude_m3s,flow_phase_deg,impedance_amplitude_pa_s_m3,impedance_phase_deg,flow_uncertainty_m3s,impedance_uncertainty_pa_s_m3"
+        )
+    );
+    let row: Vec<f64> = lines
+        .next()
+        .unwrap()
+        .split(',')
+        .map(|v| v.parse().unwrap())
+        .collect();
+    let want_q = 0.6 / 60_000.0 * 1.002;
+    let f = 225.0 * 1.002;
+    let w = std::f64::consts::TAU * f;
+    let want_z = 1.0 / ((1.0 / 1.2e12f64).powi(2) + (w * 1e-4 / 1.6e9).powi(2)).sqrt();
+    assert!((row[1] - f).abs() < 1e-3, "{row:?}");
+    assert!(
+        (row[2] - want_q).abs() < 3.0 * row[6],
+        "{row:?} vs {want_q}"
+    );
+    assert!(
+        (row[4] - want_z).abs() < 3.0 * row[7],
+        "{row:?} vs {want_z}"
+    );
+    assert_eq!(text.lines().count(), 11);
+    assert!(std::fs::read(&png).unwrap().starts_with(b"\x89PNG"));
+    // The source file is read by `solve` through pump.source_file.
+    let circuit = dir.join("circuit.yaml");
+    std::fs::write(
+        &circuit,
+        "fluid: {density: 870, bulk_modulus: 1.6 GPa, viscosity: 32 cSt}\n\
+         pump: {node: a, source_file: pump.yaml}\n\
+         elements:\n\
+         \x20 - {name: line, kind: tube, from: a, to: b, length: 2 m, bore: 10 mm, rigid: true}\n\
+         \x20 - {name: valve, kind: load_valve, at: b, resistance: 6e10}\n",
+    )
+    .unwrap();
+    let o = ripline(&["solve", circuit.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stdout(&o).contains("pumping frequency 225.45 Hz"),
+        "{}",
+        stdout(&o)
+    );
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+#[test]
+fn synth_then_fit_round_trip_without_noise() {
+    // The demo bench synthesised without noise into a scratch folder: the
+    // fit returns the known source (see the demo test for the values) to
+    // 1e-6 relative (the records are written in full precision).
+    let dir = scratch("synthfit");
+    let bench = dir.join("bench.yaml");
+    let text = std::fs::read_to_string("networks/bench/demo_bench.yaml")
+        .unwrap()
+        .replace("noise: 0.5 %", "noise: 0")
+        .replace("mean_pressure: 150 bar", "mean_pressure: 0");
+    std::fs::write(&bench, text).unwrap();
+    let o = ripline(&["synth", bench.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(stdout(&o).contains("data/system_a.csv"));
+    let csv = dir.join("fit.csv");
+    let o = ripline(&[
+        "fit",
+        bench.to_str().unwrap(),
+        "--draws",
+        "0",
+        "--csv",
+        csv.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let row: Vec<&str> = text.lines().nth(2).unwrap().split(',').collect();
+    let want_q = 0.25 / 60_000.0 * 1.002;
+    let q: f64 = row[2].parse().unwrap();
+    assert!((q - want_q).abs() < 1e-6 * want_q, "{q} vs {want_q}");
+    let phase: f64 = row[3].parse().unwrap();
+    assert!((phase - 150.0).abs() < 1e-4, "{phase}");
+    assert_eq!(row[6], "", "no uncertainty without draws");
     std::fs::remove_dir_all(dir).unwrap();
 }

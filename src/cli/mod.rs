@@ -7,7 +7,9 @@
 
 mod check;
 mod common;
+mod fit;
 mod solve;
+mod synth;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
@@ -28,6 +30,10 @@ enum Command {
     Solve(solve::SolveArgs),
     /// Validate a circuit file without solving and report what it holds.
     Check(check::CheckArgs),
+    /// Estimate a pump's source flow ripple and source impedance from bench records.
+    Fit(fit::FitArgs),
+    /// Write synthetic bench records from a known source (for demos and tests).
+    Synth(synth::SynthArgs),
 }
 
 /// Exit code for invalid input or usage.
@@ -50,6 +56,8 @@ pub fn main() -> ExitCode {
     let result = match cli.command {
         Command::Solve(args) => solve::run(args),
         Command::Check(args) => check::run(args),
+        Command::Fit(args) => fit::run(args),
+        Command::Synth(args) => synth::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

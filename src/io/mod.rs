@@ -3,11 +3,13 @@
 //! Everything read here is converted to SI and validated before it reaches the
 //! models; every error names the file, the line (where known) and the key.
 
+pub mod bench_file;
 pub mod circuit_file;
 pub mod csv_out;
 pub mod locate;
 pub mod output;
 pub mod quantity;
+pub mod records;
 pub mod source_file;
 
 pub use circuit_file::{load_circuit, parse_circuit};

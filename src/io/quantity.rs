@@ -42,6 +42,9 @@ dims! {
     Angle => Angle,
     Resistance => Resistance,
     Inertance => Inertance,
+    Ratio => Ratio,
+    Speed => Speed,
+    Time => Time,
 }
 
 /// A quantity of dimension `D`, stored in SI.

@@ -1,0 +1,175 @@
+//! `ripline synth BENCH_FILE`: synthetic records of a bench from its known
+//! source (the bench file's `synthesis` section), with seeded noise.
+
+use super::common::{self, UsageError};
+use anyhow::Context;
+use clap::Args;
+use ripline::estimate::bench::{DataFile, Synthesis};
+use ripline::estimate::extract::Phasors;
+use ripline::estimate::rng::Rng;
+use ripline::estimate::synth;
+use ripline::io::output::StagedOutputs;
+use ripline::io::records::{write_spectra, write_time_record};
+use ripline::units::Dimension;
+use std::path::{Path, PathBuf};
+
+#[derive(Debug, Args)]
+pub struct SynthArgs {
+    /// Bench file (YAML) with a `synthesis` section.
+    file: PathBuf,
+    /// Noise as a fraction of each channel's rms ripple, e.g. 0.01 or "1 %"
+    /// (overrides the file).
+    #[arg(long, value_name = "FRACTION")]
+    noise: Option<String>,
+    /// Seed of the noise generator (overrides the file).
+    #[arg(long, value_name = "N")]
+    seed: Option<u64>,
+    /// Relative error of the stated speed, e.g. "0.3 %" (overrides the file).
+    #[arg(long, value_name = "FRACTION")]
+    speed_error: Option<String>,
+    /// Write the records under this folder instead of next to the bench
+    /// file (keeping their relative paths).
+    #[arg(long, value_name = "DIR")]
+    out_dir: Option<PathBuf>,
+}
+
+fn fraction(option: &str, text: &str, lo: f64, hi: f64) -> anyhow::Result<f64> {
+    let v = common::cli_quantity(option, text, Dimension::Ratio, "")?;
+    if !(lo..=hi).contains(&v) {
+        return Err(
+            UsageError(format!("{option} must be between {lo} and {hi}, found {v}")).into(),
+        );
+    }
+    Ok(v)
+}
+
+pub fn run(args: SynthArgs) -> anyhow::Result<()> {
+    if let Some(dir) = args.out_dir.as_deref().filter(|d| !d.is_dir()) {
+        return Err(UsageError(format!(
+            "--out-dir {}: the folder does not exist",
+            dir.display()
+        ))
+        .into());
+    }
+    let bench = ripline::io::bench_file::load_bench(&args.file)?;
+    let mut syn: Synthesis = bench.synthesis.clone().ok_or_else(|| {
+        UsageError(format!(
+            "{}: the bench file has no `synthesis` section (the known source to synthesise from)",
+            args.file.display()
+        ))
+    })?;
+    if let Some(n) = &args.noise {
+        syn.noise = fraction("--noise", n, 0.0, 1.0)?;
+    }
+    if let Some(s) = &args.speed_error {
+        syn.speed_error = fraction("--speed-error", s, -0.1, 0.1)?;
+    }
+    if let Some(s) = args.seed {
+        syn.seed = s;
+    }
+    let base = args.file.parent().unwrap_or(Path::new(""));
+    let mut rng = Rng::new(syn.seed);
+    let mut outputs = StagedOutputs::new();
+    let mut written = Vec::new();
+    let comment = format!(
+        "synthetic record written by ripline synth from {} (an invented scenario)\nnoise {} of the rms ripple, seed {}, speed error {}",
+        args.file.display(),
+        syn.noise,
+        syn.seed,
+        syn.speed_error
+    );
+    for cond in &bench.conditions {
+        let lines = synth::condition_lines(&bench, &syn, cond)
+            .map_err(|e| UsageError(format!("{}: {e}", args.file.display())))?;
+        let target = match &args.out_dir {
+            Some(dir) => dir.join(
+                cond.data
+                    .path()
+                    .strip_prefix(base)
+                    .unwrap_or(cond.data.path()),
+            ),
+            None => cond.data.path().to_path_buf(),
+        };
+        if let Some(parent) = target.parent().filter(|p| !p.as_os_str().is_empty()) {
+            std::fs::create_dir_all(parent)
+                .with_context(|| format!("creating {}", parent.display()))?;
+        }
+        let mut bytes = Vec::new();
+        match &cond.data {
+            DataFile::TimeSeries {
+                unit_pa,
+                sample_rate_hz,
+                time_column,
+                columns,
+                ..
+            } => {
+                let fs = sample_rate_hz.or(syn.sample_rate_hz).ok_or_else(|| {
+                    UsageError(format!(
+                        "{}: condition `{}` states no sample rate: give `synthesis.sample_rate`",
+                        args.file.display(),
+                        cond.name
+                    ))
+                })?;
+                let channels = synth::time_series(
+                    &lines,
+                    bench.transducers.len(),
+                    fs,
+                    syn.duration_s,
+                    syn.mean_pressure_pa,
+                    syn.noise,
+                    &mut rng,
+                );
+                let exact = syn.noise == 0.0;
+                write_time_record(
+                    &mut bytes,
+                    &comment,
+                    time_column.as_deref(),
+                    columns,
+                    &channels,
+                    fs,
+                    *unit_pa,
+                    exact,
+                )?;
+            }
+            DataFile::Spectra {
+                unit_pa, columns, ..
+            } => {
+                // Noise on the phasors: circular Gaussian, E|δP|² = (noise·|P|)².
+                let phasors: Vec<Phasors> = lines
+                    .iter()
+                    .map(|l| Phasors {
+                        order: l.order,
+                        freq_hz: l.freq_hz,
+                        pressures: l
+                            .pressures
+                            .iter()
+                            .map(|p| p + rng.complex_normal() * (syn.noise * p.norm()))
+                            .collect(),
+                        uncertainty: l
+                            .pressures
+                            .iter()
+                            .map(|p| Some(syn.noise * p.norm()))
+                            .collect(),
+                    })
+                    .filter(|p| match cond.kind {
+                        ripline::estimate::bench::ConditionKind::Pump => true,
+                        _ => !lines
+                            .iter()
+                            .take(bench.harmonics as usize)
+                            .any(|h| h.order == p.order && h.freq_hz == p.freq_hz),
+                    })
+                    .collect();
+                write_spectra(&mut bytes, &comment, columns, &phasors, *unit_pa)?;
+            }
+        }
+        outputs
+            .stage_bytes(&target, &bytes)
+            .with_context(|| format!("writing {}", target.display()))?;
+        written.push(format!("condition `{}`: {}", cond.name, target.display()));
+    }
+    outputs.commit().context("moving the records into place")?;
+    for w in written {
+        println!("wrote {w}");
+    }
+    Ok(())
+}

@@ -1,0 +1,173 @@
+//! Source impedance by the secondary-source principle (Edge & Johnston 1990;
+//! ISO 10767-1:1996; methods.md §6a), and the flow ripple from it.
+//!
+//! A secondary source at the far end of the reference line launches waves at
+//! frequencies between the pump harmonics, where the pump acts passively
+//! (Qs = 0). The wave decomposition at x = 0 then gives the pump's
+//! reflection coefficient and impedance:
+//!
+//! ```text
+//! R_s = F/G,      Zs = Zc (1 + R_s)/(1 − R_s) = −P0/Q0
+//! ```
+//!
+//! Zs is carried to the pump harmonics by interpolation (log amplitude and
+//! unwrapped phase, linear in log frequency, so that a capacitive impedance
+//! ∝ 1/f is interpolated exactly) or by a least-squares fit of a
+//! physical form, Ys = G + jωC (internal volume with leakage, methods.md
+//! §5 form b); fitting a physical form is the more repeatable of the two
+//! (Johnston & Drew). Then, at each pump harmonic, from the pump's own run:
+//!
+//! ```text
+//! Qs = Q0 + P0/Zs
+//! ```
+
+use super::bench::ImpedanceFit;
+use crate::C64;
+
+/// Zs at one secondary-source frequency from the outlet state, −P0/Q0.
+pub fn impedance_point(p0: C64, q0: C64) -> C64 {
+    -p0 / q0
+}
+
+/// Source impedance as a function of frequency, built from the points
+/// measured at the secondary-source frequencies.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ImpedanceModel {
+    /// Interpolated between the points: (frequency Hz, ln |Zs|, unwrapped phase).
+    Table(Vec<(f64, f64, f64)>),
+    /// Ys = G + jωC.
+    CapacitanceLeakage {
+        /// Conductance G in m³/(Pa·s).
+        conductance: f64,
+        /// Capacitance C in m³/Pa.
+        capacitance: f64,
+    },
+}
+
+impl ImpedanceModel {
+    /// Builds the model from (frequency Hz, Zs) points; points at the same
+    /// frequency (several secondary runs) are averaged first.
+    ///
+    /// # Errors
+    /// A message when there are no usable points.
+    pub fn build(points: &[(f64, C64)], fit: ImpedanceFit) -> Result<Self, String> {
+        let mut pts: Vec<(f64, C64)> = points
+            .iter()
+            .copied()
+            .filter(|(f, z)| f.is_finite() && *f > 0.0 && z.is_finite() && z.norm() > 0.0)
+            .collect();
+        if pts.is_empty() {
+            return Err("no secondary-source frequency gave a usable impedance".into());
+        }
+        pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+        let mut merged: Vec<(f64, C64, usize)> = Vec::new();
+        for (f, z) in pts {
+            match merged.last_mut() {
+                Some(last) if (f - last.0).abs() <= 1e-9 * f => {
+                    last.1 += z;
+                    last.2 += 1;
+                }
+                _ => merged.push((f, z, 1)),
+            }
+        }
+        let pts: Vec<(f64, C64)> = merged
+            .into_iter()
+            .map(|(f, z, n)| (f, z / n as f64))
+            .collect();
+        match fit {
+            ImpedanceFit::Interpolate => {
+                let mut table: Vec<(f64, f64, f64)> = Vec::with_capacity(pts.len());
+                for (f, z) in pts {
+                    let mut phase = z.arg();
+                    if let Some(&(_, _, last)) = table.last() {
+                        phase += std::f64::consts::TAU
+                            * ((last - phase) / std::f64::consts::TAU).round();
+                    }
+                    table.push((f, z.norm().ln(), phase));
+                }
+                Ok(ImpedanceModel::Table(table))
+            }
+            ImpedanceFit::CapacitanceLeakage => {
+                // Least squares on Ys = G + jωC: G = mean Re Ys,
+                // C = Σ ω Im Ys / Σ ω².
+                let n = pts.len() as f64;
+                let (mut g, mut num, mut den) = (0.0, 0.0, 0.0);
+                for &(f, z) in &pts {
+                    let ys = z.inv();
+                    let w = std::f64::consts::TAU * f;
+                    g += ys.re / n;
+                    num += w * ys.im;
+                    den += w * w;
+                }
+                Ok(ImpedanceModel::CapacitanceLeakage {
+                    conductance: g,
+                    capacitance: num / den,
+                })
+            }
+        }
+    }
+
+    /// Zs at `freq_hz`.
+    pub fn at(&self, freq_hz: f64) -> C64 {
+        match self {
+            ImpedanceModel::Table(t) => {
+                let i = t.partition_point(|p| p.0 < freq_hz);
+                let (ln_amp, phase) = if i == 0 {
+                    (t[0].1, t[0].2)
+                } else if i == t.len() {
+                    (t[i - 1].1, t[i - 1].2)
+                } else {
+                    let (f0, a0, p0) = t[i - 1];
+                    let (f1, a1, p1) = t[i];
+                    let x = (freq_hz / f0).ln() / (f1 / f0).ln();
+                    (a0 + x * (a1 - a0), p0 + x * (p1 - p0))
+                };
+                C64::from_polar(ln_amp.exp(), phase)
+            }
+            ImpedanceModel::CapacitanceLeakage {
+                conductance,
+                capacitance,
+            } => C64::new(*conductance, std::f64::consts::TAU * freq_hz * capacitance).inv(),
+        }
+    }
+
+    /// The frequency range the points cover (Hz), for interpolation.
+    pub fn range_hz(&self) -> Option<(f64, f64)> {
+        match self {
+            ImpedanceModel::Table(t) => Some((t[0].0, t[t.len() - 1].0)),
+            ImpedanceModel::CapacitanceLeakage { .. } => None,
+        }
+    }
+}
+
+/// Qs at a pump harmonic from the outlet state of the pump's run and Zs.
+pub fn flow_ripple(p0: C64, q0: C64, zs: C64) -> C64 {
+    q0 + p0 / zs
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn capacitance_leakage_fit_is_exact_for_that_form() {
+        // Zs = 1/(G + jωC) with C = 6.25e-14, G = 1/1.2e12 (methods.md §5
+        // worked example); at 225 Hz Zs = 1.067322e8 − j1.131668e10 (numpy, ibid.).
+        let (g, c) = (1.0 / 1.2e12, 6.25e-14);
+        let z = |f: f64| C64::new(g, std::f64::consts::TAU * f * c).inv();
+        let pts: Vec<(f64, C64)> = [90.0, 180.0, 330.0, 410.0].map(|f| (f, z(f))).to_vec();
+        let m = ImpedanceModel::build(&pts, ImpedanceFit::CapacitanceLeakage).unwrap();
+        let z225 = m.at(225.0);
+        assert!((z225 - z(225.0)).norm() < 1e-12 * z225.norm());
+        assert!((z225.re - 1.067322e8).abs() < 1e-6 * 1.067322e8);
+        assert!((z225.im + 1.131668e10).abs() < 1e-6 * 1.131668e10);
+        let t = ImpedanceModel::build(&pts, ImpedanceFit::Interpolate).unwrap();
+        assert_eq!(t.range_hz(), Some((90.0, 410.0)));
+        assert!((t.at(180.0) - z(180.0)).norm() < 1e-14 * z(180.0).norm());
+        // A pure capacitance (∝ 1/f) is interpolated exactly in log-log.
+        let cap = |f: f64| C64::new(0.0, std::f64::consts::TAU * f * c).inv();
+        let pts: Vec<(f64, C64)> = [90.0, 410.0].map(|f| (f, cap(f))).to_vec();
+        let t = ImpedanceModel::build(&pts, ImpedanceFit::Interpolate).unwrap();
+        assert!((t.at(225.0) - cap(225.0)).norm() < 1e-13 * cap(225.0).norm());
+    }
+}

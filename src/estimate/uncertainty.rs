@@ -1,0 +1,87 @@
+//! Uncertainty of the estimates by Monte Carlo propagation of the phasor
+//! uncertainties (JCGM 101:2008, "GUM Supplement 1", the propagation of
+//! distributions), with a seeded generator so a report is reproducible.
+//!
+//! Each draw adds circular complex Gaussian noise of the stated standard
+//! uncertainty to every transducer phasor of every condition and repeats the
+//! whole estimation (in-situ speed of sound, decomposition, estimator). The
+//! spread of the draws is the standard uncertainty of each result; it carries
+//! the nonlinearity and the conditioning of the problem with it.
+//!
+//! The phasor uncertainties come from the records (segment spread, see
+//! [`super::extract`]) or from a spectra file. Where three or more
+//! transducers over-determine the wave fit, the fit residual is used too: the
+//! uncertainties are scaled by √(χ²/ν) when that exceeds 1 (the a posteriori
+//! variance factor of weighted least squares, ν = n − 2 complex degrees of
+//! freedom), and when no uncertainty is known they are taken as √(r²/ν).
+
+use crate::C64;
+
+/// Sample statistics of a complex result over the draws.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Spread {
+    /// Standard deviation of the amplitude |X|.
+    pub amplitude: f64,
+    /// Standard deviation of the phase in rad, about the nominal phase.
+    pub phase_rad: f64,
+}
+
+/// Spread of the draws of a complex quantity about its nominal value
+/// `nominal` (amplitude: about the mean amplitude; phase: about the nominal
+/// phase, wrapped to ±π). `None` with fewer than two draws.
+pub fn complex_spread(nominal: C64, draws: &[C64]) -> Option<Spread> {
+    if draws.len() < 2 {
+        return None;
+    }
+    let n = draws.len() as f64;
+    let amps: Vec<f64> = draws.iter().map(|d| d.norm()).collect();
+    let mean = amps.iter().sum::<f64>() / n;
+    let var_a = amps.iter().map(|a| (a - mean).powi(2)).sum::<f64>() / (n - 1.0);
+    let var_p = draws
+        .iter()
+        .map(|d| (d / nominal).arg().powi(2))
+        .sum::<f64>()
+        / (n - 1.0);
+    Some(Spread {
+        amplitude: var_a.sqrt(),
+        phase_rad: var_p.sqrt(),
+    })
+}
+
+/// Standard deviation of real draws; `None` with fewer than two.
+pub fn real_spread(draws: &[f64]) -> Option<f64> {
+    if draws.len() < 2 {
+        return None;
+    }
+    let n = draws.len() as f64;
+    let mean = draws.iter().sum::<f64>() / n;
+    Some((draws.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::estimate::rng::Rng;
+
+    #[test]
+    fn spread_of_circular_noise_is_half_its_variance_per_component() {
+        // X = 10 + n, E|n|² = 1: the amplitude and the phase (×10) each carry
+        // half the variance, so both standard deviations are 1/√2 (× 1/10 rad).
+        let mut rng = Rng::new(3);
+        let nominal = C64::new(10.0, 0.0);
+        let draws: Vec<C64> = (0..20000).map(|_| nominal + rng.complex_normal()).collect();
+        let s = complex_spread(nominal, &draws).unwrap();
+        assert!(
+            (s.amplitude - std::f64::consts::FRAC_1_SQRT_2).abs() < 0.02,
+            "{}",
+            s.amplitude
+        );
+        assert!(
+            (s.phase_rad - 0.1 * std::f64::consts::FRAC_1_SQRT_2).abs() < 0.002,
+            "{}",
+            s.phase_rad
+        );
+        assert_eq!(real_spread(&[1.0]), None);
+        assert!((real_spread(&[1.0, 3.0]).unwrap() - 2f64.sqrt()).abs() < 1e-15);
+    }
+}
