@@ -7,6 +7,7 @@
 
 mod check;
 mod common;
+mod profile;
 mod solve;
 
 use clap::{Parser, Subcommand};
@@ -28,6 +29,9 @@ enum Command {
     Solve(solve::SolveArgs),
     /// Validate a circuit file without solving and report what it holds.
     Check(check::CheckArgs),
+    /// Ripple amplitude along every tube and hose for one harmonic (the
+    /// standing-wave pattern), as a table, CSV and a plot.
+    Profile(profile::ProfileArgs),
 }
 
 /// Exit code for invalid input or usage.
@@ -50,6 +54,7 @@ pub fn main() -> ExitCode {
     let result = match cli.command {
         Command::Solve(args) => solve::run(args),
         Command::Check(args) => check::run(args),
+        Command::Profile(args) => profile::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -71,6 +71,8 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
         for pump in &mut loaded.circuit.pumps {
             pump.speed_rev_s = rev_s;
         }
+        // mean flows scale with speed (turbulent friction)
+        ripline::meanflow::resolve_line_mean_flows(&mut loaded.circuit);
     }
     let circuit = &loaded.circuit;
     let top_hz = circuit.pumps[0].pumping_frequency_hz() * f64::from(circuit.harmonics);

@@ -42,6 +42,10 @@ dims! {
     Angle => Angle,
     Resistance => Resistance,
     Inertance => Inertance,
+    Ratio => Ratio,
+    Temperature => Temperature,
+    Velocity => Velocity,
+    Time => Time,
 }
 
 /// A quantity of dimension `D`, stored in SI.
