@@ -8,7 +8,7 @@ this script. The code is our own; the formulas are those named in each section
 src/line/turbulence.rs).
 
 Primary computation: mpmath at mp.dps = 30. Cross-checks: independent
-routes through mpmath (mp.findroot, mp.diff, mp.quad) and scipy
+routes through mpmath (mp.diff, a direct volume bookkeeping) and scipy
 (scipy.optimize.brentq, scipy.special.jve), each printing its relative
 disagreement.
 
@@ -166,7 +166,7 @@ def main():
         c = mp.sqrt(b / 861)
         print("(%s, %s, %s),  // methods.md %s / %s" % (fr(p), fr(b / mpf("1.62e9")), fr(c), *mdt[pb]))
     print("// note: methods.md writes p0 = 1.013 bar; with p0 = 1.01325 bar the 3-digit table values are unchanged")
-    print("// cross-check: mp.quad of the compressibility over the gas and liquid volumes at 5 bar")
+    print("// cross-check: direct bookkeeping of the gas and liquid volumes per unit liquid volume at 5 bar")
     p = mpf("5e5")
     x = mpf("0.01") / mpf("0.99") * P_ATM / p
     vg, vl = x, mpf(1)  # per unit liquid volume
