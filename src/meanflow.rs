@@ -215,12 +215,15 @@ pub fn mean_flows(circuit: &Circuit) -> MeanFlows {
         };
     };
     let pressure = |node: usize| index[rep[node]].map_or(0.0, |k| pressures[k]);
+    // Round-off in a branch that carries nothing (a dead leg) is set to zero.
+    let total: f64 = injection.iter().map(|q| q.abs()).sum();
+    let clean = |q: f64| if q.abs() <= 1e-12 * total { 0.0 } else { q };
     let element_flows_m3_s = models
         .iter()
         .map(|m| match *m {
             Dc::Series { a, .. } if trapped_part[part_of[a]] => None,
-            Dc::Series { a, b, r } => Some((pressure(a) - pressure(b)) / r),
-            Dc::ToTank { at, r } => Some(pressure(at) / r),
+            Dc::Series { a, b, r } => Some(clean((pressure(a) - pressure(b)) / r)),
+            Dc::ToTank { at, r } => Some(clean(pressure(at) / r)),
             Dc::Open => Some(0.0),
             Dc::Short { .. } | Dc::Sink { .. } => None,
         })

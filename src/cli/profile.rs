@@ -237,10 +237,8 @@ fn chart(circuit: &ripline::Circuit, profile: &RippleProfile) -> plot::LineChart
         .fold(0.0, f64::max);
     plot::LineChart {
         title: format!(
-            "Ripple along the lines — {}: harmonic {} at {:.1} Hz",
-            circuit.title.as_deref().unwrap_or(&profile.pump),
-            profile.harmonic,
-            profile.freq_hz
+            "Ripple along the lines: harmonic {} ({:.1} Hz)",
+            profile.harmonic, profile.freq_hz
         ),
         x_label: "distance from the pump along the lines (m)".into(),
         y_label: "pressure ripple amplitude, peak (bar)".into(),
