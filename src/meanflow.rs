@@ -247,7 +247,7 @@ pub fn resolve_line_mean_flows(circuit: &mut Circuit) -> MeanFlows {
             if !matches!(old.mean_flow, MeanFlow::Given(_)) {
                 line.properties.mean_flow = q.map_or(MeanFlow::Unknown, MeanFlow::FromPumps);
             }
-            if line.properties != old {
+            if line.properties.mean_flow != old.mean_flow {
                 changed.push((old, line.properties));
             }
         }

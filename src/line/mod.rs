@@ -81,7 +81,13 @@ impl MeanFlow {
 }
 
 /// The properties of a uniform line that its wave propagation depends on.
-#[derive(Debug, Clone, Copy, PartialEq)]
+///
+/// Two values are equal (`==`) when they propagate waves identically: the
+/// mean flow is compared only under [`LineModel::Turbulent`], the one model
+/// it changes. The network evaluates each distinct line once per frequency,
+/// so two equal tubes that carry the same flow by different round-off stay
+/// one line.
+#[derive(Debug, Clone, Copy)]
 pub struct LineProperties {
     /// Bore radius r in m.
     pub radius_m: f64,
@@ -100,6 +106,18 @@ pub struct LineProperties {
     pub viscoelastic_wall: Option<ViscoelasticWall>,
     /// The line's mean flow (used by the turbulent model).
     pub mean_flow: MeanFlow,
+}
+
+impl PartialEq for LineProperties {
+    fn eq(&self, other: &Self) -> bool {
+        self.radius_m == other.radius_m
+            && self.density_kg_m3 == other.density_kg_m3
+            && self.kinematic_viscosity_m2_s == other.kinematic_viscosity_m2_s
+            && self.effective_bulk_modulus_pa == other.effective_bulk_modulus_pa
+            && self.model == other.model
+            && self.viscoelastic_wall == other.viscoelastic_wall
+            && (self.model != LineModel::Turbulent || self.mean_flow == other.mean_flow)
+    }
 }
 
 /// Γ and Zc of a line at one frequency.
@@ -380,6 +398,25 @@ mod tests {
                 assert!((y[i][k] - want[i][k]).norm() < 1e-12 * y[0][0].norm());
             }
         }
+    }
+
+    #[test]
+    fn mean_flow_matters_to_equality_only_for_the_turbulent_model() {
+        let a = LineProperties {
+            mean_flow: MeanFlow::FromPumps(7e-4),
+            ..oil_line(LineModel::Laminar)
+        };
+        let b = LineProperties {
+            mean_flow: MeanFlow::FromPumps(7e-4 * (1.0 + f64::EPSILON)),
+            ..a
+        };
+        assert_eq!(a, b);
+        let turbulent = |p: LineProperties| LineProperties {
+            model: LineModel::Turbulent,
+            ..p
+        };
+        assert_ne!(turbulent(a), turbulent(b));
+        assert_ne!(a, turbulent(a));
     }
 
     #[test]
