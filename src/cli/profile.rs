@@ -30,16 +30,8 @@ pub struct ProfileArgs {
 }
 
 pub fn run(args: ProfileArgs) -> anyhow::Result<()> {
-    let csv_path = args
-        .csv
-        .as_deref()
-        .map(|p| common::check_output("--csv", p, &["csv"]))
-        .transpose()?;
-    let plot_path = args
-        .plot
-        .as_deref()
-        .map(|p| common::check_output("--plot", p, &["svg", "png"]))
-        .transpose()?;
+    let (csv_path, plot_path) =
+        common::csv_and_plot_paths(args.csv.as_deref(), args.plot.as_deref())?;
     if !(1..=200).contains(&args.harmonic) {
         return Err(UsageError(format!(
             "--harmonic must be between 1 and 200, found {}",
@@ -115,10 +107,7 @@ fn print_profile(
 ) -> anyhow::Result<()> {
     let pump = &circuit.pumps[0];
     let mut out = std::io::stdout().lock();
-    writeln!(out, "ripline profile: {source}")?;
-    if let Some(title) = &circuit.title {
-        writeln!(out, "circuit: {title}")?;
-    }
+    common::write_heading(&mut out, "profile", source, circuit)?;
     writeln!(
         out,
         "pump `{}` at node `{}`: harmonic {} at {:.2} Hz ({:.0} rpm × {} pumping elements)",

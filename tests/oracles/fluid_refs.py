@@ -15,7 +15,6 @@ disagreement.
 Run:  python3 tests/oracles/fluid_refs.py
 """
 import sys
-from decimal import Decimal
 
 import mpmath as mp
 import numpy as np
@@ -23,40 +22,15 @@ import scipy
 import scipy.optimize as so
 import scipy.special as sp
 
+# formatting helpers shared with the line oracles (same folder)
+from line_refs import e, fc, fr, header, rel
+
 mp.mp.dps = 30
 mpf = mp.mpf
 J = mp.mpc(0, 1)
 PI = mp.pi
 T0C = mpf("273.15")
 P_ATM = mpf("101325")
-
-
-def fr(x, digits=16):
-    x = mp.mpf(x)
-    if x == 0:
-        return "0.0"
-    d = Decimal(mp.nstr(x, 40, min_fixed=1, max_fixed=0))
-    return format(d, ".%de" % (digits - 1))
-
-
-def fc(z, digits=16):
-    z = mp.mpc(z)
-    return "%s, %s" % (fr(z.real, digits), fr(z.imag, digits))
-
-
-def rel(a, b):
-    return mp.fabs(mp.mpc(a) - mp.mpc(b)) / mp.fabs(mp.mpc(b))
-
-
-def e(x):
-    return mp.nstr(x, 3)
-
-
-def header(title):
-    print()
-    print("// " + "=" * 100)
-    print("// " + title)
-    print("// " + "=" * 100)
 
 
 # ------------------------------------------------------------------ models
