@@ -199,15 +199,21 @@ pub struct OilData {
 }
 
 impl OilData {
-    /// Typical compressibility and expansion data of mineral hydraulic oils
-    /// (recalled from memory; common practice): α_T = 6.5e-4 1/K;
-    /// B_s(40 °C, 0 bar) = 1.62 GPa; β = 0.0055 1/K (1.62 GPa at 40 °C →
-    /// 1.53 GPa at 50 °C, a fall of the speed of sound of about 3.3 m/s per
-    /// K); m = 5.6 (the tangent modulus then rises by 2m − 1 ≈ 10 × p, the
-    /// K1 ≈ 10–11 of methods.md §1.2); γ = 1.15. The viscosity and ρ15 are
-    /// placeholders for [`Grade::typical`] to replace.
+    /// A typical ISO VG 46 mineral hydraulic oil; [`Grade::typical`] replaces
+    /// the viscosity line and ρ15 for the other grades. Its Walther line goes
+    /// through 46 cSt at 40 °C and 6.8 cSt at 100 °C (A, B as computed by
+    /// [`Walther::through`], checked in the tests). Typical compressibility
+    /// and expansion data of mineral hydraulic oils (recalled from memory;
+    /// common practice): α_T = 6.5e-4 1/K; B_s(40 °C, 0 bar) = 1.62 GPa;
+    /// β = 0.0055 1/K (1.62 GPa at 40 °C → 1.53 GPa at 50 °C, a fall of the
+    /// speed of sound of about 3.3 m/s per K); m = 5.6 (the tangent modulus
+    /// then rises by 2m − 1 ≈ 10 × p, the K1 ≈ 10–11 of methods.md §1.2);
+    /// γ = 1.15.
     pub const MINERAL_TYPICAL: OilData = OilData {
-        viscosity: Walther { a: 0.0, b: 0.0 },
+        viscosity: Walther {
+            a: 9.417_992_554_330_885,
+            b: 3.684_441_497_537_861,
+        },
         density_15c_kg_m3: 875.0,
         thermal_expansion_per_k: 6.5e-4,
         bulk_modulus_40c_pa: 1.62e9,
@@ -303,6 +309,14 @@ mod tests {
             let v = g.typical().viscosity_m2_s(celsius(40.0));
             assert!((v - nu).abs() < 1e-12 * nu, "{v}");
         }
+    }
+
+    #[test]
+    fn the_typical_mineral_oil_is_the_vg46_record() {
+        let (a, b) = (OilData::MINERAL_TYPICAL, Grade::Vg46.typical());
+        assert!((a.viscosity.a - b.viscosity.a).abs() < 1e-13);
+        assert!((a.viscosity.b - b.viscosity.b).abs() < 1e-13);
+        assert_eq!(a.density_15c_kg_m3, b.density_15c_kg_m3);
     }
 
     #[test]
