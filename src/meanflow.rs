@@ -240,6 +240,7 @@ pub fn mean_flows(circuit: &Circuit) -> MeanFlows {
 /// line. Returns the solved mean flows.
 pub fn resolve_line_mean_flows(circuit: &mut Circuit) -> MeanFlows {
     let flows = mean_flows(circuit);
+    // (connection, properties before, properties after) of each changed line
     let mut changed = Vec::new();
     for (e, q) in circuit.elements.iter_mut().zip(&flows.element_flows_m3_s) {
         if let Some(line) = e.kind.line_mut() {
@@ -248,13 +249,22 @@ pub fn resolve_line_mean_flows(circuit: &mut Circuit) -> MeanFlows {
                 line.properties.mean_flow = q.map_or(MeanFlow::Unknown, MeanFlow::FromPumps);
             }
             if line.properties.mean_flow != old.mean_flow {
-                changed.push((old, line.properties));
+                changed.push((e.connection, old, line.properties));
             }
         }
     }
     for e in &mut circuit.elements {
-        if let ElementKind::Anechoic(a) = &mut e.kind
-            && let Some((_, new)) = changed.iter().find(|(old, _)| *old == a.line)
+        let (ElementKind::Anechoic(a), Connection::Shunt { at }) = (&mut e.kind, e.connection)
+        else {
+            continue;
+        };
+        // the line it was copied from: equal before, and preferably ending at its node
+        let touches =
+            |c: &Connection| matches!(*c, Connection::Series { a, b } if a == at || b == at);
+        let matching = || changed.iter().filter(|(_, old, _)| *old == a.line);
+        if let Some((_, _, new)) = matching()
+            .find(|(c, _, _)| touches(c))
+            .or_else(|| matching().next())
         {
             a.line = *new;
         }

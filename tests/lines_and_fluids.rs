@@ -771,3 +771,75 @@ fn profile_of_a_closed_lossless_tube_has_its_nodes_where_theory_puts_them() {
         assert!((p.norm() - sol.node_pressures[1].norm()).abs() < 1e-9 * peak);
     }
 }
+
+/// Passivity (energy conservation): the time-averaged power flowing into
+/// every two-port, ½ Re(Pa·Qa* − Pb·Qb*) with flows in the a→b sense at both
+/// ends, is never negative. Checked on the hose example (two hoses, a
+/// turbulent tube, free air) over 0.5 Hz .. 5 kHz.
+#[test]
+fn a_circuit_with_hoses_and_turbulent_friction_is_passive() {
+    let text = std::fs::read_to_string(
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("networks/forestry_crane_hose.yaml"),
+    )
+    .unwrap();
+    let circuit = ripline::io::parse_circuit(&text, "forestry_crane_hose.yaml").unwrap();
+    let tube = circuit.elements[0].kind.line().unwrap().properties;
+    assert!(
+        tube.turbulent_resistance_per_m() > 0.0,
+        "the example's tube is turbulent"
+    );
+    let plan = Plan::compile(&circuit).unwrap();
+    let mut ws = plan.workspace();
+    let mut f = 0.5;
+    while f < 5e3 {
+        let sol = plan
+            .solve(f, &[(circuit.pumps[0].node, C64::new(1e-5, 0.0))], &mut ws)
+            .unwrap();
+        for (e, flows) in circuit.elements.iter().zip(&sol.end_flows) {
+            let (Some((qa, qb)), Connection::Series { a, b }) = (flows, e.connection) else {
+                continue;
+            };
+            let (pa, pb) = (sol.node_pressures[a], sol.node_pressures[b]);
+            let power = 0.5 * (pa * qa.conj() - pb * qb.conj()).re;
+            let scale = 0.5 * (pa.norm() * qa.norm() + pb.norm() * qb.norm());
+            assert!(power >= -1e-9 * scale, "{} at {f} Hz: {power}", e.name);
+        }
+        f *= 1.3;
+    }
+}
+
+/// An anechoic end matches its line's Zc, turbulent correction included: the
+/// mean flow leaves through the end (it stands for a line that continues),
+/// the line's Re = 2Q/(πrν) = 9947 > 2300, and the input impedance seen by an
+/// ideal flow source is Zc at every frequency (methods.md §8 case 6).
+#[test]
+fn an_anechoic_end_matches_a_turbulent_line() {
+    let text = "fluid: {density: 870, bulk_modulus: 1.6 GPa, viscosity: 32 cSt}\n\
+                line_model: turbulent\n\
+                pump: {node: a, speed: 1500 rpm, pumping_elements: 9, displacement: 50 cm3,\n\
+                \x20 flow_ripple: [{harmonic: 1, amplitude: 1 L/min}], source_impedance: {volume: 0}}\n\
+                elements:\n\
+                \x20 - {name: line, kind: tube, from: a, to: b, length: 4 m, bore: 10 mm, rigid: true}\n\
+                \x20 - {name: end, kind: anechoic_end, at: b}\n";
+    let circuit = ripline::io::parse_circuit(text, "t.yaml").unwrap();
+    let line = circuit.elements[0].kind.line().unwrap().properties;
+    let q = line.mean_flow.flow_m3_s().unwrap();
+    assert!(matches!(line.mean_flow, MeanFlow::FromPumps(_)));
+    assert!((q - 50e-6 * 25.0).abs() < 1e-15, "{q}");
+    assert!((line.reynolds_number().unwrap() - 2.0 * 1.25e-3 / (PI * 5e-3 * 32e-6)).abs() < 1e-6);
+    assert!(line.turbulent_resistance_per_m() > 0.0);
+    let ElementKind::Anechoic(end) = &circuit.elements[1].kind else {
+        panic!("element 1 is the anechoic end")
+    };
+    assert_eq!(end.line, line);
+    assert_eq!(end.line.mean_flow, line.mean_flow);
+    let plan = Plan::compile(&circuit).unwrap();
+    let mut ws = plan.workspace();
+    for f in [5.0, 225.0, 2000.0] {
+        let z = plan
+            .solve(f, &[(0, C64::new(1.0, 0.0))], &mut ws)
+            .unwrap()
+            .node_pressures[0];
+        assert!(rel(z, line.propagation(omega(f)).zc) < 1e-9, "{f} Hz");
+    }
+}
