@@ -12,7 +12,7 @@ use ripline::elements::{
     Connection, Element, ElementKind, LoadValve, Tube, Volume, orifice_resistance,
 };
 use ripline::fluid::Fluid;
-use ripline::line::{Line, LineModel, LineProperties};
+use ripline::line::{Line, LineModel, LineProperties, MeanFlow};
 use ripline::network::Plan;
 use ripline::source::{FlowHarmonic, FlowRipple, Pump, SourceImpedance};
 use ripline::wall::{Material, Wall};
@@ -36,6 +36,8 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
                 kinematic_viscosity_m2_s: oil.kinematic_viscosity_m2_s,
                 effective_bulk_modulus_pa: wall.effective_bulk_modulus(oil.bulk_modulus_pa, bore),
                 model: LineModel::Laminar,
+                viscoelastic_wall: None,
+                mean_flow: MeanFlow::Unknown,
             },
             length_m: 3.0,
         },

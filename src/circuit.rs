@@ -20,9 +20,9 @@ pub struct Node {
 pub enum TapLocation {
     /// At a node.
     Node(NodeId),
-    /// Inside a tube, at a distance from its "from" end.
+    /// Inside a tube or hose, at a distance from its "from" end.
     AlongTube {
-        /// Index of the tube in [`Circuit::elements`].
+        /// Index of the tube or hose in [`Circuit::elements`].
         element: usize,
         /// Distance from the tube's "from" end in m (0 ≤ x ≤ l).
         distance_m: f64,

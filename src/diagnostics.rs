@@ -5,6 +5,8 @@
 
 use crate::circuit::Circuit;
 use crate::elements::ElementKind;
+use crate::line::LineModel;
+use crate::line::turbulence::{BLASIUS_MAX_REYNOLDS, TRANSITION_REYNOLDS};
 use crate::network::{ILL_CONDITIONED, Solution};
 use std::fmt;
 
@@ -32,7 +34,8 @@ pub fn plane_wave_limit_hz(wave_speed_m_s: f64, bore_m: f64) -> f64 {
 }
 
 /// Warnings for a circuit solved up to `max_freq_hz`: line ends taken as
-/// closed, and tubes whose plane-wave limit lies below `max_freq_hz`.
+/// closed, lines whose plane-wave limit lies below `max_freq_hz`, and lines
+/// whose mean flow is turbulent ([`mean_flow_warnings`]).
 pub fn circuit_warnings(circuit: &Circuit, max_freq_hz: f64) -> Vec<Warning> {
     let mut out = Vec::new();
     for id in circuit.implicit_closed_ends() {
@@ -42,16 +45,69 @@ pub fn circuit_warnings(circuit: &Circuit, max_freq_hz: f64) -> Vec<Warning> {
         });
     }
     for e in &circuit.elements {
-        if let ElementKind::Tube(t) = &e.kind {
-            let limit = plane_wave_limit_hz(t.line.properties.wave_speed_m_s(), t.bore_m());
+        if let Some(line) = e.kind.line() {
+            let p = &line.properties;
+            let limit = plane_wave_limit_hz(p.wave_speed_m_s(), 2.0 * p.radius_m);
             if max_freq_hz > limit {
                 out.push(Warning {
-                    subject: format!("tube `{}`", e.name),
+                    subject: format!("{} `{}`", e.kind.name(), e.name),
                     message: format!(
                         "frequencies up to {max_freq_hz:.0} Hz exceed its plane-wave limit {limit:.0} Hz (first cut-on, 1.84·c/(πD)): results above it are not valid"
                     ),
                 });
             }
+        }
+    }
+    out.extend(mean_flow_warnings(circuit));
+    out
+}
+
+/// Warnings about mean flow: every tube or hose whose mean flow is turbulent
+/// (Re above [`TRANSITION_REYNOLDS`]), saying whether the linearised
+/// turbulent correction is applied; lines with the turbulent model whose mean
+/// flow is unknown; pumps whose mean flow has no way to tank.
+pub fn mean_flow_warnings(circuit: &Circuit) -> Vec<Warning> {
+    let mut out = Vec::new();
+    let mut any_turbulent_model = false;
+    for e in &circuit.elements {
+        let Some(line) = e.kind.line() else { continue };
+        let p = &line.properties;
+        let subject = format!("{} `{}`", e.kind.name(), e.name);
+        let turbulent_model = p.model == LineModel::Turbulent;
+        any_turbulent_model |= turbulent_model;
+        match (p.mean_flow.flow_m3_s(), p.reynolds_number()) {
+            (Some(q), Some(re)) if re > TRANSITION_REYNOLDS => {
+                let flow = format!("mean flow {:.2} L/min gives Re = {re:.0}", q.abs() * 6e4);
+                let message = if turbulent_model {
+                    let range = if re > BLASIUS_MAX_REYNOLDS {
+                        " (beyond the Blasius range, Re ≤ 1e5: an estimate)"
+                    } else {
+                        ""
+                    };
+                    format!(
+                        "{flow} (turbulent above {TRANSITION_REYNOLDS:.0}): the linearised turbulent friction correction ΔR' = {:.4e} Pa·s/m⁴ is added{range}",
+                        p.turbulent_resistance_per_m()
+                    )
+                } else {
+                    format!(
+                        "{flow} (turbulent above {TRANSITION_REYNOLDS:.0}): the laminar model underestimates its damping; set `line_model: turbulent` (or `model: turbulent` on this line) to add the linearised turbulent correction"
+                    )
+                };
+                out.push(Warning { subject, message });
+            }
+            (None, _) if turbulent_model => out.push(Warning {
+                subject,
+                message: "its mean flow is unknown (no pump displacement, or no path to tank), so no turbulent correction is applied: give the line a `mean_flow`".into(),
+            }),
+            _ => {}
+        }
+    }
+    if any_turbulent_model {
+        for pump in crate::meanflow::mean_flows(circuit).trapped_pumps {
+            out.push(Warning {
+                subject: format!("pump `{pump}`"),
+                message: "its mean flow has no way to a tank, load valve or anechoic end, so the mean flows of its lines are unknown".into(),
+            });
         }
     }
     out

@@ -37,8 +37,11 @@ pub enum Dimension {
     Inertance,
     /// Dimensionless number.
     Ratio,
-    /// Speed (of sound), SI unit m/s.
-    Speed,
+    /// Temperature, SI unit K. Temperature units have an offset (°C, °F),
+    /// see [`Dimension::unit_offset`].
+    Temperature,
+    /// Speed (a wave speed), SI unit m/s.
+    Velocity,
     /// Time, SI unit s.
     Time,
 }
@@ -60,8 +63,21 @@ impl Dimension {
             Dimension::Resistance => "hydraulic resistance",
             Dimension::Inertance => "hydraulic inertance",
             Dimension::Ratio => "ratio",
-            Dimension::Speed => "speed",
+            Dimension::Temperature => "temperature",
+            Dimension::Velocity => "speed",
             Dimension::Time => "time",
+        }
+    }
+
+    /// The offset of an affine unit: value_SI = value × factor + offset.
+    /// Only temperatures have one: °C (K = °C + 273.15) and °F
+    /// (K = (°F + 459.67)·5/9), by definition of the scales (NIST SP 811,
+    /// 2008, §B.9). Zero for every other unit.
+    pub fn unit_offset(self, unit: &str) -> f64 {
+        match (self, unit) {
+            (Dimension::Temperature, "degC" | "°C") => 273.15,
+            (Dimension::Temperature, "degF" | "°F") => 459.67 * 5.0 / 9.0,
+            _ => 0.0,
         }
     }
 
@@ -152,8 +168,21 @@ impl Dimension {
             ],
             Dimension::Inertance => &[("kg/m4", 1.0), ("Pa.s2/m3", 1.0)],
             Dimension::Ratio => &[("", 1.0), ("%", 0.01)],
-            Dimension::Speed => &[("m/s", 1.0), ("km/s", 1e3), ("ft/s", 0.3048)],
-            Dimension::Time => &[("s", 1.0), ("ms", 1e-3), ("min", 60.0)],
+            Dimension::Temperature => &[
+                ("K", 1.0),
+                ("degC", 1.0),
+                ("°C", 1.0),
+                ("degF", 5.0 / 9.0),
+                ("°F", 5.0 / 9.0),
+            ],
+            Dimension::Velocity => &[("m/s", 1.0), ("km/s", 1e3), ("ft/s", 0.3048)],
+            Dimension::Time => &[
+                ("s", 1.0),
+                ("ms", 1e-3),
+                ("us", 1e-6),
+                ("µs", 1e-6),
+                ("min", 60.0),
+            ],
         }
     }
 
@@ -172,7 +201,8 @@ impl Dimension {
             Dimension::Resistance => "Pa·s/m³",
             Dimension::Inertance => "kg/m⁴",
             Dimension::Ratio => "(dimensionless)",
-            Dimension::Speed => "m/s",
+            Dimension::Temperature => "K",
+            Dimension::Velocity => "m/s",
             Dimension::Time => "s",
         }
     }
@@ -276,12 +306,13 @@ pub fn parse_quantity(text: &str, dimension: Dimension) -> Result<f64, UnitError
         example: example(dimension),
     })?;
     let unit = normalise_unit(unit);
-    let factor = dimension
+    let found = dimension
         .units()
         .iter()
         .find(|(u, _)| normalise_unit(u) == unit)
-        .map(|(_, f)| *f)
-        .or_else(|| unit.is_empty().then_some(1.0))
+        .map(|(u, f)| (*f, dimension.unit_offset(u)));
+    let (factor, offset) = found
+        .or_else(|| unit.is_empty().then_some((1.0, 0.0)))
         .ok_or_else(|| UnitError::UnknownUnit {
             unit: unit.clone(),
             dimension: dimension.name(),
@@ -293,7 +324,7 @@ pub fn parse_quantity(text: &str, dimension: Dimension) -> Result<f64, UnitError
                 .collect::<Vec<_>>()
                 .join(", "),
         })?;
-    let si = value * factor;
+    let si = value * factor + offset;
     if !si.is_finite() {
         return Err(UnitError::NotFinite {
             text: text.to_string(),
@@ -390,6 +421,15 @@ mod tests {
             ("1.2e12 Pa s/m3", Dimension::Resistance, 1.2e12),
             ("180 deg", Dimension::Angle, std::f64::consts::PI),
             ("2 kHz", Dimension::Frequency, 2000.0),
+            // temperature scales by definition (NIST SP 811 §B.9)
+            ("50 degC", Dimension::Temperature, 323.15),
+            ("-40 °C", Dimension::Temperature, 233.15),
+            ("212 degF", Dimension::Temperature, 373.15),
+            ("-40 °F", Dimension::Temperature, 233.15),
+            ("300 K", Dimension::Temperature, 300.0),
+            ("1100 m/s", Dimension::Velocity, 1100.0),
+            ("2 ms", Dimension::Time, 2e-3),
+            ("0.5 %", Dimension::Ratio, 5e-3),
         ];
         for (text, dim, want) in cases {
             let got = parse_quantity(text, dim).unwrap();

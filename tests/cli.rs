@@ -291,15 +291,11 @@ const BAD_FILES: &[(&str, &str)] = &[
     ),
     (
         "rigid_with_material.yaml",
-        "a rigid tube takes no `material` or `youngs_modulus`",
+        "a rigid tube takes no `material`, `youngs_modulus`",
     ),
     (
         "material_and_modulus.yaml",
         "give either `material` or `youngs_modulus`, not both",
-    ),
-    (
-        "unknown_line_model.yaml",
-        "line_model: unknown variant `turbulent`",
     ),
     (
         "wrong_dimension_unit.yaml",
@@ -318,16 +314,97 @@ const BAD_FILES: &[(&str, &str)] = &[
         "negative_leakage.yaml",
         "pump.source_impedance.leakage_resistance: must be greater than zero, found -2e12",
     ),
-    ("anechoic_ambiguous.yaml", "several tubes meet at this node"),
+    ("anechoic_ambiguous.yaml", "several lines meet at this node"),
     (
         "shunt_on_isolated_node.yaml",
-        "node `island` is reached by no tube, orifice or inertance",
+        "node `island` is reached by no tube, hose, orifice or inertance",
     ),
     (
         "tab_indentation.yaml",
         "tab_indentation.yaml:49:1: found a tab character",
     ),
     ("utf16.yaml", "not UTF-8 text"),
+    // fluids at an operating point, hoses, thick walls, mean flow
+    (
+        "air_without_pressure.yaml",
+        ":23:3: fluid.air_content: free air compresses with pressure: give the mean `pressure` too",
+    ),
+    (
+        "fluid_without_viscosity.yaml",
+        ":20:1: fluid: the fluid needs `viscosity`",
+    ),
+    (
+        "grade_without_temperature.yaml",
+        "fluid: a `grade` or `viscosity_points` needs the oil `temperature`",
+    ),
+    (
+        "hose_faster_than_oil.yaml",
+        ":72:5: elements[2].wave_speed: a hose wave speed of 1600.0 m/s (loss factor 0.12) is not below the speed of sound in the fluid (1382.1 m/s)",
+    ),
+    (
+        "hose_kelvin_voigt_terms.yaml",
+        ":66:7: elements[1].kelvin_voigt.terms: at most 4 retardation terms, found 5",
+    ),
+    (
+        "hose_two_walls.yaml",
+        ":58:3: elements[1]: give only one description of the hose wall",
+    ),
+    (
+        "hose_without_loss_factor.yaml",
+        "elements[2]: a hose `wave_speed` needs its `loss_factor`",
+    ),
+    (
+        "hose_without_wall.yaml",
+        "elements[1]: a `hose` needs its wall",
+    ),
+    (
+        "mean_flow_absurd.yaml",
+        ":57:5: elements[0].mean_flow: mean flow 20 m³/s is outside -10 .. 10 m³/s",
+    ),
+    (
+        "poisson_ratio_out_of_range.yaml",
+        ":57:5: elements[0].poisson_ratio: Poisson's ratio must be at least 0 and below 0.5, found 0.7",
+    ),
+    (
+        "poisson_ratio_with_material.yaml",
+        "elements[0].poisson_ratio: a `material` brings its own Poisson's ratio",
+    ),
+    (
+        "temperature_without_unit.yaml",
+        ":22:3: fluid.temperature: 60.00 K (-213.15 °C) is outside the range of the oil models",
+    ),
+    (
+        "thick_wall_absurd.yaml",
+        ":55:5: elements[0].wall: wall thickness 80.000 mm is more than 5 times the bore 12.000 mm",
+    ),
+    (
+        "too_much_air.yaml",
+        ":24:3: fluid.air_content: free air content 40 % is outside 0 .. 20 %",
+    ),
+    (
+        "unknown_grade.yaml",
+        ":21:3: fluid.grade: unknown oil grade `VG 150`; use one of: VG 22",
+    ),
+    (
+        "unknown_hose_construction.yaml",
+        ":64:5: elements[1].construction: unknown hose construction `garden`",
+    ),
+    (
+        "unknown_line_model.yaml",
+        ":26:13: line_model: unknown variant `turbulence`",
+    ),
+    (
+        "unknown_temperature_unit.yaml",
+        ":22:16: fluid.temperature: unknown unit `degR` for a temperature",
+    ),
+    (
+        "viscosity_points_count.yaml",
+        "fluid.viscosity_points: give exactly two viscosity points",
+    ),
+    (
+        "wall_key_on_hose.yaml",
+        ":65:5: elements[1].wall: key `wall` does not apply to a `hose`",
+    ),
 ];
 
 #[test]
@@ -442,6 +519,10 @@ fn bad_options_are_usage_errors() {
         vec!["solve", "--plot", "x.jpg"],
         vec!["solve", "--csv", "/no/such/folder/x.csv"],
         vec!["solve", "no_such_file.yaml"],
+        vec!["profile", "--harmonic", "0"],
+        vec!["profile", "--harmonic", "11"],
+        vec!["profile", "--plot", "x.jpg"],
+        vec!["profile", "--csv", "/no/such/folder/x.csv"],
         vec!["frobnicate"],
     ] {
         let o = ripline(&args);
@@ -690,4 +771,171 @@ fn synth_then_fit_round_trip_without_noise() {
     assert!((phase - 150.0).abs() < 1e-4, "{phase}");
     assert_eq!(row[6], "", "no uncertainty without draws");
     std::fs::remove_dir_all(dir).unwrap();
+}
+
+// ---------------------------------------------------------------------------
+// `ripline profile`
+// ---------------------------------------------------------------------------
+
+#[test]
+fn profile_writes_the_csv_and_both_plot_formats() {
+    let dir = scratch("profile");
+    let csv = dir.join("profile.csv");
+    let (svg, png) = (dir.join("profile.svg"), dir.join("profile.png"));
+    let o = ripline(&[
+        "profile",
+        "networks/forestry_crane_hose.yaml",
+        "--harmonic",
+        "2",
+        "--csv",
+        csv.to_str().unwrap(),
+        "--plot",
+        svg.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    assert!(out.contains("harmonic 2 at 540.00 Hz"), "{out}");
+    for line in ["pillar_tube", "boom_hose", "gauge_hose"] {
+        assert!(out.contains(line), "{out}");
+    }
+    assert!(!out.contains("NaN") && !out.contains("inf"));
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(
+        lines.next(),
+        Some("element,position_m,frequency_hz,amplitude_pa,phase_deg")
+    );
+    let rows: Vec<Vec<String>> = lines
+        .map(|l| l.split(',').map(str::to_string).collect())
+        .collect();
+    for (name, length) in [
+        ("pillar_tube", 1.2),
+        ("boom_hose", 2.5),
+        ("gauge_hose", 0.4),
+    ] {
+        let mine: Vec<_> = rows.iter().filter(|r| r[0] == name).collect();
+        assert!(mine.len() >= 51, "{name}: {} rows", mine.len());
+        let x: Vec<f64> = mine.iter().map(|r| r[1].parse().unwrap()).collect();
+        assert_eq!(x[0], 0.0);
+        assert!((x[x.len() - 1] - length).abs() < 1e-12);
+        assert!(x.windows(2).all(|w| w[1] > w[0]));
+        for r in &mine {
+            assert_eq!(r[2].parse::<f64>().unwrap(), 540.0);
+            let a: f64 = r[3].parse().unwrap();
+            assert!(a.is_finite() && a >= 0.0);
+        }
+    }
+    assert!(std::fs::read_to_string(&svg).unwrap().contains("<svg"));
+    let o = ripline(&[
+        "profile",
+        "networks/forestry_crane_hose.yaml",
+        "--plot",
+        png.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(std::fs::read(&png).unwrap().starts_with(b"\x89PNG"));
+    assert_eq!(
+        files_in(&dir),
+        vec!["profile.csv", "profile.png", "profile.svg"],
+        "no temporary file left behind"
+    );
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+/// A lossless tube closed at its far end: P(x) ∝ cos k(L − x), so the
+/// amplitude has nodes at L − x = (2n − 1)λ/4 (Kinsler et al., Fundamentals
+/// of Acoustics, 4th ed., §10.3). Here c = 1350 m/s (B = ρc²), L = 3 m,
+/// f = 675 Hz (λ = 2 m): nodes at 0.5, 1.5 and 2.5 m. The CSV's local minima
+/// must sit there to within one sample.
+#[test]
+fn profile_finds_the_nodes_of_a_closed_lossless_tube() {
+    let dir = scratch("profile-nodes");
+    let file = dir.join("closed.yaml");
+    std::fs::write(
+        &file,
+        "fluid: {density: 870, bulk_modulus: 1585575000, viscosity: 32 cSt}\n\
+         line_model: lossless\n\
+         pump:\n  node: a\n  speed: 4500 rpm\n  pumping_elements: 9\n\
+         \x20 flow_ripple: [{harmonic: 1, amplitude: 1 L/min}]\n\
+         \x20 source_impedance: {volume: 0.1 L}\n\
+         elements:\n\
+         \x20 - {name: line, kind: tube, from: a, to: b, length: 3 m, bore: 10 mm, rigid: true}\n\
+         \x20 - {name: end, kind: closed_end, at: b}\n",
+    )
+    .unwrap();
+    let csv = dir.join("p.csv");
+    let o = ripline(&[
+        "profile",
+        file.to_str().unwrap(),
+        "--csv",
+        csv.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let rows: Vec<(f64, f64)> = std::fs::read_to_string(&csv)
+        .unwrap()
+        .lines()
+        .skip(1)
+        .map(|l| {
+            let f: Vec<&str> = l.split(',').collect();
+            (f[1].parse().unwrap(), f[3].parse().unwrap())
+        })
+        .collect();
+    let step = rows[1].0 - rows[0].0;
+    let minima: Vec<f64> = (1..rows.len() - 1)
+        .filter(|&i| rows[i].1 <= rows[i - 1].1 && rows[i].1 <= rows[i + 1].1)
+        .map(|i| rows[i].0)
+        .collect();
+    assert_eq!(minima.len(), 3, "{minima:?}");
+    for (found, want) in minima.iter().zip([0.5, 1.5, 2.5]) {
+        assert!(
+            (found - want).abs() <= step / 2.0 + 1e-12,
+            "{found} vs {want}"
+        );
+    }
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+#[test]
+fn profile_of_a_missing_harmonic_writes_nothing() {
+    let dir = scratch("profile-bad");
+    let csv = dir.join("p.csv");
+    let o = ripline(&[
+        "profile",
+        "--harmonic",
+        "12",
+        "--csv",
+        csv.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("has no harmonic 12 in its flow ripple table"));
+    assert!(files_in(&dir).is_empty());
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+#[test]
+fn check_reports_the_fluid_at_its_operating_point_and_the_hoses() {
+    let o = ripline(&["check", "networks/forestry_crane_hose.yaml"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    // VG 46 at 60 °C: 20.62 cSt (Walther, methods.md §1.3)
+    assert!(out.contains("viscosity 20.62 cSt"), "{out}");
+    assert!(out.contains("speed of sound"), "{out}");
+    assert!(
+        out.contains("boom_hose (hose, bulkhead → valve_block)"),
+        "{out}"
+    );
+    assert!(out.contains("two_wire_braid wall (typical values"), "{out}");
+    assert!(out.contains("thick-wall (Lamé)"), "{out}");
+    assert!(
+        out.contains("turbulent model, mean flow 32.40 L/min (from the pumps)"),
+        "{out}"
+    );
+    // the turbulent pillar tube is flagged with its Reynolds number
+    let solve = ripline(&["solve", "networks/forestry_crane_hose.yaml"]);
+    assert!(solve.status.success());
+    assert!(
+        stderr(&solve).contains("tube `pillar_tube`: mean flow 32.40 L/min gives Re = 2778"),
+        "{}",
+        stderr(&solve)
+    );
 }

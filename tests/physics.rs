@@ -16,7 +16,7 @@ use ripline::elements::{
 };
 use ripline::fluid::Fluid;
 use ripline::line::viscous::{one_minus_viscous_factor, viscous_factor};
-use ripline::line::{Line, LineModel, LineProperties};
+use ripline::line::{Line, LineModel, LineProperties, MeanFlow};
 use ripline::network::{Plan, SolveError};
 use ripline::source::{FlowHarmonic, FlowRipple, Pump, SourceImpedance};
 use ripline::wall::Wall;
@@ -38,6 +38,8 @@ fn line5(model: LineModel) -> LineProperties {
         kinematic_viscosity_m2_s: NU,
         effective_bulk_modulus_pa: RHO * C0 * C0,
         model,
+        viscoelastic_wall: None,
+        mean_flow: MeanFlow::Unknown,
     }
 }
 
@@ -330,6 +332,8 @@ fn laminar_gamma_and_zc_match_mpmath() {
         kinematic_viscosity_m2_s: 46e-6,
         effective_bulk_modulus_pa: 1.5e9,
         model: LineModel::Laminar,
+        viscoelastic_wall: None,
+        mean_flow: MeanFlow::Unknown,
     };
     let refs = [
         (
@@ -439,6 +443,8 @@ fn korteweg_wave_speed_in_thin_walled_steel_tube() {
             kinematic_viscosity_m2_s: NU,
             effective_bulk_modulus_pa: w.effective_bulk_modulus(b, bore),
             model: LineModel::Lossless,
+            viscoelastic_wall: None,
+            mean_flow: MeanFlow::Unknown,
         };
         assert!(
             (props.wave_speed_m_s() - want).abs() < 1e-9 * want,

@@ -20,7 +20,7 @@ use ripline::elements::{
     Connection, Element, ElementKind, Inertance, LoadValve, Orifice, Tube, Volume,
 };
 use ripline::fluid::Fluid;
-use ripline::line::{Line, LineModel, LineProperties};
+use ripline::line::{Line, LineModel, LineProperties, MeanFlow};
 use ripline::network::Plan;
 use ripline::source::{FlowHarmonic, FlowRipple, Pump, SourceImpedance};
 use ripline::wall::Wall;
@@ -128,6 +128,8 @@ fn random_network(
                                 effective_bulk_modulus_pa: wall
                                     .effective_bulk_modulus(FLUID.bulk_modulus_pa, bore),
                                 model,
+                                viscoelastic_wall: None,
+                                mean_flow: MeanFlow::Unknown,
                             },
                             length_m: length,
                         },

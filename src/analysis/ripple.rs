@@ -10,7 +10,7 @@
 use super::waveform;
 use crate::circuit::{Circuit, Tap, TapLocation};
 use crate::diagnostics::{Warning, conditioning_warning};
-use crate::elements::{Connection, ElementKind};
+use crate::elements::Connection;
 use crate::network::{Plan, Solution, SolveError};
 use num_complex::Complex64 as C64;
 
@@ -104,14 +104,13 @@ pub fn tap_pressure(circuit: &Circuit, solution: &Solution, location: TapLocatio
             distance_m,
         } => {
             let e = &circuit.elements[element];
-            let (ElementKind::Tube(tube), Connection::Series { a, b }) = (&e.kind, e.connection)
-            else {
-                unreachable!("taps along elements are validated to be on tubes");
+            let (Some(line), Connection::Series { a, b }) = (e.kind.line(), e.connection) else {
+                unreachable!("taps along elements are validated to be on tubes or hoses");
             };
-            let (qa, qb) = solution.end_flows[element].expect("a tube is a two-port");
+            let (qa, qb) = solution.end_flows[element].expect("a line is a two-port");
             let omega = 2.0 * std::f64::consts::PI * solution.freq_hz;
-            let prop = tube.propagation(omega);
-            let (p, _) = tube.line.state_at(
+            let prop = line.properties.propagation(omega);
+            let (p, _) = line.state_at(
                 &prop,
                 distance_m,
                 (solution.node_pressures[a], qa),

@@ -4,6 +4,8 @@ use super::common;
 use clap::Args;
 use ripline::circuit::TapLocation;
 use ripline::elements::{Connection, ElementKind};
+use ripline::line::turbulence::TRANSITION_REYNOLDS;
+use ripline::line::{LineProperties, MeanFlow};
 use ripline::network::Plan;
 use ripline::source::SourceImpedance;
 use ripline::wall::Wall;
@@ -97,18 +99,53 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
                         thickness_m,
                         youngs_modulus_pa,
                     } => format!(
-                        "wall {:.2} mm, E = {:.0} GPa",
+                        "wall {:.2} mm, E = {:.0} GPa, thin-wall (Korteweg)",
+                        thickness_m * 1e3,
+                        youngs_modulus_pa / 1e9
+                    ),
+                    Wall::ThickElastic {
+                        thickness_m,
+                        youngs_modulus_pa,
+                        poisson_ratio,
+                    } => format!(
+                        "wall {:.2} mm, E = {:.0} GPa, ν = {poisson_ratio:.2}, thick-wall (Lamé)",
                         thickness_m * 1e3,
                         youngs_modulus_pa / 1e9
                     ),
                 };
                 format!(
-                    "length {:.3} m, bore {:.2} mm, {wall}; wave speed {:.1} m/s, Z0 = {:.4e} Pa·s/m³, {} model",
+                    "length {:.3} m, bore {:.2} mm, {wall}; wave speed {:.1} m/s, Z0 = {:.4e} Pa·s/m³, {} model{}",
                     t.line.length_m,
                     t.bore_m() * 1e3,
                     p.wave_speed_m_s(),
                     p.z0(),
-                    p.model.name()
+                    p.model.name(),
+                    mean_flow_text(p)
+                )
+            }
+            ElementKind::Hose(h) => {
+                let p = &h.line.properties;
+                let wall = match h.construction {
+                    Some(c) => format!(
+                        "{} wall (typical values; a measured value beats them)",
+                        c.name()
+                    ),
+                    None => "viscoelastic wall".to_string(),
+                };
+                let fp = c.pumps.first().map_or(100.0, |p| p.pumping_frequency_hz());
+                let omega = 2.0 * std::f64::consts::PI * fp;
+                let modulus = p.compliance(omega).inv();
+                let prop = p.propagation(omega);
+                format!(
+                    "length {:.3} m, bore {:.2} mm, {wall}; at {fp:.1} Hz: wave speed {:.1} m/s and loss factor {:.3} (wall and fluid), phase speed {:.1} m/s, attenuation {:.3} dB/m; {} model{}",
+                    h.line.length_m,
+                    h.bore_m() * 1e3,
+                    (modulus.re / p.density_kg_m3).sqrt(),
+                    modulus.im / modulus.re,
+                    omega / prop.gamma.im,
+                    20.0 * std::f64::consts::LOG10_E * prop.gamma.re,
+                    p.model.name(),
+                    mean_flow_text(p)
                 )
             }
             ElementKind::Volume(v) => format!(
@@ -156,4 +193,23 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
     writeln!(out, "OK")?;
     out.flush()?;
     Ok(())
+}
+
+/// `, mean flow 42.00 L/min (from the pumps), Re 2473`, or nothing when unknown.
+fn mean_flow_text(p: &LineProperties) -> String {
+    let (q, source) = match p.mean_flow {
+        MeanFlow::Unknown => return String::new(),
+        MeanFlow::Given(q) => (q, "given"),
+        MeanFlow::FromPumps(q) => (q, "from the pumps"),
+    };
+    let re = p.reynolds_number().unwrap_or(0.0);
+    let regime = if re > TRANSITION_REYNOLDS {
+        "turbulent"
+    } else {
+        "laminar"
+    };
+    format!(
+        ", mean flow {:.2} L/min ({source}), Re {re:.0} ({regime})",
+        q * 6e4
+    )
 }

@@ -28,6 +28,21 @@ pub fn load_circuit(file: Option<&Path>) -> anyhow::Result<LoadedCircuit> {
     }
 }
 
+/// The first lines of a command's report: `ripline <command>: <source>` and
+/// the circuit's title, if any.
+pub fn write_heading(
+    out: &mut impl std::io::Write,
+    command: &str,
+    source: &str,
+    circuit: &Circuit,
+) -> std::io::Result<()> {
+    writeln!(out, "ripline {command}: {source}")?;
+    if let Some(title) = &circuit.title {
+        writeln!(out, "circuit: {title}")?;
+    }
+    Ok(())
+}
+
 /// A user error in a command-line value (exit code 2).
 #[derive(Debug, thiserror::Error)]
 #[error("{0}")]
@@ -96,6 +111,21 @@ pub fn check_output(option: &str, path: &Path, extensions: &[&str]) -> anyhow::R
         .into());
     }
     Ok(path.to_path_buf())
+}
+
+/// Checks the usual `--csv FILE` (`.csv`) and `--plot FILE` (`.svg`/`.png`)
+/// outputs before any work.
+pub fn csv_and_plot_paths(
+    csv: Option<&Path>,
+    plot: Option<&Path>,
+) -> anyhow::Result<(Option<PathBuf>, Option<PathBuf>)> {
+    let csv = csv
+        .map(|p| check_output("--csv", p, &["csv"]))
+        .transpose()?;
+    let plot = plot
+        .map(|p| check_output("--plot", p, &["svg", "png"]))
+        .transpose()?;
+    Ok((csv, plot))
 }
 
 /// Stages a CSV table produced by `write`.

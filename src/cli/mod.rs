@@ -8,6 +8,7 @@
 mod check;
 mod common;
 mod fit;
+mod profile;
 mod solve;
 mod synth;
 
@@ -34,6 +35,9 @@ enum Command {
     Fit(fit::FitArgs),
     /// Write synthetic bench records from a known source (for demos and tests).
     Synth(synth::SynthArgs),
+    /// Ripple amplitude along every tube and hose for one harmonic (the
+    /// standing-wave pattern), as a table, CSV and a plot.
+    Profile(profile::ProfileArgs),
 }
 
 /// Exit code for invalid input or usage.
@@ -58,6 +62,7 @@ pub fn main() -> ExitCode {
         Command::Check(args) => check::run(args),
         Command::Fit(args) => fit::run(args),
         Command::Synth(args) => synth::run(args),
+        Command::Profile(args) => profile::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -39,16 +39,8 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
     if p_ref <= 0.0 {
         return Err(UsageError("--db-ref must be a positive pressure".into()).into());
     }
-    let csv_path = args
-        .csv
-        .as_deref()
-        .map(|p| common::check_output("--csv", p, &["csv"]))
-        .transpose()?;
-    let plot_path = args
-        .plot
-        .as_deref()
-        .map(|p| common::check_output("--plot", p, &["svg", "png"]))
-        .transpose()?;
+    let (csv_path, plot_path) =
+        common::csv_and_plot_paths(args.csv.as_deref(), args.plot.as_deref())?;
     let mut loaded = common::load_circuit(args.file.as_deref())?;
     let circuit = &mut loaded.circuit;
     if let Some(n) = args.harmonics {
@@ -71,6 +63,8 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
         for pump in &mut loaded.circuit.pumps {
             pump.speed_rev_s = rev_s;
         }
+        // mean flows scale with speed (turbulent friction)
+        ripline::meanflow::resolve_line_mean_flows(&mut loaded.circuit);
     }
     let circuit = &loaded.circuit;
     let top_hz = circuit.pumps[0].pumping_frequency_hz() * f64::from(circuit.harmonics);
@@ -128,10 +122,7 @@ fn print_report(
 ) -> anyhow::Result<()> {
     let pump = &circuit.pumps[0];
     let mut out = std::io::stdout().lock();
-    writeln!(out, "ripline solve: {source}")?;
-    if let Some(title) = &circuit.title {
-        writeln!(out, "circuit: {title}")?;
-    }
+    common::write_heading(&mut out, "solve", source, circuit)?;
     writeln!(
         out,
         "pump `{}` at node `{}`: {:.0} rpm × {} pumping elements = pumping frequency {:.2} Hz",

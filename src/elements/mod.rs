@@ -14,14 +14,16 @@
 //! (`io::circuit_file`) to build it.
 
 mod ends;
+mod hose;
 mod lumped;
 mod tube;
 
 pub use ends::Anechoic;
+pub use hose::Hose;
 pub use lumped::{Inertance, LoadValve, Orifice, Volume, orifice_resistance};
-pub use tube::Tube;
+pub use tube::{Tube, line_behaviour};
 
-use crate::line::{Admittance2, LineProperties, Propagation, Transfer2};
+use crate::line::{Admittance2, Line, LineProperties, Propagation, Transfer2};
 use num_complex::Complex64 as C64;
 
 /// Index of a node in a circuit's node list.
@@ -94,6 +96,8 @@ pub enum ElementKind {
     ClosedEnd,
     /// An open end to a constant-pressure reservoir: zero ripple.
     Tank,
+    /// A hose (distributed line with a viscoelastic wall).
+    Hose(Hose),
 }
 
 impl ElementKind {
@@ -108,6 +112,26 @@ impl ElementKind {
             ElementKind::Anechoic(_) => "anechoic_end",
             ElementKind::ClosedEnd => "closed_end",
             ElementKind::Tank => "tank",
+            ElementKind::Hose(_) => "hose",
+        }
+    }
+
+    /// The distributed line of a tube or a hose (what taps and profiles run
+    /// along), `None` for every other kind.
+    pub fn line(&self) -> Option<&Line> {
+        match self {
+            ElementKind::Tube(t) => Some(&t.line),
+            ElementKind::Hose(h) => Some(&h.line),
+            _ => None,
+        }
+    }
+
+    /// The distributed line of a tube or a hose, for changing it.
+    pub fn line_mut(&mut self) -> Option<&mut Line> {
+        match self {
+            ElementKind::Tube(t) => Some(&mut t.line),
+            ElementKind::Hose(h) => Some(&mut h.line),
+            _ => None,
         }
     }
 
@@ -115,9 +139,11 @@ impl ElementKind {
     pub fn connection_kind(&self) -> ConnectionKind {
         match self {
             ElementKind::Tube(t) if t.needs_branch_flows() => ConnectionKind::TransferTwoPort,
-            ElementKind::Tube(_) | ElementKind::Orifice(_) | ElementKind::Inertance(_) => {
-                ConnectionKind::AdmittanceTwoPort
-            }
+            ElementKind::Hose(h) if h.needs_branch_flows() => ConnectionKind::TransferTwoPort,
+            ElementKind::Tube(_)
+            | ElementKind::Hose(_)
+            | ElementKind::Orifice(_)
+            | ElementKind::Inertance(_) => ConnectionKind::AdmittanceTwoPort,
             ElementKind::Volume(_) | ElementKind::LoadValve(_) | ElementKind::Anechoic(_) => {
                 ConnectionKind::Shunt
             }
@@ -133,6 +159,7 @@ impl ElementKind {
     pub fn line_properties(&self) -> Option<&LineProperties> {
         match self {
             ElementKind::Tube(t) => Some(&t.line.properties),
+            ElementKind::Hose(h) => Some(&h.line.properties),
             ElementKind::Anechoic(a) => Some(&a.line),
             _ => None,
         }
@@ -153,6 +180,7 @@ impl ElementKind {
         let line = || prop.expect("the caller evaluates the element's line");
         match self {
             ElementKind::Tube(t) => t.behaviour(line()),
+            ElementKind::Hose(h) => h.behaviour(line()),
             ElementKind::Volume(v) => Behaviour::Shunt(v.admittance(omega)),
             ElementKind::Orifice(o) => series_admittance(C64::new(o.resistance_pa_s_m3, 0.0)),
             ElementKind::Inertance(i) => series_admittance(i.impedance(omega)),

@@ -1,7 +1,8 @@
-//! A uniform tube between two nodes.
+//! A uniform tube between two nodes, and the two-port behaviour every
+//! distributed line (tube or hose) shares.
 
 use super::Behaviour;
-use crate::line::{Line, LineModel, Propagation};
+use crate::line::{Line, Propagation};
 use crate::wall::Wall;
 
 /// A uniform tube: a distributed line between its "from" node (x = 0) and its
@@ -23,7 +24,7 @@ impl Tube {
     /// Lossless lines have no bounded admittance at their half-wave
     /// resonances, so the network gives them branch-flow unknowns.
     pub fn needs_branch_flows(&self) -> bool {
-        self.line.properties.model == LineModel::Lossless
+        self.line.properties.is_lossless()
     }
 
     /// Γ and Zc at ω.
@@ -35,14 +36,21 @@ impl Tube {
     /// stable admittance form for lossy lines, the transfer matrix for
     /// lossless ones.
     pub fn behaviour(&self, prop: &Propagation) -> Behaviour {
-        if self.needs_branch_flows() {
-            return Behaviour::Transfer(self.line.transfer(prop));
-        }
-        match self.line.admittance(prop) {
-            Some(y) => Behaviour::Admittance(y),
-            // Only for Γl = 0 exactly, which a lossy line never has at ω > 0;
-            // the network reports it as a singular frequency.
-            None => Behaviour::Nothing,
-        }
+        line_behaviour(&self.line, prop)
+    }
+}
+
+/// The two-port of a distributed line given its Γ and Zc at the frequency:
+/// the stable admittance form for lossy lines, the transfer matrix (with
+/// branch-flow unknowns) for lossless ones.
+pub fn line_behaviour(line: &Line, prop: &Propagation) -> Behaviour {
+    if line.properties.is_lossless() {
+        return Behaviour::Transfer(line.transfer(prop));
+    }
+    match line.admittance(prop) {
+        Some(y) => Behaviour::Admittance(y),
+        // Only for Γl = 0 exactly, which a lossy line never has at ω > 0;
+        // the network reports it as a singular frequency.
+        None => Behaviour::Nothing,
     }
 }

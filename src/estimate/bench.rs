@@ -263,6 +263,8 @@ impl Bench {
             kinematic_viscosity_m2_s: self.fluid.kinematic_viscosity_m2_s,
             effective_bulk_modulus_pa: self.fluid.density_kg_m3 * c0_m_s * c0_m_s,
             model: self.line.model,
+            viscoelastic_wall: None,
+            mean_flow: crate::line::MeanFlow::Unknown,
         }
     }
 

@@ -342,7 +342,7 @@ impl Checker<'_> {
                 let sp = root.key("speed_of_sound");
                 let v = match s {
                     RawSpeed::Number(v) => *v,
-                    RawSpeed::Text(t) => parse_quantity(t, Dimension::Speed).map_err(|e| {
+                    RawSpeed::Text(t) => parse_quantity(t, Dimension::Velocity).map_err(|e| {
                         self.err(&sp, format!("{e}; or write `in_situ` or `from_fluid`"))
                     })?,
                 };

@@ -12,13 +12,18 @@ use super::locate::KeyPath;
 use super::quantity::{self as q, Q};
 use crate::circuit::{Circuit, Node, Tap, TapLocation};
 use crate::elements::{
-    Anechoic, Connection, Element, ElementKind, Inertance, LoadValve, Orifice, Tube, Volume,
+    Anechoic, Connection, Element, ElementKind, Hose, Inertance, LoadValve, Orifice, Tube, Volume,
 };
 use crate::fluid::Fluid;
-use crate::line::{Line, LineModel, LineProperties};
+use crate::hose::{
+    HoseConstruction, MAX_RETARDATION_TERMS, RetardationTerm, TYPICAL_REFERENCE_FREQUENCY_HZ,
+    ViscoelasticWall,
+};
+use crate::line::{Line, LineModel, LineProperties, MeanFlow};
+use crate::oil::{self, Grade, OilData, Walther};
 use crate::source::{FlowHarmonic, FlowRipple, Pump, SourceImpedance};
 use crate::units::format_sig;
-use crate::wall::{Material, Wall};
+use crate::wall::{DEFAULT_POISSON_RATIO, Material, Wall};
 use serde::Deserialize;
 use std::collections::HashSet;
 use std::path::Path;
@@ -46,11 +51,26 @@ struct RawCircuit {
 #[derive(Debug, Deserialize)]
 #[serde(
     deny_unknown_fields,
-    expecting = "a fluid section: a mapping with density, bulk_modulus and viscosity"
+    expecting = "a fluid section: a mapping with density, bulk_modulus and viscosity, or a grade with temperature"
 )]
 struct RawFluid {
-    density: Q<q::Density>,
-    bulk_modulus: Q<q::Modulus>,
+    grade: Option<String>,
+    temperature: Option<Q<q::Temperature>>,
+    pressure: Option<Q<q::Pressure>>,
+    air_content: Option<Q<q::Ratio>>,
+    viscosity_points: Option<Vec<RawViscosityPoint>>,
+    density: Option<Q<q::Density>>,
+    bulk_modulus: Option<Q<q::Modulus>>,
+    viscosity: Option<Q<q::KinematicViscosity>>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a viscosity point: a mapping with temperature and viscosity"
+)]
+struct RawViscosityPoint {
+    temperature: Q<q::Temperature>,
     viscosity: Q<q::KinematicViscosity>,
 }
 
@@ -59,6 +79,7 @@ struct RawFluid {
 enum RawLineModel {
     Lossless,
     Laminar,
+    Turbulent,
 }
 
 impl From<RawLineModel> for LineModel {
@@ -66,8 +87,37 @@ impl From<RawLineModel> for LineModel {
         match m {
             RawLineModel::Lossless => LineModel::Lossless,
             RawLineModel::Laminar => LineModel::Laminar,
+            RawLineModel::Turbulent => LineModel::Turbulent,
         }
     }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+enum RawWallModel {
+    Thin,
+    Thick,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a Kelvin–Voigt wall: a mapping with instantaneous_modulus and terms"
+)]
+struct RawKelvinVoigt {
+    instantaneous_modulus: Q<q::Modulus>,
+    #[serde(default)]
+    terms: Vec<RawRetardation>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a retardation term: a mapping with modulus and time"
+)]
+struct RawRetardation {
+    modulus: Q<q::Modulus>,
+    time: Q<q::Time>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -120,6 +170,7 @@ enum RawKind {
     AnechoicEnd,
     ClosedEnd,
     Tank,
+    Hose,
 }
 
 #[derive(Debug, Deserialize)]
@@ -146,6 +197,13 @@ struct RawElement {
     pressure_drop: Option<Q<q::Pressure>>,
     inertance: Option<Q<q::Inertance>>,
     line: Option<String>,
+    wall_model: Option<RawWallModel>,
+    poisson_ratio: Option<Q<q::Ratio>>,
+    construction: Option<String>,
+    wave_speed: Option<Q<q::Velocity>>,
+    loss_factor: Option<Q<q::Ratio>>,
+    reference_frequency: Option<Q<q::Frequency>>,
+    kelvin_voigt: Option<RawKelvinVoigt>,
 }
 
 impl RawElement {
@@ -173,6 +231,13 @@ impl RawElement {
         add("pressure_drop", self.pressure_drop.is_some());
         add("inertance", self.inertance.is_some());
         add("line", self.line.is_some());
+        add("wall_model", self.wall_model.is_some());
+        add("poisson_ratio", self.poisson_ratio.is_some());
+        add("construction", self.construction.is_some());
+        add("wave_speed", self.wave_speed.is_some());
+        add("loss_factor", self.loss_factor.is_some());
+        add("reference_frequency", self.reference_frequency.is_some());
+        add("kelvin_voigt", self.kelvin_voigt.is_some());
         keys
     }
 }
@@ -188,6 +253,7 @@ impl RawKind {
             RawKind::AnechoicEnd => "anechoic_end",
             RawKind::ClosedEnd => "closed_end",
             RawKind::Tank => "tank",
+            RawKind::Hose => "hose",
         }
     }
 
@@ -204,6 +270,22 @@ impl RawKind {
                 "youngs_modulus",
                 "rigid",
                 "model",
+                "wall_model",
+                "poisson_ratio",
+                "mean_flow",
+            ],
+            RawKind::Hose => &[
+                "from",
+                "to",
+                "length",
+                "bore",
+                "model",
+                "construction",
+                "wave_speed",
+                "loss_factor",
+                "reference_frequency",
+                "kelvin_voigt",
+                "mean_flow",
             ],
             RawKind::Volume => &["at", "volume"],
             RawKind::Orifice => &["from", "to", "resistance", "mean_flow", "pressure_drop"],
@@ -215,7 +297,10 @@ impl RawKind {
     }
 
     fn is_two_port(self) -> bool {
-        matches!(self, RawKind::Tube | RawKind::Orifice | RawKind::Inertance)
+        matches!(
+            self,
+            RawKind::Tube | RawKind::Hose | RawKind::Orifice | RawKind::Inertance
+        )
     }
 }
 
@@ -365,6 +450,7 @@ impl Checker<'_> {
             let path = root.key("elements").index(i);
             kinds.push(match e.kind {
                 RawKind::Tube => Some(ElementKind::Tube(self.tube(&path, e, &fluid, line_model)?)),
+                RawKind::Hose => Some(ElementKind::Hose(self.hose(&path, e, &fluid, line_model)?)),
                 RawKind::Volume => Some(ElementKind::Volume(Volume {
                     volume_m3: self.in_range(
                         &path.key("volume"),
@@ -439,6 +525,7 @@ impl Checker<'_> {
             let tap = self.tap(&path, t, &circuit)?;
             circuit.taps.push(tap);
         }
+        crate::meanflow::resolve_line_mean_flows(&mut circuit);
         crate::network::Plan::compile(&circuit).map_err(|e| {
             let path = match &e {
                 crate::network::NetworkError::Disconnected { element } => circuit
@@ -452,30 +539,173 @@ impl Checker<'_> {
         Ok(circuit)
     }
 
+    /// The fluid at its operating point: explicit values, or values from a
+    /// grade (or viscosity points) at a temperature and mean pressure, with
+    /// free air applied on top (see [`crate::oil`]).
     fn fluid(&self, path: &KeyPath, raw: &RawFluid) -> Res<Fluid> {
+        let grade = match &raw.grade {
+            Some(text) => {
+                Some(Grade::parse(text).map_err(|e| self.err(&path.key("grade"), e.to_string()))?)
+            }
+            None => None,
+        };
+        let temperature = match raw.temperature {
+            Some(t) => {
+                let (lo, hi) = (oil::celsius(-40.0), oil::celsius(150.0));
+                if !(lo..=hi).contains(&t.si) {
+                    return Err(self.err(
+                        &path.key("temperature"),
+                        format!(
+                            "{:.2} K ({:.2} °C) is outside the range of the oil models, -40 .. 150 °C: check the unit (a bare number is in K; write e.g. `50 degC`)",
+                            t.si,
+                            t.si - oil::ZERO_CELSIUS_K
+                        ),
+                    ));
+                }
+                Some(t.si)
+            }
+            None => None,
+        };
+        let gauge = match raw.pressure {
+            Some(p) => {
+                if !(-0.9e5..=1e8).contains(&p.si) {
+                    return Err(self.err(
+                        &path.key("pressure"),
+                        format!(
+                            "mean pressure {:.3} bar (gauge) is outside -0.9 .. 1000 bar: check the unit (a bare number is Pa)",
+                            p.si / 1e5
+                        ),
+                    ));
+                }
+                Some(p.si)
+            }
+            None => None,
+        };
+        let air = match raw.air_content {
+            Some(a) => {
+                if !(0.0..=0.2).contains(&a.si) {
+                    return Err(self.err(
+                        &path.key("air_content"),
+                        format!(
+                            "free air content {} % is outside 0 .. 20 % (a bare number is a fraction: 0.01 = 1 %)",
+                            a.si * 100.0
+                        ),
+                    ));
+                }
+                if gauge.is_none() && a.si > 0.0 {
+                    return Err(self.err(
+                        &path.key("air_content"),
+                        "free air compresses with pressure: give the mean `pressure` too",
+                    ));
+                }
+                a.si
+            }
+            None => 0.0,
+        };
+        let points = match &raw.viscosity_points {
+            Some(points) => Some(self.viscosity_points(&path.key("viscosity_points"), points)?),
+            None => None,
+        };
+        let mut data: Option<OilData> = grade.map(Grade::typical);
+        if let (Some(d), Some(w)) = (data.as_mut(), points) {
+            d.viscosity = w;
+        }
+        // Derived values need the temperature.
+        let needs_temperature = (data.is_some()
+            && (raw.density.is_none() || raw.bulk_modulus.is_none() || raw.viscosity.is_none()))
+            || (points.is_some() && raw.viscosity.is_none());
+        let temperature = match (temperature, needs_temperature) {
+            (Some(t), _) => Some(t),
+            (None, false) => None,
+            (None, true) => {
+                return Err(self.err(
+                    path,
+                    "a `grade` or `viscosity_points` needs the oil `temperature` (e.g. `temperature: 50 degC`)",
+                ));
+            }
+        };
+        let p = gauge.unwrap_or(0.0);
+        let missing = |key: &str| {
+            self.err(
+                path,
+                format!(
+                    "the fluid needs `{key}`: give it, or give a `grade` (ISO VG 22/32/46/68/100) with `temperature`"
+                ),
+            )
+        };
+        let density = match (raw.density, &data, temperature) {
+            (Some(d), _, _) => self.in_range(&path.key("density"), d.si, 100.0, 3000.0, "kg/m³")?,
+            (None, Some(d), Some(t)) => d.density_kg_m3(t, p),
+            _ => return Err(missing("density")),
+        };
+        let liquid_modulus = match (raw.bulk_modulus, &data, temperature) {
+            (Some(b), _, _) => self.in_range(&path.key("bulk_modulus"), b.si, 1e6, 1e11, "Pa")?,
+            (None, Some(d), Some(t)) => d.bulk_modulus_pa(t, p),
+            _ => return Err(missing("bulk_modulus")),
+        };
+        let walther = points.or(data.map(|d| d.viscosity));
+        let viscosity = match (raw.viscosity, walther, temperature) {
+            (Some(v), _, _) => self.in_range(&path.key("viscosity"), v.si, 1e-8, 1e-1, "m²/s")?,
+            (None, Some(w), Some(t)) => {
+                let v = w.viscosity_m2_s(t);
+                if !(1e-7..=1e-1).contains(&v) {
+                    return Err(self.err(
+                        &path.key("temperature"),
+                        format!(
+                            "the oil's viscosity at this temperature, {:.3} cSt, is outside the range of the models, 0.1 .. 100000 cSt",
+                            v * 1e6
+                        ),
+                    ));
+                }
+                v
+            }
+            _ => return Err(missing("viscosity")),
+        };
+        let absolute = p + oil::ATMOSPHERIC_PA;
+        let air_now = oil::air_fraction(air, absolute);
         Ok(Fluid {
-            density_kg_m3: self.in_range(
-                &path.key("density"),
-                raw.density.si,
-                100.0,
-                3000.0,
-                "kg/m³",
-            )?,
-            bulk_modulus_pa: self.in_range(
-                &path.key("bulk_modulus"),
-                raw.bulk_modulus.si,
-                1e6,
-                1e11,
-                "Pa",
-            )?,
-            kinematic_viscosity_m2_s: self.in_range(
-                &path.key("viscosity"),
-                raw.viscosity.si,
-                1e-8,
+            density_kg_m3: density * (1.0 - air_now),
+            bulk_modulus_pa: oil::bulk_modulus_with_air(
+                liquid_modulus,
+                air,
+                absolute,
+                oil::AIR_ADIABATIC_INDEX,
+            ),
+            kinematic_viscosity_m2_s: viscosity,
+        })
+    }
+
+    /// Two (temperature, viscosity) points → the Walther line.
+    fn viscosity_points(&self, path: &KeyPath, points: &[RawViscosityPoint]) -> Res<Walther> {
+        let [a, b] = points else {
+            return Err(self.err(
+                path,
+                format!(
+                    "give exactly two viscosity points (e.g. at 40 and 100 °C), found {}",
+                    points.len()
+                ),
+            ));
+        };
+        for (i, pt) in points.iter().enumerate() {
+            self.in_range(
+                &path.index(i).key("viscosity"),
+                pt.viscosity.si,
+                1e-7,
                 1e-1,
                 "m²/s",
-            )?,
-        })
+            )?;
+            if pt.temperature.si <= 0.0 {
+                return Err(self.err(
+                    &path.index(i).key("temperature"),
+                    "must be above absolute zero: check the unit (a bare number is in K)",
+                ));
+            }
+        }
+        Walther::through(
+            (a.temperature.si, a.viscosity.si),
+            (b.temperature.si, b.viscosity.si),
+        )
+        .map_err(|e| self.err(path, e.to_string()))
     }
 
     fn node_name<'r>(
@@ -517,7 +747,8 @@ impl Checker<'_> {
         })
     }
 
-    fn tube(&self, path: &KeyPath, e: &RawElement, fluid: &Fluid, default: LineModel) -> Res<Tube> {
+    /// Length and bore of a tube or hose.
+    fn line_geometry(&self, path: &KeyPath, e: &RawElement) -> Res<(f64, f64)> {
         let length = self.in_range(
             &path.key("length"),
             self.required(path, "length", e.length, e.kind)?,
@@ -532,13 +763,36 @@ impl Checker<'_> {
             1.0,
             "m",
         )?;
+        Ok((length, bore))
+    }
+
+    /// A line's own `mean_flow`, if given (a→b positive).
+    fn given_mean_flow(&self, path: &KeyPath, e: &RawElement) -> Res<MeanFlow> {
+        match e.mean_flow {
+            None => Ok(MeanFlow::Unknown),
+            Some(q) if q.si.abs() <= 10.0 => Ok(MeanFlow::Given(q.si)),
+            Some(q) => Err(self.err(
+                &path.key("mean_flow"),
+                format!(
+                    "mean flow {} m³/s is outside -10 .. 10 m³/s: check the unit (a bare number is m³/s)",
+                    q.si
+                ),
+            )),
+        }
+    }
+
+    fn tube(&self, path: &KeyPath, e: &RawElement, fluid: &Fluid, default: LineModel) -> Res<Tube> {
+        let (length, bore) = self.line_geometry(path, e)?;
         let wall = match (e.rigid, e.wall) {
             (Some(true), Some(_)) | (Some(true), None)
-                if e.material.is_some() || e.youngs_modulus.is_some() =>
+                if e.material.is_some()
+                    || e.youngs_modulus.is_some()
+                    || e.poisson_ratio.is_some()
+                    || e.wall_model.is_some() =>
             {
                 return Err(self.err(
                     &path.key("rigid"),
-                    "a rigid tube takes no `material` or `youngs_modulus`",
+                    "a rigid tube takes no `material`, `youngs_modulus`, `poisson_ratio` or `wall_model`",
                 ));
             }
             (Some(true), _) => Wall::Rigid,
@@ -548,51 +802,7 @@ impl Checker<'_> {
                     "a `tube` needs its wall: give `wall` (thickness) with `material` or `youngs_modulus`, or say `rigid: true`",
                 ));
             }
-            (_, Some(w)) => {
-                let thickness = self.in_range(&path.key("wall"), w.si, 1e-5, 0.5, "m")?;
-                if thickness >= bore / 2.0 {
-                    return Err(self.err(
-                        &path.key("wall"),
-                        format!(
-                            "wall thickness {:.3} mm is not less than the bore radius {:.3} mm: the thin-wall (Korteweg) model does not hold; check the values",
-                            thickness * 1e3,
-                            bore * 5e2
-                        ),
-                    ));
-                }
-                let modulus = match (&e.material, e.youngs_modulus) {
-                    (Some(_), Some(_)) => {
-                        return Err(self.err(
-                            &path.key("youngs_modulus"),
-                            "give either `material` or `youngs_modulus`, not both",
-                        ));
-                    }
-                    (Some(m), None) => Material::from_name(m)
-                        .ok_or_else(|| {
-                            self.err(
-                                &path.key("material"),
-                                format!(
-                                    "unknown material `{m}`; use one of: {} (or give `youngs_modulus`)",
-                                    Material::ALL.map(|m| m.name()).join(", ")
-                                ),
-                            )
-                        })?
-                        .youngs_modulus_pa(),
-                    (None, Some(ey)) => {
-                        self.in_range(&path.key("youngs_modulus"), ey.si, 1e6, 1e12, "Pa")?
-                    }
-                    (None, None) => {
-                        return Err(self.err(
-                            &path.key("wall"),
-                            "a tube wall needs `material` or `youngs_modulus`",
-                        ));
-                    }
-                };
-                Wall::Elastic {
-                    thickness_m: thickness,
-                    youngs_modulus_pa: modulus,
-                }
-            }
+            (_, Some(w)) => self.elastic_wall(path, e, w.si, bore)?,
         };
         let properties = LineProperties {
             radius_m: bore / 2.0,
@@ -600,6 +810,8 @@ impl Checker<'_> {
             kinematic_viscosity_m2_s: fluid.kinematic_viscosity_m2_s,
             effective_bulk_modulus_pa: wall.effective_bulk_modulus(fluid.bulk_modulus_pa, bore),
             model: e.model.map_or(default, LineModel::from),
+            viscoelastic_wall: None,
+            mean_flow: self.given_mean_flow(path, e)?,
         };
         Ok(Tube {
             line: Line {
@@ -607,6 +819,223 @@ impl Checker<'_> {
                 length_m: length,
             },
             wall,
+        })
+    }
+
+    /// An elastic tube wall: thick (Lamé, the default) or thin (Korteweg).
+    fn elastic_wall(&self, path: &KeyPath, e: &RawElement, thickness: f64, bore: f64) -> Res<Wall> {
+        let thickness = self.in_range(&path.key("wall"), thickness, 1e-5, 0.5, "m")?;
+        let thick = e.wall_model.unwrap_or(RawWallModel::Thick) == RawWallModel::Thick;
+        if !thick && thickness >= bore / 2.0 {
+            return Err(self.err(
+                &path.key("wall"),
+                format!(
+                    "wall thickness {:.3} mm is not less than the bore radius {:.3} mm: the thin-wall (Korteweg) model does not hold; use `wall_model: thick` (Lamé) or check the values",
+                    thickness * 1e3,
+                    bore * 5e2
+                ),
+            ));
+        }
+        if thick && thickness > 5.0 * bore {
+            return Err(self.err(
+                &path.key("wall"),
+                format!(
+                    "wall thickness {:.3} mm is more than 5 times the bore {:.3} mm: check the values (a passage in a solid block is better modelled with `rigid: true`)",
+                    thickness * 1e3,
+                    bore * 1e3
+                ),
+            ));
+        }
+        let (modulus, poisson) = match (&e.material, e.youngs_modulus) {
+            (Some(_), Some(_)) => {
+                return Err(self.err(
+                    &path.key("youngs_modulus"),
+                    "give either `material` or `youngs_modulus`, not both",
+                ));
+            }
+            (Some(m), None) => {
+                let material = Material::from_name(m).ok_or_else(|| {
+                    self.err(
+                        &path.key("material"),
+                        format!(
+                            "unknown material `{m}`; use one of: {} (or give `youngs_modulus`)",
+                            Material::ALL.map(|m| m.name()).join(", ")
+                        ),
+                    )
+                })?;
+                if e.poisson_ratio.is_some() {
+                    return Err(self.err(
+                        &path.key("poisson_ratio"),
+                        "a `material` brings its own Poisson's ratio: give `poisson_ratio` only with `youngs_modulus`",
+                    ));
+                }
+                (material.youngs_modulus_pa(), material.poisson_ratio())
+            }
+            (None, Some(ey)) => {
+                let ey = self.in_range(&path.key("youngs_modulus"), ey.si, 1e6, 1e12, "Pa")?;
+                let nu = match e.poisson_ratio {
+                    Some(nu) if (0.0..0.5).contains(&nu.si) => nu.si,
+                    Some(nu) => {
+                        return Err(self.err(
+                            &path.key("poisson_ratio"),
+                            format!(
+                                "Poisson's ratio must be at least 0 and below 0.5, found {}",
+                                nu.si
+                            ),
+                        ));
+                    }
+                    None => DEFAULT_POISSON_RATIO,
+                };
+                (ey, nu)
+            }
+            (None, None) => {
+                return Err(self.err(
+                    &path.key("wall"),
+                    "a tube wall needs `material` or `youngs_modulus`",
+                ));
+            }
+        };
+        if thick {
+            Ok(Wall::ThickElastic {
+                thickness_m: thickness,
+                youngs_modulus_pa: modulus,
+                poisson_ratio: poisson,
+            })
+        } else if e.poisson_ratio.is_some() {
+            Err(self.err(
+                &path.key("poisson_ratio"),
+                "the thin-wall model does not use Poisson's ratio: drop it, or use `wall_model: thick`",
+            ))
+        } else {
+            Ok(Wall::Elastic {
+                thickness_m: thickness,
+                youngs_modulus_pa: modulus,
+            })
+        }
+    }
+
+    fn hose(&self, path: &KeyPath, e: &RawElement, fluid: &Fluid, default: LineModel) -> Res<Hose> {
+        let (length, bore) = self.line_geometry(path, e)?;
+        let given = [
+            e.construction.is_some(),
+            e.wave_speed.is_some(),
+            e.kelvin_voigt.is_some(),
+        ];
+        let ways = "`construction` (one of: textile_braid, one_wire_braid, two_wire_braid, spiral), or `wave_speed` with `loss_factor` (at `reference_frequency`, default 200 Hz), or `kelvin_voigt`";
+        match given.iter().filter(|&&g| g).count() {
+            0 => {
+                return Err(self.err(path, format!("a `hose` needs its wall: give {ways}")));
+            }
+            1 => {}
+            _ => {
+                return Err(self.err(
+                    path,
+                    format!("give only one description of the hose wall: {ways}"),
+                ));
+            }
+        }
+        if e.wave_speed.is_none() {
+            for (key, present) in [
+                ("loss_factor", e.loss_factor.is_some()),
+                ("reference_frequency", e.reference_frequency.is_some()),
+            ] {
+                if present {
+                    return Err(self.err(&path.key(key), format!("`{key}` goes with `wave_speed`")));
+                }
+            }
+        }
+        let mut construction = None;
+        let wall = if let Some(name) = &e.construction {
+            let c = HoseConstruction::from_name(name).ok_or_else(|| {
+                self.err(
+                    &path.key("construction"),
+                    format!(
+                        "unknown hose construction `{name}`; use one of: {} (or give `wave_speed` and `loss_factor`)",
+                        HoseConstruction::ALL.map(|c| c.name()).join(", ")
+                    ),
+                )
+            })?;
+            construction = Some(c);
+            c.wall()
+        } else if let Some(c) = e.wave_speed {
+            let c = self.in_range(&path.key("wave_speed"), c.si, 50.0, 2500.0, "m/s")?;
+            let eta = match e.loss_factor {
+                Some(eta) if (0.0..=1.0).contains(&eta.si) => eta.si,
+                Some(eta) => {
+                    return Err(self.err(
+                        &path.key("loss_factor"),
+                        format!("a loss factor must be between 0 and 1, found {}", eta.si),
+                    ));
+                }
+                None => {
+                    return Err(self.err(
+                        path,
+                        "a hose `wave_speed` needs its `loss_factor` (0 for no wall damping; typically 0.05 .. 0.15)",
+                    ));
+                }
+            };
+            let f_ref = match e.reference_frequency {
+                Some(f) => self.in_range(&path.key("reference_frequency"), f.si, 1.0, 1e4, "Hz")?,
+                None => TYPICAL_REFERENCE_FREQUENCY_HZ,
+            };
+            ViscoelasticWall::from_wave_speed(
+                c,
+                eta,
+                f_ref,
+                fluid.density_kg_m3,
+                fluid.bulk_modulus_pa,
+            )
+            .map_err(|err| self.err(&path.key("wave_speed"), err.to_string()))?
+        } else {
+            let kv = e
+                .kelvin_voigt
+                .as_ref()
+                .expect("one wall description is present");
+            let kp = path.key("kelvin_voigt");
+            let ju = 1.0
+                / self.in_range(
+                    &kp.key("instantaneous_modulus"),
+                    kv.instantaneous_modulus.si,
+                    1e6,
+                    1e12,
+                    "Pa",
+                )?;
+            if kv.terms.len() > MAX_RETARDATION_TERMS {
+                return Err(self.err(
+                    &kp.key("terms"),
+                    format!(
+                        "at most {MAX_RETARDATION_TERMS} retardation terms, found {}",
+                        kv.terms.len()
+                    ),
+                ));
+            }
+            let mut terms = Vec::with_capacity(kv.terms.len());
+            for (i, t) in kv.terms.iter().enumerate() {
+                let tp = kp.key("terms").index(i);
+                terms.push(RetardationTerm {
+                    compliance_per_pa: 1.0
+                        / self.in_range(&tp.key("modulus"), t.modulus.si, 1e6, 1e13, "Pa")?,
+                    time_s: self.in_range(&tp.key("time"), t.time.si, 1e-7, 10.0, "s")?,
+                });
+            }
+            ViscoelasticWall::kelvin_voigt(ju, &terms)
+                .map_err(|err| self.err(&kp, err.to_string()))?
+        };
+        let properties = LineProperties {
+            radius_m: bore / 2.0,
+            density_kg_m3: fluid.density_kg_m3,
+            kinematic_viscosity_m2_s: fluid.kinematic_viscosity_m2_s,
+            effective_bulk_modulus_pa: fluid.bulk_modulus_pa,
+            model: e.model.map_or(default, LineModel::from),
+            viscoelastic_wall: Some(wall),
+            mean_flow: self.given_mean_flow(path, e)?,
+        };
+        Ok(Hose {
+            line: Line {
+                properties,
+                length_m: length,
+            },
+            construction,
         })
     }
 
@@ -676,7 +1105,7 @@ impl Checker<'_> {
                 .iter()
                 .enumerate()
                 .filter(|(_, r)| {
-                    r.kind == RawKind::Tube
+                    matches!(r.kind, RawKind::Tube | RawKind::Hose)
                         && (r.from.as_deref() == e.at.as_deref()
                             || r.to.as_deref() == e.at.as_deref())
                 })
@@ -684,17 +1113,20 @@ impl Checker<'_> {
                 .collect(),
         };
         match candidates.as_slice() {
-            [i] => match &kinds[*i] {
-                Some(ElementKind::Tube(t)) => Ok(t.line.properties),
-                _ => Err(self.err(&path.key("line"), format!("`{}` is not a tube", raws[*i].name))),
+            [i] => match kinds[*i].as_ref().and_then(|k| k.line()) {
+                Some(line) => Ok(line.properties),
+                _ => Err(self.err(
+                    &path.key("line"),
+                    format!("`{}` is not a tube or hose", raws[*i].name),
+                )),
             },
             [] => Err(self.err(
                 path,
-                "an `anechoic_end` must sit at the end of a tube: no tube reaches its node",
+                "an `anechoic_end` must sit at the end of a tube or hose: none reaches its node",
             )),
             _ => Err(self.err(
                 path,
-                "several tubes meet at this node: say which one the `anechoic_end` matches with `line: <tube name>`",
+                "several lines meet at this node: say which one the `anechoic_end` matches with `line: <tube or hose name>`",
             )),
         }
     }
@@ -728,7 +1160,7 @@ impl Checker<'_> {
                 return Err(self.err(
                     &root.key("elements").index(i).key("at"),
                     format!(
-                        "node `{}` is reached by no tube, orifice or inertance: a `{}` must sit at a node of the line network",
+                        "node `{}` is reached by no tube, hose, orifice or inertance: a `{}` must sit at a node of the line network",
                         node.name,
                         raws[i].kind.name()
                     ),
@@ -935,19 +1367,23 @@ impl Checker<'_> {
                         format!("no element is called `{name}`"),
                     )
                 })?;
-                let ElementKind::Tube(tube) = &circuit.elements[element].kind else {
+                let kind = &circuit.elements[element].kind;
+                let Some(line) = kind.line() else {
                     return Err(self.err(
                         &path.key("element"),
-                        format!("`{name}` is not a tube: a tap along an element needs a tube"),
+                        format!(
+                            "`{name}` is not a tube or hose: a tap along an element needs a tube or a hose"
+                        ),
                     ));
                 };
-                let length = tube.line.length_m;
+                let length = line.length_m;
                 if !(0.0..=length).contains(&distance.si) {
                     return Err(self.err(
                         &path.key("distance"),
                         format!(
-                            "distance {} m is outside tube `{name}`, which is {length} m long",
-                            distance.si
+                            "distance {} m is outside {} `{name}`, which is {length} m long",
+                            distance.si,
+                            kind.name()
                         ),
                     ));
                 }

@@ -43,7 +43,8 @@ dims! {
     Resistance => Resistance,
     Inertance => Inertance,
     Ratio => Ratio,
-    Speed => Speed,
+    Temperature => Temperature,
+    Velocity => Velocity,
     Time => Time,
 }
 

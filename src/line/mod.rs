@@ -8,10 +8,14 @@
 //!
 //! * lossless: Z' = jωρ/A, Y' = jωA/B → Γ = jω/c0, Zc = ρc0/A;
 //! * laminar (default): Z' = jωρ/(A(1 − F)) with the exact viscous factor F
-//!   of [`viscous`] (Womersley 1955; Brown 1962), Y' = jωA/B.
+//!   of [`viscous`] (Womersley 1955; Brown 1962), Y' = jωA/B;
+//! * turbulent: the laminar Z' plus the linearised turbulent-friction
+//!   correction ΔR' of the line's mean flow where it is turbulent
+//!   ([`turbulence`], methods.md §2.5); it vanishes below the transition.
 //!
 //! B is the effective bulk modulus of liquid and wall together (see
-//! [`crate::wall`]). The two-port is evaluated in the admittance form with
+//! [`crate::wall`]). A hose adds a complex, frequency-dependent wall
+//! compliance J_w(ω) ([`crate::hose`]): Y' = jωA (1/B + J_w(ω)). The two-port is evaluated in the admittance form with
 //! E = e^{−Γl} (|E| ≤ 1), which never overflows for long lossy lines:
 //!
 //! ```text
@@ -20,8 +24,10 @@
 //!           Zc
 //! ```
 
+pub mod turbulence;
 pub mod viscous;
 
+use crate::hose::ViscoelasticWall;
 use num_complex::Complex64 as C64;
 
 const J: C64 = C64 { re: 0.0, im: 1.0 };
@@ -36,6 +42,9 @@ pub enum LineModel {
     /// Exact laminar oscillating-flow friction (frequency-dependent).
     #[default]
     Laminar,
+    /// Laminar friction plus the linearised turbulent correction of the
+    /// line's mean flow where Re > 2300 ([`turbulence`]).
+    Turbulent,
 }
 
 impl LineModel {
@@ -44,12 +53,41 @@ impl LineModel {
         match self {
             LineModel::Lossless => "lossless",
             LineModel::Laminar => "laminar",
+            LineModel::Turbulent => "turbulent",
+        }
+    }
+}
+
+/// The mean (steady) flow through a line, a→b positive, in m³/s.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub enum MeanFlow {
+    /// Not known (no pump displacement, or no path to tank).
+    #[default]
+    Unknown,
+    /// Given for this line in the circuit file.
+    Given(f64),
+    /// The pumps' displacement × speed, split by the circuit ([`crate::meanflow`]).
+    FromPumps(f64),
+}
+
+impl MeanFlow {
+    /// The flow in m³/s, if known.
+    pub fn flow_m3_s(self) -> Option<f64> {
+        match self {
+            MeanFlow::Unknown => None,
+            MeanFlow::Given(q) | MeanFlow::FromPumps(q) => Some(q),
         }
     }
 }
 
 /// The properties of a uniform line that its wave propagation depends on.
-#[derive(Debug, Clone, Copy, PartialEq)]
+///
+/// Two values are equal (`==`) when they propagate waves identically: the
+/// mean flow is compared only under [`LineModel::Turbulent`], the one model
+/// it changes. The network evaluates each distinct line once per frequency,
+/// so two equal tubes that carry the same flow by different round-off stay
+/// one line.
+#[derive(Debug, Clone, Copy)]
 pub struct LineProperties {
     /// Bore radius r in m.
     pub radius_m: f64,
@@ -57,10 +95,29 @@ pub struct LineProperties {
     pub density_kg_m3: f64,
     /// Liquid kinematic viscosity ν in m²/s.
     pub kinematic_viscosity_m2_s: f64,
-    /// Effective bulk modulus of liquid and wall, 1/B = 1/B_liquid + 1/B_wall, in Pa.
+    /// Effective bulk modulus of liquid and elastic wall, 1/B = 1/B_liquid +
+    /// 1/B_wall, in Pa. For a hose, the liquid's modulus alone (its wall is
+    /// `viscoelastic_wall`).
     pub effective_bulk_modulus_pa: f64,
     /// Friction model.
     pub model: LineModel,
+    /// A hose's viscoelastic wall compliance, added to 1/B at each
+    /// frequency; `None` for tubes.
+    pub viscoelastic_wall: Option<ViscoelasticWall>,
+    /// The line's mean flow (used by the turbulent model).
+    pub mean_flow: MeanFlow,
+}
+
+impl PartialEq for LineProperties {
+    fn eq(&self, other: &Self) -> bool {
+        self.radius_m == other.radius_m
+            && self.density_kg_m3 == other.density_kg_m3
+            && self.kinematic_viscosity_m2_s == other.kinematic_viscosity_m2_s
+            && self.effective_bulk_modulus_pa == other.effective_bulk_modulus_pa
+            && self.model == other.model
+            && self.viscoelastic_wall == other.viscoelastic_wall
+            && (self.model != LineModel::Turbulent || self.mean_flow == other.mean_flow)
+    }
 }
 
 /// Γ and Zc of a line at one frequency.
@@ -78,9 +135,60 @@ impl LineProperties {
         std::f64::consts::PI * self.radius_m * self.radius_m
     }
 
-    /// Lossless wave speed c0 = √(B_eff/ρ) in m/s (Korteweg when B_eff includes the wall).
+    /// Lossless wave speed c0 = √(B_eff/ρ) in m/s (Korteweg when B_eff
+    /// includes the wall). For a hose, 1/B_eff includes the wall's nominal
+    /// compliance ([`ViscoelasticWall::nominal_compliance_per_pa`]).
     pub fn wave_speed_m_s(&self) -> f64 {
-        (self.effective_bulk_modulus_pa / self.density_kg_m3).sqrt()
+        match self.viscoelastic_wall {
+            None => (self.effective_bulk_modulus_pa / self.density_kg_m3).sqrt(),
+            Some(_) => 1.0 / (self.density_kg_m3 * self.nominal_compliance_per_pa()).sqrt(),
+        }
+    }
+
+    /// 1/B_eff plus a hose wall's nominal compliance, in 1/Pa.
+    pub fn nominal_compliance_per_pa(&self) -> f64 {
+        1.0 / self.effective_bulk_modulus_pa
+            + self
+                .viscoelastic_wall
+                .map_or(0.0, |w| w.nominal_compliance_per_pa())
+    }
+
+    /// The compliance 1/B*(ω) = 1/B_eff + J_w(ω) in 1/Pa at ω > 0.
+    pub fn compliance(&self, omega: f64) -> C64 {
+        let liquid = C64::new(1.0 / self.effective_bulk_modulus_pa, 0.0);
+        match &self.viscoelastic_wall {
+            Some(w) => liquid + w.compliance(omega),
+            None => liquid,
+        }
+    }
+
+    /// The Reynolds number of the mean flow, if the mean flow is known.
+    pub fn reynolds_number(&self) -> Option<f64> {
+        self.mean_flow
+            .flow_m3_s()
+            .map(|q| turbulence::reynolds_number(q, self.radius_m, self.kinematic_viscosity_m2_s))
+    }
+
+    /// The turbulent excess resistance ΔR' in Pa·s/m⁴ this line's model adds:
+    /// non-zero only for [`LineModel::Turbulent`] with a known mean flow
+    /// above the transition.
+    pub fn turbulent_resistance_per_m(&self) -> f64 {
+        match (self.model, self.mean_flow.flow_m3_s()) {
+            (LineModel::Turbulent, Some(q)) => turbulence::excess_resistance_per_m(
+                q,
+                self.radius_m,
+                self.density_kg_m3,
+                self.kinematic_viscosity_m2_s,
+            ),
+            _ => 0.0,
+        }
+    }
+
+    /// Whether the line dissipates nothing (lossless model and a wall
+    /// without loss): such a line has no bounded admittance at its half-wave
+    /// resonances.
+    pub fn is_lossless(&self) -> bool {
+        self.model == LineModel::Lossless && self.viscoelastic_wall.is_none_or(|w| w.is_lossless())
     }
 
     /// Lossless characteristic impedance Z0 = ρc0/A in Pa·s/m³.
@@ -101,8 +209,15 @@ impl LineProperties {
 
     /// Γ and Zc at angular frequency ω > 0.
     ///
-    /// Laminar: Γ = (jω/c0)(1 − F)^{−1/2}, Zc = Z'/Γ (methods.md §2.3).
+    /// Laminar: Γ = (jω/c0)(1 − F)^{−1/2}, Zc = Z'/Γ (methods.md §2.3). With a
+    /// hose wall or a turbulent correction, the general form
+    /// Γ = √(Z'Y') (Re Γ ≥ 0), Zc = Z'/Γ, with Z' = jωρ/(A(1 − F)) + ΔR' and
+    /// Y' = jωA/B*(ω).
     pub fn propagation(&self, omega: f64) -> Propagation {
+        let extra_r = self.turbulent_resistance_per_m();
+        if self.viscoelastic_wall.is_some() || extra_r != 0.0 {
+            return self.general_propagation(omega, extra_r);
+        }
         let c0 = self.wave_speed_m_s();
         let area = self.area_m2();
         match self.model {
@@ -110,7 +225,7 @@ impl LineProperties {
                 gamma: J * (omega / c0),
                 zc: C64::new(self.density_kg_m3 * c0 / area, 0.0),
             },
-            LineModel::Laminar => {
+            LineModel::Laminar | LineModel::Turbulent => {
                 let g = viscous::one_minus_viscous_factor(self.shear_number(omega));
                 let series = J * (omega * self.density_kg_m3 / area) / g; // Z'
                 let mut gamma = J * (omega / c0) / sqrt(g);
@@ -122,6 +237,29 @@ impl LineProperties {
                     zc: series / gamma,
                 }
             }
+        }
+    }
+
+    /// Γ = √(Z'Y') with Re Γ ≥ 0 (and Im Γ ≥ 0 when Re Γ = 0, the wave
+    /// travelling towards +x), Zc = Z'/Γ, for any series resistance added to
+    /// the friction model and any wall compliance.
+    fn general_propagation(&self, omega: f64, extra_r: f64) -> Propagation {
+        let area = self.area_m2();
+        let inertia = J * (omega * self.density_kg_m3 / area);
+        let series = match self.model {
+            LineModel::Lossless => inertia,
+            LineModel::Laminar | LineModel::Turbulent => {
+                inertia / viscous::one_minus_viscous_factor(self.shear_number(omega)) + extra_r
+            }
+        };
+        let shunt = J * (omega * area) * self.compliance(omega);
+        let mut gamma = sqrt(series * shunt);
+        if gamma.re == 0.0 && gamma.im < 0.0 {
+            gamma = -gamma;
+        }
+        Propagation {
+            gamma,
+            zc: series / gamma,
         }
     }
 }
@@ -233,6 +371,8 @@ mod tests {
             kinematic_viscosity_m2_s: 32e-6,
             effective_bulk_modulus_pa: 870.0 * 1350.0 * 1350.0,
             model,
+            viscoelastic_wall: None,
+            mean_flow: MeanFlow::Unknown,
         }
     }
 
@@ -258,6 +398,25 @@ mod tests {
                 assert!((y[i][k] - want[i][k]).norm() < 1e-12 * y[0][0].norm());
             }
         }
+    }
+
+    #[test]
+    fn mean_flow_matters_to_equality_only_for_the_turbulent_model() {
+        let a = LineProperties {
+            mean_flow: MeanFlow::FromPumps(7e-4),
+            ..oil_line(LineModel::Laminar)
+        };
+        let b = LineProperties {
+            mean_flow: MeanFlow::FromPumps(7e-4 * (1.0 + f64::EPSILON)),
+            ..a
+        };
+        assert_eq!(a, b);
+        let turbulent = |p: LineProperties| LineProperties {
+            model: LineModel::Turbulent,
+            ..p
+        };
+        assert_ne!(turbulent(a), turbulent(b));
+        assert_ne!(a, turbulent(a));
     }
 
     #[test]

@@ -18,7 +18,7 @@ mod solve;
 pub use solve::{ILL_CONDITIONED, SINGULAR_CONDITION, Solution, SolveError, Workspace};
 
 use crate::circuit::Circuit;
-use crate::elements::{Connection, ConnectionKind, ElementKind, NodeId};
+use crate::elements::{Connection, ConnectionKind, NodeId};
 use crate::line::LineProperties;
 
 /// Why a circuit cannot be compiled into a network.
@@ -183,16 +183,14 @@ impl<'c> Plan<'c> {
     }
 }
 
-/// The geometric mean of the tubes' lossless characteristic impedances, or
-/// 1e10 Pa·s/m³ (typical of hydraulic lines) when there are none.
+/// The geometric mean of the lines' (tubes' and hoses') lossless
+/// characteristic impedances, or 1e10 Pa·s/m³ (typical of hydraulic lines)
+/// when there are none.
 fn reference_impedance(circuit: &Circuit) -> f64 {
     let z0s: Vec<f64> = circuit
         .elements
         .iter()
-        .filter_map(|e| match &e.kind {
-            ElementKind::Tube(t) => Some(t.line.properties.z0()),
-            _ => None,
-        })
+        .filter_map(|e| e.kind.line().map(|l| l.properties.z0()))
         .collect();
     if z0s.is_empty() {
         1e10
