@@ -4,7 +4,6 @@
 //! standard error, each naming the element or node and the limit.
 
 use crate::circuit::Circuit;
-use crate::elements::ElementKind;
 use crate::line::LineModel;
 use crate::line::turbulence::{BLASIUS_MAX_REYNOLDS, TRANSITION_REYNOLDS};
 use crate::network::{ILL_CONDITIONED, Solution};
