@@ -15,10 +15,16 @@
 
 mod ends;
 mod lumped;
+mod silencers;
 mod tube;
 
 pub use ends::Anechoic;
 pub use lumped::{Inertance, LoadValve, Orifice, Volume, orifice_resistance};
+pub use silencers::{
+    DamperError, ExpansionChamber, FLANGED_END_CORRECTION, HelmholtzResonator,
+    PRESSURE_VESSEL_CAUTION, PulsationDamper, STANDARD_ATMOSPHERE_PA, SideBranch,
+    loaded_line_admittance, rigid_neck, tanh_gamma_l,
+};
 pub use tube::Tube;
 
 use crate::line::{Admittance2, LineProperties, Propagation, Transfer2};
@@ -94,6 +100,14 @@ pub enum ElementKind {
     ClosedEnd,
     /// An open end to a constant-pressure reservoir: zero ripple.
     Tank,
+    /// A closed side branch (quarter-wave tube) teed off a node.
+    SideBranch(SideBranch),
+    /// An in-line expansion chamber.
+    ExpansionChamber(ExpansionChamber),
+    /// A Helmholtz resonator teed off a node.
+    Helmholtz(HelmholtzResonator),
+    /// A gas-charged pulsation damper teed off a node.
+    Damper(PulsationDamper),
 }
 
 impl ElementKind {
@@ -108,6 +122,10 @@ impl ElementKind {
             ElementKind::Anechoic(_) => "anechoic_end",
             ElementKind::ClosedEnd => "closed_end",
             ElementKind::Tank => "tank",
+            ElementKind::SideBranch(_) => "side_branch",
+            ElementKind::ExpansionChamber(_) => "expansion_chamber",
+            ElementKind::Helmholtz(_) => "helmholtz_resonator",
+            ElementKind::Damper(_) => "pulsation_damper",
         }
     }
 
@@ -115,6 +133,13 @@ impl ElementKind {
     pub fn connection_kind(&self) -> ConnectionKind {
         match self {
             ElementKind::Tube(t) if t.needs_branch_flows() => ConnectionKind::TransferTwoPort,
+            ElementKind::ExpansionChamber(c) if c.tube.needs_branch_flows() => {
+                ConnectionKind::TransferTwoPort
+            }
+            ElementKind::ExpansionChamber(_) => ConnectionKind::AdmittanceTwoPort,
+            ElementKind::SideBranch(_) | ElementKind::Helmholtz(_) | ElementKind::Damper(_) => {
+                ConnectionKind::Shunt
+            }
             ElementKind::Tube(_) | ElementKind::Orifice(_) | ElementKind::Inertance(_) => {
                 ConnectionKind::AdmittanceTwoPort
             }
@@ -126,14 +151,18 @@ impl ElementKind {
         }
     }
 
-    /// The line whose Γ and Zc this element needs, if any (tubes, and the
-    /// line an anechoic end matches). The network evaluates each distinct
+    /// The line whose Γ and Zc this element needs, if any (tubes, the line
+    /// an anechoic end matches, and the line inside each silencer). The network evaluates each distinct
     /// line once per frequency and hands the result to
     /// [`ElementKind::behaviour_with`].
     pub fn line_properties(&self) -> Option<&LineProperties> {
         match self {
             ElementKind::Tube(t) => Some(&t.line.properties),
             ElementKind::Anechoic(a) => Some(&a.line),
+            ElementKind::SideBranch(s) => Some(&s.tube.line.properties),
+            ElementKind::ExpansionChamber(c) => Some(&c.tube.line.properties),
+            ElementKind::Helmholtz(h) => Some(&h.neck),
+            ElementKind::Damper(d) => Some(&d.neck),
             _ => None,
         }
     }
@@ -161,6 +190,10 @@ impl ElementKind {
             }
             ElementKind::Anechoic(_) => Behaviour::Shunt(line().zc.inv()),
             ElementKind::ClosedEnd | ElementKind::Tank => Behaviour::Nothing,
+            ElementKind::SideBranch(s) => Behaviour::Shunt(s.admittance(line())),
+            ElementKind::ExpansionChamber(c) => c.behaviour(line()),
+            ElementKind::Helmholtz(h) => Behaviour::Shunt(h.admittance(omega, line())),
+            ElementKind::Damper(d) => Behaviour::Shunt(d.admittance(omega, line())),
         }
     }
 }

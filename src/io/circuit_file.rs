@@ -8,11 +8,13 @@
 //! [`super::locate`]. The file format is documented in README.md.
 
 use super::InputError;
+use super::gas_pressure::GasPressure;
 use super::locate::KeyPath;
 use super::quantity::{self as q, Q};
 use crate::circuit::{Circuit, Node, Tap, TapLocation};
 use crate::elements::{
-    Anechoic, Connection, Element, ElementKind, Inertance, LoadValve, Orifice, Tube, Volume,
+    Anechoic, Connection, Element, ElementKind, ExpansionChamber, HelmholtzResonator, Inertance,
+    LoadValve, Orifice, PulsationDamper, SideBranch, Tube, Volume, rigid_neck,
 };
 use crate::fluid::Fluid;
 use crate::line::{Line, LineModel, LineProperties};
@@ -118,6 +120,10 @@ enum RawKind {
     AnechoicEnd,
     ClosedEnd,
     Tank,
+    SideBranch,
+    ExpansionChamber,
+    HelmholtzResonator,
+    PulsationDamper,
 }
 
 #[derive(Debug, Deserialize)]
@@ -144,6 +150,13 @@ struct RawElement {
     pressure_drop: Option<Q<q::Pressure>>,
     inertance: Option<Q<q::Inertance>>,
     line: Option<String>,
+    neck_length: Option<Q<q::Length>>,
+    neck_bore: Option<Q<q::Length>>,
+    end_correction: Option<bool>,
+    gas_volume: Option<Q<q::Volume>>,
+    precharge: Option<GasPressure>,
+    operating_pressure: Option<GasPressure>,
+    polytropic_index: Option<f64>,
 }
 
 impl RawElement {
@@ -171,6 +184,13 @@ impl RawElement {
         add("pressure_drop", self.pressure_drop.is_some());
         add("inertance", self.inertance.is_some());
         add("line", self.line.is_some());
+        add("neck_length", self.neck_length.is_some());
+        add("neck_bore", self.neck_bore.is_some());
+        add("end_correction", self.end_correction.is_some());
+        add("gas_volume", self.gas_volume.is_some());
+        add("precharge", self.precharge.is_some());
+        add("operating_pressure", self.operating_pressure.is_some());
+        add("polytropic_index", self.polytropic_index.is_some());
         keys
     }
 }
@@ -186,6 +206,10 @@ impl RawKind {
             RawKind::AnechoicEnd => "anechoic_end",
             RawKind::ClosedEnd => "closed_end",
             RawKind::Tank => "tank",
+            RawKind::SideBranch => "side_branch",
+            RawKind::ExpansionChamber => "expansion_chamber",
+            RawKind::HelmholtzResonator => "helmholtz_resonator",
+            RawKind::PulsationDamper => "pulsation_damper",
         }
     }
 
@@ -209,11 +233,53 @@ impl RawKind {
             RawKind::LoadValve => &["at", "resistance", "mean_flow", "pressure_drop"],
             RawKind::AnechoicEnd => &["at", "line"],
             RawKind::ClosedEnd | RawKind::Tank => &["at"],
+            RawKind::SideBranch => &[
+                "at",
+                "length",
+                "bore",
+                "wall",
+                "material",
+                "youngs_modulus",
+                "rigid",
+                "model",
+            ],
+            RawKind::ExpansionChamber => &[
+                "from",
+                "to",
+                "length",
+                "bore",
+                "wall",
+                "material",
+                "youngs_modulus",
+                "rigid",
+                "model",
+            ],
+            RawKind::HelmholtzResonator => &[
+                "at",
+                "volume",
+                "neck_length",
+                "neck_bore",
+                "end_correction",
+                "model",
+            ],
+            RawKind::PulsationDamper => &[
+                "at",
+                "gas_volume",
+                "precharge",
+                "operating_pressure",
+                "polytropic_index",
+                "neck_length",
+                "neck_bore",
+                "model",
+            ],
         }
     }
 
     fn is_two_port(self) -> bool {
-        matches!(self, RawKind::Tube | RawKind::Orifice | RawKind::Inertance)
+        matches!(
+            self,
+            RawKind::Tube | RawKind::Orifice | RawKind::Inertance | RawKind::ExpansionChamber
+        )
     }
 }
 
@@ -386,6 +452,20 @@ impl Checker<'_> {
                 }
                 RawKind::ClosedEnd => Some(ElementKind::ClosedEnd),
                 RawKind::Tank => Some(ElementKind::Tank),
+                RawKind::SideBranch => Some(ElementKind::SideBranch(SideBranch {
+                    tube: self.tube(&path, e, &fluid, line_model)?,
+                })),
+                RawKind::ExpansionChamber => {
+                    Some(ElementKind::ExpansionChamber(ExpansionChamber {
+                        tube: self.tube(&path, e, &fluid, line_model)?,
+                    }))
+                }
+                RawKind::HelmholtzResonator => Some(ElementKind::Helmholtz(
+                    self.helmholtz(&path, e, &fluid, line_model)?,
+                )),
+                RawKind::PulsationDamper => Some(ElementKind::Damper(
+                    self.damper(&path, e, &fluid, line_model)?,
+                )),
                 RawKind::AnechoicEnd => None,
             });
         }
@@ -545,7 +625,10 @@ impl Checker<'_> {
             (_, None) => {
                 return Err(self.err(
                     path,
-                    "a `tube` needs its wall: give `wall` (thickness) with `material` or `youngs_modulus`, or say `rigid: true`",
+                    format!(
+                        "a `{}` needs its wall: give `wall` (thickness) with `material` or `youngs_modulus`, or say `rigid: true`",
+                        e.kind.name()
+                    ),
                 ));
             }
             (_, Some(w)) => {
@@ -608,6 +691,118 @@ impl Checker<'_> {
             },
             wall,
         })
+    }
+
+    /// The neck of a resonator or damper: a rigid drilled passage, in the
+    /// liquid, with the element's (or the circuit's) friction model.
+    fn neck(
+        &self,
+        path: &KeyPath,
+        e: &RawElement,
+        fluid: &Fluid,
+        default: LineModel,
+    ) -> Res<(f64, crate::line::LineProperties)> {
+        let length = self.in_range(
+            &path.key("neck_length"),
+            self.required(path, "neck_length", e.neck_length, e.kind)?,
+            1e-4,
+            10.0,
+            "m",
+        )?;
+        let bore = self.in_range(
+            &path.key("neck_bore"),
+            self.required(path, "neck_bore", e.neck_bore, e.kind)?,
+            1e-4,
+            0.5,
+            "m",
+        )?;
+        let like = LineProperties {
+            radius_m: bore / 2.0,
+            density_kg_m3: fluid.density_kg_m3,
+            kinematic_viscosity_m2_s: fluid.kinematic_viscosity_m2_s,
+            effective_bulk_modulus_pa: fluid.bulk_modulus_pa,
+            model: e.model.map_or(default, LineModel::from),
+        };
+        Ok((length, rigid_neck(&like, bore, fluid.bulk_modulus_pa)))
+    }
+
+    fn helmholtz(
+        &self,
+        path: &KeyPath,
+        e: &RawElement,
+        fluid: &Fluid,
+        default: LineModel,
+    ) -> Res<HelmholtzResonator> {
+        let volume = self.in_range(
+            &path.key("volume"),
+            self.required(path, "volume", e.volume, e.kind)?,
+            1e-9,
+            1.0,
+            "m³",
+        )?;
+        let (neck_length_m, neck) = self.neck(path, e, fluid, default)?;
+        Ok(HelmholtzResonator {
+            volume_m3: volume,
+            bulk_modulus_pa: fluid.bulk_modulus_pa,
+            neck_length_m,
+            neck,
+            end_correction: e.end_correction.unwrap_or(true),
+        })
+    }
+
+    fn damper(
+        &self,
+        path: &KeyPath,
+        e: &RawElement,
+        fluid: &Fluid,
+        default: LineModel,
+    ) -> Res<PulsationDamper> {
+        let gas_volume = self.in_range(
+            &path.key("gas_volume"),
+            self.required(path, "gas_volume", e.gas_volume, e.kind)?,
+            1e-7,
+            1.0,
+            "m³",
+        )?;
+        let gas = |key: &str, value: Option<GasPressure>| -> Res<f64> {
+            let p = value.ok_or_else(|| {
+                self.err(
+                    path,
+                    format!(
+                        "a `pulsation_damper` needs the key `{key}` (a gas pressure such as `60 bar abs` or `59 bar gauge`)"
+                    ),
+                )
+            })?;
+            self.in_range(&path.key(key), p.absolute_pa, 1e4, 1e9, "Pa (absolute)")
+        };
+        let precharge = gas("precharge", e.precharge)?;
+        let operating = gas("operating_pressure", e.operating_pressure)?;
+        let kappa = match e.polytropic_index {
+            None => 1.4,
+            Some(k) if (1.0..=1.67).contains(&k) => k,
+            Some(k) => {
+                return Err(self.err(
+                    &path.key("polytropic_index"),
+                    format!(
+                        "the polytropic index must be between 1.0 (isothermal) and 1.67 (monatomic gas, adiabatic), found {k}"
+                    ),
+                ));
+            }
+        };
+        let (neck_length_m, neck) = self.neck(path, e, fluid, default)?;
+        let damper = PulsationDamper {
+            gas_volume_m3: gas_volume,
+            precharge_pa: precharge,
+            operating_pa: operating,
+            polytropic_index: kappa,
+            bulk_modulus_pa: fluid.bulk_modulus_pa,
+            neck_length_m,
+            neck,
+        };
+        damper
+            .validate()
+            .map_err(|err| self.err(&path.key("operating_pressure"), err.to_string()))?;
+        Ok(damper)
     }
 
     /// A resistance given directly, or linearised from a mean operating point.
