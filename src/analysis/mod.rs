@@ -4,6 +4,17 @@
 //!   measurement point, with overall levels (`ripline solve`).
 //! * [`waveform`]: the time waveform rebuilt from harmonics and its
 //!   peak-to-peak value.
+//! * [`response`]: the frequency response per unit source flow, its
+//!   resonances and the harmonic bands that cross them (`ripline response`).
+//! * [`silencer`]: transmission loss of an element or chain, insertion loss
+//!   in the circuit (`ripline silencer`).
+//! * [`tune`]: a bounded search for the silencer design that minimises the
+//!   ripple at a point over the speed range (`ripline tune`).
+//! * [`search`]: golden-section, Halton and Nelder–Mead helpers.
 
+pub mod response;
 pub mod ripple;
+pub mod search;
+pub mod silencer;
+pub mod tune;
 pub mod waveform;

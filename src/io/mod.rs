@@ -5,6 +5,7 @@
 
 pub mod circuit_file;
 pub mod csv_out;
+pub mod csv_response;
 pub mod gas_pressure;
 pub mod locate;
 pub mod output;
