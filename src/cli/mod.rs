@@ -7,7 +7,11 @@
 
 mod check;
 mod common;
+mod ranges;
+mod response;
+mod silencer;
 mod solve;
+mod tune;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
@@ -28,6 +32,12 @@ enum Command {
     Solve(solve::SolveArgs),
     /// Validate a circuit file without solving and report what it holds.
     Check(check::CheckArgs),
+    /// Frequency response, resonances, and the harmonics that cross them over the speed range.
+    Response(response::ResponseArgs),
+    /// Transmission loss of a silencer and its insertion loss in the circuit.
+    Silencer(silencer::SilencerArgs),
+    /// Size a silencer: vary 1 to 3 of its parameters to minimise the ripple at a point.
+    Tune(tune::TuneArgs),
 }
 
 /// Exit code for invalid input or usage.
@@ -50,6 +60,9 @@ pub fn main() -> ExitCode {
     let result = match cli.command {
         Command::Solve(args) => solve::run(args),
         Command::Check(args) => check::run(args),
+        Command::Response(args) => response::run(args),
+        Command::Silencer(args) => silencer::run(args),
+        Command::Tune(args) => tune::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

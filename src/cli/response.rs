@@ -1,0 +1,456 @@
+//! `ripline response FILE`: frequency response, resonances, and which pump
+//! harmonics cross them over the operating speed range.
+
+use super::common::{self, UsageError};
+use super::ranges::{self, Progress};
+use anyhow::Context;
+use clap::Args;
+use ripline::analysis::response::{
+    Coverage, FrequencyResponse, HarmonicBand, PeakSettings, Resonance, crossings, default_points,
+    find_resonances, frequency_response, harmonic_bands, log_grid,
+};
+use ripline::io::csv_response::{load_impedance_point, write_response_csv};
+use ripline::io::output::StagedOutputs;
+use ripline::network::Plan;
+use ripline::plot;
+use ripline::units::{Dimension, PressureDisplay};
+use std::io::Write;
+use std::path::PathBuf;
+
+/// Pa per m³/s in one bar per L/min.
+const BAR_PER_LPM: f64 = 1e5 * 60_000.0;
+
+#[derive(Debug, Args)]
+pub struct ResponseArgs {
+    /// Circuit file (YAML); the built-in demo circuit when omitted.
+    file: Option<PathBuf>,
+    /// Frequency band LOW..HIGH in Hz (default: a quarter of the lowest
+    /// pumping frequency up to 10 harmonics, or the circuit's `harmonics`
+    /// if more, at the top speed).
+    #[arg(long, value_name = "LOW..HIGH")]
+    band: Option<String>,
+    /// Number of log-spaced frequencies (default: steps of 0.2 %).
+    #[arg(long, value_name = "N")]
+    points: Option<usize>,
+    /// Operating speed range LOW..HIGH, in rpm unless a unit is given
+    /// (overrides the pump's `speed_range`).
+    #[arg(long, value_name = "LOW..HIGH")]
+    speed_range: Option<String>,
+    /// How close to a harmonic band a resonance counts as "near".
+    #[arg(long, value_name = "PERCENT", default_value = "10%")]
+    margin: String,
+    /// The pump whose source flow drives the response (default: the first).
+    #[arg(long, value_name = "NAME")]
+    pump: Option<String>,
+    /// Write the response as CSV (point,frequency_hz,amplitude_pa_per_m3s,phase_deg).
+    #[arg(long, value_name = "FILE")]
+    csv: Option<PathBuf>,
+    /// Plot the response with the harmonic bands and resonances (.svg or .png).
+    #[arg(long, value_name = "FILE")]
+    plot: Option<PathBuf>,
+}
+
+pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
+    let csv_path = args
+        .csv
+        .as_deref()
+        .map(|p| common::check_output("--csv", p, &["csv"]))
+        .transpose()?;
+    let plot_path = args
+        .plot
+        .as_deref()
+        .map(|p| common::check_output("--plot", p, &["svg", "png"]))
+        .transpose()?;
+    let margin = ranges::parse_fraction("--margin", &args.margin)?;
+    let loaded = common::load_circuit(args.file.as_deref())?;
+    let circuit = &loaded.circuit;
+    let pump_index = ranges::pump_index(circuit, args.pump.as_deref())?;
+    let pump = &circuit.pumps[pump_index];
+    let speeds = ranges::speed_range(args.speed_range.as_deref(), circuit, pump_index)?;
+    let z = f64::from(pump.pumping_elements);
+    let harmonics = circuit.harmonics.max(10);
+    let band = match &args.band {
+        Some(text) => ranges::parse_range("--band", text, Dimension::Frequency, "Hz")?,
+        None => (
+            0.25 * z * speeds.rev_s.0,
+            f64::from(harmonics) * z * speeds.rev_s.1,
+        ),
+    };
+    let points = match args.points {
+        Some(n) if (10..=200_000).contains(&n) => n,
+        Some(n) => {
+            return Err(
+                UsageError(format!("--points must be between 10 and 200000, found {n}")).into(),
+            );
+        }
+        None => default_points(band.0, band.1),
+    };
+    for w in ripline::diagnostics::circuit_warnings(circuit, band.1) {
+        eprintln!("warning: {w}");
+    }
+    let plan = Plan::compile(circuit).map_err(|e| UsageError(format!("{}: {e}", loaded.source)))?;
+    let freqs = log_grid(band.0, band.1, points);
+    let progress = Progress::new(freqs.len(), "frequency response");
+    let response = frequency_response(&plan, pump_index, &freqs, &mut |i| progress.set(i))
+        .with_context(|| format!("solving {}", loaded.source))?;
+    progress.finish();
+    let resonances = find_resonances(&plan, pump_index, &response, PeakSettings::default())
+        .with_context(|| format!("refining the resonances of {}", loaded.source))?;
+    // Only harmonics the pump's source flow has can excite a resonance.
+    let (bands, silent): (Vec<HarmonicBand>, Vec<HarmonicBand>) =
+        harmonic_bands(pump.pumping_elements, speeds.rev_s, circuit.harmonics)
+            .into_iter()
+            .partition(|b| pump.flow_ripple(b.order).norm() > 0.0);
+
+    let mut outputs = StagedOutputs::new();
+    if let Some(path) = &csv_path {
+        common::stage_csv(&mut outputs, path, |buf| write_response_csv(&response, buf))?;
+    }
+    if let Some(path) = &plot_path {
+        let charts = charts(
+            &response,
+            &resonances,
+            &bands,
+            margin,
+            circuit.title.as_deref(),
+        );
+        outputs
+            .stage_with(path, |tmp| plot::stacked_line_charts(tmp, &charts))
+            .with_context(|| format!("drawing {}", path.display()))?;
+    }
+    let mut out = std::io::stdout().lock();
+    writeln!(out, "ripline response: {}", loaded.source)?;
+    if let Some(title) = &circuit.title {
+        writeln!(out, "circuit: {title}")?;
+    }
+    writeln!(
+        out,
+        "pump `{}` at node `{}`, {} pumping elements",
+        pump.name, circuit.nodes[pump.node].name, pump.pumping_elements,
+    )?;
+    writeln!(
+        out,
+        "speed range: {}; pumping frequency {}",
+        speeds.source,
+        if speeds.is_single() {
+            format!("{:.2} Hz", z * speeds.rev_s.0)
+        } else {
+            format!("{:.2}–{:.2} Hz", z * speeds.rev_s.0, z * speeds.rev_s.1)
+        }
+    )?;
+    writeln!(
+        out,
+        "band {:.2}–{:.2} Hz, {} log-spaced frequencies; response = pressure per unit source flow (peak/peak)",
+        band.0, band.1, points
+    )?;
+    writeln!(out)?;
+    print_resonances(&mut out, &resonances)?;
+    writeln!(out)?;
+    print_bands(&mut out, &bands, &silent, &speeds)?;
+    writeln!(out)?;
+    print_verdicts(&mut out, pump, &resonances, &bands, margin)?;
+    writeln!(out)?;
+    print_load(&mut out, &plan, pump_index, &response)?;
+    out.flush()?;
+    drop(out);
+    outputs
+        .commit()
+        .context("moving the output files into place")?;
+    Ok(())
+}
+
+fn level_text(r: &Resonance) -> String {
+    let base = format!(
+        "{:.4e} Pa·s/m³ = {:.3} bar per L/min",
+        r.level,
+        r.level / BAR_PER_LPM
+    );
+    if r.unbounded {
+        format!("≥ {base} (undamped: lossless model)")
+    } else {
+        base
+    }
+}
+
+fn print_resonances(out: &mut impl Write, resonances: &[Resonance]) -> std::io::Result<()> {
+    if resonances.is_empty() {
+        return writeln!(
+            out,
+            "resonances: none in the band (no peak with 3 dB prominence)"
+        );
+    }
+    writeln!(
+        out,
+        "resonances (peaks with at least 3 dB prominence, refined by golden-section search; Q from the half-power points):"
+    )?;
+    writeln!(
+        out,
+        "  {:>2}  {:>12}  {:>8}  {:<52}  highest at (also seen at)",
+        "#", "frequency Hz", "Q", "peak level"
+    )?;
+    for (i, r) in resonances.iter().enumerate() {
+        let q = match r.quality {
+            Some(q) => format!("{q:.1}"),
+            None => "—".into(),
+        };
+        let also: Vec<&str> = r
+            .seen_at
+            .iter()
+            .filter(|n| **n != r.point)
+            .map(String::as_str)
+            .collect();
+        let place = if also.is_empty() {
+            format!("`{}`", r.point)
+        } else {
+            format!("`{}` ({})", r.point, also.join(", "))
+        };
+        writeln!(
+            out,
+            "  {:>2}  {:>12.2}  {:>8}  {:<52}  {place}",
+            i + 1,
+            r.freq_hz,
+            q,
+            level_text(r)
+        )?;
+    }
+    Ok(())
+}
+
+fn print_bands(
+    out: &mut impl Write,
+    bands: &[HarmonicBand],
+    silent: &[HarmonicBand],
+    speeds: &ranges::SpeedRange,
+) -> std::io::Result<()> {
+    writeln!(out, "harmonic bands over {}:", speeds.describe())?;
+    if !silent.is_empty() {
+        writeln!(
+            out,
+            "  (left out, no source flow in the pump's table: harmonic {})",
+            silent
+                .iter()
+                .map(|b| b.order.to_string())
+                .collect::<Vec<_>>()
+                .join(", ")
+        )?;
+    }
+    for b in bands {
+        if speeds.is_single() {
+            writeln!(out, "  harmonic {:>2}: {:>9.2} Hz", b.order, b.low_hz)?;
+        } else {
+            writeln!(
+                out,
+                "  harmonic {:>2}: {:>9.2} – {:>9.2} Hz",
+                b.order, b.low_hz, b.high_hz
+            )?;
+        }
+    }
+    Ok(())
+}
+
+fn print_verdicts(
+    out: &mut impl Write,
+    pump: &ripline::source::Pump,
+    resonances: &[Resonance],
+    bands: &[HarmonicBand],
+    margin: f64,
+) -> std::io::Result<()> {
+    writeln!(
+        out,
+        "verdict (a harmonic band containing a resonance crosses it; one ending within {:.0} % of it is near; ≈ the peak ripple at the crossing, peak level × source flow):",
+        margin * 100.0
+    )?;
+    if resonances.is_empty() {
+        return writeln!(out, "  nothing to cross");
+    }
+    let mut crossed = 0;
+    for (i, r) in resonances.iter().enumerate() {
+        let list = crossings(r.freq_hz, bands, margin);
+        let text = if list.is_empty() {
+            "clear".to_string()
+        } else {
+            list.iter()
+                .map(|c| match c.coverage {
+                    Coverage::Crossed { speed_rev_s } => {
+                        let mut at_speed = pump.clone();
+                        at_speed.speed_rev_s = speed_rev_s;
+                        let q = at_speed.flow_ripple(c.order).norm();
+                        let estimate = if r.unbounded {
+                            "unbounded: lossless model".to_string()
+                        } else {
+                            format!("≈ {} at `{}`", PressureDisplay(r.level * q), r.point)
+                        };
+                        format!(
+                            "CROSSED by harmonic {} at {:.0} rpm ({estimate})",
+                            c.order,
+                            speed_rev_s * 60.0
+                        )
+                    }
+                    Coverage::Near { gap, speed_rev_s } => format!(
+                        "near harmonic {} ({:.1} % away at {:.0} rpm)",
+                        c.order,
+                        gap * 100.0,
+                        speed_rev_s * 60.0
+                    ),
+                })
+                .collect::<Vec<_>>()
+                .join("; ")
+        };
+        if list
+            .iter()
+            .any(|c| matches!(c.coverage, Coverage::Crossed { .. }))
+        {
+            crossed += 1;
+        }
+        writeln!(out, "  {:>2}  {:>10.2} Hz  {text}", i + 1, r.freq_hz)?;
+    }
+    writeln!(
+        out,
+        "  {crossed} of {} resonances crossed by a harmonic band",
+        resonances.len()
+    )
+}
+
+/// The impedance the pump sees at its harmonics (at its nominal speed).
+fn print_load(
+    out: &mut impl Write,
+    plan: &Plan<'_>,
+    pump_index: usize,
+    response: &FrequencyResponse,
+) -> anyhow::Result<()> {
+    let circuit = plan.circuit();
+    let pump = &circuit.pumps[pump_index];
+    let fp = pump.pumping_frequency_hz();
+    writeln!(
+        out,
+        "impedance pump `{}` sees at its harmonics ({:.0} rpm); the full curve is in the CSV as `{}`:",
+        pump.name,
+        pump.speed_rev_s * 60.0,
+        load_impedance_point(&response.pump)
+    )?;
+    writeln!(
+        out,
+        "  {:>8}  {:>12}  {:>14}  {:>9}",
+        "harmonic", "frequency Hz", "|Z| Pa·s/m³", "phase deg"
+    )?;
+    let mut ws = plan.workspace();
+    for k in 1..=circuit.harmonics {
+        let f = f64::from(k) * fp;
+        let s = plan
+            .solve(f, &[(pump.node, ripline::C64::new(1.0, 0.0))], &mut ws)
+            .with_context(|| format!("the impedance at harmonic {k}"))?;
+        let p = s.node_pressures[pump.node];
+        let ys = pump
+            .source_impedance
+            .admittance(2.0 * std::f64::consts::PI * f);
+        let z = p / (ripline::C64::new(1.0, 0.0) - ys * p);
+        if !z.is_finite() {
+            anyhow::bail!(
+                "the impedance pump `{}` sees is not finite at {f:.3} Hz",
+                pump.name
+            );
+        }
+        writeln!(
+            out,
+            "  {:>8}  {:>12.2}  {:>14.4e}  {:>9.1}",
+            k,
+            f,
+            z.norm(),
+            z.arg().to_degrees()
+        )?;
+    }
+    Ok(())
+}
+
+fn charts(
+    response: &FrequencyResponse,
+    resonances: &[Resonance],
+    bands: &[HarmonicBand],
+    margin: f64,
+    title: Option<&str>,
+) -> Vec<plot::LineChart> {
+    let x_bands: Vec<plot::Band> = bands
+        .iter()
+        .filter(|b| b.high_hz > b.low_hz)
+        .map(|b| plot::Band {
+            from: b.low_hz,
+            to: b.high_hz,
+            label: format!("{}×", b.order),
+        })
+        .collect();
+    let mut x_markers: Vec<plot::Marker> = bands
+        .iter()
+        .filter(|b| b.high_hz == b.low_hz)
+        .map(|b| plot::Marker {
+            value: b.low_hz,
+            label: format!("{}×", b.order),
+        })
+        .collect();
+    // Label the resonances that a harmonic crosses or nears; mark all.
+    x_markers.extend(
+        resonances
+            .iter()
+            .filter(|r| !crossings(r.freq_hz, bands, margin).is_empty())
+            .map(|r| plot::Marker {
+                value: r.freq_hz,
+                label: format!("{:.0} Hz", r.freq_hz),
+            }),
+    );
+    let series = response
+        .points
+        .iter()
+        .map(|p| plot::XySeries {
+            name: p.name.clone(),
+            points: response
+                .freqs_hz
+                .iter()
+                .zip(&p.values)
+                .map(|(f, v)| (*f, (v.norm() / BAR_PER_LPM).max(1e-300)))
+                .collect(),
+            ..Default::default()
+        })
+        .collect();
+    let point_markers = resonances
+        .iter()
+        .map(|r| plot::PointMarker {
+            x: r.freq_hz,
+            y: r.level / BAR_PER_LPM,
+            label: String::new(),
+        })
+        .collect();
+    let top = plot::LineChart {
+        title: format!(
+            "Frequency response — {} (shaded: harmonic bands; dashed: resonances they cross or near)",
+            title.unwrap_or(&response.pump)
+        ),
+        x_label: "frequency (Hz)".into(),
+        y_label: "pressure per source flow (bar per L/min)".into(),
+        series,
+        log_x: true,
+        log_y: true,
+        x_markers,
+        point_markers,
+        x_bands: x_bands.clone(),
+        ..Default::default()
+    };
+    let load = plot::LineChart {
+        title: format!("Impedance seen by pump {}", response.pump),
+        x_label: "frequency (Hz)".into(),
+        y_label: "|Z| (Pa·s/m³)".into(),
+        series: vec![plot::XySeries {
+            name: "load impedance".into(),
+            points: response
+                .freqs_hz
+                .iter()
+                .zip(&response.load_impedance)
+                .map(|(f, z)| (*f, z.norm().max(1e-300)))
+                .collect(),
+            ..Default::default()
+        }],
+        log_x: true,
+        log_y: true,
+        x_bands,
+        ..Default::default()
+    };
+    vec![top, load]
+}
