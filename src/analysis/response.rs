@@ -304,6 +304,7 @@ pub fn find_resonances(
                     (None, Some(b)) => Some(f0 / (2.0 * (b - f0))),
                     (None, None) => None,
                 }
+                .filter(|q| q.is_finite() && *q > 0.0)
             };
             peaks.push(Peak {
                 point: pi,
@@ -468,18 +469,20 @@ pub struct Crossing {
     pub coverage: Coverage,
 }
 
-/// The harmonics whose bands contain `freq_hz`, or come within `margin`
+/// The harmonics whose bands contain `freq_hz` (to a relative 1e-6, so that
+/// a single speed exactly on a resonance counts), or come within `margin`
 /// (a fraction of `freq_hz`) of it.
 pub fn crossings(freq_hz: f64, bands: &[HarmonicBand], margin: f64) -> Vec<Crossing> {
+    const EDGE: f64 = 1e-6;
     bands
         .iter()
         .filter_map(|b| {
-            if b.low_hz <= freq_hz && freq_hz <= b.high_hz {
+            if b.low_hz * (1.0 - EDGE) <= freq_hz && freq_hz <= b.high_hz * (1.0 + EDGE) {
+                let speed_rev_s = (freq_hz / b.hz_per_rev_s)
+                    .clamp(b.low_hz / b.hz_per_rev_s, b.high_hz / b.hz_per_rev_s);
                 return Some(Crossing {
                     order: b.order,
-                    coverage: Coverage::Crossed {
-                        speed_rev_s: freq_hz / b.hz_per_rev_s,
-                    },
+                    coverage: Coverage::Crossed { speed_rev_s },
                 });
             }
             let (edge, gap) = if freq_hz < b.low_hz {

@@ -118,6 +118,7 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
             .stage_with(path, |tmp| plot::stacked_line_charts(tmp, &charts))
             .with_context(|| format!("drawing {}", path.display()))?;
     }
+    let load = load_at_harmonics(&plan, pump_index)?;
     let mut out = std::io::stdout().lock();
     writeln!(out, "ripline response: {}", loaded.source)?;
     if let Some(title) = &circuit.title {
@@ -150,7 +151,7 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
     writeln!(out)?;
     print_verdicts(&mut out, pump, &resonances, &bands, margin)?;
     writeln!(out)?;
-    print_load(&mut out, &plan, pump_index, &response)?;
+    print_load(&mut out, pump, &load, &response)?;
     out.flush()?;
     drop(out);
     outputs
@@ -311,16 +312,41 @@ fn print_verdicts(
     )
 }
 
-/// The impedance the pump sees at its harmonics (at its nominal speed).
-fn print_load(
-    out: &mut impl Write,
+/// The impedance the pump sees at each harmonic at its nominal speed:
+/// (order, frequency, impedance), `None` at an undamped pole.
+fn load_at_harmonics(
     plan: &Plan<'_>,
     pump_index: usize,
-    response: &FrequencyResponse,
-) -> anyhow::Result<()> {
+) -> anyhow::Result<Vec<(u32, f64, Option<ripline::C64>)>> {
     let circuit = plan.circuit();
     let pump = &circuit.pumps[pump_index];
-    let fp = pump.pumping_frequency_hz();
+    let one = ripline::C64::new(1.0, 0.0);
+    let mut ws = plan.workspace();
+    let mut rows = Vec::new();
+    for k in 1..=circuit.harmonics {
+        let f = f64::from(k) * pump.pumping_frequency_hz();
+        let z = match plan.solve(f, &[(pump.node, one)], &mut ws) {
+            Ok(s) => {
+                let p = s.node_pressures[pump.node];
+                let ys = pump
+                    .source_impedance
+                    .admittance(2.0 * std::f64::consts::PI * f);
+                Some(p / (one - ys * p)).filter(|z| z.is_finite())
+            }
+            Err(ripline::network::SolveError::Singular { .. }) => None,
+            Err(e) => return Err(e).with_context(|| format!("the impedance at harmonic {k}")),
+        };
+        rows.push((k, f, z));
+    }
+    Ok(rows)
+}
+
+fn print_load(
+    out: &mut impl Write,
+    pump: &ripline::source::Pump,
+    rows: &[(u32, f64, Option<ripline::C64>)],
+    response: &FrequencyResponse,
+) -> std::io::Result<()> {
     writeln!(
         out,
         "impedance pump `{}` sees at its harmonics ({:.0} rpm); the full curve is in the CSV as `{}`:",
@@ -333,31 +359,22 @@ fn print_load(
         "  {:>8}  {:>12}  {:>14}  {:>9}",
         "harmonic", "frequency Hz", "|Z| Pa·s/m³", "phase deg"
     )?;
-    let mut ws = plan.workspace();
-    for k in 1..=circuit.harmonics {
-        let f = f64::from(k) * fp;
-        let s = plan
-            .solve(f, &[(pump.node, ripline::C64::new(1.0, 0.0))], &mut ws)
-            .with_context(|| format!("the impedance at harmonic {k}"))?;
-        let p = s.node_pressures[pump.node];
-        let ys = pump
-            .source_impedance
-            .admittance(2.0 * std::f64::consts::PI * f);
-        let z = p / (ripline::C64::new(1.0, 0.0) - ys * p);
-        if !z.is_finite() {
-            anyhow::bail!(
-                "the impedance pump `{}` sees is not finite at {f:.3} Hz",
-                pump.name
-            );
+    for &(k, f, z) in rows {
+        match z {
+            Some(z) => writeln!(
+                out,
+                "  {:>8}  {:>12.2}  {:>14.4e}  {:>9.1}",
+                k,
+                f,
+                z.norm(),
+                z.arg().to_degrees()
+            )?,
+            None => writeln!(
+                out,
+                "  {:>8}  {:>12.2}  unbounded (an undamped resonance of a lossless model)",
+                k, f
+            )?,
         }
-        writeln!(
-            out,
-            "  {:>8}  {:>12.2}  {:>14.4e}  {:>9.1}",
-            k,
-            f,
-            z.norm(),
-            z.arg().to_degrees()
-        )?;
     }
     Ok(())
 }
@@ -396,9 +413,11 @@ fn charts(
                 label: format!("{:.0} Hz", r.freq_hz),
             }),
     );
+    // A point held at zero ripple (a tank) has nothing to draw on a log axis.
     let series = response
         .points
         .iter()
+        .filter(|p| p.values.iter().any(|v| v.norm() > 0.0))
         .map(|p| plot::XySeries {
             name: p.name.clone(),
             points: response
