@@ -225,7 +225,8 @@ fn helmholtz_notch_at_the_textbook_frequency() {
 
 // Pulsation damper (methods.md §4 worked example, Boyle's and the polytropic
 // law): V0 = 1 L, p0 = 60 bar abs, p_m = 100 bar abs, κ = 1.4: V_g = 0.6 L,
-// C_g = 4.2857e-11 m³/Pa; neck 20 mm × 100 mm. With the 0.4 L of oil at
+// C_g = 4.2857e-11 m³/Pa; neck 20 mm × 100 mm, L_n = ρl/A = 2.7693e5 kg/m⁴,
+// f_r = 46.198 Hz from C_g alone (methods.md §8 case 11). With the 0.4 L of oil at
 // 1.6 GPa the lumped resonance is 46.06391247080252 Hz, and with the neck as
 // a lossless line tan(kl) = 1/(Z0n ω C) gives 46.06038399762773 Hz
 // (silencer_refs.py [4]).
@@ -241,7 +242,12 @@ fn damper_resonance_from_the_precharge() {
         neck: rigid_neck(&props(0.01, LineModel::Lossless), 0.02, RHO * C0 * C0),
     };
     assert!((d.gas_volume_at_operating_m3() - 6e-4).abs() < 1e-16);
+    assert!((d.oil_volume_m3() - 4e-4).abs() < 1e-16);
     assert!((d.gas_compliance() - 4.285714285714286e-11).abs() < 1e-24);
+    assert!((d.neck_inertance() - 276929.6009798979).abs() < 1e-6);
+    // methods.md's 46.198 Hz is the gas compliance alone:
+    let f_gas = 1.0 / (2.0 * PI * (d.neck_inertance() * d.gas_compliance()).sqrt());
+    assert!((f_gas - 46.19807018666231).abs() < 1e-9, "{f_gas}");
     assert!((d.lumped_resonance_hz() - 46.06391247080252).abs() < 1e-9);
     let f = notch(&ElementKind::Damper(d), 40.0, 52.0);
     assert!((f / 46.06038399762773 - 1.0).abs() < 1e-8, "{f}");

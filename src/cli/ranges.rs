@@ -2,13 +2,14 @@
 //! `LO..HI`, the operating speed range, looking up pumps, points and
 //! elements by name, and the progress bar.
 
-use super::common::{UsageError, cli_quantity};
+use super::common::{UsageError, check_output, cli_quantity};
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use ripline::Circuit;
 use ripline::analysis::ripple::report_points;
 use ripline::circuit::TapLocation;
 use ripline::units::Dimension;
 use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
 
 /// Parses `LO..HI`, each side a quantity (a bare number in `bare_unit`).
 pub fn parse_range(
@@ -217,4 +218,113 @@ impl Progress {
     pub fn finish(self) {
         self.0.finish_and_clear();
     }
+}
+
+/// Checks an optional CSV output path before any work.
+pub fn csv_output(option: &str, path: Option<&Path>) -> anyhow::Result<Option<PathBuf>> {
+    path.map(|p| check_output(option, p, &["csv"])).transpose()
+}
+
+/// Checks an optional plot output path before any work.
+pub fn plot_output(path: Option<&Path>) -> anyhow::Result<Option<PathBuf>> {
+    path.map(|p| check_output("--plot", p, &["svg", "png"]))
+        .transpose()
+}
+
+/// What a frequency sweep of `response` or `silencer` covers.
+pub struct Sweep {
+    /// The pump that drives it.
+    pub pump_index: usize,
+    /// The operating speed range.
+    pub speeds: SpeedRange,
+    /// The band in Hz.
+    pub band: (f64, f64),
+    /// Number of log-spaced frequencies.
+    pub points: usize,
+}
+
+/// The options that set up a frequency sweep, shared by `response` and
+/// `silencer`.
+#[derive(Debug, clap::Args)]
+pub struct SweepArgs {
+    /// Frequency band LOW..HIGH in Hz (default: a quarter of the lowest
+    /// pumping frequency up to 10 harmonics, or the circuit's `harmonics`
+    /// if more, at the top speed).
+    #[arg(long, value_name = "LOW..HIGH")]
+    band: Option<String>,
+    /// Number of log-spaced frequencies (default: steps of 0.2 %).
+    #[arg(long, value_name = "N")]
+    points: Option<usize>,
+    /// Operating speed range LOW..HIGH, in rpm unless a unit is given
+    /// (overrides the pump's `speed_range`).
+    #[arg(long, value_name = "LOW..HIGH")]
+    speed_range: Option<String>,
+    /// The pump whose source flow drives the circuit (default: the first).
+    #[arg(long, value_name = "NAME")]
+    pump: Option<String>,
+}
+
+/// Resolves the sweep options against a circuit (see [`SweepArgs`]) and
+/// prints the circuit's warnings up to the top of the band.
+pub fn sweep(circuit: &Circuit, args: &SweepArgs) -> anyhow::Result<Sweep> {
+    let (pump, speed_range, band, points) = (
+        args.pump.as_deref(),
+        args.speed_range.as_deref(),
+        args.band.as_deref(),
+        args.points,
+    );
+    let pump_index = pump_index(circuit, pump)?;
+    let speeds = self::speed_range(speed_range, circuit, pump_index)?;
+    let z = f64::from(circuit.pumps[pump_index].pumping_elements);
+    let band = match band {
+        Some(text) => parse_range("--band", text, Dimension::Frequency, "Hz")?,
+        None => (
+            0.25 * z * speeds.rev_s.0,
+            f64::from(circuit.harmonics.max(10)) * z * speeds.rev_s.1,
+        ),
+    };
+    let points = match points {
+        Some(n) if (10..=200_000).contains(&n) => n,
+        Some(n) => {
+            return Err(
+                UsageError(format!("--points must be between 10 and 200000, found {n}")).into(),
+            );
+        }
+        None => ripline::analysis::response::default_points(band.0, band.1),
+    };
+    for w in ripline::diagnostics::circuit_warnings(circuit, band.1) {
+        eprintln!("warning: {w}");
+    }
+    Ok(Sweep {
+        pump_index,
+        speeds,
+        band,
+        points,
+    })
+}
+
+/// Harmonic bands for a chart: shaded bands over a speed range, or dashed
+/// markers when the range is a single speed.
+pub fn band_marks(
+    bands: &[ripline::analysis::response::HarmonicBand],
+) -> (Vec<ripline::plot::Band>, Vec<ripline::plot::Marker>) {
+    let label = |order: u32| format!("{order}×");
+    let shaded = bands
+        .iter()
+        .filter(|b| b.high_hz > b.low_hz)
+        .map(|b| ripline::plot::Band {
+            from: b.low_hz,
+            to: b.high_hz,
+            label: label(b.order),
+        })
+        .collect();
+    let lines = bands
+        .iter()
+        .filter(|b| b.high_hz == b.low_hz)
+        .map(|b| ripline::plot::Marker {
+            value: b.low_hz,
+            label: label(b.order),
+        })
+        .collect();
+    (shaded, lines)
 }

@@ -6,14 +6,14 @@ use super::ranges::{self, Progress};
 use anyhow::Context;
 use clap::Args;
 use ripline::analysis::response::{
-    Coverage, FrequencyResponse, HarmonicBand, PeakSettings, Resonance, crossings, default_points,
-    find_resonances, frequency_response, harmonic_bands, log_grid,
+    Coverage, FrequencyResponse, HarmonicBand, PeakSettings, Resonance, crossings, find_resonances,
+    frequency_response, harmonic_bands, log_grid,
 };
 use ripline::io::csv_response::{load_impedance_point, write_response_csv};
 use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
-use ripline::units::{Dimension, PressureDisplay};
+use ripline::units::PressureDisplay;
 use std::io::Write;
 use std::path::PathBuf;
 
@@ -22,26 +22,13 @@ const BAR_PER_LPM: f64 = 1e5 * 60_000.0;
 
 #[derive(Debug, Args)]
 pub struct ResponseArgs {
+    #[command(flatten)]
+    sweep: ranges::SweepArgs,
     /// Circuit file (YAML); the built-in demo circuit when omitted.
     file: Option<PathBuf>,
-    /// Frequency band LOW..HIGH in Hz (default: a quarter of the lowest
-    /// pumping frequency up to 10 harmonics, or the circuit's `harmonics`
-    /// if more, at the top speed).
-    #[arg(long, value_name = "LOW..HIGH")]
-    band: Option<String>,
-    /// Number of log-spaced frequencies (default: steps of 0.2 %).
-    #[arg(long, value_name = "N")]
-    points: Option<usize>,
-    /// Operating speed range LOW..HIGH, in rpm unless a unit is given
-    /// (overrides the pump's `speed_range`).
-    #[arg(long, value_name = "LOW..HIGH")]
-    speed_range: Option<String>,
     /// How close to a harmonic band a resonance counts as "near".
     #[arg(long, value_name = "PERCENT", default_value = "10%")]
     margin: String,
-    /// The pump whose source flow drives the response (default: the first).
-    #[arg(long, value_name = "NAME")]
-    pump: Option<String>,
     /// Write the response as CSV (point,frequency_hz,amplitude_pa_per_m3s,phase_deg).
     #[arg(long, value_name = "FILE")]
     csv: Option<PathBuf>,
@@ -51,43 +38,19 @@ pub struct ResponseArgs {
 }
 
 pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
-    let csv_path = args
-        .csv
-        .as_deref()
-        .map(|p| common::check_output("--csv", p, &["csv"]))
-        .transpose()?;
-    let plot_path = args
-        .plot
-        .as_deref()
-        .map(|p| common::check_output("--plot", p, &["svg", "png"]))
-        .transpose()?;
+    let csv_path = ranges::csv_output("--csv", args.csv.as_deref())?;
+    let plot_path = ranges::plot_output(args.plot.as_deref())?;
     let margin = ranges::parse_fraction("--margin", &args.margin)?;
     let loaded = common::load_circuit(args.file.as_deref())?;
     let circuit = &loaded.circuit;
-    let pump_index = ranges::pump_index(circuit, args.pump.as_deref())?;
+    let ranges::Sweep {
+        pump_index,
+        speeds,
+        band,
+        points,
+    } = ranges::sweep(circuit, &args.sweep)?;
     let pump = &circuit.pumps[pump_index];
-    let speeds = ranges::speed_range(args.speed_range.as_deref(), circuit, pump_index)?;
     let z = f64::from(pump.pumping_elements);
-    let harmonics = circuit.harmonics.max(10);
-    let band = match &args.band {
-        Some(text) => ranges::parse_range("--band", text, Dimension::Frequency, "Hz")?,
-        None => (
-            0.25 * z * speeds.rev_s.0,
-            f64::from(harmonics) * z * speeds.rev_s.1,
-        ),
-    };
-    let points = match args.points {
-        Some(n) if (10..=200_000).contains(&n) => n,
-        Some(n) => {
-            return Err(
-                UsageError(format!("--points must be between 10 and 200000, found {n}")).into(),
-            );
-        }
-        None => default_points(band.0, band.1),
-    };
-    for w in ripline::diagnostics::circuit_warnings(circuit, band.1) {
-        eprintln!("warning: {w}");
-    }
     let plan = Plan::compile(circuit).map_err(|e| UsageError(format!("{}: {e}", loaded.source)))?;
     let freqs = log_grid(band.0, band.1, points);
     let progress = Progress::new(freqs.len(), "frequency response");
@@ -386,23 +349,7 @@ fn charts(
     margin: f64,
     title: Option<&str>,
 ) -> Vec<plot::LineChart> {
-    let x_bands: Vec<plot::Band> = bands
-        .iter()
-        .filter(|b| b.high_hz > b.low_hz)
-        .map(|b| plot::Band {
-            from: b.low_hz,
-            to: b.high_hz,
-            label: format!("{}×", b.order),
-        })
-        .collect();
-    let mut x_markers: Vec<plot::Marker> = bands
-        .iter()
-        .filter(|b| b.high_hz == b.low_hz)
-        .map(|b| plot::Marker {
-            value: b.low_hz,
-            label: format!("{}×", b.order),
-        })
-        .collect();
+    let (x_bands, mut x_markers) = ranges::band_marks(bands);
     // Label the resonances that a harmonic crosses or nears; mark all.
     x_markers.extend(
         resonances

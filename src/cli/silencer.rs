@@ -8,7 +8,7 @@ use super::ranges::{self, Progress};
 use anyhow::Context;
 use clap::{Args, ValueEnum};
 use ripline::Circuit;
-use ripline::analysis::response::{default_points, harmonic_bands, log_grid};
+use ripline::analysis::response::{harmonic_bands, log_grid};
 use ripline::analysis::silencer::{
     Chain, WithoutReference, circuit_without, insertion_loss_db, pressure_per_unit_flow,
     transmission_loss_db,
@@ -20,7 +20,7 @@ use ripline::io::csv_response::{HarmonicLoss, write_harmonic_loss_csv, write_los
 use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
-use ripline::units::{Dimension, PressureDisplay};
+use ripline::units::PressureDisplay;
 use std::io::Write;
 use std::path::PathBuf;
 
@@ -35,6 +35,8 @@ enum Without {
 
 #[derive(Debug, Args)]
 pub struct SilencerArgs {
+    #[command(flatten)]
+    sweep: ranges::SweepArgs,
     /// Circuit file (YAML).
     file: PathBuf,
     /// The silencer element; repeat to analyse a chain, listed in order
@@ -53,18 +55,6 @@ pub struct SilencerArgs {
     /// for the transmission loss (default: the pipes met at each end).
     #[arg(long, value_name = "TUBE")]
     reference: Option<String>,
-    /// Frequency band LOW..HIGH in Hz (default as for `response`).
-    #[arg(long, value_name = "LOW..HIGH")]
-    band: Option<String>,
-    /// Number of log-spaced frequencies (default: steps of 0.2 %).
-    #[arg(long, value_name = "N")]
-    points: Option<usize>,
-    /// Operating speed range LOW..HIGH, in rpm unless a unit is given.
-    #[arg(long, value_name = "LOW..HIGH")]
-    speed_range: Option<String>,
-    /// The pump (default: the first).
-    #[arg(long, value_name = "NAME")]
-    pump: Option<String>,
     /// Write TL and IL versus frequency as CSV
     /// (frequency_hz,transmission_loss_db,insertion_loss_db).
     #[arg(long, value_name = "FILE")]
@@ -78,21 +68,9 @@ pub struct SilencerArgs {
 }
 
 pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
-    let csv_path = args
-        .csv
-        .as_deref()
-        .map(|p| common::check_output("--csv", p, &["csv"]))
-        .transpose()?;
-    let harmonic_csv_path = args
-        .harmonic_csv
-        .as_deref()
-        .map(|p| common::check_output("--harmonic-csv", p, &["csv"]))
-        .transpose()?;
-    let plot_path = args
-        .plot
-        .as_deref()
-        .map(|p| common::check_output("--plot", p, &["svg", "png"]))
-        .transpose()?;
+    let csv_path = ranges::csv_output("--csv", args.csv.as_deref())?;
+    let harmonic_csv_path = ranges::csv_output("--harmonic-csv", args.harmonic_csv.as_deref())?;
+    let plot_path = ranges::plot_output(args.plot.as_deref())?;
     let loaded = common::load_circuit(Some(&args.file))?;
     let circuit = &loaded.circuit;
     let ids = args
@@ -135,29 +113,14 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
             "point `{tap_name}` does not exist once the silencer is taken out: choose another point"
         ))
     })?;
-    let pump_index = ranges::pump_index(circuit, args.pump.as_deref())?;
+    let ranges::Sweep {
+        pump_index,
+        speeds,
+        band,
+        points,
+    } = ranges::sweep(circuit, &args.sweep)?;
     let pump = &circuit.pumps[pump_index];
-    let speeds = ranges::speed_range(args.speed_range.as_deref(), circuit, pump_index)?;
     let z = f64::from(pump.pumping_elements);
-    let band = match &args.band {
-        Some(text) => ranges::parse_range("--band", text, Dimension::Frequency, "Hz")?,
-        None => (
-            0.25 * z * speeds.rev_s.0,
-            f64::from(circuit.harmonics.max(10)) * z * speeds.rev_s.1,
-        ),
-    };
-    let points = match args.points {
-        Some(n) if (10..=200_000).contains(&n) => n,
-        Some(n) => {
-            return Err(
-                UsageError(format!("--points must be between 10 and 200000, found {n}")).into(),
-            );
-        }
-        None => default_points(band.0, band.1),
-    };
-    for w in ripline::diagnostics::circuit_warnings(circuit, band.1) {
-        eprintln!("warning: {w}");
-    }
     let plan_with =
         Plan::compile(circuit).map_err(|e| UsageError(format!("{}: {e}", loaded.source)))?;
     let plan_without = Plan::compile(&without).map_err(|e| {
@@ -465,23 +428,7 @@ fn loss_charts(
     names: &str,
     tap: &str,
 ) -> Vec<plot::LineChart> {
-    let x_bands: Vec<plot::Band> = bands
-        .iter()
-        .filter(|b| b.high_hz > b.low_hz)
-        .map(|b| plot::Band {
-            from: b.low_hz,
-            to: b.high_hz,
-            label: format!("{}×", b.order),
-        })
-        .collect();
-    let x_markers: Vec<plot::Marker> = bands
-        .iter()
-        .filter(|b| b.high_hz == b.low_hz)
-        .map(|b| plot::Marker {
-            value: b.low_hz,
-            label: format!("{}×", b.order),
-        })
-        .collect();
+    let (x_bands, x_markers) = ranges::band_marks(bands);
     let curve = |name: &str, v: &[f64]| plot::XySeries {
         name: name.into(),
         points: freqs.iter().copied().zip(v.iter().copied()).collect(),

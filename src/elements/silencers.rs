@@ -308,50 +308,9 @@ mod tests {
         }
     }
 
-    // methods.md §8 case 7 (Kinsler et al. 2000, §10.8 formula
-    // f_H = (c/2π)√(A/(l'V))): V = 1 L, neck 10 mm × 50 mm, c = 1350 m/s,
-    // no end correction → 269.286 Hz. With 2 × 8r/(3π) added to l:
-    // 248.9800 Hz (mpmath 1.3, tests/oracles/silencer_refs.py [3]).
-    #[test]
-    fn helmholtz_frequency_with_and_without_end_correction() {
-        let h = HelmholtzResonator {
-            volume_m3: 1e-3,
-            bulk_modulus_pa: RHO * C0 * C0,
-            neck_length_m: 0.05,
-            neck: props(0.005, LineModel::Lossless),
-            end_correction: true,
-        };
-        assert!((h.lumped_frequency_hz(false) - 269.286_039).abs() < 1e-5);
-        assert!((h.lumped_frequency_hz(true) - 248.980_008).abs() < 1e-5);
-        assert!((h.effective_neck_length_m() - (0.05 + 0.01 * 8.0 / (3.0 * PI))).abs() < 1e-15);
-    }
-
-    // methods.md §4 worked example, from Boyle's law and the polytropic law:
-    // V0 = 1 L, p0 = 60 bar(a), p_m = 100 bar(a), κ = 1.4 → V_g = 0.6 L,
-    // C_g = V_g/(κ p_m) = 4.2857e-11 m³/Pa; neck 20 mm × 100 mm, ρ = 870 →
-    // L_n = 2.7693e5 kg/m⁴, f_r = 46.198 Hz from C_g alone.
-    #[test]
-    fn damper_gas_volume_follows_the_precharge() {
-        let d = PulsationDamper {
-            gas_volume_m3: 1e-3,
-            precharge_pa: 60e5,
-            operating_pa: 100e5,
-            polytropic_index: 1.4,
-            bulk_modulus_pa: 1.6e9,
-            neck_length_m: 0.1,
-            neck: props(0.01, LineModel::Laminar),
-        };
-        assert!(d.validate().is_ok());
-        assert!((d.gas_volume_at_operating_m3() - 6e-4).abs() < 1e-15);
-        assert!((d.oil_volume_m3() - 4e-4).abs() < 1e-15);
-        assert!((d.gas_compliance() - 4.2857e-11).abs() < 5e-16);
-        assert!((d.neck_inertance() - 2.7693e5).abs() < 1.0);
-        let f_gas_only = 1.0 / (2.0 * PI * (d.neck_inertance() * d.gas_compliance()).sqrt());
-        assert!((f_gas_only - 46.198).abs() < 1e-3, "{f_gas_only}");
-        // The oil (0.4 L at 1.6 GPa, 2.5e-13 m³/Pa) lowers it by about 0.3 %.
-        assert!(d.lumped_resonance_hz() < f_gas_only);
-        assert!(d.lumped_resonance_hz() > 0.996 * f_gas_only);
-    }
+    // The integration tests (tests/silencers.rs) check the Helmholtz
+    // frequency, the damper's gas volume and resonance and the side branch
+    // against published values; these unit tests cover what they do not.
 
     #[test]
     fn damper_refuses_an_operating_pressure_below_the_precharge() {

@@ -216,7 +216,7 @@ impl RawKind {
     /// The optional keys this kind accepts (besides `name` and `kind`).
     fn allowed_keys(self) -> &'static [&'static str] {
         match self {
-            RawKind::Tube => &[
+            RawKind::Tube | RawKind::ExpansionChamber => &[
                 "from",
                 "to",
                 "length",
@@ -235,17 +235,6 @@ impl RawKind {
             RawKind::ClosedEnd | RawKind::Tank => &["at"],
             RawKind::SideBranch => &[
                 "at",
-                "length",
-                "bore",
-                "wall",
-                "material",
-                "youngs_modulus",
-                "rigid",
-                "model",
-            ],
-            RawKind::ExpansionChamber => &[
-                "from",
-                "to",
                 "length",
                 "bore",
                 "wall",
@@ -597,6 +586,22 @@ impl Checker<'_> {
         })
     }
 
+    /// A required key's SI value, within [lo, hi].
+    #[allow(clippy::too_many_arguments)]
+    fn required_in<D: q::Dim>(
+        &self,
+        path: &KeyPath,
+        key: &str,
+        value: Option<Q<D>>,
+        kind: RawKind,
+        lo: f64,
+        hi: f64,
+        unit: &str,
+    ) -> Res<f64> {
+        let v = self.required(path, key, value, kind)?;
+        self.in_range(&path.key(key), v, lo, hi, unit)
+    }
+
     fn tube(&self, path: &KeyPath, e: &RawElement, fluid: &Fluid, default: LineModel) -> Res<Tube> {
         let length = self.in_range(
             &path.key("length"),
@@ -702,20 +707,9 @@ impl Checker<'_> {
         fluid: &Fluid,
         default: LineModel,
     ) -> Res<(f64, crate::line::LineProperties)> {
-        let length = self.in_range(
-            &path.key("neck_length"),
-            self.required(path, "neck_length", e.neck_length, e.kind)?,
-            1e-4,
-            10.0,
-            "m",
-        )?;
-        let bore = self.in_range(
-            &path.key("neck_bore"),
-            self.required(path, "neck_bore", e.neck_bore, e.kind)?,
-            1e-4,
-            0.5,
-            "m",
-        )?;
+        let length =
+            self.required_in(path, "neck_length", e.neck_length, e.kind, 1e-4, 10.0, "m")?;
+        let bore = self.required_in(path, "neck_bore", e.neck_bore, e.kind, 1e-4, 0.5, "m")?;
         let like = LineProperties {
             radius_m: bore / 2.0,
             density_kg_m3: fluid.density_kg_m3,
@@ -733,13 +727,7 @@ impl Checker<'_> {
         fluid: &Fluid,
         default: LineModel,
     ) -> Res<HelmholtzResonator> {
-        let volume = self.in_range(
-            &path.key("volume"),
-            self.required(path, "volume", e.volume, e.kind)?,
-            1e-9,
-            1.0,
-            "m³",
-        )?;
+        let volume = self.required_in(path, "volume", e.volume, e.kind, 1e-9, 1.0, "m³")?;
         let (neck_length_m, neck) = self.neck(path, e, fluid, default)?;
         Ok(HelmholtzResonator {
             volume_m3: volume,
@@ -757,13 +745,8 @@ impl Checker<'_> {
         fluid: &Fluid,
         default: LineModel,
     ) -> Res<PulsationDamper> {
-        let gas_volume = self.in_range(
-            &path.key("gas_volume"),
-            self.required(path, "gas_volume", e.gas_volume, e.kind)?,
-            1e-7,
-            1.0,
-            "m³",
-        )?;
+        let gas_volume =
+            self.required_in(path, "gas_volume", e.gas_volume, e.kind, 1e-7, 1.0, "m³")?;
         let gas = |key: &str, value: Option<GasPressure>| -> Res<f64> {
             let p = value.ok_or_else(|| {
                 self.err(
