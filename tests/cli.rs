@@ -609,3 +609,94 @@ fn bad_options_of_the_sizing_commands_are_usage_errors_and_write_nothing() {
     assert!(files_in(&dir).is_empty());
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+/// The before/after numbers quoted in README.md ("Demo: a resonance crossing
+/// cured by a sized damper") are what the commands print for the demo files.
+#[test]
+fn the_readme_demo_numbers_hold() {
+    let readme =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("README.md")).unwrap();
+    for (tap, without, with, readme_without, readme_with) in [
+        (
+            "head block",
+            "4.1750 bar rms",
+            "6.991 kPa rms",
+            "4.175 bar",
+            "0.0070 bar (−35.5 dB)",
+        ),
+        (
+            "pump outlet",
+            "7.4675 bar rms",
+            "0.4214 bar rms",
+            "7.468 bar",
+            "0.421 bar (−25.0 dB)",
+        ),
+    ] {
+        // Bounds that pin the damper to the file's design.
+        let o = ripline(&[
+            "tune",
+            "networks/drill_rig_feed_damper.yaml",
+            "--element",
+            "damper",
+            "--vary",
+            "gas_volume=0.16999L..0.17001L",
+            "--samples",
+            "3",
+            "--tap",
+            tap,
+        ]);
+        assert!(o.status.success(), "{}", stderr(&o));
+        let out = stdout(&o);
+        assert!(
+            out.contains(&format!("without the silencer:   {without}")),
+            "{out}"
+        );
+        assert!(
+            out.contains(&format!("as in the file:         {with}")),
+            "{out}"
+        );
+        assert!(
+            readme.contains(readme_without) && readme.contains(readme_with),
+            "{tap}"
+        );
+    }
+    let o = ripline(&[
+        "silencer",
+        "networks/drill_rig_feed_damper.yaml",
+        "--element",
+        "damper",
+        "--tap",
+        "head block",
+        "--points",
+        "50",
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    assert!(
+        out.contains("         1        270.00     47.90     55.51"),
+        "{out}"
+    );
+    assert!(
+        out.contains("         2        540.00     18.24     18.27"),
+        "{out}"
+    );
+    assert!(readme.contains("55.5 dB on harmonic 1 and 18.3 dB on harmonic 2"));
+    let o = ripline(&[
+        "response",
+        "networks/drill_rig_feed.yaml",
+        "--points",
+        "800",
+    ]);
+    let out = stdout(&o);
+    assert!(
+        out.contains("130.34 Hz  CROSSED by harmonic 1 at 869 rpm"),
+        "{out}"
+    );
+    assert!(
+        out.contains(
+            "289.21 Hz  CROSSED by harmonic 1 at 1928 rpm (≈ 10.5764 bar at `pump outlet`)"
+        ),
+        "{out}"
+    );
+    assert!(readme.contains("130.3 Hz at 869 rpm and 289.2 Hz at 1928 rpm"));
+}
