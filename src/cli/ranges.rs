@@ -328,3 +328,18 @@ pub fn band_marks(
         .collect();
     (shaded, lines)
 }
+
+/// The bands of the harmonics the pump's source flow has, and those of the
+/// harmonics it lacks (which excite nothing).
+pub fn excited_bands(
+    pump: &ripline::source::Pump,
+    speeds: &SpeedRange,
+    harmonics: u32,
+) -> (
+    Vec<ripline::analysis::response::HarmonicBand>,
+    Vec<ripline::analysis::response::HarmonicBand>,
+) {
+    ripline::analysis::response::harmonic_bands(pump.pumping_elements, speeds.rev_s, harmonics)
+        .into_iter()
+        .partition(|b| pump.flow_ripple(b.order).norm() > 0.0)
+}

@@ -7,7 +7,7 @@ use anyhow::Context;
 use clap::Args;
 use ripline::analysis::response::{
     Coverage, FrequencyResponse, HarmonicBand, PeakSettings, Resonance, crossings, find_resonances,
-    frequency_response, harmonic_bands, log_grid,
+    frequency_response, log_grid,
 };
 use ripline::io::csv_response::{load_impedance_point, write_response_csv};
 use ripline::io::output::StagedOutputs;
@@ -60,10 +60,7 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
     let resonances = find_resonances(&plan, pump_index, &response, PeakSettings::default())
         .with_context(|| format!("refining the resonances of {}", loaded.source))?;
     // Only harmonics the pump's source flow has can excite a resonance.
-    let (bands, silent): (Vec<HarmonicBand>, Vec<HarmonicBand>) =
-        harmonic_bands(pump.pumping_elements, speeds.rev_s, circuit.harmonics)
-            .into_iter()
-            .partition(|b| pump.flow_ripple(b.order).norm() > 0.0);
+    let (bands, silent) = ranges::excited_bands(pump, &speeds, circuit.harmonics);
 
     let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
@@ -386,7 +383,7 @@ fn charts(
         .collect();
     let top = plot::LineChart {
         title: format!(
-            "Frequency response — {} (shaded: harmonic bands; dashed: resonances they cross or near)",
+            "Response per unit source flow — {}",
             title.unwrap_or(&response.pump)
         ),
         x_label: "frequency (Hz)".into(),
@@ -400,7 +397,10 @@ fn charts(
         ..Default::default()
     };
     let load = plot::LineChart {
-        title: format!("Impedance seen by pump {}", response.pump),
+        title: format!(
+            "Impedance seen by pump {}; shaded: harmonic bands over the speed range",
+            response.pump
+        ),
         x_label: "frequency (Hz)".into(),
         y_label: "|Z| (Pa·s/m³)".into(),
         series: vec![plot::XySeries {

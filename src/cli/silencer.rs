@@ -8,7 +8,7 @@ use super::ranges::{self, Progress};
 use anyhow::Context;
 use clap::{Args, ValueEnum};
 use ripline::Circuit;
-use ripline::analysis::response::{harmonic_bands, log_grid};
+use ripline::analysis::response::log_grid;
 use ripline::analysis::silencer::{
     Chain, WithoutReference, circuit_without, insertion_loss_db, pressure_per_unit_flow,
     transmission_loss_db,
@@ -203,7 +203,7 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
         il_range.push((k, lo, hi));
     }
 
-    let bands = harmonic_bands(pump.pumping_elements, speeds.rev_s, circuit.harmonics);
+    let (bands, _) = ranges::excited_bands(pump, &speeds, circuit.harmonics);
     let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
         common::stage_csv(&mut outputs, path, |buf| {
@@ -447,7 +447,8 @@ fn loss_charts(
         },
         plot::LineChart {
             title: format!("Insertion loss at {tap} (shaded: harmonic bands over the speed range)"),
-            x_label: "frequency (Hz)".into(),
+            x_label: "frequency (Hz); shaded: bands of the pump harmonics over the speed range"
+                .into(),
             y_label: "IL (dB)".into(),
             series: vec![curve("insertion loss", il)],
             log_x: true,
