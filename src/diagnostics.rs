@@ -4,6 +4,7 @@
 //! standard error, each naming the element or node and the limit.
 
 use crate::circuit::Circuit;
+use crate::elements::ElementKind;
 use crate::line::LineModel;
 use crate::line::turbulence::{BLASIUS_MAX_REYNOLDS, TRANSITION_REYNOLDS};
 use crate::network::{ILL_CONDITIONED, Solution};
@@ -44,6 +45,7 @@ pub fn circuit_warnings(circuit: &Circuit, max_freq_hz: f64) -> Vec<Warning> {
         });
     }
     for e in &circuit.elements {
+        out.extend(silencer_warning(e, max_freq_hz));
         if let Some(line) = e.kind.line() {
             let p = &line.properties;
             let limit = plane_wave_limit_hz(p.wave_speed_m_s(), 2.0 * p.radius_m);
@@ -123,6 +125,46 @@ pub fn conditioning_warning(solution: &Solution) -> Option<Warning> {
             solution.condition.log10()
         ),
     })
+}
+
+/// Validity limits of the silencer models: a chamber or branch above its
+/// plane-wave limit, and a resonator cavity that is not small against the
+/// wavelength (its size taken as the cube root of its volume; common
+/// practice: lumped below λ/8). A damper's gas is always lumped (its own
+/// wavelength is not known without gas properties); see PulsationDamper.
+fn silencer_warning(e: &crate::elements::Element, max_freq_hz: f64) -> Option<Warning> {
+    let (tube, vessel) = match &e.kind {
+        ElementKind::SideBranch(s) => (Some(&s.tube), None),
+        ElementKind::ExpansionChamber(c) => (Some(&c.tube), None),
+        ElementKind::Helmholtz(h) => (None, Some((h.volume_m3, h.neck.wave_speed_m_s()))),
+        _ => (None, None),
+    };
+    let subject = format!("{} `{}`", e.kind.name(), e.name);
+    if let Some(t) = tube {
+        let limit = plane_wave_limit_hz(t.line.properties.wave_speed_m_s(), t.bore_m());
+        if max_freq_hz > limit {
+            return Some(Warning {
+                subject,
+                message: format!(
+                    "frequencies up to {max_freq_hz:.0} Hz exceed its plane-wave limit {limit:.0} Hz (first cut-on, 1.84·c/(πD)): results above it are not valid"
+                ),
+            });
+        }
+    }
+    if let Some((volume, c)) = vessel {
+        let size = volume.cbrt();
+        let limit = c / (8.0 * size);
+        if max_freq_hz > limit {
+            return Some(Warning {
+                subject,
+                message: format!(
+                    "its cavity (about {:.0} mm across) is not small against the wavelength above {limit:.0} Hz (λ/8): the lumped cavity model is approximate up to {max_freq_hz:.0} Hz",
+                    size * 1e3
+                ),
+            });
+        }
+    }
+    None
 }
 
 #[cfg(test)]

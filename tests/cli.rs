@@ -405,6 +405,26 @@ const BAD_FILES: &[(&str, &str)] = &[
         "wall_key_on_hose.yaml",
         ":65:5: elements[1].wall: key `wall` does not apply to a `hose`",
     ),
+    (
+        "damper_below_precharge.yaml",
+        ":71:5: elements[3].operating_pressure: the operating pressure 51.01 bar abs is below the precharge 121.01 bar abs",
+    ),
+    (
+        "gas_pressure_without_abs_or_gauge.yaml",
+        ":70:16: elements[3].precharge: `120 bar`: a gas pressure must say whether it is absolute or gauge",
+    ),
+    (
+        "helmholtz_without_neck_bore.yaml",
+        ":66:3: elements[3]: a `helmholtz_resonator` needs the key `neck_bore`",
+    ),
+    (
+        "key_for_other_silencer.yaml",
+        ":68:5: elements[3].end_correction: key `end_correction` does not apply to a `side_branch`",
+    ),
+    (
+        "polytropic_index_out_of_range.yaml",
+        ":72:5: elements[3].polytropic_index: the polytropic index must be between 1.0",
+    ),
 ];
 
 #[test]
@@ -444,9 +464,9 @@ fn bad_circuit_files_exit_2_with_a_located_message_and_write_nothing() {
     }
     for (file, fragment) in BAD_FILES {
         let path = format!("tests/bad/{file}");
-        for cmd in ["solve", "check"] {
+        for cmd in ["solve", "check", "response"] {
             let mut args = vec![cmd, path.as_str()];
-            if cmd == "solve" {
+            if cmd != "check" {
                 args.extend([
                     "--csv",
                     csv.to_str().unwrap(),
@@ -938,4 +958,335 @@ fn check_reports_the_fluid_at_its_operating_point_and_the_hoses() {
         "{}",
         stderr(&solve)
     );
+}
+
+#[test]
+fn response_finds_the_crossings_of_the_demo_and_writes_csv_and_plot() {
+    let dir = scratch("response");
+    let (csv, plot) = (dir.join("r.csv"), dir.join("r.svg"));
+    let o = ripline(&[
+        "response",
+        "networks/drill_rig_feed.yaml",
+        "--points",
+        "400",
+        "--csv",
+        csv.to_str().unwrap(),
+        "--plot",
+        plot.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    assert!(
+        out.contains("speed range: 800–2400 rpm (the pump's `speed_range`)"),
+        "{out}"
+    );
+    // The first line resonance (about 130 Hz) lies inside harmonic 1's band
+    // 120–360 Hz (9 pistons × 800–2400 rpm).
+    assert!(out.contains("CROSSED by harmonic 1 at"), "{out}");
+    assert!(
+        out.contains("harmonic  1:    120.00 –    360.00 Hz"),
+        "{out}"
+    );
+    assert!(!out.contains("NaN") && !out.contains("inf "), "{out}");
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(
+        lines.next(),
+        Some("point,frequency_hz,amplitude_pa_per_m3s,phase_deg")
+    );
+    let rows: Vec<Vec<String>> = lines
+        .map(|l| l.split(',').map(str::to_string).collect())
+        .collect();
+    assert_eq!(rows.len(), 3 * 400);
+    for point in [
+        "pump outlet",
+        "head block",
+        "impedance seen by pump axial piston pump",
+    ] {
+        let mine: Vec<_> = rows.iter().filter(|r| r[0] == point).collect();
+        assert_eq!(mine.len(), 400, "{point}");
+        for r in mine {
+            let a: f64 = r[2].parse().unwrap();
+            assert!(a.is_finite() && a > 0.0);
+        }
+    }
+    assert!(std::fs::read_to_string(&plot).unwrap().contains("<svg"));
+    assert_eq!(files_in(&dir), vec!["r.csv", "r.svg"]);
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+#[test]
+fn response_says_where_the_speed_range_comes_from() {
+    let o = ripline(&["response", "--points", "200"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stdout(&o).contains("speed range: none given"),
+        "{}",
+        stdout(&o)
+    );
+    let o = ripline(&["response", "--points", "200", "--speed-range", "1000..2000"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(stdout(&o).contains("1000–2000 rpm (from --speed-range)"));
+}
+
+#[test]
+fn silencer_reports_transmission_and_insertion_loss_with_the_caution() {
+    let dir = scratch("silencer");
+    let (csv, hcsv, plot) = (dir.join("l.csv"), dir.join("h.csv"), dir.join("l.png"));
+    let o = ripline(&[
+        "silencer",
+        "networks/drill_rig_feed_damper.yaml",
+        "--element",
+        "damper",
+        "--tap",
+        "head block",
+        "--points",
+        "300",
+        "--csv",
+        csv.to_str().unwrap(),
+        "--harmonic-csv",
+        hcsv.to_str().unwrap(),
+        "--plot",
+        plot.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    assert!(
+        out.contains("gas volume at the operating pressure"),
+        "{out}"
+    );
+    assert!(out.contains("the silencer removed"), "{out}");
+    assert!(out.contains("CAUTION: a gas-charged pulsation damper is a pressure vessel"));
+    let text = std::fs::read_to_string(&csv).unwrap();
+    assert!(text.starts_with("frequency_hz,transmission_loss_db,insertion_loss_db\n"));
+    assert_eq!(text.lines().count(), 301);
+    let h = std::fs::read_to_string(&hcsv).unwrap();
+    let mut lines = h.lines();
+    assert_eq!(
+        lines.next(),
+        Some(
+            "harmonic,frequency_hz,transmission_loss_db,insertion_loss_db,amplitude_without_pa,amplitude_with_pa"
+        )
+    );
+    // Harmonic 1 at 1800 rpm (270 Hz) is cut by the damper.
+    let first: Vec<f64> = lines
+        .next()
+        .unwrap()
+        .split(',')
+        .map(|v| v.parse().unwrap())
+        .collect();
+    assert_eq!(first[0], 1.0);
+    assert!((first[1] - 270.0).abs() < 1e-9);
+    assert!(first[3] > 10.0 && first[4] > first[5], "{first:?}");
+    assert!(std::fs::read(&plot).unwrap().starts_with(b"\x89PNG"));
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+#[test]
+fn tune_sizes_the_damper_and_shows_the_caution_without_a_bar_when_piped() {
+    let o = ripline(&[
+        "tune",
+        "networks/drill_rig_feed_damper.yaml",
+        "--element",
+        "damper",
+        "--vary",
+        "gas_volume=0.05L..2L",
+        "--tap",
+        "head block",
+        "--samples",
+        "15",
+        "--speeds",
+        "9",
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    for want in [
+        "without the silencer:",
+        "as in the file:",
+        "tuned:",
+        "steepness",
+        "gas_volume    −10 %:",
+        "in the circuit file, set: gas_volume:",
+        "CAUTION: a gas-charged pulsation damper is a pressure vessel",
+    ] {
+        assert!(out.contains(want), "missing `{want}`:\n{out}");
+    }
+    // No progress bar on a pipe.
+    assert!(!stderr(&o).contains("searching"), "{}", stderr(&o));
+}
+
+#[test]
+fn bad_options_of_the_sizing_commands_are_usage_errors_and_write_nothing() {
+    let dir = scratch("sizing-usage");
+    let csv = dir.join("x.csv");
+    let csv = csv.to_str().unwrap();
+    let demo = "networks/drill_rig_feed_damper.yaml";
+    for args in [
+        vec!["response", demo, "--band", "100..50", "--csv", csv],
+        vec!["response", demo, "--margin", "150%", "--csv", csv],
+        vec!["response", demo, "--speed-range", "fast", "--csv", csv],
+        vec!["response", demo, "--pump", "nobody", "--csv", csv],
+        vec!["silencer", demo, "--element", "nosuch", "--csv", csv],
+        vec![
+            "silencer",
+            demo,
+            "--element",
+            "damper",
+            "--tap",
+            "nowhere",
+            "--csv",
+            csv,
+        ],
+        vec![
+            "silencer",
+            demo,
+            "--element",
+            "damper",
+            "--element",
+            "damper",
+            "--csv",
+            csv,
+        ],
+        vec!["tune", demo, "--element", "damper", "--vary", "colour=1..2"],
+        vec![
+            "tune",
+            demo,
+            "--element",
+            "damper",
+            "--vary",
+            "precharge=40 bar..80 bar",
+        ],
+        vec![
+            "tune",
+            demo,
+            "--element",
+            "damper",
+            "--vary",
+            "neck_length=2m..1m",
+        ],
+        vec![
+            "tune",
+            demo,
+            "--element",
+            "pressure_line",
+            "--vary",
+            "length=1m..2m",
+        ],
+        vec![
+            "tune",
+            demo,
+            "--element",
+            "damper",
+            "--vary",
+            "length=1m..2m",
+            "--tap",
+            "head block",
+        ],
+        vec![
+            "tune",
+            demo,
+            "--element",
+            "damper",
+            "--vary",
+            "gas_volume=0.1L..1L",
+        ],
+    ] {
+        let o = ripline(&args);
+        let err = stderr(&o);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {err}");
+        assert!(!err.contains("panicked"), "{err}");
+    }
+    assert!(files_in(&dir).is_empty());
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+/// The before/after numbers quoted in README.md ("Demo: a resonance crossing
+/// cured by a sized damper") are what the commands print for the demo files.
+#[test]
+fn the_readme_demo_numbers_hold() {
+    let readme =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("README.md")).unwrap();
+    for (tap, without, with, readme_without, readme_with) in [
+        (
+            "head block",
+            "4.0033 bar rms",
+            "8.265 kPa rms",
+            "4.003 bar",
+            "0.0083 bar (−33.7 dB)",
+        ),
+        (
+            "pump outlet",
+            "7.2717 bar rms",
+            "0.6231 bar rms",
+            "7.272 bar",
+            "0.623 bar (−21.3 dB)",
+        ),
+    ] {
+        // Bounds that pin the damper to the file's design.
+        let o = ripline(&[
+            "tune",
+            "networks/drill_rig_feed_damper.yaml",
+            "--element",
+            "damper",
+            "--vary",
+            "gas_volume=0.16999L..0.17001L",
+            "--samples",
+            "3",
+            "--tap",
+            tap,
+        ]);
+        assert!(o.status.success(), "{}", stderr(&o));
+        let out = stdout(&o);
+        assert!(
+            out.contains(&format!("without the silencer:   {without}")),
+            "{out}"
+        );
+        assert!(
+            out.contains(&format!("as in the file:         {with}")),
+            "{out}"
+        );
+        assert!(
+            readme.contains(readme_without) && readme.contains(readme_with),
+            "{tap}"
+        );
+    }
+    let o = ripline(&[
+        "silencer",
+        "networks/drill_rig_feed_damper.yaml",
+        "--element",
+        "damper",
+        "--tap",
+        "head block",
+        "--points",
+        "50",
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    assert!(
+        out.contains("         1        270.00     47.85     56.26"),
+        "{out}"
+    );
+    assert!(
+        out.contains("         2        540.00     18.18     17.98"),
+        "{out}"
+    );
+    assert!(readme.contains("56.3 dB on harmonic 1 and 18.0 dB on harmonic 2"));
+    let o = ripline(&[
+        "response",
+        "networks/drill_rig_feed.yaml",
+        "--points",
+        "800",
+    ]);
+    let out = stdout(&o);
+    assert!(
+        out.contains("130.00 Hz  CROSSED by harmonic 1 at 867 rpm"),
+        "{out}"
+    );
+    assert!(
+        out.contains(
+            "288.00 Hz  CROSSED by harmonic 1 at 1920 rpm (≈ 10.4937 bar at `pump outlet`)"
+        ),
+        "{out}"
+    );
+    assert!(readme.contains("130.0 Hz at 867 rpm and 288.0 Hz at 1920 rpm"));
 }

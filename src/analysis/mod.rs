@@ -6,7 +6,18 @@
 //!   peak-to-peak value.
 //! * [`profile`]: the ripple along every tube and hose for one harmonic
 //!   (`ripline profile`).
+//! * [`response`]: the frequency response per unit source flow, its
+//!   resonances and the harmonic bands that cross them (`ripline response`).
+//! * [`silencer`]: transmission loss of an element or chain, insertion loss
+//!   in the circuit (`ripline silencer`).
+//! * [`tune`]: a bounded search for the silencer design that minimises the
+//!   ripple at a point over the speed range (`ripline tune`).
+//! * [`search`]: golden-section, Halton and Nelder–Mead helpers.
 
 pub mod profile;
+pub mod response;
 pub mod ripple;
+pub mod search;
+pub mod silencer;
+pub mod tune;
 pub mod waveform;

@@ -5,6 +5,7 @@
 //! peak-to-peak value must be found on the waveform: it is not the sum of the
 //! harmonic amplitudes, because the harmonics do not peak together.
 
+use super::search::golden_section_max;
 use num_complex::Complex64 as C64;
 
 /// p(θ) = Σ Re{P_k e^{jkθ}} for (order k, P_k) pairs.
@@ -40,40 +41,22 @@ pub fn peak_to_peak(harmonics: &[(u32, C64)]) -> f64 {
     }
     let centre_max = i_max as f64 * step;
     let centre_min = i_min as f64 * step;
-    let hi = golden_max(
+    let hi = golden_section_max(
         |t| evaluate(harmonics, t),
         centre_max - step,
         centre_max + step,
+        80,
     )
+    .1
     .max(v_max);
-    let lo = -golden_max(
+    let lo = -golden_section_max(
         |t| -evaluate(harmonics, t),
         centre_min - step,
         centre_min + step,
-    );
+        80,
+    )
+    .1;
     hi - lo.min(v_min)
-}
-
-/// The maximum of a unimodal function on [a, b] by golden-section search.
-fn golden_max(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64) -> f64 {
-    let r = (5f64.sqrt() - 1.0) / 2.0;
-    let mut c = b - r * (b - a);
-    let mut d = a + r * (b - a);
-    let (mut fc, mut fd) = (f(c), f(d));
-    for _ in 0..80 {
-        if fc > fd {
-            b = d;
-            (d, fd) = (c, fc);
-            c = b - r * (b - a);
-            fc = f(c);
-        } else {
-            a = c;
-            (c, fc) = (d, fd);
-            d = a + r * (b - a);
-            fd = f(d);
-        }
-    }
-    fc.max(fd)
 }
 
 #[cfg(test)]

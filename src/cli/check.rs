@@ -160,6 +160,10 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
                 i.inertance_kg_m4, i.resistance_pa_s_m3
             ),
             ElementKind::Anechoic(a) => format!("matches Z0 = {:.4e} Pa·s/m³", a.line.z0()),
+            ElementKind::SideBranch(_)
+            | ElementKind::ExpansionChamber(_)
+            | ElementKind::Helmholtz(_)
+            | ElementKind::Damper(_) => super::silencer::describe(e, None).join("; "),
             _ => String::new(),
         };
         writeln!(out, "  {} ({}, {place}): {detail}", e.name, e.kind.name())?;
@@ -190,6 +194,12 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
         c.harmonics,
         plan.unknowns()
     )?;
+    if c.elements
+        .iter()
+        .any(|e| matches!(e.kind, ElementKind::Damper(_)))
+    {
+        writeln!(out, "{}", ripline::elements::PRESSURE_VESSEL_CAUTION)?;
+    }
     writeln!(out, "OK")?;
     out.flush()?;
     Ok(())

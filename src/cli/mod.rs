@@ -9,8 +9,12 @@ mod check;
 mod common;
 mod fit;
 mod profile;
+mod ranges;
+mod response;
+mod silencer;
 mod solve;
 mod synth;
+mod tune;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
@@ -38,6 +42,12 @@ enum Command {
     /// Ripple amplitude along every tube and hose for one harmonic (the
     /// standing-wave pattern), as a table, CSV and a plot.
     Profile(profile::ProfileArgs),
+    /// Frequency response, resonances, and the harmonics that cross them over the speed range.
+    Response(response::ResponseArgs),
+    /// Transmission loss of a silencer and its insertion loss in the circuit.
+    Silencer(silencer::SilencerArgs),
+    /// Size a silencer: vary 1 to 3 of its parameters to minimise the ripple at a point.
+    Tune(tune::TuneArgs),
 }
 
 /// Exit code for invalid input or usage.
@@ -63,6 +73,9 @@ pub fn main() -> ExitCode {
         Command::Fit(args) => fit::run(args),
         Command::Synth(args) => synth::run(args),
         Command::Profile(args) => profile::run(args),
+        Command::Response(args) => response::run(args),
+        Command::Silencer(args) => silencer::run(args),
+        Command::Tune(args) => tune::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -16,11 +16,17 @@
 mod ends;
 mod hose;
 mod lumped;
+mod silencers;
 mod tube;
 
 pub use ends::Anechoic;
 pub use hose::Hose;
 pub use lumped::{Inertance, LoadValve, Orifice, Volume, orifice_resistance};
+pub use silencers::{
+    DamperError, ExpansionChamber, FLANGED_END_CORRECTION, HelmholtzResonator,
+    PRESSURE_VESSEL_CAUTION, PulsationDamper, STANDARD_ATMOSPHERE_PA, SideBranch,
+    loaded_line_admittance, rigid_neck, tanh_gamma_l,
+};
 pub use tube::{Tube, line_behaviour};
 
 use crate::line::{Admittance2, Line, LineProperties, Propagation, Transfer2};
@@ -98,6 +104,14 @@ pub enum ElementKind {
     Tank,
     /// A hose (distributed line with a viscoelastic wall).
     Hose(Hose),
+    /// A closed side branch (quarter-wave tube) teed off a node.
+    SideBranch(SideBranch),
+    /// An in-line expansion chamber.
+    ExpansionChamber(ExpansionChamber),
+    /// A Helmholtz resonator teed off a node.
+    Helmholtz(HelmholtzResonator),
+    /// A gas-charged pulsation damper teed off a node.
+    Damper(PulsationDamper),
 }
 
 impl ElementKind {
@@ -112,6 +126,10 @@ impl ElementKind {
             ElementKind::Anechoic(_) => "anechoic_end",
             ElementKind::ClosedEnd => "closed_end",
             ElementKind::Tank => "tank",
+            ElementKind::SideBranch(_) => "side_branch",
+            ElementKind::ExpansionChamber(_) => "expansion_chamber",
+            ElementKind::Helmholtz(_) => "helmholtz_resonator",
+            ElementKind::Damper(_) => "pulsation_damper",
             ElementKind::Hose(_) => "hose",
         }
     }
@@ -140,8 +158,15 @@ impl ElementKind {
         match self {
             ElementKind::Tube(t) if t.needs_branch_flows() => ConnectionKind::TransferTwoPort,
             ElementKind::Hose(h) if h.needs_branch_flows() => ConnectionKind::TransferTwoPort,
+            ElementKind::ExpansionChamber(c) if c.tube.needs_branch_flows() => {
+                ConnectionKind::TransferTwoPort
+            }
+            ElementKind::SideBranch(_) | ElementKind::Helmholtz(_) | ElementKind::Damper(_) => {
+                ConnectionKind::Shunt
+            }
             ElementKind::Tube(_)
             | ElementKind::Hose(_)
+            | ElementKind::ExpansionChamber(_)
             | ElementKind::Orifice(_)
             | ElementKind::Inertance(_) => ConnectionKind::AdmittanceTwoPort,
             ElementKind::Volume(_) | ElementKind::LoadValve(_) | ElementKind::Anechoic(_) => {
@@ -152,8 +177,8 @@ impl ElementKind {
         }
     }
 
-    /// The line whose Γ and Zc this element needs, if any (tubes, and the
-    /// line an anechoic end matches). The network evaluates each distinct
+    /// The line whose Γ and Zc this element needs, if any (tubes, the line
+    /// an anechoic end matches, and the line inside each silencer). The network evaluates each distinct
     /// line once per frequency and hands the result to
     /// [`ElementKind::behaviour_with`].
     pub fn line_properties(&self) -> Option<&LineProperties> {
@@ -161,6 +186,10 @@ impl ElementKind {
             ElementKind::Tube(t) => Some(&t.line.properties),
             ElementKind::Hose(h) => Some(&h.line.properties),
             ElementKind::Anechoic(a) => Some(&a.line),
+            ElementKind::SideBranch(s) => Some(&s.tube.line.properties),
+            ElementKind::ExpansionChamber(c) => Some(&c.tube.line.properties),
+            ElementKind::Helmholtz(h) => Some(&h.neck),
+            ElementKind::Damper(d) => Some(&d.neck),
             _ => None,
         }
     }
@@ -189,6 +218,10 @@ impl ElementKind {
             }
             ElementKind::Anechoic(_) => Behaviour::Shunt(line().zc.inv()),
             ElementKind::ClosedEnd | ElementKind::Tank => Behaviour::Nothing,
+            ElementKind::SideBranch(s) => Behaviour::Shunt(s.admittance(line())),
+            ElementKind::ExpansionChamber(c) => c.behaviour(line()),
+            ElementKind::Helmholtz(h) => Behaviour::Shunt(h.admittance(omega, line())),
+            ElementKind::Damper(d) => Behaviour::Shunt(d.admittance(omega, line())),
         }
     }
 }

@@ -8,11 +8,13 @@
 //! [`super::locate`]. The file format is documented in README.md.
 
 use super::InputError;
+use super::gas_pressure::GasPressure;
 use super::locate::KeyPath;
 use super::quantity::{self as q, Q};
 use crate::circuit::{Circuit, Node, Tap, TapLocation};
 use crate::elements::{
-    Anechoic, Connection, Element, ElementKind, Hose, Inertance, LoadValve, Orifice, Tube, Volume,
+    Anechoic, Connection, Element, ElementKind, ExpansionChamber, HelmholtzResonator, Hose,
+    Inertance, LoadValve, Orifice, PulsationDamper, SideBranch, Tube, Volume, rigid_neck,
 };
 use crate::fluid::Fluid;
 use crate::hose::{
@@ -171,6 +173,10 @@ enum RawKind {
     ClosedEnd,
     Tank,
     Hose,
+    SideBranch,
+    ExpansionChamber,
+    HelmholtzResonator,
+    PulsationDamper,
 }
 
 #[derive(Debug, Deserialize)]
@@ -204,6 +210,13 @@ struct RawElement {
     loss_factor: Option<Q<q::Ratio>>,
     reference_frequency: Option<Q<q::Frequency>>,
     kelvin_voigt: Option<RawKelvinVoigt>,
+    neck_length: Option<Q<q::Length>>,
+    neck_bore: Option<Q<q::Length>>,
+    end_correction: Option<bool>,
+    gas_volume: Option<Q<q::Volume>>,
+    precharge: Option<GasPressure>,
+    operating_pressure: Option<GasPressure>,
+    polytropic_index: Option<f64>,
 }
 
 impl RawElement {
@@ -238,6 +251,13 @@ impl RawElement {
         add("loss_factor", self.loss_factor.is_some());
         add("reference_frequency", self.reference_frequency.is_some());
         add("kelvin_voigt", self.kelvin_voigt.is_some());
+        add("neck_length", self.neck_length.is_some());
+        add("neck_bore", self.neck_bore.is_some());
+        add("end_correction", self.end_correction.is_some());
+        add("gas_volume", self.gas_volume.is_some());
+        add("precharge", self.precharge.is_some());
+        add("operating_pressure", self.operating_pressure.is_some());
+        add("polytropic_index", self.polytropic_index.is_some());
         keys
     }
 }
@@ -254,6 +274,10 @@ impl RawKind {
             RawKind::ClosedEnd => "closed_end",
             RawKind::Tank => "tank",
             RawKind::Hose => "hose",
+            RawKind::SideBranch => "side_branch",
+            RawKind::ExpansionChamber => "expansion_chamber",
+            RawKind::HelmholtzResonator => "helmholtz_resonator",
+            RawKind::PulsationDamper => "pulsation_damper",
         }
     }
 
@@ -293,13 +317,60 @@ impl RawKind {
             RawKind::LoadValve => &["at", "resistance", "mean_flow", "pressure_drop"],
             RawKind::AnechoicEnd => &["at", "line"],
             RawKind::ClosedEnd | RawKind::Tank => &["at"],
+            RawKind::ExpansionChamber => &[
+                "from",
+                "to",
+                "length",
+                "bore",
+                "wall",
+                "material",
+                "youngs_modulus",
+                "rigid",
+                "model",
+                "wall_model",
+                "poisson_ratio",
+            ],
+            RawKind::SideBranch => &[
+                "at",
+                "length",
+                "bore",
+                "wall",
+                "material",
+                "youngs_modulus",
+                "rigid",
+                "model",
+                "wall_model",
+                "poisson_ratio",
+            ],
+            RawKind::HelmholtzResonator => &[
+                "at",
+                "volume",
+                "neck_length",
+                "neck_bore",
+                "end_correction",
+                "model",
+            ],
+            RawKind::PulsationDamper => &[
+                "at",
+                "gas_volume",
+                "precharge",
+                "operating_pressure",
+                "polytropic_index",
+                "neck_length",
+                "neck_bore",
+                "model",
+            ],
         }
     }
 
     fn is_two_port(self) -> bool {
         matches!(
             self,
-            RawKind::Tube | RawKind::Hose | RawKind::Orifice | RawKind::Inertance
+            RawKind::Tube
+                | RawKind::Hose
+                | RawKind::Orifice
+                | RawKind::Inertance
+                | RawKind::ExpansionChamber
         )
     }
 }
@@ -472,6 +543,20 @@ impl Checker<'_> {
                 }
                 RawKind::ClosedEnd => Some(ElementKind::ClosedEnd),
                 RawKind::Tank => Some(ElementKind::Tank),
+                RawKind::SideBranch => Some(ElementKind::SideBranch(SideBranch {
+                    tube: self.tube(&path, e, &fluid, line_model)?,
+                })),
+                RawKind::ExpansionChamber => {
+                    Some(ElementKind::ExpansionChamber(ExpansionChamber {
+                        tube: self.tube(&path, e, &fluid, line_model)?,
+                    }))
+                }
+                RawKind::HelmholtzResonator => Some(ElementKind::Helmholtz(
+                    self.helmholtz(&path, e, &fluid, line_model)?,
+                )),
+                RawKind::PulsationDamper => Some(ElementKind::Damper(
+                    self.damper(&path, e, &fluid, line_model)?,
+                )),
                 RawKind::AnechoicEnd => None,
             });
         }
@@ -747,6 +832,22 @@ impl Checker<'_> {
         })
     }
 
+    /// A required key's SI value, within [lo, hi].
+    #[allow(clippy::too_many_arguments)]
+    fn required_in<D: q::Dim>(
+        &self,
+        path: &KeyPath,
+        key: &str,
+        value: Option<Q<D>>,
+        kind: RawKind,
+        lo: f64,
+        hi: f64,
+        unit: &str,
+    ) -> Res<f64> {
+        let v = self.required(path, key, value, kind)?;
+        self.in_range(&path.key(key), v, lo, hi, unit)
+    }
+
     /// Length and bore of a tube or hose.
     fn line_geometry(&self, path: &KeyPath, e: &RawElement) -> Res<(f64, f64)> {
         let length = self.in_range(
@@ -799,7 +900,10 @@ impl Checker<'_> {
             (_, None) => {
                 return Err(self.err(
                     path,
-                    "a `tube` needs its wall: give `wall` (thickness) with `material` or `youngs_modulus`, or say `rigid: true`",
+                    format!(
+                        "a `{}` needs its wall: give `wall` (thickness) with `material` or `youngs_modulus`, or say `rigid: true`",
+                        e.kind.name()
+                    ),
                 ));
             }
             (_, Some(w)) => self.elastic_wall(path, e, w.si, bore)?,
@@ -1037,6 +1141,98 @@ impl Checker<'_> {
             },
             construction,
         })
+    }
+
+    /// The neck of a resonator or damper: a rigid drilled passage, in the
+    /// liquid, with the element's (or the circuit's) friction model.
+    fn neck(
+        &self,
+        path: &KeyPath,
+        e: &RawElement,
+        fluid: &Fluid,
+        default: LineModel,
+    ) -> Res<(f64, crate::line::LineProperties)> {
+        let length =
+            self.required_in(path, "neck_length", e.neck_length, e.kind, 1e-4, 10.0, "m")?;
+        let bore = self.required_in(path, "neck_bore", e.neck_bore, e.kind, 1e-4, 0.5, "m")?;
+        let like = LineProperties {
+            radius_m: bore / 2.0,
+            density_kg_m3: fluid.density_kg_m3,
+            kinematic_viscosity_m2_s: fluid.kinematic_viscosity_m2_s,
+            effective_bulk_modulus_pa: fluid.bulk_modulus_pa,
+            model: e.model.map_or(default, LineModel::from),
+            viscoelastic_wall: None,
+            mean_flow: crate::line::MeanFlow::Unknown,
+        };
+        Ok((length, rigid_neck(&like, bore, fluid.bulk_modulus_pa)))
+    }
+
+    fn helmholtz(
+        &self,
+        path: &KeyPath,
+        e: &RawElement,
+        fluid: &Fluid,
+        default: LineModel,
+    ) -> Res<HelmholtzResonator> {
+        let volume = self.required_in(path, "volume", e.volume, e.kind, 1e-9, 1.0, "m³")?;
+        let (neck_length_m, neck) = self.neck(path, e, fluid, default)?;
+        Ok(HelmholtzResonator {
+            volume_m3: volume,
+            bulk_modulus_pa: fluid.bulk_modulus_pa,
+            neck_length_m,
+            neck,
+            end_correction: e.end_correction.unwrap_or(true),
+        })
+    }
+
+    fn damper(
+        &self,
+        path: &KeyPath,
+        e: &RawElement,
+        fluid: &Fluid,
+        default: LineModel,
+    ) -> Res<PulsationDamper> {
+        let gas_volume =
+            self.required_in(path, "gas_volume", e.gas_volume, e.kind, 1e-7, 1.0, "m³")?;
+        let gas = |key: &str, value: Option<GasPressure>| -> Res<f64> {
+            let p = value.ok_or_else(|| {
+                self.err(
+                    path,
+                    format!(
+                        "a `pulsation_damper` needs the key `{key}` (a gas pressure such as `60 bar abs` or `59 bar gauge`)"
+                    ),
+                )
+            })?;
+            self.in_range(&path.key(key), p.absolute_pa, 1e4, 1e9, "Pa (absolute)")
+        };
+        let precharge = gas("precharge", e.precharge)?;
+        let operating = gas("operating_pressure", e.operating_pressure)?;
+        let kappa = match e.polytropic_index {
+            None => 1.4,
+            Some(k) if (1.0..=1.67).contains(&k) => k,
+            Some(k) => {
+                return Err(self.err(
+                    &path.key("polytropic_index"),
+                    format!(
+                        "the polytropic index must be between 1.0 (isothermal) and 1.67 (monatomic gas, adiabatic), found {k}"
+                    ),
+                ));
+            }
+        };
+        let (neck_length_m, neck) = self.neck(path, e, fluid, default)?;
+        let damper = PulsationDamper {
+            gas_volume_m3: gas_volume,
+            precharge_pa: precharge,
+            operating_pa: operating,
+            polytropic_index: kappa,
+            bulk_modulus_pa: fluid.bulk_modulus_pa,
+            neck_length_m,
+            neck,
+        };
+        damper
+            .validate()
+            .map_err(|err| self.err(&path.key("operating_pressure"), err.to_string()))?;
+        Ok(damper)
     }
 
     /// A resistance given directly, or linearised from a mean operating point.

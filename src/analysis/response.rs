@@ -1,0 +1,549 @@
+//! The circuit's frequency response, its resonances, and which pump
+//! harmonics cross them (what `ripline response` reports).
+//!
+//! * **Response.** With a unit source flow (1 m³/s) injected at the pump's
+//!   node and every pump's source impedance in the network, the pressure at
+//!   each measurement point is the transfer function H(f) = P/Qs in
+//!   Pa per m³/s. The impedance the pump sees is the load impedance at its
+//!   node without its own source impedance: Z_load = P/(Qs − Ys·P), since the
+//!   flow delivered into the circuit is Qs − P/Zs (methods.md §5).
+//! * **Resonances** are peaks of |H| at any point, found on a logarithmic
+//!   frequency grid, kept when their prominence (the drop to the higher of
+//!   the two valleys that separate them from higher ground) is at least a
+//!   threshold, refined by golden-section search on |H| between the grid
+//!   neighbours (methods.md §7.2), and given a quality factor
+//!   Q = f0/(f2 − f1) from the half-power points |H(f1,2)| = |H(f0)|/√2
+//!   (found by bisection). Peaks of several points within a relative
+//!   tolerance of each other are one resonance, reported at the point where
+//!   it is highest.
+//! * **Harmonic bands.** Over a speed range n_lo..n_hi, harmonic k of the
+//!   pumping frequency sweeps k·z·n_lo .. k·z·n_hi (z pumping elements). A
+//!   resonance inside a band is crossed at speed n = f0/(k z); one within a
+//!   margin of a band's edge is near (common practice keeps excitation some
+//!   10–20 % away from a resonance).
+
+use super::ripple::{report_points, tap_pressure};
+use super::search::golden_section_max;
+use crate::circuit::TapLocation;
+use crate::network::{Plan, Solution, SolveError, Workspace};
+use num_complex::Complex64 as C64;
+
+/// The response of one measurement point: pressure per unit source flow at
+/// each grid frequency.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PointResponse {
+    /// The point's name.
+    pub name: String,
+    /// Where it reads.
+    pub location: TapLocation,
+    /// H(f) = P/Qs in Pa per m³/s, one per grid frequency.
+    pub values: Vec<C64>,
+}
+
+/// The frequency response of a circuit to one pump's source flow.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FrequencyResponse {
+    /// The pump's name.
+    pub pump: String,
+    /// Grid frequencies in Hz (increasing).
+    pub freqs_hz: Vec<f64>,
+    /// One entry per measurement point.
+    pub points: Vec<PointResponse>,
+    /// The impedance the pump sees at its node, in Pa·s/m³, per frequency.
+    pub load_impedance: Vec<C64>,
+}
+
+/// `n` frequencies spaced evenly in log(f) from `lo_hz` to `hi_hz`.
+pub fn log_grid(lo_hz: f64, hi_hz: f64, n: usize) -> Vec<f64> {
+    let n = n.max(2);
+    let ratio = (hi_hz / lo_hz).ln();
+    (0..n)
+        .map(|i| lo_hz * (ratio * i as f64 / (n - 1) as f64).exp())
+        .collect()
+}
+
+/// A grid size with steps of 0.2 % in frequency (at least 200 points, at
+/// most 50 000): fine enough to resolve resonances of Q up to several
+/// hundred, which the refinement then pins down.
+pub fn default_points(lo_hz: f64, hi_hz: f64) -> usize {
+    let n = ((hi_hz / lo_hz).ln() / 1.002f64.ln()).ceil() as usize + 1;
+    n.clamp(200, 50_000)
+}
+
+/// Solves the circuit with a unit source flow at the pump's node.
+fn solve_unit(
+    plan: &Plan<'_>,
+    pump_index: usize,
+    freq_hz: f64,
+    ws: &mut Workspace,
+) -> Result<Solution, SolveError> {
+    let node = plan.circuit().pumps[pump_index].node;
+    plan.solve(freq_hz, &[(node, C64::new(1.0, 0.0))], ws)
+}
+
+/// The same, but a grid frequency that lands exactly on an undamped
+/// resonance (a lossless circuit) is moved by one part in 10⁹, where the
+/// response is large but finite.
+fn solve_unit_nudged(
+    plan: &Plan<'_>,
+    pump_index: usize,
+    freq_hz: f64,
+    ws: &mut Workspace,
+) -> Result<Solution, SolveError> {
+    match solve_unit(plan, pump_index, freq_hz, ws) {
+        Err(SolveError::Singular { .. }) => {
+            solve_unit(plan, pump_index, freq_hz * (1.0 + 1e-9), ws)
+        }
+        other => other,
+    }
+}
+
+/// Why a response could not be computed.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum ResponseError {
+    /// The network could not be solved.
+    #[error(transparent)]
+    Solve(#[from] SolveError),
+    /// A result is not a finite number.
+    #[error(
+        "{what} is not a finite number at {freq_hz:.6} Hz (an undamped resonance of a lossless model?)"
+    )]
+    NotFinite {
+        /// What was computed.
+        what: String,
+        /// The frequency.
+        freq_hz: f64,
+    },
+}
+
+/// The response at every measurement point (the circuit's taps, or every
+/// node when it has none) and the impedance the pump sees, at each of
+/// `freqs_hz`. `progress` is called with the number of frequencies done.
+///
+/// # Errors
+/// [`ResponseError`] when the network cannot be solved at a frequency or a
+/// value is not finite.
+///
+/// # Panics
+/// If `pump_index` is out of range.
+pub fn frequency_response(
+    plan: &Plan<'_>,
+    pump_index: usize,
+    freqs_hz: &[f64],
+    progress: &mut dyn FnMut(usize),
+) -> Result<FrequencyResponse, ResponseError> {
+    let circuit = plan.circuit();
+    let pump = &circuit.pumps[pump_index];
+    let taps = report_points(circuit);
+    let mut points: Vec<PointResponse> = taps
+        .iter()
+        .map(|t| PointResponse {
+            name: t.name.clone(),
+            location: t.location,
+            values: Vec::with_capacity(freqs_hz.len()),
+        })
+        .collect();
+    let mut load_impedance = Vec::with_capacity(freqs_hz.len());
+    let mut ws = plan.workspace();
+    for (i, &f) in freqs_hz.iter().enumerate() {
+        let solution = solve_unit_nudged(plan, pump_index, f, &mut ws)?;
+        for point in &mut points {
+            let h = tap_pressure(circuit, &solution, point.location);
+            if !h.is_finite() {
+                return Err(ResponseError::NotFinite {
+                    what: format!("the response at `{}`", point.name),
+                    freq_hz: f,
+                });
+            }
+            point.values.push(h);
+        }
+        let p = solution.node_pressures[pump.node];
+        let ys = pump
+            .source_impedance
+            .admittance(2.0 * std::f64::consts::PI * f);
+        let z = p / (C64::new(1.0, 0.0) - ys * p);
+        if !z.is_finite() {
+            return Err(ResponseError::NotFinite {
+                what: format!("the impedance pump `{}` sees", pump.name),
+                freq_hz: f,
+            });
+        }
+        load_impedance.push(z);
+        progress(i + 1);
+    }
+    Ok(FrequencyResponse {
+        pump: pump.name.clone(),
+        freqs_hz: freqs_hz.to_vec(),
+        points,
+        load_impedance,
+    })
+}
+
+/// How peaks are picked and merged.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PeakSettings {
+    /// Smallest prominence of a peak, in dB (20·log10 of the peak over the
+    /// higher of its two valleys).
+    pub min_prominence_db: f64,
+    /// Peaks of different points closer than this fraction of their
+    /// frequency are one resonance.
+    pub merge_tolerance: f64,
+}
+
+impl Default for PeakSettings {
+    /// 3 dB prominence (a peak that rises at least to the half-power level
+    /// above its surroundings) and a 2 % merge tolerance.
+    fn default() -> Self {
+        PeakSettings {
+            min_prominence_db: 3.0,
+            merge_tolerance: 0.02,
+        }
+    }
+}
+
+/// A resonance of the circuit.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Resonance {
+    /// Peak frequency f0 in Hz.
+    pub freq_hz: f64,
+    /// The point where the peak is highest.
+    pub point: String,
+    /// |H(f0)| at that point, in Pa per m³/s.
+    pub level: f64,
+    /// Quality factor f0/(f2 − f1) from the half-power points; where the
+    /// response does not fall to half power on one side before the next
+    /// rise, the other side's half-bandwidth is doubled; `None` when
+    /// neither side falls that far.
+    pub quality: Option<f64>,
+    /// True when the peak is an undamped pole (a lossless model): the level
+    /// is then the largest finite value found, not the peak.
+    pub unbounded: bool,
+    /// Every point that shows the peak.
+    pub seen_at: Vec<String>,
+}
+
+/// One point's peak before merging.
+struct Peak {
+    point: usize,
+    freq_hz: f64,
+    level: f64,
+    quality: Option<f64>,
+    unbounded: bool,
+}
+
+/// Finds the resonances in a computed response (see the module docs).
+///
+/// # Errors
+/// [`SolveError`] from the refining solves (other than a singular matrix at
+/// an undamped pole, which marks the peak as unbounded).
+pub fn find_resonances(
+    plan: &Plan<'_>,
+    pump_index: usize,
+    response: &FrequencyResponse,
+    settings: PeakSettings,
+) -> Result<Vec<Resonance>, SolveError> {
+    let circuit = plan.circuit();
+    let f = &response.freqs_hz;
+    let n = f.len();
+    let mut ws = plan.workspace();
+    let mut peaks: Vec<Peak> = Vec::new();
+    for (pi, point) in response.points.iter().enumerate() {
+        let mag: Vec<f64> = point.values.iter().map(|v| v.norm()).collect();
+        // |H| at a point, or +∞ at an undamped pole.
+        let mut eval = |freq: f64, ws: &mut Workspace| -> Result<f64, SolveError> {
+            match solve_unit(plan, pump_index, freq, ws) {
+                Ok(s) => Ok(tap_pressure(circuit, &s, point.location).norm()),
+                Err(SolveError::Singular { .. }) => Ok(f64::INFINITY),
+                Err(e) => Err(e),
+            }
+        };
+        for i in 1..n.saturating_sub(1) {
+            if !(mag[i] > mag[i - 1] && mag[i] >= mag[i + 1]) {
+                continue;
+            }
+            let (left_valley, left_min) = valley(&mag, i, -1);
+            let (right_valley, right_min) = valley(&mag, i, 1);
+            let base = left_min.max(right_min);
+            if base > 0.0 && 20.0 * (mag[i] / base).log10() < settings.min_prominence_db {
+                continue;
+            }
+            // Golden-section refinement between the grid neighbours.
+            let mut failure = None;
+            let (f0, top) = golden_section_max(
+                |x| match eval(x, &mut ws) {
+                    Ok(v) => v,
+                    Err(e) => {
+                        failure = Some(e);
+                        f64::NEG_INFINITY
+                    }
+                },
+                f[i - 1],
+                f[i + 1],
+                60,
+            );
+            if let Some(e) = failure {
+                return Err(e);
+            }
+            let (f0, level, unbounded) = if top.is_finite() && top >= mag[i] {
+                (f0, top, false)
+            } else if top.is_finite() {
+                (f[i], mag[i], false)
+            } else {
+                (f0, mag[i], true)
+            };
+            let quality = if unbounded {
+                None
+            } else {
+                let target = level / std::f64::consts::SQRT_2;
+                let lower = half_power(&mut eval, &mut ws, f, &mag, i, left_valley, f0, target)?;
+                let upper = half_power(&mut eval, &mut ws, f, &mag, i, right_valley, f0, target)?;
+                match (lower, upper) {
+                    (Some(a), Some(b)) => Some(f0 / (b - a)),
+                    (Some(a), None) => Some(f0 / (2.0 * (f0 - a))),
+                    (None, Some(b)) => Some(f0 / (2.0 * (b - f0))),
+                    (None, None) => None,
+                }
+                .filter(|q| q.is_finite() && *q > 0.0)
+            };
+            peaks.push(Peak {
+                point: pi,
+                freq_hz: f0,
+                level,
+                quality,
+                unbounded,
+            });
+        }
+    }
+    // Merge: the highest peaks first, so each resonance is reported where it
+    // is highest.
+    peaks.sort_by(|a, b| {
+        (b.unbounded, b.level)
+            .partial_cmp(&(a.unbounded, a.level))
+            .unwrap_or(std::cmp::Ordering::Equal)
+    });
+    let mut resonances: Vec<Resonance> = Vec::new();
+    for p in peaks {
+        let name = &response.points[p.point].name;
+        match resonances
+            .iter_mut()
+            .find(|r| (r.freq_hz - p.freq_hz).abs() <= settings.merge_tolerance * r.freq_hz)
+        {
+            Some(r) => {
+                if !r.seen_at.contains(name) {
+                    r.seen_at.push(name.clone());
+                }
+            }
+            None => resonances.push(Resonance {
+                freq_hz: p.freq_hz,
+                point: name.clone(),
+                level: p.level,
+                quality: p.quality,
+                unbounded: p.unbounded,
+                seen_at: vec![name.clone()],
+            }),
+        }
+    }
+    resonances.sort_by(|a, b| a.freq_hz.total_cmp(&b.freq_hz));
+    Ok(resonances)
+}
+
+/// Walks from peak `i` in direction `dir` (±1) until a higher sample or the
+/// end of the grid; returns the index and value of the lowest sample on
+/// the way (the valley).
+fn valley(mag: &[f64], i: usize, dir: isize) -> (usize, f64) {
+    let (mut best_i, mut best) = (i, mag[i]);
+    let mut k = i as isize + dir;
+    while k >= 0 && (k as usize) < mag.len() && mag[k as usize] <= mag[i] {
+        if mag[k as usize] < best {
+            (best_i, best) = (k as usize, mag[k as usize]);
+        }
+        k += dir;
+    }
+    (best_i, best)
+}
+
+/// The frequency between the peak and its valley where |H| falls to
+/// `target`, by bisection between the last grid sample above it and the
+/// first below; `None` when the valley stays above it.
+#[allow(clippy::too_many_arguments)]
+fn half_power(
+    eval: &mut impl FnMut(f64, &mut Workspace) -> Result<f64, SolveError>,
+    ws: &mut Workspace,
+    f: &[f64],
+    mag: &[f64],
+    peak: usize,
+    valley: usize,
+    f0: f64,
+    target: f64,
+) -> Result<Option<f64>, SolveError> {
+    let (step, steps): (isize, usize) = if valley < peak {
+        (-1, peak - valley)
+    } else {
+        (1, valley - peak)
+    };
+    let mut inside = f0; // |H| above target
+    for s in 1..=steps {
+        let k = (peak as isize + step * s as isize) as usize;
+        if mag[k] < target {
+            let mut outside = f[k];
+            // The grid neighbour of the peak may lie on the far side of f0.
+            if (outside - f0) * step as f64 <= 0.0 {
+                return Ok(None);
+            }
+            for _ in 0..60 {
+                let mid = 0.5 * (inside + outside);
+                if eval(mid, ws)? >= target {
+                    inside = mid;
+                } else {
+                    outside = mid;
+                }
+            }
+            return Ok(Some(0.5 * (inside + outside)));
+        }
+        if (f[k] - f0) * step as f64 > 0.0 {
+            inside = f[k];
+        }
+    }
+    Ok(None)
+}
+
+/// The frequency band a pump harmonic sweeps over the operating speed range.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct HarmonicBand {
+    /// Harmonic order k.
+    pub order: u32,
+    /// k·z: the harmonic's frequency per unit shaft speed, in Hz per rev/s.
+    pub hz_per_rev_s: f64,
+    /// k·z·n_lo in Hz.
+    pub low_hz: f64,
+    /// k·z·n_hi in Hz.
+    pub high_hz: f64,
+}
+
+/// Bands of harmonics 1..=`harmonics` for `pumping_elements` z over the speed
+/// range (rev/s).
+pub fn harmonic_bands(
+    pumping_elements: u32,
+    speed_range_rev_s: (f64, f64),
+    harmonics: u32,
+) -> Vec<HarmonicBand> {
+    let z = f64::from(pumping_elements);
+    (1..=harmonics)
+        .map(|k| {
+            let kz = f64::from(k) * z;
+            HarmonicBand {
+                order: k,
+                hz_per_rev_s: kz,
+                low_hz: kz * speed_range_rev_s.0,
+                high_hz: kz * speed_range_rev_s.1,
+            }
+        })
+        .collect()
+}
+
+/// How a harmonic band meets a resonance.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Coverage {
+    /// The band contains the resonance: the harmonic crosses it at this
+    /// shaft speed.
+    Crossed {
+        /// Speed at which k·z·n = f0, in rev/s.
+        speed_rev_s: f64,
+    },
+    /// The band ends within the margin of the resonance.
+    Near {
+        /// Gap between the nearer band edge and f0, as a fraction of f0.
+        gap: f64,
+        /// The speed at that band edge, in rev/s.
+        speed_rev_s: f64,
+    },
+}
+
+/// A harmonic that crosses or nears a resonance.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Crossing {
+    /// Harmonic order.
+    pub order: u32,
+    /// How.
+    pub coverage: Coverage,
+}
+
+/// The harmonics whose bands contain `freq_hz` (to a relative 1e-6, so that
+/// a single speed exactly on a resonance counts), or come within `margin`
+/// (a fraction of `freq_hz`) of it.
+pub fn crossings(freq_hz: f64, bands: &[HarmonicBand], margin: f64) -> Vec<Crossing> {
+    const EDGE: f64 = 1e-6;
+    bands
+        .iter()
+        .filter_map(|b| {
+            if b.low_hz * (1.0 - EDGE) <= freq_hz && freq_hz <= b.high_hz * (1.0 + EDGE) {
+                let speed_rev_s = (freq_hz / b.hz_per_rev_s)
+                    .clamp(b.low_hz / b.hz_per_rev_s, b.high_hz / b.hz_per_rev_s);
+                return Some(Crossing {
+                    order: b.order,
+                    coverage: Coverage::Crossed { speed_rev_s },
+                });
+            }
+            let (edge, gap) = if freq_hz < b.low_hz {
+                (b.low_hz, (b.low_hz - freq_hz) / freq_hz)
+            } else {
+                (b.high_hz, (freq_hz - b.high_hz) / freq_hz)
+            };
+            (gap <= margin).then_some(Crossing {
+                order: b.order,
+                coverage: Coverage::Near {
+                    gap,
+                    speed_rev_s: edge / b.hz_per_rev_s,
+                },
+            })
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn bands_scale_with_order_and_speed() {
+        // 9 pistons, 800..2400 rpm: f_p = 120..360 Hz.
+        let bands = harmonic_bands(9, (800.0 / 60.0, 2400.0 / 60.0), 3);
+        assert_eq!(bands.len(), 3);
+        assert!((bands[0].low_hz - 120.0).abs() < 1e-9 && (bands[0].high_hz - 360.0).abs() < 1e-9);
+        assert!((bands[2].low_hz - 360.0).abs() < 1e-9 && (bands[2].high_hz - 1080.0).abs() < 1e-9);
+    }
+
+    #[test]
+    fn a_resonance_inside_a_band_is_crossed_at_the_right_speed() {
+        let bands = harmonic_bands(9, (800.0 / 60.0, 2400.0 / 60.0), 3);
+        // 300 Hz: harmonic 1 at 2000 rpm, harmonic 2 at 1000 rpm; harmonic 3
+        // starts at 360 Hz, 20 % away: near with a 25 % margin only.
+        let c = crossings(300.0, &bands, 0.1);
+        assert_eq!(c.len(), 2);
+        match c[0].coverage {
+            Coverage::Crossed { speed_rev_s } => {
+                assert!((speed_rev_s * 60.0 - 2000.0).abs() < 1e-9)
+            }
+            _ => panic!("{c:?}"),
+        }
+        match c[1].coverage {
+            Coverage::Crossed { speed_rev_s } => {
+                assert!((speed_rev_s * 60.0 - 1000.0).abs() < 1e-9)
+            }
+            _ => panic!("{c:?}"),
+        }
+        let c = crossings(300.0, &bands, 0.25);
+        assert!(matches!(c[2].coverage, Coverage::Near { gap, .. } if (gap - 0.2).abs() < 1e-12));
+    }
+
+    #[test]
+    fn log_grid_ends_and_ratio() {
+        let g = log_grid(10.0, 1000.0, 3);
+        assert!(
+            (g[0] - 10.0).abs() < 1e-12
+                && (g[1] - 100.0).abs() < 1e-9
+                && (g[2] - 1000.0).abs() < 1e-9
+        );
+    }
+}

@@ -1,0 +1,681 @@
+//! Silencer sizing: the design of one element that minimises the pressure
+//! ripple at a measurement point over the operating conditions
+//! (what `ripline tune` does).
+//!
+//! **Objective.** At each operating condition (a pump speed) the overall
+//! ripple at the point is P_rms = √(Σ_k |P_k|²/2) over the pump harmonics
+//! k = 1..N (methods.md §7.4), each solved with the source flow ripple at
+//! that speed. Over the conditions the objective is either the **worst**
+//! (largest) P_rms or their **rms** √(mean P_rms²).
+//!
+//! **Conditions.** Speeds spread evenly in log(speed) over the range.
+//! [`Condition`] is where a fluid temperature will join once the fluid
+//! model depends on temperature, so that a design can be made robust to the
+//! wave-speed drift between a cold and a hot circuit; there is no such
+//! model yet.
+//!
+//! **Search.** Each parameter varies between positive bounds and is
+//! searched in log scale, u ∈ [0, 1] ↦ x = lo·(hi/lo)^u, so that a volume
+//! from 0.1 L to 4 L is covered evenly. A bounded global stage samples the
+//! box (one parameter: an even grid; two or three: a Halton space-filling
+//! design), then the best few separated samples are refined locally (one
+//! parameter: golden-section search between the grid neighbours; two or
+//! three: Nelder–Mead in the box, see [`super::search`]). The element is
+//! rebuilt and the network recompiled for every candidate; a candidate that
+//! is not physical (a precharge above the operating pressure, a wall thicker
+//! than the bore radius) or whose network cannot be solved counts as
+//! infinitely bad.
+//!
+//! **Steepness.** With the best design found, each parameter in turn is set
+//! 10 % below and above its best value and the ripple recomputed; the rise
+//! in dB is the attenuation lost by that manufacturing or drift error.
+
+use super::ripple::tap_pressure;
+use super::search::{golden_section_max, halton, nelder_mead_in_box};
+use crate::circuit::{Circuit, TapLocation};
+use crate::elements::ElementKind;
+use crate::fluid::Fluid;
+use crate::network::{NetworkError, Plan, SolveError};
+use crate::units::Dimension;
+use num_complex::Complex64 as C64;
+
+/// A design parameter of a silencer element.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum Parameter {
+    /// Length of a side branch or an expansion chamber.
+    Length,
+    /// Bore of a side branch or an expansion chamber.
+    Bore,
+    /// Cavity volume of a Helmholtz resonator.
+    Volume,
+    /// Neck length of a resonator or a damper.
+    NeckLength,
+    /// Neck bore of a resonator or a damper.
+    NeckBore,
+    /// Gas volume at precharge of a damper.
+    GasVolume,
+    /// Precharge pressure of a damper (absolute).
+    Precharge,
+}
+
+impl Parameter {
+    /// Every parameter.
+    pub const ALL: [Parameter; 7] = [
+        Parameter::Length,
+        Parameter::Bore,
+        Parameter::Volume,
+        Parameter::NeckLength,
+        Parameter::NeckBore,
+        Parameter::GasVolume,
+        Parameter::Precharge,
+    ];
+
+    /// The name used on the command line (the circuit-file key).
+    pub fn name(self) -> &'static str {
+        match self {
+            Parameter::Length => "length",
+            Parameter::Bore => "bore",
+            Parameter::Volume => "volume",
+            Parameter::NeckLength => "neck_length",
+            Parameter::NeckBore => "neck_bore",
+            Parameter::GasVolume => "gas_volume",
+            Parameter::Precharge => "precharge",
+        }
+    }
+
+    /// Looks a parameter up by name.
+    pub fn from_name(name: &str) -> Option<Parameter> {
+        Parameter::ALL.into_iter().find(|p| p.name() == name)
+    }
+
+    /// Its physical dimension (a precharge is a gas pressure, written with
+    /// `abs` or `gauge`).
+    pub fn dimension(self) -> Dimension {
+        match self {
+            Parameter::Length | Parameter::Bore | Parameter::NeckLength | Parameter::NeckBore => {
+                Dimension::Length
+            }
+            Parameter::Volume | Parameter::GasVolume => Dimension::Volume,
+            Parameter::Precharge => Dimension::Pressure,
+        }
+    }
+
+    /// The parameters an element kind has.
+    pub fn for_kind(kind: &ElementKind) -> &'static [Parameter] {
+        use Parameter::*;
+        match kind {
+            ElementKind::SideBranch(_) | ElementKind::ExpansionChamber(_) => &[Length, Bore],
+            ElementKind::Helmholtz(_) => &[Volume, NeckLength, NeckBore],
+            ElementKind::Damper(_) => &[GasVolume, Precharge, NeckLength, NeckBore],
+            _ => &[],
+        }
+    }
+
+    /// The parameter's value in an element (SI; absolute Pa for a precharge).
+    pub fn value(self, kind: &ElementKind) -> Option<f64> {
+        Some(match (self, kind) {
+            (Parameter::Length, ElementKind::SideBranch(s)) => s.tube.line.length_m,
+            (Parameter::Length, ElementKind::ExpansionChamber(c)) => c.tube.line.length_m,
+            (Parameter::Bore, ElementKind::SideBranch(s)) => s.tube.bore_m(),
+            (Parameter::Bore, ElementKind::ExpansionChamber(c)) => c.tube.bore_m(),
+            (Parameter::Volume, ElementKind::Helmholtz(h)) => h.volume_m3,
+            (Parameter::NeckLength, ElementKind::Helmholtz(h)) => h.neck_length_m,
+            (Parameter::NeckBore, ElementKind::Helmholtz(h)) => 2.0 * h.neck.radius_m,
+            (Parameter::GasVolume, ElementKind::Damper(d)) => d.gas_volume_m3,
+            (Parameter::Precharge, ElementKind::Damper(d)) => d.precharge_pa,
+            (Parameter::NeckLength, ElementKind::Damper(d)) => d.neck_length_m,
+            (Parameter::NeckBore, ElementKind::Damper(d)) => 2.0 * d.neck.radius_m,
+            _ => return None,
+        })
+    }
+
+    /// The element rebuilt with this parameter set to `value` (SI).
+    ///
+    /// # Errors
+    /// A message when the kind has no such parameter or the result is not
+    /// physical.
+    pub fn apply(
+        self,
+        kind: &ElementKind,
+        value: f64,
+        fluid: &Fluid,
+    ) -> Result<ElementKind, String> {
+        if !(value.is_finite() && value > 0.0) {
+            return Err(format!("{} must be positive, found {value}", self.name()));
+        }
+        let mut k = kind.clone();
+        match (self, &mut k) {
+            (Parameter::Length, ElementKind::SideBranch(s)) => s.tube.line.length_m = value,
+            (Parameter::Length, ElementKind::ExpansionChamber(c)) => c.tube.line.length_m = value,
+            (Parameter::Bore, ElementKind::SideBranch(s)) => set_bore(&mut s.tube, value, fluid)?,
+            (Parameter::Bore, ElementKind::ExpansionChamber(c)) => {
+                set_bore(&mut c.tube, value, fluid)?
+            }
+            (Parameter::Volume, ElementKind::Helmholtz(h)) => h.volume_m3 = value,
+            (Parameter::NeckLength, ElementKind::Helmholtz(h)) => h.neck_length_m = value,
+            (Parameter::NeckBore, ElementKind::Helmholtz(h)) => h.neck.radius_m = value / 2.0,
+            (Parameter::GasVolume, ElementKind::Damper(d)) => d.gas_volume_m3 = value,
+            (Parameter::Precharge, ElementKind::Damper(d)) => {
+                d.precharge_pa = value;
+                d.validate().map_err(|e| e.to_string())?;
+            }
+            (Parameter::NeckLength, ElementKind::Damper(d)) => d.neck_length_m = value,
+            (Parameter::NeckBore, ElementKind::Damper(d)) => d.neck.radius_m = value / 2.0,
+            _ => {
+                return Err(format!(
+                    "a `{}` has no parameter `{}`",
+                    kind.name(),
+                    self.name()
+                ));
+            }
+        }
+        Ok(k)
+    }
+}
+
+/// A new bore for a tube, with its wall's compliance at that bore.
+fn set_bore(tube: &mut crate::elements::Tube, bore_m: f64, fluid: &Fluid) -> Result<(), String> {
+    if let crate::wall::Wall::Elastic { thickness_m, .. } = tube.wall
+        && thickness_m >= bore_m / 2.0
+    {
+        return Err(format!(
+            "a bore of {:.2} mm is not larger than twice the wall thickness",
+            bore_m * 1e3
+        ));
+    }
+    tube.line.properties.radius_m = bore_m / 2.0;
+    tube.line.properties.effective_bulk_modulus_pa = tube
+        .wall
+        .effective_bulk_modulus(fluid.bulk_modulus_pa, bore_m);
+    Ok(())
+}
+
+/// The range a parameter is searched over (SI, low < high, both positive).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Bound {
+    /// The parameter.
+    pub parameter: Parameter,
+    /// Lower bound.
+    pub low: f64,
+    /// Upper bound.
+    pub high: f64,
+}
+
+/// One operating condition the ripple is evaluated at.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Condition {
+    /// Pump shaft speed in rev/s.
+    pub speed_rev_s: f64,
+    // A fluid temperature joins here when the fluid model has one.
+}
+
+/// `count` speeds spread evenly in log(speed) over `range` (rev/s); one
+/// condition at the low end when `count` is 1 or the range is a single speed.
+pub fn speed_conditions(range: (f64, f64), count: usize) -> Vec<Condition> {
+    if count <= 1 || range.0 == range.1 {
+        return vec![Condition {
+            speed_rev_s: range.0,
+        }];
+    }
+    let ratio = (range.1 / range.0).ln();
+    (0..count)
+        .map(|i| Condition {
+            speed_rev_s: range.0 * (ratio * i as f64 / (count - 1) as f64).exp(),
+        })
+        .collect()
+}
+
+/// How the ripple over the conditions becomes one number.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Objective {
+    /// The largest overall rms ripple over the conditions.
+    Worst,
+    /// The rms over the conditions of the overall rms ripple.
+    Rms,
+}
+
+impl Objective {
+    /// How reports describe it.
+    pub fn describe(self) -> &'static str {
+        match self {
+            Objective::Worst => "worst overall rms ripple over the speeds",
+            Objective::Rms => "rms over the speeds of the overall rms ripple",
+        }
+    }
+}
+
+/// The ripple at a point over a set of conditions, for any variant of a
+/// circuit (the pump and the point stay the same).
+#[derive(Debug, Clone)]
+pub struct RippleEvaluator {
+    pump_index: usize,
+    point: TapLocation,
+    objective: Objective,
+    /// For each condition, the (frequency, source flow) of each harmonic.
+    excitations: Vec<Vec<(f64, C64)>>,
+}
+
+/// The ripple of one circuit variant.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RippleSummary {
+    /// The objective in Pa (rms).
+    pub objective_pa: f64,
+    /// Overall rms ripple at each condition, in Pa.
+    pub per_condition_pa: Vec<f64>,
+}
+
+/// Why a ripple evaluation failed.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum EvaluateError {
+    /// The variant does not form a network.
+    #[error(transparent)]
+    Network(#[from] NetworkError),
+    /// The network could not be solved.
+    #[error(transparent)]
+    Solve(#[from] SolveError),
+}
+
+impl RippleEvaluator {
+    /// Prepares the harmonic excitations of pump `pump_index` of `circuit`
+    /// at each condition (harmonics 1..=`circuit.harmonics`).
+    ///
+    /// # Panics
+    /// If `pump_index` is out of range.
+    pub fn new(
+        circuit: &Circuit,
+        pump_index: usize,
+        point: TapLocation,
+        conditions: &[Condition],
+        objective: Objective,
+    ) -> Self {
+        let excitations = conditions
+            .iter()
+            .map(|c| {
+                let mut pump = circuit.pumps[pump_index].clone();
+                pump.speed_rev_s = c.speed_rev_s;
+                let fp = pump.pumping_frequency_hz();
+                (1..=circuit.harmonics)
+                    .map(|k| (f64::from(k) * fp, pump.flow_ripple(k)))
+                    .filter(|(_, q)| *q != C64::new(0.0, 0.0))
+                    .collect()
+            })
+            .collect();
+        RippleEvaluator {
+            pump_index,
+            point,
+            objective,
+            excitations,
+        }
+    }
+
+    /// Number of network solves per evaluation.
+    pub fn solves_per_evaluation(&self) -> usize {
+        self.excitations.iter().map(Vec::len).sum()
+    }
+
+    /// The ripple of `circuit` (a variant of the one given to [`Self::new`]).
+    ///
+    /// # Errors
+    /// [`EvaluateError`] when the variant cannot be compiled or solved.
+    pub fn evaluate(&self, circuit: &Circuit) -> Result<RippleSummary, EvaluateError> {
+        let plan = Plan::compile(circuit)?;
+        let mut ws = plan.workspace();
+        let node = circuit.pumps[self.pump_index].node;
+        let mut per_condition_pa = Vec::with_capacity(self.excitations.len());
+        for harmonics in &self.excitations {
+            let mut sum = 0.0;
+            for &(f, q) in harmonics {
+                let s = plan.solve(f, &[(node, q)], &mut ws)?;
+                sum += tap_pressure(circuit, &s, self.point).norm_sqr();
+            }
+            per_condition_pa.push((sum / 2.0).sqrt());
+        }
+        let objective_pa = match self.objective {
+            Objective::Worst => per_condition_pa.iter().copied().fold(0.0, f64::max),
+            Objective::Rms => (per_condition_pa.iter().map(|p| p * p).sum::<f64>()
+                / per_condition_pa.len().max(1) as f64)
+                .sqrt(),
+        };
+        Ok(RippleSummary {
+            objective_pa,
+            per_condition_pa,
+        })
+    }
+}
+
+/// Why a search cannot run.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum TuneError {
+    /// 0 or more than 3 parameters.
+    #[error("vary 1 to 3 parameters, found {0}")]
+    ParameterCount(usize),
+    /// A parameter the element does not have.
+    #[error("element `{element}` (a `{kind}`) has no parameter `{parameter}`; it has: {valid}")]
+    NoSuchParameter {
+        /// The element.
+        element: String,
+        /// Its kind.
+        kind: &'static str,
+        /// The parameter asked for.
+        parameter: &'static str,
+        /// The ones it has.
+        valid: String,
+    },
+    /// The same parameter twice.
+    #[error("parameter `{0}` is varied twice")]
+    Repeated(&'static str),
+    /// Bounds not positive or not increasing.
+    #[error("the bounds of `{0}` must be positive and increasing (low < high)")]
+    BadBounds(&'static str),
+    /// The design as given cannot be evaluated.
+    #[error("the circuit as given cannot be evaluated: {0}")]
+    Baseline(#[from] EvaluateError),
+    /// No candidate in the bounds could be evaluated.
+    #[error("no design within the bounds gives a valid circuit: {0}")]
+    NothingValid(String),
+}
+
+/// A search problem.
+#[derive(Debug, Clone)]
+pub struct TuneProblem<'c> {
+    /// The circuit.
+    pub circuit: &'c Circuit,
+    /// Index of the element to size.
+    pub element: usize,
+    /// The parameters to vary and their bounds.
+    pub bounds: Vec<Bound>,
+    /// The ripple to minimise.
+    pub evaluator: RippleEvaluator,
+}
+
+/// How much effort the search spends.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SearchSettings {
+    /// Samples of the global stage.
+    pub global_points: usize,
+    /// How many separated good samples are refined.
+    pub refine_starts: usize,
+    /// Evaluation budget of each local refinement.
+    pub local_evaluations: usize,
+}
+
+impl SearchSettings {
+    /// Defaults for `dims` parameters: 120, 600 or 1500 global samples, three
+    /// refinements of up to 42 (one parameter: 40 golden-section steps shrink
+    /// the bracket by 4e-9) or 300 evaluations.
+    pub fn for_dims(dims: usize) -> Self {
+        SearchSettings {
+            global_points: match dims {
+                1 => 120,
+                2 => 600,
+                _ => 1500,
+            },
+            refine_starts: 3,
+            local_evaluations: if dims == 1 { 42 } else { 300 },
+        }
+    }
+
+    /// The most evaluations a search can make (for a progress bar).
+    pub fn budget(&self) -> usize {
+        self.global_points + self.refine_starts * (self.local_evaluations + 4)
+    }
+}
+
+/// Ripple lost when one parameter is off its best value.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Steepness {
+    /// The parameter.
+    pub parameter: Parameter,
+    /// 20 log10(ripple at 0.9 × best / ripple at best), in dB; `None` when
+    /// that design is not physical or cannot be solved.
+    pub minus_10_percent_db: Option<f64>,
+    /// The same at 1.1 × best.
+    pub plus_10_percent_db: Option<f64>,
+}
+
+/// The outcome of a search.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TuneResult {
+    /// Best value of each varied parameter (SI), in the order of the bounds.
+    pub best: Vec<f64>,
+    /// The element with the best design.
+    pub element: ElementKind,
+    /// The ripple with the element as given in the circuit.
+    pub before: RippleSummary,
+    /// The ripple with the best design.
+    pub after: RippleSummary,
+    /// How steep the optimum is.
+    pub steepness: Vec<Steepness>,
+    /// Number of ripple evaluations made.
+    pub evaluations: usize,
+}
+
+impl TuneProblem<'_> {
+    /// Checks the parameters against the element.
+    ///
+    /// # Errors
+    /// [`TuneError`] for a wrong count, an unknown or repeated parameter, or
+    /// bad bounds.
+    pub fn validate(&self) -> Result<(), TuneError> {
+        let n = self.bounds.len();
+        if !(1..=3).contains(&n) {
+            return Err(TuneError::ParameterCount(n));
+        }
+        let e = &self.circuit.elements[self.element];
+        let valid = Parameter::for_kind(&e.kind);
+        for (i, b) in self.bounds.iter().enumerate() {
+            if !valid.contains(&b.parameter) {
+                return Err(TuneError::NoSuchParameter {
+                    element: e.name.clone(),
+                    kind: e.kind.name(),
+                    parameter: b.parameter.name(),
+                    valid: if valid.is_empty() {
+                        "none (only silencers can be tuned)".into()
+                    } else {
+                        valid
+                            .iter()
+                            .map(|p| p.name())
+                            .collect::<Vec<_>>()
+                            .join(", ")
+                    },
+                });
+            }
+            if self.bounds[..i].iter().any(|o| o.parameter == b.parameter) {
+                return Err(TuneError::Repeated(b.parameter.name()));
+            }
+            if !(b.low > 0.0 && b.high > b.low && b.high.is_finite()) {
+                return Err(TuneError::BadBounds(b.parameter.name()));
+            }
+        }
+        Ok(())
+    }
+
+    /// The element with the given parameter values.
+    fn element_with(&self, values: &[f64]) -> Result<ElementKind, String> {
+        let mut kind = self.circuit.elements[self.element].kind.clone();
+        for (b, &v) in self.bounds.iter().zip(values) {
+            kind = b.parameter.apply(&kind, v, &self.circuit.fluid)?;
+        }
+        Ok(kind)
+    }
+
+    /// The ripple with the element rebuilt from `values`.
+    fn evaluate_values(&self, values: &[f64]) -> Result<RippleSummary, String> {
+        let kind = self.element_with(values)?;
+        let mut circuit = self.circuit.clone();
+        circuit.elements[self.element].kind = kind;
+        self.evaluator.evaluate(&circuit).map_err(|e| e.to_string())
+    }
+
+    fn values_at(&self, u: &[f64]) -> Vec<f64> {
+        self.bounds
+            .iter()
+            .zip(u)
+            .map(|(b, &u)| b.low * (b.high / b.low).powf(u.clamp(0.0, 1.0)))
+            .collect()
+    }
+
+    /// Runs the search. `progress` is called after each evaluation with the
+    /// number done so far.
+    ///
+    /// # Errors
+    /// [`TuneError`] when the problem is invalid, the circuit as given
+    /// cannot be evaluated, or no candidate is valid.
+    pub fn solve(
+        &self,
+        settings: SearchSettings,
+        progress: &mut dyn FnMut(usize),
+    ) -> Result<TuneResult, TuneError> {
+        self.validate()?;
+        let before = self.evaluator.evaluate(self.circuit)?;
+        let dims = self.bounds.len();
+        let mut count = 0usize;
+        let mut last_error = String::new();
+        let mut cost = |u: &[f64]| -> f64 {
+            count += 1;
+            progress(count);
+            match self.evaluate_values(&self.values_at(u)) {
+                Ok(s) => s.objective_pa,
+                Err(e) => {
+                    last_error = e;
+                    f64::INFINITY
+                }
+            }
+        };
+
+        // Global stage.
+        let samples: Vec<Vec<f64>> = if dims == 1 {
+            let n = settings.global_points.max(3);
+            (0..n).map(|i| vec![i as f64 / (n - 1) as f64]).collect()
+        } else {
+            (1..=settings.global_points)
+                .map(|i| halton(i, dims))
+                .collect()
+        };
+        let values: Vec<f64> = samples.iter().map(|u| cost(u)).collect();
+
+        // Starts for the local stage.
+        let mut order: Vec<usize> = (0..samples.len())
+            .filter(|&i| values[i].is_finite())
+            .collect();
+        order.sort_by(|&a, &b| values[a].total_cmp(&values[b]));
+        let mut best_u: Option<(Vec<f64>, f64)> =
+            order.first().map(|&i| (samples[i].clone(), values[i]));
+        if dims == 1 {
+            // Local minima of the grid, best first.
+            let n = samples.len();
+            let minima: Vec<usize> = order
+                .iter()
+                .copied()
+                .filter(|&i| {
+                    (i == 0 || values[i] <= values[i - 1])
+                        && (i + 1 == n || values[i] <= values[i + 1])
+                })
+                .take(settings.refine_starts)
+                .collect();
+            for i in minima {
+                let a = samples[i.saturating_sub(1)][0];
+                let b = samples[(i + 1).min(n - 1)][0];
+                let (u, neg) = golden_section_max(
+                    |u| -cost(&[u]),
+                    a,
+                    b,
+                    settings.local_evaluations.saturating_sub(2),
+                );
+                if -neg < best_u.as_ref().map_or(f64::INFINITY, |b| b.1) {
+                    best_u = Some((vec![u], -neg));
+                }
+            }
+        } else {
+            let mut starts: Vec<usize> = Vec::new();
+            for &i in &order {
+                let far = starts.iter().all(|&j| {
+                    samples[i]
+                        .iter()
+                        .zip(&samples[j])
+                        .map(|(a, b)| (a - b).abs())
+                        .fold(0.0, f64::max)
+                        > 0.15
+                });
+                if far {
+                    starts.push(i);
+                }
+                if starts.len() == settings.refine_starts {
+                    break;
+                }
+            }
+            let step = (1.0 / (settings.global_points as f64).powf(1.0 / dims as f64)).min(0.2);
+            for i in starts {
+                let (u, v) = nelder_mead_in_box(
+                    &mut cost,
+                    &samples[i],
+                    step,
+                    1e-7,
+                    settings.local_evaluations,
+                );
+                if v < best_u.as_ref().map_or(f64::INFINITY, |b| b.1) {
+                    best_u = Some((u, v));
+                }
+            }
+        }
+        let Some((u, _)) = best_u else {
+            return Err(TuneError::NothingValid(last_error));
+        };
+        let best = self.values_at(&u);
+        let after = self
+            .evaluate_values(&best)
+            .map_err(TuneError::NothingValid)?;
+        let element = self.element_with(&best).map_err(TuneError::NothingValid)?;
+        let steepness = (0..dims)
+            .map(|i| {
+                let loss = |factor: f64| {
+                    let mut v = best.clone();
+                    v[i] *= factor;
+                    self.evaluate_values(&v)
+                        .ok()
+                        .map(|s| 20.0 * (s.objective_pa / after.objective_pa).log10())
+                        .filter(|db| db.is_finite())
+                };
+                Steepness {
+                    parameter: self.bounds[i].parameter,
+                    minus_10_percent_db: loss(0.9),
+                    plus_10_percent_db: loss(1.1),
+                }
+            })
+            .collect();
+        Ok(TuneResult {
+            best,
+            element,
+            before,
+            after,
+            steepness,
+            evaluations: count,
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn parameter_names_round_trip() {
+        for p in Parameter::ALL {
+            assert_eq!(Parameter::from_name(p.name()), Some(p));
+        }
+        assert_eq!(Parameter::from_name("colour"), None);
+    }
+
+    #[test]
+    fn speeds_are_log_spaced_and_include_the_ends() {
+        let c = speed_conditions((10.0, 40.0), 3);
+        assert_eq!(c.len(), 3);
+        assert!((c[0].speed_rev_s - 10.0).abs() < 1e-12);
+        assert!((c[1].speed_rev_s - 20.0).abs() < 1e-12);
+        assert!((c[2].speed_rev_s - 40.0).abs() < 1e-12);
+        assert_eq!(speed_conditions((25.0, 25.0), 9).len(), 1);
+    }
+}

@@ -1,0 +1,367 @@
+//! `ripline tune FILE --element NAME --vary PARAM=LOW..HIGH ...`: size a
+//! silencer by searching 1 to 3 of its parameters for the least ripple at a
+//! point over the operating speed range.
+
+use super::common::{self, UsageError};
+use super::ranges::{self, Progress};
+use anyhow::Context;
+use clap::{Args, ValueEnum};
+use ripline::analysis::silencer::{Chain, WithoutReference, circuit_without};
+use ripline::analysis::tune::{
+    Bound, Objective, Parameter, RippleEvaluator, RippleSummary, SearchSettings, TuneProblem,
+    speed_conditions,
+};
+use ripline::elements::{Element, ElementKind, PRESSURE_VESSEL_CAUTION};
+use ripline::io::gas_pressure::parse_gas_pressure;
+use ripline::units::{Dimension, PressureDisplay};
+use std::io::Write;
+use std::path::PathBuf;
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum ObjectiveArg {
+    /// The largest overall rms ripple over the speeds.
+    Worst,
+    /// The rms over the speeds of the overall rms ripple.
+    Rms,
+}
+
+#[derive(Debug, Args)]
+pub struct TuneArgs {
+    /// Circuit file (YAML) holding the silencer to size.
+    file: PathBuf,
+    /// The silencer element to size.
+    #[arg(long, value_name = "NAME")]
+    element: String,
+    /// A parameter and its bounds, e.g. `length=0.2m..1.5m`,
+    /// `gas_volume=0.1L..2L`, `precharge=20 bar gauge..80 bar gauge`;
+    /// give 1 to 3 (bare numbers are SI).
+    #[arg(long, value_name = "PARAM=LOW..HIGH", required = true)]
+    vary: Vec<String>,
+    /// The measurement point whose ripple is minimised (needed when the
+    /// circuit has more than one).
+    #[arg(long, value_name = "NAME")]
+    tap: Option<String>,
+    /// How the ripple over the speeds becomes one number.
+    #[arg(long, value_enum, default_value = "worst")]
+    objective: ObjectiveArg,
+    /// Operating speed range LOW..HIGH, in rpm unless a unit is given.
+    #[arg(long, value_name = "LOW..HIGH")]
+    speed_range: Option<String>,
+    /// Number of speeds across the range (log-spaced, ends included).
+    #[arg(long, value_name = "N", default_value_t = 41)]
+    speeds: usize,
+    /// Samples of the global search stage (default 120, 600 or 1500 for
+    /// 1, 2 or 3 parameters).
+    #[arg(long, value_name = "N")]
+    samples: Option<usize>,
+    /// The pump (default: the first).
+    #[arg(long, value_name = "NAME")]
+    pump: Option<String>,
+}
+
+fn parse_vary(text: &str) -> anyhow::Result<Bound> {
+    let Some((name, range)) = text.split_once('=') else {
+        return Err(UsageError(format!(
+            "--vary {text}: write PARAM=LOW..HIGH, e.g. length=0.2m..1.5m"
+        ))
+        .into());
+    };
+    let parameter = Parameter::from_name(name.trim()).ok_or_else(|| {
+        UsageError(format!(
+            "--vary {text}: unknown parameter `{}`; use one of: {}",
+            name.trim(),
+            Parameter::ALL.map(|p| p.name()).join(", ")
+        ))
+    })?;
+    let (low, high) = match parameter.dimension() {
+        Dimension::Pressure => {
+            let Some((lo, hi)) = range.split_once("..") else {
+                return Err(
+                    UsageError(format!("--vary {text}: write the range as LOW..HIGH")).into(),
+                );
+            };
+            let p = |s: &str| {
+                parse_gas_pressure(s).map_err(|e| UsageError(format!("--vary {text}: {e}")))
+            };
+            (p(lo)?, p(hi)?)
+        }
+        Dimension::Volume => ranges::parse_range("--vary", range, Dimension::Volume, "m3")?,
+        dim => ranges::parse_range("--vary", range, dim, "m")?,
+    };
+    if !(low > 0.0 && high > low) {
+        return Err(UsageError(format!(
+            "--vary {text}: the bounds must be positive and increasing"
+        ))
+        .into());
+    }
+    Ok(Bound {
+        parameter,
+        low,
+        high,
+    })
+}
+
+fn show(parameter: Parameter, value: f64) -> String {
+    match parameter.dimension() {
+        Dimension::Length if value < 0.1 => format!("{:.2} mm", value * 1e3),
+        Dimension::Length => format!("{:.4} m", value),
+        Dimension::Volume => format!("{:.4} L", value * 1e3),
+        _ => format!("{:.3} bar abs", value / 1e5),
+    }
+}
+
+fn level(pa: f64) -> String {
+    if pa > 0.0 {
+        format!(
+            "{} rms ({:.1} dB re 1 Pa)",
+            PressureDisplay(pa),
+            20.0 * pa.log10()
+        )
+    } else {
+        "no ripple".into()
+    }
+}
+
+pub fn run(args: TuneArgs) -> anyhow::Result<()> {
+    let bounds = args
+        .vary
+        .iter()
+        .map(|v| parse_vary(v))
+        .collect::<anyhow::Result<Vec<_>>>()?;
+    if !(1..=1000).contains(&args.speeds) {
+        return Err(UsageError(format!(
+            "--speeds must be between 1 and 1000, found {}",
+            args.speeds
+        ))
+        .into());
+    }
+    let loaded = common::load_circuit(Some(&args.file))?;
+    let circuit = &loaded.circuit;
+    let element = ranges::element(circuit, &args.element)?;
+    let (tap_name, tap) = ranges::point(circuit, args.tap.as_deref())?;
+    let pump_index = ranges::pump_index(circuit, args.pump.as_deref())?;
+    let speeds = ranges::speed_range(args.speed_range.as_deref(), circuit, pump_index)?;
+    let conditions = speed_conditions(
+        speeds.rev_s,
+        if speeds.is_single() { 1 } else { args.speeds },
+    );
+    let objective = match args.objective {
+        ObjectiveArg::Worst => Objective::Worst,
+        ObjectiveArg::Rms => Objective::Rms,
+    };
+    let evaluator = RippleEvaluator::new(circuit, pump_index, tap, &conditions, objective);
+    let problem = TuneProblem {
+        circuit,
+        element,
+        bounds,
+        evaluator: evaluator.clone(),
+    };
+    problem.validate().map_err(|e| UsageError(e.to_string()))?;
+    let mut settings = SearchSettings::for_dims(problem.bounds.len());
+    if let Some(n) = args.samples {
+        if !(3..=100_000).contains(&n) {
+            return Err(
+                UsageError(format!("--samples must be between 3 and 100000, found {n}")).into(),
+            );
+        }
+        settings.global_points = n;
+    }
+    let top = circuit.pumps[pump_index].pumping_elements as f64
+        * speeds.rev_s.1
+        * f64::from(circuit.harmonics);
+    for w in ripline::diagnostics::circuit_warnings(circuit, top) {
+        eprintln!("warning: {w}");
+    }
+    let progress = Progress::new(settings.budget(), "searching");
+    let result = problem
+        .solve(settings, &mut |n| progress.set(n))
+        .with_context(|| format!("tuning `{}` in {}", args.element, loaded.source))?;
+    progress.finish();
+
+    // The ripple with the silencer taken out, for scale.
+    let without: Option<RippleSummary> = Chain::new(circuit, &[element])
+        .ok()
+        .and_then(|chain| {
+            let pipe = chain.reference_pipes(circuit).ok().and_then(|(up, _)| {
+                match &circuit.elements[up].kind {
+                    ElementKind::Tube(t) => Some(*t),
+                    _ => None,
+                }
+            });
+            circuit_without(circuit, &chain, WithoutReference::Pipe, pipe.as_ref()).ok()
+        })
+        .and_then(|c| {
+            let (_, t) = ranges::point(&c, Some(&tap_name)).ok()?;
+            RippleEvaluator::new(&c, pump_index, t, &conditions, objective)
+                .evaluate(&c)
+                .ok()
+        });
+
+    let e = &circuit.elements[element];
+    let tuned = Element {
+        name: e.name.clone(),
+        kind: result.element.clone(),
+        connection: e.connection,
+    };
+    let mut out = std::io::stdout().lock();
+    writeln!(out, "ripline tune: {}", loaded.source)?;
+    if let Some(title) = &circuit.title {
+        writeln!(out, "circuit: {title}")?;
+    }
+    writeln!(
+        out,
+        "element `{}` ({}, {}); point `{tap_name}`",
+        e.name,
+        e.kind.name(),
+        super::silencer::place(circuit, e)
+    )?;
+    writeln!(
+        out,
+        "objective: {}, harmonics 1–{} of pump `{}`",
+        objective.describe(),
+        circuit.harmonics,
+        circuit.pumps[pump_index].name
+    )?;
+    writeln!(
+        out,
+        "speeds: {} (log-spaced, ends included); speed range {}",
+        conditions.len(),
+        speeds.source
+    )?;
+    writeln!(
+        out,
+        "search: {} in log scale over the bounds, then {}; {} ripple evaluations of {} network solves each",
+        if problem.bounds.len() == 1 {
+            format!("an even grid of {} values", settings.global_points)
+        } else {
+            format!("{} Halton samples", settings.global_points)
+        },
+        if problem.bounds.len() == 1 {
+            "golden-section refinement of the best grid minima"
+        } else {
+            "Nelder–Mead refinement of the best separated samples"
+        },
+        result.evaluations,
+        evaluator.solves_per_evaluation()
+    )?;
+    writeln!(out)?;
+    writeln!(
+        out,
+        "  {:<12}  {:>16}  {:>16}  {:>36}",
+        "parameter", "in the file", "best", "bounds"
+    )?;
+    for (b, v) in problem.bounds.iter().zip(&result.best) {
+        let file = b
+            .parameter
+            .value(&e.kind)
+            .map_or("—".into(), |x| show(b.parameter, x));
+        let at_edge = if (v / b.low - 1.0).abs() < 1e-3 || (b.high / v - 1.0).abs() < 1e-3 {
+            "  (at a bound: widen it?)"
+        } else {
+            ""
+        };
+        writeln!(
+            out,
+            "  {:<12}  {:>16}  {:>16}  {:>36}{at_edge}",
+            b.parameter.name(),
+            file,
+            show(b.parameter, *v),
+            format!(
+                "{} .. {}",
+                show(b.parameter, b.low),
+                show(b.parameter, b.high)
+            )
+        )?;
+    }
+    writeln!(out)?;
+    writeln!(out, "ripple at `{tap_name}` ({}):", objective.describe())?;
+    if let Some(w) = &without {
+        writeln!(out, "  without the silencer:   {}", level(w.objective_pa))?;
+    }
+    writeln!(
+        out,
+        "  as in the file:         {}",
+        level(result.before.objective_pa)
+    )?;
+    writeln!(
+        out,
+        "  tuned:                  {}",
+        level(result.after.objective_pa)
+    )?;
+    if result.after.objective_pa > 0.0 && result.before.objective_pa > 0.0 {
+        writeln!(
+            out,
+            "  improvement over the file's design: {:.2} dB",
+            20.0 * (result.before.objective_pa / result.after.objective_pa).log10()
+        )?;
+    }
+    if let Some(w) = &without
+        && result.after.objective_pa > 0.0
+    {
+        writeln!(
+            out,
+            "  attenuation against no silencer: {:.2} dB",
+            20.0 * (w.objective_pa / result.after.objective_pa).log10()
+        )?;
+    }
+    if conditions.len() > 1 {
+        let (i, worst) = result
+            .after
+            .per_condition_pa
+            .iter()
+            .enumerate()
+            .fold((0, 0.0), |b, (i, &v)| if v > b.1 { (i, v) } else { b });
+        writeln!(
+            out,
+            "  tuned, worst speed: {:.0} rpm with {}",
+            conditions[i].speed_rev_s * 60.0,
+            level(worst)
+        )?;
+    }
+    writeln!(out)?;
+    writeln!(
+        out,
+        "steepness (ripple rise when one parameter is off its best value, others kept):"
+    )?;
+    for s in &result.steepness {
+        let db = |v: Option<f64>| v.map_or("not valid".into(), |d| format!("{d:+.2} dB"));
+        writeln!(
+            out,
+            "  {:<12}  −10 %: {:>10}   +10 %: {:>10}",
+            s.parameter.name(),
+            db(s.minus_10_percent_db),
+            db(s.plus_10_percent_db)
+        )?;
+    }
+    writeln!(out)?;
+    writeln!(out, "tuned element:")?;
+    for line in super::silencer::describe(&tuned, None) {
+        writeln!(out, "  {line}")?;
+    }
+    writeln!(
+        out,
+        "in the circuit file, set: {}",
+        problem
+            .bounds
+            .iter()
+            .zip(&result.best)
+            .map(|(b, v)| format!("{}: {}", b.parameter.name(), file_value(b.parameter, *v)))
+            .collect::<Vec<_>>()
+            .join(", ")
+    )?;
+    if matches!(e.kind, ElementKind::Damper(_)) {
+        writeln!(out)?;
+        writeln!(out, "{PRESSURE_VESSEL_CAUTION}")?;
+    }
+    out.flush()?;
+    Ok(())
+}
+
+/// A value as it would be written in a circuit file.
+fn file_value(parameter: Parameter, value: f64) -> String {
+    match parameter.dimension() {
+        Dimension::Length => format!("{:.1} mm", value * 1e3),
+        Dimension::Volume => format!("{:.3} L", value * 1e3),
+        _ => format!("{:.2} bar abs", value / 1e5),
+    }
+}
