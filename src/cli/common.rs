@@ -4,6 +4,7 @@ use super::{EXIT_COMPUTE, EXIT_INPUT};
 use anyhow::Context;
 use ripline::io::InputError;
 use ripline::io::output::StagedOutputs;
+use ripline::source::{Shaft, shafts};
 use ripline::units::{Dimension, parse_quantity};
 use ripline::{Circuit, demo};
 use std::path::{Path, PathBuf};
@@ -139,4 +140,42 @@ pub fn stage_csv(
     outputs
         .stage_bytes(path, &bytes)
         .with_context(|| format!("writing {}", path.display()))
+}
+
+/// Parses a shaft speed option (rpm when bare) and checks it is within
+/// 0 .. 60000 rpm.
+pub fn speed_option(option: &str, text: &str) -> anyhow::Result<f64> {
+    let rev_s = cli_quantity(option, text, Dimension::ShaftSpeed, "rpm")?;
+    if !(rev_s > 0.0 && rev_s <= 1000.0) {
+        return Err(UsageError(format!(
+            "{option} must be between 0 and 60000 rpm, found {:.1} rpm",
+            rev_s * 60.0
+        ))
+        .into());
+    }
+    Ok(rev_s)
+}
+
+/// The shaft named `name` (a shaft name, or the name of a pump on it), or
+/// the first pump's shaft when no name is given.
+pub fn pick_shaft(circuit: &Circuit, name: Option<&str>) -> anyhow::Result<Shaft> {
+    let all = shafts(&circuit.pumps);
+    let Some(name) = name else {
+        return Ok(all[0].clone());
+    };
+    all.iter()
+        .find(|s| s.name == name)
+        .or_else(|| {
+            let pump = circuit.pumps.iter().position(|p| p.name == name)?;
+            all.iter().find(|s| s.pumps.contains(&pump))
+        })
+        .cloned()
+        .ok_or_else(|| {
+            let names: Vec<String> = all.iter().map(|s| format!("`{}`", s.name)).collect();
+            UsageError(format!(
+                "--shaft {name}: no shaft or pump has that name; the circuit's shafts are {}",
+                names.join(", ")
+            ))
+            .into()
+        })
 }

@@ -15,6 +15,7 @@ mod silencer;
 mod solve;
 mod synth;
 mod tune;
+mod sweep;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
@@ -48,6 +49,9 @@ enum Command {
     Silencer(silencer::SilencerArgs),
     /// Size a silencer: vary 1 to 3 of its parameters to minimise the ripple at a point.
     Tune(tune::TuneArgs),
+    /// Ripple over a range of pump speeds: worst speed per point and every
+    /// resonance crossing.
+    Sweep(sweep::SweepArgs),
 }
 
 /// Exit code for invalid input or usage.
@@ -76,6 +80,7 @@ pub fn main() -> ExitCode {
         Command::Response(args) => response::run(args),
         Command::Silencer(args) => silencer::run(args),
         Command::Tune(args) => tune::run(args),
+        Command::Sweep(args) => sweep::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
