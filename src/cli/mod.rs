@@ -13,9 +13,9 @@ mod ranges;
 mod response;
 mod silencer;
 mod solve;
+mod sweep;
 mod synth;
 mod tune;
-mod sweep;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;

@@ -54,7 +54,12 @@ pub struct SweepArgs {
     harmonics: Option<u32>,
     /// Smallest rise, in dB above the level away from the resonance, for a
     /// peak to count as a resonance crossing.
-    #[arg(long, value_name = "DB", default_value_t = 3.0)]
+    #[arg(
+        long,
+        value_name = "DB",
+        default_value_t = 3.0,
+        allow_negative_numbers = true
+    )]
     min_rise: f64,
     /// Reference pressure for levels in dB (rms), e.g. "1 Pa" or "1 bar".
     #[arg(long, value_name = "PRESSURE", default_value = "1 Pa")]
