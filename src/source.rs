@@ -96,10 +96,7 @@ impl FlowRipple {
                     })
                     .collect(),
             },
-            FlowRipple::Kinematic(k) => FlowRipple::Kinematic(KinematicRipple::new(
-                *k.geometry(),
-                k.shaft_angle_rad() + angle_rad,
-            )),
+            FlowRipple::Kinematic(k) => FlowRipple::Kinematic(k.rotated(angle_rad)),
         }
     }
 }

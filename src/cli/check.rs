@@ -61,7 +61,7 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
             FlowRipple::Kinematic(k) => {
                 writeln!(
                     out,
-                    "  flow ripple from geometry: {}, kinematic non-uniformity δ = {:.4}, reference at shaft angle {:.2}°",
+                    "  flow ripple from geometry: {}, flow non-uniformity δ = {:.4}, reference at shaft angle {:.2}°",
                     describe_geometry(k.geometry()),
                     k.non_uniformity(),
                     k.shaft_angle_rad().to_degrees()
@@ -69,43 +69,44 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
             }
             _ => writeln!(out, "  flow ripple: a table of {} harmonics", p.max_order())?,
         }
-        match p.source_impedance {
+        // (capacitance, leakage, passage) of the volume forms
+        let volume = match p.source_impedance {
             SourceImpedance::Volume {
                 capacitance_m3_pa,
                 leakage_resistance_pa_s_m3,
-            } => {
-                write!(
-                    out,
-                    "  source impedance: internal volume {:.4} L (capacitance {:.4e} m³/Pa)",
-                    capacitance_m3_pa * f.bulk_modulus_pa * 1e3,
-                    capacitance_m3_pa
-                )?;
-                match leakage_resistance_pa_s_m3 {
-                    Some(r) => writeln!(out, ", leakage resistance {r:.4e} Pa·s/m³")?,
-                    None => writeln!(out)?,
-                }
-            }
+            } => Some((capacitance_m3_pa, leakage_resistance_pa_s_m3, None)),
             SourceImpedance::VolumePassage {
                 capacitance_m3_pa,
                 leakage_resistance_pa_s_m3,
                 passage_resistance_pa_s_m3,
                 passage_inertance_kg_m4,
-            } => {
+            } => Some((
+                capacitance_m3_pa,
+                leakage_resistance_pa_s_m3,
+                Some((passage_resistance_pa_s_m3, passage_inertance_kg_m4)),
+            )),
+            _ => None,
+        };
+        match (&p.source_impedance, volume) {
+            (_, Some((capacitance_m3_pa, leakage, passage))) => {
                 write!(
                     out,
                     "  source impedance: internal volume {:.4} L (capacitance {:.4e} m³/Pa)",
                     capacitance_m3_pa * f.bulk_modulus_pa * 1e3,
                     capacitance_m3_pa
                 )?;
-                if let Some(r) = leakage_resistance_pa_s_m3 {
+                if let Some(r) = leakage {
                     write!(out, ", leakage resistance {r:.4e} Pa·s/m³")?;
                 }
-                writeln!(
-                    out,
-                    ", behind a passage of resistance {passage_resistance_pa_s_m3:.4e} Pa·s/m³ and inertance {passage_inertance_kg_m4:.4e} kg/m⁴"
-                )?;
+                if let Some((r, l)) = passage {
+                    write!(
+                        out,
+                        ", behind a passage of resistance {r:.4e} Pa·s/m³ and inertance {l:.4e} kg/m⁴"
+                    )?;
+                }
+                writeln!(out)?;
             }
-            SourceImpedance::Table(ref t) => {
+            (SourceImpedance::Table(t), None) => {
                 let (lo, hi) = t.range_hz();
                 writeln!(
                     out,

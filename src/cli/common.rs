@@ -179,3 +179,43 @@ pub fn pick_shaft(circuit: &Circuit, name: Option<&str>) -> anyhow::Result<Shaft
             .into()
         })
 }
+
+/// The options `solve` and `sweep` share, checked before any work: the dB
+/// reference, the output paths, and the circuit with its harmonic count.
+pub struct Prepared {
+    pub p_ref: f64,
+    pub csv: Option<PathBuf>,
+    pub plot: Option<PathBuf>,
+    pub loaded: LoadedCircuit,
+}
+
+/// Checks `--db-ref`, `--csv`, `--plot`, loads FILE (or the demo) and
+/// applies `--harmonics`.
+pub fn prepare(
+    db_ref: &str,
+    csv: Option<&Path>,
+    plot: Option<&Path>,
+    file: Option<&Path>,
+    harmonics: Option<u32>,
+) -> anyhow::Result<Prepared> {
+    let p_ref = cli_quantity("--db-ref", db_ref, Dimension::Pressure, "Pa")?;
+    if p_ref <= 0.0 {
+        return Err(UsageError("--db-ref must be a positive pressure".into()).into());
+    }
+    let (csv, plot) = csv_and_plot_paths(csv, plot)?;
+    let mut loaded = load_circuit(file)?;
+    if let Some(n) = harmonics {
+        if !(1..=200).contains(&n) {
+            return Err(
+                UsageError(format!("--harmonics must be between 1 and 200, found {n}")).into(),
+            );
+        }
+        loaded.circuit.harmonics = n;
+    }
+    Ok(Prepared {
+        p_ref,
+        csv,
+        plot,
+        loaded,
+    })
+}

@@ -9,7 +9,7 @@ use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
 use ripline::source::{Shaft, shafts};
-use ripline::units::{Dimension, PressureDisplay};
+use ripline::units::PressureDisplay;
 use std::io::Write;
 use std::path::PathBuf;
 
@@ -41,22 +41,18 @@ pub struct SolveArgs {
 }
 
 pub fn run(args: SolveArgs) -> anyhow::Result<()> {
-    let p_ref = common::cli_quantity("--db-ref", &args.db_ref, Dimension::Pressure, "Pa")?;
-    if p_ref <= 0.0 {
-        return Err(UsageError("--db-ref must be a positive pressure".into()).into());
-    }
-    let (csv_path, plot_path) =
-        common::csv_and_plot_paths(args.csv.as_deref(), args.plot.as_deref())?;
-    let mut loaded = common::load_circuit(args.file.as_deref())?;
-    let circuit = &mut loaded.circuit;
-    if let Some(n) = args.harmonics {
-        if !(1..=200).contains(&n) {
-            return Err(
-                UsageError(format!("--harmonics must be between 1 and 200, found {n}")).into(),
-            );
-        }
-        circuit.harmonics = n;
-    }
+    let common::Prepared {
+        p_ref,
+        csv: csv_path,
+        plot: plot_path,
+        mut loaded,
+    } = common::prepare(
+        &args.db_ref,
+        args.csv.as_deref(),
+        args.plot.as_deref(),
+        args.file.as_deref(),
+        args.harmonics,
+    )?;
     if let Some(speed) = &args.speed {
         let rev_s = common::speed_option("--speed", speed)?;
         common::pick_shaft(&loaded.circuit, args.shaft.as_deref())?

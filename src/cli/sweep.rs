@@ -10,7 +10,7 @@ use ripline::io::csv_out::write_sweep_csv;
 use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
-use ripline::units::{Dimension, PressureDisplay};
+use ripline::units::PressureDisplay;
 use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
 
@@ -90,10 +90,6 @@ pub fn levels_path(map: &Path) -> PathBuf {
 }
 
 pub fn run(args: SweepArgs) -> anyhow::Result<()> {
-    let p_ref = common::cli_quantity("--db-ref", &args.db_ref, Dimension::Pressure, "Pa")?;
-    if p_ref <= 0.0 {
-        return Err(UsageError("--db-ref must be a positive pressure".into()).into());
-    }
     if !(args.min_rise.is_finite() && args.min_rise >= 0.0) {
         return Err(UsageError(format!(
             "--min-rise must be a number of dB, zero or more, found {}",
@@ -101,25 +97,18 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
         ))
         .into());
     }
-    let csv_path = args
-        .csv
-        .as_deref()
-        .map(|p| common::check_output("--csv", p, &["csv"]))
-        .transpose()?;
-    let plot_path = args
-        .plot
-        .as_deref()
-        .map(|p| common::check_output("--plot", p, &["svg", "png"]))
-        .transpose()?;
-    let mut loaded = common::load_circuit(args.file.as_deref())?;
-    if let Some(n) = args.harmonics {
-        if !(1..=200).contains(&n) {
-            return Err(
-                UsageError(format!("--harmonics must be between 1 and 200, found {n}")).into(),
-            );
-        }
-        loaded.circuit.harmonics = n;
-    }
+    let common::Prepared {
+        p_ref,
+        csv: csv_path,
+        plot: plot_path,
+        loaded,
+    } = common::prepare(
+        &args.db_ref,
+        args.csv.as_deref(),
+        args.plot.as_deref(),
+        args.file.as_deref(),
+        args.harmonics,
+    )?;
     let shaft = common::pick_shaft(&loaded.circuit, args.shaft.as_deref())?;
     let (low, high) = match &args.speed {
         Some(text) => {

@@ -1512,49 +1512,54 @@ impl Checker<'_> {
             s => s.clone(),
         };
         let shaft_angle = raw.shaft_angle.map_or(0.0, |a| a.si);
-        if let Some(src) = file_source {
-            let source_impedance = src
-                .source_impedance()
-                .map_err(|m| self.err(&path.key("source_file"), m))?;
-            return Ok(Pump {
-                name,
-                node,
-                speed_rev_s: speed,
-                speed_range_rev_s: speed_range,
-                pumping_elements,
-                displacement_m3: displacement,
-                shaft,
-                flow_ripple: src.flow_ripple().rotated(pumping_elements, shaft_angle),
-                source_impedance,
-            });
-        }
-        let Some(zs) = &raw.source_impedance else {
-            return Err(self.err(
-                path,
-                "the pump needs `source_impedance` with its `flow_ripple` (or `gear`, `piston`), or a `source_file`",
-            ));
+        let (flow_ripple, source_impedance) = match file_source {
+            Some(src) => (
+                src.flow_ripple(),
+                src.source_impedance()
+                    .map_err(|m| self.err(&path.key("source_file"), m))?,
+            ),
+            None => {
+                let Some(zs) = &raw.source_impedance else {
+                    return Err(self.err(
+                        path,
+                        "the pump needs `source_impedance` with its `flow_ripple` (or `gear`, `piston`), or a `source_file`",
+                    ));
+                };
+                let source_impedance =
+                    self.source_impedance(&path.key("source_impedance"), zs, &circuit.fluid)?;
+                let flow_ripple = match (geometry, &raw.flow_ripple) {
+                    (Some(g), _) => FlowRipple::Kinematic(KinematicRipple::new(g, 0.0)),
+                    (None, Some(table)) => self.flow_table(path, table, speed)?,
+                    (None, None) => {
+                        return Err(self.err(
+                            path,
+                            "the pump needs a source flow ripple: `flow_ripple` (a table), `gear`, `piston` or `source_file`",
+                        ));
+                    }
+                };
+                (flow_ripple, source_impedance)
+            }
         };
-        let source_impedance =
-            self.source_impedance(&path.key("source_impedance"), zs, &circuit.fluid)?;
-        if let Some(g) = geometry {
-            return Ok(Pump {
-                name,
-                node,
-                speed_rev_s: speed,
-                speed_range_rev_s: speed_range,
-                pumping_elements,
-                displacement_m3: displacement,
-                shaft,
-                flow_ripple: FlowRipple::Kinematic(KinematicRipple::new(g, shaft_angle)),
-                source_impedance,
-            });
-        }
-        let Some(flow_ripple) = &raw.flow_ripple else {
-            return Err(self.err(
-                path,
-                "the pump needs a source flow ripple: `flow_ripple` (a table), `gear`, `piston` or `source_file`",
-            ));
-        };
+        Ok(Pump {
+            name,
+            node,
+            speed_rev_s: speed,
+            speed_range_rev_s: speed_range,
+            pumping_elements,
+            displacement_m3: displacement,
+            shaft,
+            flow_ripple: flow_ripple.rotated(pumping_elements, shaft_angle),
+            source_impedance,
+        })
+    }
+
+    /// The source flow ripple table `flow_ripple` at the pump's `speed`.
+    fn flow_table(
+        &self,
+        path: &KeyPath,
+        flow_ripple: &[RawHarmonic],
+        speed: f64,
+    ) -> Res<FlowRipple> {
         if flow_ripple.is_empty() {
             return Err(self.err(
                 &path.key("flow_ripple"),
@@ -1594,20 +1599,9 @@ impl Checker<'_> {
                 phase_rad: h.phase.map_or(0.0, |p| p.si),
             });
         }
-        Ok(Pump {
-            name,
-            node,
-            speed_rev_s: speed,
-            speed_range_rev_s: speed_range,
-            pumping_elements,
-            displacement_m3: displacement,
-            shaft,
-            flow_ripple: FlowRipple::Table {
-                reference_speed_rev_s: speed,
-                harmonics,
-            }
-            .rotated(pumping_elements, shaft_angle),
-            source_impedance,
+        Ok(FlowRipple::Table {
+            reference_speed_rev_s: speed,
+            harmonics,
         })
     }
 

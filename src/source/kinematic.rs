@@ -160,6 +160,22 @@ impl KinematicRipple {
         }
     }
 
+    /// The same pump turned further by `angle_rad` on its shaft: harmonic
+    /// k is multiplied by e^{−jkz·angle}.
+    pub fn rotated(&self, angle_rad: f64) -> Self {
+        let z = f64::from(self.geometry.pumping_elements());
+        KinematicRipple {
+            shaft_angle_rad: self.shaft_angle_rad + angle_rad,
+            harmonics_m3_per_rad: self
+                .harmonics_m3_per_rad
+                .iter()
+                .zip(1..)
+                .map(|(&q, k)| q * C64::from_polar(1.0, -f64::from(k) * z * angle_rad))
+                .collect(),
+            ..self.clone()
+        }
+    }
+
     /// The pump geometry.
     pub fn geometry(&self) -> &PumpGeometry {
         &self.geometry
@@ -213,9 +229,12 @@ mod tests {
         });
         let a = KinematicRipple::new(g, 0.0);
         let b = KinematicRipple::new(g, 0.1);
+        let c = a.rotated(0.1);
+        assert_eq!(c.shaft_angle_rad(), 0.1);
         for k in [1, 2, 7] {
             let want = a.harmonic(k, 25.0) * C64::from_polar(1.0, -f64::from(k) * 10.0 * 0.1);
             assert!((b.harmonic(k, 25.0) - want).norm() < 1e-12 * want.norm());
+            assert!((c.harmonic(k, 25.0) - want).norm() < 1e-12 * want.norm());
         }
         assert_eq!(b.flow_m3_s(0.3, 25.0), a.flow_m3_s(0.2, 25.0));
         assert_eq!(a.harmonic(MAX_ORDER + 1, 25.0), C64::new(0.0, 0.0));
