@@ -219,3 +219,12 @@ pub fn prepare(
         loaded,
     })
 }
+
+/// A level in dB re `p_ref` of an rms pressure, or "no ripple".
+pub fn level_text(rms: f64, p_ref: f64) -> String {
+    if rms > 0.0 {
+        format!("{:.1} dB", 20.0 * (rms / p_ref).log10())
+    } else {
+        "no ripple".to_string()
+    }
+}

@@ -120,14 +120,6 @@ fn ensure_finite(report: &RippleReport) -> anyhow::Result<()> {
     Ok(())
 }
 
-fn level_text(rms: f64, p_ref: f64) -> String {
-    if rms > 0.0 {
-        format!("{:.1} dB", 20.0 * (rms / p_ref).log10())
-    } else {
-        "no ripple".to_string()
-    }
-}
-
 fn print_report(
     source: &str,
     circuit: &ripline::Circuit,
@@ -198,7 +190,7 @@ fn print_report(
                 "  {}: {} rms, {}, {} peak-to-peak",
                 if several { "source overall" } else { "overall" },
                 PressureDisplay(rms),
-                level_text(rms, p_ref),
+                common::level_text(rms, p_ref),
                 PressureDisplay(tap.peak_to_peak_pa())
             )?;
         }
@@ -212,7 +204,7 @@ fn print_report(
                 out,
                 "  overall, all sources: {} rms, {}",
                 PressureDisplay(rms),
-                level_text(rms, p_ref)
+                common::level_text(rms, p_ref)
             )?;
         }
     }

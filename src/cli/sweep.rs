@@ -287,14 +287,6 @@ fn loudest_point(result: &SweepResult) -> usize {
         .0
 }
 
-fn db(rms: f64, p_ref: f64) -> String {
-    if rms > 0.0 {
-        format!("{:.1}", 20.0 * (rms / p_ref).log10())
-    } else {
-        "no ripple".into()
-    }
-}
-
 fn print_report(
     source: &str,
     circuit: &ripline::Circuit,
@@ -368,7 +360,7 @@ fn print_report(
     writeln!(
         out,
         "  {:<width$}  {:>9}  {:>12}  {:>9}",
-        "point", "speed rpm", "rms", "level dB"
+        "point", "speed rpm", "rms", "level"
     )?;
     for (pi, point) in result.points.iter().enumerate() {
         let (si, rms) = result.worst(pi);
@@ -377,7 +369,7 @@ fn print_report(
             "  {point:<width$}  {:>9.1}  {:>12}  {:>9}",
             speeds[si] * 60.0,
             PressureDisplay(rms).to_string(),
-            db(rms, p_ref)
+            common::level_text(rms, p_ref)
         )?;
     }
     writeln!(out)?;
