@@ -1495,3 +1495,43 @@ fn pumps_on_two_shafts_are_reported_per_source() {
     assert!(out.contains("pump `b` at node `y`: 1200 rpm"), "{out}");
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+/// An ideal flow source into a lossless line open to tank has no solution at
+/// c/4L = 168.75 Hz (Kinsler et al.), i.e. 843.75 rpm × 12 teeth: a sweep
+/// with that speed on its grid stops with exit code 1, names the speed and
+/// the frequency, and writes nothing.
+#[test]
+fn a_sweep_through_an_undamped_resonance_stops_with_exit_1() {
+    let dir = scratch("sweep-singular");
+    let file = dir.join("singular.yaml");
+    std::fs::write(
+        &file,
+        "fluid: {density: 870, bulk_modulus: 1585575000, viscosity: 32 cSt}\n\
+         line_model: lossless\n\
+         pump:\n  node: a\n  speed: 843.75 rpm\n  pumping_elements: 12\n\
+         \x20 flow_ripple: [{harmonic: 1, amplitude: 1 L/min}]\n\
+         \x20 source_impedance: {volume: 0}\n\
+         elements:\n\
+         \x20 - {name: line, kind: tube, from: a, to: b, length: 2 m, bore: 10 mm, rigid: true}\n\
+         \x20 - {name: reservoir, kind: tank, at: b}\n",
+    )
+    .unwrap();
+    let csv = dir.join("grid.csv");
+    let o = ripline(&[
+        "sweep",
+        file.to_str().unwrap(),
+        "--speed",
+        "823.75..863.75",
+        "--step",
+        "10",
+        "--csv",
+        csv.to_str().unwrap(),
+    ]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(err.contains("solving at 843.75 rpm"), "{err}");
+    assert!(err.contains("no unique solution at 168.750000 Hz"), "{err}");
+    assert!(!stdout(&o).contains("NaN"));
+    assert_eq!(files_in(&dir), vec!["singular.yaml"]);
+    std::fs::remove_dir_all(dir).unwrap();
+}

@@ -219,6 +219,16 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
     }
     let map_point = map_point.unwrap_or_else(|| loudest_point(&result));
     if let Some(path) = &plot_path {
+        let drawn = (0..result.speeds_rev_s.len()).any(|si| {
+            (0..result.orders.len()).any(|oi| result.amplitude_pa(si, map_point, oi) > 0.0)
+        });
+        if !drawn {
+            return Err(UsageError(format!(
+                "--plot: the swept pumps make no ripple at `{}` at any speed (are their harmonics in the table?), so there is nothing to draw",
+                result.points[map_point]
+            ))
+            .into());
+        }
         let title = circuit.title.as_deref();
         let map = map(&result, map_point, &resonances, top_hz * 1.05, p_ref, title);
         outputs
