@@ -37,6 +37,7 @@
 
 use super::ripple::{OrderSolver, report_points, shaft_ripple};
 use super::search::golden_section_max;
+use crate::diagnostics::Warning;
 use crate::elements::NodeId;
 use crate::network::{Plan, SolveError};
 use crate::source::Shaft;
@@ -122,6 +123,9 @@ pub struct SweepResult {
     pub other_shafts_ms_pa2: Vec<f64>,
     /// Every resonance crossing, by speed, then order, then point.
     pub crossings: Vec<Crossing>,
+    /// Grid frequencies solved close to an undamped resonance
+    /// (ill-conditioned; see `diagnostics::conditioning_warning`).
+    pub warnings: Vec<Warning>,
     /// Peak amplitudes in Pa, indexed [speed][point][order].
     amplitudes_pa: Vec<f64>,
 }
@@ -258,6 +262,7 @@ pub fn sweep(
     let (np, no) = (points.len(), orders.len());
     let mut amplitudes = vec![0.0; speeds.len() * np * no];
     let mut solver = OrderSolver::new(plan, shaft, settings.harmonics);
+    let mut warnings = Vec::new();
     for (si, &speed) in speeds.iter().enumerate() {
         for (oi, &order) in orders.iter().enumerate() {
             solver
@@ -266,6 +271,7 @@ pub fn sweep(
                     speed_rev_s: speed,
                     source,
                 })?;
+            warnings.extend(solver.warning.take());
             for (pi, p) in solver.pressures.iter().enumerate() {
                 amplitudes[(si * np + pi) * no + oi] = p.norm();
             }
@@ -288,6 +294,7 @@ pub fn sweep(
         for (o, tap) in other.iter_mut().zip(&report.taps) {
             *o += tap.rms_pa().powi(2);
         }
+        warnings.extend(report.warnings);
     }
 
     let mut result = SweepResult {
@@ -297,6 +304,7 @@ pub fn sweep(
         points,
         other_shafts_ms_pa2: other,
         crossings: Vec::new(),
+        warnings,
         amplitudes_pa: amplitudes,
     };
     let top_db = level_db(result.amplitudes_pa.iter().copied().fold(0.0, f64::max));

@@ -212,6 +212,16 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
     resonances.sort_by(f64::total_cmp);
     bar.finish_and_clear();
     ensure_finite(&result)?;
+    const SHOWN_WARNINGS: usize = 10;
+    for w in result.warnings.iter().take(SHOWN_WARNINGS) {
+        eprintln!("warning: {w}");
+    }
+    if result.warnings.len() > SHOWN_WARNINGS {
+        eprintln!(
+            "warning: {} more nearly singular frequencies in the sweep",
+            result.warnings.len() - SHOWN_WARNINGS
+        );
+    }
 
     let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
