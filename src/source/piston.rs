@@ -17,7 +17,11 @@
 //! harmonics of the pumping frequency, and δ = (π/2z) tan(π/4z) (odd z) or
 //! (π/z) tan(π/2z) (even z).
 //!
-//! **Pre-compression pulse** (optional, parameters set by the user). A
+//! **Pre-compression pulse** (optional, parameters set by the user). The
+//! compliance of the oil in each cylinder is what drives the ripple of real
+//! piston pumps beyond the kinematics (the cylinder-compliance model of
+//! "The pumping dynamics of swash plate piston pumps", J. Dyn. Sys., Meas.,
+//! Control 111(2):307, 1989, by Edge and Darling as recalled from memory). A
 //! cylinder that opens to the delivery port below delivery pressure takes
 //! back from the port the oil needed to compress its content: by the
 //! definition of the bulk modulus (e.g. Merritt, *Hydraulic Control
