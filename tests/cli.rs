@@ -1384,6 +1384,8 @@ fn sweep_of_the_engine_example_writes_the_grid_and_finds_crossings() {
     // multiples of 3 and of 4 up to 6 harmonics of each pump: 3, 4, 6, 8, 9,
     // 12, 15, 16, 18, 20, 24)
     assert_eq!(lines.count(), 41 * 5 * 11);
+    // grid speeds print as typed, with no rev/s ↔ rpm round-off
+    assert!(text.contains("\n840,work pump outlet,3,126,"), "{}", &text[..400]);
     assert!(files_in(&dir).contains(&"map-levels.svg".to_string()));
     assert_eq!(
         files_in(&dir),

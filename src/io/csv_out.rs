@@ -64,10 +64,10 @@ pub fn write_sweep_csv<W: Write>(result: &SweepResult, out: W) -> Result<(), csv
         for (pi, point) in result.points.iter().enumerate() {
             for (oi, order) in result.orders.iter().enumerate() {
                 w.write_record([
-                    format!("{}", speed * 60.0),
+                    format!("{}", twelve_digits(speed * 60.0)),
                     point.clone(),
                     order.to_string(),
-                    format!("{}", result.frequency_hz(si, oi)),
+                    format!("{}", twelve_digits(result.frequency_hz(si, oi))),
                     format!("{}", result.amplitude_pa(si, pi, oi)),
                 ])?;
             }
@@ -75,6 +75,12 @@ pub fn write_sweep_csv<W: Write>(result: &SweepResult, out: W) -> Result<(), csv
     }
     w.flush()?;
     Ok(())
+}
+
+/// `x` rounded to 12 significant digits, so that grid speeds converted
+/// between rev/s and rpm print as typed (820, not 820.0000000000001).
+fn twelve_digits(x: f64) -> f64 {
+    format!("{x:.11e}").parse().unwrap_or(x)
 }
 
 /// Header of the harmonic table of several shafts: [`RIPPLE_HEADER`] with a
