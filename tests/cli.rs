@@ -1385,7 +1385,11 @@ fn sweep_of_the_engine_example_writes_the_grid_and_finds_crossings() {
     // 12, 15, 16, 18, 20, 24)
     assert_eq!(lines.count(), 41 * 5 * 11);
     // grid speeds print as typed, with no rev/s ↔ rpm round-off
-    assert!(text.contains("\n840,work pump outlet,3,126,"), "{}", &text[..400]);
+    assert!(
+        text.contains("\n840,work pump outlet,3,126,"),
+        "{}",
+        &text[..400]
+    );
     assert!(files_in(&dir).contains(&"map-levels.svg".to_string()));
     assert_eq!(
         files_in(&dir),

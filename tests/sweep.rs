@@ -141,3 +141,43 @@ fn sweep_amplitudes_agree_with_the_harmonic_solve() {
     assert!((0..s.speeds_rev_s.len()).all(|i| result.rms_pa(i, 0) <= rms));
     assert_eq!(rms, result.rms_pa(worst, 0));
 }
+
+// A pump on another shaft keeps its speed during the sweep: its ripple is
+// the same at every swept speed and adds in power (methods.md §5: pumps at
+// different speeds are solved separately and superposed).
+#[test]
+fn pumps_on_other_shafts_add_a_constant_mean_square() {
+    let text = "fluid: {density: 870 kg/m3, bulk_modulus: 1.6 GPa, viscosity: 32 cSt}\n\
+        harmonics: 4\n\
+        pumps:\n\
+        \x20 - {name: engine pump, node: a, speed: 1500 rpm, gear: {teeth: 12, module: 2 mm, face_width: 20 mm}, source_impedance: {volume: 0.05 L}}\n\
+        \x20 - {name: motor pump, node: a, speed: 1450 rpm, piston: {pistons: 9, piston_diameter: 14 mm, pitch_radius: 28 mm, swash_angle: 15 deg}, source_impedance: {volume: 0.1 L}}\n\
+        elements:\n\
+        \x20 - {name: line, kind: tube, from: a, to: b, length: 2.5 m, bore: 12 mm, wall: 2 mm, material: steel}\n\
+        \x20 - {name: load, kind: load_valve, at: b, resistance: 2e10}\n";
+    let circuit = parse_circuit(text, "two.yaml").unwrap();
+    let plan = Plan::compile(&circuit).unwrap();
+    let all = shafts(&circuit.pumps);
+    assert_eq!(all.len(), 2);
+    let settings = SweepSettings {
+        speeds_rev_s: (0..=20)
+            .map(|i| (800.0 + 50.0 * f64::from(i)) / 60.0)
+            .collect(),
+        harmonics: 4,
+        min_rise_db: 3.0,
+    };
+    let result = sweep(&plan, &all[0], &settings, &mut |_| {}).unwrap();
+    let other = shaft_ripple(&plan, &all[1], 4, 1450.0 / 60.0).unwrap();
+    for (pi, tap) in other.taps.iter().enumerate() {
+        let want = tap.rms_pa().powi(2);
+        assert!(want > 0.0);
+        assert!((result.other_shafts_ms_pa2[pi] - want).abs() < 1e-12 * want);
+        for si in [0, 7, 20] {
+            let swept: f64 = (0..result.orders.len())
+                .map(|o| result.amplitude_pa(si, pi, o).powi(2) / 2.0)
+                .sum();
+            let total = result.rms_pa(si, pi).powi(2);
+            assert!((total - swept - want).abs() < 1e-9 * total);
+        }
+    }
+}
