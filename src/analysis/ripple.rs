@@ -218,6 +218,11 @@ impl<'p, 'c> OrderSolver<'p, 'c> {
         }
     }
 
+    /// The plan it solves.
+    pub(crate) fn plan(&self) -> &'p Plan<'c> {
+        self.plan
+    }
+
     /// Solves order `order` of the shaft fundamental at `speed_rev_s` and
     /// returns its frequency in Hz.
     pub(crate) fn solve(&mut self, order: u32, speed_rev_s: f64) -> Result<f64, SolveError> {

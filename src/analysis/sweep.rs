@@ -7,7 +7,10 @@
 //! every measurement point is kept. The plan is compiled once and one
 //! workspace serves every solve. Pumps on other shafts keep their own speed;
 //! their ripple is solved once and adds a constant mean square to each
-//! point's overall level.
+//! point's overall level. The one exception: when a line uses the turbulent
+//! model with its mean flow split from the pumps' (`meanflow`), its damping
+//! depends on speed, so at every speed the mean flows are split again and
+//! the circuit is compiled again (the other shafts' ripple then varies too).
 //!
 //! **Resonance crossing.** For each point and order, the level
 //! L(n) = 20·log10 |P_j(n)| along the speed grid is searched for peaks. A
@@ -30,18 +33,21 @@
 //! sweep's highest amplitude are held at that floor when searching, so that
 //! round-off in harmonics that vanish makes no peaks.
 //!
-//! **Resonance frequencies** ([`impedance_peaks`]): the peaks of
-//! |Z| = |P/Q| at a pump's node, the circuit loaded by every pump's source
-//! impedance, on a linear frequency grid, by the same rule and refined the
-//! same way.
+//! **Resonance frequencies** ([`shaft_resonances`]): the resonances of the
+//! frequency response to each pump of the shaft, found as `ripline response`
+//! finds them ([`super::response`]).
 
+use super::response::{
+    PeakSettings, Resonance, ResponseError, default_points, find_resonances, frequency_response,
+    log_grid, valley,
+};
 use super::ripple::{OrderSolver, report_points, shaft_ripple};
 use super::search::golden_section_max;
+use crate::circuit::Circuit;
 use crate::diagnostics::Warning;
-use crate::elements::NodeId;
-use crate::network::{Plan, SolveError};
+use crate::line::{LineModel, MeanFlow};
+use crate::network::{NetworkError, Plan, SolveError};
 use crate::source::Shaft;
-use num_complex::Complex64 as C64;
 
 /// Level floor in dB re 1 Pa used for zero amplitudes when searching peaks.
 const FLOOR_DB: f64 = -400.0;
@@ -53,8 +59,96 @@ const FLOOR_DB: f64 = -400.0;
 const NEGLIGIBLE_DB: f64 = 160.0;
 
 /// Golden-section steps of a refinement between two grid neighbours:
-/// 0.618⁸⁰ ≈ 2e-17 of the bracket, to round-off.
-const REFINE_STEPS: usize = 80;
+/// 0.618⁴⁵ ≈ 4e-10 of the bracket (1.6e-8 rpm for steps of 20 rpm), far
+/// finer than any speed a pump holds.
+const REFINE_STEPS: usize = 45;
+
+/// Whether a line's model depends on the pumps' speed: the turbulent model
+/// with a mean flow split from the pumps' (see `meanflow`).
+fn depends_on_speed(circuit: &Circuit) -> bool {
+    circuit
+        .elements
+        .iter()
+        .filter_map(|e| e.kind.line())
+        .any(|l| {
+            l.properties.model == LineModel::Turbulent
+                && matches!(l.properties.mean_flow, MeanFlow::FromPumps(_))
+        })
+}
+
+/// Solves a shaft's orders at any speed: with the given plan and one
+/// reused workspace when no line depends on speed, or else with the swept
+/// pumps set to that speed, the mean flows split again and the circuit
+/// compiled again.
+struct AtSpeed<'p, 'c> {
+    plan: &'p Plan<'c>,
+    shaft: &'p Shaft,
+    harmonics: u32,
+    /// The solver of the given plan, when no line depends on speed.
+    fixed: Option<OrderSolver<'p, 'c>>,
+}
+
+impl<'p, 'c> AtSpeed<'p, 'c> {
+    fn new(plan: &'p Plan<'c>, shaft: &'p Shaft, harmonics: u32) -> Self {
+        let fixed =
+            (!depends_on_speed(plan.circuit())).then(|| OrderSolver::new(plan, shaft, harmonics));
+        AtSpeed {
+            plan,
+            shaft,
+            harmonics,
+            fixed,
+        }
+    }
+
+    /// Runs `f` with a solver of the circuit at shaft speed `speed_rev_s`.
+    fn with<R>(
+        &mut self,
+        speed_rev_s: f64,
+        f: impl FnOnce(&mut OrderSolver<'_, '_>) -> Result<R, SweepError>,
+    ) -> Result<R, SweepError> {
+        if let Some(solver) = &mut self.fixed {
+            return f(solver);
+        }
+        let mut circuit = self.plan.circuit().clone();
+        self.shaft.set_speed(&mut circuit.pumps, speed_rev_s);
+        crate::meanflow::resolve_line_mean_flows(&mut circuit);
+        let plan = Plan::compile(&circuit)?;
+        let mut solver = OrderSolver::new(&plan, self.shaft, self.harmonics);
+        f(&mut solver)
+    }
+}
+
+/// A solve failure located at a shaft speed.
+fn at_speed(speed_rev_s: f64) -> impl Fn(SolveError) -> SweepError {
+    move |source| SweepError::Solve {
+        speed_rev_s,
+        source,
+    }
+}
+
+/// Mean square ripple Σ|P|²/2 (Pa²) at every point from the pumps on shafts
+/// other than `swept`, each at its own speed.
+fn other_shafts(
+    plan: &Plan<'_>,
+    swept: &Shaft,
+    harmonics: u32,
+    warnings: &mut Vec<Warning>,
+) -> Result<Vec<f64>, SweepError> {
+    let circuit = plan.circuit();
+    let mut ms = vec![0.0; report_points(circuit).len()];
+    for s in crate::source::shafts(&circuit.pumps) {
+        if s.pumps.iter().any(|i| swept.pumps.contains(i)) {
+            continue;
+        }
+        let speed = s.speed_rev_s(&circuit.pumps);
+        let report = shaft_ripple(plan, &s, harmonics, speed).map_err(at_speed(speed))?;
+        for (m, tap) in ms.iter_mut().zip(&report.taps) {
+            *m += tap.rms_pa().powi(2);
+        }
+        warnings.extend(report.warnings);
+    }
+    Ok(ms)
+}
 
 /// What to sweep.
 #[derive(Debug, Clone, PartialEq)]
@@ -83,6 +177,9 @@ pub enum SweepError {
         #[source]
         source: SolveError,
     },
+    /// The circuit could not be compiled again at another speed.
+    #[error(transparent)]
+    Network(#[from] NetworkError),
 }
 
 /// A harmonic meeting a resonance at one measurement point.
@@ -118,9 +215,6 @@ pub struct SweepResult {
     pub orders: Vec<u32>,
     /// Names of the measurement points.
     pub points: Vec<String>,
-    /// Mean square ripple Σ|P|²/2 (Pa²) at each point from pumps on other
-    /// shafts, at their own speeds.
-    pub other_shafts_ms_pa2: Vec<f64>,
     /// Every resonance crossing, by speed, then order, then point.
     pub crossings: Vec<Crossing>,
     /// Grid frequencies solved close to an undamped resonance
@@ -128,6 +222,9 @@ pub struct SweepResult {
     pub warnings: Vec<Warning>,
     /// Peak amplitudes in Pa, indexed [speed][point][order].
     amplitudes_pa: Vec<f64>,
+    /// Mean squares Σ|P|²/2 in Pa² from the pumps on other shafts, indexed
+    /// [speed][point].
+    other_ms_pa2: Vec<f64>,
 }
 
 impl SweepResult {
@@ -143,13 +240,20 @@ impl SweepResult {
         f64::from(self.orders[order_i]) * self.shaft.fundamental_hz(self.speeds_rev_s[speed_i])
     }
 
+    /// Mean square ripple Σ|P|²/2 (Pa²) at point `point_i` from the pumps
+    /// on other shafts (at their own speeds) while the swept shaft runs at
+    /// speed `speed_i`.
+    pub fn other_shafts_ms_pa2(&self, speed_i: usize, point_i: usize) -> f64 {
+        self.other_ms_pa2[speed_i * self.points.len() + point_i]
+    }
+
     /// Overall rms ripple (Pa) at point `point_i` and speed `speed_i`: the
-    /// swept shaft's orders and the other shafts' constant contribution.
+    /// swept shaft's orders and the other shafts' contribution.
     pub fn rms_pa(&self, speed_i: usize, point_i: usize) -> f64 {
         let swept: f64 = (0..self.orders.len())
             .map(|o| self.amplitude_pa(speed_i, point_i, o).powi(2) / 2.0)
             .sum();
-        (swept + self.other_shafts_ms_pa2[point_i]).sqrt()
+        (swept + self.other_shafts_ms_pa2(speed_i, point_i)).sqrt()
     }
 
     /// The grid speed index with the highest overall rms at point
@@ -189,24 +293,11 @@ pub fn peaks(values: &[f64]) -> Vec<Peak> {
                 j += 1;
             }
             if j + 1 < n && values[j + 1] < values[i] {
-                let top = values[i];
-                let mut left = top;
-                for &v in values[..i].iter().rev() {
-                    if v > top {
-                        break;
-                    }
-                    left = left.min(v);
-                }
-                let mut right = top;
-                for &v in &values[j + 1..] {
-                    if v > top {
-                        break;
-                    }
-                    right = right.min(v);
-                }
+                let (_, left) = valley(values, i, -1);
+                let (_, right) = valley(values, i, 1);
                 out.push(Peak {
                     index: (i + j) / 2,
-                    rise: top - left.max(right),
+                    rise: values[i] - left.max(right),
                 });
             }
             i = j + 1;
@@ -261,40 +352,42 @@ pub fn sweep(
     let orders = shaft.orders(&circuit.pumps, settings.harmonics);
     let (np, no) = (points.len(), orders.len());
     let mut amplitudes = vec![0.0; speeds.len() * np * no];
-    let mut solver = OrderSolver::new(plan, shaft, settings.harmonics);
+    let mut other = vec![0.0; speeds.len() * np];
+    let mut at = AtSpeed::new(plan, shaft, settings.harmonics);
     let mut warnings = Vec::new();
+    // the other shafts' ripple, once when it cannot change with speed
+    let fixed_other = match &at.fixed {
+        Some(solver) => Some(other_shafts(
+            solver.plan(),
+            shaft,
+            settings.harmonics,
+            &mut warnings,
+        )?),
+        None => None,
+    };
     for (si, &speed) in speeds.iter().enumerate() {
-        for (oi, &order) in orders.iter().enumerate() {
-            solver
-                .solve(order, speed)
-                .map_err(|source| SweepError::Solve {
-                    speed_rev_s: speed,
-                    source,
-                })?;
-            warnings.extend(solver.warning.take());
-            for (pi, p) in solver.pressures.iter().enumerate() {
-                amplitudes[(si * np + pi) * no + oi] = p.norm();
+        let amps = &mut amplitudes[si * np * no..(si + 1) * np * no];
+        let others = &mut other[si * np..(si + 1) * np];
+        at.with(speed, |solver| {
+            for (oi, &order) in orders.iter().enumerate() {
+                solver.solve(order, speed).map_err(at_speed(speed))?;
+                warnings.extend(solver.warning.take());
+                for (pi, p) in solver.pressures.iter().enumerate() {
+                    amps[pi * no + oi] = p.norm();
+                }
             }
-        }
-        progress(si + 1);
-    }
-
-    let mut other = vec![0.0; np];
-    for s in crate::source::shafts(&circuit.pumps) {
-        if s.pumps.iter().any(|i| shaft.pumps.contains(i)) {
-            continue;
-        }
-        let speed = s.speed_rev_s(&circuit.pumps);
-        let report = shaft_ripple(plan, &s, settings.harmonics, speed).map_err(|source| {
-            SweepError::Solve {
-                speed_rev_s: speed,
-                source,
+            match &fixed_other {
+                Some(ms) => others.copy_from_slice(ms),
+                None => others.copy_from_slice(&other_shafts(
+                    solver.plan(),
+                    shaft,
+                    settings.harmonics,
+                    &mut warnings,
+                )?),
             }
+            Ok(())
         })?;
-        for (o, tap) in other.iter_mut().zip(&report.taps) {
-            *o += tap.rms_pa().powi(2);
-        }
-        warnings.extend(report.warnings);
+        progress(si + 1);
     }
 
     let mut result = SweepResult {
@@ -302,10 +395,10 @@ pub fn sweep(
         speeds_rev_s: speeds.clone(),
         orders,
         points,
-        other_shafts_ms_pa2: other,
         crossings: Vec::new(),
         warnings,
         amplitudes_pa: amplitudes,
+        other_ms_pa2: other,
     };
     let top_db = level_db(result.amplitudes_pa.iter().copied().fold(0.0, f64::max));
     let mut crossings = Vec::new();
@@ -321,14 +414,19 @@ pub fn sweep(
                 let si = peak.index;
                 let base_db = levels[si] - peak.rise;
                 let order = result.orders[oi];
+                // the refined peak: golden-section search on the solved
+                // amplitude between the neighbouring grid speeds
                 let mut failed = false;
                 let (speed, amplitude) = golden_section_max(
-                    |n| match solver.solve(order, n) {
-                        Ok(_) => solver.pressures[pi].norm(),
-                        Err(_) => {
+                    |n| {
+                        let amp = at.with(n, |solver| {
+                            solver.solve(order, n).map_err(at_speed(n))?;
+                            Ok(solver.pressures[pi].norm())
+                        });
+                        amp.unwrap_or_else(|_| {
                             failed = true;
                             f64::NEG_INFINITY
-                        }
+                        })
                     },
                     speeds[si - 1],
                     speeds[si + 1],
@@ -367,57 +465,42 @@ pub fn sweep(
     Ok(result)
 }
 
-/// The resonance frequencies seen at `node`: the peaks of |Z| = |P/Q| for a
-/// unit flow injected there (the circuit with every pump's source
-/// impedance) on `points` equally spaced frequencies from `f_hi_hz/points`
-/// to `f_hi_hz`, rising at least `min_rise_db`, each refined by
-/// golden-section search between its grid neighbours. A frequency where the
-/// network is singular (a lossless resonance hit exactly) counts as a peak.
+/// The circuit's resonances as the pumps on `shaft` excite them: for each
+/// of its pumps, the resonances of the frequency response to that pump's
+/// source flow (`response::find_resonances`: peaks of |P/Qs| at any
+/// measurement point rising at least `min_rise_db` above the valleys either
+/// side, refined by golden-section search), on a logarithmic grid of 0.2 %
+/// steps from `f_lo_hz` to `f_hi_hz`; resonances of different pumps within
+/// 2 % of each other are one. Increasing in frequency.
 ///
 /// # Errors
-/// [`SolveError::BadFrequency`] for a band that is not finite and positive.
-pub fn impedance_peaks(
+/// [`ResponseError`] if the network cannot be solved on the grid.
+pub fn shaft_resonances(
     plan: &Plan<'_>,
-    node: NodeId,
+    shaft: &Shaft,
+    f_lo_hz: f64,
     f_hi_hz: f64,
-    points: usize,
     min_rise_db: f64,
-) -> Result<Vec<f64>, SolveError> {
-    if !(f_hi_hz.is_finite() && f_hi_hz > 0.0) || points < 3 {
-        return Err(SolveError::BadFrequency { freq_hz: f_hi_hz });
-    }
-    let mut ws = plan.workspace();
-    let unit = [(node, C64::new(1.0, 0.0))];
-    let mut level = |f: f64| match plan.solve(f, &unit, &mut ws) {
-        Ok(s) => level_db(s.node_pressures[node].norm()),
-        Err(SolveError::Singular { .. }) => f64::INFINITY,
-        Err(_) => FLOOR_DB,
+) -> Result<Vec<Resonance>, ResponseError> {
+    let settings = PeakSettings {
+        min_prominence_db: min_rise_db,
+        ..PeakSettings::default()
     };
-    let step = f_hi_hz / points as f64;
-    let freqs: Vec<f64> = (1..=points).map(|i| i as f64 * step).collect();
-    let levels: Vec<f64> = freqs.iter().map(|&f| level(f)).collect();
-    let mut out = Vec::new();
-    for peak in peaks(&levels) {
-        if peak.rise < min_rise_db {
-            continue;
+    let freqs = log_grid(f_lo_hz, f_hi_hz, default_points(f_lo_hz, f_hi_hz));
+    let mut all: Vec<Resonance> = Vec::new();
+    for &pump in &shaft.pumps {
+        let response = frequency_response(plan, pump, &freqs, &mut |_| {})?;
+        for r in find_resonances(plan, pump, &response, settings)? {
+            if !all
+                .iter()
+                .any(|a| (a.freq_hz - r.freq_hz).abs() <= settings.merge_tolerance * a.freq_hz)
+            {
+                all.push(r);
+            }
         }
-        let i = peak.index;
-        if levels[i].is_infinite() {
-            out.push(freqs[i]);
-            continue;
-        }
-        let (f, l) = golden_section_max(
-            |f| {
-                let l = level(f);
-                if l.is_finite() { l } else { f64::NEG_INFINITY }
-            },
-            freqs[i - 1],
-            freqs[i + 1],
-            REFINE_STEPS,
-        );
-        out.push(if l >= levels[i] { f } else { freqs[i] });
     }
-    Ok(out)
+    all.sort_by(|a, b| a.freq_hz.total_cmp(&b.freq_hz));
+    Ok(all)
 }
 
 #[cfg(test)]

@@ -2,16 +2,17 @@
 //! shaft's pumps over a speed range, and every resonance crossing.
 
 use super::common::{self, UsageError};
+use super::ranges::{Progress, parse_range};
 use anyhow::Context;
 use clap::Args;
-use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
-use ripline::analysis::sweep::{SweepResult, SweepSettings, impedance_peaks, sweep};
+use ripline::analysis::sweep::{SweepResult, SweepSettings, shaft_resonances, sweep};
 use ripline::io::csv_out::write_sweep_csv;
 use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
+use ripline::units::Dimension;
 use ripline::units::PressureDisplay;
-use std::io::{IsTerminal, Write};
+use std::io::Write;
 use std::path::{Path, PathBuf};
 
 /// Default number of speed steps when `--step` is not given.
@@ -20,8 +21,6 @@ const DEFAULT_STEPS: f64 = 200.0;
 const MAX_SPEEDS: usize = 100_001;
 /// Most amplitudes (speeds × points × orders) a sweep may hold.
 const MAX_CELLS: usize = 20_000_000;
-/// Frequencies of the resonance scan.
-const SCAN_POINTS: usize = 4000;
 /// Rows of the frequency axis of the map.
 const MAP_ROWS: usize = 300;
 /// Rows added either side of an order line on the map, so its colour shows
@@ -112,15 +111,14 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
     let shaft = common::pick_shaft(&loaded.circuit, args.shaft.as_deref())?;
     let (low, high) = match &args.speed {
         Some(text) => {
-            let (a, b) = text.split_once("..").ok_or_else(|| {
-                UsageError(format!(
-                    "--speed {text}: give a range LOW..HIGH, e.g. 600..3000"
+            let (lo, hi) = parse_range("--speed", text, Dimension::ShaftSpeed, "rpm")?;
+            if hi > 1000.0 {
+                return Err(UsageError(format!(
+                    "--speed {text}: speeds must be at most 60000 rpm"
                 ))
-            })?;
-            (
-                common::speed_option("--speed", a.trim())?,
-                common::speed_option("--speed", b.trim())?,
-            )
+                .into());
+            }
+            (lo, hi)
         }
         None => shaft
             .speed_range_rev_s(&loaded.circuit.pumps)
@@ -131,14 +129,6 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
                 ))
             })?,
     };
-    if low >= high {
-        return Err(UsageError(format!(
-            "--speed: the range must go from the lower to the higher speed, found {:.1} .. {:.1} rpm",
-            low * 60.0,
-            high * 60.0
-        ))
-        .into());
-    }
     let step = match &args.step {
         Some(text) => common::speed_option("--step", text)?,
         None => (high - low) / DEFAULT_STEPS,
@@ -186,31 +176,26 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
         eprintln!("warning: {w}");
     }
     let plan = Plan::compile(circuit).map_err(|e| UsageError(format!("{}: {e}", loaded.source)))?;
-    let bar = progress_bar(speeds.len() as u64);
+    let bar = Progress::new(speeds.len(), "sweeping speeds");
     let settings = SweepSettings {
         speeds_rev_s: speeds,
         harmonics: circuit.harmonics,
         min_rise_db: args.min_rise,
     };
-    let result = sweep(&plan, &shaft, &settings, &mut |done| {
-        bar.set_position(done as u64)
-    })
-    .with_context(|| format!("sweeping {}", loaded.source))?;
-    // the resonances seen at each pump node of the shaft, merged
-    let mut pump_nodes: Vec<usize> = shaft.pumps.iter().map(|&i| circuit.pumps[i].node).collect();
-    pump_nodes.dedup();
-    let mut resonances: Vec<f64> = Vec::new();
-    for &node in &pump_nodes {
-        let found = impedance_peaks(&plan, node, 1.05 * top_hz, SCAN_POINTS, args.min_rise)
-            .with_context(|| format!("finding the resonances of {}", loaded.source))?;
-        for f in found {
-            if !resonances.iter().any(|r| (r - f).abs() < 1e-3 * f) {
-                resonances.push(f);
-            }
-        }
-    }
-    resonances.sort_by(f64::total_cmp);
-    bar.finish_and_clear();
+    let result = sweep(&plan, &shaft, &settings, &mut |done| bar.set(done))
+        .with_context(|| format!("sweeping {}", loaded.source))?;
+    bar.finish();
+    // the band of the map: from a quarter of the lowest harmonic at the
+    // lowest speed (as `response` does) to a little above the highest
+    let low_hz = orders
+        .first()
+        .map_or(1.0, |&j| f64::from(j) * shaft.fundamental_hz(low));
+    let resonances: Vec<f64> =
+        shaft_resonances(&plan, &shaft, 0.25 * low_hz, 1.05 * top_hz, args.min_rise)
+            .with_context(|| format!("finding the resonances of {}", loaded.source))?
+            .iter()
+            .map(|r| r.freq_hz)
+            .collect();
     ensure_finite(&result)?;
     const SHOWN_WARNINGS: usize = 10;
     for w in result.warnings.iter().take(SHOWN_WARNINGS) {
@@ -250,32 +235,11 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
             .stage_with(&levels, |tmp| plot::line_chart(tmp, &chart))
             .with_context(|| format!("drawing {}", levels.display()))?;
     }
-    print_report(
-        &loaded.source,
-        circuit,
-        &result,
-        &resonances,
-        &pump_nodes,
-        p_ref,
-    )?;
+    print_report(&loaded.source, circuit, &result, &resonances, p_ref)?;
     outputs
         .commit()
         .context("moving the output files into place")?;
     Ok(())
-}
-
-/// A progress bar on standard error when it is a terminal; hidden otherwise.
-fn progress_bar(len: u64) -> ProgressBar {
-    let target = if std::io::stderr().is_terminal() {
-        ProgressDrawTarget::stderr()
-    } else {
-        ProgressDrawTarget::hidden()
-    };
-    let bar = ProgressBar::with_draw_target(Some(len), target);
-    if let Ok(style) = ProgressStyle::with_template("sweeping {bar:40} {pos}/{len} speeds {eta}") {
-        bar.set_style(style);
-    }
-    bar
 }
 
 /// Refuses to print a result that is not a finite number.
@@ -312,16 +276,12 @@ fn print_report(
     circuit: &ripline::Circuit,
     result: &SweepResult,
     resonances: &[f64],
-    pump_nodes: &[usize],
     p_ref: f64,
 ) -> anyhow::Result<()> {
     let shaft = &result.shaft;
     let speeds = &result.speeds_rev_s;
     let mut out = std::io::stdout().lock();
-    writeln!(out, "ripline sweep: {source}")?;
-    if let Some(title) = &circuit.title {
-        writeln!(out, "circuit: {title}")?;
-    }
+    common::write_heading(&mut out, "sweep", source, circuit)?;
     let names: Vec<String> = shaft
         .pumps
         .iter()
@@ -354,14 +314,9 @@ fn print_report(
         PressureDisplay(p_ref)
     )?;
     let list: Vec<String> = resonances.iter().map(|f| format!("{f:.1}")).collect();
-    let nodes: Vec<String> = pump_nodes
-        .iter()
-        .map(|&n| format!("`{}`", circuit.nodes[n].name))
-        .collect();
     writeln!(
         out,
-        "circuit resonances seen at pump node {} (peaks of |P/Q| with every pump's source impedance): {}",
-        nodes.join(", "),
+        "circuit resonances (peaks of the response P/Qs to the shaft's pumps, as `ripline response` finds them): {}",
         if list.is_empty() {
             "none in the band".to_string()
         } else {
