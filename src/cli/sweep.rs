@@ -448,10 +448,13 @@ fn map(
         y,
         z,
         z_range: top.is_finite().then_some((top - MAP_RANGE_DB, top)),
+        // the order lines of the harmonics that reach this point
         lines: result
             .orders
             .iter()
-            .map(|&order| {
+            .enumerate()
+            .filter(|&(oi, _)| (0..speeds.len()).any(|si| result.amplitude_pa(si, point, oi) > 0.0))
+            .map(|(_, &order)| {
                 let f1 = result.shaft.fundamental_hz(1.0) * f64::from(order);
                 plot::Polyline {
                     label: format!("{order}×"),
