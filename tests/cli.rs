@@ -547,12 +547,11 @@ fn bad_circuit_files_exit_2_with_a_located_message_and_write_nothing() {
     std::fs::remove_dir_all(dir).unwrap();
 }
 
-#[test]
-fn a_lossless_circuit_at_its_resonance_is_a_clear_error_not_nan() {
-    // An ideal flow source (no internal volume) into a lossless 2 m line open
-    // to tank: Zin = jZ0 tan(kL) has a pole at c/4L = 168.75 Hz for c =
-    // 1350 m/s (Kinsler et al.). Pumping frequency 168.75 Hz = 843.75 rpm × 12.
-    let dir = scratch("singular");
+/// Writes `singular.yaml` in `dir`: an ideal flow source (no internal
+/// volume) into a lossless 2 m line open to tank, whose input impedance
+/// jZ0 tan(kL) has a pole at c/4L = 168.75 Hz for c = 1350 m/s (Kinsler et
+/// al.), the pumping frequency at 843.75 rpm × 12 teeth.
+fn singular_circuit(dir: &Path) -> PathBuf {
     let file = dir.join("singular.yaml");
     std::fs::write(
         &file,
@@ -566,6 +565,16 @@ fn a_lossless_circuit_at_its_resonance_is_a_clear_error_not_nan() {
          \x20 - {name: reservoir, kind: tank, at: b}\n",
     )
     .unwrap();
+    file
+}
+
+#[test]
+fn a_lossless_circuit_at_its_resonance_is_a_clear_error_not_nan() {
+    // An ideal flow source (no internal volume) into a lossless 2 m line open
+    // to tank: Zin = jZ0 tan(kL) has a pole at c/4L = 168.75 Hz for c =
+    // 1350 m/s (Kinsler et al.). Pumping frequency 168.75 Hz = 843.75 rpm × 12.
+    let dir = scratch("singular");
+    let file = singular_circuit(&dir);
     let csv = dir.join("x.csv");
     let o = ripline(&[
         "solve",
@@ -1511,19 +1520,7 @@ fn pumps_on_two_shafts_are_reported_per_source() {
 #[test]
 fn a_sweep_through_an_undamped_resonance_stops_with_exit_1() {
     let dir = scratch("sweep-singular");
-    let file = dir.join("singular.yaml");
-    std::fs::write(
-        &file,
-        "fluid: {density: 870, bulk_modulus: 1585575000, viscosity: 32 cSt}\n\
-         line_model: lossless\n\
-         pump:\n  node: a\n  speed: 843.75 rpm\n  pumping_elements: 12\n\
-         \x20 flow_ripple: [{harmonic: 1, amplitude: 1 L/min}]\n\
-         \x20 source_impedance: {volume: 0}\n\
-         elements:\n\
-         \x20 - {name: line, kind: tube, from: a, to: b, length: 2 m, bore: 10 mm, rigid: true}\n\
-         \x20 - {name: reservoir, kind: tank, at: b}\n",
-    )
-    .unwrap();
+    let file = singular_circuit(&dir);
     let csv = dir.join("grid.csv");
     let o = ripline(&[
         "sweep",
