@@ -89,6 +89,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             speed_range_rev_s: None,
             pumping_elements: 9,
             displacement_m3: Some(33e-6),
+            shaft: None,
             flow_ripple: FlowRipple::Table {
                 reference_speed_rev_s: 30.0,
                 harmonics: (1..=5)

@@ -9,7 +9,9 @@
 //!
 //! Data flows one way: circuit file → validated [`Circuit`] → compiled
 //! [`network::Plan`] → per-frequency [`network::Solution`] → analyses
-//! ([`analysis::ripple`]) → tables, CSV and plots.
+//! ([`analysis::ripple`], speed sweeps in [`analysis::sweep`]) → tables,
+//! CSV and plots. Pump sources come from a harmonic table, a source file or
+//! the pump's geometry ([`source::gear`], [`source::piston`]).
 //!
 //! ```
 //! use ripline::{analysis::ripple::harmonic_ripple, io::parse_circuit, network::Plan};

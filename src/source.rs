@@ -5,9 +5,24 @@
 //! delivers into the circuit is Q = Qs − P/Zs. Harmonic k of the ripple sits at
 //! k·f_p, with the pumping frequency f_p = n·z (shaft speed n in rev/s times
 //! the number z of teeth or pistons).
+//!
+//! The source flow ripple is a table of harmonics ([`FlowRipple::Table`]) or
+//! is computed from the pump's geometry ([`FlowRipple::Kinematic`]:
+//! [`gear`], [`piston`], [`kinematic`]). Harmonic phases are against the
+//! shaft angle θ (rad, from the shaft's reference mark): harmonic k
+//! contributes Re{Q_k e^{jkzθ}}, θ = 2π n t. Pumps on one shaft share that
+//! reference ([`shaft`]).
+
+pub mod gear;
+pub mod kinematic;
+pub mod piston;
+pub mod shaft;
 
 use crate::elements::NodeId;
 use num_complex::Complex64 as C64;
+
+pub use kinematic::{KinematicRipple, PumpGeometry};
+pub use shaft::{Shaft, shafts};
 
 /// One harmonic of a source flow ripple table.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -36,6 +51,54 @@ pub enum FlowRipple {
         /// The harmonics, each order at most once.
         harmonics: Vec<FlowHarmonic>,
     },
+    /// The kinematic ripple computed from the pump's geometry (harmonics up
+    /// to [`kinematic::MAX_ORDER`], in proportion to speed).
+    Kinematic(KinematicRipple),
+}
+
+impl FlowRipple {
+    /// Harmonic `order` (peak phasor in m³/s, phase against the shaft angle)
+    /// at shaft speed `speed_rev_s`; zero for an order it does not hold.
+    /// Both forms are in proportion to speed.
+    pub fn at(&self, order: u32, speed_rev_s: f64) -> C64 {
+        match self {
+            FlowRipple::Table {
+                reference_speed_rev_s,
+                harmonics,
+            } => harmonics
+                .iter()
+                .find(|h| h.order == order)
+                .map_or(C64::new(0.0, 0.0), |h| {
+                    C64::from_polar(
+                        h.amplitude_m3_s * speed_rev_s / reference_speed_rev_s,
+                        h.phase_rad,
+                    )
+                }),
+            FlowRipple::Kinematic(k) => k.harmonic(order, speed_rev_s),
+        }
+    }
+
+    /// The same ripple for a pump mounted at shaft angle `angle_rad` (its
+    /// own reference position occurs there): harmonic k of a pump with `z`
+    /// pumping elements is turned by −k·z·angle.
+    pub fn rotated(self, z: u32, angle_rad: f64) -> FlowRipple {
+        match self {
+            FlowRipple::Table {
+                reference_speed_rev_s,
+                harmonics,
+            } => FlowRipple::Table {
+                reference_speed_rev_s,
+                harmonics: harmonics
+                    .into_iter()
+                    .map(|h| FlowHarmonic {
+                        phase_rad: h.phase_rad - f64::from(h.order * z) * angle_rad,
+                        ..h
+                    })
+                    .collect(),
+            },
+            FlowRipple::Kinematic(k) => FlowRipple::Kinematic(k.rotated(angle_rad)),
+        }
+    }
 }
 
 /// The source impedance of a pump.
@@ -54,6 +117,20 @@ pub enum SourceImpedance {
     /// A measured table of Zs against frequency (e.g. from a bench
     /// estimation), interpolated (see [`ImpedanceTable::at`]).
     Table(ImpedanceTable),
+    /// Internal volume and leakage behind a discharge passage with
+    /// resistance and inertance: Zs = R_p + jωL_p + 1/(jωC + 1/R_leak)
+    /// (methods.md §5, form c; Edge & Johnston 1990). With C = 0 and no
+    /// leakage the source is ideal (Zs = ∞) whatever the passage.
+    VolumePassage {
+        /// Capacitance C = V/B in m³/Pa.
+        capacitance_m3_pa: f64,
+        /// Leakage resistance R_leak in Pa·s/m³, if any.
+        leakage_resistance_pa_s_m3: Option<f64>,
+        /// Passage resistance R_p in Pa·s/m³.
+        passage_resistance_pa_s_m3: f64,
+        /// Passage inertance L_p in kg/m⁴ (Pa·s²/m³).
+        passage_inertance_kg_m4: f64,
+    },
 }
 
 impl SourceImpedance {
@@ -68,6 +145,23 @@ impl SourceImpedance {
                 omega * capacitance_m3_pa,
             ),
             SourceImpedance::Table(t) => t.at(omega / std::f64::consts::TAU).inv(),
+            SourceImpedance::VolumePassage {
+                capacitance_m3_pa,
+                leakage_resistance_pa_s_m3,
+                passage_resistance_pa_s_m3,
+                passage_inertance_kg_m4,
+            } => {
+                let inner = C64::new(
+                    leakage_resistance_pa_s_m3.map_or(0.0, |r| 1.0 / r),
+                    omega * capacitance_m3_pa,
+                );
+                if inner == C64::new(0.0, 0.0) {
+                    return inner; // an ideal flow source
+                }
+                let passage =
+                    C64::new(*passage_resistance_pa_s_m3, omega * passage_inertance_kg_m4);
+                inner / (C64::new(1.0, 0.0) + passage * inner)
+            }
         }
     }
 }
@@ -163,6 +257,9 @@ pub struct Pump {
     pub pumping_elements: u32,
     /// Geometric displacement per revolution in m³, if known.
     pub displacement_m3: Option<f64>,
+    /// The shaft it shares with other pumps (same speed, same angle
+    /// reference), if any; `None` is a shaft of its own ([`shafts`]).
+    pub shaft: Option<String>,
     /// The source flow ripple.
     pub flow_ripple: FlowRipple,
     /// The source impedance.
@@ -187,26 +284,21 @@ impl Pump {
             FlowRipple::Table { harmonics, .. } => {
                 harmonics.iter().map(|h| h.order).max().unwrap_or(0)
             }
+            FlowRipple::Kinematic(_) => kinematic::MAX_ORDER,
         }
     }
 
     /// Complex source flow ripple Qs of harmonic `order` at the pump's speed
     /// (zero for an order the table does not list).
     pub fn flow_ripple(&self, order: u32) -> C64 {
-        match &self.flow_ripple {
-            FlowRipple::Table {
-                reference_speed_rev_s,
-                harmonics,
-            } => harmonics
-                .iter()
-                .find(|h| h.order == order)
-                .map_or(C64::new(0.0, 0.0), |h| {
-                    C64::from_polar(
-                        h.amplitude_m3_s * self.speed_rev_s / reference_speed_rev_s,
-                        h.phase_rad,
-                    )
-                }),
-        }
+        self.flow_ripple_at(order, self.speed_rev_s)
+    }
+
+    /// Complex source flow ripple Qs of harmonic `order` (peak, m³/s, phase
+    /// against the shaft angle) at shaft speed `speed_rev_s`: both forms are
+    /// in proportion to speed.
+    pub fn flow_ripple_at(&self, order: u32, speed_rev_s: f64) -> C64 {
+        self.flow_ripple.at(order, speed_rev_s)
     }
 }
 
@@ -258,6 +350,7 @@ mod tests {
             speed_range_rev_s: None,
             pumping_elements: 12,
             displacement_m3: Some(25e-6),
+            shaft: None,
             flow_ripple: FlowRipple::Table {
                 reference_speed_rev_s: 25.0,
                 harmonics: vec![FlowHarmonic {

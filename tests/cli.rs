@@ -425,6 +425,55 @@ const BAD_FILES: &[(&str, &str)] = &[
         "polytropic_index_out_of_range.yaml",
         ":72:5: elements[3].polytropic_index: the polytropic index must be between 1.0",
     ),
+    // pump geometry, source impedance forms, several pumps and shafts
+    (
+        "displacement_with_geometry.yaml",
+        ":58:5: pumps[1].displacement: the displacement follows from the pump geometry",
+    ),
+    (
+        "duplicate_pump_name.yaml",
+        ":53:5: pumps[1].name: duplicate pump name `work pump`",
+    ),
+    (
+        "gear_loses_contact.yaml",
+        ":58:5: pumps[1].gear: the teeth would lose contact: contact ratio 0.589",
+    ),
+    (
+        "gear_module_and_pitch_radius.yaml",
+        "pumps[1].gear: a gear pump needs either `module` or `pitch_radius`",
+    ),
+    (
+        "impedance_table_not_increasing.yaml",
+        ":67:9: pumps[1].source_impedance.table[1].frequency: frequencies must increase",
+    ),
+    (
+        "passage_without_volume.yaml",
+        "pumps[1].source_impedance: a source impedance needs `volume`",
+    ),
+    (
+        "pistons_do_not_fit.yaml",
+        ":38:5: pumps[0].piston: 9 pistons of 25.00 mm do not fit",
+    ),
+    (
+        "precompression_too_long.yaml",
+        "the pulse lasts 50.00°, longer than the 40.00° between pistons",
+    ),
+    (
+        "pump_and_pumps.yaml",
+        "give either one `pump` section or a `pumps` list, not both",
+    ),
+    (
+        "shaft_speed_mismatch.yaml",
+        ":56:5: pumps[1].speed: pump `steering pump` shares shaft `engine` with pump `work pump`",
+    ),
+    (
+        "swash_angle_too_large.yaml",
+        ":42:7: pumps[0].piston.swash_angle: 45.000° is outside 0.1° .. 30°",
+    ),
+    (
+        "two_flow_ripples.yaml",
+        "pumps[1]: give one source flow ripple",
+    ),
 ];
 
 #[test]
@@ -464,7 +513,7 @@ fn bad_circuit_files_exit_2_with_a_located_message_and_write_nothing() {
     }
     for (file, fragment) in BAD_FILES {
         let path = format!("tests/bad/{file}");
-        for cmd in ["solve", "check", "response"] {
+        for cmd in ["solve", "check", "response", "sweep"] {
             let mut args = vec![cmd, path.as_str()];
             if cmd != "check" {
                 args.extend([
@@ -498,12 +547,11 @@ fn bad_circuit_files_exit_2_with_a_located_message_and_write_nothing() {
     std::fs::remove_dir_all(dir).unwrap();
 }
 
-#[test]
-fn a_lossless_circuit_at_its_resonance_is_a_clear_error_not_nan() {
-    // An ideal flow source (no internal volume) into a lossless 2 m line open
-    // to tank: Zin = jZ0 tan(kL) has a pole at c/4L = 168.75 Hz for c =
-    // 1350 m/s (Kinsler et al.). Pumping frequency 168.75 Hz = 843.75 rpm × 12.
-    let dir = scratch("singular");
+/// Writes `singular.yaml` in `dir`: an ideal flow source (no internal
+/// volume) into a lossless 2 m line open to tank, whose input impedance
+/// jZ0 tan(kL) has a pole at c/4L = 168.75 Hz for c = 1350 m/s (Kinsler et
+/// al.), the pumping frequency at 843.75 rpm × 12 teeth.
+fn singular_circuit(dir: &Path) -> PathBuf {
     let file = dir.join("singular.yaml");
     std::fs::write(
         &file,
@@ -517,6 +565,16 @@ fn a_lossless_circuit_at_its_resonance_is_a_clear_error_not_nan() {
          \x20 - {name: reservoir, kind: tank, at: b}\n",
     )
     .unwrap();
+    file
+}
+
+#[test]
+fn a_lossless_circuit_at_its_resonance_is_a_clear_error_not_nan() {
+    // An ideal flow source (no internal volume) into a lossless 2 m line open
+    // to tank: Zin = jZ0 tan(kL) has a pole at c/4L = 168.75 Hz for c =
+    // 1350 m/s (Kinsler et al.). Pumping frequency 168.75 Hz = 843.75 rpm × 12.
+    let dir = scratch("singular");
+    let file = singular_circuit(&dir);
     let csv = dir.join("x.csv");
     let o = ripline(&[
         "solve",
@@ -1289,4 +1347,196 @@ fn the_readme_demo_numbers_hold() {
         "{out}"
     );
     assert!(readme.contains("130.0 Hz at 867 rpm and 288.0 Hz at 1920 rpm"));
+}
+
+/// The engine-driven example (an invented scenario): the sweep writes the
+/// grid with the documented header, both plots, and finds crossings; the
+/// progress bar stays off when stderr is not a terminal.
+#[test]
+fn sweep_of_the_engine_example_writes_the_grid_and_finds_crossings() {
+    let dir = scratch("sweep");
+    let csv = dir.join("grid.csv");
+    let map = dir.join("map.svg");
+    let o = ripline(&[
+        "sweep",
+        "networks/loader_engine_pumps.yaml",
+        "--step",
+        "40",
+        "--csv",
+        csv.to_str().unwrap(),
+        "--plot",
+        map.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    // the circuit's warnings only: no progress bar when stderr is not a terminal
+    let err = stderr(&o);
+    assert!(err.lines().all(|l| l.starts_with("warning: ")), "{err}");
+    let out = stdout(&o);
+    assert!(out.contains("800.0 .. 2400.0 rpm, 41 speeds"), "{out}");
+    let crossings: usize = out
+        .split("resonance crossings (")
+        .nth(1)
+        .and_then(|t| t.split(';').next())
+        .and_then(|n| n.parse().ok())
+        .expect("a crossing count");
+    assert!(crossings >= 1, "{out}");
+    assert!(!out.contains("NaN") && !out.contains("inf"), "{out}");
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(
+        lines.next(),
+        Some("speed_rpm,point,harmonic,frequency_hz,amplitude_pa")
+    );
+    // 41 speeds × 5 points × 11 orders of the shaft fundamental 3n (the
+    // multiples of 3 and of 4 up to 6 harmonics of each pump: 3, 4, 6, 8, 9,
+    // 12, 15, 16, 18, 20, 24)
+    assert_eq!(lines.count(), 41 * 5 * 11);
+    // grid speeds print as typed, with no rev/s ↔ rpm round-off
+    assert!(
+        text.contains("\n840,work pump outlet,3,126,"),
+        "{}",
+        &text[..400]
+    );
+    assert!(files_in(&dir).contains(&"map-levels.svg".to_string()));
+    assert_eq!(
+        files_in(&dir),
+        vec!["grid.csv", "map-levels.svg", "map.svg"]
+    );
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+#[test]
+fn bad_sweep_options_are_usage_errors() {
+    let example = "networks/loader_engine_pumps.yaml";
+    for (args, fragment) in [
+        (vec!["sweep"], "has no speed range: give --speed LOW..HIGH"),
+        (
+            vec!["sweep", example, "--speed", "3000..600"],
+            "from a positive low value to a higher one",
+        ),
+        (
+            vec!["sweep", example, "--speed", "600"],
+            "write the range as LOW..HIGH",
+        ),
+        (
+            vec!["sweep", example, "--speed", "600..70000"],
+            "at most 60000 rpm",
+        ),
+        (vec!["sweep", example, "--speed", "slow..fast"], "--speed"),
+        (
+            vec!["sweep", example, "--step", "0"],
+            "--step must be between 0 and 60000 rpm",
+        ),
+        (vec!["sweep", example, "--step", "1000"], "speeds over"),
+        (
+            vec!["sweep", example, "--shaft", "gearbox"],
+            "no shaft or pump has that name",
+        ),
+        (
+            vec!["sweep", example, "--point", "tank"],
+            "no measurement point of that name",
+        ),
+        (vec!["sweep", example, "--min-rise", "-1"], "--min-rise"),
+        (vec!["sweep", example, "--plot", "map.jpg"], ".svg or .png"),
+        (vec!["sweep", example, "--harmonics", "0"], "--harmonics"),
+    ] {
+        let o = ripline(&args);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {}", stderr(&o));
+        assert!(stderr(&o).contains(fragment), "{args:?}: {}", stderr(&o));
+    }
+}
+
+/// Two pumps on shafts of their own: `solve` reports each source and their
+/// sum in power, and the CSV gains a leading `source` column.
+#[test]
+fn pumps_on_two_shafts_are_reported_per_source() {
+    let dir = scratch("two-shafts");
+    let file = dir.join("two.yaml");
+    std::fs::write(
+        &file,
+        "fluid: {density: 870 kg/m3, bulk_modulus: 1.6 GPa, viscosity: 32 cSt}\n\
+         harmonics: 3\n\
+         pumps:\n\
+         \x20 - {name: a, node: x, speed: 1500 rpm, pumping_elements: 9,\n\
+         \x20    flow_ripple: [{harmonic: 1, amplitude: 1 L/min}], source_impedance: {volume: 0.1 L}}\n\
+         \x20 - {name: b, node: y, speed: 1000 rpm,\n\
+         \x20    gear: {teeth: 11, module: 2.5 mm, face_width: 20 mm},\n\
+         \x20    source_impedance: {volume: 0.05 L, passage_inertance: 3e5 kg/m4}}\n\
+         elements:\n\
+         \x20 - {name: l1, kind: tube, from: x, to: j, length: 2 m, bore: 10 mm, wall: 2 mm, material: steel}\n\
+         \x20 - {name: l2, kind: tube, from: y, to: j, length: 1 m, bore: 10 mm, wall: 2 mm, material: steel}\n\
+         \x20 - {name: load, kind: load_valve, at: j, resistance: 2e10}\n",
+    )
+    .unwrap();
+    let csv = dir.join("two.csv");
+    let o = ripline(&[
+        "solve",
+        file.to_str().unwrap(),
+        "--csv",
+        csv.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    assert!(
+        out.contains("source `a`") && out.contains("source `b`"),
+        "{out}"
+    );
+    assert!(out.contains("overall, all sources"), "{out}");
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(
+        lines.next(),
+        Some("source,point,harmonic,frequency_hz,amplitude_pa,phase_deg")
+    );
+    // 2 sources × 3 nodes × 3 harmonics; b's harmonic 2 is at 2 × 11 × 1000/60 Hz
+    let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
+    assert_eq!(rows.len(), 2 * 3 * 3);
+    let b2 = rows
+        .iter()
+        .find(|r| r[0] == "b" && r[2] == "2")
+        .expect("a row for b, harmonic 2");
+    let f: f64 = b2[3].parse().unwrap();
+    assert!((f - 2.0 * 11.0 * 1000.0 / 60.0).abs() < 1e-9, "{f}");
+    // `--speed` moves only the named shaft
+    let o = ripline(&[
+        "solve",
+        file.to_str().unwrap(),
+        "--speed",
+        "1200",
+        "--shaft",
+        "b",
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    assert!(out.contains("pump `a` at node `x`: 1500 rpm"), "{out}");
+    assert!(out.contains("pump `b` at node `y`: 1200 rpm"), "{out}");
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+/// An ideal flow source into a lossless line open to tank has no solution at
+/// c/4L = 168.75 Hz (Kinsler et al.), i.e. 843.75 rpm × 12 teeth: a sweep
+/// with that speed on its grid stops with exit code 1, names the speed and
+/// the frequency, and writes nothing.
+#[test]
+fn a_sweep_through_an_undamped_resonance_stops_with_exit_1() {
+    let dir = scratch("sweep-singular");
+    let file = singular_circuit(&dir);
+    let csv = dir.join("grid.csv");
+    let o = ripline(&[
+        "sweep",
+        file.to_str().unwrap(),
+        "--speed",
+        "823.75..863.75",
+        "--step",
+        "10",
+        "--csv",
+        csv.to_str().unwrap(),
+    ]);
+    let err = stderr(&o);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(err.contains("solving at 843.75 rpm"), "{err}");
+    assert!(err.contains("no unique solution at 168.750000 Hz"), "{err}");
+    assert!(!stdout(&o).contains("NaN"));
+    assert_eq!(files_in(&dir), vec!["singular.yaml"]);
+    std::fs::remove_dir_all(dir).unwrap();
 }

@@ -531,6 +531,7 @@ fn pump(node: usize, displacement: Option<f64>) -> Pump {
         speed_range_rev_s: None,
         pumping_elements: 9,
         displacement_m3: displacement,
+        shaft: None,
         flow_ripple: FlowRipple::Table {
             reference_speed_rev_s: 25.0,
             harmonics: vec![FlowHarmonic {

@@ -60,6 +60,7 @@ fn ideal_pump() -> Pump {
         speed_range_rev_s: None,
         pumping_elements: 1,
         displacement_m3: None,
+        shaft: None,
         flow_ripple: FlowRipple::Table {
             reference_speed_rev_s: 10.0,
             harmonics: vec![FlowHarmonic {

@@ -192,6 +192,7 @@ fn random_network(
                     speed_range_rev_s: None,
                     pumping_elements: 9,
                     displacement_m3: None,
+                    shaft: None,
                     flow_ripple: FlowRipple::Table {
                         reference_speed_rev_s: 25.0,
                         harmonics: vec![FlowHarmonic {

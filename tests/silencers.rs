@@ -78,6 +78,7 @@ fn pump(speed_rev_s: f64, capacitance: f64, leakage: Option<f64>) -> Pump {
         speed_range_rev_s: None,
         pumping_elements: 1,
         displacement_m3: None,
+        shaft: None,
         flow_ripple: FlowRipple::Table {
             reference_speed_rev_s: speed_rev_s,
             harmonics: vec![FlowHarmonic {

@@ -13,11 +13,14 @@
 //! * [`tune`]: a bounded search for the silencer design that minimises the
 //!   ripple at a point over the speed range (`ripline tune`).
 //! * [`search`]: golden-section, Halton and Nelder–Mead helpers.
+//! * [`sweep`]: the ripple over a range of shaft speeds, resonance
+//!   crossings and the circuit's resonance frequencies (`ripline sweep`).
 
 pub mod profile;
 pub mod response;
 pub mod ripple;
 pub mod search;
 pub mod silencer;
+pub mod sweep;
 pub mod tune;
 pub mod waveform;

@@ -351,7 +351,7 @@ pub fn find_resonances(
 /// Walks from peak `i` in direction `dir` (±1) until a higher sample or the
 /// end of the grid; returns the index and value of the lowest sample on
 /// the way (the valley).
-fn valley(mag: &[f64], i: usize, dir: isize) -> (usize, f64) {
+pub(crate) fn valley(mag: &[f64], i: usize, dir: isize) -> (usize, f64) {
     let (mut best_i, mut best) = (i, mag[i]);
     let mut k = i as isize + dir;
     while k >= 0 && (k as usize) < mag.len() && mag[k as usize] <= mag[i] {

@@ -10,8 +10,9 @@
 use super::waveform;
 use crate::circuit::{Circuit, Tap, TapLocation};
 use crate::diagnostics::{Warning, conditioning_warning};
-use crate::elements::Connection;
-use crate::network::{Plan, Solution, SolveError};
+use crate::elements::{Connection, NodeId};
+use crate::network::{Plan, Solution, SolveError, Workspace};
+use crate::source::Shaft;
 use num_complex::Complex64 as C64;
 
 /// The ripple of one harmonic at one point.
@@ -122,7 +123,8 @@ pub fn tap_pressure(circuit: &Circuit, solution: &Solution, location: TapLocatio
 }
 
 /// Solves harmonics 1..=`harmonics` of pump `pump_index` and reads every
-/// measurement point.
+/// measurement point: that pump's contribution alone (every pump's source
+/// impedance stays in the network).
 ///
 /// # Errors
 /// [`SolveError`] if the network is singular at a harmonic frequency.
@@ -134,36 +136,112 @@ pub fn harmonic_ripple(
     pump_index: usize,
     harmonics: u32,
 ) -> Result<RippleReport, SolveError> {
+    let pumps = &plan.circuit().pumps;
+    let shaft = Shaft::single(pumps, pump_index);
+    shaft_ripple(plan, &shaft, harmonics, pumps[pump_index].speed_rev_s)
+}
+
+/// Solves the pumps on `shaft` together at shaft speed `speed_rev_s`, at
+/// every order of the shaft fundamental n·g where one of them has one of
+/// its harmonics 1..=`harmonics` (see [`Shaft::orders`]), and reads every
+/// measurement point. The report's `pump` is the shaft's name, its
+/// `pumping_frequency_hz` the shaft fundamental and each entry's `order` the
+/// order of that fundamental (for one pump: its harmonic number).
+///
+/// # Errors
+/// [`SolveError`] if the network is singular at one of these frequencies.
+pub fn shaft_ripple(
+    plan: &Plan<'_>,
+    shaft: &Shaft,
+    harmonics: u32,
+    speed_rev_s: f64,
+) -> Result<RippleReport, SolveError> {
     let circuit = plan.circuit();
-    let pump = &circuit.pumps[pump_index];
     let points = report_points(circuit);
-    let fp = pump.pumping_frequency_hz();
+    let orders = shaft.orders(&circuit.pumps, harmonics);
     let mut taps: Vec<TapRipple> = points
         .iter()
         .map(|t| TapRipple {
             name: t.name.clone(),
-            harmonics: Vec::with_capacity(harmonics as usize),
+            harmonics: Vec::with_capacity(orders.len()),
         })
         .collect();
-    let mut ws = plan.workspace();
     let mut warnings = Vec::new();
-    for order in 1..=harmonics {
-        let freq_hz = f64::from(order) * fp;
-        let solution = plan.solve(freq_hz, &[(pump.node, pump.flow_ripple(order))], &mut ws)?;
-        warnings.extend(conditioning_warning(&solution));
-        for (tap, point) in taps.iter_mut().zip(&points) {
+    let mut solver = OrderSolver::new(plan, shaft, harmonics);
+    for &order in &orders {
+        let freq_hz = solver.solve(order, speed_rev_s)?;
+        warnings.extend(solver.warning.take());
+        for (tap, &pressure) in taps.iter_mut().zip(&solver.pressures) {
             tap.harmonics.push(HarmonicPressure {
                 order,
                 freq_hz,
-                pressure: tap_pressure(circuit, &solution, point.location),
+                pressure,
             });
         }
     }
     Ok(RippleReport {
-        pump: pump.name.clone(),
-        speed_rev_s: pump.speed_rev_s,
-        pumping_frequency_hz: fp,
+        pump: shaft.name.clone(),
+        speed_rev_s,
+        pumping_frequency_hz: shaft.fundamental_hz(speed_rev_s),
         taps,
         warnings,
     })
+}
+
+/// Solves one order of a shaft's fundamental at a time, reusing its
+/// workspace, and keeps the pressure at every measurement point.
+pub(crate) struct OrderSolver<'p, 'c> {
+    plan: &'p Plan<'c>,
+    shaft: &'p Shaft,
+    harmonics: u32,
+    points: Vec<Tap>,
+    workspace: Workspace,
+    injections: Vec<(NodeId, C64)>,
+    /// The pressure (peak phasor, Pa) at each point after the last solve.
+    pub pressures: Vec<C64>,
+    /// The last solve's warning if it was nearly singular.
+    pub warning: Option<Warning>,
+}
+
+impl<'p, 'c> OrderSolver<'p, 'c> {
+    pub(crate) fn new(plan: &'p Plan<'c>, shaft: &'p Shaft, harmonics: u32) -> Self {
+        let points = report_points(plan.circuit());
+        OrderSolver {
+            plan,
+            shaft,
+            harmonics,
+            pressures: vec![C64::new(0.0, 0.0); points.len()],
+            points,
+            workspace: plan.workspace(),
+            injections: Vec::new(),
+            warning: None,
+        }
+    }
+
+    /// The plan it solves.
+    pub(crate) fn plan(&self) -> &'p Plan<'c> {
+        self.plan
+    }
+
+    /// Solves order `order` of the shaft fundamental at `speed_rev_s` and
+    /// returns its frequency in Hz.
+    pub(crate) fn solve(&mut self, order: u32, speed_rev_s: f64) -> Result<f64, SolveError> {
+        let circuit = self.plan.circuit();
+        let freq_hz = f64::from(order) * self.shaft.fundamental_hz(speed_rev_s);
+        self.shaft.injections(
+            &circuit.pumps,
+            order,
+            self.harmonics,
+            speed_rev_s,
+            &mut self.injections,
+        );
+        let solution = self
+            .plan
+            .solve(freq_hz, &self.injections, &mut self.workspace)?;
+        for (p, point) in self.pressures.iter_mut().zip(&self.points) {
+            *p = tap_pressure(circuit, &solution, point.location);
+        }
+        self.warning = conditioning_warning(&solution);
+        Ok(freq_hz)
+    }
 }

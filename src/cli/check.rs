@@ -7,7 +7,7 @@ use ripline::elements::{Connection, ElementKind};
 use ripline::line::turbulence::TRANSITION_REYNOLDS;
 use ripline::line::{LineProperties, MeanFlow};
 use ripline::network::Plan;
-use ripline::source::SourceImpedance;
+use ripline::source::{FlowRipple, PumpGeometry, SourceImpedance};
 use ripline::wall::Wall;
 use std::io::Write;
 use std::path::PathBuf;
@@ -40,33 +40,78 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
     for p in &c.pumps {
         write!(
             out,
-            "pump `{}` at node `{}`: {:.0} rpm, {} pumping elements, pumping frequency {:.2} Hz, {} harmonics in its table",
+            "pump `{}` at node `{}`: {:.0} rpm, {} pumping elements, pumping frequency {:.2} Hz",
             p.name,
             c.nodes[p.node].name,
             p.speed_rev_s * 60.0,
             p.pumping_elements,
             p.pumping_frequency_hz(),
-            p.max_order()
         )?;
         if let Some(q) = p.mean_flow_m3_s() {
             write!(out, ", mean flow {:.2} L/min", q * 60e3)?;
         }
         writeln!(out)?;
-        match p.source_impedance {
+        if let Some(shaft) = &p.shaft {
+            writeln!(
+                out,
+                "  on shaft `{shaft}` (same speed and angle reference as the other pumps on it)"
+            )?;
+        }
+        match &p.flow_ripple {
+            FlowRipple::Kinematic(k) => {
+                writeln!(
+                    out,
+                    "  flow ripple from geometry: {}, flow non-uniformity δ = {:.4}, reference at shaft angle {:.2}°",
+                    describe_geometry(k.geometry()),
+                    k.non_uniformity(),
+                    k.shaft_angle_rad().to_degrees()
+                )?;
+            }
+            _ => writeln!(out, "  flow ripple: a table of {} harmonics", p.max_order())?,
+        }
+        // (capacitance, leakage, passage) of the volume forms
+        let volume = match p.source_impedance {
             SourceImpedance::Volume {
                 capacitance_m3_pa,
                 leakage_resistance_pa_s_m3,
-            } => {
+            } => Some((capacitance_m3_pa, leakage_resistance_pa_s_m3, None)),
+            SourceImpedance::VolumePassage {
+                capacitance_m3_pa,
+                leakage_resistance_pa_s_m3,
+                passage_resistance_pa_s_m3,
+                passage_inertance_kg_m4,
+            } => Some((
+                capacitance_m3_pa,
+                leakage_resistance_pa_s_m3,
+                Some((passage_resistance_pa_s_m3, passage_inertance_kg_m4)),
+            )),
+            _ => None,
+        };
+        match (&p.source_impedance, volume) {
+            (_, Some((capacitance_m3_pa, leakage, passage))) => {
                 write!(
                     out,
                     "  source impedance: internal volume {:.4} L (capacitance {:.4e} m³/Pa)",
                     capacitance_m3_pa * f.bulk_modulus_pa * 1e3,
                     capacitance_m3_pa
                 )?;
-                match leakage_resistance_pa_s_m3 {
-                    Some(r) => writeln!(out, ", leakage resistance {r:.4e} Pa·s/m³")?,
-                    None => writeln!(out)?,
+                if let Some(r) = leakage {
+                    write!(out, ", leakage resistance {r:.4e} Pa·s/m³")?;
                 }
+                if let Some((r, l)) = passage {
+                    write!(
+                        out,
+                        ", behind a passage of resistance {r:.4e} Pa·s/m³ and inertance {l:.4e} kg/m⁴"
+                    )?;
+                }
+                writeln!(out)?;
+            }
+            (SourceImpedance::Table(t), None) => {
+                let (lo, hi) = t.range_hz();
+                writeln!(
+                    out,
+                    "  source impedance: a table from {lo:.2} to {hi:.2} Hz (end values held outside)"
+                )?;
             }
             _ => writeln!(out, "  source impedance: {:?}", p.source_impedance)?,
         }
@@ -222,4 +267,39 @@ fn mean_flow_text(p: &LineProperties) -> String {
         ", mean flow {:.2} L/min ({source}), Re {re:.0} ({regime})",
         q * 6e4
     )
+}
+
+/// One line describing a pump geometry and what follows from it.
+fn describe_geometry(g: &PumpGeometry) -> String {
+    match g {
+        PumpGeometry::Gear(g) => format!(
+            "external gear pump, {} teeth, module {:.3} mm, face width {:.2} mm, pressure angle {:.1}°, outside radius {:.3} mm; contact ratio {:.3}, displacement {:.3} cm³/rev",
+            g.teeth,
+            g.module_m() * 1e3,
+            g.face_width_m * 1e3,
+            g.pressure_angle_rad.to_degrees(),
+            g.tip_radius_m * 1e3,
+            g.contact_ratio(),
+            g.displacement_m3() * 1e6
+        ),
+        PumpGeometry::Piston(p) => {
+            let mut text = format!(
+                "axial piston pump, {} pistons of {:.2} mm on a {:.2} mm pitch radius, swash angle {:.2}°; displacement {:.3} cm³/rev",
+                p.pistons,
+                p.piston_diameter_m * 1e3,
+                p.pitch_radius_m * 1e3,
+                p.swash_angle_rad.to_degrees(),
+                p.displacement_m3() * 1e6
+            );
+            if let Some(pc) = &p.precompression {
+                text.push_str(&format!(
+                    "; pre-compression backflow {:.4} cm³ per piston over {:.1}° from {:.1}° after bottom dead centre",
+                    pc.backflow_volume_m3() * 1e6,
+                    pc.duration_rad.to_degrees(),
+                    pc.delay_rad.to_degrees()
+                ));
+            }
+            text
+        }
+    }
 }

@@ -4,6 +4,7 @@ use super::{EXIT_COMPUTE, EXIT_INPUT};
 use anyhow::Context;
 use ripline::io::InputError;
 use ripline::io::output::StagedOutputs;
+use ripline::source::{Shaft, shafts};
 use ripline::units::{Dimension, parse_quantity};
 use ripline::{Circuit, demo};
 use std::path::{Path, PathBuf};
@@ -139,4 +140,91 @@ pub fn stage_csv(
     outputs
         .stage_bytes(path, &bytes)
         .with_context(|| format!("writing {}", path.display()))
+}
+
+/// Parses a shaft speed option (rpm when bare) and checks it is within
+/// 0 .. 60000 rpm.
+pub fn speed_option(option: &str, text: &str) -> anyhow::Result<f64> {
+    let rev_s = cli_quantity(option, text, Dimension::ShaftSpeed, "rpm")?;
+    if !(rev_s > 0.0 && rev_s <= 1000.0) {
+        return Err(UsageError(format!(
+            "{option} must be between 0 and 60000 rpm, found {:.1} rpm",
+            rev_s * 60.0
+        ))
+        .into());
+    }
+    Ok(rev_s)
+}
+
+/// The shaft named `name` (a shaft name, or the name of a pump on it), or
+/// the first pump's shaft when no name is given.
+pub fn pick_shaft(circuit: &Circuit, name: Option<&str>) -> anyhow::Result<Shaft> {
+    let all = shafts(&circuit.pumps);
+    let Some(name) = name else {
+        return Ok(all[0].clone());
+    };
+    all.iter()
+        .find(|s| s.name == name)
+        .or_else(|| {
+            let pump = circuit.pumps.iter().position(|p| p.name == name)?;
+            all.iter().find(|s| s.pumps.contains(&pump))
+        })
+        .cloned()
+        .ok_or_else(|| {
+            let names: Vec<String> = all.iter().map(|s| format!("`{}`", s.name)).collect();
+            UsageError(format!(
+                "--shaft {name}: no shaft or pump has that name; the circuit's shafts are {}",
+                names.join(", ")
+            ))
+            .into()
+        })
+}
+
+/// The options `solve` and `sweep` share, checked before any work: the dB
+/// reference, the output paths, and the circuit with its harmonic count.
+pub struct Prepared {
+    pub p_ref: f64,
+    pub csv: Option<PathBuf>,
+    pub plot: Option<PathBuf>,
+    pub loaded: LoadedCircuit,
+}
+
+/// Checks `--db-ref`, `--csv`, `--plot`, loads FILE (or the demo) and
+/// applies `--harmonics`.
+pub fn prepare(
+    db_ref: &str,
+    csv: Option<&Path>,
+    plot: Option<&Path>,
+    file: Option<&Path>,
+    harmonics: Option<u32>,
+) -> anyhow::Result<Prepared> {
+    let p_ref = cli_quantity("--db-ref", db_ref, Dimension::Pressure, "Pa")?;
+    if p_ref <= 0.0 {
+        return Err(UsageError("--db-ref must be a positive pressure".into()).into());
+    }
+    let (csv, plot) = csv_and_plot_paths(csv, plot)?;
+    let mut loaded = load_circuit(file)?;
+    if let Some(n) = harmonics {
+        if !(1..=200).contains(&n) {
+            return Err(
+                UsageError(format!("--harmonics must be between 1 and 200, found {n}")).into(),
+            );
+        }
+        loaded.circuit.harmonics = n;
+    }
+    Ok(Prepared {
+        p_ref,
+        csv,
+        plot,
+        loaded,
+    })
+}
+
+/// A level in dB re `p_ref` of an rms pressure, or "no ripple".
+pub fn level_text(rms: f64, p_ref: f64) -> String {
+    if rms > 0.0 {
+        format!("{:.1} dB", 20.0 * (rms / p_ref).log10())
+    } else {
+        "no ripple".to_string()
+    }
 }

@@ -13,6 +13,7 @@ mod ranges;
 mod response;
 mod silencer;
 mod solve;
+mod sweep;
 mod synth;
 mod tune;
 
@@ -48,6 +49,9 @@ enum Command {
     Silencer(silencer::SilencerArgs),
     /// Size a silencer: vary 1 to 3 of its parameters to minimise the ripple at a point.
     Tune(tune::TuneArgs),
+    /// Ripple over a range of pump speeds: worst speed per point and every
+    /// resonance crossing.
+    Sweep(sweep::SweepArgs),
 }
 
 /// Exit code for invalid input or usage.
@@ -76,6 +80,7 @@ pub fn main() -> ExitCode {
         Command::Response(args) => response::run(args),
         Command::Silencer(args) => silencer::run(args),
         Command::Tune(args) => tune::run(args),
+        Command::Sweep(args) => sweep::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -3,12 +3,13 @@
 use super::common::{self, UsageError};
 use anyhow::Context;
 use clap::Args;
-use ripline::analysis::ripple::{RippleReport, harmonic_ripple};
-use ripline::io::csv_out::write_ripple_csv;
+use ripline::analysis::ripple::{RippleReport, shaft_ripple};
+use ripline::io::csv_out::write_sources_ripple_csv;
 use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
-use ripline::units::{Dimension, PressureDisplay};
+use ripline::source::{Shaft, shafts};
+use ripline::units::PressureDisplay;
 use std::io::Write;
 use std::path::PathBuf;
 
@@ -23,10 +24,15 @@ pub struct SolveArgs {
     /// a harmonic table is scaled in proportion to speed).
     #[arg(long, value_name = "RPM")]
     speed: Option<String>,
+    /// The shaft `--speed` sets (a `shaft` name, or a pump's name); default:
+    /// the first pump's.
+    #[arg(long, value_name = "NAME", requires = "speed")]
+    shaft: Option<String>,
     /// Reference pressure for levels in dB (rms), e.g. "1 Pa" or "1 bar".
     #[arg(long, value_name = "PRESSURE", default_value = "1 Pa")]
     db_ref: String,
-    /// Write the harmonic table as CSV (point,harmonic,frequency_hz,amplitude_pa,phase_deg).
+    /// Write the harmonic table as CSV (point,harmonic,frequency_hz,amplitude_pa,phase_deg;
+    /// with pumps on several shafts, a leading `source` column).
     #[arg(long, value_name = "FILE")]
     csv: Option<PathBuf>,
     /// Write a bar chart of the harmonic amplitudes (.svg or .png).
@@ -35,62 +41,62 @@ pub struct SolveArgs {
 }
 
 pub fn run(args: SolveArgs) -> anyhow::Result<()> {
-    let p_ref = common::cli_quantity("--db-ref", &args.db_ref, Dimension::Pressure, "Pa")?;
-    if p_ref <= 0.0 {
-        return Err(UsageError("--db-ref must be a positive pressure".into()).into());
-    }
-    let (csv_path, plot_path) =
-        common::csv_and_plot_paths(args.csv.as_deref(), args.plot.as_deref())?;
-    let mut loaded = common::load_circuit(args.file.as_deref())?;
-    let circuit = &mut loaded.circuit;
-    if let Some(n) = args.harmonics {
-        if !(1..=200).contains(&n) {
-            return Err(
-                UsageError(format!("--harmonics must be between 1 and 200, found {n}")).into(),
-            );
-        }
-        circuit.harmonics = n;
-    }
+    let common::Prepared {
+        p_ref,
+        csv: csv_path,
+        plot: plot_path,
+        mut loaded,
+    } = common::prepare(
+        &args.db_ref,
+        args.csv.as_deref(),
+        args.plot.as_deref(),
+        args.file.as_deref(),
+        args.harmonics,
+    )?;
     if let Some(speed) = &args.speed {
-        let rev_s = common::cli_quantity("--speed", speed, Dimension::ShaftSpeed, "rpm")?;
-        if !(rev_s > 0.0 && rev_s <= 1000.0) {
-            return Err(UsageError(format!(
-                "--speed must be between 0 and 60000 rpm, found {:.1} rpm",
-                rev_s * 60.0
-            ))
-            .into());
-        }
-        for pump in &mut loaded.circuit.pumps {
-            pump.speed_rev_s = rev_s;
-        }
+        let rev_s = common::speed_option("--speed", speed)?;
+        common::pick_shaft(&loaded.circuit, args.shaft.as_deref())?
+            .set_speed(&mut loaded.circuit.pumps, rev_s);
         // mean flows scale with speed (turbulent friction)
         ripline::meanflow::resolve_line_mean_flows(&mut loaded.circuit);
     }
     let circuit = &loaded.circuit;
-    let top_hz = circuit.pumps[0].pumping_frequency_hz() * f64::from(circuit.harmonics);
+    let shafts = shafts(&circuit.pumps);
+    let top_hz = circuit
+        .pumps
+        .iter()
+        .map(|p| p.pumping_frequency_hz() * f64::from(circuit.harmonics))
+        .fold(0.0, f64::max);
     for w in ripline::diagnostics::circuit_warnings(circuit, top_hz) {
         eprintln!("warning: {w}");
     }
     let plan = Plan::compile(circuit).map_err(|e| UsageError(format!("{}: {e}", loaded.source)))?;
-    let report = harmonic_ripple(&plan, 0, circuit.harmonics)
+    let reports = shafts
+        .iter()
+        .map(|s| shaft_ripple(&plan, s, circuit.harmonics, s.speed_rev_s(&circuit.pumps)))
+        .collect::<Result<Vec<_>, _>>()
         .with_context(|| format!("solving {}", loaded.source))?;
-    ensure_finite(&report)?;
-    for w in &report.warnings {
-        eprintln!("warning: {w}");
+    for report in &reports {
+        ensure_finite(report)?;
+        for w in &report.warnings {
+            eprintln!("warning: {w}");
+        }
     }
 
     // Every output is prepared before anything is shown or renamed into place.
     let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
-        common::stage_csv(&mut outputs, path, |buf| write_ripple_csv(&report, buf))?;
+        common::stage_csv(&mut outputs, path, |buf| {
+            write_sources_ripple_csv(&reports, buf)
+        })?;
     }
     if let Some(path) = &plot_path {
-        let chart = bar_chart(&report, circuit.title.as_deref());
+        let chart = bar_chart(&reports, circuit.title.as_deref());
         outputs
             .stage_with(path, |tmp| plot::grouped_bar_chart(tmp, &chart))
             .with_context(|| format!("drawing {}", path.display()))?;
     }
-    print_report(&loaded.source, circuit, &report, p_ref)?;
+    print_report(&loaded.source, circuit, &shafts, &reports, p_ref)?;
     outputs
         .commit()
         .context("moving the output files into place")?;
@@ -117,86 +123,140 @@ fn ensure_finite(report: &RippleReport) -> anyhow::Result<()> {
 fn print_report(
     source: &str,
     circuit: &ripline::Circuit,
-    report: &RippleReport,
+    shafts: &[Shaft],
+    reports: &[RippleReport],
     p_ref: f64,
 ) -> anyhow::Result<()> {
-    let pump = &circuit.pumps[0];
     let mut out = std::io::stdout().lock();
     common::write_heading(&mut out, "solve", source, circuit)?;
-    writeln!(
-        out,
-        "pump `{}` at node `{}`: {:.0} rpm × {} pumping elements = pumping frequency {:.2} Hz",
-        report.pump,
-        circuit.nodes[pump.node].name,
-        report.speed_rev_s * 60.0,
-        pump.pumping_elements,
-        report.pumping_frequency_hz
-    )?;
+    for pump in &circuit.pumps {
+        writeln!(
+            out,
+            "pump `{}` at node `{}`: {:.0} rpm × {} pumping elements = pumping frequency {:.2} Hz",
+            pump.name,
+            circuit.nodes[pump.node].name,
+            pump.speed_rev_s * 60.0,
+            pump.pumping_elements,
+            pump.pumping_frequency_hz()
+        )?;
+    }
+    let several = reports.len() > 1;
+    for (shaft, report) in shafts.iter().zip(reports) {
+        if shaft.pumps.len() > 1 {
+            writeln!(
+                out,
+                "shaft `{}`: its pumps are solved together; harmonics are orders of the shaft fundamental {:.2} Hz",
+                shaft.name, report.pumping_frequency_hz
+            )?;
+        }
+    }
+    if several {
+        writeln!(
+            out,
+            "pumps on different shafts are solved one shaft at a time and add up in power in the overall level"
+        )?;
+    }
     writeln!(
         out,
         "amplitudes are peak values; overall levels are rms (dB re {})",
         PressureDisplay(p_ref)
     )?;
-    for tap in &report.taps {
+    for (i, tap) in reports[0].taps.iter().enumerate() {
         writeln!(out)?;
         writeln!(out, "point `{}`", tap.name)?;
-        writeln!(
-            out,
-            "  {:>8}  {:>12}  {:>14}  {:>9}",
-            "harmonic", "frequency Hz", "amplitude", "phase deg"
-        )?;
-        for h in &tap.harmonics {
+        for report in reports {
+            let tap = &report.taps[i];
+            if several {
+                writeln!(out, "  source `{}`", report.pump)?;
+            }
             writeln!(
                 out,
-                "  {:>8}  {:>12.2}  {:>14}  {:>9.1}",
-                h.order,
-                h.freq_hz,
-                PressureDisplay(h.pressure.norm()).to_string(),
-                h.pressure.arg().to_degrees()
+                "  {:>8}  {:>12}  {:>14}  {:>9}",
+                "harmonic", "frequency Hz", "amplitude", "phase deg"
+            )?;
+            for h in &tap.harmonics {
+                writeln!(
+                    out,
+                    "  {:>8}  {:>12.2}  {:>14}  {:>9.1}",
+                    h.order,
+                    h.freq_hz,
+                    PressureDisplay(h.pressure.norm()).to_string(),
+                    h.pressure.arg().to_degrees()
+                )?;
+            }
+            let rms = tap.rms_pa();
+            writeln!(
+                out,
+                "  {}: {} rms, {}, {} peak-to-peak",
+                if several { "source overall" } else { "overall" },
+                PressureDisplay(rms),
+                common::level_text(rms, p_ref),
+                PressureDisplay(tap.peak_to_peak_pa())
             )?;
         }
-        let rms = tap.rms_pa();
-        let level = if rms > 0.0 {
-            format!("{:.1} dB", tap.level_db(p_ref))
-        } else {
-            "no ripple".to_string()
-        };
-        writeln!(
-            out,
-            "  overall: {} rms, {level}, {} peak-to-peak",
-            PressureDisplay(rms),
-            PressureDisplay(tap.peak_to_peak_pa())
-        )?;
+        if several {
+            let rms = reports
+                .iter()
+                .map(|r| r.taps[i].rms_pa().powi(2))
+                .sum::<f64>()
+                .sqrt();
+            writeln!(
+                out,
+                "  overall, all sources: {} rms, {}",
+                PressureDisplay(rms),
+                common::level_text(rms, p_ref)
+            )?;
+        }
     }
     out.flush()?;
     Ok(())
 }
 
-fn bar_chart(report: &RippleReport, title: Option<&str>) -> plot::BarChart {
-    let orders: Vec<u32> = report
-        .taps
-        .first()
-        .map(|t| t.harmonics.iter().map(|h| h.order).collect())
-        .unwrap_or_default();
-    plot::BarChart {
-        title: format!(
+fn bar_chart(reports: &[RippleReport], title: Option<&str>) -> plot::BarChart {
+    let several = reports.len() > 1;
+    let categories: Vec<String> = reports
+        .iter()
+        .flat_map(|r| {
+            r.taps.first().into_iter().flat_map(move |t| {
+                t.harmonics.iter().map(move |h| {
+                    if several {
+                        format!("{} {}", r.pump, h.order)
+                    } else {
+                        h.order.to_string()
+                    }
+                })
+            })
+        })
+        .collect();
+    let first = &reports[0];
+    let title = if several {
+        format!(
+            "Pressure ripple per harmonic — {}",
+            title.unwrap_or(&first.pump)
+        )
+    } else {
+        format!(
             "Pressure ripple per harmonic — {} ({:.0} rpm, f_p = {:.1} Hz)",
-            title.unwrap_or(&report.pump),
-            report.speed_rev_s * 60.0,
-            report.pumping_frequency_hz
-        ),
-        x_label: "harmonic of the pumping frequency".into(),
+            title.unwrap_or(&first.pump),
+            first.speed_rev_s * 60.0,
+            first.pumping_frequency_hz
+        )
+    };
+    plot::BarChart {
+        title,
+        x_label: if several {
+            "source and harmonic".into()
+        } else {
+            "harmonic of the pumping frequency".into()
+        },
         y_label: "pressure ripple amplitude, peak (bar)".into(),
-        categories: orders.iter().map(|k| k.to_string()).collect(),
-        series: report
-            .taps
-            .iter()
-            .map(|t| plot::Series {
-                name: t.name.clone(),
-                values: t
-                    .harmonics
+        categories,
+        series: (0..first.taps.len())
+            .map(|i| plot::Series {
+                name: first.taps[i].name.clone(),
+                values: reports
                     .iter()
-                    .map(|h| h.pressure.norm() / 1e5)
+                    .flat_map(|r| r.taps[i].harmonics.iter().map(|h| h.pressure.norm() / 1e5))
                     .collect(),
             })
             .collect(),

@@ -93,20 +93,7 @@ pub fn termination_admittance(t: &Termination, omega: f64, bulk_modulus_pa: f64)
 /// Source flow ripple of harmonic `order` at shaft speed `speed_rev_s`
 /// (amplitude in proportion to speed, as `FlowRipple` states).
 pub fn source_flow(ripple: &FlowRipple, order: u32, speed_rev_s: f64) -> C64 {
-    match ripple {
-        FlowRipple::Table {
-            reference_speed_rev_s,
-            harmonics,
-        } => harmonics
-            .iter()
-            .find(|h| h.order == order)
-            .map_or(C64::new(0.0, 0.0), |h| {
-                C64::from_polar(
-                    h.amplitude_m3_s * speed_rev_s / reference_speed_rev_s,
-                    h.phase_rad,
-                )
-            }),
-    }
+    ripple.at(order, speed_rev_s)
 }
 
 /// What drives the line at one frequency.

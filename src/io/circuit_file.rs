@@ -7,6 +7,8 @@
 //! SI; its errors carry the key path, mapped back to a line by
 //! [`super::locate`]. The file format is documented in README.md.
 
+mod pumps;
+
 use super::InputError;
 use super::gas_pressure::GasPressure;
 use super::locate::KeyPath;
@@ -23,9 +25,10 @@ use crate::hose::{
 };
 use crate::line::{Line, LineModel, LineProperties, MeanFlow};
 use crate::oil::{self, Grade, OilData, Walther};
-use crate::source::{FlowHarmonic, FlowRipple, Pump, SourceImpedance};
+use crate::source::{FlowHarmonic, FlowRipple, KinematicRipple, Pump};
 use crate::units::format_sig;
 use crate::wall::{DEFAULT_POISSON_RATIO, Material, Wall};
+use pumps::{RawGear, RawPiston, RawSourceImpedance};
 use serde::Deserialize;
 use std::collections::HashSet;
 use std::path::Path;
@@ -44,6 +47,7 @@ struct RawCircuit {
     line_model: Option<RawLineModel>,
     harmonics: Option<u32>,
     pump: Option<RawPump>,
+    pumps: Option<Vec<RawPump>>,
     #[serde(default)]
     elements: Vec<RawElement>,
     #[serde(default)]
@@ -125,7 +129,7 @@ struct RawRetardation {
 #[derive(Debug, Deserialize)]
 #[serde(
     deny_unknown_fields,
-    expecting = "a pump section: a mapping with node, speed, pumping_elements, flow_ripple and source_impedance"
+    expecting = "a pump section: a mapping with node, speed, pumping_elements, flow_ripple (or gear, piston) and source_impedance"
 )]
 struct RawPump {
     name: Option<String>,
@@ -135,8 +139,12 @@ struct RawPump {
     pumping_elements: Option<u32>,
     displacement: Option<Q<q::Volume>>,
     flow_ripple: Option<Vec<RawHarmonic>>,
+    gear: Option<RawGear>,
+    piston: Option<RawPiston>,
     source_impedance: Option<RawSourceImpedance>,
     source_file: Option<String>,
+    shaft: Option<String>,
+    shaft_angle: Option<Q<q::Angle>>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -149,16 +157,6 @@ struct RawHarmonic {
     amplitude: Q<q::Flow>,
     #[serde(default)]
     phase: Option<Q<q::Angle>>,
-}
-
-#[derive(Debug, Deserialize)]
-#[serde(
-    deny_unknown_fields,
-    expecting = "a source impedance: a mapping with volume and optionally leakage_resistance"
-)]
-struct RawSourceImpedance {
-    volume: Q<q::Volume>,
-    leakage_resistance: Option<Q<q::Resistance>>,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
@@ -589,15 +587,38 @@ impl Checker<'_> {
             taps: Vec::new(),
             harmonics,
         };
-        let pump_path = root.key("pump");
-        let raw_pump = raw.pump.as_ref().ok_or_else(|| {
-            self.err(
-                &root,
-                "the circuit has no `pump`: add a pump section (node, speed, pumping_elements, flow_ripple, source_impedance)",
-            )
-        })?;
-        let pump = self.pump(&pump_path, raw_pump, &circuit)?;
-        circuit.pumps.push(pump);
+        let raw_pumps: Vec<(KeyPath, &RawPump)> = match (&raw.pump, &raw.pumps) {
+            (Some(p), None) => vec![(root.key("pump"), p)],
+            (None, Some(list)) if !list.is_empty() => list
+                .iter()
+                .enumerate()
+                .map(|(i, p)| (root.key("pumps").index(i), p))
+                .collect(),
+            (None, Some(_)) => {
+                return Err(self.err(&root.key("pumps"), "the `pumps` list is empty"));
+            }
+            (Some(_), Some(_)) => {
+                return Err(self.err(
+                    &root.key("pumps"),
+                    "give either one `pump` section or a `pumps` list, not both",
+                ));
+            }
+            (None, None) => {
+                return Err(self.err(
+                    &root,
+                    "the circuit has no `pump`: add a pump section (node, speed, pumping_elements, flow_ripple, source_impedance), or a `pumps` list",
+                ));
+            }
+        };
+        for (i, (path, raw_pump)) in raw_pumps.iter().enumerate() {
+            let mut pump = self.pump(path, raw_pump, &circuit)?;
+            if raw.pumps.is_some() && raw_pump.name.is_none() {
+                pump.name = format!("pump {}", i + 1);
+            }
+            circuit.pumps.push(pump);
+        }
+        let paths: Vec<KeyPath> = raw_pumps.into_iter().map(|(p, _)| p).collect();
+        self.check_pumps(&paths, &circuit.pumps)?;
         let mut tap_names = HashSet::new();
         for (i, t) in raw.taps.iter().enumerate() {
             let path = root.key("taps").index(i);
@@ -616,7 +637,11 @@ impl Checker<'_> {
                 crate::network::NetworkError::Disconnected { element } => circuit
                     .element_id(element)
                     .map_or(root.clone(), |i| root.key("elements").index(i)),
-                crate::network::NetworkError::PumpIntoTank { .. } => pump_path.key("node"),
+                crate::network::NetworkError::PumpIntoTank { pump, .. } => circuit
+                    .pumps
+                    .iter()
+                    .position(|p| &p.name == pump)
+                    .map_or(root.clone(), |i| paths[i].key("node")),
                 _ => root.clone(),
             };
             self.err(&path, e.to_string())
@@ -1376,13 +1401,27 @@ impl Checker<'_> {
                 ),
             )
         })?;
+        let geometry = match (&raw.flow_ripple, &raw.gear, &raw.piston) {
+            (_, Some(g), None) if raw.flow_ripple.is_none() => {
+                Some(self.gear(&path.key("gear"), g)?)
+            }
+            (None, None, Some(p)) => Some(self.piston(&path.key("piston"), p, &circuit.fluid)?),
+            (_, None, None) => None,
+            _ => {
+                return Err(self.err(
+                    path,
+                    "give one source flow ripple: `flow_ripple` (a table), `gear`, `piston` or `source_file`",
+                ));
+            }
+        };
         let file_source = match &raw.source_file {
             None => None,
             Some(name) => {
-                if raw.flow_ripple.is_some() || raw.source_impedance.is_some() {
+                if raw.flow_ripple.is_some() || raw.source_impedance.is_some() || geometry.is_some()
+                {
                     return Err(self.err(
                         &path.key("source_file"),
-                        "give either `source_file`, or `flow_ripple` with `source_impedance`, not both",
+                        "give either `source_file`, or `flow_ripple` (or `gear`, `piston`) with `source_impedance`, not both",
                     ));
                 }
                 let base = Path::new(self.file).parent().unwrap_or(Path::new(""));
@@ -1420,18 +1459,20 @@ impl Checker<'_> {
                 Some((lo, hi))
             }
         };
-        let pumping_elements = match (raw.pumping_elements, &file_source) {
-            (Some(z), Some(src)) if z != src.pumping_elements => {
+        let implied = match (&file_source, &geometry) {
+            (Some(src), _) => Some((src.pumping_elements, "the source file")),
+            (None, Some(g)) => Some((g.pumping_elements(), "the pump geometry")),
+            (None, None) => None,
+        };
+        let pumping_elements = match (raw.pumping_elements, implied) {
+            (Some(z), Some((n, from))) if z != n => {
                 return Err(self.err(
                     &path.key("pumping_elements"),
-                    format!(
-                        "{z} differs from the {} pumping elements of the source file",
-                        src.pumping_elements
-                    ),
+                    format!("{z} differs from the {n} pumping elements of {from}"),
                 ));
             }
             (Some(z), _) => z,
-            (None, Some(src)) => src.pumping_elements,
+            (None, Some((n, _))) => n,
             (None, None) => {
                 return Err(self.err(
                     path,
@@ -1447,32 +1488,78 @@ impl Checker<'_> {
                 ),
             ));
         }
-        let displacement = match raw.displacement {
-            Some(d) => Some(self.in_range(&path.key("displacement"), d.si, 1e-8, 1e-2, "m³")?),
-            None => None,
+        let displacement = match (raw.displacement, &geometry) {
+            (Some(_), Some(g)) => {
+                return Err(self.err(
+                    &path.key("displacement"),
+                    format!(
+                        "the displacement follows from the pump geometry ({:.3} cm³/rev): remove `displacement`",
+                        g.displacement_m3() * 1e6
+                    ),
+                ));
+            }
+            (Some(d), None) => {
+                Some(self.in_range(&path.key("displacement"), d.si, 1e-8, 1e-2, "m³")?)
+            }
+            (None, Some(g)) => Some(g.displacement_m3()),
+            (None, None) => None,
         };
         let name = raw.name.clone().unwrap_or_else(|| "pump".to_string());
-        if let Some(src) = file_source {
-            let source_impedance = src
-                .source_impedance()
-                .map_err(|m| self.err(&path.key("source_file"), m))?;
-            return Ok(Pump {
-                name,
-                node,
-                speed_rev_s: speed,
-                speed_range_rev_s: speed_range,
-                pumping_elements,
-                displacement_m3: displacement,
-                flow_ripple: src.flow_ripple(),
-                source_impedance,
-            });
-        }
-        let (Some(flow_ripple), Some(zs)) = (&raw.flow_ripple, &raw.source_impedance) else {
-            return Err(self.err(
-                path,
-                "the pump needs `flow_ripple` and `source_impedance`, or a `source_file`",
-            ));
+        let shaft = match &raw.shaft {
+            Some(s) if s.trim().is_empty() => {
+                return Err(self.err(&path.key("shaft"), "a shaft name must not be empty"));
+            }
+            s => s.clone(),
         };
+        let shaft_angle = raw.shaft_angle.map_or(0.0, |a| a.si);
+        let (flow_ripple, source_impedance) = match file_source {
+            Some(src) => (
+                src.flow_ripple(),
+                src.source_impedance()
+                    .map_err(|m| self.err(&path.key("source_file"), m))?,
+            ),
+            None => {
+                let Some(zs) = &raw.source_impedance else {
+                    return Err(self.err(
+                        path,
+                        "the pump needs `source_impedance` with its `flow_ripple` (or `gear`, `piston`), or a `source_file`",
+                    ));
+                };
+                let source_impedance =
+                    self.source_impedance(&path.key("source_impedance"), zs, &circuit.fluid)?;
+                let flow_ripple = match (geometry, &raw.flow_ripple) {
+                    (Some(g), _) => FlowRipple::Kinematic(KinematicRipple::new(g, 0.0)),
+                    (None, Some(table)) => self.flow_table(path, table, speed)?,
+                    (None, None) => {
+                        return Err(self.err(
+                            path,
+                            "the pump needs a source flow ripple: `flow_ripple` (a table), `gear`, `piston` or `source_file`",
+                        ));
+                    }
+                };
+                (flow_ripple, source_impedance)
+            }
+        };
+        Ok(Pump {
+            name,
+            node,
+            speed_rev_s: speed,
+            speed_range_rev_s: speed_range,
+            pumping_elements,
+            displacement_m3: displacement,
+            shaft,
+            flow_ripple: flow_ripple.rotated(pumping_elements, shaft_angle),
+            source_impedance,
+        })
+    }
+
+    /// The source flow ripple table `flow_ripple` at the pump's `speed`.
+    fn flow_table(
+        &self,
+        path: &KeyPath,
+        flow_ripple: &[RawHarmonic],
+        speed: f64,
+    ) -> Res<FlowRipple> {
         if flow_ripple.is_empty() {
             return Err(self.err(
                 &path.key("flow_ripple"),
@@ -1512,37 +1599,9 @@ impl Checker<'_> {
                 phase_rad: h.phase.map_or(0.0, |p| p.si),
             });
         }
-        let zp = path.key("source_impedance");
-        let volume = zs.volume.si;
-        if !(0.0..=1.0).contains(&volume) {
-            return Err(self.err(
-                &zp.key("volume"),
-                format!(
-                    "internal volume must be between 0 and 1 m³, found {volume} m³: check the unit"
-                ),
-            ));
-        }
-        let leakage = match zs.leakage_resistance {
-            Some(r) => {
-                Some(self.in_range(&zp.key("leakage_resistance"), r.si, 1e3, 1e20, "Pa·s/m³")?)
-            }
-            None => None,
-        };
-        Ok(Pump {
-            name,
-            node,
-            speed_rev_s: speed,
-            speed_range_rev_s: speed_range,
-            pumping_elements,
-            displacement_m3: displacement,
-            flow_ripple: FlowRipple::Table {
-                reference_speed_rev_s: speed,
-                harmonics,
-            },
-            source_impedance: SourceImpedance::Volume {
-                capacitance_m3_pa: volume / circuit.fluid.bulk_modulus_pa,
-                leakage_resistance_pa_s_m3: leakage,
-            },
+        Ok(FlowRipple::Table {
+            reference_speed_rev_s: speed,
+            harmonics,
         })
     }
 
