@@ -7,22 +7,42 @@
 //! cost a network solve) and the crates that offer them pull dependencies
 //! the project avoids (DEVELOPERS.md, "Dependencies and why").
 
-/// Golden-section search for the maximum of a function that is unimodal on
-/// [a, b] (Kiefer 1953; Press et al., *Numerical Recipes*, 3rd ed., §10.2).
-/// Runs `iterations` steps (each shrinks the bracket by 0.618) and returns
-/// the better of the two last interior points as (x, f(x)).
-pub fn golden_section_max(
+/// The result of a golden-section search.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct GoldenResult {
+    /// Where the better of the last two interior points lies.
+    pub x: f64,
+    /// The value there.
+    pub value: f64,
+    /// Whether the bracket shrank below the tolerance.
+    pub converged: bool,
+    /// Function evaluations used.
+    pub evaluations: usize,
+}
+
+/// Golden-section search for the minimum of a function that is unimodal on
+/// [a, b] (Kiefer 1953; Press et al., *Numerical Recipes*, 3rd ed., §10.2):
+/// each step shrinks the bracket by 0.618, until it is narrower than
+/// `rel_tol`·|b| or after `max_steps` steps.
+pub fn golden_section_min(
     mut f: impl FnMut(f64) -> f64,
     mut a: f64,
     mut b: f64,
-    iterations: usize,
-) -> (f64, f64) {
+    rel_tol: f64,
+    max_steps: usize,
+) -> GoldenResult {
     let r = (5f64.sqrt() - 1.0) / 2.0;
     let mut c = b - r * (b - a);
     let mut d = a + r * (b - a);
     let (mut fc, mut fd) = (f(c), f(d));
-    for _ in 0..iterations {
-        if fc > fd {
+    let mut evaluations = 2;
+    let mut converged = false;
+    for _ in 0..max_steps {
+        if b - a <= rel_tol * b.abs() {
+            converged = true;
+            break;
+        }
+        if fc <= fd {
             b = d;
             (d, fd) = (c, fc);
             c = b - r * (b - a);
@@ -33,8 +53,28 @@ pub fn golden_section_max(
             d = a + r * (b - a);
             fd = f(d);
         }
+        evaluations += 1;
     }
-    if fc > fd { (c, fc) } else { (d, fd) }
+    let (x, value) = if fc <= fd { (c, fc) } else { (d, fd) };
+    GoldenResult {
+        x,
+        value,
+        converged,
+        evaluations,
+    }
+}
+
+/// Golden-section search for the maximum of a function that is unimodal on
+/// [a, b]: [`golden_section_min`] of −f for `iterations` steps; returns the
+/// better of the two last interior points as (x, f(x)).
+pub fn golden_section_max(
+    mut f: impl FnMut(f64) -> f64,
+    a: f64,
+    b: f64,
+    iterations: usize,
+) -> (f64, f64) {
+    let r = golden_section_min(|x| -f(x), a, b, 0.0, iterations);
+    (r.x, -r.value)
 }
 
 /// The i-th point (i ≥ 1) of the Halton sequence in `dims` ≤ 3 dimensions,

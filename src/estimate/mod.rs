@@ -58,63 +58,7 @@ impl Observer for Quiet {
     fn advance(&mut self, _steps: u64) {}
 }
 
-/// The result of a golden-section search.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub(crate) struct GoldenResult {
-    /// Where the smaller of the last two values was found.
-    pub x: f64,
-    /// The value there.
-    pub value: f64,
-    /// Whether the bracket shrank below the tolerance.
-    pub converged: bool,
-    /// Function evaluations used.
-    pub evaluations: usize,
-}
-
-/// Golden-section search (Kiefer 1953) for the minimum of `g` on [a, b],
-/// until the bracket is narrower than `rel_tol`·|b| or after `max_steps`.
-pub(crate) fn golden_section(
-    g: impl Fn(f64) -> f64,
-    a: f64,
-    b: f64,
-    rel_tol: f64,
-    max_steps: usize,
-) -> GoldenResult {
-    let ratio = (5f64.sqrt() - 1.0) / 2.0;
-    let (mut a, mut b) = (a, b);
-    let mut x1 = b - ratio * (b - a);
-    let mut x2 = a + ratio * (b - a);
-    let (mut f1, mut f2) = (g(x1), g(x2));
-    let mut evaluations = 2;
-    let mut converged = false;
-    for _ in 0..max_steps {
-        if b - a <= rel_tol * b.abs() {
-            converged = true;
-            break;
-        }
-        if f1 <= f2 {
-            b = x2;
-            x2 = x1;
-            f2 = f1;
-            x1 = b - ratio * (b - a);
-            f1 = g(x1);
-        } else {
-            a = x1;
-            x1 = x2;
-            f1 = f2;
-            x2 = a + ratio * (b - a);
-            f2 = g(x2);
-        }
-        evaluations += 1;
-    }
-    let (x, value) = if f1 <= f2 { (x1, f1) } else { (x2, f2) };
-    GoldenResult {
-        x,
-        value,
-        converged,
-        evaluations,
-    }
-}
+pub(crate) use crate::analysis::search::golden_section_min as golden_section;
 
 /// Why an estimation could not be carried out (as opposed to a harmonic
 /// that is merely ill-conditioned, which is a warning in the report).
