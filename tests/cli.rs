@@ -513,7 +513,7 @@ fn bad_circuit_files_exit_2_with_a_located_message_and_write_nothing() {
     }
     for (file, fragment) in BAD_FILES {
         let path = format!("tests/bad/{file}");
-        for cmd in ["solve", "check", "response", "sweep"] {
+        for cmd in ["solve", "check", "response", "sweep", "profile"] {
             let mut args = vec![cmd, path.as_str()];
             if cmd != "check" {
                 args.extend([
