@@ -59,6 +59,7 @@ fn tune(c: &mut Criterion) {
             },
         ],
         evaluator: RippleEvaluator::new(&circuit, 0, tap, &conditions, Objective::Worst),
+        fluid_states: Vec::new(),
     };
     let mut group = c.benchmark_group("drill rig feed damper");
     group.sample_size(10);

@@ -1540,3 +1540,65 @@ fn a_sweep_through_an_undamped_resonance_stops_with_exit_1() {
     assert_eq!(files_in(&dir), vec!["singular.yaml"]);
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+#[test]
+fn tune_over_a_fluid_temperature_range() {
+    // An invented test circuit: a side branch on an oil line whose fluid is
+    // given by its grade, so it can be evaluated at other temperatures.
+    let dir = scratch("tune-temperature");
+    let file = dir.join("branch.yaml");
+    std::fs::write(
+        &file,
+        "fluid: {grade: VG 46, temperature: 40 degC, pressure: 100 bar}\n\
+         harmonics: 2\n\
+         pump:\n  node: a\n  speed: 1500 rpm\n  speed_range: [1400 rpm, 1600 rpm]\n  pumping_elements: 9\n\
+         \x20 flow_ripple: [{harmonic: 1, amplitude: 1 L/min}, {harmonic: 2, amplitude: 0.3 L/min}]\n\
+         \x20 source_impedance: {volume: 0.1 L}\n\
+         elements:\n\
+         \x20 - {name: up, kind: tube, from: a, to: b, length: 1.3 m, bore: 12 mm, wall: 2 mm, material: steel}\n\
+         \x20 - {name: branch, kind: side_branch, at: b, length: 1.2 m, bore: 12 mm, wall: 2 mm, material: steel}\n\
+         \x20 - {name: down, kind: tube, from: b, to: c, length: 2 m, bore: 12 mm, wall: 2 mm, material: steel}\n\
+         \x20 - {name: valve, kind: load_valve, at: c, resistance: 2e10}\n\
+         taps:\n  - {name: out, node: c}\n",
+    )
+    .unwrap();
+    let o = ripline(&[
+        "tune",
+        file.to_str().unwrap(),
+        "--element",
+        "branch",
+        "--vary",
+        "length=0.8m..2m",
+        "--speeds",
+        "5",
+        "--temperatures",
+        "30degC..80degC",
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    assert!(
+        out.contains("fluid temperatures: 30.0, 55.0, 80.0 °C"),
+        "{out}"
+    );
+    assert!(
+        out.contains("tuned, worst condition:") && out.contains(" °C with "),
+        "{out}"
+    );
+    // An explicit fluid has no temperature model: a usage of the file that
+    // cannot work, exit 2.
+    let o = ripline(&[
+        "tune",
+        "networks/drill_rig_feed_damper.yaml",
+        "--element",
+        "damper",
+        "--vary",
+        "gas_volume=0.1L..1L",
+        "--tap",
+        "head block",
+        "--temperatures",
+        "30degC..80degC",
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("the fluid has no temperature model"));
+    std::fs::remove_dir_all(dir).unwrap();
+}

@@ -441,6 +441,7 @@ fn tune_recovers_the_quarter_wave_length_of_a_side_branch() {
             high: 0.8,
         }],
         evaluator,
+        fluid_states: Vec::new(),
     };
     let mut calls = 0;
     let result = problem
@@ -461,4 +462,98 @@ fn tune_recovers_the_quarter_wave_length_of_a_side_branch() {
             "{s:?}"
         );
     }
+}
+
+// A side branch tuned over a fluid temperature range. The quarter-wave law
+// L = c/(4f) (Kinsler et al. 2000 ch. 10) puts the best length for one
+// temperature at that temperature's wave speed; over a range the worst-case
+// optimum must lie between the lengths of the coldest and hottest oil, since
+// the branch's notch can sit on only one wave speed.
+const BRANCH_AT_TEMPERATURE: &str = "\
+fluid: {grade: VG 46, temperature: 40 degC, pressure: 100 bar}
+harmonics: 1
+pump:
+  node: a
+  speed: 1500 rpm
+  pumping_elements: 9
+  flow_ripple: [{harmonic: 1, amplitude: 1 L/min}]
+  source_impedance: {volume: 0}
+elements:
+  - {name: up, kind: tube, from: a, to: b, length: 1.3 m, bore: 12 mm, rigid: true}
+  - {name: branch, kind: side_branch, at: b, length: 1.2 m, bore: 12 mm, rigid: true}
+  - {name: down, kind: tube, from: b, to: c, length: 2 m, bore: 12 mm, rigid: true}
+  - {name: end, kind: anechoic_end, at: c}
+taps:
+  - {name: out, node: c}
+";
+
+fn tune_branch_over(temperatures_k: &[f64]) -> f64 {
+    let base = ripline::io::parse_circuit(BRANCH_AT_TEMPERATURE, "branch.yaml").unwrap();
+    let states: Vec<_> = temperatures_k
+        .iter()
+        .map(|&t| {
+            ripline::io::parse_circuit_at_temperature(BRANCH_AT_TEMPERATURE, "branch.yaml", t)
+                .unwrap()
+        })
+        .collect();
+    let conditions = speed_conditions((25.0, 25.0), 1);
+    let evaluator = RippleEvaluator::new(
+        &base,
+        0,
+        base.taps[0].location,
+        &conditions,
+        Objective::Worst,
+    );
+    let problem = TuneProblem {
+        circuit: &base,
+        element: base.element_id("branch").unwrap(),
+        bounds: vec![Bound {
+            parameter: Parameter::Length,
+            low: 0.8,
+            high: 2.0,
+        }],
+        evaluator,
+        fluid_states: states,
+    };
+    problem
+        .solve(SearchSettings::for_dims(1), &mut |_| {})
+        .unwrap()
+        .best[0]
+}
+
+/// The quarter-wave length of the branch with the oil at `t` kelvin, at
+/// f = 225 Hz: Im(Γ)·L = π/2, i.e. L = c_ph/(4f) with the laminar line's
+/// phase speed c_ph = ω/Im Γ (viscous dispersion lowers it by about
+/// 1/(√2·s) below √(B/ρ), a few % for cold oil in a 12 mm bore; methods.md
+/// §2.4).
+fn quarter_wave_at(t: f64) -> f64 {
+    let c =
+        ripline::io::parse_circuit_at_temperature(BRANCH_AT_TEMPERATURE, "branch.yaml", t).unwrap();
+    let branch = &c.elements[c.element_id("branch").unwrap()];
+    let props = branch.kind.line_properties().unwrap();
+    let omega = 2.0 * std::f64::consts::PI * 225.0;
+    let phase_speed = omega / props.propagation(omega).gamma.im;
+    phase_speed / (4.0 * 225.0)
+}
+
+#[test]
+fn tune_over_a_temperature_range_lands_between_the_extreme_quarter_waves() {
+    let (cold, hot) = (273.15 + 30.0, 273.15 + 80.0);
+    let (l_cold, l_hot) = (quarter_wave_at(cold), quarter_wave_at(hot));
+    assert!(
+        l_cold > l_hot * 1.02,
+        "wave speed falls with temperature: {l_cold} vs {l_hot}"
+    );
+    // One temperature: the quarter-wave length of that oil (laminar friction
+    // shortens it slightly, well within 1 %).
+    for (t, l) in [(cold, l_cold), (hot, l_hot)] {
+        let best = tune_branch_over(&[t]);
+        assert!((best / l - 1.0).abs() < 0.01, "{t} K: {best} vs {l}");
+    }
+    // The range: a compromise strictly between the two.
+    let best = tune_branch_over(&[cold, 273.15 + 55.0, hot]);
+    assert!(
+        best < l_cold * 0.999 && best > l_hot * 1.001,
+        "{l_hot} < {best} < {l_cold}"
+    );
 }

@@ -8,11 +8,13 @@
 //! that speed. Over the conditions the objective is either the **worst**
 //! (largest) P_rms or their **rms** √(mean P_rms²).
 //!
-//! **Conditions.** Speeds spread evenly in log(speed) over the range.
-//! [`Condition`] is where a fluid temperature will join once the fluid
-//! model depends on temperature, so that a design can be made robust to the
-//! wave-speed drift between a cold and a hot circuit; there is no such
-//! model yet.
+//! **Conditions.** Speeds spread evenly in log(speed) over the range and,
+//! optionally, fluid temperatures: [`TuneProblem::fluid_states`] holds the
+//! same circuit with the oil at each temperature of a range (built with
+//! `io::parse_circuit_at_temperature`), so the wave speed, the damping and
+//! the damper's oil compliance follow the temperature. The objective then
+//! runs over every (temperature, speed) pair, which makes a design robust
+//! to the wave-speed drift between a cold and a hot circuit.
 //!
 //! **Search.** Each parameter varies between positive bounds and is
 //! searched in log scale, u ∈ [0, 1] ↦ x = lo·(hi/lo)^u, so that a volume
@@ -202,12 +204,12 @@ pub struct Bound {
     pub high: f64,
 }
 
-/// One operating condition the ripple is evaluated at.
+/// One operating speed the ripple is evaluated at (fluid temperatures are
+/// given as circuit variants, [`TuneProblem::fluid_states`]).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Condition {
     /// Pump shaft speed in rev/s.
     pub speed_rev_s: f64,
-    // A fluid temperature joins here when the fluid model has one.
 }
 
 /// `count` speeds spread evenly in log(speed) over `range` (rev/s); one
@@ -236,6 +238,16 @@ pub enum Objective {
 }
 
 impl Objective {
+    /// The objective over per-condition overall rms ripples (Pa).
+    pub fn over(self, per_condition_pa: &[f64]) -> f64 {
+        match self {
+            Objective::Worst => per_condition_pa.iter().copied().fold(0.0, f64::max),
+            Objective::Rms => (per_condition_pa.iter().map(|p| p * p).sum::<f64>()
+                / per_condition_pa.len().max(1) as f64)
+                .sqrt(),
+        }
+    }
+
     /// How reports describe it.
     pub fn describe(self) -> &'static str {
         match self {
@@ -332,12 +344,7 @@ impl RippleEvaluator {
             }
             per_condition_pa.push((sum / 2.0).sqrt());
         }
-        let objective_pa = match self.objective {
-            Objective::Worst => per_condition_pa.iter().copied().fold(0.0, f64::max),
-            Objective::Rms => (per_condition_pa.iter().map(|p| p * p).sum::<f64>()
-                / per_condition_pa.len().max(1) as f64)
-                .sqrt(),
-        };
+        let objective_pa = self.objective.over(&per_condition_pa);
         Ok(RippleSummary {
             objective_pa,
             per_condition_pa,
@@ -372,7 +379,7 @@ pub enum TuneError {
     BadBounds(&'static str),
     /// The design as given cannot be evaluated.
     #[error("the circuit as given cannot be evaluated: {0}")]
-    Baseline(#[from] EvaluateError),
+    Baseline(String),
     /// No candidate in the bounds could be evaluated.
     #[error("no design within the bounds gives a valid circuit: {0}")]
     NothingValid(String),
@@ -389,6 +396,11 @@ pub struct TuneProblem<'c> {
     pub bounds: Vec<Bound>,
     /// The ripple to minimise.
     pub evaluator: RippleEvaluator,
+    /// The same circuit with the fluid at each temperature of a range
+    /// (empty: only `circuit`, at its own fluid state). When given, the
+    /// ripple is evaluated on these variants only, at every speed each, in
+    /// this order; the element's design is applied to each.
+    pub fluid_states: Vec<Circuit>,
 }
 
 /// How much effort the search spends.
@@ -493,21 +505,58 @@ impl TuneProblem<'_> {
         Ok(())
     }
 
-    /// The element with the given parameter values.
-    fn element_with(&self, values: &[f64]) -> Result<ElementKind, String> {
-        let mut kind = self.circuit.elements[self.element].kind.clone();
+    /// The element of `circuit` with the given parameter values (built with
+    /// that circuit's fluid).
+    fn element_in(&self, circuit: &Circuit, values: &[f64]) -> Result<ElementKind, String> {
+        let mut kind = circuit.elements[self.element].kind.clone();
         for (b, &v) in self.bounds.iter().zip(values) {
-            kind = b.parameter.apply(&kind, v, &self.circuit.fluid)?;
+            kind = b.parameter.apply(&kind, v, &circuit.fluid)?;
         }
         Ok(kind)
     }
 
+    /// The element with the given parameter values.
+    fn element_with(&self, values: &[f64]) -> Result<ElementKind, String> {
+        self.element_in(self.circuit, values)
+    }
+
+    /// The circuits the ripple is evaluated on.
+    fn states(&self) -> Vec<&Circuit> {
+        if self.fluid_states.is_empty() {
+            vec![self.circuit]
+        } else {
+            self.fluid_states.iter().collect()
+        }
+    }
+
+    /// The ripple over every fluid state and speed of circuits built by
+    /// `variant` from each state.
+    fn evaluate_states(
+        &self,
+        variant: impl Fn(&Circuit) -> Result<Circuit, String>,
+    ) -> Result<RippleSummary, String> {
+        let mut per_condition_pa = Vec::new();
+        for state in self.states() {
+            let circuit = variant(state)?;
+            let summary = self
+                .evaluator
+                .evaluate(&circuit)
+                .map_err(|e| e.to_string())?;
+            per_condition_pa.extend(summary.per_condition_pa);
+        }
+        Ok(RippleSummary {
+            objective_pa: self.evaluator.objective.over(&per_condition_pa),
+            per_condition_pa,
+        })
+    }
+
     /// The ripple with the element rebuilt from `values`.
     fn evaluate_values(&self, values: &[f64]) -> Result<RippleSummary, String> {
-        let kind = self.element_with(values)?;
-        let mut circuit = self.circuit.clone();
-        circuit.elements[self.element].kind = kind;
-        self.evaluator.evaluate(&circuit).map_err(|e| e.to_string())
+        self.evaluate_states(|state| {
+            let mut circuit = state.clone();
+            circuit.elements[self.element].kind = self.element_in(state, values)?;
+            Ok(circuit)
+        })
     }
 
     fn values_at(&self, u: &[f64]) -> Vec<f64> {
@@ -530,7 +579,9 @@ impl TuneProblem<'_> {
         progress: &mut dyn FnMut(usize),
     ) -> Result<TuneResult, TuneError> {
         self.validate()?;
-        let before = self.evaluator.evaluate(self.circuit)?;
+        let before = self
+            .evaluate_states(|state| Ok(state.clone()))
+            .map_err(TuneError::Baseline)?;
         let dims = self.bounds.len();
         let mut count = 0usize;
         let mut last_error = String::new();

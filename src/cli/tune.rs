@@ -57,6 +57,16 @@ pub struct TuneArgs {
     /// The pump (default: the first).
     #[arg(long, value_name = "NAME")]
     pump: Option<String>,
+    /// A fluid temperature range LOW..HIGH (e.g. `30degC..80degC`; a bare
+    /// number is kelvin): the ripple is evaluated with the oil at each of
+    /// `--temperature-steps` temperatures across it, so the design is robust
+    /// to the wave-speed drift between a cold and a hot circuit. Needs a
+    /// fluid given by a `grade` (or `viscosity_points`) and `temperature`.
+    #[arg(long, value_name = "LOW..HIGH")]
+    temperatures: Option<String>,
+    /// Number of temperatures across `--temperatures` (ends included).
+    #[arg(long, value_name = "N", default_value_t = 3)]
+    temperature_steps: usize,
 }
 
 fn parse_vary(text: &str) -> anyhow::Result<Bound> {
@@ -137,6 +147,7 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     }
     let loaded = common::load_circuit(Some(&args.file))?;
     let circuit = &loaded.circuit;
+    let (temperatures_k, fluid_states) = fluid_states(&args)?;
     let element = ranges::element(circuit, &args.element)?;
     let (tap_name, tap) = ranges::point(circuit, args.tap.as_deref())?;
     let pump_index = ranges::pump_index(circuit, args.pump.as_deref())?;
@@ -155,6 +166,7 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
         element,
         bounds,
         evaluator: evaluator.clone(),
+        fluid_states,
     };
     problem.validate().map_err(|e| UsageError(e.to_string()))?;
     let mut settings = SearchSettings::for_dims(problem.bounds.len());
@@ -178,24 +190,40 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
         .with_context(|| format!("tuning `{}` in {}", args.element, loaded.source))?;
     progress.finish();
 
-    // The ripple with the silencer taken out, for scale.
-    let without: Option<RippleSummary> = Chain::new(circuit, &[element])
-        .ok()
-        .and_then(|chain| {
-            let pipe = chain.reference_pipes(circuit).ok().and_then(|(up, _)| {
-                match &circuit.elements[up].kind {
+    // The ripple with the silencer taken out, for scale (over the same
+    // fluid states as the search).
+    let without_in =
+        |state: &ripline::Circuit| -> Option<RippleSummary> {
+            let chain = Chain::new(state, &[element]).ok()?;
+            let pipe = chain.reference_pipes(state).ok().and_then(|(up, _)| {
+                match &state.elements[up].kind {
                     ElementKind::Tube(t) => Some(*t),
                     _ => None,
                 }
             });
-            circuit_without(circuit, &chain, WithoutReference::Pipe, pipe.as_ref()).ok()
-        })
-        .and_then(|c| {
+            let c = circuit_without(state, &chain, WithoutReference::Pipe, pipe.as_ref()).ok()?;
             let (_, t) = ranges::point(&c, Some(&tap_name)).ok()?;
             RippleEvaluator::new(&c, pump_index, t, &conditions, objective)
                 .evaluate(&c)
                 .ok()
-        });
+        };
+    let without: Option<RippleSummary> = if problem.fluid_states.is_empty() {
+        without_in(circuit)
+    } else {
+        problem
+            .fluid_states
+            .iter()
+            .map(without_in)
+            .collect::<Option<Vec<_>>>()
+            .map(|all| {
+                let per_condition_pa: Vec<f64> =
+                    all.into_iter().flat_map(|s| s.per_condition_pa).collect();
+                RippleSummary {
+                    objective_pa: objective.over(&per_condition_pa),
+                    per_condition_pa,
+                }
+            })
+    };
 
     let e = &circuit.elements[element];
     let tuned = Element {
@@ -228,6 +256,17 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
         conditions.len(),
         speeds.source
     )?;
+    if !temperatures_k.is_empty() {
+        writeln!(
+            out,
+            "fluid temperatures: {} °C (each at every speed; density, bulk modulus and viscosity from the oil model)",
+            temperatures_k
+                .iter()
+                .map(|t| format!("{:.1}", t - 273.15))
+                .collect::<Vec<_>>()
+                .join(", ")
+        )?;
+    }
     writeln!(
         out,
         "search: {} in log scale over the bounds, then {}; {} ripple evaluations of {} network solves each",
@@ -304,19 +343,27 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
             20.0 * (w.objective_pa / result.after.objective_pa).log10()
         )?;
     }
-    if conditions.len() > 1 {
+    if result.after.per_condition_pa.len() > 1 {
         let (i, worst) = result
             .after
             .per_condition_pa
             .iter()
             .enumerate()
             .fold((0, 0.0), |b, (i, &v)| if v > b.1 { (i, v) } else { b });
-        writeln!(
-            out,
-            "  tuned, worst speed: {:.0} rpm with {}",
-            conditions[i].speed_rev_s * 60.0,
-            level(worst)
-        )?;
+        let speed = conditions[i % conditions.len()].speed_rev_s * 60.0;
+        match temperatures_k.get(i / conditions.len()) {
+            Some(t) => writeln!(
+                out,
+                "  tuned, worst condition: {speed:.0} rpm at {:.1} °C with {}",
+                t - 273.15,
+                level(worst)
+            )?,
+            None => writeln!(
+                out,
+                "  tuned, worst speed: {speed:.0} rpm with {}",
+                level(worst)
+            )?,
+        }
     }
     writeln!(out)?;
     writeln!(
@@ -355,6 +402,49 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     }
     out.flush()?;
     Ok(())
+}
+
+/// The circuit at each temperature of `--temperatures` (none without it).
+fn fluid_states(args: &TuneArgs) -> anyhow::Result<(Vec<f64>, Vec<ripline::Circuit>)> {
+    let Some(range) = &args.temperatures else {
+        return Ok((Vec::new(), Vec::new()));
+    };
+    if !(1..=20).contains(&args.temperature_steps) {
+        return Err(UsageError(format!(
+            "--temperature-steps must be between 1 and 20, found {}",
+            args.temperature_steps
+        ))
+        .into());
+    }
+    let (lo, hi) = ranges::parse_range("--temperatures", range, Dimension::Temperature, "K")?;
+    let n = args.temperature_steps;
+    let temperatures: Vec<f64> = if n == 1 {
+        vec![lo]
+    } else {
+        (0..n)
+            .map(|i| lo + (hi - lo) * i as f64 / (n - 1) as f64)
+            .collect()
+    };
+    let file = args.file.display().to_string();
+    let text = ripline::io::read_text(&args.file)?;
+    let states = temperatures
+        .iter()
+        .map(|&t| ripline::io::parse_circuit_at_temperature(&text, &file, t))
+        .collect::<Result<Vec<_>, _>>()
+        .with_context(|| format!("evaluating {file} at the temperatures of --temperatures"))?;
+    let fixed = ripline::io::circuit_file::fixed_fluid_keys(&text, &file)?;
+    if !fixed.is_empty() {
+        eprintln!(
+            "warning: {file}: fluid {} given explicitly, so {} not follow --temperatures",
+            fixed.join(", "),
+            if fixed.len() == 1 {
+                "it does"
+            } else {
+                "they do"
+            }
+        );
+    }
+    Ok((temperatures, states))
 }
 
 /// A value as it would be written in a circuit file.

@@ -403,6 +403,51 @@ pub fn parse_circuit(text: &str, file: &str) -> Result<Circuit, InputError> {
     Checker { text, file }.circuit(raw)
 }
 
+/// Parses circuit text as [`parse_circuit`] does, with the oil at another
+/// temperature (K): the fluid's temperature-dependent properties (density,
+/// bulk modulus, viscosity from a `grade` or `viscosity_points`) and every
+/// line built from them are evaluated at `temperature_k`. Explicit
+/// `density`, `bulk_modulus` or `viscosity` values stay as written.
+///
+/// # Errors
+/// [`InputError`] as for [`parse_circuit`], and when the fluid has no
+/// temperature model (neither `grade` nor `viscosity_points`).
+pub fn parse_circuit_at_temperature(
+    text: &str,
+    file: &str,
+    temperature_k: f64,
+) -> Result<Circuit, InputError> {
+    let mut raw: RawCircuit = super::parse_yaml(text, file)?;
+    if raw.fluid.grade.is_none() && raw.fluid.viscosity_points.is_none() {
+        return Err(InputError::located(
+            file,
+            text,
+            &KeyPath::root().key("fluid"),
+            "the fluid has no temperature model: give a `grade` (or `viscosity_points`) with a `temperature` to evaluate the circuit at other temperatures",
+        ));
+    }
+    raw.fluid.temperature = Some(Q::new(temperature_k));
+    Checker { text, file }.circuit(raw)
+}
+
+/// The explicit fluid values of a circuit text that do not follow the oil's
+/// temperature (`density`, `bulk_modulus`, `viscosity`), by key name.
+///
+/// # Errors
+/// [`InputError`] if the text does not parse.
+pub fn fixed_fluid_keys(text: &str, file: &str) -> Result<Vec<&'static str>, InputError> {
+    let raw: RawCircuit = super::parse_yaml(text, file)?;
+    let f = &raw.fluid;
+    Ok([
+        ("density", f.density.is_some()),
+        ("bulk_modulus", f.bulk_modulus.is_some()),
+        ("viscosity", f.viscosity.is_some()),
+    ]
+    .into_iter()
+    .filter_map(|(k, given)| given.then_some(k))
+    .collect())
+}
+
 /// Validates raw values; every error is located in the file.
 struct Checker<'a> {
     text: &'a str,

@@ -14,7 +14,7 @@ pub mod quantity;
 pub mod records;
 pub mod source_file;
 
-pub use circuit_file::{load_circuit, parse_circuit};
+pub use circuit_file::{load_circuit, parse_circuit, parse_circuit_at_temperature};
 
 use locate::KeyPath;
 use std::fmt;
