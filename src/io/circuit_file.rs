@@ -3,7 +3,7 @@
 //! Parsing happens in two steps. First the YAML is read into plain `Raw*`
 //! structs that mirror the file (unknown keys, wrong types and unknown units
 //! are rejected here by the parser, which knows the line and column). Then
-//! [`Checker`] validates values and cross-references and builds the model in
+//! `Checker` validates values and cross-references and builds the model in
 //! SI; its errors carry the key path, mapped back to a line by
 //! [`super::locate`]. The file format is documented in README.md.
 

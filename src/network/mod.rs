@@ -4,7 +4,7 @@
 //! (one pressure per node that is not held by a tank, plus two branch flows per
 //! element stamped by its transfer matrix) and records each element's matrix
 //! slots. Each frequency is then an independent, cheap evaluation: every
-//! element returns its [`Behaviour`], the plan scatters it into the nodal
+//! element returns its [`crate::elements::Behaviour`], the plan scatters it into the nodal
 //! admittance matrix Y, the pumps add their Norton shunts 1/Zs, and
 //! `Y P = J` is solved by dense LU with partial pivoting (methods.md §7.1).
 //!
