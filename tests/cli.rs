@@ -291,7 +291,7 @@ const BAD_FILES: &[(&str, &str)] = &[
     ),
     (
         "rigid_with_material.yaml",
-        "a rigid tube takes no `material`, `youngs_modulus`",
+        "a rigid tube takes no `wall`, `material`, `youngs_modulus`",
     ),
     (
         "material_and_modulus.yaml",

@@ -220,10 +220,10 @@ pub struct SweepResult {
     /// Grid frequencies solved close to an undamped resonance
     /// (ill-conditioned; see `diagnostics::conditioning_warning`).
     pub warnings: Vec<Warning>,
-    /// Peak amplitudes in Pa, indexed [speed][point][order].
+    /// Peak amplitudes in Pa, indexed by speed, then point, then order.
     amplitudes_pa: Vec<f64>,
     /// Mean squares Σ|P|²/2 in Pa² from the pumps on other shafts, indexed
-    /// [speed][point].
+    /// by speed, then point.
     other_ms_pa2: Vec<f64>,
 }
 

@@ -10,6 +10,7 @@
 use super::InputError;
 use super::locate::KeyPath;
 use super::quantity::{self as q, Q};
+use super::validate::{FileCheck, Res, WallKeys, WallModel};
 use crate::estimate::bench::{
     Bench, BenchPump, Condition, ConditionKind, DataFile, Extraction, ImpedanceFit, Method,
     ReferenceLine, SpeedOfSound, Synthesis, Termination, Transducer,
@@ -19,7 +20,6 @@ use crate::fluid::Fluid;
 use crate::line::LineModel;
 use crate::source::{FlowHarmonic, FlowRipple, SourceImpedance};
 use crate::units::{Dimension, parse_quantity};
-use crate::wall::{Material, Wall};
 use serde::Deserialize;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -78,6 +78,8 @@ struct RawLine {
     wall: Option<Q<q::Length>>,
     material: Option<String>,
     youngs_modulus: Option<Q<q::Modulus>>,
+    poisson_ratio: Option<Q<q::Ratio>>,
+    wall_model: Option<WallModel>,
     rigid: Option<bool>,
     model: Option<RawLineModel>,
 }
@@ -241,34 +243,21 @@ pub fn load_bench(path: &Path) -> Result<Bench, InputError> {
 /// [`InputError`] naming the file, the line and the key at fault.
 pub fn parse_bench(text: &str, file: &str) -> Result<Bench, InputError> {
     let raw: RawBench = super::parse_yaml(text, file)?;
-    Checker { text, file }.bench(raw)
+    Checker(FileCheck { text, file }).bench(raw)
 }
 
-struct Checker<'a> {
-    text: &'a str,
-    file: &'a str,
-}
+/// Validates raw values; every error is located in the file (the shared
+/// checks of [`FileCheck`] through `Deref`).
+struct Checker<'a>(FileCheck<'a>);
 
-type Res<T> = Result<T, InputError>;
+impl<'a> std::ops::Deref for Checker<'a> {
+    type Target = FileCheck<'a>;
+    fn deref(&self) -> &FileCheck<'a> {
+        &self.0
+    }
+}
 
 impl Checker<'_> {
-    fn err(&self, path: &KeyPath, message: impl Into<String>) -> InputError {
-        InputError::located(self.file, self.text, path, message)
-    }
-
-    fn range(&self, path: &KeyPath, v: f64, lo: f64, hi: f64, unit: &str) -> Res<f64> {
-        if v <= 0.0 && lo > 0.0 {
-            return Err(self.err(path, format!("must be greater than zero, found {v} {unit}")));
-        }
-        if !(lo..=hi).contains(&v) {
-            return Err(self.err(
-                path,
-                format!("{v} {unit} is outside the plausible range {lo:e} .. {hi:e} {unit}: check the unit (a bare number is SI)"),
-            ));
-        }
-        Ok(v)
-    }
-
     fn base(&self) -> PathBuf {
         Path::new(self.file)
             .parent()
@@ -285,21 +274,21 @@ impl Checker<'_> {
         let root = KeyPath::root();
         let fp = root.key("fluid");
         let fluid = Fluid {
-            density_kg_m3: self.range(
+            density_kg_m3: self.in_range(
                 &fp.key("density"),
                 raw.fluid.density.si,
                 100.0,
                 3000.0,
                 "kg/m³",
             )?,
-            bulk_modulus_pa: self.range(
+            bulk_modulus_pa: self.in_range(
                 &fp.key("bulk_modulus"),
                 raw.fluid.bulk_modulus.si,
                 1e6,
                 1e11,
                 "Pa",
             )?,
-            kinematic_viscosity_m2_s: self.range(
+            kinematic_viscosity_m2_s: self.in_range(
                 &fp.key("viscosity"),
                 raw.fluid.viscosity.si,
                 1e-8,
@@ -310,7 +299,13 @@ impl Checker<'_> {
         let pp = root.key("pump");
         let pump = BenchPump {
             name: raw.pump.name.clone().unwrap_or_else(|| "pump".into()),
-            speed_rev_s: self.range(&pp.key("speed"), raw.pump.speed.si, 0.1, 1000.0, "rev/s")?,
+            speed_rev_s: self.in_range(
+                &pp.key("speed"),
+                raw.pump.speed.si,
+                0.1,
+                1000.0,
+                "rev/s",
+            )?,
             pumping_elements: match raw.pump.pumping_elements {
                 z @ 1..=99 => z,
                 z => {
@@ -346,7 +341,7 @@ impl Checker<'_> {
                         self.err(&sp, format!("{e}; or write `in_situ` or `from_fluid`"))
                     })?,
                 };
-                SpeedOfSound::Fixed(self.range(&sp, v, 100.0, 3000.0, "m/s")?)
+                SpeedOfSound::Fixed(self.in_range(&sp, v, 100.0, 3000.0, "m/s")?)
             }
         };
         if speed_of_sound == SpeedOfSound::InSitu && transducers.len() < 3 {
@@ -375,7 +370,7 @@ impl Checker<'_> {
         };
         let max_condition = match raw.max_condition {
             None => 10.0,
-            Some(v) => self.range(&root.key("max_condition"), v, 1.0, 1e6, "")?,
+            Some(v) => self.in_range(&root.key("max_condition"), v, 1.0, 1e6, "")?,
         };
         let extraction = match &raw.extraction {
             None => Extraction::default(),
@@ -387,7 +382,7 @@ impl Checker<'_> {
                 }
                 let tol = match e.speed_tolerance {
                     None => 0.05,
-                    Some(t) => self.range(&ep.key("speed_tolerance"), t.si, 1e-4, 0.2, "")?,
+                    Some(t) => self.in_range(&ep.key("speed_tolerance"), t.si, 1e-4, 0.2, "")?,
                 };
                 Extraction {
                     segments,
@@ -462,57 +457,20 @@ impl Checker<'_> {
     }
 
     fn line(&self, lp: &KeyPath, raw: &RawLine) -> Res<ReferenceLine> {
-        let bore = self.range(&lp.key("bore"), raw.bore.si, 1e-3, 0.5, "m")?;
-        let wall = match (raw.rigid, raw.wall) {
-            (Some(true), None) if raw.material.is_none() && raw.youngs_modulus.is_none() => {
-                Wall::Rigid
-            }
-            (Some(true), _) => {
-                return Err(self.err(
-                    &lp.key("rigid"),
-                    "a rigid line takes no `wall`, `material` or `youngs_modulus`",
-                ));
-            }
-            (_, None) => {
-                return Err(self.err(lp, "the reference line needs its wall: `wall` (thickness) with `material` or `youngs_modulus`, or `rigid: true`"));
-            }
-            (_, Some(w)) => {
-                let t = self.range(&lp.key("wall"), w.si, 1e-5, 0.2, "m")?;
-                if t >= bore / 2.0 {
-                    return Err(self.err(
-                        &lp.key("wall"),
-                        format!(
-                            "wall thickness {:.3} mm is not less than the bore radius {:.3} mm",
-                            t * 1e3,
-                            bore * 5e2
-                        ),
-                    ));
-                }
-                let e = match (&raw.material, raw.youngs_modulus) {
-                    (Some(m), None) => Material::from_name(m)
-                        .ok_or_else(|| {
-                            self.err(&lp.key("material"), format!(
-                            "unknown material `{m}`; use one of: {} (or give `youngs_modulus`)",
-                            Material::ALL.map(|m| m.name()).join(", ")
-                        ))
-                        })?
-                        .youngs_modulus_pa(),
-                    (None, Some(e)) => {
-                        self.range(&lp.key("youngs_modulus"), e.si, 1e6, 1e12, "Pa")?
-                    }
-                    _ => {
-                        return Err(self.err(
-                            &lp.key("wall"),
-                            "give the wall's `material` or its `youngs_modulus` (one of them)",
-                        ));
-                    }
-                };
-                Wall::Elastic {
-                    thickness_m: t,
-                    youngs_modulus_pa: e,
-                }
-            }
-        };
+        let bore = self.in_range(&lp.key("bore"), raw.bore.si, 1e-3, 0.5, "m")?;
+        let wall = self.wall(
+            lp,
+            &WallKeys {
+                rigid: raw.rigid,
+                wall: raw.wall.map(|w| w.si),
+                material: raw.material.as_deref(),
+                youngs_modulus: raw.youngs_modulus.map(|y| y.si),
+                poisson_ratio: raw.poisson_ratio.map(|p| p.si),
+                wall_model: raw.wall_model,
+            },
+            bore,
+            "reference line",
+        )?;
         Ok(ReferenceLine {
             radius_m: bore / 2.0,
             wall,
@@ -546,7 +504,7 @@ impl Checker<'_> {
                     format!("duplicate transducer name `{}`", t.name),
                 ));
             }
-            let x = self.range(&p.key("position"), t.position.si, 0.0, 100.0, "m")?;
+            let x = self.in_range(&p.key("position"), t.position.si, 0.0, 100.0, "m")?;
             if let Some(prev) = out.last().filter(|o| x <= o.position_m + 1e-6) {
                 return Err(self.err(&p.key("position"), format!(
                     "transducers must be listed in increasing distance from the pump, at distinct positions ({x} m after {} m)",
@@ -588,7 +546,7 @@ impl Checker<'_> {
             (RawKind::SecondarySource, Some(s)) => {
                 let sp = cp.key("secondary_source");
                 ConditionKind::SecondarySource {
-                    fundamental_hz: self.range(
+                    fundamental_hz: self.in_range(
                         &sp.key("fundamental"),
                         s.fundamental.si,
                         1.0,
@@ -597,14 +555,16 @@ impl Checker<'_> {
                     )?,
                     flow_m3_s: match s.flow {
                         None => None,
-                        Some(f) => Some(self.range(&sp.key("flow"), f.si, 1e-12, 1.0, "m³/s")?),
+                        Some(f) => {
+                            Some(self.in_range(&sp.key("flow"), f.si, 1e-12, 1.0, "m³/s")?)
+                        }
                     },
                 }
             }
         };
         let line_length_m = match c.line_length {
             None => None,
-            Some(l) => Some(self.range(&cp.key("line_length"), l.si, 1e-3, 1e3, "m")?),
+            Some(l) => Some(self.in_range(&cp.key("line_length"), l.si, 1e-3, 1e3, "m")?),
         };
         let termination = match &c.termination {
             None => None,
@@ -613,13 +573,17 @@ impl Checker<'_> {
                 Some(Termination {
                     resistance_pa_s_m3: match t.resistance {
                         None => None,
-                        Some(r) => {
-                            Some(self.range(&tp.key("resistance"), r.si, 1e3, 1e18, "Pa·s/m³")?)
-                        }
+                        Some(r) => Some(self.in_range(
+                            &tp.key("resistance"),
+                            r.si,
+                            1e3,
+                            1e18,
+                            "Pa·s/m³",
+                        )?),
                     },
                     volume_m3: match t.volume {
                         None => None,
-                        Some(v) => Some(self.range(&tp.key("volume"), v.si, 0.0, 10.0, "m³")?),
+                        Some(v) => Some(self.in_range(&tp.key("volume"), v.si, 0.0, 10.0, "m³")?),
                     },
                 })
             }
@@ -653,7 +617,9 @@ impl Checker<'_> {
             (Some(f), None) => {
                 let sample_rate_hz = match c.sample_rate.or(defaults.and_then(|d| d.sample_rate)) {
                     None => None,
-                    Some(r) => Some(self.range(&cp.key("sample_rate"), r.si, 10.0, 1e7, "Hz")?),
+                    Some(r) => {
+                        Some(self.in_range(&cp.key("sample_rate"), r.si, 10.0, 1e7, "Hz")?)
+                    }
                 };
                 let time_column = c
                     .time_column
@@ -711,7 +677,7 @@ impl Checker<'_> {
                     }
                     harmonics.push(FlowHarmonic {
                         order: h.harmonic,
-                        amplitude_m3_s: self.range(
+                        amplitude_m3_s: self.in_range(
                             &hp.key("amplitude"),
                             h.amplitude.si,
                             0.0,
@@ -722,10 +688,10 @@ impl Checker<'_> {
                     });
                 }
                 let zp = sp.key("source_impedance");
-                let volume = self.range(&zp.key("volume"), z.volume.si, 0.0, 1.0, "m³")?;
+                let volume = self.in_range(&zp.key("volume"), z.volume.si, 0.0, 1.0, "m³")?;
                 let leak = match z.leakage_resistance {
                     None => None,
-                    Some(r) => Some(self.range(
+                    Some(r) => Some(self.in_range(
                         &zp.key("leakage_resistance"),
                         r.si,
                         1e3,
@@ -773,11 +739,11 @@ impl Checker<'_> {
             seed: s.seed.unwrap_or(1),
             duration_s: match s.duration {
                 None => 1.0,
-                Some(d) => self.range(&sp.key("duration"), d.si, 1e-3, 600.0, "s")?,
+                Some(d) => self.in_range(&sp.key("duration"), d.si, 1e-3, 600.0, "s")?,
             },
             sample_rate_hz: match s.sample_rate {
                 None => None,
-                Some(r) => Some(self.range(&sp.key("sample_rate"), r.si, 10.0, 1e7, "Hz")?),
+                Some(r) => Some(self.in_range(&sp.key("sample_rate"), r.si, 10.0, 1e7, "Hz")?),
             },
             speed_error: ratio("speed_error", s.speed_error, -0.1, 0.1, 0.0)?,
             mean_pressure_pa: s.mean_pressure.map_or(0.0, |p| p.si),

@@ -13,6 +13,7 @@ use super::InputError;
 use super::gas_pressure::GasPressure;
 use super::locate::KeyPath;
 use super::quantity::{self as q, Q};
+use super::validate::{FileCheck, Res, WallKeys, WallModel};
 use crate::circuit::{Circuit, Node, Tap, TapLocation};
 use crate::elements::{
     Anechoic, Connection, Element, ElementKind, ExpansionChamber, HelmholtzResonator, Hose,
@@ -26,8 +27,6 @@ use crate::hose::{
 use crate::line::{Line, LineModel, LineProperties, MeanFlow};
 use crate::oil::{self, Grade, OilData, Walther};
 use crate::source::{FlowHarmonic, FlowRipple, KinematicRipple, Pump};
-use crate::units::format_sig;
-use crate::wall::{DEFAULT_POISSON_RATIO, Material, Wall};
 use pumps::{RawGear, RawPiston, RawSourceImpedance};
 use serde::Deserialize;
 use std::collections::HashSet;
@@ -96,13 +95,6 @@ impl From<RawLineModel> for LineModel {
             RawLineModel::Turbulent => LineModel::Turbulent,
         }
     }
-}
-
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
-#[serde(rename_all = "snake_case")]
-enum RawWallModel {
-    Thin,
-    Thick,
 }
 
 #[derive(Debug, Deserialize)]
@@ -201,7 +193,7 @@ struct RawElement {
     pressure_drop: Option<Q<q::Pressure>>,
     inertance: Option<Q<q::Inertance>>,
     line: Option<String>,
-    wall_model: Option<RawWallModel>,
+    wall_model: Option<WallModel>,
     poisson_ratio: Option<Q<q::Ratio>>,
     construction: Option<String>,
     wave_speed: Option<Q<q::Velocity>>,
@@ -400,7 +392,7 @@ pub fn load_circuit(path: &Path) -> Result<Circuit, InputError> {
 /// [`InputError`] naming the file, the line and the key at fault.
 pub fn parse_circuit(text: &str, file: &str) -> Result<Circuit, InputError> {
     let raw: RawCircuit = super::parse_yaml(text, file)?;
-    Checker { text, file }.circuit(raw)
+    Checker(FileCheck { text, file }).circuit(raw)
 }
 
 /// Parses circuit text as [`parse_circuit`] does, with the oil at another
@@ -427,7 +419,7 @@ pub fn parse_circuit_at_temperature(
         ));
     }
     raw.fluid.temperature = Some(Q::new(temperature_k));
-    Checker { text, file }.circuit(raw)
+    Checker(FileCheck { text, file }).circuit(raw)
 }
 
 /// The explicit fluid values of a circuit text that do not follow the oil's
@@ -448,36 +440,18 @@ pub fn fixed_fluid_keys(text: &str, file: &str) -> Result<Vec<&'static str>, Inp
     .collect())
 }
 
-/// Validates raw values; every error is located in the file.
-struct Checker<'a> {
-    text: &'a str,
-    file: &'a str,
+/// Validates raw values; every error is located in the file (the shared
+/// checks of [`FileCheck`] through `Deref`).
+struct Checker<'a>(FileCheck<'a>);
+
+impl<'a> std::ops::Deref for Checker<'a> {
+    type Target = FileCheck<'a>;
+    fn deref(&self) -> &FileCheck<'a> {
+        &self.0
+    }
 }
 
-type Res<T> = Result<T, InputError>;
-
 impl Checker<'_> {
-    fn err(&self, path: &KeyPath, message: impl Into<String>) -> InputError {
-        InputError::located(self.file, self.text, path, message)
-    }
-
-    /// A value within [lo, hi] (SI), with a message naming the range.
-    fn in_range(&self, path: &KeyPath, value: f64, lo: f64, hi: f64, unit: &str) -> Res<f64> {
-        let v = format_sig(value, 6);
-        if value <= 0.0 && lo > 0.0 {
-            return Err(self.err(path, format!("must be greater than zero, found {v} {unit}")));
-        }
-        if !(lo..=hi).contains(&value) {
-            return Err(self.err(
-                path,
-                format!(
-                    "{v} {unit} is outside the plausible range {lo:e} .. {hi:e} {unit}: check the unit (a bare number is SI)"
-                ),
-            ));
-        }
-        Ok(value)
-    }
-
     fn circuit(&self, raw: RawCircuit) -> Res<Circuit> {
         let root = KeyPath::root();
         let fluid = self.fluid(&root.key("fluid"), &raw.fluid)?;
@@ -954,30 +928,19 @@ impl Checker<'_> {
 
     fn tube(&self, path: &KeyPath, e: &RawElement, fluid: &Fluid, default: LineModel) -> Res<Tube> {
         let (length, bore) = self.line_geometry(path, e)?;
-        let wall = match (e.rigid, e.wall) {
-            (Some(true), Some(_)) | (Some(true), None)
-                if e.material.is_some()
-                    || e.youngs_modulus.is_some()
-                    || e.poisson_ratio.is_some()
-                    || e.wall_model.is_some() =>
-            {
-                return Err(self.err(
-                    &path.key("rigid"),
-                    "a rigid tube takes no `material`, `youngs_modulus`, `poisson_ratio` or `wall_model`",
-                ));
-            }
-            (Some(true), _) => Wall::Rigid,
-            (_, None) => {
-                return Err(self.err(
-                    path,
-                    format!(
-                        "a `{}` needs its wall: give `wall` (thickness) with `material` or `youngs_modulus`, or say `rigid: true`",
-                        e.kind.name()
-                    ),
-                ));
-            }
-            (_, Some(w)) => self.elastic_wall(path, e, w.si, bore)?,
-        };
+        let wall = self.wall(
+            path,
+            &WallKeys {
+                rigid: e.rigid,
+                wall: e.wall.map(|w| w.si),
+                material: e.material.as_deref(),
+                youngs_modulus: e.youngs_modulus.map(|y| y.si),
+                poisson_ratio: e.poisson_ratio.map(|p| p.si),
+                wall_model: e.wall_model,
+            },
+            bore,
+            e.kind.name(),
+        )?;
         let properties = LineProperties {
             radius_m: bore / 2.0,
             density_kg_m3: fluid.density_kg_m3,
@@ -994,98 +957,6 @@ impl Checker<'_> {
             },
             wall,
         })
-    }
-
-    /// An elastic tube wall: thick (Lamé, the default) or thin (Korteweg).
-    fn elastic_wall(&self, path: &KeyPath, e: &RawElement, thickness: f64, bore: f64) -> Res<Wall> {
-        let thickness = self.in_range(&path.key("wall"), thickness, 1e-5, 0.5, "m")?;
-        let thick = e.wall_model.unwrap_or(RawWallModel::Thick) == RawWallModel::Thick;
-        if !thick && thickness >= bore / 2.0 {
-            return Err(self.err(
-                &path.key("wall"),
-                format!(
-                    "wall thickness {:.3} mm is not less than the bore radius {:.3} mm: the thin-wall (Korteweg) model does not hold; use `wall_model: thick` (Lamé) or check the values",
-                    thickness * 1e3,
-                    bore * 5e2
-                ),
-            ));
-        }
-        if thick && thickness > 5.0 * bore {
-            return Err(self.err(
-                &path.key("wall"),
-                format!(
-                    "wall thickness {:.3} mm is more than 5 times the bore {:.3} mm: check the values (a passage in a solid block is better modelled with `rigid: true`)",
-                    thickness * 1e3,
-                    bore * 1e3
-                ),
-            ));
-        }
-        let (modulus, poisson) = match (&e.material, e.youngs_modulus) {
-            (Some(_), Some(_)) => {
-                return Err(self.err(
-                    &path.key("youngs_modulus"),
-                    "give either `material` or `youngs_modulus`, not both",
-                ));
-            }
-            (Some(m), None) => {
-                let material = Material::from_name(m).ok_or_else(|| {
-                    self.err(
-                        &path.key("material"),
-                        format!(
-                            "unknown material `{m}`; use one of: {} (or give `youngs_modulus`)",
-                            Material::ALL.map(|m| m.name()).join(", ")
-                        ),
-                    )
-                })?;
-                if e.poisson_ratio.is_some() {
-                    return Err(self.err(
-                        &path.key("poisson_ratio"),
-                        "a `material` brings its own Poisson's ratio: give `poisson_ratio` only with `youngs_modulus`",
-                    ));
-                }
-                (material.youngs_modulus_pa(), material.poisson_ratio())
-            }
-            (None, Some(ey)) => {
-                let ey = self.in_range(&path.key("youngs_modulus"), ey.si, 1e6, 1e12, "Pa")?;
-                let nu = match e.poisson_ratio {
-                    Some(nu) if (0.0..0.5).contains(&nu.si) => nu.si,
-                    Some(nu) => {
-                        return Err(self.err(
-                            &path.key("poisson_ratio"),
-                            format!(
-                                "Poisson's ratio must be at least 0 and below 0.5, found {}",
-                                nu.si
-                            ),
-                        ));
-                    }
-                    None => DEFAULT_POISSON_RATIO,
-                };
-                (ey, nu)
-            }
-            (None, None) => {
-                return Err(self.err(
-                    &path.key("wall"),
-                    "a tube wall needs `material` or `youngs_modulus`",
-                ));
-            }
-        };
-        if thick {
-            Ok(Wall::ThickElastic {
-                thickness_m: thickness,
-                youngs_modulus_pa: modulus,
-                poisson_ratio: poisson,
-            })
-        } else if e.poisson_ratio.is_some() {
-            Err(self.err(
-                &path.key("poisson_ratio"),
-                "the thin-wall model does not use Poisson's ratio: drop it, or use `wall_model: thick`",
-            ))
-        } else {
-            Ok(Wall::Elastic {
-                thickness_m: thickness,
-                youngs_modulus_pa: modulus,
-            })
-        }
     }
 
     fn hose(&self, path: &KeyPath, e: &RawElement, fluid: &Fluid, default: LineModel) -> Res<Hose> {

@@ -13,6 +13,7 @@ pub mod output;
 pub mod quantity;
 pub mod records;
 pub mod source_file;
+mod validate;
 
 pub use circuit_file::{load_circuit, parse_circuit, parse_circuit_at_temperature};
 
