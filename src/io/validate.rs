@@ -184,3 +184,60 @@ impl FileCheck<'_> {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const TEXT: &str = "line:\n  bore: 10 mm\n  wall: 2 mm\n";
+
+    fn check() -> FileCheck<'static> {
+        FileCheck {
+            text: TEXT,
+            file: "t.yaml",
+        }
+    }
+
+    #[test]
+    fn walls_default_to_thick_and_errors_are_located() {
+        let path = KeyPath::root().key("line");
+        let keys = WallKeys {
+            wall: Some(2e-3),
+            material: Some("steel"),
+            ..WallKeys::default()
+        };
+        assert!(matches!(
+            check().wall(&path, &keys, 10e-3, "tube").unwrap(),
+            Wall::ThickElastic { .. }
+        ));
+        let thin = WallKeys {
+            wall_model: Some(WallModel::Thin),
+            ..keys
+        };
+        assert!(matches!(
+            check().wall(&path, &thin, 10e-3, "tube").unwrap(),
+            Wall::Elastic { .. }
+        ));
+        let rigid = WallKeys {
+            rigid: Some(true),
+            ..keys
+        };
+        let msg = check()
+            .wall(&path, &rigid, 10e-3, "reference line")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            msg.starts_with("t.yaml:") && msg.contains("a rigid reference line takes no"),
+            "{msg}"
+        );
+        let none = WallKeys::default();
+        let msg = check()
+            .wall(&path, &none, 10e-3, "tube")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            msg.contains("t.yaml:1:1: line: a `tube` needs its wall"),
+            "{msg}"
+        );
+    }
+}
