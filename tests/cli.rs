@@ -1602,3 +1602,29 @@ fn tune_over_a_fluid_temperature_range() {
     assert!(stderr(&o).contains("the fluid has no temperature model"));
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+#[test]
+fn sweep_accepts_the_option_names_of_the_other_commands() {
+    // `--speed-range` and `--tap` (as in response, silencer and tune) are
+    // aliases of sweep's `--speed` and `--point`.
+    let a = ripline(&[
+        "sweep",
+        "--speed",
+        "1400..1600",
+        "--step",
+        "50",
+        "--point",
+        "tee",
+    ]);
+    let b = ripline(&[
+        "sweep",
+        "--speed-range",
+        "1400..1600",
+        "--step",
+        "50",
+        "--tap",
+        "tee",
+    ]);
+    assert!(a.status.success(), "{}", stderr(&a));
+    assert_eq!(stdout(&a), stdout(&b));
+}

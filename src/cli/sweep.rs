@@ -39,7 +39,7 @@ pub struct SweepArgs {
     file: Option<PathBuf>,
     /// Speed range LOW..HIGH, in rpm unless a unit is given (e.g.
     /// "600..3000"); default: the pump's `speed_range`.
-    #[arg(long, value_name = "LOW..HIGH")]
+    #[arg(long, value_name = "LOW..HIGH", visible_alias = "speed-range")]
     speed: Option<String>,
     /// Speed step, in rpm unless a unit is given; default: the range / 200.
     #[arg(long, value_name = "STEP")]
@@ -65,7 +65,7 @@ pub struct SweepArgs {
     db_ref: String,
     /// The measurement point shown on the map; default: the one with the
     /// highest level.
-    #[arg(long, value_name = "NAME")]
+    #[arg(long, value_name = "NAME", visible_alias = "tap")]
     point: Option<String>,
     /// Write the full grid as CSV (speed_rpm,point,harmonic,frequency_hz,amplitude_pa).
     #[arg(long, value_name = "FILE")]
