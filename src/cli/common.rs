@@ -228,3 +228,13 @@ pub fn level_text(rms: f64, p_ref: f64) -> String {
         "no ripple".to_string()
     }
 }
+
+/// Moves the staged output files into place. Commands call it once every
+/// result is computed and before the report is printed, so that a closed
+/// standard output (`ripline … | head`) cannot lose files whose contents are
+/// complete; a command that fails earlier drops its staged files unwritten.
+pub fn commit(outputs: StagedOutputs) -> anyhow::Result<()> {
+    outputs
+        .commit()
+        .context("moving the output files into place")
+}

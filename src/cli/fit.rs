@@ -145,10 +145,8 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
     for w in &report.warnings {
         eprintln!("warning: {w}");
     }
+    common::commit(outputs)?;
     print_report(&args.file, &bench, &report)?;
-    outputs
-        .commit()
-        .context("moving the output files into place")?;
     Ok(())
 }
 

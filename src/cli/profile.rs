@@ -78,10 +78,8 @@ pub fn run(args: ProfileArgs) -> anyhow::Result<()> {
             .stage_with(path, |tmp| plot::line_chart(tmp, &chart))
             .with_context(|| format!("drawing {}", path.display()))?;
     }
+    common::commit(outputs)?;
     print_profile(&loaded.source, circuit, &profile)?;
-    outputs
-        .commit()
-        .context("moving the output files into place")?;
     Ok(())
 }
 

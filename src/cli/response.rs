@@ -79,6 +79,7 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
             .with_context(|| format!("drawing {}", path.display()))?;
     }
     let load = load_at_harmonics(&plan, pump_index)?;
+    common::commit(outputs)?;
     let mut out = std::io::stdout().lock();
     writeln!(out, "ripline response: {}", loaded.source)?;
     if let Some(title) = &circuit.title {
@@ -113,10 +114,6 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
     writeln!(out)?;
     print_load(&mut out, pump, &load, &response)?;
     out.flush()?;
-    drop(out);
-    outputs
-        .commit()
-        .context("moving the output files into place")?;
     Ok(())
 }
 

@@ -223,6 +223,7 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
             .with_context(|| format!("drawing {}", path.display()))?;
     }
 
+    common::commit(outputs)?;
     let mut out = std::io::stdout().lock();
     writeln!(out, "ripline silencer: {}", loaded.source)?;
     if let Some(title) = &circuit.title {
@@ -336,10 +337,6 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
         writeln!(out, "{PRESSURE_VESSEL_CAUTION}")?;
     }
     out.flush()?;
-    drop(out);
-    outputs
-        .commit()
-        .context("moving the output files into place")?;
     Ok(())
 }
 

@@ -96,10 +96,8 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
             .stage_with(path, |tmp| plot::grouped_bar_chart(tmp, &chart))
             .with_context(|| format!("drawing {}", path.display()))?;
     }
+    common::commit(outputs)?;
     print_report(&loaded.source, circuit, &shafts, &reports, p_ref)?;
-    outputs
-        .commit()
-        .context("moving the output files into place")?;
     Ok(())
 }
 

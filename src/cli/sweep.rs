@@ -235,10 +235,8 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
             .stage_with(&levels, |tmp| plot::line_chart(tmp, &chart))
             .with_context(|| format!("drawing {}", levels.display()))?;
     }
+    common::commit(outputs)?;
     print_report(&loaded.source, circuit, &result, &resonances, p_ref)?;
-    outputs
-        .commit()
-        .context("moving the output files into place")?;
     Ok(())
 }
 

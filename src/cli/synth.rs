@@ -11,6 +11,7 @@ use ripline::estimate::synth;
 use ripline::io::output::StagedOutputs;
 use ripline::io::records::{write_spectra, write_time_record};
 use ripline::units::Dimension;
+use std::io::Write;
 use std::path::{Path, PathBuf};
 
 #[derive(Debug, Args)]
@@ -168,8 +169,10 @@ pub fn run(args: SynthArgs) -> anyhow::Result<()> {
         written.push(format!("condition `{}`: {}", cond.name, target.display()));
     }
     outputs.commit().context("moving the records into place")?;
+    let mut out = std::io::stdout().lock();
     for w in written {
-        println!("wrote {w}");
+        writeln!(out, "wrote {w}")?;
     }
+    out.flush()?;
     Ok(())
 }
