@@ -1628,3 +1628,24 @@ fn sweep_accepts_the_option_names_of_the_other_commands() {
     assert!(a.status.success(), "{}", stderr(&a));
     assert_eq!(stdout(&a), stdout(&b));
 }
+
+#[test]
+fn a_closed_stdout_keeps_the_output_files_and_exits_0() {
+    // `ripline solve --csv F | head -1`: the reader goes away before the
+    // report is printed; the complete CSV must still be written.
+    let dir = scratch("pipe");
+    let csv = dir.join("ripple.csv");
+    let mut child = Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(["solve", "--csv", csv.to_str().unwrap()])
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    drop(child.stdout.take()); // close the read end at once
+    let status = child.wait().unwrap();
+    assert!(status.success(), "{status:?}");
+    let text = std::fs::read_to_string(&csv).unwrap();
+    assert_eq!(text.lines().count(), 1 + 5 * 10);
+    std::fs::remove_dir_all(dir).unwrap();
+}
