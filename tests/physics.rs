@@ -572,8 +572,8 @@ fn laminar_line_resonance_peaks() {
     assert!(z.re > 0.0, "passive");
 }
 
-fn golden_max(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64) -> (f64, f64) {
-    // coarse scan, then golden-section refinement
+fn golden_max(f: impl Fn(f64) -> f64, a: f64, b: f64) -> (f64, f64) {
+    // coarse scan, then the library's golden-section refinement
     let n = 400;
     let mut best = a;
     for i in 0..=n {
@@ -583,19 +583,7 @@ fn golden_max(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64) -> (f64, f64) {
         }
     }
     let step = (b - a) / n as f64;
-    (a, b) = (best - step, best + step);
-    let r = (5f64.sqrt() - 1.0) / 2.0;
-    for _ in 0..100 {
-        let c = b - r * (b - a);
-        let d = a + r * (b - a);
-        if f(c) > f(d) {
-            b = d;
-        } else {
-            a = c;
-        }
-    }
-    let x = 0.5 * (a + b);
-    (x, f(x))
+    ripline::analysis::search::golden_section_max(&f, best - step, best + step, 100)
 }
 
 // ---------------------------------------------------------------------------

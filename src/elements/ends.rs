@@ -1,6 +1,6 @@
 //! Terminations that are not just a node condition.
 
-use crate::line::LineProperties;
+use crate::line::{LineProperties, Propagation};
 use num_complex::Complex64 as C64;
 
 /// A non-reflecting end of a line: the shunt admittance 1/Zc(ω) of the line
@@ -13,8 +13,9 @@ pub struct Anechoic {
 }
 
 impl Anechoic {
-    /// Shunt admittance 1/Zc(ω).
-    pub fn admittance(&self, omega: f64) -> C64 {
-        self.line.propagation(omega).zc.inv()
+    /// Shunt admittance 1/Zc(ω), given the propagation of its line at ω
+    /// (the network evaluates each distinct line once per frequency).
+    pub fn admittance(&self, line: &Propagation) -> C64 {
+        line.zc.inv()
     }
 }

@@ -216,7 +216,7 @@ impl ElementKind {
             ElementKind::LoadValve(v) => {
                 Behaviour::Shunt(C64::new(1.0 / v.resistance_pa_s_m3, 0.0))
             }
-            ElementKind::Anechoic(_) => Behaviour::Shunt(line().zc.inv()),
+            ElementKind::Anechoic(a) => Behaviour::Shunt(a.admittance(line())),
             ElementKind::ClosedEnd | ElementKind::Tank => Behaviour::Nothing,
             ElementKind::SideBranch(s) => Behaviour::Shunt(s.admittance(line())),
             ElementKind::ExpansionChamber(c) => c.behaviour(line()),
