@@ -3,7 +3,7 @@
 use super::{EXIT_COMPUTE, EXIT_INPUT};
 use anyhow::Context;
 use ripline::io::InputError;
-use ripline::io::output::StagedOutputs;
+use ripline::io::output::{OutputError, StagedOutputs};
 use ripline::source::{Shaft, shafts};
 use ripline::units::{Dimension, parse_quantity};
 use ripline::{Circuit, demo};
@@ -69,7 +69,7 @@ pub fn cli_quantity(
 pub fn exit_code(err: &anyhow::Error) -> u8 {
     let input = err
         .chain()
-        .any(|c| c.is::<InputError>() || c.is::<UsageError>());
+        .any(|c| c.is::<InputError>() || c.is::<UsageError>() || c.is::<OutputError>());
     if input { EXIT_INPUT } else { EXIT_COMPUTE }
 }
 
@@ -227,6 +227,40 @@ pub fn level_text(rms: f64, p_ref: f64) -> String {
     } else {
         "no ripple".to_string()
     }
+}
+
+/// The output files of a command as one all-or-nothing group, checked before
+/// any work: each target is a file name in a folder that exists and takes a
+/// new file, no two outputs are the same file, and no output is any file the
+/// command reads (`inputs`, and every file read so far: circuit, source
+/// files, bench file). With `create_folders`, missing folders of the targets
+/// are made (and removed again if nothing is committed). Every command calls
+/// this once, after loading its inputs and before its work; [`commit`] moves
+/// the files into place.
+pub fn plan_outputs(
+    inputs: &[&Path],
+    outputs: &[(&str, Option<&Path>)],
+    create_folders: bool,
+) -> anyhow::Result<StagedOutputs> {
+    let mut read = ripline::io::files_read();
+    read.extend(inputs.iter().map(|p| p.to_path_buf()));
+    let targets: Vec<(&str, &Path, bool)> = outputs
+        .iter()
+        .filter_map(|&(option, path)| Some((option, path?, create_folders)))
+        .collect();
+    Ok(StagedOutputs::plan(&targets, &read)?)
+}
+
+/// Removes the staged output files of this process when it is interrupted
+/// (Ctrl-C, SIGTERM, SIGHUP) and exits with code 130. A commit in progress
+/// finishes first, so a group is either wholly in place or not at all.
+pub fn remove_outputs_on_signal() {
+    // Without a handler (one already set) the temporary files may stay; that
+    // is not a reason to refuse to run.
+    let _ = ctrlc::set_handler(|| {
+        ripline::io::output::remove_staged_files();
+        std::process::exit(130);
+    });
 }
 
 /// Moves the staged output files into place. Commands call it once every

@@ -8,7 +8,6 @@ use indicatif::{ProgressBar, ProgressStyle};
 use ripline::estimate::bench::{Bench, SpeedOfSound};
 use ripline::estimate::fit::{Estimate, FitReport, HarmonicResult};
 use ripline::estimate::{FitOptions, Observer, fit};
-use ripline::io::output::StagedOutputs;
 use ripline::io::source_file::{PumpSource, SourceHarmonic, write_source_file};
 use ripline::plot;
 use ripline::units::PressureDisplay;
@@ -89,6 +88,16 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
         }
         bench.harmonics = n;
     }
+    let records: Vec<&Path> = bench.conditions.iter().map(|c| c.data.path()).collect();
+    let mut outputs = common::plan_outputs(
+        &records,
+        &[
+            ("--csv", csv_path.as_deref()),
+            ("--source-out", source_path.as_deref()),
+            ("--plot", plot_path.as_deref()),
+        ],
+        false,
+    )?;
     let mut progress = Progress(None);
     let mut data = Vec::with_capacity(bench.conditions.len());
     for cond in &bench.conditions {
@@ -113,7 +122,6 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
     }
     ensure_finite(&report)?;
 
-    let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
         let mut bytes = Vec::new();
         write_csv(&report, &mut bytes)?;

@@ -7,7 +7,6 @@ use anyhow::Context;
 use clap::Args;
 use ripline::analysis::sweep::{SweepResult, SweepSettings, shaft_resonances, sweep};
 use ripline::io::csv_out::write_sweep_csv;
-use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
 use ripline::units::Dimension;
@@ -107,6 +106,16 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
         args.plot.as_deref(),
         args.file.as_deref(),
         args.harmonics,
+    )?;
+    let levels_plot = plot_path.as_deref().map(levels_path);
+    let mut outputs = common::plan_outputs(
+        &[],
+        &[
+            ("--csv", csv_path.as_deref()),
+            ("--plot", plot_path.as_deref()),
+            ("--plot (its levels chart)", levels_plot.as_deref()),
+        ],
+        false,
     )?;
     let shaft = common::pick_shaft(&loaded.circuit, args.shaft.as_deref())?;
     let (low, high) = match &args.speed {
@@ -208,7 +217,6 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
         );
     }
 
-    let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
         common::stage_csv(&mut outputs, path, |buf| write_sweep_csv(&result, buf))?;
     }

@@ -38,7 +38,7 @@ struct Table {
 impl Table {
     fn read(path: &Path) -> Result<Self, InputError> {
         let file = path.display().to_string();
-        let text = super::read_text(path)?;
+        let text = super::read_text_capped(path, super::MAX_RECORD_BYTES)?;
         let mut reader = csv::ReaderBuilder::new()
             .has_headers(true)
             .comment(Some(b'#'))
