@@ -163,7 +163,7 @@ fn print_report(
     writeln!(
         out,
         "amplitudes are peak values; overall levels are rms (dB re {})",
-        PressureDisplay(p_ref)
+        common::reference_text(p_ref)
     )?;
     for (i, tap) in reports[0].taps.iter().enumerate() {
         writeln!(out)?;

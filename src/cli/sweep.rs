@@ -17,9 +17,11 @@ use std::path::{Path, PathBuf};
 /// Default number of speed steps when `--step` is not given.
 const DEFAULT_STEPS: f64 = 200.0;
 /// Most speeds a sweep may hold.
-const MAX_SPEEDS: usize = 100_001;
-/// Most amplitudes (speeds × points × orders) a sweep may hold.
-const MAX_CELLS: usize = 20_000_000;
+const MAX_SPEEDS: usize = 20_001;
+/// Most amplitudes (speeds × points × orders) a sweep may hold: bounds its
+/// time (about one solve per speed and order) and memory (the grid, the
+/// map and the crossings grow with it).
+const MAX_CELLS: usize = 2_000_000;
 /// Rows of the frequency axis of the map.
 const MAP_ROWS: usize = 300;
 /// Rows added either side of an order line on the map, so its colour shows
@@ -317,7 +319,7 @@ fn print_report(
     writeln!(
         out,
         "levels are rms in dB re {}; amplitudes are peak values",
-        PressureDisplay(p_ref)
+        common::reference_text(p_ref)
     )?;
     let list: Vec<String> = resonances.iter().map(|f| format!("{f:.1}")).collect();
     writeln!(
@@ -421,7 +423,7 @@ fn map(
             if amp <= 0.0 {
                 continue;
             }
-            let level = 20.0 * (amp / std::f64::consts::SQRT_2 / p_ref).log10();
+            let level = common::db_re(amp / std::f64::consts::SQRT_2, p_ref);
             top = top.max(level);
             let f1 = result.shaft.fundamental_hz(1.0) * f64::from(order);
             if f1 * lo > f_top {
@@ -449,7 +451,10 @@ fn map(
         ),
         x_label: "shaft speed (rpm)".into(),
         y_label: "frequency (Hz)".into(),
-        z_label: format!("harmonic level, dB re {} (rms)", PressureDisplay(p_ref)),
+        z_label: format!(
+            "harmonic level, dB re {} (rms)",
+            common::reference_text(p_ref)
+        ),
         x: rpm,
         y,
         z,
@@ -504,7 +509,10 @@ fn level_chart(result: &SweepResult, p_ref: f64, title: Option<&str>) -> plot::L
             result.shaft.name
         ),
         x_label: "shaft speed (rpm)".into(),
-        y_label: format!("overall level, dB re {} (rms)", PressureDisplay(p_ref)),
+        y_label: format!(
+            "overall level, dB re {} (rms)",
+            common::reference_text(p_ref)
+        ),
         series: result
             .points
             .iter()
@@ -517,7 +525,7 @@ fn level_chart(result: &SweepResult, p_ref: f64, title: Option<&str>) -> plot::L
                     .enumerate()
                     .filter_map(|(si, s)| {
                         let rms = result.rms_pa(si, pi);
-                        (rms > 0.0).then(|| (s * 60.0, 20.0 * (rms / p_ref).log10()))
+                        (rms > 0.0).then(|| (s * 60.0, common::db_re(rms, p_ref)))
                     })
                     .collect(),
                 ..Default::default()

@@ -102,11 +102,11 @@ impl InputError {
 /// Largest record file (time series or spectra CSV) read, in bytes.
 pub const MAX_RECORD_BYTES: u64 = 32 * 1024 * 1024;
 
-/// The canonical paths of the files this process has read as input, for the
+/// The files this process has read as input, as they were named, for the
 /// output checks (an output may never be an input).
 static FILES_READ: std::sync::Mutex<Vec<std::path::PathBuf>> = std::sync::Mutex::new(Vec::new());
 
-/// Every file read so far through [`read_text`] (canonical paths).
+/// Every file read so far through [`read_text`] and [`read_text_capped`].
 pub fn files_read() -> Vec<std::path::PathBuf> {
     FILES_READ
         .lock()
@@ -179,12 +179,10 @@ pub fn read_text_capped(path: &Path, cap: u64) -> Result<String, InputError> {
     if bytes.len() as u64 > cap {
         return Err(too_large(format!("more than {cap}")));
     }
-    if let Ok(canonical) = std::fs::canonicalize(path) {
-        FILES_READ
-            .lock()
-            .unwrap_or_else(std::sync::PoisonError::into_inner)
-            .push(canonical);
-    }
+    FILES_READ
+        .lock()
+        .unwrap_or_else(std::sync::PoisonError::into_inner)
+        .push(path.to_path_buf());
     let text = String::from_utf8(bytes).map_err(|e| {
         not_text(format!(
             "not UTF-8 text (invalid byte at offset {}): is it a binary file?",
