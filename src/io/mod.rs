@@ -279,3 +279,32 @@ fn second_document(text: &str) -> Option<(usize, usize)> {
     }
     None
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A file under /proc states size 0 but has content: the cap must be
+    /// counted while reading, not taken from the stated size.
+    #[cfg(target_os = "linux")]
+    #[test]
+    fn the_cap_is_counted_while_reading() {
+        let status = Path::new("/proc/self/status");
+        assert_eq!(std::fs::metadata(status).unwrap().len(), 0);
+        let e = read_text_capped(status, 16).unwrap_err().to_string();
+        assert!(e.contains("more than 16 bytes"), "{e}");
+        assert!(read_text_capped(status, 1 << 20).is_ok());
+    }
+
+    #[test]
+    fn a_second_document_is_found_at_its_marker() {
+        assert_eq!(second_document("a: 1\n---\nb: 2\n"), Some((2, 1)));
+        assert_eq!(second_document("---\na: 1\n--- \nb: 2\n"), Some((3, 1)));
+        assert_eq!(second_document("# c\n---\na: 1\n...\nb: 2\n"), Some((5, 1)));
+        assert_eq!(second_document("---\na: 1\n"), None);
+        let e = parse_yaml::<serde_yaml::Value>("a: 1\n---\nb: 2\n", "f.yaml")
+            .unwrap_err()
+            .to_string();
+        assert!(e.starts_with("f.yaml:2:1: "), "{e}");
+    }
+}
