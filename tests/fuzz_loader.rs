@@ -355,6 +355,7 @@ proptest! {
         }
     }
 
+    #[cfg(unix)]
     #[test]
     fn output_groups_are_all_or_nothing(
         picks in proptest::collection::vec(any::<prop::sample::Index>(), 1..5),

@@ -7,7 +7,9 @@
 //! user gave exits with code 2 and a short, located, readable message.
 //!
 //! The promises are the project's own (README "Limits", DEVELOPERS.md error
-//! table); inputs are generated in temporary folders.
+//! table); inputs are generated in temporary folders. Unix only: the cases
+//! use links, pipes, devices and signals.
+#![cfg(unix)]
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
@@ -419,7 +421,7 @@ fn synth_writes_only_inside_its_folder() {
 // 5. Limits on what a user controls, each refused up front.
 
 #[test]
-fn deeply_nested_yaml_is_refused_before_the_parser() {
+fn deeply_nested_or_huge_yaml_is_refused_before_the_parser() {
     let dir = scratch("nest");
     std::fs::write(
         dir.join("flow.yaml"),
@@ -435,6 +437,17 @@ fn deeply_nested_yaml_is_refused_before_the_parser() {
     refused(&o, &["flow.yaml:1:71:", "nested more than 64 levels"]);
     let o = ripline_in(&dir, &["check", "block.yaml"]);
     refused(&o, &["block.yaml:2:", "nested more than 64 levels"]);
+    // 100,000 tiny mappings (2.2 MB): three nodes each.
+    std::fs::write(
+        dir.join("wide.yaml"),
+        "taps:\n".to_string() + &"- {a: 1}\n".repeat(100_000),
+    )
+    .unwrap();
+    let o = ripline_in(&dir, &["check", "wide.yaml"]);
+    refused(
+        &o,
+        &["wide.yaml:83335:3:", "more than 250000 keys and values"],
+    );
     std::fs::remove_dir_all(dir).unwrap();
 }
 

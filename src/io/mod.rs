@@ -15,7 +15,7 @@ pub mod quantity;
 pub mod records;
 pub mod source_file;
 mod validate;
-pub mod yaml_depth;
+pub mod yaml_limits;
 
 pub use circuit_file::{load_circuit, parse_circuit, parse_circuit_at_temperature};
 
@@ -213,16 +213,22 @@ pub fn parse_yaml<T: serde::de::DeserializeOwned>(text: &str, file: &str) -> Res
             message: "the file is empty".into(),
         }));
     }
-    if let Some((line, column)) = yaml_depth::too_deep(text, yaml_depth::MAX_YAML_DEPTH) {
+    use yaml_limits::{Excess, MAX_YAML_DEPTH, MAX_YAML_NODES};
+    if let Some((line, column, excess)) = yaml_limits::excess(text, MAX_YAML_DEPTH, MAX_YAML_NODES)
+    {
         return Err(InputError::Invalid(Located {
             file: file.to_string(),
             line: Some(line),
             column: Some(column),
             path: String::new(),
-            message: format!(
-                "collections nested more than {} levels deep: a circuit or bench file needs only a few",
-                yaml_depth::MAX_YAML_DEPTH
-            ),
+            message: match excess {
+                Excess::Depth => format!(
+                    "collections nested more than {MAX_YAML_DEPTH} levels deep: a circuit or bench file needs only a few"
+                ),
+                Excess::Nodes => format!(
+                    "more than {MAX_YAML_NODES} keys and values: too large for a circuit or bench file"
+                ),
+            },
         }));
     }
     serde_yaml::from_str(text).map_err(|e| {

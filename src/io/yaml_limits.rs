@@ -1,7 +1,9 @@
-//! A bound on YAML nesting, checked in one linear pass before the parser sees
-//! the text: the parser's time grows with the square of the nesting depth
-//! (100,000 nested `[` took half a minute), and no circuit or bench file
-//! needs more than a handful of levels.
+//! Bounds on YAML nesting and size, checked in one linear pass before the
+//! parser sees the text: the parser's time grows with the square of the
+//! nesting depth (100,000 nested `[` took half a minute), and it holds every
+//! event of a document before the first value is checked (about 160 bytes a
+//! node: an 8 MB file of tiny mappings took 380 MB to refuse). No circuit or
+//! bench file needs more than a handful of levels.
 //!
 //! The scan over-estimates rather than misses: it counts the block
 //! collections open at a line (by indentation), the compact sequence entries
@@ -12,9 +14,32 @@
 /// Deepest nesting accepted in a YAML input file.
 pub const MAX_YAML_DEPTH: usize = 64;
 
+/// Most nodes (keys, values, collections) accepted in a YAML input file:
+/// some 15,000 elements of a circuit, and under 50 MB for the parser.
+pub const MAX_YAML_NODES: usize = 250_000;
+
+/// Which bound a text exceeds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Excess {
+    /// Nested deeper than the limit.
+    Depth,
+    /// More nodes than the limit.
+    Nodes,
+}
+
 /// The first position (1-based line and column) where the nesting of `text`
 /// exceeds `limit`, if any.
 pub fn too_deep(text: &str, limit: usize) -> Option<(usize, usize)> {
+    match excess(text, limit, usize::MAX) {
+        Some((line, column, Excess::Depth)) => Some((line, column)),
+        _ => None,
+    }
+}
+
+/// The first position (1-based line and column) where `text` nests deeper
+/// than `max_depth` or holds more than `max_nodes` nodes, and which.
+pub fn excess(text: &str, max_depth: usize, max_nodes: usize) -> Option<(usize, usize, Excess)> {
+    let mut nodes = 0usize;
     let mut indents: Vec<usize> = Vec::new();
     let mut flow = 0usize;
     let mut quote: Option<char> = None;
@@ -58,6 +83,18 @@ pub fn too_deep(text: &str, limit: usize) -> Option<(usize, usize)> {
                 continue;
             }
             let next_blank = chars.peek().is_none_or(|&(_, n)| n == ' ' || n == '\t');
+            let starts = match c {
+                ' ' | '\t' | '#' => false,
+                '[' | '{' | '"' | '\'' => token_start || flow > 0,
+                '-' | '?' | ':' | ',' | ']' | '}' => false,
+                _ => token_start,
+            };
+            if starts {
+                nodes += 1;
+                if nodes > max_nodes {
+                    return Some((ln + 1, indent + i + 1, Excess::Nodes));
+                }
+            }
             match c {
                 ' ' | '\t' => continue,
                 '#' if token_start || rest[..i].ends_with([' ', '\t']) => break,
@@ -85,8 +122,8 @@ pub fn too_deep(text: &str, limit: usize) -> Option<(usize, usize)> {
                     token_start = false;
                 }
             }
-            if block + compact + flow > limit {
-                return Some((ln + 1, indent + i + 1));
+            if block + compact + flow > max_depth {
+                return Some((ln + 1, indent + i + 1, Excess::Depth));
             }
         }
         let last = last_token.split(" #").next().unwrap_or("").trim_end();
@@ -136,6 +173,20 @@ note: |
 name: \"x \\\" [[[[[[[\"
 ";
         assert_eq!(too_deep(text, 2), None);
+    }
+
+    #[test]
+    fn nodes_are_counted() {
+        // a, 1, b, [, x, y, the quoted value: 7 nodes.
+        let text = "a: 1\nb: [x, y, 'z z']\n";
+        assert_eq!(excess(text, 64, 7), None);
+        assert_eq!(excess(text, 64, 6), Some((2, 11, Excess::Nodes)));
+        // `- {a: 1}` is three nodes; a million of them are refused early.
+        let many = "- {a: 1}\n".repeat(1_000_000);
+        assert_eq!(
+            excess(&many, 64, MAX_YAML_NODES),
+            Some((MAX_YAML_NODES / 3 + 1, 4, Excess::Nodes))
+        );
     }
 
     #[test]
