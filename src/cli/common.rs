@@ -290,6 +290,11 @@ pub fn plan_outputs(
     Ok(StagedOutputs::plan(&targets, &read)?)
 }
 
+/// [`plan_outputs`] for the usual `--csv` and `--plot` of a circuit command.
+pub fn plan_csv_and_plot(csv: Option<&Path>, plot: Option<&Path>) -> anyhow::Result<StagedOutputs> {
+    plan_outputs(&[], &[("--csv", csv), ("--plot", plot)], false)
+}
+
 /// Removes the staged output files of this process when it is interrupted
 /// (Ctrl-C, SIGTERM, SIGHUP) and exits with code 130. A commit in progress
 /// finishes first, so a group is either wholly in place or not at all.

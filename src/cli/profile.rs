@@ -39,14 +39,7 @@ pub fn run(args: ProfileArgs) -> anyhow::Result<()> {
         .into());
     }
     let loaded = common::load_circuit(args.file.as_deref())?;
-    let mut outputs = common::plan_outputs(
-        &[],
-        &[
-            ("--csv", csv_path.as_deref()),
-            ("--plot", plot_path.as_deref()),
-        ],
-        false,
-    )?;
+    let mut outputs = common::plan_csv_and_plot(csv_path.as_deref(), plot_path.as_deref())?;
     let circuit = &loaded.circuit;
     let pump = &circuit.pumps[0];
     if pump.flow_ripple(args.harmonic).norm() == 0.0 {

@@ -41,14 +41,7 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
     let plot_path = ranges::plot_output(args.plot.as_deref())?;
     let margin = ranges::parse_fraction("--margin", &args.margin)?;
     let loaded = common::load_circuit(args.file.as_deref())?;
-    let mut outputs = common::plan_outputs(
-        &[],
-        &[
-            ("--csv", csv_path.as_deref()),
-            ("--plot", plot_path.as_deref()),
-        ],
-        false,
-    )?;
+    let mut outputs = common::plan_csv_and_plot(csv_path.as_deref(), plot_path.as_deref())?;
     let circuit = &loaded.circuit;
     let ranges::Sweep {
         pump_index,

@@ -59,14 +59,7 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
         // mean flows scale with speed (turbulent friction)
         ripline::meanflow::resolve_line_mean_flows(&mut loaded.circuit);
     }
-    let mut outputs = common::plan_outputs(
-        &[],
-        &[
-            ("--csv", csv_path.as_deref()),
-            ("--plot", plot_path.as_deref()),
-        ],
-        false,
-    )?;
+    let mut outputs = common::plan_csv_and_plot(csv_path.as_deref(), plot_path.as_deref())?;
     let circuit = &loaded.circuit;
     let shafts = shafts(&circuit.pumps);
     let top_hz = circuit
