@@ -48,8 +48,13 @@ fn fraction(option: &str, text: &str, lo: f64, hi: f64) -> anyhow::Result<f64> {
 pub fn run(args: SynthArgs) -> anyhow::Result<()> {
     if let Some(dir) = args.out_dir.as_deref().filter(|d| !d.is_dir()) {
         return Err(UsageError(format!(
-            "--out-dir {}: the folder does not exist",
-            dir.display()
+            "--out-dir {}: {}",
+            dir.display(),
+            if dir.exists() {
+                "is not a folder"
+            } else {
+                "the folder does not exist"
+            }
         ))
         .into());
     }
