@@ -406,8 +406,8 @@ const BAD_FILES: &[(&str, &str)] = &[
         ":65:5: elements[1].wall: key `wall` does not apply to a `hose`",
     ),
     (
-        "damper_below_precharge.yaml",
-        ":71:5: elements[3].operating_pressure: the operating pressure 51.01 bar abs is below the precharge 121.01 bar abs",
+        "damper_pressure_disagrees.yaml",
+        ":72:5: elements[3].operating_pressure: 201.013 bar abs disagrees with the fluid's mean pressure `fluid.pressure`, 151.013 bar abs",
     ),
     (
         "gas_pressure_without_abs_or_gauge.yaml",

@@ -160,7 +160,13 @@ impl Parameter {
             (Parameter::GasVolume, ElementKind::Damper(d)) => d.gas_volume_m3 = value,
             (Parameter::Precharge, ElementKind::Damper(d)) => {
                 d.precharge_pa = value;
-                d.validate().map_err(|e| e.to_string())?;
+                if d.is_bottomed() {
+                    return Err(format!(
+                        "a precharge of {:.2} bar abs is above the operating pressure {:.2} bar abs: the damper would be bottomed (its gas out of the circuit)",
+                        value / 1e5,
+                        d.operating_pa / 1e5
+                    ));
+                }
             }
             (Parameter::NeckLength, ElementKind::Damper(d)) => d.neck_length_m = value,
             (Parameter::NeckBore, ElementKind::Damper(d)) => d.neck.radius_m = value / 2.0,
