@@ -405,6 +405,27 @@ const BAD_FILES: &[(&str, &str)] = &[
         "wall_key_on_hose.yaml",
         ":65:5: elements[1].wall: key `wall` does not apply to a `hose`",
     ),
+    // envelopes and limits
+    (
+        "limits_unknown_tap.yaml",
+        ":34:3: limits[1].tap: no measurement point is called `valve block`; the points are: `outlet`, `end`",
+    ),
+    (
+        "limits_bad_level.yaml",
+        ":34:3: limits[1].harmonic: `150 dB re 1 m`: unknown unit `m` for a pressure",
+    ),
+    (
+        "envelope_case_unknown_element.yaml",
+        ":29:9: envelope.cases[1].set.throttle: no element is called `throttle`",
+    ),
+    (
+        "envelope_case_sets_a_connection.yaml",
+        ":29:9: envelope.cases[1].set.valve.to: a load case cannot change an element's `to`",
+    ),
+    (
+        "envelope_temperatures_without_grade.yaml",
+        ":24:3: envelope.temperatures: the fluid has no temperature model",
+    ),
     (
         "damper_pressure_disagrees.yaml",
         ":72:5: elements[3].operating_pressure: 201.013 bar abs disagrees with the fluid's mean pressure `fluid.pressure`, 151.013 bar abs",

@@ -182,3 +182,89 @@ fn tune_sweep_and_a_brute_force_grid_agree_on_the_worst_speed() {
         }
     }
 }
+
+const ENVELOPE: &str = include_str!("circuits/envelope_test.yaml");
+
+fn damper(c: &ripline::Circuit) -> ripline::elements::PulsationDamper {
+    match &c.elements[c.element_id("damper").unwrap()].kind {
+        ElementKind::Damper(d) => *d,
+        _ => panic!("not a damper"),
+    }
+}
+
+// Quantities that follow the mean pressure between envelope points, against
+// hand values of their documented laws:
+// * the oil's isentropic tangent bulk modulus (src/oil.rs: Hayward's secant
+//   law, B_s = γ (K0 + m p)(K0 + (m − 1) p)/K0 with K0 = 1.62 GPa/γ at
+//   40 °C, m = 5.6, γ = 1.15; K0 falls by e^(−0.0055 ΔT)): 1.655379264 GPa
+//   at 30 bar, 1.863011753 GPa at 200 bar, 1.545162142 GPa at 200 bar and
+//   80 °C (evaluated by hand with python3 arithmetic);
+// * the damper's gas volume by Boyle's law from its precharge,
+//   V_g = V0·p0/p = 1 L × 60/201.01325 = 0.2984877863 L at 200 bar gauge;
+//   at 30 bar gauge (31.01 bar abs) it is below its 60 bar abs precharge:
+//   bottomed, its gas out of the circuit, and a warning says so.
+#[test]
+fn pressure_and_temperature_follow_the_envelope_point() {
+    use ripline::envelope::OperatingPoint;
+    let file = ripline::io::parse_circuit_file(ENVELOPE, "envelope.yaml").unwrap();
+    let envelope = file.envelope.as_ref().unwrap();
+    assert_eq!(envelope.points().len(), 12);
+    let at = |p: f64, t: f64| {
+        file.at(&OperatingPoint {
+            pressure_pa: Some(p * 1e5),
+            temperature_k: Some(t + 273.15),
+            case: Some("open".into()),
+        })
+        .unwrap()
+    };
+    for ((p, t), b) in [
+        ((30.0, 40.0), 1.655_379_264_444_444_4e9),
+        ((200.0, 40.0), 1.863_011_753_086_419_8e9),
+        ((200.0, 80.0), 1.545_162_142_483_649_5e9),
+    ] {
+        let c = at(p, t);
+        let got = c.fluid.bulk_modulus_pa;
+        assert!((got / b - 1.0).abs() < 1e-12, "{p} bar, {t} °C: {got}");
+        assert!((damper(&c).bulk_modulus_pa / b - 1.0).abs() < 1e-12);
+    }
+    let high = damper(&at(200.0, 40.0));
+    assert!((high.operating_pa - 201.013_25e5).abs() < 1e-6);
+    assert!((high.gas_volume_at_operating_m3() / 2.984_877_862_528_963e-4 - 1.0).abs() < 1e-12);
+    let low_circuit = at(30.0, 40.0);
+    let low = damper(&low_circuit);
+    assert!(low.is_bottomed() && low.gas_volume_at_operating_m3() == 0.0);
+    let warnings = ripline::diagnostics::circuit_warnings(&low_circuit, 500.0);
+    assert!(
+        warnings.iter().any(|w| w.message.contains("bottomed")),
+        "{warnings:?}"
+    );
+    // the file's own point: 100 bar gauge, V_g = 60/101.01325 L
+    let own = damper(&file.circuit);
+    assert!((own.gas_volume_at_operating_m3() / (1e-3 * 60.0 / 101.013_25) - 1.0).abs() < 1e-12);
+}
+
+// Load cases: `set` overrides an element's value; `close` shuts a two-port's
+// far end, and what is then cut off from the pump (here the load and the
+// tap `end`) is dropped, since no ripple reaches it.
+#[test]
+fn load_cases_set_values_and_close_elements() {
+    use ripline::envelope::OperatingPoint;
+    let file = ripline::io::parse_circuit_file(ENVELOPE, "envelope.yaml").unwrap();
+    let case = |name: &str| {
+        file.at(&OperatingPoint {
+            case: Some(name.into()),
+            ..Default::default()
+        })
+        .unwrap()
+    };
+    let throttled = case("throttled");
+    let valve = &throttled.elements[throttled.element_id("valve").unwrap()].kind;
+    assert!(matches!(valve, ElementKind::Orifice(o) if o.resistance_pa_s_m3 == 5e10));
+    let closed = case("closed");
+    assert!(closed.element_id("load").is_none());
+    assert_eq!(closed.taps.len(), 1);
+    assert_eq!(closed.taps[0].name, "outlet");
+    // the valve stays on its `from` node as a dead end
+    assert!(closed.element_id("valve").is_some());
+    assert!(amplitudes(&closed).iter().all(|a| a.is_finite()));
+}

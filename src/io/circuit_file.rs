@@ -7,6 +7,7 @@
 //! SI; its errors carry the key path, mapped back to a line by
 //! [`super::locate`]. The file format is documented in README.md.
 
+mod envelope;
 mod pumps;
 
 use super::InputError;
@@ -51,6 +52,8 @@ struct RawCircuit {
     elements: Vec<RawElement>,
     #[serde(default)]
     taps: Vec<RawTap>,
+    envelope: Option<envelope::RawEnvelope>,
+    limits: Option<Vec<envelope::RawLimit>>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -392,8 +395,13 @@ pub fn load_circuit(path: &Path) -> Result<Circuit, InputError> {
 /// [`InputError`] naming the file, the line and the key at fault.
 pub fn parse_circuit(text: &str, file: &str) -> Result<Circuit, InputError> {
     let raw: RawCircuit = super::parse_yaml(text, file)?;
-    Checker(FileCheck { text, file }).circuit(raw)
+    Checker(FileCheck { text, file }).circuit(&raw)
 }
+
+pub use envelope::{
+    CircuitFile, MAX_CASES, MAX_LEVELS, MAX_POINTS, load_circuit_file, parse_circuit_at,
+    parse_circuit_file,
+};
 
 /// Parses circuit text as [`parse_circuit`] does, with the oil at another
 /// temperature (K): the fluid's temperature-dependent properties (density,
@@ -409,17 +417,11 @@ pub fn parse_circuit_at_temperature(
     file: &str,
     temperature_k: f64,
 ) -> Result<Circuit, InputError> {
-    let mut raw: RawCircuit = super::parse_yaml(text, file)?;
-    if raw.fluid.grade.is_none() && raw.fluid.viscosity_points.is_none() {
-        return Err(InputError::located(
-            file,
-            text,
-            &KeyPath::root().key("fluid"),
-            "the fluid has no temperature model: give a `grade` (or `viscosity_points`) with a `temperature` to evaluate the circuit at other temperatures",
-        ));
-    }
-    raw.fluid.temperature = Some(Q::new(temperature_k));
-    Checker(FileCheck { text, file }).circuit(raw)
+    let point = crate::envelope::OperatingPoint {
+        temperature_k: Some(temperature_k),
+        ..Default::default()
+    };
+    parse_circuit_at(text, file, &point)
 }
 
 /// The explicit fluid values of a circuit text that do not follow the oil's
@@ -452,7 +454,7 @@ impl<'a> std::ops::Deref for Checker<'a> {
 }
 
 impl Checker<'_> {
-    fn circuit(&self, raw: RawCircuit) -> Res<Circuit> {
+    fn circuit(&self, raw: &RawCircuit) -> Res<Circuit> {
         let root = KeyPath::root();
         let fluid = self.fluid(&root.key("fluid"), &raw.fluid)?;
         let line_model = raw.line_model.map_or(LineModel::Laminar, LineModel::from);
@@ -669,6 +671,7 @@ impl Checker<'_> {
             };
             self.err(&path, e.to_string())
         })?;
+        self.envelope_sections(raw, &circuit)?;
         Ok(circuit)
     }
 
