@@ -271,7 +271,7 @@ fn ensure_finite(result: &SweepResult) -> anyhow::Result<()> {
 /// The point whose worst overall level is the highest.
 fn loudest_point(result: &SweepResult) -> usize {
     (0..result.points.len())
-        .map(|p| (p, result.worst(p).1))
+        .map(|p| (p, result.worst(p).value_pa))
         .fold(
             (0, f64::NEG_INFINITY),
             |best, x| if x.1 > best.1 { x } else { best },
@@ -332,7 +332,10 @@ fn print_report(
         }
     )?;
     writeln!(out)?;
-    writeln!(out, "worst speed per point (overall rms ripple):")?;
+    writeln!(
+        out,
+        "worst speed per point (overall rms ripple; every crossing between the grid speeds refined to 0.01 dB):"
+    )?;
     let width = result
         .points
         .iter()
@@ -346,11 +349,12 @@ fn print_report(
         "point", "speed rpm", "rms", "level"
     )?;
     for (pi, point) in result.points.iter().enumerate() {
-        let (si, rms) = result.worst(pi);
+        let worst = result.worst(pi);
+        let rms = worst.value_pa;
         writeln!(
             out,
             "  {point:<width$}  {:>9.1}  {:>12}  {:>9}",
-            speeds[si] * 60.0,
+            worst.speed_rev_s * 60.0,
             PressureDisplay(rms).to_string(),
             common::level_text(rms, p_ref)
         )?;

@@ -17,7 +17,10 @@ pub mod source_file;
 mod validate;
 pub mod yaml_limits;
 
-pub use circuit_file::{load_circuit, parse_circuit, parse_circuit_at_temperature};
+pub use circuit_file::{
+    CircuitFile, load_circuit, load_circuit_file, parse_circuit, parse_circuit_at,
+    parse_circuit_at_temperature, parse_circuit_file,
+};
 
 use locate::KeyPath;
 use std::fmt;
