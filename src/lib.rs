@@ -40,6 +40,7 @@
 #![deny(missing_docs)]
 
 pub mod analysis;
+pub mod calibrate;
 pub mod circuit;
 pub mod demo;
 pub mod diagnostics;

@@ -110,10 +110,10 @@ pub fn split_tolerance(text: &str) -> (&str, Option<(Spread, &str)>) {
     }
     if let Some(i) = text.find(',') {
         let rest = text[i + 1..].trim_start();
-        if let Some(r) = rest.strip_prefix('u') {
-            if let Some(amount) = r.trim_start().strip_prefix('=') {
-                return (text[..i].trim(), Some((Spread::Standard, amount.trim())));
-            }
+        if let Some(r) = rest.strip_prefix('u')
+            && let Some(amount) = r.trim_start().strip_prefix('=')
+        {
+            return (text[..i].trim(), Some((Spread::Standard, amount.trim())));
         }
     }
     (text.trim(), None)

@@ -1,0 +1,4 @@
+//! Closing the loop with measurements: measured against predicted ripple at
+//! the taps, and calibration of a circuit's uncertain values from them.
+
+pub mod lm;
