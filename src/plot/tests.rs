@@ -381,3 +381,66 @@ fn unwritable_path_is_an_io_error() {
     let e = grouped_bar_chart(&missing.join("a.png"), &bar_chart()).unwrap_err();
     assert!(matches!(e, PlotError::Io { .. }), "{e}");
 }
+
+/// Rows (top to bottom) of a PNG in which some pixel is close to `rgb`, and
+/// whether any pixel lies strictly between that colour and white.
+fn rows_with_colour(path: &Path, rgb: [u8; 3]) -> (Vec<u32>, bool) {
+    let bytes = std::fs::read(path).expect("read png");
+    let pixmap = resvg::tiny_skia::Pixmap::decode_png(&bytes).expect("decode png");
+    let mut rows = Vec::new();
+    let mut blended = false;
+    for y in 0..pixmap.height() {
+        let mut hit = false;
+        for x in 0..pixmap.width() {
+            let p = pixmap.pixel(x, y).expect("pixel").demultiply();
+            let c = [p.red(), p.green(), p.blue()];
+            let d = |i: usize| (i32::from(c[i]) - i32::from(rgb[i])).abs();
+            if d(0) + d(1) + d(2) < 60 {
+                hit = true;
+            }
+            // a pure-red line on white: anti-aliased edge pixels are light red
+            if c[0] > 240 && c[1] > 40 && c[1] < 200 && c[1].abs_diff(c[2]) < 8 {
+                blended = true;
+            }
+        }
+        if hit {
+            rows.push(y);
+        }
+    }
+    (rows, blended)
+}
+
+/// Property of a raster line: a steep segment (a jump over the whole height
+/// within one x step) is drawn in every pixel row it crosses, and its edges
+/// are anti-aliased (blended pixels exist). plotters' own bitmap backend left
+/// gaps in such segments (issue 16).
+#[test]
+fn png_steep_segments_have_no_gaps_and_are_anti_aliased() {
+    let dir = TempDir::new("steep");
+    let chart = LineChart {
+        series: vec![XySeries {
+            points: vec![(0.0, 0.0), (1.0, 100.0), (1.02, 0.0), (2.0, 50.0)],
+            color: Some([255, 0, 0]),
+            ..Default::default()
+        }],
+        size: SIZE,
+        ..Default::default()
+    };
+    let path = dir.path("steep.png");
+    line_chart(&path, &chart).unwrap();
+    let (rows, blended) = rows_with_colour(&path, [255, 0, 0]);
+    assert!(
+        rows.len() > 250,
+        "the line covers most of the height: {rows:?}"
+    );
+    for w in rows.windows(2) {
+        assert_eq!(
+            w[1],
+            w[0] + 1,
+            "a gap in the line between rows {} and {}",
+            w[0],
+            w[1]
+        );
+    }
+    assert!(blended, "no anti-aliased edge pixels found");
+}
