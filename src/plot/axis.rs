@@ -556,7 +556,7 @@ mod tests {
             .map(|w| w[1] - w[0])
             .fold(f64::INFINITY, f64::min);
         for w in a.major.windows(2) {
-            if !(w[1] > w[0]) {
+            if w[1].partial_cmp(&w[0]) != Some(std::cmp::Ordering::Greater) {
                 return Err(format!("ticks not increasing: {:?}", a.major));
             }
         }

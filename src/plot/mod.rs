@@ -155,11 +155,23 @@ pub struct BarChart {
     /// The series; each must have exactly one value per category.
     pub series: Vec<Series>,
     /// Logarithmic value axis. Values that are zero or negative are then drawn as
-    /// no bar at all; at least one value must be positive.
+    /// no bar at all; at least one value must be positive. The axis spans at
+    /// most [`BAR_DYNAMIC_RANGE_DB`] below the largest value; smaller values
+    /// show as no bar.
     pub log_y: bool,
+    /// Value axis in decibels: each value `v` is drawn as `20·log10(v / ref)`
+    /// with `ref` this reference (same unit as the values, positive), bars
+    /// rising from the bottom of the axis. Overrides `log_y`; zero or negative
+    /// values and those more than [`BAR_DYNAMIC_RANGE_DB`] below the largest
+    /// show as no bar. The caller names the reference in `y_label`.
+    pub db_ref: Option<f64>,
     /// Picture size in pixels (width, height).
     pub size: (u32, u32),
 }
+
+/// Range of a logarithmic or decibel bar axis below its largest value, in dB
+/// (5 decades of amplitude).
+pub const BAR_DYNAMIC_RANGE_DB: f64 = 100.0;
 
 impl Default for BarChart {
     fn default() -> Self {
@@ -170,6 +182,7 @@ impl Default for BarChart {
             categories: Vec::new(),
             series: Vec::new(),
             log_y: false,
+            db_ref: None,
             size: DEFAULT_SIZE,
         }
     }
@@ -260,6 +273,10 @@ pub struct LineChart {
     /// Fixed y range (low, high) in data units; `None` fits the curves, their
     /// error bars and the point markers, with a small margin.
     pub y_range: Option<(f64, f64)>,
+    /// Lowest value the quantity can take, e.g. `Some(0.0)` for an amplitude:
+    /// the automatic y range does not reach below it and error bars are cut
+    /// there (a cut end is drawn without its cap). Data below it are an error.
+    pub y_floor: Option<f64>,
     /// Vertical dashed lines, labelled above the plot (e.g. resonances). They do
     /// not widen the x range; markers outside it are left out.
     pub x_markers: Vec<Marker>,
@@ -286,6 +303,7 @@ impl Default for LineChart {
             log_y: false,
             x_range: None,
             y_range: None,
+            y_floor: None,
             x_markers: Vec::new(),
             y_markers: Vec::new(),
             point_markers: Vec::new(),
