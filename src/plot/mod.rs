@@ -29,6 +29,7 @@ mod frame;
 mod heatmap;
 mod lines;
 mod render;
+mod schematic;
 #[cfg(test)]
 mod tests;
 
@@ -36,6 +37,8 @@ use bars::BarFigure;
 use heatmap::HeatFigure;
 use lines::StackFigure;
 use render::render;
+pub use render::svg_to_png;
+pub use schematic::{SchematicLayout, schematic_layout, schematic_svg};
 
 /// Default picture size in pixels (width, height).
 pub const DEFAULT_SIZE: (u32, u32) = (1000, 600);

@@ -97,9 +97,10 @@ fn font_db() -> Result<&'static Arc<fontdb::Database>, PlotError> {
     .map_err(|e| PlotError::Backend(e.clone()))
 }
 
-/// Rasterises an SVG document (as drawn by [`svg_string`]) to PNG bytes,
-/// anti-aliased, with the embedded font.
-pub(super) fn svg_to_png(svg: &str) -> Result<Vec<u8>, PlotError> {
+/// Rasterises an SVG document (a chart or a schematic of this module) to PNG
+/// bytes, anti-aliased, with the embedded font; text in any other font family
+/// falls back to it. External files and images are never loaded.
+pub fn svg_to_png(svg: &str) -> Result<Vec<u8>, PlotError> {
     let db = font_db()?;
     let options = usvg::Options {
         font_family: FONT_NAME.to_string(),
