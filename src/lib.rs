@@ -47,6 +47,7 @@ pub mod elements;
 pub mod estimate;
 pub mod fluid;
 pub mod hose;
+pub mod html;
 pub mod io;
 pub mod line;
 pub mod meanflow;

@@ -36,8 +36,8 @@ mod tests;
 use bars::BarFigure;
 use heatmap::HeatFigure;
 use lines::StackFigure;
-use render::render;
 pub use render::svg_to_png;
+use render::{render, svg_string};
 pub use schematic::{SchematicLayout, schematic_layout, schematic_svg};
 
 /// Default picture size in pixels (width, height).
@@ -411,4 +411,28 @@ pub fn heat_map(path: &Path, map: &HeatMap) -> Result<(), PlotError> {
     let format = output_format(path)?;
     let fig = HeatFigure::new(map)?;
     render(path, format, map.size, &fig)
+}
+
+/// The grouped bar chart of [`grouped_bar_chart`] as an SVG document in a
+/// string (for embedding, e.g. in an HTML report).
+pub fn grouped_bar_chart_svg(chart: &BarChart) -> Result<String, PlotError> {
+    svg_string(chart.size, &BarFigure::new(chart)?)
+}
+
+/// The line chart of [`line_chart`] as an SVG document in a string.
+pub fn line_chart_svg(chart: &LineChart) -> Result<String, PlotError> {
+    let fig = StackFigure::new(std::slice::from_ref(chart))?;
+    svg_string(fig.size, &fig)
+}
+
+/// The stacked line charts of [`stacked_line_charts`] as an SVG document in a
+/// string.
+pub fn stacked_line_charts_svg(charts: &[LineChart]) -> Result<String, PlotError> {
+    let fig = StackFigure::new(charts)?;
+    svg_string(fig.size, &fig)
+}
+
+/// The heat map of [`heat_map`] as an SVG document in a string.
+pub fn heat_map_svg(map: &HeatMap) -> Result<String, PlotError> {
+    svg_string(map.size, &HeatFigure::new(map)?)
 }
