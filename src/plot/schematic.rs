@@ -16,6 +16,7 @@ use std::fmt::Write;
 
 use crate::circuit::{Circuit, TapLocation};
 use crate::elements::{Connection, NodeId};
+use crate::html::escape as esc;
 
 /// Font family written into the picture (the embedded font first).
 const FONT: &str = "DejaVu Sans, sans-serif";
@@ -244,28 +245,20 @@ fn layout(c: &Circuit, hang: &[Vec<Hanging>]) -> Layout {
     }
 }
 
-/// Escapes text for SVG/XML content and attribute values.
-fn esc(s: &str) -> String {
-    let mut out = String::with_capacity(s.len());
-    for ch in s.chars() {
-        match ch {
-            '&' => out.push_str("&amp;"),
-            '<' => out.push_str("&lt;"),
-            '>' => out.push_str("&gt;"),
-            '"' => out.push_str("&quot;"),
-            '\'' => out.push_str("&#39;"),
-            c if (c as u32) < 0x20 && c != '\t' && c != '\n' => {}
-            c => out.push(c),
-        }
-    }
-    out
-}
-
 fn text(out: &mut String, x: f64, y: f64, s: &str, size: f64, fill: &str, anchor: &str) {
     let _ = writeln!(
         out,
         r#"<text x="{x:.1}" y="{y:.1}" font-size="{size}" fill="{fill}" text-anchor="{anchor}">{}</text>"#,
         esc(s)
+    );
+}
+
+/// A rectangle with its top-left corner at (x, y), outlined in ink.
+#[allow(clippy::too_many_arguments)]
+fn rect(out: &mut String, x: f64, y: f64, w: f64, h: f64, rx: f64, fill: &str, stroke_w: f64) {
+    let _ = writeln!(
+        out,
+        r#"<rect x="{x:.1}" y="{y:.1}" width="{w:.1}" height="{h:.1}" rx="{rx:.1}" fill="{fill}" stroke="{INK}" stroke-width="{stroke_w}"/>"#
     );
 }
 
@@ -284,12 +277,7 @@ fn series_symbol(out: &mut String, kind: &str, x: f64, y: f64) {
     match kind {
         "tube" => {
             // a pipe: two parallel walls
-            let _ = writeln!(
-                out,
-                r#"<rect x="{:.1}" y="{:.1}" width="56" height="10" fill="white" stroke="{INK}" stroke-width="1.5"/>"#,
-                x - 28.0,
-                y - 5.0
-            );
+            rect(out, x - 28.0, y - 5.0, 56.0, 10.0, 0.0, "white", 1.5);
         }
         "hose" => {
             // a flexible line: a wave
@@ -325,20 +313,10 @@ fn series_symbol(out: &mut String, kind: &str, x: f64, y: f64) {
         }
         "inertance" => {
             // a short passage of mass: a filled bar
-            let _ = writeln!(
-                out,
-                r#"<rect x="{:.1}" y="{:.1}" width="30" height="8" fill="{INK}"/>"#,
-                x - 15.0,
-                y - 4.0
-            );
+            rect(out, x - 15.0, y - 4.0, 30.0, 8.0, 0.0, INK, 0.0);
         }
         "expansion_chamber" => {
-            let _ = writeln!(
-                out,
-                r#"<rect x="{:.1}" y="{:.1}" width="44" height="26" rx="3" fill="white" stroke="{INK}" stroke-width="2"/>"#,
-                x - 22.0,
-                y - 13.0
-            );
+            rect(out, x - 22.0, y - 13.0, 44.0, 26.0, 3.0, "white", 2.0);
         }
         _ => generic_box(out, kind, x, y),
     }
@@ -346,12 +324,7 @@ fn series_symbol(out: &mut String, kind: &str, x: f64, y: f64) {
 
 fn generic_box(out: &mut String, kind: &str, x: f64, y: f64) {
     let w = text_w(kind) * 0.85 + 10.0;
-    let _ = writeln!(
-        out,
-        r#"<rect x="{:.1}" y="{:.1}" width="{w:.1}" height="18" fill="white" stroke="{INK}" stroke-width="1.5"/>"#,
-        x - w / 2.0,
-        y - 9.0
-    );
+    rect(out, x - w / 2.0, y - 9.0, w, 18.0, 0.0, "white", 1.5);
     text(out, x, y + 4.0, kind, 10.0, INK, "middle");
 }
 
@@ -361,12 +334,7 @@ fn hanging_symbol(out: &mut String, kind: &str, x: f64, y: f64) {
     match kind {
         "pump" => pump_symbol(out, x, y - 15.0, true),
         "volume" => {
-            let _ = writeln!(
-                out,
-                r#"<rect x="{:.1}" y="{:.1}" width="30" height="26" fill="white" stroke="{INK}" stroke-width="2"/>"#,
-                x - 15.0,
-                y - 26.0
-            );
+            rect(out, x - 15.0, y - 26.0, 30.0, 26.0, 0.0, "white", 2.0);
         }
         "pulsation_damper" => {
             // a gas-charged vessel: a capsule with the separating membrane
@@ -561,6 +529,14 @@ fn picture_size(c: &Circuit, l: &Layout) -> (f64, f64) {
     (w.max(title_w).max(legend_w).max(420.0), h)
 }
 
+/// Draws a series element: its path, its symbol at `mid` and its name above.
+fn connection(out: &mut String, c: &Circuit, element: usize, pts: &[(f64, f64)], mid: (f64, f64)) {
+    line(out, pts, INK, 2.0);
+    series_symbol(out, kind_of(c, element), mid.0, mid.1);
+    let name = &c.elements[element].name;
+    text(out, mid.0, mid.1 - 20.0, name, 12.0, INK, "middle");
+}
+
 /// Draws `circuit` as a schematic and returns the SVG document.
 ///
 /// Every element appears with a symbol for its kind and its name, every pump
@@ -592,17 +568,12 @@ pub fn schematic_svg(circuit: &Circuit) -> String {
         } else {
             vec![(x0, y0), (x0, y1), (x1, y1)]
         };
-        line(&mut out, &pts, INK, 2.0);
-        let (mx, my) = ((pts[pts.len() - 2].0 + x1) / 2.0, y1);
-        series_symbol(&mut out, kind_of(c, e.element), mx, my);
-        text(
+        connection(
             &mut out,
-            mx,
-            my - 20.0,
-            &c.elements[e.element].name,
-            12.0,
-            INK,
-            "middle",
+            c,
+            e.element,
+            &pts,
+            ((pts[pts.len() - 2].0 + x1) / 2.0, y1),
         );
         // the file's "from" end first
         let mut p = pts;
@@ -632,17 +603,12 @@ pub fn schematic_svg(circuit: &Circuit) -> String {
             (x_end, y1 + off),
             (x1, y1),
         ];
-        line(&mut out, &pts, INK, 2.0);
-        let (mx, my) = ((x0 - off + x_end) / 2.0, lane);
-        series_symbol(&mut out, kind_of(c, e.element), mx, my);
-        text(
+        connection(
             &mut out,
-            mx,
-            my - 20.0,
-            &c.elements[e.element].name,
-            12.0,
-            INK,
-            "middle",
+            c,
+            e.element,
+            &pts,
+            ((x0 - off + x_end) / 2.0, lane),
         );
         paths[e.element] = pts;
     }
