@@ -57,6 +57,7 @@ pub mod network;
 pub mod oil;
 pub mod plot;
 pub mod source;
+pub mod uncertainty;
 pub mod units;
 pub mod wall;
 
