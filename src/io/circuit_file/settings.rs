@@ -281,6 +281,35 @@ impl CircuitTemplate {
         Ok(out)
     }
 
+    /// The pumps given by a source file: their index in the circuit, name,
+    /// and the file's path (relative to the circuit file's folder).
+    pub fn source_files(&self) -> Vec<(usize, String, std::path::PathBuf)> {
+        let base = std::path::Path::new(&self.file)
+            .parent()
+            .map(std::path::Path::to_path_buf)
+            .unwrap_or_default();
+        let pumps: Vec<(&Value, String)> =
+            match (self.document.get("pump"), self.document.get("pumps")) {
+                (Some(p), _) => vec![(p, name_of(p).unwrap_or_else(|| "pump".into()))],
+                (None, Some(list)) => list
+                    .as_sequence()
+                    .into_iter()
+                    .flatten()
+                    .enumerate()
+                    .map(|(i, p)| (p, name_of(p).unwrap_or_else(|| format!("pump {}", i + 1))))
+                    .collect(),
+                _ => Vec::new(),
+            };
+        pumps
+            .into_iter()
+            .enumerate()
+            .filter_map(|(i, (p, name))| {
+                let f = p.get("source_file")?.as_str()?;
+                Some((i, name, base.join(f)))
+            })
+            .collect()
+    }
+
     fn walk(&self, value: &Value, path: &KeyPath, label: &str, out: &mut Vec<Uncertain>) {
         match value {
             Value::Mapping(m) => {
