@@ -59,11 +59,15 @@ pub enum Parameter {
     GasVolume,
     /// Precharge pressure of a damper (absolute).
     Precharge,
+    /// How far an expansion chamber's inlet pipe reaches into its shell.
+    InletExtension,
+    /// How far an expansion chamber's outlet pipe reaches into its shell.
+    OutletExtension,
 }
 
 impl Parameter {
     /// Every parameter.
-    pub const ALL: [Parameter; 7] = [
+    pub const ALL: [Parameter; 9] = [
         Parameter::Length,
         Parameter::Bore,
         Parameter::Volume,
@@ -71,6 +75,8 @@ impl Parameter {
         Parameter::NeckBore,
         Parameter::GasVolume,
         Parameter::Precharge,
+        Parameter::InletExtension,
+        Parameter::OutletExtension,
     ];
 
     /// The name used on the command line (the circuit-file key).
@@ -83,6 +89,8 @@ impl Parameter {
             Parameter::NeckBore => "neck_bore",
             Parameter::GasVolume => "gas_volume",
             Parameter::Precharge => "precharge",
+            Parameter::InletExtension => "inlet_extension",
+            Parameter::OutletExtension => "outlet_extension",
         }
     }
 
@@ -95,9 +103,12 @@ impl Parameter {
     /// `abs` or `gauge`).
     pub fn dimension(self) -> Dimension {
         match self {
-            Parameter::Length | Parameter::Bore | Parameter::NeckLength | Parameter::NeckBore => {
-                Dimension::Length
-            }
+            Parameter::Length
+            | Parameter::Bore
+            | Parameter::NeckLength
+            | Parameter::NeckBore
+            | Parameter::InletExtension
+            | Parameter::OutletExtension => Dimension::Length,
             Parameter::Volume | Parameter::GasVolume => Dimension::Volume,
             Parameter::Precharge => Dimension::Pressure,
         }
@@ -107,7 +118,11 @@ impl Parameter {
     pub fn for_kind(kind: &ElementKind) -> &'static [Parameter] {
         use Parameter::*;
         match kind {
+            ElementKind::ExpansionChamber(c) if c.ports.is_some() => {
+                &[Length, Bore, InletExtension, OutletExtension]
+            }
             ElementKind::SideBranch(_) | ElementKind::ExpansionChamber(_) => &[Length, Bore],
+            ElementKind::InlineDamper(_) => &[GasVolume, Precharge],
             ElementKind::Helmholtz(_) => &[Volume, NeckLength, NeckBore],
             ElementKind::Damper(_) => &[GasVolume, Precharge, NeckLength, NeckBore],
             _ => &[],
@@ -128,6 +143,14 @@ impl Parameter {
             (Parameter::Precharge, ElementKind::Damper(d)) => d.precharge_pa,
             (Parameter::NeckLength, ElementKind::Damper(d)) => d.neck_length_m,
             (Parameter::NeckBore, ElementKind::Damper(d)) => 2.0 * d.neck.radius_m,
+            (Parameter::InletExtension, ElementKind::ExpansionChamber(c)) => {
+                c.ports?.inlet_extension_m
+            }
+            (Parameter::OutletExtension, ElementKind::ExpansionChamber(c)) => {
+                c.ports?.outlet_extension_m
+            }
+            (Parameter::GasVolume, ElementKind::InlineDamper(d)) => d.vessel.gas_volume_m3,
+            (Parameter::Precharge, ElementKind::InlineDamper(d)) => d.vessel.precharge_pa,
             _ => return None,
         })
     }
@@ -149,10 +172,31 @@ impl Parameter {
         let mut k = kind.clone();
         match (self, &mut k) {
             (Parameter::Length, ElementKind::SideBranch(s)) => s.tube.line.length_m = value,
-            (Parameter::Length, ElementKind::ExpansionChamber(c)) => c.tube.line.length_m = value,
+            (Parameter::Length, ElementKind::ExpansionChamber(c)) => {
+                c.tube.line.length_m = value;
+                check_chamber(c)?;
+            }
             (Parameter::Bore, ElementKind::SideBranch(s)) => set_bore(&mut s.tube, value, fluid)?,
             (Parameter::Bore, ElementKind::ExpansionChamber(c)) => {
-                set_bore(&mut c.tube, value, fluid)?
+                set_bore(&mut c.tube, value, fluid)?;
+                check_chamber(c)?;
+            }
+            (Parameter::InletExtension, ElementKind::ExpansionChamber(c)) if c.ports.is_some() => {
+                if let Some(p) = c.ports.as_mut() {
+                    p.inlet_extension_m = value;
+                }
+                check_chamber(c)?;
+            }
+            (Parameter::OutletExtension, ElementKind::ExpansionChamber(c)) if c.ports.is_some() => {
+                if let Some(p) = c.ports.as_mut() {
+                    p.outlet_extension_m = value;
+                }
+                check_chamber(c)?;
+            }
+            (Parameter::GasVolume, ElementKind::InlineDamper(d)) => d.vessel.gas_volume_m3 = value,
+            (Parameter::Precharge, ElementKind::InlineDamper(d)) => {
+                d.vessel.precharge_pa = value;
+                d.vessel.validate().map_err(|e| e.to_string())?;
             }
             (Parameter::Volume, ElementKind::Helmholtz(h)) => h.volume_m3 = value,
             (Parameter::NeckLength, ElementKind::Helmholtz(h)) => h.neck_length_m = value,
@@ -174,6 +218,27 @@ impl Parameter {
         }
         Ok(k)
     }
+}
+
+/// An expansion chamber's ports must be narrower than its shell and its
+/// extended pipes must leave a gap between them.
+fn check_chamber(c: &crate::elements::ExpansionChamber) -> Result<(), String> {
+    let Some(p) = &c.ports else { return Ok(()) };
+    if p.pipe.radius_m >= c.tube.line.properties.radius_m {
+        return Err(format!(
+            "a chamber bore of {:.2} mm is not larger than its ports' {:.2} mm",
+            c.tube.bore_m() * 1e3,
+            p.pipe.radius_m * 2e3
+        ));
+    }
+    if p.inlet_extension_m + p.outlet_extension_m >= c.tube.line.length_m {
+        return Err(format!(
+            "extended pipes of {:.1} mm together fill a chamber {:.1} mm long",
+            (p.inlet_extension_m + p.outlet_extension_m) * 1e3,
+            c.tube.line.length_m * 1e3
+        ));
+    }
+    Ok(())
 }
 
 /// A new bore for a tube, with its wall's compliance at that bore.

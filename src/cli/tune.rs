@@ -396,7 +396,7 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
             .collect::<Vec<_>>()
             .join(", ")
     )?;
-    if matches!(e.kind, ElementKind::Damper(_)) {
+    if e.kind.is_pressure_vessel() {
         writeln!(out)?;
         writeln!(out, "{PRESSURE_VESSEL_CAUTION}")?;
     }
