@@ -1752,3 +1752,67 @@ fn a_closed_stdout_keeps_the_output_files_and_exits_0() {
     assert_eq!(text.lines().count(), 1 + 5 * 10);
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+// The figures of README.md's relief-valve example ("Example: a relief valve
+// whose poppet resonance meets a pump harmonic"), from `check`, `response`
+// and `solve` on networks/compactor_relief_valve.yaml and on the same file
+// with the poppet damped to 150 N·s/m. If the model changes, update both.
+#[test]
+fn the_relief_valve_readme_numbers_hold() {
+    let file = "networks/compactor_relief_valve.yaml";
+    let readme =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("README.md")).unwrap();
+    let o = ripline(&["check", file]);
+    let (out, err) = (stdout(&o), stderr(&o));
+    for want in [
+        "mean opening 0.7402 mm",
+        "flow gain K_q 3.3773e-1 m²/s",
+        "flow force adds 22.5 N/mm",
+        "natural frequency 308.3 Hz, damping ratio 0.057",
+    ] {
+        assert!(out.contains(want), "`{want}` missing in:\n{out}");
+    }
+    for want in [
+        "harmonic 1 crosses it at 1542 rpm; harmonic 2 crosses it at 771 rpm",
+        "from 313.6 Hz to 1925.2 Hz",
+        "damping ≥ K_q·m/A = 121.583 N·s/m",
+    ] {
+        assert!(err.contains(want), "`{want}` missing in:\n{err}");
+        assert!(readme.contains(want), "README lacks `{want}`");
+    }
+    let dir = scratch("relief-readme");
+    let damped = dir.join("damped.yaml");
+    let text = std::fs::read_to_string(file).unwrap();
+    std::fs::write(
+        &damped,
+        text.replace("damping: 4 N·s/m", "damping: 150 N·s/m"),
+    )
+    .unwrap();
+    let damped = damped.to_str().unwrap();
+    let resonance = |f: &str, freq: &str, q: &str, level: &str| {
+        let out = stdout(&ripline(&["response", f]));
+        assert!(
+            out.lines()
+                .any(|l| l.contains(freq) && l.contains(q) && l.contains(level)),
+            "{freq} {q} {level} missing in:\n{out}"
+        );
+    };
+    resonance(file, "667.85", " 47.0 ", "4.401 bar per L/min");
+    resonance(damped, "658.21", " 13.8 ", "1.445 bar per L/min");
+    let ram = |f: &str, want: &str| {
+        let out = stdout(&ripline(&["solve", f]));
+        let tail = &out[out.find("point `ram`").unwrap()..];
+        assert!(tail.contains(want), "{want} missing in:\n{tail}");
+    };
+    ram(file, "overall: 1.977 kPa rms");
+    ram(damped, "overall: 3.567 kPa rms");
+    assert!(!stderr(&ripline(&["check", damped])).contains("warning"));
+    for want in [
+        "has Q = 47 and\n4.4 bar per L/min",
+        "Q = 14 and 1.4 bar per L/min",
+        "2.0 kPa rms with the light poppet and 3.6 kPa rms with the\ndamped one",
+    ] {
+        assert!(readme.contains(want), "README lacks `{want}`");
+    }
+    std::fs::remove_dir_all(dir).unwrap();
+}
