@@ -8,12 +8,17 @@
 //!   divided): T = [[1, 0], [Y, 1]] (Munjal, *Acoustics of Ducts and
 //!   Mufflers*, 2014, ch. 3, for both).
 //!
-//! The network stamps them by their transfer matrix (branch-flow unknowns),
-//! which stays finite at every frequency.
+//! The network stamps a lossy one by its admittance matrix, found by
+//! eliminating the internal junctions one after the other along the chain
+//! ([`ladder_admittance`]): the result is symmetric by construction (the
+//! chain is reciprocal) and needs no products of growing hyperbolic
+//! functions, whose round-off would leave det T = 1 only to about
+//! |T|²·ε. A lossless one is stamped by its transfer matrix (branch-flow
+//! unknowns), which stays finite where the admittance has poles.
 
 use super::silencers::tanh_gamma_l;
-use super::{PulsationDamper, Tube};
-use crate::line::{Line, LineProperties, Propagation, Transfer2};
+use super::{Behaviour, PulsationDamper, Tube};
+use crate::line::{Admittance2, Line, LineProperties, Propagation, Transfer2};
 use num_complex::Complex64 as C64;
 use std::f64::consts::PI;
 
@@ -34,6 +39,52 @@ pub fn cascade(a: &Transfer2, b: &Transfer2) -> Transfer2 {
 /// The transfer matrix of a shunt admittance at a junction, [[1, 0], [Y, 1]].
 pub fn shunt_transfer(y: C64) -> Transfer2 {
     [[ONE, ZERO], [y, ONE]]
+}
+
+/// One piece of a chain of lines with shunts at their junctions.
+#[derive(Debug, Clone, Copy)]
+pub enum Rung<'a> {
+    /// A line of the given properties and length, with its propagation.
+    Line(&'a LineProperties, f64, &'a Propagation),
+    /// A shunt admittance at the junction where it stands.
+    Shunt(C64),
+}
+
+/// The admittance two-port of a chain of lines with shunts at their
+/// junctions, from its first end to its last, by eliminating each junction
+/// in turn: with [[A, B], [B, D]] the chain so far (first end, current
+/// junction), a shunt y adds to D, and a line [[c, −s], [−s, c]] (c = coth(Γl)/Zc,
+/// s = csch(Γl)/Zc) gives, with p = D + c, A' = A − B²/p, B' = B s/p,
+/// D' = c − s²/p (Gaussian elimination of the junction's row). Lines of zero
+/// length join their ends. `None` when the chain has no line of nonzero
+/// length or a line has no admittance form (Γl = 0).
+pub fn ladder_admittance(rungs: &[Rung<'_>]) -> Option<Admittance2> {
+    let mut first_shunt = ZERO;
+    let mut chain: Option<(C64, C64, C64)> = None;
+    for rung in rungs {
+        match (*rung, chain.as_mut()) {
+            (Rung::Shunt(y), None) => first_shunt += y,
+            (Rung::Shunt(y), Some((_, _, d))) => *d += y,
+            (Rung::Line(_, l, _), _) if l == 0.0 => {}
+            (Rung::Line(props, l, prop), state) => {
+                let y = Line {
+                    properties: *props,
+                    length_m: l,
+                }
+                .admittance(prop)?;
+                let (c, s) = (y[0][0], -y[0][1]);
+                chain = Some(match state {
+                    None => (c + first_shunt, -s, c),
+                    Some(&mut (a, b, d)) => {
+                        let p = d + c;
+                        (a - b * b / p, b * s / p, c - s * s / p)
+                    }
+                });
+            }
+        }
+    }
+    let (a, b, d) = chain?;
+    Some([[a, b], [b, d]])
 }
 
 /// The transfer matrix of a line of the given properties and length at ω
@@ -91,6 +142,27 @@ impl InlineDamper {
         let vessel = shunt_transfer(C64::new(0.0, omega * self.compliance()));
         cascade(&cascade(&tp, &vessel), &tp)
     }
+
+    /// Whether its ports are lossless (then it is stamped by its transfer
+    /// matrix).
+    pub fn is_lossless(&self) -> bool {
+        self.vessel.neck.is_lossless()
+    }
+
+    /// What the network stamps at ω: the admittance of the chain, or its
+    /// transfer matrix when lossless.
+    pub fn behaviour(&self, omega: f64, port: &Propagation) -> Behaviour {
+        if self.is_lossless() {
+            return Behaviour::Transfer(self.transfer(omega, port));
+        }
+        let (neck, l) = (&self.vessel.neck, self.vessel.neck_length_m);
+        ladder_admittance(&[
+            Rung::Line(neck, l, port),
+            Rung::Shunt(C64::new(0.0, omega * self.compliance())),
+            Rung::Line(neck, l, port),
+        ])
+        .map_or(Behaviour::Nothing, Behaviour::Admittance)
+    }
 }
 
 /// The inlet and outlet geometry of an in-line expansion chamber: a port
@@ -132,9 +204,9 @@ impl ChamberPorts {
         }
     }
 
-    /// The chamber's transfer matrix at ω: `shell` is the shell tube and
-    /// `shell_prop` its propagation.
-    pub fn transfer(&self, omega: f64, shell: &Tube, shell_prop: &Propagation) -> Transfer2 {
+    /// The chain at ω: inlet pipe, inlet annulus, shell, outlet annulus,
+    /// outlet pipe, as (pipe propagation, branch admittances, shell length).
+    fn pieces(&self, omega: f64, shell: &Tube) -> (Propagation, C64, C64, f64) {
         let pipe_prop = self.pipe.propagation(omega);
         let annulus = self.annulus(&shell.line.properties);
         let annulus_prop = annulus.propagation(omega);
@@ -146,15 +218,45 @@ impl ChamberPorts {
             }
         };
         let (ei, eo) = (self.inlet_extension_m, self.outlet_extension_m);
-        let body = shell.line.length_m - ei - eo;
+        (
+            pipe_prop,
+            branch(ei),
+            branch(eo),
+            shell.line.length_m - ei - eo,
+        )
+    }
+
+    /// The chamber's transfer matrix at ω: `shell` is the shell tube and
+    /// `shell_prop` its propagation.
+    pub fn transfer(&self, omega: f64, shell: &Tube, shell_prop: &Propagation) -> Transfer2 {
+        let (pipe_prop, y_in, y_out, body) = self.pieces(omega, shell);
+        let (ei, eo) = (self.inlet_extension_m, self.outlet_extension_m);
         let parts = [
             line_transfer(&self.pipe, self.length_m + ei, &pipe_prop),
-            shunt_transfer(branch(ei)),
+            shunt_transfer(y_in),
             line_transfer(&shell.line.properties, body, shell_prop),
-            shunt_transfer(branch(eo)),
+            shunt_transfer(y_out),
             line_transfer(&self.pipe, eo + self.length_m, &pipe_prop),
         ];
         parts[1..].iter().fold(parts[0], |t, p| cascade(&t, p))
+    }
+
+    /// The chamber's admittance two-port at ω ([`ladder_admittance`]).
+    pub fn admittance(
+        &self,
+        omega: f64,
+        shell: &Tube,
+        shell_prop: &Propagation,
+    ) -> Option<Admittance2> {
+        let (pipe_prop, y_in, y_out, body) = self.pieces(omega, shell);
+        let (ei, eo) = (self.inlet_extension_m, self.outlet_extension_m);
+        ladder_admittance(&[
+            Rung::Line(&self.pipe, self.length_m + ei, &pipe_prop),
+            Rung::Shunt(y_in),
+            Rung::Line(&shell.line.properties, body, shell_prop),
+            Rung::Shunt(y_out),
+            Rung::Line(&self.pipe, eo + self.length_m, &pipe_prop),
+        ])
     }
 
     /// The lossless quarter-wave frequency c/(4e) of an annulus of length
@@ -234,6 +336,60 @@ mod tests {
                 length_m: length,
             },
             wall: Wall::Rigid,
+        }
+    }
+
+    // The admittance found by eliminating the junctions is the transfer
+    // matrix's: Y = (1/T12)[[T22, −det T], [−1, T11]] (methods.md §7.1),
+    // for a lossy chamber with both pipes extended and for a damper.
+    #[test]
+    fn ladder_admittance_agrees_with_the_transfer_chain() {
+        let check = |t: Transfer2, y: Admittance2| {
+            let det = t[0][0] * t[1][1] - t[0][1] * t[1][0];
+            let want = [
+                [t[1][1] / t[0][1], -det / t[0][1]],
+                [-ONE / t[0][1], t[0][0] / t[0][1]],
+            ];
+            for i in 0..2 {
+                for j in 0..2 {
+                    assert!((y[i][j] - want[i][j]).norm() < 1e-9 * want[i][j].norm());
+                }
+            }
+            assert_eq!(y[0][1], y[1][0]);
+        };
+        let mut s = shell(0.5, 0.08);
+        s.line.properties.model = LineModel::Laminar;
+        let ports = ChamberPorts {
+            pipe: props(0.02, LineModel::Laminar),
+            length_m: 0.03,
+            inlet_extension_m: 0.12,
+            outlet_extension_m: 0.07,
+        };
+        let port = props(0.02, LineModel::Laminar);
+        let d = InlineDamper {
+            vessel: PulsationDamper {
+                gas_volume_m3: 0.2e-3,
+                precharge_pa: 60e5,
+                operating_pa: 100e5,
+                polytropic_index: 1.4,
+                bulk_modulus_pa: RHO * C0 * C0,
+                neck_length_m: 0.04,
+                neck: port,
+            },
+            oil_volume_m3: 0.0,
+        };
+        for f in [3.0, 140.0, 1100.0] {
+            let w = 2.0 * PI * f;
+            let prop = s.line.properties.propagation(w);
+            check(
+                ports.transfer(w, &s, &prop),
+                ports.admittance(w, &s, &prop).unwrap(),
+            );
+            let pp = port.propagation(w);
+            let Behaviour::Admittance(y) = d.behaviour(w, &pp) else {
+                panic!("a lossy damper is stamped by its admittance")
+            };
+            check(d.transfer(w, &pp), y);
         }
     }
 

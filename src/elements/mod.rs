@@ -25,7 +25,7 @@ mod valves;
 pub use actuators::{Cylinder, CylinderPorts};
 pub use ends::Anechoic;
 pub use hose::{Hose, HosePressure};
-pub use inline::{ChamberPorts, InlineDamper, cascade, shunt_transfer};
+pub use inline::{ChamberPorts, InlineDamper, Rung, cascade, ladder_admittance, shunt_transfer};
 pub use lumped::{Inertance, LoadValve, Orifice, Volume, orifice_resistance};
 pub use silencers::{
     DamperError, ExpansionChamber, FLANGED_END_CORRECTION, HelmholtzResonator,
@@ -181,12 +181,13 @@ impl ElementKind {
             ElementKind::ExpansionChamber(c) if c.needs_branch_flows() => {
                 ConnectionKind::TransferTwoPort
             }
-            ElementKind::InlineDamper(_) => ConnectionKind::TransferTwoPort,
+            ElementKind::InlineDamper(d) if d.is_lossless() => ConnectionKind::TransferTwoPort,
             ElementKind::ReliefValve(v) if !v.in_line => ConnectionKind::Shunt,
             ElementKind::Cylinder(c) if c.ports != CylinderPorts::Both => ConnectionKind::Shunt,
-            ElementKind::ReliefValve(_) | ElementKind::CheckValve(_) | ElementKind::Cylinder(_) => {
-                ConnectionKind::AdmittanceTwoPort
-            }
+            ElementKind::ReliefValve(_)
+            | ElementKind::CheckValve(_)
+            | ElementKind::Cylinder(_)
+            | ElementKind::InlineDamper(_) => ConnectionKind::AdmittanceTwoPort,
             ElementKind::SideBranch(_) | ElementKind::Helmholtz(_) | ElementKind::Damper(_) => {
                 ConnectionKind::Shunt
             }
@@ -252,7 +253,7 @@ impl ElementKind {
             ElementKind::ReliefValve(v) => v.behaviour(omega),
             ElementKind::CheckValve(v) => v.behaviour(omega),
             ElementKind::Cylinder(c) => c.behaviour(omega),
-            ElementKind::InlineDamper(d) => Behaviour::Transfer(d.transfer(omega, line())),
+            ElementKind::InlineDamper(d) => d.behaviour(omega, line()),
         }
     }
 

@@ -100,14 +100,19 @@ impl ExpansionChamber {
     pub fn behaviour(&self, omega: f64, prop: &Propagation) -> Behaviour {
         match &self.ports {
             None => self.tube.behaviour(prop),
-            Some(p) => Behaviour::Transfer(p.transfer(omega, &self.tube, prop)),
+            Some(p) if self.needs_branch_flows() => {
+                Behaviour::Transfer(p.transfer(omega, &self.tube, prop))
+            }
+            Some(p) => p
+                .admittance(omega, &self.tube, prop)
+                .map_or(Behaviour::Nothing, Behaviour::Admittance),
         }
     }
 
-    /// Whether the network gives it branch-flow unknowns (ports, or a
-    /// lossless shell).
+    /// Whether the network gives it branch-flow unknowns (a lossless
+    /// shell, whose ports share its friction model).
     pub fn needs_branch_flows(&self) -> bool {
-        self.ports.is_some() || self.tube.needs_branch_flows()
+        self.tube.needs_branch_flows()
     }
 
     /// Lossless frequency of the first transmission-loss maximum, c0/(4l).
