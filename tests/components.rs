@@ -104,6 +104,19 @@ fn relief_valve_resonance_is_flagged_against_the_pump_harmonics() {
     assert!(diagnostics::component_warnings(&damped).is_empty());
     // They also reach every other command through circuit_warnings.
     assert!(diagnostics::circuit_warnings(&c, 1000.0).len() >= 2);
+    // `tune` can size the poppet's damping; at ω_n the admittance is then
+    // K_c + (K_q + jω_n A)A/(jω_n b) with the new b (by hand from Y).
+    let relief = kind(&c, "relief");
+    assert_eq!(Parameter::for_kind(relief), [Parameter::Damping]);
+    let tuned = Parameter::Damping.apply(relief, 60.0, &c.fluid).unwrap();
+    let ElementKind::ReliefValve(v) = &tuned else {
+        panic!()
+    };
+    assert_eq!(Parameter::Damping.value(&tuned), Some(60.0));
+    let w = 2.0 * PI * v.poppet.natural_frequency_hz();
+    let (a, kq, kc) = (5e-5, 0.225, 6.25e-12);
+    let want = kc + C64::new(kq, w * a) * a / C64::new(0.0, w * 60.0);
+    assert!((v.poppet.admittance(w) - want).norm() < 1e-9 * want.norm());
 }
 
 // The oil-column resonance of a cylinder in a circuit: an ideal flow source

@@ -63,11 +63,14 @@ pub enum Parameter {
     InletExtension,
     /// How far an expansion chamber's outlet pipe reaches into its shell.
     OutletExtension,
+    /// Viscous damping of a relief or check valve's poppet (a damping
+    /// orifice or piston to be chosen).
+    Damping,
 }
 
 impl Parameter {
     /// Every parameter.
-    pub const ALL: [Parameter; 9] = [
+    pub const ALL: [Parameter; 10] = [
         Parameter::Length,
         Parameter::Bore,
         Parameter::Volume,
@@ -77,6 +80,7 @@ impl Parameter {
         Parameter::Precharge,
         Parameter::InletExtension,
         Parameter::OutletExtension,
+        Parameter::Damping,
     ];
 
     /// The name used on the command line (the circuit-file key).
@@ -91,6 +95,7 @@ impl Parameter {
             Parameter::Precharge => "precharge",
             Parameter::InletExtension => "inlet_extension",
             Parameter::OutletExtension => "outlet_extension",
+            Parameter::Damping => "damping",
         }
     }
 
@@ -111,6 +116,7 @@ impl Parameter {
             | Parameter::OutletExtension => Dimension::Length,
             Parameter::Volume | Parameter::GasVolume => Dimension::Volume,
             Parameter::Precharge => Dimension::Pressure,
+            Parameter::Damping => Dimension::Damping,
         }
     }
 
@@ -123,6 +129,11 @@ impl Parameter {
             }
             ElementKind::SideBranch(_) | ElementKind::ExpansionChamber(_) => &[Length, Bore],
             ElementKind::InlineDamper(_) => &[GasVolume, Precharge],
+            ElementKind::ReliefValve(_)
+            | ElementKind::CheckValve(crate::elements::CheckValve {
+                state: crate::elements::CheckState::Opening { .. },
+                ..
+            }) => &[Damping],
             ElementKind::Helmholtz(_) => &[Volume, NeckLength, NeckBore],
             ElementKind::Damper(_) => &[GasVolume, Precharge, NeckLength, NeckBore],
             _ => &[],
@@ -151,6 +162,14 @@ impl Parameter {
             }
             (Parameter::GasVolume, ElementKind::InlineDamper(d)) => d.vessel.gas_volume_m3,
             (Parameter::Precharge, ElementKind::InlineDamper(d)) => d.vessel.precharge_pa,
+            (Parameter::Damping, ElementKind::ReliefValve(v)) => v.poppet.damping_n_s_m,
+            (
+                Parameter::Damping,
+                ElementKind::CheckValve(crate::elements::CheckValve {
+                    state: crate::elements::CheckState::Opening { poppet, .. },
+                    ..
+                }),
+            ) => poppet.damping_n_s_m,
             _ => return None,
         })
     }
@@ -198,6 +217,14 @@ impl Parameter {
                 d.vessel.precharge_pa = value;
                 d.vessel.validate().map_err(|e| e.to_string())?;
             }
+            (Parameter::Damping, ElementKind::ReliefValve(v)) => v.poppet.damping_n_s_m = value,
+            (
+                Parameter::Damping,
+                ElementKind::CheckValve(crate::elements::CheckValve {
+                    state: crate::elements::CheckState::Opening { poppet, .. },
+                    ..
+                }),
+            ) => poppet.damping_n_s_m = value,
             (Parameter::Volume, ElementKind::Helmholtz(h)) => h.volume_m3 = value,
             (Parameter::NeckLength, ElementKind::Helmholtz(h)) => h.neck_length_m = value,
             (Parameter::NeckBore, ElementKind::Helmholtz(h)) => h.neck.radius_m = value / 2.0,

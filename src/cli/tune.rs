@@ -96,6 +96,7 @@ fn parse_vary(text: &str) -> anyhow::Result<Bound> {
             (p(lo)?, p(hi)?)
         }
         Dimension::Volume => ranges::parse_range("--vary", range, Dimension::Volume, "m3")?,
+        Dimension::Damping => ranges::parse_range("--vary", range, Dimension::Damping, "N.s/m")?,
         dim => ranges::parse_range("--vary", range, dim, "m")?,
     };
     if !(low > 0.0 && high > low) {
@@ -116,6 +117,7 @@ fn show(parameter: Parameter, value: f64) -> String {
         Dimension::Length if value < 0.1 => format!("{:.2} mm", value * 1e3),
         Dimension::Length => format!("{:.4} m", value),
         Dimension::Volume => format!("{:.4} L", value * 1e3),
+        Dimension::Damping => format!("{value:.4} N·s/m"),
         _ => format!("{:.3} bar abs", value / 1e5),
     }
 }
@@ -452,6 +454,7 @@ fn file_value(parameter: Parameter, value: f64) -> String {
     match parameter.dimension() {
         Dimension::Length => format!("{:.1} mm", value * 1e3),
         Dimension::Volume => format!("{:.3} L", value * 1e3),
+        Dimension::Damping => format!("{value:.3} N·s/m"),
         _ => format!("{:.2} bar abs", value / 1e5),
     }
 }
