@@ -18,6 +18,20 @@ use std::f64::consts::PI;
 
 const FLUID: &str = "fluid: {density: 870 kg/m3, bulk_modulus: 1.6 GPa, viscosity: 32 cSt}\n";
 
+/// A 9-element pump at node `p` with one harmonic, for the circuits below.
+const PUMP: &str = "\
+pump:
+  node: p
+  speed: 1500 rpm
+  pumping_elements: 9
+  flow_ripple: [{harmonic: 1, amplitude: 1 L/min}]
+  source_impedance: {volume: 0.1 L}
+";
+
+fn with_pump(elements: &str) -> String {
+    format!("{PUMP}{elements}")
+}
+
 fn circuit(body: &str) -> Circuit {
     parse_circuit(&format!("{FLUID}{body}"), "test.yaml").unwrap()
 }
@@ -169,12 +183,6 @@ elements:
 }
 
 const CHECK: &str = "\
-pump:
-  node: p
-  speed: 1500 rpm
-  pumping_elements: 9
-  flow_ripple: [{harmonic: 1, amplitude: 1 L/min}]
-  source_impedance: {volume: 0.1 L}
 elements:
   - {name: up, kind: tube, from: p, to: a, length: 1 m, bore: 12 mm, rigid: true}
   - name: check
@@ -199,11 +207,11 @@ elements:
 // Pa·s/m³, so the circuit solves as with that orifice.
 #[test]
 fn check_valve_states_from_the_operating_point() {
-    let closed = circuit(
+    let closed = circuit(&with_pump(
         &CHECK
             .replace("PRESSURE", "pressure_drop: -20 bar")
             .replace("    mean_flow: 20 L/min\n", ""),
-    );
+    ));
     assert!(matches!(
         kind(&closed, "check"),
         ElementKind::CheckValve(v) if v.state == CheckState::Closed
@@ -219,13 +227,15 @@ fn check_valve_states_from_the_operating_point() {
         C64::new(0.0, 0.0)
     );
 
-    let full = circuit(&CHECK.replace("PRESSURE", "pressure_drop: 4 bar"));
-    let orifice = circuit(
+    let full = circuit(&with_pump(
+        &CHECK.replace("PRESSURE", "pressure_drop: 4 bar"),
+    ));
+    let orifice = circuit(&with_pump(
         &CHECK.replace(
             "  - name: check\n    kind: check_valve\n    from: a\n    to: b\n    cracking_pressure: 0.5 bar\n    full_open_pressure: 3 bar\n    PRESSURE\n    mean_flow: 20 L/min\n    mass: 10 g\n    spring_rate: 2 N/mm\n    feedback_area: 80 mm2\n    damping: 5 N·s/m\n",
             "  - {name: check, kind: orifice, from: a, to: b, resistance: 2.4e9}\n",
         ),
-    );
+    ));
     for c in [&full, &orifice] {
         assert_eq!(c.elements.len(), 4);
     }
@@ -241,7 +251,9 @@ fn check_valve_states_from_the_operating_point() {
         assert!((x - y).norm() < 1e-9 * y.norm().max(1.0), "{x} vs {y}");
     }
     // Between cracking and full opening the poppet floats on its spring.
-    let opening = circuit(&CHECK.replace("PRESSURE", "pressure_drop: 1.5 bar"));
+    let opening = circuit(&with_pump(
+        &CHECK.replace("PRESSURE", "pressure_drop: 1.5 bar"),
+    ));
     assert!(matches!(
         kind(&opening, "check"),
         ElementKind::CheckValve(v) if matches!(v.state, CheckState::Opening { .. })
@@ -326,14 +338,8 @@ taps:
 // V_oil = 0.2 L.
 #[test]
 fn inline_damper_attenuates_as_a_compliance() {
-    let c = circuit(
+    let c = circuit(&with_pump(
         "\
-pump:
-  node: p
-  speed: 1500 rpm
-  pumping_elements: 9
-  flow_ripple: [{harmonic: 1, amplitude: 1 L/min}]
-  source_impedance: {volume: 0.1 L}
 elements:
   - {name: up, kind: tube, from: p, to: a, length: 1 m, bore: 16 mm, rigid: true}
   - name: damper
@@ -349,7 +355,7 @@ elements:
   - {name: down, kind: tube, from: b, to: t, length: 1 m, bore: 16 mm, rigid: true}
   - {name: load, kind: load_valve, at: t, resistance: 4e10}
 ",
-    );
+    ));
     let ElementKind::InlineDamper(d) = kind(&c, "damper") else {
         panic!()
     };
@@ -440,12 +446,6 @@ taps:
 }
 
 const HOSE: &str = "\
-pump:
-  node: p
-  speed: 1500 rpm
-  pumping_elements: 9
-  flow_ripple: [{harmonic: 1, amplitude: 1 L/min}]
-  source_impedance: {volume: 0.1 L}
 elements:
   - name: hose
     kind: hose
@@ -480,7 +480,7 @@ fn hose_wave_speed_follows_the_mean_pressure() {
     let at = |p: &str| {
         parse_circuit(
             &format!(
-                "fluid: {{density: 870 kg/m3, bulk_modulus: 1.6 GPa, viscosity: 32 cSt, pressure: {p}}}\n{HOSE}"
+                "fluid: {{density: 870 kg/m3, bulk_modulus: 1.6 GPa, viscosity: 32 cSt, pressure: {p}}}\n{PUMP}{HOSE}"
             ),
             "hose.yaml",
         )

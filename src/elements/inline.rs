@@ -65,8 +65,10 @@ pub fn ladder_admittance(rungs: &[Rung<'_>]) -> Option<Admittance2> {
         match (*rung, chain.as_mut()) {
             (Rung::Shunt(y), None) => first_shunt += y,
             (Rung::Shunt(y), Some((_, _, d))) => *d += y,
-            (Rung::Line(_, l, _), _) if l == 0.0 => {}
             (Rung::Line(props, l, prop), state) => {
+                if l == 0.0 {
+                    continue;
+                }
                 let y = Line {
                     properties: *props,
                     length_m: l,

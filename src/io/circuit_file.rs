@@ -18,7 +18,7 @@ use super::validate::{FileCheck, Res, WallKeys, WallModel};
 use crate::circuit::{Circuit, Node, Tap, TapLocation};
 use crate::elements::{
     Anechoic, Connection, Element, ElementKind, ExpansionChamber, HelmholtzResonator, Hose,
-    Inertance, LoadValve, Orifice, PulsationDamper, SideBranch, Tube, Volume, rigid_neck,
+    Inertance, LoadValve, Orifice, PulsationDamper, SideBranch, Tube, Volume,
 };
 use crate::fluid::Fluid;
 use crate::hose::{
@@ -670,8 +670,8 @@ impl Checker<'_> {
             }
             self.either_way(path, e)?;
             let connection = if e.is_two_port() {
-                let from = self.node_name(&path, "from", e.from.as_deref(), e.kind)?;
-                let to = self.node_name(&path, "to", e.to.as_deref(), e.kind)?;
+                let from = self.node_name(path, "from", e.from.as_deref(), e.kind)?;
+                let to = self.node_name(path, "to", e.to.as_deref(), e.kind)?;
                 if from == to {
                     return Err(self.err(
                         &path.key("to"),
@@ -683,7 +683,7 @@ impl Checker<'_> {
                     b: node_id(to),
                 }
             } else {
-                let at = self.node_name(&path, "at", e.at.as_deref(), e.kind)?;
+                let at = self.node_name(path, "at", e.at.as_deref(), e.kind)?;
                 Connection::Shunt { at: node_id(at) }
             };
             connections.push(connection);
@@ -1296,16 +1296,7 @@ impl Checker<'_> {
         let length =
             self.required_in(path, "neck_length", e.neck_length, e.kind, 1e-4, 10.0, "m")?;
         let bore = self.required_in(path, "neck_bore", e.neck_bore, e.kind, 1e-4, 0.5, "m")?;
-        let like = LineProperties {
-            radius_m: bore / 2.0,
-            density_kg_m3: fluid.density_kg_m3,
-            kinematic_viscosity_m2_s: fluid.kinematic_viscosity_m2_s,
-            effective_bulk_modulus_pa: fluid.bulk_modulus_pa,
-            model: e.model.map_or(default, LineModel::from),
-            viscoelastic_wall: None,
-            mean_flow: crate::line::MeanFlow::Unknown,
-        };
-        Ok((length, rigid_neck(&like, bore, fluid.bulk_modulus_pa)))
+        Ok((length, components::drilled_passage(bore, e, fluid, default)))
     }
 
     fn helmholtz(

@@ -70,6 +70,26 @@ pub(super) struct RawCavity {
     volume: Q<q::Volume>,
 }
 
+/// A rigid drilled passage of the given bore in the liquid, with the
+/// element's friction model (or the circuit's): a resonator's neck, a port.
+pub(super) fn drilled_passage(
+    bore: f64,
+    e: &RawElement,
+    fluid: &Fluid,
+    default: LineModel,
+) -> LineProperties {
+    let like = LineProperties {
+        radius_m: bore / 2.0,
+        density_kg_m3: fluid.density_kg_m3,
+        kinematic_viscosity_m2_s: fluid.kinematic_viscosity_m2_s,
+        effective_bulk_modulus_pa: fluid.bulk_modulus_pa,
+        model: e.model.map_or(default, LineModel::from),
+        viscoelastic_wall: None,
+        mean_flow: MeanFlow::Unknown,
+    };
+    rigid_neck(&like, bore, fluid.bulk_modulus_pa)
+}
+
 /// The ports of a valve block: port name → circuit node.
 pub(super) type RawPorts = BTreeMap<String, String>;
 
@@ -159,15 +179,16 @@ impl Checker<'_> {
         })
     }
 
+    /// The required `cracking_pressure` (Pa, not negative).
+    fn cracking_pressure(&self, path: &KeyPath, e: &RawElement) -> Res<f64> {
+        let p = self.required(path, "cracking_pressure", e.cracking_pressure, e.kind)?;
+        self.non_negative(&path.key("cracking_pressure"), p, 1e9, "Pa")
+    }
+
     /// The operating point `mean_flow`, `pressure_drop` with `cracking_pressure`.
     fn operating_point(&self, path: &KeyPath, e: &RawElement) -> Res<OperatingPoint> {
         let k = e.kind;
-        let cracking = self.non_negative(
-            &path.key("cracking_pressure"),
-            self.required(path, "cracking_pressure", e.cracking_pressure, k)?,
-            1e9,
-            "Pa",
-        )?;
+        let cracking = self.cracking_pressure(path, e)?;
         let q = self.required_in(path, "mean_flow", e.mean_flow, k, 1e-9, 10.0, "m³/s")?;
         let p = self.required_in(path, "pressure_drop", e.pressure_drop, k, 1.0, 1e9, "Pa")?;
         Ok(OperatingPoint {
@@ -202,12 +223,7 @@ impl Checker<'_> {
         fluid: &Fluid,
     ) -> Res<CheckValve> {
         let k = e.kind;
-        let cracking = self.non_negative(
-            &path.key("cracking_pressure"),
-            self.required(path, "cracking_pressure", e.cracking_pressure, k)?,
-            1e9,
-            "Pa",
-        )?;
+        let cracking = self.cracking_pressure(path, e)?;
         let dp = self.required(path, "pressure_drop", e.pressure_drop, k)?;
         if dp.abs() > 1e9 {
             return Err(self.err(
@@ -387,16 +403,7 @@ impl Checker<'_> {
         length_m: f64,
     ) -> Res<(f64, LineProperties)> {
         let bore = self.required_in(path, "port_bore", e.port_bore, e.kind, 1e-4, 0.5, "m")?;
-        let like = LineProperties {
-            radius_m: bore / 2.0,
-            density_kg_m3: fluid.density_kg_m3,
-            kinematic_viscosity_m2_s: fluid.kinematic_viscosity_m2_s,
-            effective_bulk_modulus_pa: fluid.bulk_modulus_pa,
-            model: e.model.map_or(default, LineModel::from),
-            viscoelastic_wall: None,
-            mean_flow: MeanFlow::Unknown,
-        };
-        Ok((length_m, rigid_neck(&like, bore, fluid.bulk_modulus_pa)))
+        Ok((length_m, drilled_passage(bore, e, fluid, default)))
     }
 
     pub(super) fn inline_damper(
