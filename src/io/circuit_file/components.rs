@@ -21,7 +21,7 @@ use serde::Deserialize;
 use std::collections::{BTreeMap, HashSet};
 
 /// A hose's wall at one mean pressure.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Clone, Deserialize)]
 #[serde(
     deny_unknown_fields,
     expecting = "a hose wall point: a mapping with pressure, wave_speed and loss_factor"
@@ -42,7 +42,7 @@ pub(super) enum RawCylinderPort {
 
 /// A gallery of a valve block: a drilled line, a lumped passage or a
 /// restriction between two of its ports or junctions.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Clone, Deserialize)]
 #[serde(
     deny_unknown_fields,
     expecting = "a gallery: a mapping with from, to, and length with bore, or inertance, or resistance"
@@ -60,7 +60,7 @@ pub(super) struct RawGallery {
 }
 
 /// A cavity of a valve block at one of its ports or junctions.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Clone, Deserialize)]
 #[serde(
     deny_unknown_fields,
     expecting = "a cavity: a mapping with at and volume"
@@ -411,13 +411,13 @@ impl Checker<'_> {
         path: &KeyPath,
         e: &RawElement,
         fluid: &Fluid,
+        fluid_gauge_pa: Option<f64>,
         default: LineModel,
     ) -> Res<InlineDamper> {
-        for key in ["gas_volume", "precharge", "operating_pressure"] {
+        for key in ["gas_volume", "precharge"] {
             let present = match key {
                 "gas_volume" => e.gas_volume.is_some(),
-                "precharge" => e.precharge.is_some(),
-                _ => e.operating_pressure.is_some(),
+                _ => e.precharge.is_some(),
             };
             if !present {
                 return Err(self.err(
@@ -443,7 +443,7 @@ impl Checker<'_> {
             model: e.model,
             ..RawElement::default()
         };
-        let vessel = self.damper(path, &as_damper, fluid, default)?;
+        let vessel = self.damper(path, &as_damper, fluid, fluid_gauge_pa, default)?;
         let oil = match e.oil_volume {
             None => 0.0,
             Some(v) => self.non_negative(&path.key("oil_volume"), v.si, 1.0, "m³")?,
@@ -601,14 +601,14 @@ impl Checker<'_> {
     pub(super) fn expand_valve_blocks(
         &self,
         root: &KeyPath,
-        raws: Vec<RawElement>,
+        raws: &[RawElement],
     ) -> Res<(Vec<RawElement>, Vec<KeyPath>)> {
         let mut out = Vec::with_capacity(raws.len());
         let mut paths = Vec::with_capacity(raws.len());
-        for (i, e) in raws.into_iter().enumerate() {
+        for (i, e) in raws.iter().enumerate() {
             let path = root.key("elements").index(i);
             if e.kind != RawKind::ValveBlock {
-                out.push(e);
+                out.push(e.clone());
                 paths.push(path);
                 continue;
             }
@@ -620,7 +620,7 @@ impl Checker<'_> {
         Ok((out, paths))
     }
 
-    fn valve_block(&self, path: &KeyPath, e: RawElement) -> Res<Vec<(RawElement, KeyPath)>> {
+    fn valve_block(&self, path: &KeyPath, e: &RawElement) -> Res<Vec<(RawElement, KeyPath)>> {
         let block = e.name.trim();
         if block.is_empty() {
             return Err(self.err(&path.key("name"), "an element name must not be empty"));
