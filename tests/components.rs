@@ -508,3 +508,36 @@ fn hose_wave_speed_follows_the_mean_pressure() {
     let w = diagnostics::component_warnings(&high);
     assert!(w[0].to_string().contains("outside its wall data"), "{w:?}");
 }
+
+// The operating envelope re-reads the circuit at each pressure level: the
+// example's hose (1020 m/s at 50 bar, 1180 m/s at 250 bar, measured at
+// 200 Hz) then has 1100 m/s at 150 bar and 1160 m/s at 225 bar by linear
+// interpolation (the wall is rebuilt with the oil at that pressure, so the
+// hose's wave speed is exactly the interpolated one); the parts behind the
+// valve block stay in the circuit (the envelope's cut-off check sees
+// through the block).
+#[test]
+fn envelope_pressure_levels_move_the_hose_wave_speed() {
+    let file = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/networks/compactor_relief_valve.yaml"
+    );
+    let text = std::fs::read_to_string(file).unwrap();
+    let base = parse_circuit(&text, file).unwrap();
+    for (bar, want) in [(150.0, 1100.0), (225.0, 1160.0)] {
+        let point = ripline::envelope::OperatingPoint {
+            pressure_pa: Some(bar * 1e5),
+            ..Default::default()
+        };
+        let c = ripline::io::parse_circuit_at(&text, file, &point).unwrap();
+        assert_eq!(c.elements.len(), base.elements.len());
+        let ElementKind::Hose(h) = kind(&c, "ram hose") else {
+            panic!()
+        };
+        assert_eq!(h.pressure.unwrap().mean_pressure_pa, bar * 1e5);
+        let p = &h.line.properties;
+        let b = p.compliance(2.0 * PI * 200.0).inv();
+        let speed = (b.re / p.density_kg_m3).sqrt();
+        assert!((speed - want).abs() < 1e-6 * want, "{bar} bar: {speed}");
+    }
+}

@@ -28,8 +28,8 @@ use ripline::C64;
 use ripline::circuit::{Circuit, Node};
 use ripline::elements::{
     ChamberPorts, CheckState, CheckValve, Connection, Cylinder, CylinderPorts, Element,
-    ElementKind, ExpansionChamber, Inertance, InlineDamper, LoadValve, OperatingPoint, Orifice,
-    Poppet, PulsationDamper, ReliefValve, Tube, Volume, rigid_neck,
+    ElementKind, ExpansionChamber, Inertance, InlineDamper, LoadValve, Orifice, Poppet,
+    PulsationDamper, ReliefValve, Tube, ValveOperatingPoint, Volume, rigid_neck,
 };
 use ripline::fluid::Fluid;
 use ripline::line::{Line, LineModel, LineProperties, MeanFlow};
@@ -162,7 +162,7 @@ fn line_properties(bore: f64, wall: Wall, model: LineModel) -> LineProperties {
 
 /// The operating point the property tests' valves report (not used by
 /// their admittance, which the poppet fixes).
-const OPERATING: OperatingPoint = OperatingPoint {
+const OPERATING: ValveOperatingPoint = ValveOperatingPoint {
     mean_flow_m3_s: 2.5e-4,
     pressure_drop_pa: 2e7,
     cracking_pa: 1.9e7,

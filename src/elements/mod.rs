@@ -34,7 +34,7 @@ pub use silencers::{
 };
 pub use tube::{Tube, line_behaviour};
 pub use valves::{
-    CheckState, CheckValve, OperatingPoint, Poppet, PoppetData, ReliefValve, ValveError,
+    CheckState, CheckValve, Poppet, PoppetData, ReliefValve, ValveError, ValveOperatingPoint,
 };
 
 use crate::line::{Admittance2, Line, LineProperties, Propagation, Transfer2};

@@ -95,7 +95,7 @@ pub struct PoppetData {
 
 /// The mean state a valve is linearised about.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct OperatingPoint {
+pub struct ValveOperatingPoint {
     /// Mean flow through the valve Q̄ in m³/s (> 0).
     pub mean_flow_m3_s: f64,
     /// Mean pressure difference across it p̄ in Pa (> 0).
@@ -150,7 +150,7 @@ impl Poppet {
     /// would close it.
     pub fn linearise(
         data: &PoppetData,
-        op: &OperatingPoint,
+        op: &ValveOperatingPoint,
         density_kg_m3: f64,
     ) -> Result<(Poppet, f64), ValveError> {
         let (q, p) = (op.mean_flow_m3_s, op.pressure_drop_pa);
@@ -267,7 +267,7 @@ pub struct ReliefValve {
     /// The linearised poppet.
     pub poppet: Poppet,
     /// The operating point it is linearised about.
-    pub operating: OperatingPoint,
+    pub operating: ValveOperatingPoint,
     /// Mean opening x̄ in m.
     pub opening_m: f64,
     /// Between two nodes (`true`) or to tank.
@@ -349,7 +349,7 @@ mod tests {
     /// A small direct-acting relief valve (invented, typical orders of
     /// magnitude): 8 mm seat, 20 g, 60 N/mm, 150 bar cracking, 20 L/min at
     /// 160 bar.
-    fn data(jet: Option<f64>) -> (PoppetData, OperatingPoint) {
+    fn data(jet: Option<f64>) -> (PoppetData, ValveOperatingPoint) {
         (
             PoppetData {
                 mass_kg: 0.02,
@@ -360,7 +360,7 @@ mod tests {
                 flow_gain_m2_s: None,
                 flow_pressure_coefficient: None,
             },
-            OperatingPoint {
+            ValveOperatingPoint {
                 mean_flow_m3_s: 20e-3 / 60.0,
                 pressure_drop_pa: 160e5,
                 cracking_pa: 150e5,
@@ -371,7 +371,7 @@ mod tests {
     /// The nonlinear steady valve, Q(p) = C_d w x(p) √(2p/ρ) with the
     /// force balance k x = A(p − p_c) − 2 C_d w x p cos θ (the equations of
     /// the module docs before linearising), for a numerical derivative.
-    fn steady_flow(d: &PoppetData, op: &OperatingPoint, cdw: f64, p: f64) -> f64 {
+    fn steady_flow(d: &PoppetData, op: &ValveOperatingPoint, cdw: f64, p: f64) -> f64 {
         let cos = d.jet_angle_rad.map_or(0.0, f64::cos);
         let x = d.area_m2 * (p - op.cracking_pa) / (d.spring_rate_n_m + 2.0 * cdw * p * cos);
         cdw * x * (2.0 * p / RHO).sqrt()

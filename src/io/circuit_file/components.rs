@@ -8,7 +8,7 @@
 use super::{Checker, RawElement, RawKind, RawLineModel, Res};
 use crate::elements::{
     ChamberPorts, CheckState, CheckValve, Cylinder, CylinderPorts, HosePressure, InlineDamper,
-    OperatingPoint, Poppet, PoppetData, ReliefValve, Tube, rigid_neck,
+    Poppet, PoppetData, ReliefValve, Tube, ValveOperatingPoint, rigid_neck,
 };
 use crate::fluid::Fluid;
 use crate::hose::{
@@ -186,12 +186,12 @@ impl Checker<'_> {
     }
 
     /// The operating point `mean_flow`, `pressure_drop` with `cracking_pressure`.
-    fn operating_point(&self, path: &KeyPath, e: &RawElement) -> Res<OperatingPoint> {
+    fn operating_point(&self, path: &KeyPath, e: &RawElement) -> Res<ValveOperatingPoint> {
         let k = e.kind;
         let cracking = self.cracking_pressure(path, e)?;
         let q = self.required_in(path, "mean_flow", e.mean_flow, k, 1e-9, 10.0, "m³/s")?;
         let p = self.required_in(path, "pressure_drop", e.pressure_drop, k, 1.0, 1e9, "Pa")?;
-        Ok(OperatingPoint {
+        Ok(ValveOperatingPoint {
             mean_flow_m3_s: q,
             pressure_drop_pa: p,
             cracking_pa: cracking,
