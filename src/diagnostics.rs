@@ -86,11 +86,12 @@ fn poppet_of(kind: &ElementKind) -> Option<&crate::elements::Poppet> {
 /// Warnings about the components with dynamics: a pump harmonic whose band
 /// over the pump's speed range (its `speed_range`, else its speed) crosses
 /// or comes within [`VALVE_RESONANCE_MARGIN`] of the natural frequency of a
-/// valve poppet with a resonance peak (damping ratio below 1/√2), or overlaps the band where the linearised valve delivers
-/// power (negative resistance, [`crate::elements::Poppet::active_band_hz`]);
-/// and a hose whose wall data against pressure do not reach the circuit's
-/// mean pressure (end values held). These are margins of the linear model,
-/// not predictions of a valve's stability.
+/// valve poppet with a resonance peak (damping ratio below 1/√2), or
+/// overlaps the band where the linearised valve delivers power (negative
+/// resistance, [`crate::elements::Poppet::active_band_hz`]) — margins of the
+/// linear model, not predictions of a valve's stability; a hose whose wall
+/// data against pressure do not reach the circuit's mean pressure (end
+/// values held); and a bottomed in-line damper.
 pub fn component_warnings(circuit: &Circuit) -> Vec<Warning> {
     use crate::analysis::response::{Coverage, crossings, harmonic_bands};
     let mut out = Vec::new();
@@ -108,6 +109,19 @@ pub fn component_warnings(circuit: &Circuit) -> Vec<Warning> {
                     p.mean_pressure_pa / 1e5,
                     pts[0].pressure_pa / 1e5,
                     pts[pts.len() - 1].pressure_pa / 1e5
+                ),
+            });
+            continue;
+        }
+        if let ElementKind::InlineDamper(d) = &e.kind
+            && d.vessel.is_bottomed()
+        {
+            out.push(Warning {
+                subject,
+                message: format!(
+                    "the mean pressure {:.2} bar abs is below its precharge {:.2} bar abs: the in-line damper is bottomed, its gas is out of the circuit and only the oil in its flow path and its ports remain; it damps almost nothing here",
+                    d.vessel.operating_pa / 1e5,
+                    d.vessel.precharge_pa / 1e5
                 ),
             });
             continue;

@@ -330,16 +330,7 @@ taps:
     ));
 }
 
-// An in-line damper with short ports is a lumped compliance on the line:
-// TL = 10 log10(1 + (ωCZ0/2)²) between pipes of impedance Z0 (the shunt
-// formula, Munjal, Acoustics of Ducts and Mufflers, 2014, ch. 3), with
-// C = V₀p₀/(κp_m²) + (V₀ − V₀p₀/p_m + V_oil)/B (Boyle, then polytropic;
-// methods-2 §2): V₀ = 0.5 L, p₀ = 100 bar abs, p_m = 200 bar abs, κ = 1.4,
-// V_oil = 0.2 L.
-#[test]
-fn inline_damper_attenuates_as_a_compliance() {
-    let c = circuit(&with_pump(
-        "\
+const DAMPER: &str = "\
 elements:
   - {name: up, kind: tube, from: p, to: a, length: 1 m, bore: 16 mm, rigid: true}
   - name: damper
@@ -354,8 +345,17 @@ elements:
     port_bore: 16 mm
   - {name: down, kind: tube, from: b, to: t, length: 1 m, bore: 16 mm, rigid: true}
   - {name: load, kind: load_valve, at: t, resistance: 4e10}
-",
-    ));
+";
+
+// An in-line damper with short ports is a lumped compliance on the line:
+// TL = 10 log10(1 + (ωCZ0/2)²) between pipes of impedance Z0 (the shunt
+// formula, Munjal, Acoustics of Ducts and Mufflers, 2014, ch. 3), with
+// C = V₀p₀/(κp_m²) + (V₀ − V₀p₀/p_m + V_oil)/B (Boyle, then polytropic;
+// methods-2 §2): V₀ = 0.5 L, p₀ = 100 bar abs, p_m = 200 bar abs, κ = 1.4,
+// V_oil = 0.2 L.
+#[test]
+fn inline_damper_attenuates_as_a_compliance() {
+    let c = circuit(&with_pump(DAMPER));
     let ElementKind::InlineDamper(d) = kind(&c, "damper") else {
         panic!()
     };
@@ -370,6 +370,16 @@ elements:
         let got = transmission_loss_db(&t, z0, z0);
         assert!((got - want).abs() < 1e-3, "{f} Hz: {got} vs {want}");
     }
+    assert!(diagnostics::component_warnings(&c).is_empty());
+    // Precharged above the operating pressure it is bottomed: the gas is
+    // out, C = V_oil/B only, and a warning says so.
+    let bottomed = circuit(&with_pump(&DAMPER.replace("100 bar abs", "250 bar abs")));
+    let ElementKind::InlineDamper(d) = kind(&bottomed, "damper") else {
+        panic!()
+    };
+    assert!((d.compliance() / (0.2e-3 / 1.6e9) - 1.0).abs() < 1e-12);
+    let w = diagnostics::component_warnings(&bottomed);
+    assert!(w[0].to_string().contains("bottomed"), "{w:?}");
 }
 
 // `tune` sizes the inlet extension of an expansion chamber: the annulus

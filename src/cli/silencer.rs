@@ -474,7 +474,7 @@ pub fn describe(e: &Element, pipe: Option<&ripline::elements::Tube>) -> Vec<Stri
                     "BOTTOMED: the operating pressure is below the precharge, so the gas is out of the circuit and only the oil in the flow path and the ports remain".into(),
                 );
             }
-            if let Some(p) = pipe {
+            if let Some(p) = pipe.filter(|_| d.compliance() > 0.0) {
                 v.push(format!(
                     "against the upstream pipe (Z0 = {:.4e} Pa·s/m³) its transmission loss passes 3 dB at 1/(πCZ0) = {:.2} Hz (short ports) and rises 6 dB per octave above",
                     p.line.properties.z0(),
