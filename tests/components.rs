@@ -534,6 +534,12 @@ fn envelope_pressure_levels_move_the_hose_wave_speed() {
     );
     let text = std::fs::read_to_string(file).unwrap();
     let base = parse_circuit(&text, file).unwrap();
+    // the schematic draws every new kind (as a labelled box where it has no
+    // symbol of its own)
+    let svg = ripline::plot::schematic_svg(&base);
+    for k in ["relief_valve", "cylinder"] {
+        assert!(svg.contains(k), "{k} missing from the schematic");
+    }
     for (bar, want) in [(150.0, 1100.0), (225.0, 1160.0)] {
         let point = ripline::envelope::OperatingPoint {
             pressure_pa: Some(bar * 1e5),
