@@ -279,7 +279,7 @@ fn errors_over_seeds_have_the_stated_spread() {
 }
 
 #[test]
-#[ignore = "the larger documented run: 400 seeds, about a minute"]
+#[ignore = "the larger documented run: 400 seeds, about 20 s"]
 fn errors_over_many_seeds_have_the_stated_spread() {
     // chi2.ppf(0.001, 1200) = 1054.3, chi2.ppf(0.999, 1200) = 1357.1
     spread_over_seeds(400, 1054.3, 1357.1);
@@ -289,13 +289,14 @@ fn spread_over_seeds(seeds: u64, low: f64, high: f64) {
     let dir = folder(&format!("seeds-{seeds}"));
     let mut sum = 0.0;
     let mut z2 = [0.0; 3];
+    // χ² beyond its 99.9 % point flags a misfit and scales the covariance:
+    // with the right model that happens to 0.1 % of seeds
+    let mut scaled = 0;
     for seed in 0..seeds {
         let case = spectra_case(&dir, 0.01, 1000 + seed);
         let cal = run(&case);
-        assert!(
-            cal.stop.converged() && cal.absolute_weights && !cal.scaled,
-            "{cal:?}"
-        );
+        assert!(cal.stop.converged() && cal.absolute_weights, "{cal:?}");
+        scaled += usize::from(cal.scaled);
         let (e, c) = errors_and_covariance(&cal);
         sum += mahalanobis(&e, &c);
         for j in 0..3 {
@@ -310,6 +311,10 @@ fn spread_over_seeds(seeds: u64, low: f64, high: f64) {
     assert!(
         (low..=high).contains(&sum),
         "Σd² = {sum}, outside {low} .. {high}"
+    );
+    assert!(
+        scaled <= 1 + seeds as usize / 100,
+        "{scaled} misfit flags in {seeds} seeds"
     );
     let _ = std::fs::remove_dir_all(dir);
 }
