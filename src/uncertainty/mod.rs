@@ -18,6 +18,7 @@
 //! follows as for a file written with those values, and perturbs the pumps'
 //! source tables.
 
+pub mod bands;
 pub mod linear;
 pub mod monte_carlo;
 pub mod stats;
