@@ -4,6 +4,7 @@ use super::{EXIT_COMPUTE, EXIT_INPUT};
 use anyhow::Context;
 use ripline::io::InputError;
 use ripline::io::output::StagedOutputs;
+use ripline::results::{self, Notice, Origin};
 use ripline::source::{Shaft, shafts};
 use ripline::units::{Dimension, parse_quantity};
 use ripline::{Circuit, demo};
@@ -67,9 +68,14 @@ pub fn cli_quantity(
 
 /// Exit code for an error: 2 for input and usage errors, 1 otherwise.
 pub fn exit_code(err: &anyhow::Error) -> u8 {
-    let input = err
-        .chain()
-        .any(|c| c.is::<InputError>() || c.is::<UsageError>());
+    let input = err.chain().any(|c| {
+        c.is::<InputError>()
+            || c.is::<UsageError>()
+            || matches!(
+                c.downcast_ref::<results::Error>(),
+                Some(results::Error::Request(_))
+            )
+    });
     if input { EXIT_INPUT } else { EXIT_COMPUTE }
 }
 
@@ -173,7 +179,7 @@ pub fn pick_shaft(circuit: &Circuit, name: Option<&str>) -> anyhow::Result<Shaft
         .ok_or_else(|| {
             let names: Vec<String> = all.iter().map(|s| format!("`{}`", s.name)).collect();
             UsageError(format!(
-                "--shaft {name}: no shaft or pump has that name; the circuit's shafts are {}",
+                "--pump {name}: no shaft or pump has that name; the circuit's shafts are {}",
                 names.join(", ")
             ))
             .into()
@@ -192,24 +198,16 @@ pub struct Prepared {
 /// Checks `--db-ref`, `--csv`, `--plot`, loads FILE (or the demo) and
 /// applies `--harmonics`.
 pub fn prepare(
-    db_ref: &str,
+    db_ref: Option<&str>,
     csv: Option<&Path>,
     plot: Option<&Path>,
     file: Option<&Path>,
     harmonics: Option<u32>,
 ) -> anyhow::Result<Prepared> {
-    let p_ref = cli_quantity("--db-ref", db_ref, Dimension::Pressure, "Pa")?;
-    if p_ref <= 0.0 {
-        return Err(UsageError("--db-ref must be a positive pressure".into()).into());
-    }
+    let (p_ref, _) = db_ref_option(db_ref)?;
     let (csv, plot) = csv_and_plot_paths(csv, plot)?;
     let mut loaded = load_circuit(file)?;
-    if let Some(n) = harmonics {
-        if !(1..=200).contains(&n) {
-            return Err(
-                UsageError(format!("--harmonics must be between 1 and 200, found {n}")).into(),
-            );
-        }
+    if let Some(n) = harmonics_option(harmonics)? {
         loaded.circuit.harmonics = n;
     }
     Ok(Prepared {
@@ -218,6 +216,98 @@ pub fn prepare(
         plot,
         loaded,
     })
+}
+
+/// `--db-ref PRESSURE` (a bare number in Pa), default 1 Pa.
+pub fn db_ref_option(text: Option<&str>) -> anyhow::Result<(f64, Origin)> {
+    let Some(text) = text else {
+        return Ok((1.0, Origin::Default));
+    };
+    let p_ref = cli_quantity("--db-ref", text, Dimension::Pressure, "Pa")?;
+    if !(p_ref > 0.0 && p_ref.is_finite()) {
+        return Err(UsageError("--db-ref must be a positive pressure".into()).into());
+    }
+    Ok((p_ref, Origin::Request))
+}
+
+/// `--harmonics N`, checked to be 1..=200.
+pub fn harmonics_option(n: Option<u32>) -> anyhow::Result<Option<u32>> {
+    match n {
+        Some(n) if !(1..=200).contains(&n) => {
+            Err(UsageError(format!("--harmonics must be between 1 and 200, found {n}")).into())
+        }
+        _ => Ok(n),
+    }
+}
+
+/// Checks an optional `--json FILE` path before any work.
+pub fn json_path(path: Option<&Path>) -> anyhow::Result<Option<PathBuf>> {
+    path.map(|p| check_output("--json", p, &["json"]))
+        .transpose()
+}
+
+/// The output files of one command, staged until every result is ready.
+#[derive(Default)]
+pub struct Outputs(StagedOutputs);
+
+impl Outputs {
+    /// Stages a CSV table produced by `write`.
+    pub fn csv(
+        &mut self,
+        path: &Path,
+        write: impl FnOnce(&mut Vec<u8>) -> Result<(), csv::Error>,
+    ) -> anyhow::Result<()> {
+        stage_csv(&mut self.0, path, write)
+    }
+
+    /// Stages the JSON document of a result.
+    pub fn json<T: serde::Serialize>(
+        &mut self,
+        path: &Path,
+        command: &str,
+        result: &T,
+    ) -> anyhow::Result<()> {
+        let mut bytes = Vec::new();
+        ripline::render::json::write(command, result, &mut bytes)
+            .context("formatting the JSON document")?;
+        self.0
+            .stage_bytes(path, &bytes)
+            .with_context(|| format!("writing {}", path.display()))
+    }
+
+    /// Stages a picture drawn by `draw` at the path it is given.
+    pub fn plot(
+        &mut self,
+        path: &Path,
+        draw: impl FnOnce(&Path) -> Result<(), ripline::plot::PlotError>,
+    ) -> anyhow::Result<()> {
+        self.0
+            .stage_with(path, draw)
+            .with_context(|| format!("drawing {}", path.display()))
+    }
+
+    /// Moves every staged file into place (see [`commit`]).
+    pub fn commit(self) -> anyhow::Result<()> {
+        commit(self.0)
+    }
+}
+
+/// Prints warnings on standard error.
+pub fn print_warnings(warnings: &[Notice]) {
+    for w in warnings {
+        eprintln!("warning: {w}");
+    }
+}
+
+/// Prints a report on standard output.
+pub fn print(
+    write: impl FnOnce(&mut std::io::StdoutLock<'static>) -> std::io::Result<()>,
+) -> anyhow::Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    write(&mut out)?;
+    out.flush()?;
+    Ok(())
 }
 
 /// A level in dB re `p_ref` of an rms pressure, or "no ripple".

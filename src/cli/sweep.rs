@@ -102,7 +102,7 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
         plot: plot_path,
         loaded,
     } = common::prepare(
-        &args.db_ref,
+        Some(&args.db_ref),
         args.csv.as_deref(),
         args.plot.as_deref(),
         args.file.as_deref(),

@@ -1,47 +1,8 @@
 //! CSV tables of results, written to any `impl Write`.
 
 use crate::analysis::profile::RippleProfile;
-use crate::analysis::ripple::RippleReport;
 use crate::analysis::sweep::SweepResult;
 use std::io::Write;
-
-/// Header of the harmonic ripple table written by `ripline solve --csv`.
-pub const RIPPLE_HEADER: [&str; 5] = [
-    "point",
-    "harmonic",
-    "frequency_hz",
-    "amplitude_pa",
-    "phase_deg",
-];
-
-/// Writes one row per measurement point and harmonic.
-///
-/// # Errors
-/// The CSV writer's error.
-pub fn write_ripple_csv<W: Write>(report: &RippleReport, out: W) -> Result<(), csv::Error> {
-    let mut w = csv::Writer::from_writer(out);
-    w.write_record(RIPPLE_HEADER)?;
-    for row in ripple_rows(report) {
-        w.write_record(row)?;
-    }
-    w.flush()?;
-    Ok(())
-}
-
-/// The rows of [`RIPPLE_HEADER`] for one report.
-fn ripple_rows(report: &RippleReport) -> impl Iterator<Item = [String; 5]> + '_ {
-    report.taps.iter().flat_map(|tap| {
-        tap.harmonics.iter().map(move |h| {
-            [
-                tap.name.clone(),
-                h.order.to_string(),
-                format!("{}", h.freq_hz),
-                format!("{}", h.pressure.norm()),
-                format!("{}", h.pressure.arg().to_degrees()),
-            ]
-        })
-    })
-}
 
 /// Header of the speed-sweep grid written by `ripline sweep --csv`.
 pub const SWEEP_HEADER: [&str; 5] = [
@@ -81,41 +42,6 @@ pub fn write_sweep_csv<W: Write>(result: &SweepResult, out: W) -> Result<(), csv
 /// between rev/s and rpm print as typed (820, not 820.0000000000001).
 fn twelve_digits(x: f64) -> f64 {
     format!("{x:.11e}").parse().unwrap_or(x)
-}
-
-/// Header of the harmonic table of several shafts: [`RIPPLE_HEADER`] with a
-/// leading `source` column (the shaft, or the pump on a shaft of its own).
-pub const SOURCES_RIPPLE_HEADER: [&str; 6] = [
-    "source",
-    "point",
-    "harmonic",
-    "frequency_hz",
-    "amplitude_pa",
-    "phase_deg",
-];
-
-/// Writes the harmonic tables of several shafts: with one report, exactly
-/// [`write_ripple_csv`]; with more, one row per source, point and harmonic
-/// under [`SOURCES_RIPPLE_HEADER`].
-///
-/// # Errors
-/// The CSV writer's error.
-pub fn write_sources_ripple_csv<W: Write>(
-    reports: &[RippleReport],
-    out: W,
-) -> Result<(), csv::Error> {
-    if let [report] = reports {
-        return write_ripple_csv(report, out);
-    }
-    let mut w = csv::Writer::from_writer(out);
-    w.write_record(SOURCES_RIPPLE_HEADER)?;
-    for report in reports {
-        for row in ripple_rows(report) {
-            w.write_record(std::iter::once(report.pump.clone()).chain(row))?;
-        }
-    }
-    w.flush()?;
-    Ok(())
 }
 
 /// Header of the profile table written by `ripline profile --csv`.

@@ -1,0 +1,177 @@
+//! End-to-end tests of the output forms: JSON read back against the CSV
+//! and the text, waveforms, units per column, and the one option
+//! vocabulary of the commands.
+
+use ripline::render::table::sig;
+use serde_json::Value;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn ripline(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(args)
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .output()
+        .expect("the ripline binary runs")
+}
+
+fn stdout(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stdout).into_owned()
+}
+
+fn stderr(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stderr).into_owned()
+}
+
+/// A fresh scratch folder for one test.
+fn scratch(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("ripline-out-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+fn path(dir: &Path, name: &str) -> String {
+    dir.join(name).to_str().unwrap().to_string()
+}
+
+/// Runs a command that must succeed and returns its stdout.
+fn ok(args: &[&str]) -> String {
+    let o = ripline(args);
+    assert!(o.status.success(), "{args:?}: {}", stderr(&o));
+    stdout(&o)
+}
+
+/// The JSON document at `path`, with its envelope checked.
+fn json(path: &str, command: &str) -> Value {
+    let v: Value = serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+    assert_eq!(v["schema_version"], 1);
+    assert_eq!(v["program"], "ripline");
+    assert_eq!(v["command"], command);
+    v["result"].clone()
+}
+
+/// CSV rows (header dropped), split on commas (no quoted fields here).
+fn csv_rows(path: &str) -> Vec<Vec<String>> {
+    std::fs::read_to_string(path)
+        .unwrap()
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').map(str::to_string).collect())
+        .collect()
+}
+
+fn num(v: &Value) -> f64 {
+    v.as_f64().unwrap_or_else(|| panic!("not a number: {v}"))
+}
+
+/// Equal up to the last bits (serde_json's default parser may be one ulp
+/// off the shortest round-trip digits both writers print).
+fn same(a: f64, b: f64) {
+    assert!(
+        (a - b).abs() <= 4.0 * f64::EPSILON * a.abs().max(b.abs()),
+        "{a} {b}"
+    );
+}
+
+/// `solve --json` holds the same numbers as the CSV (both print the
+/// shortest round-trip form of the same f64) and the text (to the
+/// printed digits); the overall rms is √(Σ|P_k|²/2) of the listed
+/// amplitudes (methods.md §7.4, the rms of a sum of sinusoids).
+#[test]
+fn solve_json_agrees_with_csv_and_text() {
+    let dir = scratch("solve-json");
+    let (j, c) = (path(&dir, "r.json"), path(&dir, "r.csv"));
+    let text = ok(&["solve", "--json", &j, "--csv", &c]);
+    let r = json(&j, "solve");
+    let rows = csv_rows(&c);
+    let source = &r["sources"][0];
+    let mut i = 0;
+    for point in source["points"].as_array().unwrap() {
+        let mut sum = 0.0;
+        for h in point["harmonics"].as_array().unwrap() {
+            let row = &rows[i];
+            i += 1;
+            assert_eq!(row[0], point["point"].as_str().unwrap());
+            assert_eq!(row[1], h["order"].to_string());
+            let a = num(&h["pressure_pa"]["amplitude"]);
+            same(row[3].parse().unwrap(), a);
+            same(row[4].parse().unwrap(), num(&h["pressure_pa"]["phase_deg"]));
+            sum += a * a / 2.0;
+        }
+        let rms = num(&point["rms_pa"]);
+        assert!((rms - sum.sqrt()).abs() <= 1e-12 * rms);
+        // the text prints the rms in bar (the demo's column unit) with 4
+        // significant digits
+        assert!(
+            text.contains(&format!("overall: {} bar rms", sig(rms / 1e5, 4))),
+            "{rms} {text}"
+        );
+    }
+    assert_eq!(i, rows.len());
+    assert_eq!(r["inputs"][1]["name"], "db_ref");
+    assert_eq!(r["inputs"][1]["origin"], "default");
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+/// The waveform over two shaft revolutions: p(θ) = Σ Re{P_k e^{jkzθ}}
+/// (methods.md §7.3), so at θ = 0 it is Σ |P_k| cos φ_k, it repeats every
+/// pumping period 360°/z, and the range of its samples is the reported
+/// peak-to-peak value (the samples can only miss the extremes slightly).
+#[test]
+fn solve_waveform_is_the_sum_of_the_harmonics() {
+    let dir = scratch("waveform");
+    let (w, j, svg) = (
+        path(&dir, "w.csv"),
+        path(&dir, "r.json"),
+        path(&dir, "w.svg"),
+    );
+    ok(&["solve", "--waveform", &w, "--waveform", &svg, "--json", &j]);
+    assert!(std::fs::read_to_string(&svg).unwrap().contains("<svg"));
+    let r = json(&j, "solve");
+    let header = std::fs::read_to_string(&w).unwrap();
+    assert!(header.starts_with("point,shaft_angle_deg,time_s,pressure_pa\n"));
+    let rows = csv_rows(&w);
+    let point = &r["sources"][0]["points"][0];
+    let name = point["point"].as_str().unwrap();
+    let mine: Vec<(f64, f64, f64)> = rows
+        .iter()
+        .filter(|r| r[0] == name)
+        .map(|r| {
+            (
+                r[1].parse().unwrap(),
+                r[2].parse().unwrap(),
+                r[3].parse().unwrap(),
+            )
+        })
+        .collect();
+    assert_eq!(mine.first().unwrap().0, 0.0);
+    assert!((mine.last().unwrap().0 - 720.0).abs() < 1e-9);
+    // two revolutions at 1500 rpm take 80 ms
+    assert!((mine.last().unwrap().1 - 0.08).abs() < 1e-12);
+    let at_zero: f64 = point["harmonics"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|h| {
+            num(&h["pressure_pa"]["amplitude"])
+                * num(&h["pressure_pa"]["phase_deg"]).to_radians().cos()
+        })
+        .sum();
+    assert!((mine[0].2 - at_zero).abs() < 1e-9 * at_zero.abs().max(1.0));
+    // 12 teeth: the waveform repeats every 30°
+    let period = mine.iter().position(|s| (s.0 - 30.0).abs() < 1e-9).unwrap();
+    assert!((mine[period].2 - mine[0].2).abs() < 1e-6 * at_zero.abs().max(1.0));
+    let (lo, hi) = mine.iter().fold((f64::MAX, f64::MIN), |(lo, hi), s| {
+        (lo.min(s.2), hi.max(s.2))
+    });
+    let pp = num(&point["peak_to_peak_pa"]);
+    assert!(
+        hi - lo <= pp * (1.0 + 1e-12) && hi - lo > 0.99 * pp,
+        "{} {pp}",
+        hi - lo
+    );
+    let wave = &point["waveform"];
+    assert!((num(&wave["max"][1]) - num(&wave["min"][1]) - pp).abs() < 1e-9 * pp);
+    std::fs::remove_dir_all(dir).unwrap();
+}
