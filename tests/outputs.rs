@@ -175,3 +175,56 @@ fn solve_waveform_is_the_sum_of_the_harmonics() {
     assert!((num(&wave["max"][1]) - num(&wave["min"][1]) - pp).abs() < 1e-9 * pp);
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+/// `profile --pump` on the engine example (two pumps on one shaft, each
+/// feeding its own line): harmonic 1 of the steering pump (12 × 1800 rpm
+/// = 360 Hz) is order 4 of the shaft fundamental (gcd(9, 12) = 3 → 90 Hz),
+/// where the 9-piston work pump has no harmonic (4·3/9 is not whole). The
+/// pressure at the steering pump's outlet must be what `solve` finds
+/// there at order 4 (the same network solve), and the work pump's lines,
+/// which carry no ripple at this frequency, are not drawn as flat lines.
+#[test]
+fn profile_of_the_second_pump_matches_solve_and_leaves_out_silent_lines() {
+    let dir = scratch("profile-pump");
+    let (p, s) = (path(&dir, "p.json"), path(&dir, "s.json"));
+    let example = "networks/loader_engine_pumps.yaml";
+    let text = ok(&["profile", example, "--pump", "steering pump", "--json", &p]);
+    ok(&["solve", example, "--json", &s]);
+    let profile = json(&p, "profile");
+    let solve = json(&s, "solve");
+    assert_eq!(num(&profile["freq_hz"]), 360.0);
+    let lines = profile["lines"].as_array().unwrap();
+    for l in lines {
+        let reached = l["reached"].as_bool().unwrap();
+        assert_eq!(reached, l["name"] == "steering_line", "{l}");
+    }
+    assert!(
+        text.contains("no ripple from shaft `engine` at this frequency"),
+        "{text}"
+    );
+    let node = profile["nodes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|n| n["name"] == "steer_out")
+        .unwrap();
+    let at_outlet = num(&node["pressure_pa"]["amplitude"]);
+    let order4 = solve["sources"][0]["points"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|p| p["point"] == "steering pump outlet")
+        .unwrap()["harmonics"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|h| h["order"] == 4)
+        .unwrap()["pressure_pa"]["amplitude"]
+        .clone();
+    assert!(
+        (at_outlet - num(&order4)).abs() < 1e-9 * at_outlet,
+        "{at_outlet} {order4}"
+    );
+    assert!(at_outlet > 1e4);
+    std::fs::remove_dir_all(dir).unwrap();
+}

@@ -100,27 +100,32 @@ pub fn speed_range(
     })
 }
 
-/// The index of the pump called `name`, or the first pump.
+/// The index of the pump called `name` (or the first pump on the shaft
+/// called `name`), or the first pump.
 pub fn pump_index(circuit: &Circuit, name: Option<&str>) -> anyhow::Result<usize> {
-    match name {
-        None => Ok(0),
-        Some(n) => circuit
-            .pumps
-            .iter()
-            .position(|p| p.name == n)
-            .ok_or_else(|| {
-                UsageError(format!(
-                    "--pump {n}: no pump has that name; the circuit has: {}",
-                    circuit
-                        .pumps
-                        .iter()
-                        .map(|p| format!("`{}`", p.name))
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                ))
-                .into()
-            }),
-    }
+    let Some(n) = name else { return Ok(0) };
+    circuit
+        .pumps
+        .iter()
+        .position(|p| p.name == n)
+        .or_else(|| {
+            circuit
+                .pumps
+                .iter()
+                .position(|p| p.shaft.as_deref() == Some(n))
+        })
+        .ok_or_else(|| {
+            UsageError(format!(
+                "--pump {n}: no pump or shaft has that name; the circuit has: {}",
+                circuit
+                    .pumps
+                    .iter()
+                    .map(|p| format!("`{}`", p.name))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ))
+            .into()
+        })
 }
 
 /// The measurement point called `name` (a tap, or a node when the circuit

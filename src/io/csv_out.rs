@@ -1,6 +1,5 @@
 //! CSV tables of results, written to any `impl Write`.
 
-use crate::analysis::profile::RippleProfile;
 use crate::analysis::sweep::SweepResult;
 use std::io::Write;
 
@@ -42,36 +41,4 @@ pub fn write_sweep_csv<W: Write>(result: &SweepResult, out: W) -> Result<(), csv
 /// between rev/s and rpm print as typed (820, not 820.0000000000001).
 fn twelve_digits(x: f64) -> f64 {
     format!("{x:.11e}").parse().unwrap_or(x)
-}
-
-/// Header of the profile table written by `ripline profile --csv`.
-pub const PROFILE_HEADER: [&str; 5] = [
-    "element",
-    "position_m",
-    "frequency_hz",
-    "amplitude_pa",
-    "phase_deg",
-];
-
-/// Writes one row per line and sample; `position_m` is the distance from the
-/// line's `from` end.
-///
-/// # Errors
-/// The CSV writer's error.
-pub fn write_profile_csv<W: Write>(profile: &RippleProfile, out: W) -> Result<(), csv::Error> {
-    let mut w = csv::Writer::from_writer(out);
-    w.write_record(PROFILE_HEADER)?;
-    for line in &profile.lines {
-        for p in &line.points {
-            w.write_record([
-                line.name.clone(),
-                format!("{}", p.position_m),
-                format!("{}", profile.freq_hz),
-                format!("{}", p.pressure.norm()),
-                format!("{}", p.pressure.arg().to_degrees()),
-            ])?;
-        }
-    }
-    w.flush()?;
-    Ok(())
 }

@@ -9,6 +9,7 @@
 //! renderer computes physics: everything it shows is in the result.
 
 pub mod json;
+pub mod profile;
 pub mod solve;
 pub mod table;
 
