@@ -228,3 +228,53 @@ fn profile_of_the_second_pump_matches_solve_and_leaves_out_silent_lines() {
     assert!(at_outlet > 1e4);
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+/// `check` lists each pump's source flow ripple. The drilling-rig pump's
+/// table is given at 1800 rpm (harmonic 1: 2.2 L/min peak); a table scales
+/// in proportion to speed (README, `flow_ripple`), so at 3600 rpm it is
+/// 4.4 L/min = 7.3333e-5 m³/s at 540 Hz. The CSV, the JSON and the text
+/// agree, and the chart is written.
+#[test]
+fn check_lists_the_source_flow_ripple_at_the_requested_speed() {
+    let dir = scratch("check-source");
+    let (c, j, svg) = (
+        path(&dir, "q.csv"),
+        path(&dir, "q.json"),
+        path(&dir, "q.svg"),
+    );
+    let text = ok(&[
+        "check",
+        "networks/drill_rig_feed_damper.yaml",
+        "--speed",
+        "3600",
+        "--csv",
+        &c,
+        "--json",
+        &j,
+        "--plot",
+        &svg,
+    ]);
+    assert!(std::fs::read_to_string(&svg).unwrap().contains("<svg"));
+    let rows = csv_rows(&c);
+    assert_eq!(rows[0][0], "axial piston pump");
+    assert_eq!(rows[0][2].parse::<f64>().unwrap(), 540.0);
+    let q1: f64 = rows[0][3].parse().unwrap();
+    assert!((q1 - 4.4e-3 / 60.0).abs() < 1e-12 * q1, "{q1}");
+    let r = json(&j, "check");
+    let pump = &r["pumps"][0];
+    assert_eq!(pump["speed_origin"], "request");
+    same(num(&pump["harmonics"][0]["flow_m3_s"]["amplitude"]), q1);
+    assert!(text.contains("source flow ripple at 3600 rpm"), "{text}");
+    assert!(text.contains("amplitude L/min"), "{text}");
+    assert!(
+        text.contains("         1        540.00            4.400"),
+        "{text}"
+    );
+    // the damper's gas pressures are echoed gauge first, as the file has them
+    assert!(
+        text.contains("precharge of 120.0 bar gauge (121.0 bar abs)"),
+        "{text}"
+    );
+    assert!(r["cautions"][0].as_str().unwrap().starts_with("CAUTION"));
+    std::fs::remove_dir_all(dir).unwrap();
+}

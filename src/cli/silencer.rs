@@ -7,19 +7,18 @@ use super::common::{self, UsageError};
 use super::ranges::{self, Progress};
 use anyhow::Context;
 use clap::{Args, ValueEnum};
-use ripline::Circuit;
 use ripline::analysis::response::log_grid;
 use ripline::analysis::silencer::{
     Chain, WithoutReference, circuit_without, insertion_loss_db, pressure_per_unit_flow,
     transmission_loss_db,
 };
 use ripline::analysis::tune::speed_conditions;
-use ripline::diagnostics::plane_wave_limit_hz;
-use ripline::elements::{Connection, Element, ElementKind, PRESSURE_VESSEL_CAUTION};
+use ripline::elements::{ElementKind, PRESSURE_VESSEL_CAUTION};
 use ripline::io::csv_response::{HarmonicLoss, write_harmonic_loss_csv, write_loss_csv};
 use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
+use ripline::results::describe::{place, silencer as describe};
 use ripline::units::PressureDisplay;
 use std::io::Write;
 use std::path::PathBuf;
@@ -338,83 +337,6 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     }
     out.flush()?;
     Ok(())
-}
-
-/// "at node `x`" or "`a` → `b`".
-pub fn place(circuit: &Circuit, e: &Element) -> String {
-    match e.connection {
-        Connection::Series { a, b } => {
-            format!("`{}` → `{}`", circuit.nodes[a].name, circuit.nodes[b].name)
-        }
-        Connection::Shunt { at } => format!("at node `{}`", circuit.nodes[at].name),
-    }
-}
-
-/// What a silencer element is and its characteristic frequencies, for
-/// reports (`silencer`, `check`, `tune`). `pipe`, if known, is the pipe it
-/// sits on (for an expansion chamber's area ratio).
-pub fn describe(e: &Element, pipe: Option<&ripline::elements::Tube>) -> Vec<String> {
-    match &e.kind {
-        ElementKind::SideBranch(s) => vec![format!(
-            "closed side branch, length {:.4} m, bore {:.2} mm: quarter-wave frequency c/4l = {:.2} Hz (lossless estimate)",
-            s.tube.line.length_m,
-            s.tube.bore_m() * 1e3,
-            s.quarter_wave_hz()
-        )],
-        ElementKind::ExpansionChamber(c) => {
-            let mut v = vec![format!(
-                "expansion chamber, length {:.4} m, bore {:.2} mm: first TL maximum near c/4l = {:.2} Hz; plane waves only below {:.0} Hz (first cut-on)",
-                c.tube.line.length_m,
-                c.tube.bore_m() * 1e3,
-                c.first_maximum_hz(),
-                plane_wave_limit_hz(c.tube.line.properties.wave_speed_m_s(), c.tube.bore_m())
-            )];
-            if let Some(p) = pipe {
-                let m = c.tube.line.properties.area_m2() / p.line.properties.area_m2();
-                v.push(format!(
-                    "area ratio m = {m:.3} against the upstream pipe: lossless TL maximum 20·log10((m + 1/m)/2) = {:.2} dB (Davis et al. 1954)",
-                    20.0 * ((m + 1.0 / m) / 2.0).log10()
-                ));
-            }
-            v
-        }
-        ElementKind::Helmholtz(h) => vec![format!(
-            "Helmholtz resonator, cavity {:.4} L, neck {:.2} mm long, {:.2} mm bore: f_H = {:.2} Hz with end corrections 2 × 0.85r ({:.2} Hz without); the model uses {}",
-            h.volume_m3 * 1e3,
-            h.neck_length_m * 1e3,
-            h.neck.radius_m * 2e3,
-            h.lumped_frequency_hz(true),
-            h.lumped_frequency_hz(false),
-            if h.end_correction {
-                "the corrected neck"
-            } else {
-                "the bare neck length"
-            }
-        )],
-        ElementKind::Damper(d) => vec![
-            format!(
-                "gas-charged pulsation damper, gas volume {:.4} L at a precharge of {:.2} bar abs, operating at {:.2} bar abs, polytropic index {:.2}",
-                d.gas_volume_m3 * 1e3,
-                d.precharge_pa / 1e5,
-                d.operating_pa / 1e5,
-                d.polytropic_index
-            ),
-            format!(
-                "gas volume at the operating pressure {:.4} L (Boyle's law, isothermal charging), oil in the vessel {:.4} L; compliance {:.4e} m³/Pa",
-                d.gas_volume_at_operating_m3() * 1e3,
-                d.oil_volume_m3() * 1e3,
-                d.compliance()
-            ),
-            format!(
-                "neck {:.2} mm long, {:.2} mm bore: lumped resonance {:.2} Hz (it attenuates above it); gas energy at the operating pressure about {:.1} kJ",
-                d.neck_length_m * 1e3,
-                d.neck.radius_m * 2e3,
-                d.lumped_resonance_hz(),
-                d.stored_energy_j() / 1e3
-            ),
-        ],
-        _ => Vec::new(),
-    }
 }
 
 fn loss_charts(

@@ -241,7 +241,7 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
         "element `{}` ({}, {}); point `{tap_name}`",
         e.name,
         e.kind.name(),
-        super::silencer::place(circuit, e)
+        ripline::results::describe::place(circuit, e)
     )?;
     writeln!(
         out,
@@ -382,7 +382,7 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     }
     writeln!(out)?;
     writeln!(out, "tuned element:")?;
-    for line in super::silencer::describe(&tuned, None) {
+    for line in ripline::results::describe::silencer(&tuned, None) {
         writeln!(out, "  {line}")?;
     }
     writeln!(

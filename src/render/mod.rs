@@ -8,6 +8,7 @@
 //! descriptions drawn by [`crate::plot`]). [`json`] writes any result. No
 //! renderer computes physics: everything it shows is in the result.
 
+pub mod check;
 pub mod json;
 pub mod profile;
 pub mod solve;

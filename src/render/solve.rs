@@ -1,7 +1,7 @@
 //! Renderers of [`SolveResult`]: the terminal report, the harmonic CSV
 //! table, the waveform CSV, the bar chart and the waveform chart.
 
-use super::table::{Align, Quantity, Table, sig};
+use super::table::{Align, Quantity, Table, phase, sig};
 use super::{heading, level_text};
 use crate::plot;
 use crate::results::solve::{OrderBasis, SolveResult, SourceRipple};
@@ -98,7 +98,7 @@ pub fn text(r: &SolveResult, out: &mut impl Write) -> std::io::Result<()> {
                     h.order.to_string(),
                     format!("{:.2}", h.freq_hz),
                     sig(unit.of(h.pressure_pa.amplitude), super::table::DIGITS),
-                    format!("{:.1}", h.pressure_pa.phase_deg),
+                    phase(h.pressure_pa.phase_deg),
                 ]);
             }
             t.write(out, "  ")?;

@@ -182,6 +182,17 @@ pub fn pm(value: f64, u: Option<f64>) -> String {
     format!("{value:.d$} ± {u:.d$}")
 }
 
+/// A phase in degrees with one decimal, −180° written as 180° and −0.0 as
+/// 0.0 (the sign of a zero imaginary part is not a phase).
+pub fn phase(deg: f64) -> String {
+    let t = format!("{deg:.1}");
+    match t.as_str() {
+        "-0.0" => "0.0".into(),
+        "-180.0" => "180.0".into(),
+        _ => t,
+    }
+}
+
 /// Alignment of a table column.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Align {
@@ -296,6 +307,13 @@ mod tests {
         assert_eq!(sig(unit.of(3e3), DIGITS), "0.03000");
         assert_eq!(Quantity::Length.unit_for_all([0.03, 0.3]), MM);
         assert_eq!(Quantity::Pressure.unit_for_all([5.0]), PA);
+    }
+
+    #[test]
+    fn phases_have_no_negative_zero() {
+        assert_eq!(phase(-0.01), "0.0");
+        assert_eq!(phase(-179.99), "180.0");
+        assert_eq!(phase(-12.34), "-12.3");
     }
 
     #[test]

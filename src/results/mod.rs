@@ -11,6 +11,8 @@
 //! cautions. Nothing here prints or writes a file: the renderers in
 //! [`crate::render`] turn a result into terminal text, CSV, JSON and charts.
 
+pub mod check;
+pub mod describe;
 pub mod profile;
 pub mod solve;
 
