@@ -1341,9 +1341,7 @@ fn the_readme_demo_numbers_hold() {
         "{out}"
     );
     assert!(
-        out.contains(
-            "288.00 Hz  CROSSED by harmonic 1 at 1920 rpm (≈ 10.4937 bar at `pump outlet`)"
-        ),
+        out.contains("288.00 Hz  CROSSED by harmonic 1 at 1920 rpm (≈ 10.49 bar at `pump outlet`)"),
         "{out}"
     );
     assert!(readme.contains("130.0 Hz at 867 rpm and 288.0 Hz at 1920 rpm"));

@@ -278,3 +278,51 @@ fn check_lists_the_source_flow_ripple_at_the_requested_speed() {
     assert!(r["cautions"][0].as_str().unwrap().starts_with("CAUTION"));
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+/// `response --pump` for the second pump of a shaft takes the shaft's
+/// speed range (stated by the other pump): harmonic k of the 12-tooth
+/// steering pump sweeps k·z·n = 160..480 Hz for k = 1 over 800..2400 rpm.
+/// The JSON's resonances and curves agree with the text and the CSV.
+#[test]
+fn response_of_the_second_pump_uses_the_shaft_speed_range() {
+    let dir = scratch("response-pump");
+    let (j, c) = (path(&dir, "r.json"), path(&dir, "r.csv"));
+    let text = ok(&[
+        "response",
+        "networks/loader_engine_pumps.yaml",
+        "--pump",
+        "steering pump",
+        "--points",
+        "300",
+        "--json",
+        &j,
+        "--csv",
+        &c,
+    ]);
+    assert!(
+        text.contains("speed range: 800–2400 rpm (the `speed_range` of shaft `engine`)"),
+        "{text}"
+    );
+    let r = json(&j, "response");
+    assert_eq!(r["speed_range"]["origin"], "shaft");
+    let band = &r["bands"][0];
+    assert!((num(&band["low_hz"]) - 160.0).abs() < 1e-9);
+    assert!((num(&band["high_hz"]) - 480.0).abs() < 1e-9);
+    for v in r["resonances"].as_array().unwrap() {
+        let f = num(&v["resonance"]["freq_hz"]);
+        assert!(text.contains(&format!("{f:.2} Hz")), "{f} {text}");
+    }
+    let rows = csv_rows(&c);
+    let freqs = r["freqs_hz"].as_array().unwrap();
+    assert_eq!(freqs.len(), 300);
+    let first = &r["points"][0];
+    for (i, row) in rows.iter().take(300).enumerate() {
+        assert_eq!(row[0], first["name"].as_str().unwrap());
+        same(row[1].parse().unwrap(), num(&freqs[i]));
+        same(
+            row[2].parse().unwrap(),
+            num(&first["values_pa_per_m3_s"][i]["amplitude"]),
+        );
+    }
+    std::fs::remove_dir_all(dir).unwrap();
+}

@@ -203,7 +203,7 @@ impl Default for PeakSettings {
 }
 
 /// A resonance of the circuit.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Resonance {
     /// Peak frequency f0 in Hz.
     pub freq_hz: f64,
@@ -409,7 +409,7 @@ fn half_power(
 }
 
 /// The frequency band a pump harmonic sweeps over the operating speed range.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct HarmonicBand {
     /// Harmonic order k.
     pub order: u32,
@@ -443,7 +443,8 @@ pub fn harmonic_bands(
 }
 
 /// How a harmonic band meets a resonance.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
 pub enum Coverage {
     /// The band contains the resonance: the harmonic crosses it at this
     /// shaft speed.

@@ -210,6 +210,12 @@ impl Progress {
         Progress(bar)
     }
 
+    /// Moves the bar to `done` of `total` steps.
+    pub fn set_of(&self, done: usize, total: usize) {
+        self.0.set_length(total as u64);
+        self.0.set_position(done as u64);
+    }
+
     /// Moves the bar to `done` steps (growing its length if the work ran over).
     pub fn set(&self, done: usize) {
         let done = done as u64;
@@ -264,9 +270,73 @@ pub struct SweepArgs {
     /// (overrides the pump's `speed_range`).
     #[arg(long, value_name = "LOW..HIGH")]
     speed_range: Option<String>,
-    /// The pump whose source flow drives the circuit (default: the first).
+    /// The pump whose source flow drives the circuit (or a shaft: its
+    /// first pump); default: the first pump.
     #[arg(long, value_name = "NAME")]
     pump: Option<String>,
+    /// The pump's shaft speed, in rpm unless a unit is given (overrides the file).
+    #[arg(long, value_name = "RPM")]
+    speed: Option<String>,
+    /// Number of harmonics of the pumping frequency (overrides the file).
+    #[arg(long, value_name = "N")]
+    harmonics: Option<u32>,
+}
+
+/// The options of [`SweepArgs`] checked and resolved against a circuit.
+pub struct Resolved {
+    pub pump_index: usize,
+    pub speed_rev_s: Option<f64>,
+    pub speed_range: Option<(f64, f64)>,
+    pub band: Option<(f64, f64)>,
+    pub points: Option<usize>,
+    pub harmonics: Option<u32>,
+}
+
+impl SweepArgs {
+    /// Checks the options and looks the pump up in `circuit`.
+    pub fn resolve(&self, circuit: &Circuit) -> anyhow::Result<Resolved> {
+        let points = match self.points {
+            Some(n) if !(10..=200_000).contains(&n) => {
+                return Err(UsageError(format!(
+                    "--points must be between 10 and 200000, found {n}"
+                ))
+                .into());
+            }
+            n => n,
+        };
+        Ok(Resolved {
+            pump_index: pump_index(circuit, self.pump.as_deref())?,
+            speed_rev_s: self
+                .speed
+                .as_deref()
+                .map(|s| super::common::speed_option("--speed", s))
+                .transpose()?,
+            speed_range: self
+                .speed_range
+                .as_deref()
+                .map(speed_range_option)
+                .transpose()?,
+            band: self
+                .band
+                .as_deref()
+                .map(|t| parse_range("--band", t, Dimension::Frequency, "Hz"))
+                .transpose()?,
+            points,
+            harmonics: super::common::harmonics_option(self.harmonics)?,
+        })
+    }
+}
+
+/// `--speed-range LOW..HIGH` in rev/s (rpm when bare), at most 60000 rpm.
+pub fn speed_range_option(text: &str) -> anyhow::Result<(f64, f64)> {
+    let (lo, hi) = parse_range("--speed-range", text, Dimension::ShaftSpeed, "rpm")?;
+    if hi > 1000.0 {
+        return Err(UsageError(format!(
+            "--speed-range {text}: speeds must be at most 60000 rpm"
+        ))
+        .into());
+    }
+    Ok((lo, hi))
 }
 
 /// Resolves the sweep options against a circuit (see [`SweepArgs`]) and

@@ -11,6 +11,7 @@
 pub mod check;
 pub mod json;
 pub mod profile;
+pub mod response;
 pub mod solve;
 pub mod table;
 

@@ -14,6 +14,8 @@
 pub mod check;
 pub mod describe;
 pub mod profile;
+pub mod response;
+pub mod setup;
 pub mod solve;
 
 use crate::diagnostics::Warning;
