@@ -1321,11 +1321,11 @@ fn the_readme_demo_numbers_hold() {
     assert!(o.status.success(), "{}", stderr(&o));
     let out = stdout(&o);
     assert!(
-        out.contains("         1        270.00     47.85     56.26"),
+        out.contains("         1        270.00  47.85   56.26"),
         "{out}"
     );
     assert!(
-        out.contains("         2        540.00     18.18     17.98"),
+        out.contains("         2        540.00  18.18   17.98"),
         "{out}"
     );
     assert!(readme.contains("56.3 dB on harmonic 1 and 18.0 dB on harmonic 2"));

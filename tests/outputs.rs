@@ -326,3 +326,48 @@ fn response_of_the_second_pump_uses_the_shaft_speed_range() {
     }
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+/// `silencer --json`: per harmonic, IL = 20·log10|P_without/P_with| (its
+/// definition, README "silencer") holds between the reported amplitudes,
+/// the harmonic CSV carries the same numbers, and the caution is in the
+/// result whenever a damper is reported.
+#[test]
+fn silencer_json_agrees_with_the_harmonic_csv_and_the_definition_of_il() {
+    let dir = scratch("silencer-json");
+    let (j, c) = (path(&dir, "s.json"), path(&dir, "h.csv"));
+    ok(&[
+        "silencer",
+        "networks/drill_rig_feed_damper.yaml",
+        "--element",
+        "damper",
+        "--tap",
+        "head block",
+        "--points",
+        "50",
+        "--json",
+        &j,
+        "--harmonic-csv",
+        &c,
+    ]);
+    let r = json(&j, "silencer");
+    let rows = csv_rows(&c);
+    let harmonics = r["harmonics"].as_array().unwrap();
+    assert_eq!(rows.len(), harmonics.len());
+    for (h, row) in harmonics.iter().zip(&rows) {
+        let (without, with) = (num(&h["without_pa"]), num(&h["with_pa"]));
+        same(row[4].parse().unwrap(), without);
+        same(row[5].parse().unwrap(), with);
+        if with > 0.0 {
+            let il = num(&h["insertion_loss_db"]);
+            assert!((il - 20.0 * (without / with).log10()).abs() < 1e-9, "{h}");
+        }
+    }
+    assert_eq!(r["freqs_hz"].as_array().unwrap().len(), 50);
+    assert!(
+        r["cautions"][0]
+            .as_str()
+            .unwrap()
+            .contains("pressure vessel")
+    );
+    std::fs::remove_dir_all(dir).unwrap();
+}

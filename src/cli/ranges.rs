@@ -236,24 +236,6 @@ pub fn csv_output(option: &str, path: Option<&Path>) -> anyhow::Result<Option<Pa
     path.map(|p| check_output(option, p, &["csv"])).transpose()
 }
 
-/// Checks an optional plot output path before any work.
-pub fn plot_output(path: Option<&Path>) -> anyhow::Result<Option<PathBuf>> {
-    path.map(|p| check_output("--plot", p, &["svg", "png"]))
-        .transpose()
-}
-
-/// What a frequency sweep of `response` or `silencer` covers.
-pub struct Sweep {
-    /// The pump that drives it.
-    pub pump_index: usize,
-    /// The operating speed range.
-    pub speeds: SpeedRange,
-    /// The band in Hz.
-    pub band: (f64, f64),
-    /// Number of log-spaced frequencies.
-    pub points: usize,
-}
-
 /// The options that set up a frequency sweep, shared by `response` and
 /// `silencer`.
 #[derive(Debug, clap::Args)]
@@ -337,84 +319,4 @@ pub fn speed_range_option(text: &str) -> anyhow::Result<(f64, f64)> {
         .into());
     }
     Ok((lo, hi))
-}
-
-/// Resolves the sweep options against a circuit (see [`SweepArgs`]) and
-/// prints the circuit's warnings up to the top of the band.
-pub fn sweep(circuit: &Circuit, args: &SweepArgs) -> anyhow::Result<Sweep> {
-    let (pump, speed_range, band, points) = (
-        args.pump.as_deref(),
-        args.speed_range.as_deref(),
-        args.band.as_deref(),
-        args.points,
-    );
-    let pump_index = pump_index(circuit, pump)?;
-    let speeds = self::speed_range(speed_range, circuit, pump_index)?;
-    let z = f64::from(circuit.pumps[pump_index].pumping_elements);
-    let band = match band {
-        Some(text) => parse_range("--band", text, Dimension::Frequency, "Hz")?,
-        None => (
-            0.25 * z * speeds.rev_s.0,
-            f64::from(circuit.harmonics.max(10)) * z * speeds.rev_s.1,
-        ),
-    };
-    let points = match points {
-        Some(n) if (10..=200_000).contains(&n) => n,
-        Some(n) => {
-            return Err(
-                UsageError(format!("--points must be between 10 and 200000, found {n}")).into(),
-            );
-        }
-        None => ripline::analysis::response::default_points(band.0, band.1),
-    };
-    for w in ripline::diagnostics::circuit_warnings(circuit, band.1) {
-        eprintln!("warning: {w}");
-    }
-    Ok(Sweep {
-        pump_index,
-        speeds,
-        band,
-        points,
-    })
-}
-
-/// Harmonic bands for a chart: shaded bands over a speed range, or dashed
-/// markers when the range is a single speed.
-pub fn band_marks(
-    bands: &[ripline::analysis::response::HarmonicBand],
-) -> (Vec<ripline::plot::Band>, Vec<ripline::plot::Marker>) {
-    let label = |order: u32| format!("{order}×");
-    let shaded = bands
-        .iter()
-        .filter(|b| b.high_hz > b.low_hz)
-        .map(|b| ripline::plot::Band {
-            from: b.low_hz,
-            to: b.high_hz,
-            label: label(b.order),
-        })
-        .collect();
-    let lines = bands
-        .iter()
-        .filter(|b| b.high_hz == b.low_hz)
-        .map(|b| ripline::plot::Marker {
-            value: b.low_hz,
-            label: label(b.order),
-        })
-        .collect();
-    (shaded, lines)
-}
-
-/// The bands of the harmonics the pump's source flow has, and those of the
-/// harmonics it lacks (which excite nothing).
-pub fn excited_bands(
-    pump: &ripline::source::Pump,
-    speeds: &SpeedRange,
-    harmonics: u32,
-) -> (
-    Vec<ripline::analysis::response::HarmonicBand>,
-    Vec<ripline::analysis::response::HarmonicBand>,
-) {
-    ripline::analysis::response::harmonic_bands(pump.pumping_elements, speeds.rev_s, harmonics)
-        .into_iter()
-        .partition(|b| pump.flow_ripple(b.order).norm() > 0.0)
 }

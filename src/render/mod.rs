@@ -12,6 +12,7 @@ pub mod check;
 pub mod json;
 pub mod profile;
 pub mod response;
+pub mod silencer;
 pub mod solve;
 pub mod table;
 

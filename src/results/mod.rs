@@ -16,6 +16,7 @@ pub mod describe;
 pub mod profile;
 pub mod response;
 pub mod setup;
+pub mod silencer;
 pub mod solve;
 
 use crate::diagnostics::Warning;
