@@ -1267,14 +1267,14 @@ fn the_readme_demo_numbers_hold() {
     for (tap, without, with, readme_without, readme_with) in [
         (
             "head block",
-            "4.0033 bar rms",
-            "8.265 kPa rms",
+            "4.003 bar rms",
+            "0.08265 bar rms",
             "4.003 bar",
-            "0.0083 bar (−33.7 dB)",
+            "0.083 bar (−33.7 dB)",
         ),
         (
             "pump outlet",
-            "7.2717 bar rms",
+            "7.272 bar rms",
             "0.6231 bar rms",
             "7.272 bar",
             "0.623 bar (−21.3 dB)",

@@ -371,3 +371,77 @@ fn silencer_json_agrees_with_the_harmonic_csv_and_the_definition_of_il() {
     );
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+/// `tune --csv/--json/--plot` (the outputs every analysis has): the
+/// `worst` objective is the largest overall rms over the speeds (its
+/// definition, README "tune"), the CSV holds the same per-speed values,
+/// bounds print in one unit per parameter, and gas pressures are echoed
+/// in bar gauge as the option gave them. `--speeds` stays an alias of
+/// `--speed-points`.
+#[test]
+fn tune_writes_csv_json_and_plot_with_one_unit_per_parameter() {
+    let dir = scratch("tune-out");
+    let (c, j, svg) = (
+        path(&dir, "t.csv"),
+        path(&dir, "t.json"),
+        path(&dir, "t.svg"),
+    );
+    let args = |points: &str| {
+        vec![
+            "tune".to_string(),
+            "networks/drill_rig_feed_damper.yaml".into(),
+            "--element".into(),
+            "damper".into(),
+            "--vary".into(),
+            "neck_length=30mm..300mm".into(),
+            "--vary".into(),
+            "precharge=100 bar gauge..150 bar gauge".into(),
+            "--tap".into(),
+            "head block".into(),
+            "--samples".into(),
+            "12".into(),
+            points.into(),
+            "5".into(),
+        ]
+    };
+    let mut a = args("--speed-points");
+    a.extend(["--csv", &c, "--json", &j, "--plot", &svg].map(String::from));
+    let a: Vec<&str> = a.iter().map(String::as_str).collect();
+    let text = ok(&a);
+    let b = args("--speeds");
+    let b: Vec<&str> = b.iter().map(String::as_str).collect();
+    assert_eq!(ok(&b), text);
+    assert!(std::fs::read_to_string(&svg).unwrap().contains("<svg"));
+    let r = json(&j, "tune");
+    let tuned = &r["tuned"];
+    let per: Vec<f64> = tuned["per_condition_pa"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(num)
+        .collect();
+    assert_eq!(per.len(), 5);
+    let worst = per.iter().copied().fold(0.0, f64::max);
+    same(num(&tuned["objective_pa"]), worst);
+    let rows = csv_rows(&c);
+    assert_eq!(rows.len(), 5);
+    for (row, p) in rows.iter().zip(&per) {
+        assert_eq!(row[1], "");
+        same(row[4].parse().unwrap(), *p);
+    }
+    // 800 rpm is the low end of the range, 2400 rpm the high end
+    assert_eq!(rows[0][0].parse::<f64>().unwrap(), 800.0);
+    assert!((rows[4][0].parse::<f64>().unwrap() - 2400.0).abs() < 1e-9);
+    assert!(text.contains("  neck_length  mm  "), "{text}");
+    assert!(text.contains("30.00  300.0"), "{text}");
+    assert!(
+        text.contains("  precharge    bar gauge        120.0"),
+        "{text}"
+    );
+    assert!(
+        text.contains("precharge: ") && text.contains(" bar gauge"),
+        "{text}"
+    );
+    assert!(!text.contains("bar abs\n"), "{text}");
+    std::fs::remove_dir_all(dir).unwrap();
+}

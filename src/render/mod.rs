@@ -15,6 +15,7 @@ pub mod response;
 pub mod silencer;
 pub mod solve;
 pub mod table;
+pub mod tune;
 
 use crate::results::Subject;
 use crate::units::format_sig;

@@ -18,6 +18,7 @@ pub mod response;
 pub mod setup;
 pub mod silencer;
 pub mod solve;
+pub mod tune;
 
 use crate::diagnostics::Warning;
 use num_complex::Complex64 as C64;
