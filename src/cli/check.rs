@@ -37,6 +37,11 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
     let json = common::json_path(args.json.as_deref())?;
     let harmonics = common::harmonics_option(args.harmonics)?;
     let loaded = common::load_circuit(args.file.as_deref())?;
+    let mut outputs = Outputs::plan(&[
+        ("--csv", csv.as_deref()),
+        ("--plot", plot.as_deref()),
+        ("--json", json.as_deref()),
+    ])?;
     let speed = match &args.speed {
         Some(text) => Some((
             common::pick_shaft(&loaded.circuit, args.pump.as_deref())?,
@@ -47,7 +52,6 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
     let request = CheckRequest { harmonics, speed };
     let result = check(loaded.circuit, &loaded.source, &request)?;
 
-    let mut outputs = Outputs::default();
     if let Some(path) = &csv {
         outputs.csv(path, |buf| render::csv(&result, buf))?;
     }

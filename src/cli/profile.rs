@@ -51,6 +51,11 @@ pub fn run(args: ProfileArgs) -> anyhow::Result<()> {
         .map(|s| common::speed_option("--speed", s))
         .transpose()?;
     let loaded = common::load_circuit(args.file.as_deref())?;
+    let mut outputs = Outputs::plan(&[
+        ("--csv", csv.as_deref()),
+        ("--plot", plot.as_deref()),
+        ("--json", json.as_deref()),
+    ])?;
     let request = ProfileRequest {
         pump_index: ranges::pump_index(&loaded.circuit, args.pump.as_deref())?,
         harmonic: args.harmonic,
@@ -59,7 +64,6 @@ pub fn run(args: ProfileArgs) -> anyhow::Result<()> {
     let result = profile(loaded.circuit, &loaded.source, &request)?;
     common::print_warnings(&result.warnings);
 
-    let mut outputs = Outputs::default();
     if let Some(path) = &csv {
         outputs.csv(path, |buf| render::csv(&result, buf))?;
     }

@@ -199,6 +199,24 @@ pub struct SweepArgs {
     harmonics: Option<u32>,
 }
 
+/// Lowest and highest frequency `--band` may reach, Hz: far outside the
+/// ripple of any pump, and inside the range where every frequency and its
+/// logarithm print as ordinary numbers.
+pub const BAND_RANGE_HZ: (f64, f64) = (1e-3, 1e6);
+
+/// `--band LOW..HIGH` in Hz, within [`BAND_RANGE_HZ`].
+pub fn band_option(text: &str) -> anyhow::Result<(f64, f64)> {
+    let band = parse_range("--band", text, Dimension::Frequency, "Hz")?;
+    let (lo, hi) = BAND_RANGE_HZ;
+    if band.0 < lo || band.1 > hi {
+        return Err(UsageError(format!(
+            "--band {text}: the band must lie within 0.001 Hz .. 1 MHz (pressure ripple of a pump is a few Hz to some kHz)"
+        ))
+        .into());
+    }
+    Ok(band)
+}
+
 /// The options of [`SweepArgs`] checked and resolved against a circuit.
 pub struct Resolved {
     pub pump_index: usize,
@@ -233,11 +251,7 @@ impl SweepArgs {
                 .as_deref()
                 .map(speed_range_option)
                 .transpose()?,
-            band: self
-                .band
-                .as_deref()
-                .map(|t| parse_range("--band", t, Dimension::Frequency, "Hz"))
-                .transpose()?,
+            band: self.band.as_deref().map(band_option).transpose()?,
             points,
             harmonics: super::common::harmonics_option(self.harmonics)?,
         })

@@ -38,6 +38,11 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
         None => (0.1, Origin::Default),
     };
     let loaded = common::load_circuit(args.file.as_deref())?;
+    let mut outputs = Outputs::plan(&[
+        ("--csv", csv.as_deref()),
+        ("--plot", plot.as_deref()),
+        ("--json", json.as_deref()),
+    ])?;
     let sweep = args.sweep.resolve(&loaded.circuit)?;
     let request = ResponseRequest {
         pump_index: sweep.pump_index,
@@ -58,7 +63,6 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
     progress.finish();
     common::print_warnings(&result.warnings);
 
-    let mut outputs = Outputs::default();
     if let Some(path) = &csv {
         outputs.csv(path, |buf| render::csv(&result, buf))?;
     }

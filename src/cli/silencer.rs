@@ -64,6 +64,12 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     let harmonic_csv = ranges::csv_output("--harmonic-csv", args.harmonic_csv.as_deref())?;
     let json = common::json_path(args.json.as_deref())?;
     let loaded = common::load_circuit(Some(&args.file))?;
+    let mut outputs = Outputs::plan(&[
+        ("--csv", csv.as_deref()),
+        ("--harmonic-csv", harmonic_csv.as_deref()),
+        ("--plot", plot.as_deref()),
+        ("--json", json.as_deref()),
+    ])?;
     let circuit = &loaded.circuit;
     let elements = args
         .element
@@ -108,7 +114,6 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     progress.finish();
     common::print_warnings(&result.warnings);
 
-    let mut outputs = Outputs::default();
     if let Some(path) = &csv {
         outputs.csv(path, |buf| render::csv(&result, buf))?;
     }

@@ -52,6 +52,13 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
         .collect::<anyhow::Result<Vec<_>>>()?;
     let harmonics = common::harmonics_option(args.harmonics)?;
     let loaded = common::load_circuit(args.file.as_deref())?;
+    let mut targets = vec![
+        ("--csv", csv.as_deref()),
+        ("--plot", plot.as_deref()),
+        ("--json", json.as_deref()),
+    ];
+    targets.extend(waveforms.iter().map(|p| ("--waveform", Some(p.as_path()))));
+    let mut outputs = Outputs::plan(&targets)?;
     let speed = match &args.speed {
         Some(text) => {
             let rev_s = common::speed_option("--speed", text)?;
@@ -72,7 +79,6 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
     common::print_warnings(&result.warnings);
 
     // Every output is prepared before anything is shown or renamed into place.
-    let mut outputs = Outputs::default();
     if let Some(path) = &csv {
         outputs.csv(path, |buf| render::csv(&result, buf))?;
     }

@@ -161,6 +161,11 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
         );
     }
     let loaded = common::load_circuit(Some(&args.file))?;
+    let mut outputs = Outputs::plan(&[
+        ("--csv", csv.as_deref()),
+        ("--plot", plot.as_deref()),
+        ("--json", json.as_deref()),
+    ])?;
     let circuit = &loaded.circuit;
     let (fluid_states, notes) = fluid_states(&args)?;
     let request = TuneRequest {
@@ -199,7 +204,6 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     progress.finish();
     common::print_warnings(&result.warnings);
 
-    let mut outputs = Outputs::default();
     if let Some(path) = &csv {
         outputs.csv(path, |buf| render::csv(&result, buf))?;
     }

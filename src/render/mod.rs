@@ -39,9 +39,10 @@ pub fn level_text(level_db: Option<f64>) -> String {
     level_db.map_or_else(|| "no ripple".into(), |l| format!("{l:.1} dB"))
 }
 
-/// A reference pressure as typed: "1 Pa", "1 bar", "20 µPa"-like values in
-/// the unit that reads best, with no trailing zeros.
+/// A reference pressure as printed beside levels: at most 4 significant
+/// digits and no trailing zeros, in the unit that reads best ("1 Pa",
+/// "1 bar", "2e-5 Pa").
 pub fn reference_text(p_ref_pa: f64) -> String {
     let unit = table::Quantity::Pressure.unit_for(p_ref_pa);
-    format!("{} {}", format_sig(unit.of(p_ref_pa), 6), unit.symbol)
+    format!("{} {}", format_sig(unit.of(p_ref_pa), 4), unit.symbol)
 }

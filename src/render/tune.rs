@@ -55,8 +55,13 @@ pub fn text(r: &TuneResult, out: &mut impl Write) -> std::io::Result<()> {
     )?;
     writeln!(
         out,
-        "speeds: {} (log-spaced, ends included); speed range {}",
+        "speeds: {} (log-spaced, ends included{}); speed range {}",
         r.speeds_rev_s.len(),
+        if r.refined_worst {
+            ", every resonance crossing between them refined to 0.01 dB"
+        } else {
+            ""
+        },
         r.speed_range.describe_origin()
     )?;
     if !r.temperatures_k.is_empty() {
@@ -73,7 +78,7 @@ pub fn text(r: &TuneResult, out: &mut impl Write) -> std::io::Result<()> {
     let one = r.parameters.len() == 1;
     writeln!(
         out,
-        "search: {} in log scale over the bounds, then {}; {} ripple evaluations of {} network solves each",
+        "search: {} in log scale over the bounds, then {}; {} ripple evaluations of {} network solves each on the speed grid",
         if one {
             format!("an even grid of {} values", r.search.global_points)
         } else {

@@ -72,28 +72,37 @@ pub fn silencer(e: &Element, pipe: Option<&Tube>) -> Vec<String> {
                 "the bare neck length"
             }
         )],
-        ElementKind::Damper(d) => vec![
-            format!(
+        ElementKind::Damper(d) => {
+            let mut v = vec![format!(
                 "gas-charged pulsation damper, gas volume {} at a precharge of {}, operating at {}, polytropic index {:.2}",
                 vol(d.gas_volume_m3),
                 gas_pressure(d.precharge_pa),
                 gas_pressure(d.operating_pa),
                 d.polytropic_index
-            ),
-            format!(
-                "gas volume at the operating pressure {} (Boyle's law, isothermal charging), oil in the vessel {}; compliance {:.4e} m³/Pa",
-                vol(d.gas_volume_at_operating_m3()),
-                vol(d.oil_volume_m3()),
-                d.compliance()
-            ),
-            format!(
-                "neck {} long, {} bore: lumped resonance {:.2} Hz (it attenuates above it); gas energy at the operating pressure about {} kJ",
-                len(d.neck_length_m),
-                len(d.neck.radius_m * 2.0),
-                d.lumped_resonance_hz(),
-                sig(d.stored_energy_j() / 1e3, 3)
-            ),
-        ],
+            )];
+            let energy = sig(d.stored_energy_j() / 1e3, 3);
+            match d.lumped_resonance_hz() {
+                Some(f_r) => v.extend([
+                    format!(
+                        "gas volume at the operating pressure {} (Boyle's law, isothermal charging), oil in the vessel {}; compliance {:.4e} m³/Pa",
+                        vol(d.gas_volume_at_operating_m3()),
+                        vol(d.oil_volume_m3()),
+                        d.compliance()
+                    ),
+                    format!(
+                        "neck {} long, {} bore: lumped resonance {f_r:.2} Hz (it attenuates above it); gas energy at the operating pressure about {energy} kJ",
+                        len(d.neck_length_m),
+                        len(d.neck.radius_m * 2.0),
+                    ),
+                ]),
+                None => v.push(format!(
+                    "BOTTOMED: the operating pressure is below the precharge, so the gas is out of the circuit and only the neck ({} long, {} bore) remains, closed at its end; the gas still holds about {energy} kJ at its precharge",
+                    len(d.neck_length_m),
+                    len(d.neck.radius_m * 2.0),
+                )),
+            }
+            v
+        }
         _ => Vec::new(),
     }
 }

@@ -173,9 +173,11 @@ pub fn notices(warnings: &[Warning]) -> Vec<Notice> {
 }
 
 /// A level in dB re `p_ref_pa` of an rms pressure, `None` when there is no
-/// ripple (the level would be −∞).
+/// ripple (the level would be −∞). Taken as a difference of logarithms, so
+/// it is finite for every positive finite pressure (the ratio itself can
+/// underflow or overflow).
 pub fn level_db(rms_pa: f64, p_ref_pa: f64) -> Option<f64> {
-    (rms_pa > 0.0).then(|| 20.0 * (rms_pa / p_ref_pa).log10())
+    (rms_pa > 0.0).then(|| 20.0 * (rms_pa.log10() - p_ref_pa.log10()))
 }
 
 /// Why an analysis could not produce its result.

@@ -94,7 +94,13 @@ impl Ripple {
     }
 }
 
-/// Where the tuned design is worst.
+/// Most ripple evaluations (search evaluations × speeds × temperatures) a
+/// tune may make: about seven times the default three-parameter search over
+/// 41 speeds and 3 temperatures.
+pub const MAX_TUNE_WORK: usize = 2_000_000;
+
+/// Where the tuned design is worst (objective `worst`; the speed refined
+/// between the grid speeds).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct WorstCondition {
     /// Speed, rev/s.
@@ -147,6 +153,9 @@ pub struct TuneResult {
     pub tap: String,
     /// The objective, in words.
     pub objective: &'static str,
+    /// Whether the worst speed is refined between the grid speeds (the
+    /// `worst` objective over more than one speed).
+    pub refined_worst: bool,
     /// The pump.
     pub pump: PumpRef,
     /// Harmonics of the pump in the ripple.
@@ -292,6 +301,14 @@ pub fn tune(
     let mut warnings = request.notes.clone();
     warnings.extend(notices(&crate::diagnostics::circuit_warnings(circuit, top)));
     let budget = settings.budget();
+    let work = budget * conditions.len() * temperatures_k.len().max(1);
+    if work > MAX_TUNE_WORK {
+        return Err(Error::Request(format!(
+            "{budget} evaluations × {} speeds × {} temperatures is {work} ripple evaluations, more than {MAX_TUNE_WORK}: use fewer --samples, --speed-points or --temperature-points",
+            conditions.len(),
+            temperatures_k.len().max(1)
+        )));
+    }
     let found = problem
         .solve(settings, &mut |n| progress(n, budget))
         .map_err(|e| {
@@ -332,14 +349,7 @@ pub fn tune(
             .iter()
             .map(without_in)
             .collect::<Option<Vec<_>>>()
-            .map(|all| {
-                let per_condition_pa: Vec<f64> =
-                    all.into_iter().flat_map(|s| s.per_condition_pa).collect();
-                RippleSummary {
-                    objective_pa: objective.over(&per_condition_pa),
-                    per_condition_pa,
-                }
-            })
+            .map(|all| RippleSummary::combine(objective, all))
     };
 
     let e = &circuit.elements[request.element];
@@ -368,20 +378,17 @@ pub fn tune(
         })
         .collect();
     let speeds_rev_s: Vec<f64> = conditions.iter().map(|c| c.speed_rev_s).collect();
-    let worst = (found.after.per_condition_pa.len() > 1).then(|| {
-        let (i, rms) = found
-            .after
-            .per_condition_pa
-            .iter()
-            .enumerate()
-            .fold((0, 0.0), |b, (i, &v)| if v > b.1 { (i, v) } else { b });
-        WorstCondition {
-            speed_rev_s: speeds_rev_s[i % speeds_rev_s.len()],
-            temperature_k: temperatures_k.get(i / speeds_rev_s.len()).copied(),
-            rms_pa: rms,
-            level_db: level_db(rms, p_ref),
-        }
-    });
+    // the worst speed refined between the grid speeds (objective `worst`)
+    let worst = found
+        .after
+        .worst
+        .filter(|_| !speeds.is_single() || !temperatures_k.is_empty())
+        .map(|(state, speed)| WorstCondition {
+            speed_rev_s: speed,
+            temperature_k: temperatures_k.get(state).copied(),
+            rms_pa: found.after.objective_pa,
+            level_db: level_db(found.after.objective_pa, p_ref),
+        });
     let cautions = if matches!(e.kind, ElementKind::Damper(_)) {
         vec![PRESSURE_VESSEL_CAUTION.to_string()]
     } else {
@@ -406,6 +413,7 @@ pub fn tune(
         place: describe::place(circuit, e),
         tap: request.tap.0.clone(),
         objective: objective.describe(),
+        refined_worst: objective == Objective::Worst && conditions.len() > 1,
         pump: PumpRef::of(circuit, pump_index),
         harmonics: circuit.harmonics,
         speed_range: speeds,
