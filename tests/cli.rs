@@ -1428,7 +1428,10 @@ fn sweep_of_the_engine_example_writes_the_grid_and_finds_crossings() {
 fn bad_sweep_options_are_usage_errors() {
     let example = "networks/loader_engine_pumps.yaml";
     for (args, fragment) in [
-        (vec!["sweep"], "has no speed range: give --speed LOW..HIGH"),
+        (
+            vec!["sweep"],
+            "has no speed range: give --speed-range LOW..HIGH",
+        ),
         (
             vec!["sweep", example, "--speed", "3000..600"],
             "from a positive low value to a higher one",
@@ -1444,7 +1447,7 @@ fn bad_sweep_options_are_usage_errors() {
         (vec!["sweep", example, "--speed", "slow..fast"], "--speed"),
         (
             vec!["sweep", example, "--step", "0"],
-            "--step must be between 0 and 60000 rpm",
+            "--speed-step must be between 0 and 60000 rpm",
         ),
         (vec!["sweep", example, "--step", "1000"], "speeds over"),
         (

@@ -455,3 +455,74 @@ fn tune_writes_csv_json_and_plot_with_one_unit_per_parameter() {
     assert!(!text.contains("bar abs\n"), "{text}");
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+/// `sweep --json`: the overall rms at each grid speed is √(Σ|P_k|²/2) of
+/// the CSV's amplitudes at that speed (methods.md §7.4; both pumps of the
+/// engine example are on the swept shaft, so nothing else adds), the
+/// worst speed per point is at least the grid maximum, and the crossings
+/// are those of the text. `--point`, `--step` and `--shaft` stay aliases.
+#[test]
+fn sweep_json_agrees_with_the_grid_csv() {
+    let dir = scratch("sweep-json");
+    let (j, c) = (path(&dir, "s.json"), path(&dir, "s.csv"));
+    let example = "networks/loader_engine_pumps.yaml";
+    let text = ok(&[
+        "sweep",
+        example,
+        "--speed-step",
+        "80",
+        "--harmonics",
+        "3",
+        "--json",
+        &j,
+        "--csv",
+        &c,
+    ]);
+    let old = ok(&[
+        "sweep",
+        example,
+        "--step",
+        "80",
+        "--harmonics",
+        "3",
+        "--shaft",
+        "engine",
+    ]);
+    assert_eq!(old, text);
+    let r = json(&j, "sweep");
+    let rows = csv_rows(&c);
+    let speeds = r["speeds_rev_s"].as_array().unwrap();
+    let points = r["points"].as_array().unwrap();
+    assert_eq!(speeds.len(), 21);
+    for (pi, point) in points.iter().enumerate() {
+        let levels = r["overall_rms_pa"][pi].as_array().unwrap();
+        for (si, s) in speeds.iter().enumerate() {
+            let rpm = num(s) * 60.0;
+            let ms: f64 = rows
+                .iter()
+                .filter(|row| {
+                    row[1] == point.as_str().unwrap()
+                        && (row[0].parse::<f64>().unwrap() - rpm).abs() < 1e-6
+                })
+                .map(|row| row[4].parse::<f64>().unwrap().powi(2) / 2.0)
+                .sum();
+            let rms = num(&levels[si]);
+            assert!(
+                (rms - ms.sqrt()).abs() <= 1e-9 * rms.max(1.0),
+                "{rms} {}",
+                ms.sqrt()
+            );
+        }
+        let grid_max = levels.iter().map(num).fold(0.0, f64::max);
+        let worst = num(&r["worst"][pi]["rms_pa"]);
+        assert!(worst >= grid_max * (1.0 - 1e-12), "{worst} {grid_max}");
+    }
+    let crossings = r["crossings"].as_array().unwrap();
+    assert!(
+        text.contains(&format!("resonance crossings ({};", crossings.len())),
+        "{text}"
+    );
+    assert_eq!(r["order_basis"], "shaft_fundamental");
+    assert!(text.contains("  speed rpm  order  frequency Hz"), "{text}");
+    std::fs::remove_dir_all(dir).unwrap();
+}

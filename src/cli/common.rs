@@ -6,7 +6,7 @@ use ripline::io::InputError;
 use ripline::io::output::{OutputError, StagedOutputs};
 use ripline::results::{self, Notice, Origin};
 use ripline::source::{Shaft, shafts};
-use ripline::units::{Dimension, PressureDisplay, parse_quantity};
+use ripline::units::{Dimension, parse_quantity};
 use ripline::{Circuit, demo};
 use std::path::{Path, PathBuf};
 
@@ -28,21 +28,6 @@ pub fn load_circuit(file: Option<&Path>) -> anyhow::Result<LoadedCircuit> {
             source: demo::DEMO_NAME.to_string(),
         }),
     }
-}
-
-/// The first lines of a command's report: `ripline <command>: <source>` and
-/// the circuit's title, if any.
-pub fn write_heading(
-    out: &mut impl std::io::Write,
-    command: &str,
-    source: &str,
-    circuit: &Circuit,
-) -> std::io::Result<()> {
-    writeln!(out, "ripline {command}: {source}")?;
-    if let Some(title) = &circuit.title {
-        writeln!(out, "circuit: {title}")?;
-    }
-    Ok(())
 }
 
 /// A user error in a command-line value (exit code 2).
@@ -190,38 +175,6 @@ pub fn pick_shaft(circuit: &Circuit, name: Option<&str>) -> anyhow::Result<Shaft
         })
 }
 
-/// The options `solve` and `sweep` share, checked before any work: the dB
-/// reference, the output paths, and the circuit with its harmonic count.
-pub struct Prepared {
-    pub p_ref: f64,
-    pub csv: Option<PathBuf>,
-    pub plot: Option<PathBuf>,
-    pub loaded: LoadedCircuit,
-}
-
-/// Checks `--db-ref`, `--csv`, `--plot`, loads FILE (or the demo) and
-/// applies `--harmonics`.
-pub fn prepare(
-    db_ref: Option<&str>,
-    csv: Option<&Path>,
-    plot: Option<&Path>,
-    file: Option<&Path>,
-    harmonics: Option<u32>,
-) -> anyhow::Result<Prepared> {
-    let (p_ref, _) = db_ref_option(db_ref)?;
-    let (csv, plot) = csv_and_plot_paths(csv, plot)?;
-    let mut loaded = load_circuit(file)?;
-    if let Some(n) = harmonics_option(harmonics)? {
-        loaded.circuit.harmonics = n;
-    }
-    Ok(Prepared {
-        p_ref,
-        csv,
-        plot,
-        loaded,
-    })
-}
-
 /// Smallest and largest reference pressure for levels in dB, Pa: from the
 /// 1 µPa of underwater acoustics to 10 kbar, beyond any hydraulic pressure.
 pub const DB_REF_RANGE_PA: (f64, f64) = (1e-6, 1e9);
@@ -238,27 +191,6 @@ pub fn db_reference(text: &str) -> anyhow::Result<f64> {
         .into());
     }
     Ok(p_ref)
-}
-
-/// The reference pressure as printed beside levels: 4 significant digits,
-/// in Pa below 10 Pa (`20e-6 Pa` rather than `0.000 Pa`).
-pub fn reference_text(p_ref: f64) -> String {
-    if p_ref >= 10.0 {
-        return PressureDisplay(p_ref).to_string();
-    }
-    let rounded: f64 = format!("{p_ref:.3e}").parse().unwrap_or(p_ref);
-    if rounded >= 1e-3 {
-        format!("{rounded} Pa")
-    } else {
-        format!("{rounded:e} Pa")
-    }
-}
-
-/// 20·log10(rms/p_ref), taken as a difference of logarithms so that it is
-/// finite for every positive finite pressure (the ratio itself can
-/// underflow or overflow).
-pub fn db_re(rms: f64, p_ref: f64) -> f64 {
-    20.0 * (rms.log10() - p_ref.log10())
 }
 
 /// `--db-ref PRESSURE` (a bare number in Pa), default 1 Pa.
@@ -354,15 +286,6 @@ pub fn print(
     write(&mut out)?;
     out.flush()?;
     Ok(())
-}
-
-/// A level in dB re `p_ref` of an rms pressure, or "no ripple".
-pub fn level_text(rms: f64, p_ref: f64) -> String {
-    if rms > 0.0 {
-        format!("{:.1} dB", db_re(rms, p_ref))
-    } else {
-        "no ripple".to_string()
-    }
 }
 
 /// The output files of a command as one all-or-nothing group, checked before

@@ -151,15 +151,6 @@ impl Progress {
         self.0.set_position(done as u64);
     }
 
-    /// Moves the bar to `done` steps (growing its length if the work ran over).
-    pub fn set(&self, done: usize) {
-        let done = done as u64;
-        if self.0.length().is_some_and(|l| done > l) {
-            self.0.set_length(done);
-        }
-        self.0.set_position(done);
-    }
-
     /// Removes the bar.
     pub fn finish(self) {
         self.0.finish_and_clear();

@@ -14,6 +14,7 @@ pub mod profile;
 pub mod response;
 pub mod silencer;
 pub mod solve;
+pub mod sweep;
 pub mod table;
 pub mod tune;
 

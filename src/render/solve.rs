@@ -4,7 +4,7 @@
 use super::table::{Align, Quantity, Table, phase, sig};
 use super::{heading, level_text};
 use crate::plot;
-use crate::results::solve::{OrderBasis, SolveResult, SourceRipple};
+use crate::results::solve::{OrderBasis, SolveResult};
 use std::io::Write;
 
 /// Header of the harmonic table (`solve --csv`) with one source.
@@ -88,7 +88,7 @@ pub fn text(r: &SolveResult, out: &mut impl Write) -> std::io::Result<()> {
                     .chain([p.rms_pa, p.peak_to_peak_pa]),
             );
             let mut t = Table::new(&[
-                (order_header(s), Align::Right),
+                (s.order_basis.header(), Align::Right),
                 ("frequency Hz", Align::Right),
             ])
             .column(format!("amplitude {}", unit.symbol), Align::Right)
@@ -121,13 +121,6 @@ pub fn text(r: &SolveResult, out: &mut impl Write) -> std::io::Result<()> {
         }
     }
     Ok(())
-}
-
-fn order_header(s: &SourceRipple) -> &'static str {
-    match s.order_basis {
-        OrderBasis::PumpingFrequency => "harmonic",
-        OrderBasis::ShaftFundamental => "order",
-    }
 }
 
 /// Writes the harmonic table: one row per (source,) point and harmonic,

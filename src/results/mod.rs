@@ -18,6 +18,7 @@ pub mod response;
 pub mod setup;
 pub mod silencer;
 pub mod solve;
+pub mod sweep;
 pub mod tune;
 
 use crate::diagnostics::Warning;

@@ -54,6 +54,28 @@ pub enum OrderBasis {
 }
 
 impl OrderBasis {
+    /// The basis of `shaft`'s orders: harmonics of the pumping frequency
+    /// when all its pumps have the same z, else orders of n·g.
+    pub fn of(circuit: &Circuit, shaft: &Shaft) -> Self {
+        if shaft
+            .pumps
+            .iter()
+            .all(|&i| circuit.pumps[i].pumping_elements == shaft.fundamental_elements)
+        {
+            OrderBasis::PumpingFrequency
+        } else {
+            OrderBasis::ShaftFundamental
+        }
+    }
+
+    /// The column header of an order: "harmonic" or "order".
+    pub fn header(self) -> &'static str {
+        match self {
+            OrderBasis::PumpingFrequency => "harmonic",
+            OrderBasis::ShaftFundamental => "order",
+        }
+    }
+
     /// "harmonic of the pumping frequency" or "order of the shaft fundamental".
     pub fn describe(self) -> &'static str {
         match self {
@@ -289,10 +311,6 @@ fn source(
     p_ref: f64,
     with_waveform: bool,
 ) -> SourceRipple {
-    let equal_z = shaft
-        .pumps
-        .iter()
-        .all(|&i| circuit.pumps[i].pumping_elements == shaft.fundamental_elements);
     SourceRipple {
         name: report.pump.clone(),
         pumps: shaft
@@ -303,11 +321,7 @@ fn source(
         speed_rev_s: report.speed_rev_s,
         fundamental_hz: report.pumping_frequency_hz,
         fundamental_elements: shaft.fundamental_elements,
-        order_basis: if equal_z {
-            OrderBasis::PumpingFrequency
-        } else {
-            OrderBasis::ShaftFundamental
-        },
+        order_basis: OrderBasis::of(circuit, shaft),
         points: report
             .taps
             .iter()
