@@ -261,6 +261,8 @@ pub fn chart(r: &SolveResult) -> plot::BarChart {
                     .collect(),
             })
             .collect(),
+        // a log axis keeps the higher harmonics (tens of dB down) visible
+        log_y: true,
         ..Default::default()
     }
 }
