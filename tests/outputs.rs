@@ -526,3 +526,71 @@ fn sweep_json_agrees_with_the_grid_csv() {
     assert!(text.contains("  speed rpm  order  frequency Hz"), "{text}");
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+/// `fit --json` on the demo bench: the JSON holds the CSV's estimates, and
+/// the text gives each value with its ± in the same unit, the uncertainty
+/// to two significant digits and the value rounded at the same place
+/// (JCGM 100:2008 §7.2.6): both round back to the JSON's numbers.
+#[test]
+fn fit_prints_values_and_uncertainties_in_one_unit() {
+    let dir = scratch("fit-json");
+    let (j, c) = (path(&dir, "f.json"), path(&dir, "f.csv"));
+    let text = ok(&[
+        "fit",
+        "networks/bench/demo_bench.yaml",
+        "--draws",
+        "50",
+        "--json",
+        &j,
+        "--csv",
+        &c,
+    ]);
+    let r = json(&j, "fit");
+    let rows = csv_rows(&c);
+    let harmonics = r["harmonics"].as_array().unwrap();
+    assert_eq!(rows.len(), harmonics.len());
+    for (h, row) in harmonics.iter().zip(&rows) {
+        same(
+            row[2].parse().unwrap(),
+            num(&h["flow_m3_s"]["value"]["amplitude"]),
+        );
+        same(
+            row[6].parse().unwrap(),
+            num(&h["flow_m3_s"]["amplitude_uncertainty"]),
+        );
+    }
+    // the Qs column is in L/min: "value ± u" for harmonic 1
+    assert!(text.contains(" Qs L/min "), "{text}");
+    let line = text
+        .lines()
+        .find(|l| l.trim_start().starts_with("1  "))
+        .unwrap();
+    let cells: Vec<&str> = line.split_whitespace().collect();
+    let (v, u): (f64, f64) = (cells[2].parse().unwrap(), cells[4].parse().unwrap());
+    assert_eq!(cells[3], "±");
+    let h1 = &harmonics[0]["flow_m3_s"];
+    let lpm = 60_000.0;
+    let (v_json, u_json) = (
+        num(&h1["value"]["amplitude"]) * lpm,
+        num(&h1["amplitude_uncertainty"]) * lpm,
+    );
+    // two significant digits of u; the value's last digit is u's last digit
+    let step = 10f64.powi(u_json.log10().floor() as i32 - 1);
+    assert!(
+        (u - u_json).abs() <= 0.5 * step * (1.0 + 1e-9),
+        "{u} {u_json}"
+    );
+    assert!(
+        (v - v_json).abs() <= 0.5 * step * (1.0 + 1e-9),
+        "{v} {v_json}"
+    );
+    let decimals = |s: &str| s.split_once('.').map_or(0, |(_, d)| d.len());
+    assert_eq!(decimals(cells[2]), decimals(cells[4]), "{line}");
+    // the overall line: "anechoic X ± Y bar" in one unit
+    assert!(
+        text.lines()
+            .any(|l| l.starts_with("overall rms: anechoic ") && l.matches(" bar").count() == 2),
+        "{text}"
+    );
+    std::fs::remove_dir_all(dir).unwrap();
+}

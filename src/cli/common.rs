@@ -219,7 +219,7 @@ pub fn json_path(path: Option<&Path>) -> anyhow::Result<Option<PathBuf>> {
 
 /// The output files of one command as one all-or-nothing group (see
 /// [`plan_outputs`]), staged until every result is ready.
-pub struct Outputs(StagedOutputs);
+pub struct Outputs(pub StagedOutputs);
 
 impl Outputs {
     /// Plans the group: `outputs` are (option, path) pairs, none of which
@@ -238,6 +238,13 @@ impl Outputs {
         stage_csv(&mut self.0, path, write)
     }
 
+    /// Stages a file of `bytes`.
+    pub fn bytes(&mut self, path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
+        self.0
+            .stage_bytes(path, bytes)
+            .with_context(|| format!("writing {}", path.display()))
+    }
+
     /// Stages the JSON document of a result.
     pub fn json<T: serde::Serialize>(
         &mut self,
@@ -248,9 +255,7 @@ impl Outputs {
         let mut bytes = Vec::new();
         ripline::render::json::write(command, result, &mut bytes)
             .context("formatting the JSON document")?;
-        self.0
-            .stage_bytes(path, &bytes)
-            .with_context(|| format!("writing {}", path.display()))
+        self.bytes(path, &bytes)
     }
 
     /// Stages a picture drawn by `draw` at the path it is given.

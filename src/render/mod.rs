@@ -9,6 +9,7 @@
 //! renderer computes physics: everything it shows is in the result.
 
 pub mod check;
+pub mod fit;
 pub mod json;
 pub mod profile;
 pub mod response;

@@ -13,6 +13,7 @@
 
 pub mod check;
 pub mod describe;
+pub mod fit;
 pub mod profile;
 pub mod response;
 pub mod setup;
