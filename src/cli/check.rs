@@ -51,6 +51,7 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
     };
     let request = CheckRequest { harmonics, speed };
     let result = check(loaded.circuit, &loaded.source, &request)?;
+    common::print_warnings(&result.warnings);
 
     if let Some(path) = &csv {
         outputs.csv(path, |buf| render::csv(&result, buf))?;

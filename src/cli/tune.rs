@@ -119,6 +119,7 @@ fn parse_vary(text: &str) -> anyhow::Result<Bound> {
             (p(lo)?, p(hi)?)
         }
         Dimension::Volume => ranges::parse_range("--vary", range, Dimension::Volume, "m3")?,
+        Dimension::Damping => ranges::parse_range("--vary", range, Dimension::Damping, "N.s/m")?,
         dim => ranges::parse_range("--vary", range, dim, "m")?,
     };
     if !(low > 0.0 && high > low) {

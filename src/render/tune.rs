@@ -21,12 +21,19 @@ pub const TUNE_HEADER: [&str; 5] = [
 ];
 
 /// The display unit of a parameter row, from its largest value; gas
-/// pressures in bar gauge.
+/// pressures in bar gauge, damping in N·s/m.
 fn parameter_unit(p: &ParameterResult) -> (Unit, f64) {
     let largest = p.high.max(p.best).max(p.in_file.unwrap_or(0.0));
     match p.unit {
         "m" => (Quantity::Length.unit_for(largest), 0.0),
         "m3" => (Quantity::Volume.unit_for(largest), 0.0),
+        "N·s/m" => (
+            Unit {
+                symbol: "N·s/m",
+                si: 1.0,
+            },
+            0.0,
+        ),
         _ => (
             Unit {
                 symbol: "bar gauge",

@@ -5,7 +5,7 @@
 //! and the size of the solve.
 
 use super::describe;
-use super::{Error, Input, Origin, Phasor, Subject};
+use super::{Error, Input, Notice, Origin, Phasor, Subject, notices};
 use crate::Circuit;
 use crate::circuit::TapLocation;
 use crate::elements::{Connection, ElementKind, PRESSURE_VESSEL_CAUTION};
@@ -144,6 +144,9 @@ pub struct CheckResult {
     /// Safety cautions (the pressure-vessel caution when the circuit holds
     /// a gas-charged damper).
     pub cautions: Vec<String>,
+    /// Warnings about the components (valves that may deliver ripple
+    /// power, hose data held at an end, bottomed in-line dampers).
+    pub warnings: Vec<Notice>,
 }
 
 /// Checks `circuit` as `check` does.
@@ -277,11 +280,7 @@ pub fn check(
         .map(|p| p.pumping_frequency_hz())
         .fold(0.0, f64::max)
         * f64::from(c.harmonics);
-    let cautions = if c
-        .elements
-        .iter()
-        .any(|e| matches!(e.kind, ElementKind::Damper(_)))
-    {
+    let cautions = if c.elements.iter().any(|e| e.kind.is_pressure_vessel()) {
         vec![PRESSURE_VESSEL_CAUTION.to_string()]
     } else {
         Vec::new()
@@ -306,6 +305,7 @@ pub fn check(
         top_hz,
         unknowns: plan.unknowns(),
         cautions,
+        warnings: notices(&crate::diagnostics::component_warnings(c)),
     })
 }
 
@@ -381,12 +381,22 @@ fn element(c: &Circuit, e: &crate::elements::Element) -> String {
         }
         ElementKind::Hose(h) => {
             let p = &h.line.properties;
-            let wall = match h.construction {
-                Some(c) => format!(
+            let wall = match (&h.pressure, h.construction) {
+                (Some(hp), _) => {
+                    let pts = hp.data.points();
+                    format!(
+                        "wall data at {} mean pressures ({:.1} .. {:.1} bar), interpolated at {:.1} bar",
+                        pts.len(),
+                        pts[0].pressure_pa / 1e5,
+                        pts[pts.len() - 1].pressure_pa / 1e5,
+                        hp.mean_pressure_pa / 1e5
+                    )
+                }
+                (None, Some(c)) => format!(
                     "{} wall (typical values; a measured value beats them)",
                     c.name()
                 ),
-                None => "viscoelastic wall".to_string(),
+                (None, None) => "viscoelastic wall".to_string(),
             };
             let fp = c.pumps.first().map_or(100.0, |p| p.pumping_frequency_hz());
             let omega = 2.0 * std::f64::consts::PI * fp;
@@ -419,7 +429,11 @@ fn element(c: &Circuit, e: &crate::elements::Element) -> String {
         ElementKind::SideBranch(_)
         | ElementKind::ExpansionChamber(_)
         | ElementKind::Helmholtz(_)
-        | ElementKind::Damper(_) => describe::silencer(e, None).join("; "),
+        | ElementKind::Damper(_)
+        | ElementKind::InlineDamper(_) => describe::silencer(e, None).join("; "),
+        ElementKind::ReliefValve(_) | ElementKind::CheckValve(_) | ElementKind::Cylinder(_) => {
+            describe::component(&e.kind).join("; ")
+        }
         _ => String::new(),
     }
 }

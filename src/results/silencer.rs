@@ -331,7 +331,7 @@ pub fn silencer(
     let has_damper = request
         .elements
         .iter()
-        .any(|&i| matches!(circuit.elements[i].kind, ElementKind::Damper(_)));
+        .any(|&i| circuit.elements[i].kind.is_pressure_vessel());
     let without_text = if chain.has_two_port(circuit) {
         request.without.describe().to_string()
     } else {

@@ -226,6 +226,7 @@ pub fn file_value(parameter: Parameter, value: f64) -> String {
     match parameter.dimension() {
         Dimension::Length => format!("{:.1} mm", value * 1e3),
         Dimension::Volume => format!("{:.3} L", value * 1e3),
+        Dimension::Damping => format!("{value:.3} N·s/m"),
         _ => format!("{:.2} bar gauge", (value - STANDARD_ATMOSPHERE_PA) / 1e5),
     }
 }
@@ -367,6 +368,7 @@ pub fn tune(
             unit: match b.parameter.dimension() {
                 Dimension::Length => "m",
                 Dimension::Volume => "m3",
+                Dimension::Damping => "N·s/m",
                 _ => "Pa",
             },
             in_file: b.parameter.value(&e.kind),
@@ -389,7 +391,7 @@ pub fn tune(
             rms_pa: found.after.objective_pa,
             level_db: level_db(found.after.objective_pa, p_ref),
         });
-    let cautions = if matches!(e.kind, ElementKind::Damper(_)) {
+    let cautions = if e.kind.is_pressure_vessel() {
         vec![PRESSURE_VESSEL_CAUTION.to_string()]
     } else {
         Vec::new()
