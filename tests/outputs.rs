@@ -594,3 +594,185 @@ fn fit_prints_values_and_uncertainties_in_one_unit() {
     );
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+/// The long options `ripline CMD --help` lists (global ones, those of
+/// `ripline --help`, apart).
+fn help_options(args: &[&str]) -> std::collections::BTreeSet<String> {
+    let out = ok(args);
+    out.lines()
+        .filter_map(|l| {
+            let t = l.trim_start();
+            if !t.starts_with('-') {
+                return None;
+            }
+            let i = t.find("--")?;
+            let name: String = t[i..]
+                .chars()
+                .take_while(|c| *c == '-' || c.is_ascii_alphanumeric())
+                .collect();
+            (name != "--help" && name != "--version").then_some(name)
+        })
+        .collect()
+}
+
+/// The options of the first option table (`| option | meaning |`) in the
+/// README section whose heading names `ripline CMD`.
+fn readme_options(readme: &str, cmd: &str) -> std::collections::BTreeSet<String> {
+    let lines: Vec<&str> = readme.lines().collect();
+    let start = lines
+        .iter()
+        .position(|l| l.starts_with('#') && l.contains(&format!("`ripline {cmd}")))
+        .unwrap_or_else(|| panic!("README has no section for `ripline {cmd}`"));
+    let level = lines[start].chars().take_while(|c| *c == '#').count();
+    let end = lines[start + 1..]
+        .iter()
+        .position(|l| l.starts_with('#') && l.chars().take_while(|c| *c == '#').count() <= level)
+        .map_or(lines.len(), |i| start + 1 + i);
+    let section = &lines[start..end];
+    let table = section
+        .iter()
+        .position(|l| l.starts_with("| option |"))
+        .unwrap_or_else(|| panic!("the README's `ripline {cmd}` section has no option table"));
+    section[table + 2..]
+        .iter()
+        .take_while(|l| l.starts_with('|'))
+        .flat_map(|l| {
+            let cell = l.split(" | ").next().unwrap_or("");
+            cell.split('`')
+                .skip(1)
+                .step_by(2)
+                .filter_map(|code| code.split_whitespace().next())
+                .filter(|w| w.starts_with("--"))
+                .map(str::to_string)
+                .collect::<Vec<_>>()
+        })
+        .collect()
+}
+
+/// The README's option table of every command lists exactly the options
+/// its `--help` shows (the help is generated from the argument types, so
+/// this keeps the user documentation true), and the global options appear
+/// in the README.
+#[test]
+fn the_readme_option_tables_match_the_help() {
+    let readme =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("README.md")).unwrap();
+    let top = ok(&["--help"]);
+    let commands: Vec<String> = top
+        .lines()
+        .skip_while(|l| !l.starts_with("Commands:"))
+        .skip(1)
+        .take_while(|l| l.starts_with("  "))
+        .filter_map(|l| l.split_whitespace().next().map(str::to_string))
+        .filter(|c| c != "help")
+        .collect();
+    assert!(commands.len() >= 9, "{commands:?}");
+    let global = help_options(&["--help"]);
+    for g in &global {
+        assert!(
+            readme.contains(&format!("`{g}")),
+            "README lacks the global {g}"
+        );
+    }
+    for cmd in &commands {
+        let help: std::collections::BTreeSet<String> = help_options(&[cmd, "--help"])
+            .difference(&global)
+            .cloned()
+            .collect();
+        assert_eq!(readme_options(&readme, cmd), help, "ripline {cmd}");
+    }
+}
+
+/// The top-level keys docs/json.md lists for a command's `result` (the
+/// first column of its table; `a`, `b` cells list several).
+fn documented_keys(doc: &str, cmd: &str) -> std::collections::BTreeSet<String> {
+    let heading = format!("## `{cmd}`");
+    let start = doc
+        .find(&heading)
+        .unwrap_or_else(|| panic!("docs/json.md has no section `{cmd}`"));
+    let section = &doc[start + heading.len()..];
+    let section = &section[..section.find("\n## ").unwrap_or(section.len())];
+    section
+        .lines()
+        .filter(|l| l.starts_with("| `"))
+        .flat_map(|l| {
+            let cell = l.split(" | ").next().unwrap_or("");
+            cell.split('`')
+                .skip(1)
+                .step_by(2)
+                .filter(|k| !k.contains('['))
+                .map(str::to_string)
+                .collect::<Vec<_>>()
+        })
+        .collect()
+}
+
+/// docs/json.md documents exactly the keys each command's JSON result has,
+/// and the envelope's.
+#[test]
+fn the_json_schema_document_lists_every_key() {
+    let doc = std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/json.md"))
+        .unwrap();
+    let dir = scratch("json-doc");
+    let damper = "networks/drill_rig_feed_damper.yaml";
+    let runs: [(&str, Vec<&str>); 8] = [
+        ("solve", vec![]),
+        ("check", vec![]),
+        ("profile", vec![]),
+        ("response", vec![damper, "--points", "30"]),
+        (
+            "silencer",
+            vec![
+                damper,
+                "--element",
+                "damper",
+                "--tap",
+                "head block",
+                "--points",
+                "30",
+            ],
+        ),
+        (
+            "tune",
+            vec![
+                damper,
+                "--element",
+                "damper",
+                "--vary",
+                "gas_volume=0.1L..1L",
+                "--tap",
+                "head block",
+                "--samples",
+                "4",
+                "--speed-points",
+                "3",
+            ],
+        ),
+        (
+            "sweep",
+            vec!["networks/loader_engine_pumps.yaml", "--speed-step", "400"],
+        ),
+        (
+            "fit",
+            vec!["networks/bench/demo_bench.yaml", "--draws", "5"],
+        ),
+    ];
+    for (cmd, args) in runs {
+        let file = path(&dir, &format!("{cmd}.json"));
+        let mut all = vec![cmd];
+        all.extend(args);
+        all.extend(["--json", &file]);
+        ok(&all);
+        let v: Value = serde_json::from_str(&std::fs::read_to_string(&file).unwrap()).unwrap();
+        let envelope: std::collections::BTreeSet<String> =
+            v.as_object().unwrap().keys().cloned().collect();
+        let mut listed =
+            documented_keys(&doc.replace("## The envelope", "## `envelope`"), "envelope");
+        listed.retain(|k| envelope.contains(k) || !k.contains(' '));
+        assert_eq!(listed, envelope, "envelope");
+        let keys: std::collections::BTreeSet<String> =
+            v["result"].as_object().unwrap().keys().cloned().collect();
+        assert_eq!(documented_keys(&doc, cmd), keys, "{cmd}");
+    }
+    std::fs::remove_dir_all(dir).unwrap();
+}

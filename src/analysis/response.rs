@@ -210,6 +210,7 @@ pub struct Resonance {
     /// The point where the peak is highest.
     pub point: String,
     /// |H(f0)| at that point, in Pa per m³/s.
+    #[serde(rename = "level_pa_per_m3_s")]
     pub level: f64,
     /// Quality factor f0/(f2 − f1) from the half-power points; where the
     /// response does not fall to half power on one side before the next
