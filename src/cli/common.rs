@@ -269,6 +269,40 @@ impl Outputs {
             .with_context(|| format!("drawing {}", path.display()))
     }
 
+    /// Stages a CSV table when `path` is given.
+    pub fn csv_to(
+        &mut self,
+        path: Option<&Path>,
+        write: impl FnOnce(&mut std::io::BufWriter<std::fs::File>) -> Result<(), csv::Error>,
+    ) -> anyhow::Result<()> {
+        path.map_or(Ok(()), |p| self.csv(p, write))
+    }
+
+    /// Stages a picture when `path` is given.
+    pub fn plot_to(
+        &mut self,
+        path: Option<&Path>,
+        draw: impl FnOnce(&Path) -> Result<(), ripline::plot::PlotError>,
+    ) -> anyhow::Result<()> {
+        path.map_or(Ok(()), |p| self.plot(p, draw))
+    }
+
+    /// Stages the JSON document of `result` when `json` is given, moves
+    /// every staged file into place and prints the text report.
+    pub fn finish<T: serde::Serialize>(
+        mut self,
+        json: Option<&Path>,
+        command: &str,
+        result: &T,
+        text: impl FnOnce(&T, &mut std::io::StdoutLock<'static>) -> std::io::Result<()>,
+    ) -> anyhow::Result<()> {
+        if let Some(path) = json {
+            self.json(path, command, result)?;
+        }
+        self.commit()?;
+        print(|out| text(result, out))
+    }
+
     /// Moves every staged file into place (see [`commit`]).
     pub fn commit(self) -> anyhow::Result<()> {
         commit(self.0)

@@ -114,19 +114,12 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     progress.finish();
     common::print_warnings(&result.warnings);
 
-    if let Some(path) = &csv {
-        outputs.csv(path, |buf| render::csv(&result, buf))?;
-    }
-    if let Some(path) = &harmonic_csv {
-        outputs.csv(path, |buf| render::harmonic_csv(&result, buf))?;
-    }
-    if let Some(path) = &plot {
-        let charts = render::charts(&result);
-        outputs.plot(path, |tmp| plot::stacked_line_charts(tmp, &charts))?;
-    }
-    if let Some(path) = &json {
-        outputs.json(path, "silencer", &result)?;
-    }
-    outputs.commit()?;
-    common::print(|out| render::text(&result, out))
+    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
+    outputs.csv_to(harmonic_csv.as_deref(), |buf| {
+        render::harmonic_csv(&result, buf)
+    })?;
+    outputs.plot_to(plot.as_deref(), |tmp| {
+        plot::stacked_line_charts(tmp, &render::charts(&result))
+    })?;
+    outputs.finish(json.as_deref(), "silencer", &result, render::text)
 }

@@ -19,9 +19,10 @@ pub mod sweep;
 pub mod table;
 pub mod tune;
 
-use crate::results::Subject;
+use crate::results::{Phasor, Subject};
 use crate::units::format_sig;
 use std::io::Write;
+use table::{Align, Table, Unit};
 
 /// The first lines of a report: `ripline <command>: <file>` and the
 /// circuit's title, if any.
@@ -47,4 +48,25 @@ pub fn level_text(level_db: Option<f64>) -> String {
 pub fn reference_text(p_ref_pa: f64) -> String {
     let unit = table::Quantity::Pressure.unit_for(p_ref_pa);
     format!("{} {}", format_sig(unit.of(p_ref_pa), 4), unit.symbol)
+}
+
+/// A table of harmonics: order (headed `order_header`), frequency in Hz,
+/// amplitude in `unit` (one unit for the column) and phase in degrees.
+pub fn harmonic_table(
+    order_header: &str,
+    unit: Unit,
+    rows: impl Iterator<Item = (u32, f64, Phasor)>,
+) -> Table {
+    let mut t = Table::new(&[(order_header, Align::Right), ("frequency Hz", Align::Right)])
+        .column(format!("amplitude {}", unit.symbol), Align::Right)
+        .column("phase deg", Align::Right);
+    for (order, freq_hz, value) in rows {
+        t.row(vec![
+            order.to_string(),
+            format!("{freq_hz:.2}"),
+            table::sig(unit.of(value.amplitude), table::DIGITS),
+            table::phase(value.phase_deg),
+        ]);
+    }
+    t
 }
