@@ -44,15 +44,7 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
         ("--json", json.as_deref()),
     ])?;
     let sweep = args.sweep.resolve(&loaded.circuit)?;
-    let request = ResponseRequest {
-        pump_index: sweep.pump_index,
-        speed_rev_s: sweep.speed_rev_s,
-        speed_range: sweep.speed_range,
-        harmonics: sweep.harmonics,
-        band: sweep.band,
-        points: sweep.points,
-        margin,
-    };
+    let request = ResponseRequest { sweep, margin };
     let progress = Progress::new(0, "frequency response");
     let result = response(
         loaded.circuit,

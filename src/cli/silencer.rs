@@ -97,12 +97,7 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
             Without::ZeroLength => WithoutReference::ZeroLength,
         },
         tap: ranges::point(circuit, args.tap.as_deref())?,
-        pump_index: sweep.pump_index,
-        speed_rev_s: sweep.speed_rev_s,
-        speed_range: sweep.speed_range,
-        harmonics: sweep.harmonics,
-        band: sweep.band,
-        points: sweep.points,
+        sweep,
     };
     let progress = Progress::new(0, "transmission and insertion loss");
     let result = silencer(
