@@ -212,9 +212,12 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     outputs.finish(json.as_deref(), "tune", &result, render::text)
 }
 
+/// The circuit at each temperature (K) of a range.
+type FluidStates = Vec<(f64, ripline::Circuit)>;
+
 /// The circuit at each temperature of `--temperatures` (none without it),
 /// and a remark when explicit fluid values stay fixed.
-fn fluid_states(args: &TuneArgs) -> anyhow::Result<(Vec<(f64, ripline::Circuit)>, Vec<Notice>)> {
+fn fluid_states(args: &TuneArgs) -> anyhow::Result<(FluidStates, Vec<Notice>)> {
     let Some(range) = &args.temperatures else {
         return Ok((Vec::new(), Vec::new()));
     };
