@@ -774,3 +774,30 @@ fn the_json_schema_document_lists_every_key() {
     }
     std::fs::remove_dir_all(dir).unwrap();
 }
+
+/// Every picture of the README's gallery is committed, is a PNG, and is
+/// named by the `--plot`/`--waveform` of a command shown in the gallery
+/// (the sweep's levels chart is the `-levels` companion of its map).
+#[test]
+fn the_gallery_pictures_exist_and_their_commands_are_shown() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let readme = std::fs::read_to_string(root.join("README.md")).unwrap();
+    let gallery = &readme[readme.find("## Gallery").unwrap()..];
+    let gallery = &gallery[..gallery[3..].find("\n## ").unwrap()];
+    let pictures: Vec<&str> = gallery
+        .split("](")
+        .skip(1)
+        .filter_map(|s| s.split(')').next())
+        .filter(|s| s.ends_with(".png"))
+        .collect();
+    assert!(pictures.len() >= 8, "{pictures:?}");
+    for p in pictures {
+        let bytes = std::fs::read(root.join(p)).unwrap_or_else(|_| panic!("{p} is missing"));
+        assert!(bytes.starts_with(b"\x89PNG"), "{p}");
+        let shown = p.replace("-levels", "");
+        assert!(
+            gallery.contains(&format!(" {shown}")),
+            "no command writes {p}"
+        );
+    }
+}
