@@ -122,6 +122,37 @@ pub fn split_tolerance(text: &str) -> (&str, Option<(Spread, &str)>) {
 /// How to write a tolerance, for messages.
 pub const TOLERANCE_HINT: &str = "write a tolerance as `1.55 GPa ± 5 %` (limits, or `+-`) or `1.55 GPa, u = 0.05 GPa` (a standard uncertainty)";
 
+/// `text` (a value with a unit, or a bare number in SI) as a number in
+/// `unit`, a unit as a file writes it (possibly with a gas pressure's
+/// `abs`/`gauge`, which `text` must then carry too; an empty unit is SI).
+///
+/// # Errors
+/// A message when the text is not a value of the unit's kind.
+pub fn in_unit(text: &str, unit: &str) -> Result<f64, String> {
+    let base = base_unit(unit);
+    let word = unit.trim()[base.len()..].trim();
+    let mut t = text.trim();
+    if !word.is_empty() {
+        t = t.strip_suffix(word).map(str::trim_end).ok_or_else(|| {
+            format!("`{text}`: say `{word}` as the value does (e.g. `60 {base} {word}`)")
+        })?;
+    }
+    let (number, u) = split_number(t).ok_or_else(|| format!("`{text}` is not a number"))?;
+    let u = u.trim();
+    if base.is_empty() {
+        if u.is_empty() {
+            return Ok(number);
+        }
+        // a unit given for a value written bare (SI): its kind's factor
+        let (dim, _) = find_unit(u, None).ok_or_else(|| format!("`{text}`: unknown unit `{u}`"))?;
+        return parse_quantity(t, dim).map_err(|e| e.to_string());
+    }
+    let (dim, factor) = find_unit(base, None).ok_or_else(|| format!("unknown unit `{base}`"))?;
+    let si = parse_quantity(t, dim).map_err(|e| format!("`{text}`: {e}"))?;
+    let offset = parse_quantity(&format!("0 {base}"), dim).map_err(|e| e.to_string())?;
+    Ok((si - offset) / factor)
+}
+
 /// Checks the tolerance of a value being deserialised: accepted here (a
 /// circuit file) and readable in `dim`.
 ///

@@ -8,7 +8,9 @@
 //! descriptions drawn by [`crate::plot`]). [`json`] writes any result. No
 //! renderer computes physics: everything it shows is in the result.
 
+pub mod calibrate;
 pub mod check;
+pub mod compare;
 pub mod fit;
 pub mod json;
 pub mod profile;

@@ -11,7 +11,9 @@
 //! cautions. Nothing here prints or writes a file: the renderers in
 //! [`crate::render`] turn a result into terminal text, CSV, JSON and charts.
 
+pub mod calibrate;
 pub mod check;
+pub mod compare;
 pub mod describe;
 pub mod fit;
 pub mod profile;
