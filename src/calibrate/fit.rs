@@ -25,6 +25,18 @@
 //! explain the data within their noise: C is scaled by χ²/ν and the report
 //! says so.
 //!
+//! **Weights estimated from the data.** A record's uncertainties are Type A
+//! estimates s² with ν_s = 2(S − 1) degrees of freedom (S segments), so a
+//! weighted part r/s is Student-t distributed, not normal: each squared
+//! part has mean a = ν_s/(ν_s − 2) (E[σ²/s²] for s² ~ σ²χ²(ν_s)/ν_s) and
+//! variance 2ν_s²(ν_s − 1)/((ν_s − 2)²(ν_s − 4)) (that of F(1, ν_s)), or,
+//! for the two parts of one phasor sharing s, half that of 2·F(2, ν_s),
+//! 2ν_s³/((ν_s − 2)²(ν_s − 4)). χ² is then compared with the 99.9 % point
+//! of the scaled χ² of the same mean and variance (Satterthwaite's (1946)
+//! moment matching), and C, which weights 1/s² overstate by a on average,
+//! is scaled by a. (With S = 8, a = 1.17: χ²/ν near 1.17 is the noise, not
+//! a misfit.)
+//!
 //! **Identifiability.** The singular values of the Jacobian with its columns
 //! scaled to unit length (methods-2 §4): a singular value below
 //! [`UNIDENTIFIABLE`] of the largest means a combination of parameters the
@@ -223,6 +235,12 @@ pub struct Calibration {
     /// Whether the weights are the measurements' uncertainties (else only
     /// relative: the covariance is scaled by χ²/ν).
     pub absolute_weights: bool,
+    /// Degrees of freedom of the weights when they are Type A estimates
+    /// from the records (the fewest over the runs); `None`: known.
+    pub weights_dof: Option<f64>,
+    /// The χ² expected from the noise alone: ν, or ν·ν_s/(ν_s − 2) with
+    /// Type A weights.
+    pub chi2_expected: f64,
     /// χ² at the start.
     pub chi2_start: f64,
     /// χ² at the end.
@@ -425,9 +443,23 @@ pub fn calibrate(
     let jac = central_jacobian(&mut problem, &outcome.x, &bounds, &scales)?;
     let dof = m - n;
     let chi2 = outcome.sum_of_squares;
-    let misfit = chi2 > chi2_quantile(0.999, dof as f64);
+    let weights_dof = if absolute {
+        measured
+            .iter()
+            .filter_map(|r| r.uncertainty_dof)
+            .reduce(f64::min)
+    } else {
+        None
+    };
+    let paired = model.measurements.phases == Phases::Shaft;
+    let noise = TypeA::of(weights_dof, paired);
+    let misfit = chi2 > noise.chi2_limit(dof as f64);
     let scaled = !absolute || misfit;
-    let factor = if scaled { chi2 / dof as f64 } else { 1.0 };
+    let factor = if scaled {
+        chi2 / dof as f64
+    } else {
+        noise.mean_square
+    };
     let names: Vec<String> = parameters.iter().map(|p| p.target.name.clone()).collect();
     let (cov, identifiability) = covariance(&jac, &names, factor);
     let estimates: Vec<Estimate> = parameters
@@ -468,6 +500,8 @@ pub fn calibrate(
         estimates,
         correlation,
         absolute_weights: absolute,
+        weights_dof,
+        chi2_expected: noise.mean_square * dof as f64,
         chi2_start: r0.iter().map(|v| v * v).sum(),
         chi2,
         dof,
@@ -478,6 +512,51 @@ pub fn calibrate(
         taps,
         identifiability,
     })
+}
+
+/// The distribution of one squared weighted residual part under the noise
+/// alone (module doc, "Weights estimated from the data").
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct TypeA {
+    /// Its mean.
+    mean_square: f64,
+    /// Its variance.
+    variance: f64,
+}
+
+impl TypeA {
+    /// With weights of `dof` degrees of freedom (`None`: known weights, a
+    /// χ²(1) part), the two parts of a phasor sharing a weight if `paired`.
+    /// At 4 or fewer degrees of freedom the variance is infinite: taken as
+    /// that of 5.
+    fn of(dof: Option<f64>, paired: bool) -> Self {
+        match dof {
+            None => TypeA {
+                mean_square: 1.0,
+                variance: 2.0,
+            },
+            Some(nu) => {
+                let v = nu.max(5.0);
+                let mean_square = nu.max(3.0) / (nu.max(3.0) - 2.0);
+                let tail = if paired { v } else { v - 1.0 };
+                TypeA {
+                    mean_square,
+                    variance: 2.0 * v * v * tail / ((v - 2.0).powi(2) * (v - 4.0)),
+                }
+            }
+        }
+    }
+
+    /// The 99.9 % point of the sum of `dof` parts: a χ² with `dof` degrees
+    /// of freedom for known weights, else the scaled χ² g·χ²(h) of the same
+    /// mean and variance (Satterthwaite 1946).
+    fn chi2_limit(&self, dof: f64) -> f64 {
+        let mean = self.mean_square * dof;
+        let var = self.variance * dof;
+        let g = var / (2.0 * mean);
+        let h = 2.0 * mean * mean / var;
+        g * chi2_quantile(0.999, h)
+    }
 }
 
 /// A calibration failure (as opposed to a calibration that did not
@@ -649,4 +728,39 @@ fn tap_residuals(problem: &Residuals<'_>, before: &[f64], after: &[f64]) -> Vec<
         offset += block;
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::TypeA;
+
+    // Moments of a squared t part against scipy: `scipy.stats.f.stats(1, 14,
+    // moments='mv')` = (1.1666667, 3.5388889); `scipy.stats.f.stats(2, 14,
+    // moments='mv')` = (1.1666667, 1.9055556), so a part of a pair (half of
+    // 2·F(2, 14)) has variance 4·1.9055556/2 = 3.8111111.
+    #[test]
+    fn type_a_parts_have_the_moments_of_f() {
+        let single = TypeA::of(Some(14.0), false);
+        assert!((single.mean_square - 1.166_666_7).abs() < 1e-7);
+        assert!((single.variance - 3.538_888_9).abs() < 1e-7);
+        let pair = TypeA::of(Some(14.0), true);
+        assert!((pair.variance - 3.811_111_1).abs() < 1e-7);
+        let known = TypeA::of(None, true);
+        assert_eq!((known.mean_square, known.variance), (1.0, 2.0));
+    }
+
+    // The 99.9 % point of 70 pairs (140 parts) of weighted residuals with
+    // 14-degree-of-freedom weights, by simulation in numpy (200,000 sums of
+    // Σ (r₁² + r₂²)/s², r standard normal, s² = chisquare(14)/14, generator
+    // `numpy.random.default_rng(1)`, 10 batches of 20,000): 250.7, mean
+    // 163.3, variance 535. Satterthwaite's scaled χ² must be within a few
+    // per cent; the χ²(140) point (197.45, scipy `chi2.ppf(0.999, 140)`)
+    // would flag 7.7 % of such fits as misfits in that simulation.
+    #[test]
+    fn the_misfit_limit_with_type_a_weights_matches_simulation() {
+        let limit = TypeA::of(Some(14.0), true).chi2_limit(140.0);
+        assert!((limit / 250.7 - 1.0).abs() < 0.03, "{limit}");
+        let known = TypeA::of(None, true).chi2_limit(140.0);
+        assert!((known / 197.45 - 1.0).abs() < 0.01, "{known}");
+    }
 }

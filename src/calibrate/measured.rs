@@ -46,6 +46,11 @@ pub struct MeasuredRun {
     pub speed_rev_s: f64,
     /// The compared orders, in increasing order.
     pub harmonics: Vec<MeasuredHarmonic>,
+    /// Degrees of freedom of the uncertainties when they are estimated
+    /// from the data (Type A over S segments: the real and imaginary parts
+    /// each give S − 1, so 2(S − 1)); `None` when a spectra file states
+    /// them.
+    pub uncertainty_dof: Option<f64>,
 }
 
 /// A failure to predict a run.
@@ -102,7 +107,7 @@ fn read_run(
     let file_err = |file: &str, message: String| {
         m.err(&run.path, format!("run `{}`: {file}: {message}", run.name))
     };
-    let (fundamental, lines) = match &run.data {
+    let (fundamental, lines, uncertainty_dof) = match &run.data {
         DataFile::TimeSeries {
             path,
             unit_pa,
@@ -122,7 +127,7 @@ fn read_run(
                     EstimateError::Data { file, message } => file_err(&file, message),
                     other => file_err(&record.file, other.to_string()),
                 })?;
-            (spectra.0, spectra.1)
+            (spectra.0, spectra.1, Some(2.0 * (segments() as f64 - 1.0)))
         }
         DataFile::Spectra {
             path,
@@ -160,7 +165,7 @@ fn read_run(
                     ),
                 ));
             }
-            (f, chosen.into_iter().cloned().collect())
+            (f, chosen.into_iter().cloned().collect(), None)
         }
     };
     let harmonics = orders
@@ -178,6 +183,7 @@ fn read_run(
         fundamental_hz: fundamental,
         speed_rev_s: fundamental / g,
         harmonics,
+        uncertainty_dof,
     })
 }
 
@@ -187,6 +193,11 @@ fn order_list(orders: &[u32]) -> String {
         .map(u32::to_string)
         .collect::<Vec<_>>()
         .join(", ")
+}
+
+/// Segments of a record's extraction (as `fit`'s default).
+fn segments() -> usize {
+    crate::estimate::bench::Extraction::default().segments
 }
 
 /// The fundamental (refined) and the phasors of harmonics 1..=`top` of a
@@ -202,7 +213,7 @@ fn extract_record(
         pump_fundamental_hz: nominal_hz,
         harmonics: top,
         secondary_fundamental_hz: None,
-        segments: crate::estimate::bench::Extraction::default().segments,
+        segments: segments(),
         speed_tolerance,
     };
     let spectra = extract::extract(record, &request, observer)?;

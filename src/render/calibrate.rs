@@ -63,10 +63,13 @@ pub fn text(r: &CalibrateResult, out: &mut impl Write) -> std::io::Result<()> {
         super::table::sig(c.chi2_start, 4),
         super::table::sig(c.chi2, 4),
         c.dof,
-        if c.absolute_weights {
-            "weights from the measurements' uncertainties"
-        } else {
-            "equal weights: no uncertainties stated"
+        match (c.absolute_weights, c.weights_dof) {
+            (true, None) => "weights from the measurements' uncertainties".to_string(),
+            (true, Some(nu)) => format!(
+                "weights from the uncertainties estimated from the records, {nu:.0} degrees of freedom each: the noise alone gives χ² near {}",
+                super::table::sig(c.chi2_expected, 4)
+            ),
+            (false, _) => "equal weights: no uncertainties stated".to_string(),
         }
     )?;
     writeln!(out)?;
