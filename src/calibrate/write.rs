@@ -153,12 +153,10 @@ fn replace_value(line: &str, from: usize, key: &str, value: &str) -> Option<Stri
             if let Some(i) = rest.find(" #") {
                 end = end.min(start + i);
             }
-            if in_flow {
-                if let Some(i) = rest.find([',', '}']) {
-                    // a tolerance `, u = …` is part of the value in block
-                    // style only; in flow style it must be quoted
-                    end = end.min(start + i);
-                }
+            // a tolerance `, u = …` is part of the value in block style
+            // only; in flow style it must be quoted
+            if in_flow && let Some(i) = rest.find([',', '}']) {
+                end = end.min(start + i);
             }
             (end, None)
         }
