@@ -238,3 +238,34 @@ pub fn commit(outputs: StagedOutputs) -> anyhow::Result<()> {
         .commit()
         .context("moving the output files into place")
 }
+
+/// Orders as compact ranges, e.g. `6–10` or `3, 5, 7–9`.
+pub fn orders_text(orders: &[u32]) -> String {
+    let mut parts: Vec<String> = Vec::new();
+    let mut i = 0;
+    while i < orders.len() {
+        let mut j = i;
+        while j + 1 < orders.len() && orders[j + 1] == orders[j] + 1 {
+            j += 1;
+        }
+        parts.push(if j > i {
+            format!("{}–{}", orders[i], orders[j])
+        } else {
+            orders[i].to_string()
+        });
+        i = j + 1;
+    }
+    parts.join(", ")
+}
+
+/// The line that says which harmonics are left out for want of source
+/// flow, if any.
+pub fn silent_orders_note(orders: &[u32]) -> Option<String> {
+    (!orders.is_empty()).then(|| {
+        format!(
+            "harmonic{} {}: no source flow (the pump's source flow ripple lists none), left out",
+            if orders.len() > 1 { "s" } else { "" },
+            orders_text(orders)
+        )
+    })
+}

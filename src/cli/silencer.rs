@@ -170,7 +170,9 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     // Per harmonic at the pump's speed.
     let fp = pump.pumping_frequency_hz();
     let mut rows = Vec::new();
-    for k in 1..=circuit.harmonics {
+    let (with_flow, silent): (Vec<u32>, Vec<u32>) =
+        (1..=circuit.harmonics).partition(|&k| pump.has_source_flow(k));
+    for &k in &with_flow {
         let f = f64::from(k) * fp;
         let t = chain.transfer(circuit, f)?;
         let (with, wo) = pair(f)?;
@@ -187,7 +189,7 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     // Over the speed range: the smallest and largest IL of each harmonic.
     let conditions = speed_conditions(speeds.rev_s, if speeds.is_single() { 1 } else { 41 });
     let mut il_range = Vec::new();
-    for k in 1..=circuit.harmonics {
+    for &k in &with_flow {
         let (mut lo, mut hi) = ((f64::INFINITY, 0.0), (f64::NEG_INFINITY, 0.0));
         for c in &conditions {
             let f = f64::from(k) * z * c.speed_rev_s;
@@ -282,6 +284,9 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
             PressureDisplay(r.without_pa).to_string(),
             PressureDisplay(r.with_pa).to_string()
         )?;
+    }
+    if let Some(note) = common::silent_orders_note(&silent) {
+        writeln!(out, "  {note}")?;
     }
     let rms = |v: &dyn Fn(&HarmonicLoss) -> f64| {
         (rows.iter().map(|r| v(r).powi(2)).sum::<f64>() / 2.0).sqrt()

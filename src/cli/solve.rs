@@ -182,6 +182,9 @@ fn print_report(
                     h.pressure.arg().to_degrees()
                 )?;
             }
+            if let Some(note) = common::silent_orders_note(&report.silent_orders) {
+                writeln!(out, "  {note}")?;
+            }
             let rms = tap.rms_pa();
             writeln!(
                 out,
