@@ -268,3 +268,87 @@ fn load_cases_set_values_and_close_elements() {
     assert!(closed.element_id("valve").is_some());
     assert!(amplitudes(&closed).iter().all(|a| a.is_finite()));
 }
+
+// The verdicts of `assess` against a brute-force reference: every point of
+// the same envelope (2 pressures × 2 temperatures × 3 load cases) swept at
+// 2001 speeds (0.5 rpm apart), the largest overall rms, peak-to-peak
+// (rebuilt waveform, analysis::waveform) and single-harmonic amplitude
+// taken over all of them. The verdict's value must equal that maximum
+// within 0.01 dB, at the same envelope point and within a grid step of its
+// speed.
+#[test]
+fn the_verdict_is_the_worst_of_a_brute_force_grid_of_the_envelope() {
+    use ripline::analysis::envelope::{AssessSettings, assess};
+    use ripline::analysis::sweep::{SweepSettings, sweep};
+    use ripline::analysis::waveform::peak_to_peak;
+    use ripline::envelope::LimitKind;
+    let file = ripline::io::parse_circuit_file(ENVELOPE, "envelope.yaml").unwrap();
+    let points: Vec<_> = file
+        .points()
+        .into_iter()
+        .map(|p| {
+            let c = file.at(&p).unwrap();
+            (p, c)
+        })
+        .collect();
+    let a = assess(
+        &points,
+        None,
+        None,
+        &file.limits,
+        &AssessSettings::default(),
+        &mut |_| {},
+    )
+    .unwrap();
+    assert_eq!(a.verdicts.len(), 3);
+    let (lo, hi) = a.speed_range_rev_s;
+    let n = 2001;
+    let speeds: Vec<f64> = (0..n)
+        .map(|i| lo + (hi - lo) * i as f64 / (n - 1) as f64)
+        .collect();
+    for v in &a.verdicts {
+        // (value, point label, speed) of the brute-force maximum
+        let mut best = (0.0f64, String::new(), 0.0);
+        for (point, circuit) in &points {
+            let plan = Plan::compile(circuit).unwrap();
+            let shaft = ripline::source::Shaft::single(&circuit.pumps, 0);
+            let settings = SweepSettings {
+                speeds_rev_s: speeds.clone(),
+                harmonics: circuit.harmonics,
+                min_rise_db: 3.0,
+            };
+            let s = sweep(&plan, &shaft, &settings, &mut |_| {}).unwrap();
+            let Some(tp) = s.points.iter().position(|p| *p == v.tap) else {
+                continue;
+            };
+            for si in 0..n {
+                let value = match v.limit.kind {
+                    LimitKind::Rms => s.rms_pa(si, tp),
+                    LimitKind::PeakToPeak => {
+                        let h: Vec<_> = (0..s.orders.len())
+                            .map(|oi| (s.orders[oi], s.phasor(si, tp, oi)))
+                            .collect();
+                        peak_to_peak(&h)
+                    }
+                    LimitKind::Harmonic => (0..s.orders.len())
+                        .map(|oi| s.amplitude_pa(si, tp, oi))
+                        .fold(0.0, f64::max),
+                };
+                if value > best.0 {
+                    best = (value, point.label(), speeds[si]);
+                }
+            }
+        }
+        let w = v.worst.as_ref().expect("ripple reaches the tap");
+        let db = 20.0 * (w.value_pa / best.0).log10();
+        assert!(db.abs() < 0.01, "{} {:?}: {db} dB", v.tap, v.limit.kind);
+        assert_eq!(w.point.label(), best.1, "{} {:?}", v.tap, v.limit.kind);
+        assert!(
+            (w.speed_rev_s - best.2).abs() <= (hi - lo) / (n - 1) as f64,
+            "{} {}",
+            w.speed_rev_s,
+            best.2
+        );
+        assert_eq!(v.pass, w.value_pa <= v.limit.value_pa);
+    }
+}
