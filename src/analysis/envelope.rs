@@ -143,6 +143,17 @@ pub struct Finding {
     /// For a crossing or resonance: the rise above the harmonic's level away
     /// from the resonance, in dB.
     pub rise_db: Option<f64>,
+    /// The circuit resonance (Hz) it is at, when it is at one.
+    pub resonance_hz: Option<f64>,
+}
+
+/// A warning and the envelope points where it holds.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct EnvelopeWarning {
+    /// The warning (see [`crate::diagnostics::Warning`]).
+    pub text: String,
+    /// The labels of the points where it holds, in the envelope's order.
+    pub points: Vec<String>,
 }
 
 /// One envelope point's sweep.
@@ -176,8 +187,8 @@ pub struct Assessment {
     pub verdicts: Vec<Verdict>,
     /// Every finding, highest level first.
     pub findings: Vec<Finding>,
-    /// Warnings, each naming its envelope point.
-    pub warnings: Vec<String>,
+    /// Warnings, each with the envelope points where it holds.
+    pub warnings: Vec<EnvelopeWarning>,
     /// The sweeps behind it, per envelope point (for tables and plots).
     #[serde(skip)]
     pub sweeps: Vec<PointSweep>,
@@ -288,7 +299,7 @@ pub fn assess(
         .collect();
 
     let mut sweeps = Vec::with_capacity(points.len());
-    let mut warnings: Vec<String> = Vec::new();
+    let mut warnings: Vec<EnvelopeWarning> = Vec::new();
     // Per limit: the worst (point index, WorstSpeed, order index) so far.
     let mut limit_worst: Vec<Vec<Option<(usize, WorstSpeed, Option<usize>)>>> =
         limits.iter().map(|t| vec![None; t.limits.len()]).collect();
@@ -327,9 +338,14 @@ pub fn assess(
             .into_iter()
             .chain(swept.warnings.iter().cloned())
         {
-            let text = format!("at `{label}`: {w}");
-            if !warnings.contains(&text) {
-                warnings.push(text);
+            let text = w.to_string();
+            match warnings.iter_mut().find(|x| x.text == text) {
+                Some(x) if !x.points.contains(&label) => x.points.push(label.clone()),
+                Some(_) => {}
+                None => warnings.push(EnvelopeWarning {
+                    text,
+                    points: vec![label.clone()],
+                }),
             }
         }
         for (li, tap_limits) in limits.iter().enumerate() {
@@ -437,7 +453,10 @@ fn level_db(rms_pa: f64) -> f64 {
     20.0 * rms_pa.log10()
 }
 
-/// Every finding, highest level first (see the module documentation).
+/// Every finding, highest level first (see the module documentation). One
+/// event is one finding: the strongest crossing of a resonance is that
+/// resonance's finding, and a resonance that sets a measurement point's
+/// worst speed is told in that worst point's finding.
 fn findings(sweeps: &[PointSweep], taps: &[String], worst: &[Option<WorstPoint>]) -> Vec<Finding> {
     let overall = |tap: &str| {
         taps.iter()
@@ -448,66 +467,85 @@ fn findings(sweeps: &[PointSweep], taps: &[String], worst: &[Option<WorstPoint>]
     let mut out = Vec::new();
     for ps in sweeps {
         let s = &ps.sweep;
-        let finding =
-            |kind, tap: &str, speed: f64, order: u32, freq: f64, rms: f64, rise| Finding {
-                kind,
-                tap: tap.to_string(),
-                point: ps.point.clone(),
-                speed_rev_s: speed,
-                order,
-                frequency_hz: freq,
-                rms_pa: rms,
-                level_db: level_db(rms),
-                below_overall_db: overall(tap) - level_db(rms),
-                rise_db: rise,
-            };
-        for (tp, tap) in s.points.iter().enumerate() {
-            let w = s.worst(tp);
-            if w.value_pa > 0.0 {
-                let order = s.orders.get(w.dominant_order()).copied().unwrap_or(1);
-                out.push(finding(
-                    FindingKind::WorstPoint,
-                    tap,
-                    w.speed_rev_s,
-                    order,
-                    f64::from(order) * s.shaft.fundamental_hz(w.speed_rev_s),
-                    w.value_pa,
-                    None,
-                ));
-            }
-        }
-        let crossing_rms = |c: &super::sweep::Crossing| c.amplitude_pa / std::f64::consts::SQRT_2;
-        for &fr in &ps.resonances_hz {
-            let strongest = s
-                .crossings
+        let finding = |kind, tap: &str, speed: f64, order: u32, freq: f64, rms: f64| Finding {
+            kind,
+            tap: tap.to_string(),
+            point: ps.point.clone(),
+            speed_rev_s: speed,
+            order,
+            frequency_hz: freq,
+            rms_pa: rms,
+            level_db: level_db(rms),
+            below_overall_db: overall(tap) - level_db(rms),
+            rise_db: None,
+            resonance_hz: None,
+        };
+        let resonance_of = |f_hz: f64| {
+            ps.resonances_hz
                 .iter()
-                .filter(|c| (c.freq_hz - fr).abs() <= SAME_RESONANCE * fr)
-                .max_by(|a, b| a.amplitude_pa.total_cmp(&b.amplitude_pa));
-            if let Some(c) = strongest {
-                out.push(finding(
-                    FindingKind::Resonance,
-                    &s.points[c.point],
-                    c.speed_rev_s,
-                    c.order,
-                    fr,
-                    crossing_rms(c),
-                    Some(c.rise_db),
-                ));
-            }
-        }
-        for c in &s.crossings {
-            if c.amplitude_pa > 0.0 {
-                out.push(finding(
+                .copied()
+                .find(|&fr| (f_hz - fr).abs() <= SAME_RESONANCE * fr)
+        };
+        // crossings, each tagged with its resonance; the strongest crossing
+        // of each resonance becomes that resonance's finding
+        let mut crossings: Vec<Finding> = s
+            .crossings
+            .iter()
+            .filter(|c| c.amplitude_pa > 0.0)
+            .map(|c| Finding {
+                rise_db: Some(c.rise_db),
+                resonance_hz: resonance_of(c.freq_hz),
+                ..finding(
                     FindingKind::Crossing,
                     &s.points[c.point],
                     c.speed_rev_s,
                     c.order,
                     c.freq_hz,
-                    crossing_rms(c),
-                    Some(c.rise_db),
-                ));
+                    c.amplitude_pa / std::f64::consts::SQRT_2,
+                )
+            })
+            .collect();
+        for &fr in &ps.resonances_hz {
+            let strongest = crossings
+                .iter()
+                .enumerate()
+                .filter(|(_, c)| c.kind == FindingKind::Crossing && c.resonance_hz == Some(fr))
+                .max_by(|a, b| a.1.rms_pa.total_cmp(&b.1.rms_pa))
+                .map(|(i, _)| i);
+            if let Some(i) = strongest {
+                crossings[i].kind = FindingKind::Resonance;
             }
         }
+        for (tp, tap) in s.points.iter().enumerate() {
+            let w = s.worst(tp);
+            if w.value_pa <= 0.0 {
+                continue;
+            }
+            let order = s.orders.get(w.dominant_order()).copied().unwrap_or(1);
+            let freq = f64::from(order) * s.shaft.fundamental_hz(w.speed_rev_s);
+            let mut f = finding(
+                FindingKind::WorstPoint,
+                tap,
+                w.speed_rev_s,
+                order,
+                freq,
+                w.value_pa,
+            );
+            // the resonance it sits on, if a crossing of the same harmonic
+            // peaks within 1 % of its speed: told here, not twice
+            if let Some(i) = crossings.iter().position(|c| {
+                c.kind == FindingKind::Resonance
+                    && c.tap == *tap
+                    && c.order == order
+                    && (c.speed_rev_s - w.speed_rev_s).abs() <= 0.01 * w.speed_rev_s
+            }) {
+                let r = crossings.remove(i);
+                f.resonance_hz = r.resonance_hz;
+                f.rise_db = r.rise_db;
+            }
+            out.push(f);
+        }
+        out.extend(crossings);
     }
     out.sort_by(|a, b| b.level_db.total_cmp(&a.level_db));
     out

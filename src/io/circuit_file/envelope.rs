@@ -618,12 +618,13 @@ pub fn parse_circuit_at(
             moved.push((format!("elements[{i}]"), kp.clone()));
             let e = &mut raw.elements[i];
             if e.kind.is_two_port() {
-                // its `to` end shut: the element stays on `from`, dead-ended
-                e.to = Some(format!(
-                    "{} (closed in case {})",
-                    e.to.clone().unwrap_or_default(),
-                    case.name
-                ));
+                // its `to` end shut: the element stays on `from`, ended by a
+                // closed end at a node of its own (appended, so the other
+                // elements keep their places)
+                let node = format!("{} (closed in case {})", e.name, case.name);
+                e.to = Some(node.clone());
+                let end = closed_end(&node, &node, &checker, &kp)?;
+                raw.elements.push(end);
             } else {
                 let closed = RawElement::deserialize(Value::Mapping(Mapping::from_iter([
                     (Value::from("name"), Value::from(e.name.clone())),
@@ -736,6 +737,16 @@ fn drop_cut_off(raw: &mut RawCircuit) -> Kept {
         keep_tap[i - 1]
     });
     kept
+}
+
+/// A `closed_end` element called `name` at node `at`.
+fn closed_end(name: &str, at: &str, checker: &Checker<'_>, path: &KeyPath) -> Res<RawElement> {
+    RawElement::deserialize(Value::Mapping(Mapping::from_iter([
+        (Value::from("name"), Value::from(name)),
+        (Value::from("kind"), Value::from("closed_end")),
+        (Value::from("at"), Value::from(at)),
+    ])))
+    .map_err(|err| checker.err(path, err.to_string()))
 }
 
 /// The element called `name` in the document's `elements` list, as its
