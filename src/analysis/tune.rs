@@ -487,6 +487,17 @@ pub enum TuneError {
     /// Bounds not positive or not increasing.
     #[error("the bounds of `{0}` must be positive and increasing (low < high)")]
     BadBounds(&'static str),
+    /// A damper's precharge range reaches above its operating pressure
+    /// (the gas would not be compressed: no valid damper).
+    #[error(
+        "the precharge bounds reach {high_bar:.3} bar abs, above the damper's operating pressure of {operating_bar:.3} bar abs: a precharge must stay below the operating pressure"
+    )]
+    PrechargeAboveOperating {
+        /// The upper bound, bar absolute.
+        high_bar: f64,
+        /// The operating pressure, bar absolute.
+        operating_bar: f64,
+    },
     /// The design as given cannot be evaluated.
     #[error("the circuit as given cannot be evaluated: {0}")]
     Baseline(String),
@@ -610,6 +621,14 @@ impl TuneProblem<'_> {
             }
             if !(b.low > 0.0 && b.high > b.low && b.high.is_finite()) {
                 return Err(TuneError::BadBounds(b.parameter.name()));
+            }
+            if let (Parameter::Precharge, ElementKind::Damper(d)) = (b.parameter, &e.kind)
+                && b.high > d.operating_pa
+            {
+                return Err(TuneError::PrechargeAboveOperating {
+                    high_bar: b.high / 1e5,
+                    operating_bar: d.operating_pa / 1e5,
+                });
             }
         }
         Ok(())

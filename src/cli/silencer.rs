@@ -17,7 +17,6 @@ use ripline::analysis::tune::speed_conditions;
 use ripline::diagnostics::plane_wave_limit_hz;
 use ripline::elements::{Connection, Element, ElementKind, PRESSURE_VESSEL_CAUTION};
 use ripline::io::csv_response::{HarmonicLoss, write_harmonic_loss_csv, write_loss_csv};
-use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
 use ripline::units::PressureDisplay;
@@ -72,6 +71,15 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     let harmonic_csv_path = ranges::csv_output("--harmonic-csv", args.harmonic_csv.as_deref())?;
     let plot_path = ranges::plot_output(args.plot.as_deref())?;
     let loaded = common::load_circuit(Some(&args.file))?;
+    let mut outputs = common::plan_outputs(
+        &[],
+        &[
+            ("--csv", csv_path.as_deref()),
+            ("--harmonic-csv", harmonic_csv_path.as_deref()),
+            ("--plot", plot_path.as_deref()),
+        ],
+        false,
+    )?;
     let circuit = &loaded.circuit;
     let ids = args
         .element
@@ -206,7 +214,6 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     }
 
     let (bands, _) = ranges::excited_bands(pump, &speeds, circuit.harmonics);
-    let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
         common::stage_csv(&mut outputs, path, |buf| {
             write_loss_csv(&freqs, &tl, &il, buf)

@@ -69,6 +69,11 @@ pub struct TuneArgs {
     temperature_steps: usize,
 }
 
+/// Most ripple evaluations (search evaluations × speeds × temperatures) a
+/// tune may make: about seven times the default three-parameter search over
+/// 41 speeds and 3 temperatures.
+pub const MAX_TUNE_WORK: usize = 2_000_000;
+
 fn parse_vary(text: &str) -> anyhow::Result<Bound> {
     let Some((name, range)) = text.split_once('=') else {
         return Err(UsageError(format!(
@@ -183,6 +188,16 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
         * f64::from(circuit.harmonics);
     for w in ripline::diagnostics::circuit_warnings(circuit, top) {
         eprintln!("warning: {w}");
+    }
+    let work = settings.budget() * conditions.len() * temperatures_k.len().max(1);
+    if work > MAX_TUNE_WORK {
+        return Err(UsageError(format!(
+            "{} evaluations × {} speeds × {} temperatures is {work} ripple evaluations, more than {MAX_TUNE_WORK}: use fewer --samples, --speeds or --temperature-steps",
+            settings.budget(),
+            conditions.len(),
+            temperatures_k.len().max(1)
+        ))
+        .into());
     }
     let progress = Progress::new(settings.budget(), "searching");
     let result = problem
