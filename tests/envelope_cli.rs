@@ -155,3 +155,46 @@ fn solve_warns_about_a_bottomed_damper() {
     assert!(err.contains("warning: pulsation_damper `damper`"), "{err}");
     assert!(err.contains("the damper is bottomed"), "{err}");
 }
+
+/// The README's envelope demo ("Demo: a bottomed damper at standby") is
+/// what `assess` prints for networks/loader_work_envelope.yaml, as it
+/// stands and with the precharge at 20 bar gauge.
+#[test]
+fn the_readme_envelope_demo_holds() {
+    let readme =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("README.md")).unwrap();
+    let o = ripline(&["assess", "networks/loader_work_envelope.yaml"]);
+    let out = text(&o.stdout);
+    assert_eq!(o.status.code(), Some(3), "{out}");
+    assert!(
+        out.contains("result: 3 of 4 limits exceeded (exit code 3)"),
+        "{out}"
+    );
+    assert!(
+        out.contains("FAIL  `valve block`: rms ≤ 2 bar; worst 6.5386 bar at 2037 rpm, 25 bar, 80 °C, holding, harmonic 1 (305.6 Hz); margin -10.29 dB"),
+        "{out}"
+    );
+    assert!(out.contains("`pump outlet`: 11.2584 bar rms"), "{out}");
+    assert!(text(&o.stderr).contains("the damper is bottomed"));
+    assert!(readme.contains("(6.54 bar rms at the\nvalve block against a 2 bar limit, margin −10.3 dB; 11.3 bar rms at the pump outlet)"));
+
+    let dir = scratch("readme");
+    let demo = std::fs::read_to_string("networks/loader_work_envelope.yaml").unwrap();
+    let changed = demo.replace("precharge: 80 bar gauge ", "precharge: 20 bar gauge ");
+    assert_ne!(changed, demo);
+    let file = write(&dir, "lower_precharge.yaml", &changed);
+    let o = ripline(&["assess", &file]);
+    let out = text(&o.stdout);
+    assert_eq!(o.status.code(), Some(0), "{out}");
+    assert!(out.contains("result: every limit met (4 of 4)"), "{out}");
+    assert!(
+        out.contains("PASS  `valve block`: rms ≤ 2 bar; worst 0.9425 bar at 1891 rpm, 250 bar, 80 °C, holding"),
+        "{out}"
+    );
+    assert!(out.contains("margin +6.54 dB"), "{out}");
+    assert!(
+        readme.contains(
+            "(0.94 bar rms at the valve block, now at 250 bar and 80 °C, margin +6.5 dB)"
+        )
+    );
+}

@@ -147,10 +147,12 @@ pub struct Finding {
     pub resonance_hz: Option<f64>,
 }
 
-/// A warning and the envelope points where it holds.
+/// A warning and the envelope points where it holds: one warning that
+/// differs between points only in its numbers is one, with the numbers of
+/// the first point.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct EnvelopeWarning {
-    /// The warning (see [`crate::diagnostics::Warning`]).
+    /// The warning (see [`crate::diagnostics::Warning`]) at the first point.
     pub text: String,
     /// The labels of the points where it holds, in the envelope's order.
     pub points: Vec<String>,
@@ -339,7 +341,11 @@ pub fn assess(
             .chain(swept.warnings.iter().cloned())
         {
             let text = w.to_string();
-            match warnings.iter_mut().find(|x| x.text == text) {
+            let key = without_numbers(&text);
+            match warnings
+                .iter_mut()
+                .find(|x| without_numbers(&x.text) == key)
+            {
                 Some(x) if !x.points.contains(&label) => x.points.push(label.clone()),
                 Some(_) => {}
                 None => warnings.push(EnvelopeWarning {
@@ -449,6 +455,14 @@ pub fn assess(
     })
 }
 
+/// A text with every digit replaced, to compare warnings whose numbers
+/// differ.
+fn without_numbers(text: &str) -> String {
+    text.chars()
+        .map(|c| if c.is_ascii_digit() { '#' } else { c })
+        .collect()
+}
+
 fn level_db(rms_pa: f64) -> f64 {
     20.0 * rms_pa.log10()
 }
@@ -531,17 +545,17 @@ fn findings(sweeps: &[PointSweep], taps: &[String], worst: &[Option<WorstPoint>]
                 freq,
                 w.value_pa,
             );
-            // the resonance it sits on, if a crossing of the same harmonic
-            // peaks within 1 % of its speed: told here, not twice
+            // the crossing it sits on (a crossing of the same harmonic at
+            // this point peaking within 1 % of its speed): told here, not
+            // twice; a resonance's own finding moves to its next crossing
             if let Some(i) = crossings.iter().position(|c| {
-                c.kind == FindingKind::Resonance
-                    && c.tap == *tap
+                c.tap == *tap
                     && c.order == order
                     && (c.speed_rev_s - w.speed_rev_s).abs() <= 0.01 * w.speed_rev_s
             }) {
-                let r = crossings.remove(i);
-                f.resonance_hz = r.resonance_hz;
-                f.rise_db = r.rise_db;
+                let c = crossings.remove(i);
+                f.resonance_hz = c.resonance_hz;
+                f.rise_db = c.rise_db;
             }
             out.push(f);
         }

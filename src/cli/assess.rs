@@ -11,7 +11,6 @@ use ripline::elements::{ElementKind, PRESSURE_VESSEL_CAUTION};
 use ripline::envelope::{LimitKind, OperatingPoint};
 use ripline::io::CircuitFile;
 use ripline::io::csv_envelope::{FileOperatingPoint, write_findings_csv, write_grid_csv};
-use ripline::io::output::StagedOutputs;
 use ripline::plot;
 use ripline::units::{Dimension, PressureDisplay};
 use std::io::Write;
@@ -125,6 +124,20 @@ pub fn run(args: AssessArgs) -> anyhow::Result<()> {
     let grid_path = ranges::csv_output("--grid-csv", args.grid_csv.as_deref())?;
     let plot_base = ranges::plot_output(args.plot.as_deref())?;
     let file = ripline::io::load_circuit_file(&args.file)?;
+    let taps: Vec<String> = ripline::analysis::ripple::report_points(&file.circuit)
+        .into_iter()
+        .map(|t| t.name)
+        .collect();
+    let plot_paths: Vec<PathBuf> = plot_base
+        .iter()
+        .flat_map(|base| taps.iter().map(|t| plot_path(base, t, taps.len() > 1)))
+        .collect();
+    let mut targets = vec![
+        ("--csv", csv_path.as_deref()),
+        ("--grid-csv", grid_path.as_deref()),
+    ];
+    targets.extend(plot_paths.iter().map(|p| ("--plot", Some(p.as_path()))));
+    let mut outputs = common::plan_outputs(&[], &targets, false)?;
     let speed_range = match &args.speed_range {
         Some(text) => Some(ranges::parse_range(
             "--speed-range",
@@ -172,13 +185,21 @@ pub fn run(args: AssessArgs) -> anyhow::Result<()> {
         if all == 1 {
             eprintln!("warning: {}", w.text);
         } else if w.points.len() == all {
-            eprintln!("warning: at every envelope point: {}", w.text);
+            eprintln!(
+                "warning: at every envelope point: {} (numbers at the first of them)",
+                w.text
+            );
         } else {
             eprintln!(
-                "warning: at {} of {all} envelope points ({}): {}",
+                "warning: at {} of {all} envelope points ({}): {}{}",
                 w.points.len(),
                 w.points.join("; "),
-                w.text
+                w.text,
+                if w.points.len() > 1 {
+                    " (numbers at the first of them)"
+                } else {
+                    ""
+                }
             );
         }
     }
@@ -187,7 +208,6 @@ pub fn run(args: AssessArgs) -> anyhow::Result<()> {
         pressure_pa: file.pressure_pa,
         temperature_k: file.temperature_k,
     };
-    let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
         common::stage_csv(&mut outputs, path, |buf| {
             write_findings_csv(&assessment.findings, &own, buf)
@@ -198,15 +218,13 @@ pub fn run(args: AssessArgs) -> anyhow::Result<()> {
             write_grid_csv(&assessment, &own, buf)
         })?;
     }
-    if let Some(base) = &plot_base {
-        let several = assessment.taps.len() > 1;
-        for (ti, tap) in assessment.taps.iter().enumerate() {
-            let Some(charts) = tap_charts(&assessment, &file, ti) else {
-                continue;
-            };
-            let path = plot_path(base, tap, several);
+    if plot_base.is_some() {
+        for (ti, path) in plot_paths.iter().enumerate() {
+            // a point no ripple reaches gets a plot that says so
+            let charts = tap_charts(&assessment, &file, ti)
+                .unwrap_or_else(|| vec![silent_chart(&assessment.taps[ti])]);
             outputs
-                .stage_with(&path, |tmp| plot::stacked_line_charts(tmp, &charts))
+                .stage_with(path, |tmp| plot::stacked_line_charts(tmp, &charts))
                 .with_context(|| format!("drawing {}", path.display()))?;
         }
     }
@@ -554,4 +572,19 @@ fn tap_charts(a: &Assessment, file: &CircuitFile, ti: usize) -> Option<Vec<plot:
         .filter(|c| !c.series.is_empty())
         .collect();
     (!charts.is_empty()).then_some(charts)
+}
+
+/// The plot of a measurement point no ripple reaches anywhere.
+fn silent_chart(tap: &str) -> plot::LineChart {
+    plot::LineChart {
+        title: format!("`{tap}`: no ripple reaches it anywhere in the envelope"),
+        x_label: "shaft speed (rpm)".into(),
+        y_label: "rms ripple (bar)".into(),
+        series: vec![plot::XySeries {
+            name: "no ripple".into(),
+            points: vec![(0.0, 0.0), (1.0, 0.0)],
+            ..Default::default()
+        }],
+        ..Default::default()
+    }
 }
