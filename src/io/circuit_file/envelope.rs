@@ -481,6 +481,42 @@ impl CircuitFile {
         }
     }
 
+    /// The envelope's points that match `filter` (every point for an empty
+    /// filter; the file's own point when it has no envelope).
+    ///
+    /// # Errors
+    /// [`crate::envelope::NoSuchPoint`] when the filter matches no point,
+    /// or asks for a part of a point without an envelope.
+    pub fn select(
+        &self,
+        filter: &crate::envelope::PointFilter,
+    ) -> Result<Vec<OperatingPoint>, crate::envelope::NoSuchPoint> {
+        match &self.envelope {
+            Some(e) => e.select(filter),
+            None if *filter == crate::envelope::PointFilter::default() => Ok(self.points()),
+            None => Err(crate::envelope::NoSuchPoint {
+                what: "an envelope point".into(),
+                valid: "none: the file has no `envelope` section".into(),
+            }),
+        }
+    }
+
+    /// The circuit at each of `points`, all resolved before any is used
+    /// (so a point that makes the circuit invalid is found before any
+    /// work).
+    ///
+    /// # Errors
+    /// The first point's [`InputError`], as [`CircuitFile::at`].
+    pub fn circuits(
+        &self,
+        points: &[OperatingPoint],
+    ) -> Result<Vec<(OperatingPoint, Circuit)>, InputError> {
+        points
+            .iter()
+            .map(|p| self.at(p).map(|c| (p.clone(), c)))
+            .collect()
+    }
+
     /// The circuit at an envelope point (the point evaluator).
     ///
     /// # Errors
