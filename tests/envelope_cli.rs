@@ -174,7 +174,7 @@ fn the_readme_envelope_demo_holds() {
         out.contains("FAIL  `valve block`: rms ≤ 2 bar; worst 6.5386 bar at 2037 rpm, 25 bar, 80 °C, holding, harmonic 1 (305.6 Hz); margin -10.29 dB"),
         "{out}"
     );
-    assert!(out.contains("`pump outlet`: 11.2584 bar rms"), "{out}");
+    assert!(out.contains("`pump outlet`: 11.2586 bar rms"), "{out}");
     assert!(text(&o.stderr).contains("the damper is bottomed"));
     assert!(readme.contains("(6.54 bar rms at the\nvalve block against a 2 bar limit, margin −10.3 dB; 11.3 bar rms at the pump outlet)"));
 
