@@ -94,14 +94,7 @@ fn plot_path(base: &Path, tap: &str, several: bool) -> PathBuf {
             }
         })
         .collect();
-    let stem = base
-        .file_stem()
-        .map_or_else(|| "assess".into(), |s| s.to_string_lossy().into_owned());
-    let ext = base
-        .extension()
-        .map(|e| format!(".{}", e.to_string_lossy()))
-        .unwrap_or_default();
-    base.with_file_name(format!("{stem}-{slug}{ext}"))
+    common::companion_path(base, &slug)
 }
 
 pub fn run(args: AssessArgs) -> anyhow::Result<()> {

@@ -357,3 +357,15 @@ pub fn silent_orders_note(orders: &[u32]) -> Option<String> {
         )
     })
 }
+
+/// A companion file of an output: `plot.svg` → `plot-<tag>.svg`.
+pub fn companion_path(path: &Path, tag: &str) -> PathBuf {
+    let stem = path
+        .file_stem()
+        .map_or_else(|| "output".into(), |s| s.to_string_lossy().into_owned());
+    let ext = path
+        .extension()
+        .map(|e| format!(".{}", e.to_string_lossy()))
+        .unwrap_or_default();
+    path.with_file_name(format!("{stem}-{tag}{ext}"))
+}
