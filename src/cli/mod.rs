@@ -9,7 +9,6 @@
 mod assess;
 mod check;
 mod common;
-mod components;
 mod fit;
 mod profile;
 mod ranges;
