@@ -150,8 +150,9 @@ fn replace_value(line: &str, from: usize, key: &str, value: &str) -> Option<Stri
         Some(q @ ('"' | '\'')) => (start + 1 + rest[1..].find(q)? + 1, Some(q)),
         _ => {
             let mut end = line.len();
+            // the comment keeps its place (the spaces before it stay)
             if let Some(i) = rest.find(" #") {
-                end = end.min(start + i);
+                end = end.min(start + rest[..i].trim_end().len());
             }
             // a tolerance `, u = …` is part of the value in block style
             // only; in flow style it must be quoted

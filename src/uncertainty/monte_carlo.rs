@@ -319,7 +319,11 @@ mod tests {
     #[test]
     fn a_fixed_number_of_draws_and_missing_values() {
         let eval = |i: usize| -> Result<Vec<f64>, ()> {
-            Ok(vec![if i.is_multiple_of(4) { f64::NAN } else { i as f64 }])
+            Ok(vec![if i.is_multiple_of(4) {
+                f64::NAN
+            } else {
+                i as f64
+            }])
         };
         let options = Options {
             draws: Some(100),
