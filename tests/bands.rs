@@ -173,3 +173,103 @@ fn the_linearity_check_flags_a_response_next_to_its_resonance() {
     assert!(!at_near.good && at_near.nonlinearity > 0.5, "{at_near:?}");
     assert!(at_low.good, "{at_low:?}");
 }
+
+/// `ripline solve --bands` on the log loader of the calibration demo with
+/// one uncertain input: harmonic 1 of the source flow ripple, 1.3 L/min ±
+/// 10 % (limits, a rectangular distribution). The ripple is linear in the
+/// source flow, so |P₁| at every point is its nominal value times
+/// (1 + 0.1·U), U uniform on [−1, 1]: the 90 % Monte Carlo interval is the
+/// 5th..95th percentile of U, nominal × [0.91, 1.09]; the first-order band
+/// is nominal × (1 ± k·0.1/√3) with k = Φ⁻¹(0.95) = 1.6449 (scipy
+/// `norm.ppf(0.95)`), nominal × [0.90503, 1.09497]. The other harmonics do
+/// not move.
+#[test]
+fn solve_bands_of_a_linear_input_are_the_image_of_its_limits() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let model = std::fs::read_to_string(root.join("networks/calibration/log_loader.yaml")).unwrap();
+    let text = model
+        .replace(
+            "{harmonic: 1, amplitude: 1.3 L/min, phase: 0 deg}",
+            "{harmonic: 1, amplitude: 1.3 L/min ± 10 %, phase: 0 deg}",
+        )
+        .replace("1.6 GPa ± 10 %", "1.6 GPa");
+    assert_ne!(text, model);
+    let dir = std::env::temp_dir().join(format!("ripline-bands-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let circuit = dir.join("linear.yaml");
+    std::fs::write(&circuit, text).unwrap();
+    let run = |method: &str, csv: &str| {
+        let csv = dir.join(csv);
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+            .args(["solve", circuit.to_str().unwrap(), "--bands", method])
+            .args(["--seed", "7", "--csv", csv.to_str().unwrap()])
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        let table = std::fs::read_to_string(csv).unwrap();
+        let mut lines = table.lines();
+        assert_eq!(
+            lines.next().unwrap(),
+            "point,harmonic,frequency_hz,amplitude_pa,phase_deg,amplitude_low_pa,amplitude_high_pa"
+        );
+        lines
+            .map(|l| {
+                let c: Vec<&str> = l.split(',').collect();
+                let num = |i: usize| c[i].parse::<f64>().unwrap();
+                (c[1].parse::<u32>().unwrap(), num(3), num(5), num(6))
+            })
+            .collect::<Vec<_>>()
+    };
+    for (method, low, high, tol) in [
+        ("monte-carlo", 0.91, 1.09, 0.004),
+        ("first-order", 0.905_03, 1.094_97, 1e-4),
+    ] {
+        let rows = run(method, &format!("{method}.csv"));
+        assert_eq!(rows.len(), 18);
+        for (harmonic, nominal, lo, hi) in rows {
+            if harmonic == 1 {
+                assert!(
+                    (lo / nominal - low).abs() < tol,
+                    "{method}: {lo} / {nominal}"
+                );
+                assert!(
+                    (hi / nominal - high).abs() < tol,
+                    "{method}: {hi} / {nominal}"
+                );
+            } else {
+                // stored as 32-bit floats in the Monte Carlo
+                assert!((lo / nominal - 1.0).abs() < 1e-6 && (hi / nominal - 1.0).abs() < 1e-6);
+            }
+        }
+    }
+    // a seed gives the same bands
+    assert_eq!(
+        run("monte-carlo", "again.csv"),
+        run("monte-carlo", "again2.csv")
+    );
+    let _ = std::fs::remove_dir_all(dir);
+}
+
+#[test]
+fn bands_of_a_circuit_with_nothing_uncertain_are_refused() {
+    for args in [
+        vec!["solve", "--bands", "monte-carlo"],
+        vec![
+            "solve",
+            "networks/calibration/log_loader.yaml",
+            "--bands",
+            "monte-carlo",
+            "--draws",
+            "5",
+        ],
+        vec!["solve", "--coverage", "95"],
+    ] {
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+            .args(&args)
+            .current_dir(env!("CARGO_MANIFEST_DIR"))
+            .output()
+            .unwrap();
+        assert_eq!(o.status.code(), Some(2), "{args:?}");
+        assert!(o.stdout.is_empty(), "{args:?}");
+    }
+}

@@ -30,6 +30,18 @@ pub fn load_circuit(file: Option<&Path>) -> anyhow::Result<LoadedCircuit> {
     }
 }
 
+/// The circuit FILE (or the built-in demo) kept as a template, for values
+/// set from outside it (uncertainty bands).
+pub fn load_template(file: Option<&Path>) -> anyhow::Result<ripline::io::CircuitTemplate> {
+    Ok(match file {
+        Some(path) => {
+            let text = ripline::io::read_text(path)?;
+            ripline::io::CircuitTemplate::new(&text, &path.display().to_string())?
+        }
+        None => ripline::io::CircuitTemplate::new(demo::DEMO_CIRCUIT, demo::DEMO_NAME)?,
+    })
+}
+
 /// A user error in a command-line value (exit code 2).
 #[derive(Debug, thiserror::Error)]
 #[error("{0}")]

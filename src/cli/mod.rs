@@ -7,6 +7,7 @@
 //! `assess` exceeded.
 
 mod assess;
+mod bands;
 mod calibrate;
 mod check;
 mod common;

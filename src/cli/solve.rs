@@ -1,9 +1,11 @@
 //! `ripline solve [FILE]`: the pressure ripple at every measurement point.
 
+use super::bands::{BandArgs, DrawProgress};
 use super::common::{self, Outputs, check_output};
 use clap::Args;
 use ripline::plot;
 use ripline::render::solve as render;
+use ripline::results::bands::ripple_bands;
 use ripline::results::solve::{SolveRequest, solve};
 use std::path::PathBuf;
 
@@ -39,6 +41,8 @@ pub struct SolveArgs {
     /// peak-to-peak marked (.svg or .png); may be given twice.
     #[arg(long, value_name = "FILE")]
     waveform: Vec<PathBuf>,
+    #[command(flatten)]
+    bands: BandArgs,
 }
 
 pub fn run(args: SolveArgs) -> anyhow::Result<()> {
@@ -51,6 +55,7 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
         .map(|p| check_output("--waveform", p, &["csv", "svg", "png"]))
         .collect::<anyhow::Result<Vec<_>>>()?;
     let harmonics = common::harmonics_option(args.harmonics)?;
+    let band_request = args.bands.request()?;
     let loaded = common::load_circuit(args.file.as_deref())?;
     let mut targets = vec![
         ("--csv", csv.as_deref()),
@@ -75,7 +80,17 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
         db_ref_pa: (db_ref_pa, db_ref_origin),
         waveform: !waveforms.is_empty(),
     };
-    let result = solve(loaded.circuit, &loaded.source, &request)?;
+    let template = band_request
+        .is_some()
+        .then(|| common::load_template(args.file.as_deref()))
+        .transpose()?;
+    let mut result = solve(loaded.circuit, &loaded.source, &request)?;
+    if let (Some(b), Some(t)) = (&band_request, &template) {
+        let mut progress = DrawProgress::new();
+        let bands = ripple_bands(t, &request, b, &result, &mut |d, n| progress.update(d, n));
+        progress.finish();
+        result.bands = Some(bands?);
+    }
     common::print_warnings(&result.warnings);
 
     // Every output is prepared before anything is shown or renamed into place.

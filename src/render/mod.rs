@@ -9,6 +9,7 @@
 //! renderer computes physics: everything it shows is in the result.
 
 pub mod assess;
+pub mod bands;
 pub mod calibrate;
 pub mod check;
 pub mod compare;

@@ -18,6 +18,18 @@ pub const RIPPLE_HEADER: [&str; 5] = [
     "phase_deg",
 ];
 
+/// Header of the harmonic table with uncertainty bands (`solve --bands`):
+/// the ends of each amplitude's coverage interval (empty when unknown).
+pub const RIPPLE_BANDS_HEADER: [&str; 7] = [
+    "point",
+    "harmonic",
+    "frequency_hz",
+    "amplitude_pa",
+    "phase_deg",
+    "amplitude_low_pa",
+    "amplitude_high_pa",
+];
+
 /// Header of the waveform table (`solve --waveform FILE.csv`) with one
 /// source; with several, a leading `source` column.
 pub const WAVEFORM_HEADER: [&str; 4] = ["point", "shaft_angle_deg", "time_s", "pressure_pa"];
@@ -104,6 +116,9 @@ pub fn text(r: &SolveResult, out: &mut impl Write) -> std::io::Result<()> {
             )?;
         }
     }
+    if let Some(b) = &r.bands {
+        super::bands::ripple_text(b, out)?;
+    }
     Ok(())
 }
 
@@ -113,6 +128,36 @@ pub fn text(r: &SolveResult, out: &mut impl Write) -> std::io::Result<()> {
 /// # Errors
 /// The CSV writer's error.
 pub fn csv(r: &SolveResult, out: impl Write) -> Result<(), csv::Error> {
+    if let Some(b) = &r.bands {
+        return per_source(r, RIPPLE_BANDS_HEADER, out, |s| {
+            let Some(sb) = b.sources.iter().find(|x| x.name == s.name) else {
+                return Vec::new();
+            };
+            s.points
+                .iter()
+                .zip(&sb.points)
+                .flat_map(|(p, pb)| {
+                    p.harmonics.iter().zip(&pb.harmonics).map(|(h, hb)| {
+                        let (lo, hi) = hb
+                            .amplitude_pa
+                            .interval()
+                            .map_or((String::new(), String::new()), |(lo, hi)| {
+                                (format!("{lo}"), format!("{hi}"))
+                            });
+                        [
+                            p.point.clone(),
+                            h.order.to_string(),
+                            format!("{}", h.freq_hz),
+                            format!("{}", h.pressure_pa.amplitude),
+                            format!("{}", h.pressure_pa.phase_deg),
+                            lo,
+                            hi,
+                        ]
+                    })
+                })
+                .collect()
+        });
+    }
     per_source(r, RIPPLE_HEADER, out, |s| {
         s.points
             .iter()

@@ -12,6 +12,7 @@
 //! [`crate::render`] turn a result into terminal text, CSV, JSON and charts.
 
 pub mod assess;
+pub mod bands;
 pub mod calibrate;
 pub mod check;
 pub mod compare;

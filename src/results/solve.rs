@@ -182,6 +182,9 @@ pub struct SolveResult {
     pub totals: Vec<PointTotal>,
     /// Model-validity and conditioning warnings.
     pub warnings: Vec<Notice>,
+    /// Uncertainty bands, when asked for (`results::bands`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub bands: Option<super::bands::RippleBands>,
 }
 
 impl SolveResult {
@@ -304,6 +307,7 @@ pub fn solve(
         sources,
         totals,
         warnings,
+        bands: None,
     })
 }
 

@@ -1,0 +1,125 @@
+//! Renderers of uncertainty bands ([`RippleBands`]): the report section
+//! shared by the commands that compute them.
+
+use super::table::{Align, DIGITS, Quantity, Table, sig};
+use crate::io::quantity::Spread;
+use crate::results::bands::{BandsInfo, RippleBands};
+use crate::uncertainty::bands::{Method, OutputBand};
+use std::io::Write;
+
+/// How the bands were made: method, coverage, draws, inputs.
+///
+/// # Errors
+/// The writer's error.
+pub fn info_text(i: &BandsInfo, out: &mut impl Write) -> std::io::Result<()> {
+    let pct = sig(i.coverage * 100.0, 3);
+    match i.method {
+        Method::MonteCarlo => writeln!(
+            out,
+            "uncertainty bands: {pct} % coverage intervals by Monte Carlo (JCGM 101), {} draws, seed {}{}",
+            i.draws,
+            i.seed,
+            match i.stable {
+                Some(true) => ", stable (JCGM 101 §7.9)",
+                Some(false) => ", NOT stable at the cap of draws: the ends are uncertain",
+                None => "",
+            }
+        )?,
+        Method::Linear => writeln!(
+            out,
+            "uncertainty bands: {pct} % coverage intervals to first order (GUM law of propagation, normal coverage factor)"
+        )?,
+    }
+    writeln!(out, "uncertain inputs (taken as independent):")?;
+    for input in &i.inputs {
+        let unit = if input.unit.is_empty() {
+            String::new()
+        } else {
+            format!(" {}", input.unit)
+        };
+        writeln!(
+            out,
+            "  {}: {}{unit} {} {}{unit}",
+            input.name,
+            sig(input.nominal, DIGITS),
+            match input.spread {
+                Spread::Limits => "±",
+                Spread::Standard => "with u =",
+            },
+            sig(input.amount, DIGITS),
+        )?;
+    }
+    let first_order = format!(
+        "first-order bands good (nonlinearity index ≤ 0.1) for {} of {} outputs",
+        i.linear_good, i.outputs
+    );
+    match i.method {
+        Method::MonteCarlo => writeln!(
+            out,
+            "{first_order}; they disagree with Monte Carlo (JCGM 101 §8) for {}",
+            i.linear_disagrees
+        ),
+        Method::Linear if i.linear_good < i.outputs => {
+            writeln!(out, "{first_order}: use --bands monte-carlo for the others")
+        }
+        Method::Linear => writeln!(out, "{first_order}"),
+    }
+}
+
+/// "low .. high" of a band in `unit`, or "unknown".
+fn interval(b: &OutputBand, unit: super::table::Unit) -> String {
+    match b.interval() {
+        Some((lo, hi)) => format!(
+            "{} .. {}",
+            sig(unit.of(lo), DIGITS),
+            sig(unit.of(hi), DIGITS)
+        ),
+        None => "unknown".into(),
+    }
+}
+
+/// The bands of `solve`: per (source and) point, each harmonic's amplitude
+/// and the overall rms and peak-to-peak.
+///
+/// # Errors
+/// The writer's error.
+pub fn ripple_text(b: &RippleBands, out: &mut impl Write) -> std::io::Result<()> {
+    writeln!(out)?;
+    info_text(&b.info, out)?;
+    let several = b.sources.len() > 1;
+    for s in &b.sources {
+        for p in &s.points {
+            writeln!(out)?;
+            if several {
+                writeln!(out, "point `{}`, source `{}`", p.point, s.name)?;
+            } else {
+                writeln!(out, "point `{}`", p.point)?;
+            }
+            let unit = Quantity::Pressure.unit_for_all(
+                p.harmonics
+                    .iter()
+                    .map(|h| h.amplitude_pa.nominal)
+                    .chain([p.peak_to_peak_pa.nominal]),
+            );
+            let mut t = Table::new(&[
+                ("", Align::Left),
+                (&format!("nominal {}", unit.symbol), Align::Right),
+                (&format!("band {}", unit.symbol), Align::Right),
+            ]);
+            let mut row = |name: String, band: &OutputBand| {
+                t.row(vec![
+                    name,
+                    sig(unit.of(band.nominal), DIGITS),
+                    interval(band, unit),
+                ]);
+            };
+            for h in &p.harmonics {
+                row(format!("harmonic {}", h.order), &h.amplitude_pa);
+            }
+            row("overall rms".into(), &p.rms_pa);
+            row("peak-to-peak".into(), &p.peak_to_peak_pa);
+            t.write(out, "  ")?;
+        }
+    }
+    Ok(())
+}

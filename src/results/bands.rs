@@ -1,0 +1,187 @@
+//! Uncertainty bands of `solve`: the ripple at every point and harmonic,
+//! and each point's overall rms and peak-to-peak, over the uncertain inputs
+//! of the circuit (`uncertainty`), by Monte Carlo or to first order.
+
+use super::Error;
+use super::solve::{SolveRequest, SolveResult};
+use crate::Circuit;
+use crate::envelope::OperatingPoint;
+use crate::io::CircuitTemplate;
+use crate::uncertainty::InputSummary;
+use crate::uncertainty::bands::{
+    BandError, BandRequest, Method, OutputBand, Propagated, propagate, ripple_outputs,
+};
+use serde::Serialize;
+
+/// How the bands were made.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BandsInfo {
+    /// The uncertain inputs.
+    pub inputs: Vec<InputSummary>,
+    /// Monte Carlo (with the first-order bands beside it) or first order.
+    pub method: Method,
+    /// Coverage probability of the intervals.
+    pub coverage: f64,
+    /// Seed of the draws.
+    pub seed: u64,
+    /// Monte Carlo draws made (0 for first order).
+    pub draws: usize,
+    /// Whether the adaptive procedure found every band stable.
+    pub stable: Option<bool>,
+    /// Outputs whose first-order band is good (nonlinearity index ≤ 0.1).
+    pub linear_good: usize,
+    /// Outputs in all.
+    pub outputs: usize,
+    /// Outputs whose first-order interval disagrees with the Monte Carlo
+    /// one (JCGM 101 §8).
+    pub linear_disagrees: usize,
+}
+
+impl BandsInfo {
+    fn of(p: &Propagated) -> Self {
+        BandsInfo {
+            inputs: p.inputs.clone(),
+            method: p.method,
+            coverage: p.coverage,
+            seed: p.seed,
+            draws: p.draws,
+            stable: p.stable,
+            linear_good: p.linear_good,
+            outputs: p.outputs.len(),
+            linear_disagrees: p
+                .outputs
+                .iter()
+                .filter(|o| o.linear_agrees == Some(false))
+                .count(),
+        }
+    }
+}
+
+/// The bands of one harmonic's amplitude (Pa, peak).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct HarmonicBand {
+    /// Its order.
+    pub order: u32,
+    /// The band of |P|.
+    pub amplitude_pa: OutputBand,
+}
+
+/// The bands at one point of one source.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PointBands {
+    /// The point.
+    pub point: String,
+    /// Per harmonic.
+    pub harmonics: Vec<HarmonicBand>,
+    /// The overall rms, Pa.
+    pub rms_pa: OutputBand,
+    /// The peak-to-peak, Pa.
+    pub peak_to_peak_pa: OutputBand,
+}
+
+/// The bands of one source (shaft), in the order of `SolveResult::sources`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SourceBands {
+    /// The source's name.
+    pub name: String,
+    /// Per point.
+    pub points: Vec<PointBands>,
+}
+
+/// The bands of a `solve`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RippleBands {
+    /// How they were made.
+    pub info: BandsInfo,
+    /// Per source.
+    pub sources: Vec<SourceBands>,
+}
+
+/// The bands of `nominal` (solved from `template`'s circuit with
+/// `request`). `progress(done, planned)` counts Monte Carlo draws.
+///
+/// # Errors
+/// [`Error::Request`] when the circuit has nothing uncertain or a drawn
+/// value makes it invalid; [`Error::Failed`] when a drawn circuit cannot be
+/// solved or the bands do not fit in memory.
+pub fn ripple_bands(
+    template: &CircuitTemplate,
+    request: &SolveRequest,
+    bands: &BandRequest,
+    nominal: &SolveResult,
+    progress: &mut dyn FnMut(usize, usize),
+) -> Result<RippleBands, Error> {
+    let prepare = |c: &mut Circuit| {
+        if let Some(n) = request.harmonics {
+            c.harmonics = n;
+        }
+        if let Some((shaft, rev_s)) = &request.speed {
+            shaft.set_speed(&mut c.pumps, *rev_s);
+            crate::meanflow::resolve_line_mean_flows(c);
+        }
+    };
+    let p = propagate(
+        template,
+        &OperatingPoint::default(),
+        &prepare,
+        &ripple_outputs,
+        bands,
+        progress,
+    )
+    .map_err(|e| match e {
+        BandError::NothingUncertain | BandError::Input(_) => Error::Request(e.to_string()),
+        other => Error::failed("uncertainty bands of the ripple", other),
+    })?;
+    // the layout of `ripple_outputs`: every amplitude (source, point,
+    // order), then each point's rms and peak-to-peak
+    let amplitudes: usize = nominal
+        .sources
+        .iter()
+        .flat_map(|s| &s.points)
+        .map(|pt| pt.harmonics.len())
+        .sum();
+    let points = nominal
+        .sources
+        .iter()
+        .map(|s| s.points.len())
+        .sum::<usize>();
+    if p.outputs.len() != amplitudes + 2 * points {
+        return Err(Error::Request(format!(
+            "the drawn circuits give {} outputs where the nominal one gives {}",
+            p.outputs.len(),
+            amplitudes + 2 * points
+        )));
+    }
+    let mut amplitude = p.outputs[..amplitudes].iter();
+    let mut totals = p.outputs[amplitudes..].chunks_exact(2);
+    let sources = nominal
+        .sources
+        .iter()
+        .map(|s| SourceBands {
+            name: s.name.clone(),
+            points: s
+                .points
+                .iter()
+                .zip(totals.by_ref())
+                .map(|(pt, total)| PointBands {
+                    point: pt.point.clone(),
+                    harmonics: pt
+                        .harmonics
+                        .iter()
+                        .zip(amplitude.by_ref())
+                        .map(|(h, b)| HarmonicBand {
+                            order: h.order,
+                            amplitude_pa: *b,
+                        })
+                        .collect(),
+                    rms_pa: total[0],
+                    peak_to_peak_pa: total[1],
+                })
+                .collect(),
+        })
+        .collect();
+    Ok(RippleBands {
+        info: BandsInfo::of(&p),
+        sources,
+    })
+}
