@@ -715,7 +715,7 @@ fn the_json_schema_document_lists_every_key() {
         .unwrap();
     let dir = scratch("json-doc");
     let damper = "networks/drill_rig_feed_damper.yaml";
-    let runs: [(&str, Vec<&str>); 9] = [
+    let runs: [(&str, Vec<&str>); 11] = [
         ("solve", vec![]),
         ("check", vec![]),
         ("profile", vec![]),
@@ -759,6 +759,24 @@ fn the_json_schema_document_lists_every_key() {
         (
             "assess",
             vec!["networks/drill_rig_feed.yaml", "--speeds", "21"],
+        ),
+        (
+            "compare",
+            vec![
+                "networks/calibration/log_loader.yaml",
+                "networks/calibration/commissioning.yaml",
+            ],
+        ),
+        (
+            "calibrate",
+            vec![
+                "networks/calibration/log_loader.yaml",
+                "networks/calibration/commissioning.yaml",
+                "--vary",
+                "fluid.bulk_modulus=1GPa..2GPa",
+                "--max-evaluations",
+                "3",
+            ],
         ),
     ];
     for (cmd, args) in runs {

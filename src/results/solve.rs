@@ -183,7 +183,6 @@ pub struct SolveResult {
     /// Model-validity and conditioning warnings.
     pub warnings: Vec<Notice>,
     /// Uncertainty bands, when asked for (`results::bands`).
-    #[serde(skip_serializing_if = "Option::is_none")]
     pub bands: Option<super::bands::RippleBands>,
 }
 
