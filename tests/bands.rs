@@ -98,12 +98,12 @@ fn the_resonance_band_is_the_image_of_the_wave_speed_tolerance() {
         Method::MonteCarlo,
         Options::default(),
     );
-    assert_eq!(r.inputs.len(), 1);
-    assert_eq!(r.inputs[0].spread, Spread::Limits);
+    assert_eq!(r.info.inputs.len(), 1);
+    assert_eq!(r.info.inputs[0].spread, Spread::Limits);
     let f = r.outputs[0];
     assert!((f.nominal - 300.0).abs() < 1e-6, "{f:?}");
     let mc = f.monte_carlo.unwrap();
-    let sd = 30.0 * (0.05f64 * 0.95 / r.draws as f64).sqrt();
+    let sd = 30.0 * (0.05f64 * 0.95 / r.info.draws as f64).sqrt();
     assert!((mc.low - 286.5).abs() < 4.0 * sd, "{mc:?} (sd {sd})");
     assert!((mc.high - 313.5).abs() < 4.0 * sd, "{mc:?} (sd {sd})");
     // u of a rectangular distribution of half-width 15 Hz: 15/√3
@@ -112,7 +112,7 @@ fn the_resonance_band_is_the_image_of_the_wave_speed_tolerance() {
         "{mc:?}"
     );
     assert_eq!(mc.missing, 0);
-    assert_eq!(r.stable, Some(true));
+    assert_eq!(r.info.stable, Some(true));
     // First order: f is linear in c, so u_c = u(c)/4L exactly and η = 0 …
     let lin = f.linear.unwrap();
     let u = 60.0 / 3f64.sqrt() / 4.0;
@@ -146,7 +146,7 @@ fn linearised_bands_agree_with_monte_carlo_where_the_output_is_linear() {
         Method::Linear,
         Options::default(),
     );
-    assert_eq!(l.draws, 0);
+    assert_eq!(l.info.draws, 0);
     let fl = l.outputs[0];
     assert!(fl.monte_carlo.is_none() && fl.linear_agrees.is_none());
     assert!((fl.linear.unwrap().u - 6.0).abs() < 1e-6);

@@ -3,8 +3,8 @@
 
 use super::table::{Align, DIGITS, Quantity, Table, sig};
 use crate::io::quantity::Spread;
-use crate::results::bands::{BandsInfo, RippleBands};
-use crate::uncertainty::bands::{Method, OutputBand};
+use crate::results::bands::RippleBands;
+use crate::uncertainty::bands::{BandsInfo, Method, OutputBand};
 use std::io::Write;
 
 /// How the bands were made: method, coverage, draws, inputs.

@@ -7,55 +7,10 @@ use super::solve::{SolveRequest, SolveResult};
 use crate::Circuit;
 use crate::envelope::OperatingPoint;
 use crate::io::CircuitTemplate;
-use crate::uncertainty::InputSummary;
 use crate::uncertainty::bands::{
-    BandError, BandRequest, Method, OutputBand, Propagated, propagate, ripple_outputs,
+    BandError, BandRequest, BandsInfo, OutputBand, propagate, ripple_outputs,
 };
 use serde::Serialize;
-
-/// How the bands were made.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct BandsInfo {
-    /// The uncertain inputs.
-    pub inputs: Vec<InputSummary>,
-    /// Monte Carlo (with the first-order bands beside it) or first order.
-    pub method: Method,
-    /// Coverage probability of the intervals.
-    pub coverage: f64,
-    /// Seed of the draws.
-    pub seed: u64,
-    /// Monte Carlo draws made (0 for first order).
-    pub draws: usize,
-    /// Whether the adaptive procedure found every band stable.
-    pub stable: Option<bool>,
-    /// Outputs whose first-order band is good (nonlinearity index ≤ 0.1).
-    pub linear_good: usize,
-    /// Outputs in all.
-    pub outputs: usize,
-    /// Outputs whose first-order interval disagrees with the Monte Carlo
-    /// one (JCGM 101 §8).
-    pub linear_disagrees: usize,
-}
-
-impl BandsInfo {
-    fn of(p: &Propagated) -> Self {
-        BandsInfo {
-            inputs: p.inputs.clone(),
-            method: p.method,
-            coverage: p.coverage,
-            seed: p.seed,
-            draws: p.draws,
-            stable: p.stable,
-            linear_good: p.linear_good,
-            outputs: p.outputs.len(),
-            linear_disagrees: p
-                .outputs
-                .iter()
-                .filter(|o| o.linear_agrees == Some(false))
-                .count(),
-        }
-    }
-}
 
 /// The bands of one harmonic's amplitude (Pa, peak).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -181,7 +136,7 @@ pub fn ripple_bands(
         })
         .collect();
     Ok(RippleBands {
-        info: BandsInfo::of(&p),
+        info: p.info,
         sources,
     })
 }

@@ -68,9 +68,9 @@ impl OutputBand {
     }
 }
 
-/// Bands of a list of outputs and how they were made.
+/// How bands were made.
 #[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Propagated {
+pub struct BandsInfo {
     /// The uncertain inputs.
     pub inputs: Vec<InputSummary>,
     /// The method.
@@ -84,10 +84,22 @@ pub struct Propagated {
     /// Whether the adaptive procedure found every band stable (`None`:
     /// first-order, or a fixed number of draws).
     pub stable: Option<bool>,
-    /// One per output.
-    pub outputs: Vec<OutputBand>,
     /// Outputs whose first-order band is good (nonlinearity index ≤ 0.1).
     pub linear_good: usize,
+    /// Outputs in all.
+    pub outputs: usize,
+    /// Outputs whose first-order interval disagrees with the Monte Carlo
+    /// one (JCGM 101 §8).
+    pub linear_disagrees: usize,
+}
+
+/// Bands of a list of outputs and how they were made.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Propagated {
+    /// How they were made.
+    pub info: BandsInfo,
+    /// One per output.
+    pub outputs: Vec<OutputBand>,
 }
 
 /// Why bands could not be computed.
@@ -191,13 +203,20 @@ pub fn propagate(
         })
         .collect();
     Ok(Propagated {
-        inputs: inputs.summary(),
-        method: request.method,
-        coverage,
-        seed: request.monte_carlo.seed,
-        draws,
-        stable,
-        linear_good: lin.iter().filter(|l| l.good).count(),
+        info: BandsInfo {
+            inputs: inputs.summary(),
+            method: request.method,
+            coverage,
+            seed: request.monte_carlo.seed,
+            draws,
+            stable,
+            linear_good: lin.iter().filter(|l| l.good).count(),
+            outputs: outputs.len(),
+            linear_disagrees: outputs
+                .iter()
+                .filter(|o| o.linear_agrees == Some(false))
+                .count(),
+        },
         outputs,
     })
 }
