@@ -198,3 +198,140 @@ fn the_readme_envelope_demo_holds() {
         )
     );
 }
+
+/// The lines of a CSV file.
+fn csv_lines(path: &Path) -> Vec<String> {
+    std::fs::read_to_string(path)
+        .unwrap()
+        .lines()
+        .map(str::to_string)
+        .collect()
+}
+
+// `solve` over the envelope: every point (4 per case, 12 in all), the
+// envelope columns after `point,harmonic`, the ranked report, the JSON
+// with every point; `--at` and `--case`/`--pressure` select points.
+#[test]
+fn solve_runs_over_the_envelope_and_at_a_chosen_point() {
+    let dir = scratch("solve");
+    let csv = dir.join("solve.csv");
+    let json = dir.join("solve.json");
+    let o = ripline(&[
+        "solve",
+        "tests/circuits/envelope_test.yaml",
+        "--csv",
+        csv.to_str().unwrap(),
+        "--json",
+        json.to_str().unwrap(),
+    ]);
+    let out = text(&o.stdout);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    assert!(out.contains("over 12 envelope points"), "{out}");
+    assert!(
+        out.contains("Overall rms ripple at each measurement point, highest first (10 of 20;"),
+        "{out}"
+    );
+    assert!(
+        text(&o.stderr).contains("warning: at 6 of 12 envelope points (30 bar, 40 °C, open;"),
+        "{}",
+        text(&o.stderr)
+    );
+    let lines = csv_lines(&csv);
+    assert_eq!(
+        lines[0],
+        "point,harmonic,speed_rpm,pressure_pa,temperature_c,case,frequency_hz,amplitude_pa,phase_deg"
+    );
+    assert!(
+        lines[1].starts_with("outlet,1,1500,3000000,40,open,225,"),
+        "{}",
+        lines[1]
+    );
+    // 2 harmonics at 2 points, but one point (`end`) cut off by `closed`
+    assert_eq!(lines.len(), 1 + 8 * 4 + 4 * 2);
+    let doc: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let points = doc["result"]["envelope_points"].as_array().unwrap();
+    assert_eq!(points.len(), 12);
+    assert_eq!(points[0]["label"], "30 bar, 40 °C, open");
+    let ranked = doc["result"]["ranked"].as_array().unwrap();
+    assert_eq!(ranked.len(), 20);
+    assert!(ranked[0]["value_pa"].as_f64() >= ranked[1]["value_pa"].as_f64());
+
+    let o = ripline(&[
+        "solve",
+        "tests/circuits/envelope_test.yaml",
+        "--at",
+        "200 bar, 80 °C, throttled",
+        "--csv",
+        csv.to_str().unwrap(),
+    ]);
+    let out = text(&o.stdout);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    assert!(
+        out.starts_with("envelope point: 200 bar, 80 °C, throttled\n"),
+        "{out}"
+    );
+    assert!(out.contains("point `outlet`"), "{out}");
+    let lines = csv_lines(&csv);
+    assert_eq!(lines.len(), 5);
+    assert!(lines[1].starts_with("outlet,1,1500,20000000,80,throttled,"));
+    let o = ripline(&[
+        "solve",
+        "tests/circuits/envelope_test.yaml",
+        "--case",
+        "closed",
+        "--pressure",
+        "200 bar",
+        "--top",
+        "1",
+    ]);
+    let out = text(&o.stdout);
+    assert!(out.contains("over 2 envelope points"), "{out}");
+    assert!(out.contains("(1 of 2;"), "{out}");
+}
+
+// Choosing a point that is not in the envelope is a usage error naming
+// what was asked and what the envelope has: exit 2, nothing written.
+#[test]
+fn a_point_not_in_the_envelope_is_refused() {
+    let dir = scratch("no-point");
+    let csv = dir.join("s.csv");
+    for (option, value, says) in [
+        (
+            "--at",
+            "30 bar, 60 °C, open",
+            "the point `30 bar, 60 °C, open` is not in the envelope; it has: `30 bar, 40 °C, open`",
+        ),
+        (
+            "--pressure",
+            "120 bar",
+            "the mean pressure 120 bar is not in the envelope; it has: 30 bar, 200 bar",
+        ),
+        (
+            "--case",
+            "lifting",
+            "the load case `lifting` is not in the envelope; it has: `open`, `throttled`, `closed`",
+        ),
+    ] {
+        let o = ripline(&[
+            "solve",
+            "tests/circuits/envelope_test.yaml",
+            option,
+            value,
+            "--csv",
+            csv.to_str().unwrap(),
+        ]);
+        let err = text(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{err}");
+        assert!(err.contains(says), "{err}");
+        assert!(!csv.exists());
+    }
+    let o = ripline(&[
+        "solve",
+        "networks/crane_pressure_line.yaml",
+        "--case",
+        "open",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(text(&o.stderr).contains("the file has no `envelope` section"));
+}

@@ -9,6 +9,7 @@
 mod assess;
 mod check;
 mod common;
+mod envelope;
 mod fit;
 mod profile;
 mod ranges;

@@ -12,6 +12,7 @@ pub mod assess;
 pub mod check;
 pub mod fit;
 pub mod json;
+pub mod over_envelope;
 pub mod profile;
 pub mod response;
 pub mod silencer;

@@ -15,6 +15,7 @@ pub mod assess;
 pub mod check;
 pub mod describe;
 pub mod fit;
+pub mod over_envelope;
 pub mod profile;
 pub mod response;
 pub mod setup;
