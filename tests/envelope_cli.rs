@@ -335,3 +335,156 @@ fn a_point_not_in_the_envelope_is_refused() {
     assert_eq!(o.status.code(), Some(2));
     assert!(text(&o.stderr).contains("the file has no `envelope` section"));
 }
+
+// `sweep`, `response`, `profile` and `silencer` over the envelope: the
+// envelope columns after each table's fixed leading columns, a ranked
+// report over the points, and one point chosen with `--at`.
+#[test]
+fn the_other_commands_run_over_the_envelope() {
+    let dir = scratch("commands");
+    let file = "tests/circuits/envelope_test.yaml";
+    let csv = dir.join("t.csv");
+    let c = csv.to_str().unwrap();
+    let cases: [(&[&str], &str, &str); 5] = [
+        (
+            &["sweep", file, "--speed-step", "100", "--csv", c],
+            "point,harmonic,speed_rpm,pressure_pa,temperature_c,case,frequency_hz,amplitude_pa",
+            "Worst overall rms ripple over the speed range at each measurement point",
+        ),
+        (
+            &["response", file, "--points", "50", "--csv", c],
+            "point,speed_rpm,pressure_pa,temperature_c,case,frequency_hz,amplitude_pa_per_m3s,phase_deg",
+            "Peak ripple of each harmonic crossing a resonance",
+        ),
+        (
+            &["profile", file, "--csv", c],
+            "element,position_m,speed_rpm,pressure_pa,temperature_c,case,frequency_hz,amplitude_pa,phase_deg",
+            "Largest ripple amplitude (peak) along each line",
+        ),
+        (
+            &[
+                "silencer",
+                file,
+                "--element",
+                "damper",
+                "--tap",
+                "outlet",
+                "--points",
+                "50",
+                "--csv",
+                c,
+            ],
+            "frequency_hz,speed_rpm,pressure_pa,temperature_c,case,transmission_loss_db,insertion_loss_db",
+            "Overall rms ripple at the measurement point with the silencer",
+        ),
+        (
+            &[
+                "silencer",
+                file,
+                "--element",
+                "damper",
+                "--tap",
+                "outlet",
+                "--points",
+                "50",
+                "--harmonic-csv",
+                c,
+            ],
+            "harmonic,speed_rpm,pressure_pa,temperature_c,case,frequency_hz,transmission_loss_db,insertion_loss_db,amplitude_without_pa,amplitude_with_pa",
+            "(insertion loss ",
+        ),
+    ];
+    for (args, header, says) in cases {
+        let o = ripline(args);
+        let out = text(&o.stdout);
+        assert!(o.status.success(), "{args:?}: {}", text(&o.stderr));
+        assert!(out.contains("over 12 envelope points"), "{args:?}: {out}");
+        assert!(out.contains(says), "{args:?}: {out}");
+        let lines = csv_lines(&csv);
+        assert_eq!(lines[0], header, "{args:?}");
+        // every point's rows, in the envelope's order
+        let case_column = header.split(',').position(|h| h == "case").unwrap();
+        let cases_seen: Vec<&str> = lines[1..]
+            .iter()
+            .map(|l| l.split(',').nth(case_column).unwrap())
+            .collect();
+        assert_eq!(cases_seen.first(), Some(&"open"), "{args:?}");
+        assert_eq!(cases_seen.last(), Some(&"closed"), "{args:?}");
+        std::fs::remove_file(&csv).unwrap();
+
+        // one point: its own report, its rows only
+        let mut one: Vec<&str> = args.to_vec();
+        one.extend(["--at", "200 bar, 80 °C, throttled"]);
+        let o = ripline(&one);
+        let out = text(&o.stdout);
+        assert!(o.status.success(), "{one:?}: {}", text(&o.stderr));
+        assert!(
+            out.starts_with("envelope point: 200 bar, 80 °C, throttled\n"),
+            "{out}"
+        );
+        let lines = csv_lines(&csv);
+        assert_eq!(lines[0], header);
+        assert!(
+            lines[1..]
+                .iter()
+                .all(|l| l.contains(",20000000,80,throttled,")),
+            "{one:?}: {}",
+            lines[1]
+        );
+    }
+}
+
+// A point that makes the circuit invalid stops every command before any
+// work: the point and the envelope key named, exit 2, nothing written.
+#[test]
+fn an_invalid_envelope_point_stops_every_command() {
+    let dir = scratch("bad-point-commands");
+    let bad = write(
+        &dir,
+        "hot.yaml",
+        &ENVELOPE.replace(
+            "temperatures: [40 degC, 80 degC]",
+            "temperatures: [40 degC, 180 degC]",
+        ),
+    );
+    let csv = dir.join("out.csv");
+    let c = csv.to_str().unwrap();
+    for args in [
+        vec!["solve", &bad, "--csv", c],
+        vec!["sweep", &bad, "--csv", c],
+        vec!["response", &bad, "--csv", c],
+        vec!["profile", &bad, "--csv", c],
+        vec![
+            "silencer",
+            &bad,
+            "--element",
+            "damper",
+            "--tap",
+            "outlet",
+            "--csv",
+            c,
+        ],
+        // chosen by its parts: still located
+        vec![
+            "solve",
+            &bad,
+            "--temperature",
+            "180 degC",
+            "--case",
+            "open",
+            "--csv",
+            c,
+        ],
+    ] {
+        let o = ripline(&args);
+        let err = text(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {err}");
+        assert!(err.contains("hot.yaml:26:"), "{args:?}: {err}");
+        assert!(
+            err.contains("envelope.temperatures[1]: at envelope point `30 bar, 180 °C, open`: "),
+            "{args:?}: {err}"
+        );
+        assert!(!csv.exists(), "{args:?}");
+        assert!(text(&o.stdout).is_empty(), "{args:?}");
+    }
+}

@@ -518,8 +518,40 @@ fn sweep_json_agrees_with_the_grid_csv() {
         assert!(worst >= grid_max * (1.0 - 1e-12), "{worst} {grid_max}");
     }
     let crossings = r["crossings"].as_array().unwrap();
+    // the report shows the crossings within 20 dB of their point's worst
+    // overall rms level (a harmonic's level is that of its rms |P|/√2;
+    // L = 20·log10(p/p_ref)), highest first, at most 10
+    let worst_db = |point: &serde_json::Value| {
+        let i = r["points"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .position(|p| p == point)
+            .unwrap();
+        20.0 * num(&r["worst"][i]["rms_pa"]).log10()
+    };
+    let mut expected: Vec<(usize, f64)> = crossings
+        .iter()
+        .enumerate()
+        .map(|(i, c)| (i, 20.0 * (num(&c["amplitude_pa"]) / 2f64.sqrt()).log10()))
+        .filter(|(i, l)| worst_db(&crossings[*i]["point"]) - l <= 20.0)
+        .collect();
+    expected.sort_by(|a, b| b.1.total_cmp(&a.1));
+    let expected: Vec<usize> = expected.iter().take(10).map(|x| x.0).collect();
+    let shown: Vec<usize> = r["shown_crossings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|i| i.as_u64().unwrap() as usize)
+        .collect();
+    assert_eq!(shown, expected);
+    assert!(!shown.is_empty());
     assert!(
-        text.contains(&format!("resonance crossings ({};", crossings.len())),
+        text.contains(&format!(
+            "resonance crossings, highest first ({} of {}:",
+            shown.len(),
+            crossings.len()
+        )),
         "{text}"
     );
     assert_eq!(r["order_basis"], "shaft_fundamental");

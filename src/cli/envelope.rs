@@ -5,6 +5,7 @@
 //! JSON document holding every point's result.
 
 use super::common::{self, Outputs, UsageError};
+use ripline::analysis::envelope::{EnvelopeWarning, add_warning};
 use ripline::envelope::{OperatingPoint, PointFilter};
 use ripline::io::csv_envelope::{FileOperatingPoint, PointTable, merge_with_envelope};
 use ripline::results::Notice;
@@ -31,10 +32,11 @@ pub struct PointArgs {
     /// Only the envelope points of this load case.
     #[arg(long = "case", value_name = "NAME")]
     case: Option<String>,
-    /// At several envelope points: how many of the worst values over them
-    /// the report shows (every one is in the CSV and JSON outputs).
-    #[arg(long, value_name = "N", default_value_t = 10)]
-    top: usize,
+    /// How many findings the report shows (default 10): the worst values
+    /// over several envelope points, and the ranked findings of `sweep`
+    /// and `response`; every one is in the CSV or JSON output.
+    #[arg(long, value_name = "N")]
+    pub top: Option<usize>,
 }
 
 /// The circuit at each point a command runs at.
@@ -43,6 +45,10 @@ pub struct AtPoints {
     pub source: String,
     /// The file's own mean pressure and oil temperature.
     pub own: FileOperatingPoint,
+    /// The envelope's speed range (rev/s), if it gives one.
+    pub speed_range_rev_s: Option<(f64, f64)>,
+    /// The shaft the envelope's speed range applies to, if it names one.
+    pub shaft: Option<String>,
     /// Each point and the circuit there, in the envelope's order; one
     /// point, the file's own, without an envelope.
     pub points: Vec<(OperatingPoint, Circuit)>,
@@ -134,8 +140,11 @@ impl PointArgs {
             ))
             .into());
         }
+        let envelope = loaded.envelope.as_ref();
         Ok(AtPoints {
             points: loaded.circuits(&chosen)?,
+            speed_range_rev_s: envelope.and_then(|e| e.speed_range_rev_s),
+            shaft: envelope.and_then(|e| e.shaft.clone()),
             own: FileOperatingPoint {
                 pressure_pa: loaded.pressure_pa,
                 temperature_k: loaded.temperature_k,
@@ -181,32 +190,41 @@ pub fn point_paths(base: Option<&Path>, at: &AtPoints) -> Vec<PathBuf> {
 }
 
 /// Prints each warning of the results once, with the points where it
-/// holds when there are several.
+/// holds when there are several (a warning that differs between points
+/// only in its numbers is one, with the first point's numbers).
 pub fn print_warnings<T>(results: &[(OperatingPoint, T)], warnings: impl Fn(&T) -> &[Notice]) {
-    if results.len() == 1 {
-        common::print_warnings(warnings(&results[0].1));
+    if let [(_, r)] = results {
+        common::print_warnings(warnings(r));
         return;
     }
-    let mut seen: Vec<(String, Vec<String>)> = Vec::new();
+    let mut grouped = Vec::new();
     for (p, r) in results {
+        let label = p.label();
         for w in warnings(r) {
-            let text = w.to_string();
-            match seen.iter_mut().find(|(t, _)| *t == text) {
-                Some((_, points)) => points.push(p.label()),
-                None => seen.push((text, vec![p.label()])),
-            }
+            add_warning(&mut grouped, w.to_string(), &label);
         }
     }
-    let all = results.len();
-    for (text, points) in seen {
-        let n = points.len();
-        if n == all {
-            eprintln!("warning: at every envelope point: {text}");
+    print_grouped_warnings(&grouped, results.len());
+}
+
+/// Prints warnings grouped over `all` envelope points.
+pub fn print_grouped_warnings(warnings: &[EnvelopeWarning], all: usize) {
+    for w in warnings {
+        let n = w.points.len();
+        if all == 1 {
+            eprintln!("warning: {}", w.text);
         } else {
-            eprintln!(
-                "warning: at {n} of {all} envelope points ({}): {text}",
-                points.join("; ")
-            );
+            let at = if n == all {
+                "at every envelope point".to_string()
+            } else {
+                format!("at {n} of {all} envelope points ({})", w.points.join("; "))
+            };
+            let numbers = if n > 1 {
+                " (numbers at the first of them)"
+            } else {
+                ""
+            };
+            eprintln!("warning: {at}: {}{numbers}", w.text);
         }
     }
 }
@@ -288,6 +306,6 @@ pub fn finish_over<T: Serialize + WorstValues>(
             writeln!(out, "envelope point: {}", p.label())?;
             return text(r, out);
         }
-        ripline::render::over_envelope::text(&over, command, args.top, out)
+        ripline::render::over_envelope::text(&over, command, args.top.unwrap_or(10), out)
     })
 }

@@ -6,8 +6,8 @@
 //! ([`WorstValues`]): `solve` each measurement point's overall rms,
 //! `sweep` each one's worst overall rms over the speed range, `response`
 //! the ripple of each resonance crossing, `profile` each line's largest
-//! amplitude, `silencer` the overall rms at its measurement point with and
-//! without the silencer.
+//! amplitude, `silencer` the overall rms at its measurement point with the
+//! silencer (and the overall insertion loss).
 
 use super::Subject;
 use super::profile::ProfileResult;
@@ -125,25 +125,22 @@ impl WorstValues for ProfileResult {
 }
 
 impl WorstValues for SilencerResult {
-    const MEASURE: &'static str =
-        "overall rms ripple at the measurement point, with and without the silencer";
+    const MEASURE: &'static str = "overall rms ripple at the measurement point with the silencer";
     fn subject(&self) -> &Subject {
         &self.subject
     }
     fn worst_values(&self) -> Vec<Worst> {
-        let speed = Some(self.pump.speed_rev_s);
-        vec![
-            Worst {
-                subject: format!("`{}` with the silencer", self.tap),
-                speed_rev_s: speed,
-                value_pa: self.rms_with_pa,
+        // overall insertion loss 20·log10(P_without/P_with), rms values
+        let il = (self.rms_with_pa > 0.0 && self.rms_without_pa > 0.0)
+            .then(|| 20.0 * (self.rms_without_pa / self.rms_with_pa).log10());
+        vec![Worst {
+            subject: match il {
+                Some(il) => format!("`{}` (insertion loss {il:.1} dB)", self.tap),
+                None => format!("`{}`", self.tap),
             },
-            Worst {
-                subject: format!("`{}` without it", self.tap),
-                speed_rev_s: speed,
-                value_pa: self.rms_without_pa,
-            },
-        ]
+            speed_rev_s: Some(self.pump.speed_rev_s),
+            value_pa: self.rms_with_pa,
+        }]
     }
 }
 
