@@ -23,6 +23,10 @@ pub struct ResponseArgs {
     /// How close to a harmonic band a resonance counts as "near" (default 10%).
     #[arg(long, value_name = "PERCENT")]
     margin: Option<String>,
+    /// Leave out of the report crossings whose ripple is this far below the
+    /// highest crossing's (default 20dB; every verdict is in the JSON).
+    #[arg(long, value_name = "DB")]
+    floor: Option<String>,
     /// Write the response as CSV (point,frequency_hz,amplitude_pa_per_m3s,phase_deg).
     #[arg(long, value_name = "FILE")]
     csv: Option<PathBuf>,
@@ -41,6 +45,7 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
         Some(text) => (ranges::parse_fraction("--margin", text)?, Origin::Request),
         None => (0.1, Origin::Default),
     };
+    let ranking = common::ranking_options(args.at.top, args.floor.as_deref())?;
     let mut at = args.at.load(args.file.as_deref(), false)?;
     let plots = envelope::point_paths(plot.as_deref(), &at);
     let mut targets = vec![("--csv", csv.as_deref()), ("--json", json.as_deref())];
@@ -49,7 +54,11 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
     let progress = Progress::new(0, "frequency response");
     let results = at.run(|circuit, source| {
         let sweep = args.sweep.resolve(&circuit)?;
-        let request = ResponseRequest { sweep, margin };
+        let request = ResponseRequest {
+            sweep,
+            margin,
+            ranking,
+        };
         Ok(response(circuit, source, &request, &mut |done, total| {
             progress.set_of(done, total)
         })?)
