@@ -488,3 +488,33 @@ fn an_invalid_envelope_point_stops_every_command() {
         assert!(text(&o.stdout).is_empty(), "{args:?}");
     }
 }
+
+// `sweep` over the envelope finds the worst overall rms that `assess`
+// reports for the same envelope (the README demo: 11.2586 bar rms at the
+// pump outlet at 25 bar, 80 °C, holding): both refine the worst speed with
+// the same routine from the envelope's speed range.
+#[test]
+fn sweep_over_the_envelope_agrees_with_assess() {
+    let dir = scratch("sweep-assess");
+    let json = dir.join("s.json");
+    let o = ripline(&[
+        "sweep",
+        "networks/loader_work_envelope.yaml",
+        "--json",
+        json.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let out = text(&o.stdout);
+    assert!(out.contains("over 27 envelope points"), "{out}");
+    let doc: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let top = &doc["result"]["ranked"][0];
+    assert_eq!(top["label"], "25 bar, 80 °C, holding");
+    assert_eq!(top["subject"], "`pump outlet`");
+    let bar = top["value_pa"].as_f64().unwrap() / 1e5;
+    assert!((bar - 11.2586).abs() < 5e-5, "{bar}");
+    assert!(
+        out.contains("one point's full report: ripline sweep … --at \"25 bar, 80 °C, holding\""),
+        "{out}"
+    );
+}
