@@ -32,6 +32,19 @@ fn write(dir: &Path, name: &str, content: &str) -> String {
     path.to_str().unwrap().to_string()
 }
 
+/// The test envelope with an oil temperature beyond the oil models
+/// (-40..150 °C), written to `dir/hot.yaml`.
+fn hot_envelope(dir: &Path) -> String {
+    write(
+        dir,
+        "hot.yaml",
+        &ENVELOPE.replace(
+            "temperatures: [40 degC, 80 degC]",
+            "temperatures: [40 degC, 180 degC]",
+        ),
+    )
+}
+
 // Exit codes of `assess` (README, "Exit codes"): 3 when a limit is exceeded
 // (outputs complete), 0 when every limit is met or none is given.
 #[test]
@@ -108,14 +121,7 @@ fn assess_exit_codes_follow_the_verdicts() {
 #[test]
 fn an_invalid_envelope_point_is_located_and_writes_nothing() {
     let dir = scratch("bad-point");
-    let bad = write(
-        &dir,
-        "hot.yaml",
-        &ENVELOPE.replace(
-            "temperatures: [40 degC, 80 degC]",
-            "temperatures: [40 degC, 180 degC]",
-        ),
-    );
+    let bad = hot_envelope(&dir);
     let csv = dir.join("f.csv");
     let o = ripline(&["assess", &bad, "--csv", csv.to_str().unwrap()]);
     let err = text(&o.stderr);
@@ -345,6 +351,16 @@ fn the_other_commands_run_over_the_envelope() {
     let file = "tests/circuits/envelope_test.yaml";
     let csv = dir.join("t.csv");
     let c = csv.to_str().unwrap();
+    const SILENCER: &[&str] = &[
+        "silencer",
+        "tests/circuits/envelope_test.yaml",
+        "--element",
+        "damper",
+        "--tap",
+        "outlet",
+        "--points",
+        "50",
+    ];
     let cases: [(&[&str], &str, &str); 5] = [
         (
             &["sweep", file, "--speed-step", "100", "--csv", c],
@@ -362,34 +378,12 @@ fn the_other_commands_run_over_the_envelope() {
             "Largest ripple amplitude (peak) along each line",
         ),
         (
-            &[
-                "silencer",
-                file,
-                "--element",
-                "damper",
-                "--tap",
-                "outlet",
-                "--points",
-                "50",
-                "--csv",
-                c,
-            ],
+            &[SILENCER, &["--csv", c]].concat(),
             "frequency_hz,speed_rpm,pressure_pa,temperature_c,case,transmission_loss_db,insertion_loss_db",
             "Overall rms ripple at the measurement point with the silencer",
         ),
         (
-            &[
-                "silencer",
-                file,
-                "--element",
-                "damper",
-                "--tap",
-                "outlet",
-                "--points",
-                "50",
-                "--harmonic-csv",
-                c,
-            ],
+            &[SILENCER, &["--harmonic-csv", c]].concat(),
             "harmonic,speed_rpm,pressure_pa,temperature_c,case,frequency_hz,transmission_loss_db,insertion_loss_db,amplitude_without_pa,amplitude_with_pa",
             "(insertion loss ",
         ),
@@ -439,14 +433,7 @@ fn the_other_commands_run_over_the_envelope() {
 #[test]
 fn an_invalid_envelope_point_stops_every_command() {
     let dir = scratch("bad-point-commands");
-    let bad = write(
-        &dir,
-        "hot.yaml",
-        &ENVELOPE.replace(
-            "temperatures: [40 degC, 80 degC]",
-            "temperatures: [40 degC, 180 degC]",
-        ),
-    );
+    let bad = hot_envelope(&dir);
     let csv = dir.join("out.csv");
     let c = csv.to_str().unwrap();
     for args in [

@@ -189,6 +189,23 @@ pub fn point_paths(base: Option<&Path>, at: &AtPoints) -> Vec<PathBuf> {
     })
 }
 
+/// Stages the picture of each point's result, drawn by `draw`, at `paths`
+/// (one per point, from [`point_paths`]; none without `--plot`).
+///
+/// # Errors
+/// Drawing or staging a picture.
+pub fn plot_over<T>(
+    outputs: &mut Outputs,
+    paths: &[PathBuf],
+    results: &[(OperatingPoint, T)],
+    draw: impl Fn(&T, &Path) -> Result<(), ripline::plot::PlotError>,
+) -> anyhow::Result<()> {
+    for ((_, r), path) in results.iter().zip(paths) {
+        outputs.plot(path, |tmp| draw(r, tmp))?;
+    }
+    Ok(())
+}
+
 /// Prints each warning of the results once, with the points where it
 /// holds when there are several (a warning that differs between points
 /// only in its numbers is one, with the first point's numbers).

@@ -79,9 +79,9 @@ pub fn run(args: ProfileArgs) -> anyhow::Result<()> {
         |r| Some(r.speed_rev_s),
         |r, buf| render::csv(r, buf),
     )?;
-    for ((_, r), path) in results.iter().zip(&plots) {
-        outputs.plot(path, |tmp| plot::line_chart(tmp, &render::chart(r)))?;
-    }
+    envelope::plot_over(&mut outputs, &plots, &results, |r, tmp| {
+        plot::line_chart(tmp, &render::chart(r))
+    })?;
     envelope::finish_over(
         outputs,
         json.as_deref(),

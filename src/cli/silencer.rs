@@ -106,11 +106,9 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
         speed,
         |r, buf| render::harmonic_csv(r, buf),
     )?;
-    for ((_, r), path) in results.iter().zip(&plots) {
-        outputs.plot(path, |tmp| {
-            plot::stacked_line_charts(tmp, &render::charts(r))
-        })?;
-    }
+    envelope::plot_over(&mut outputs, &plots, &results, |r, tmp| {
+        plot::stacked_line_charts(tmp, &render::charts(r))
+    })?;
     envelope::finish_over(
         outputs,
         json.as_deref(),

@@ -106,9 +106,9 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
         speed,
         |r, buf| render::csv(r, buf),
     )?;
-    for ((_, r), path) in results.iter().zip(&plots) {
-        outputs.plot(path, |tmp| plot::grouped_bar_chart(tmp, &render::chart(r)))?;
-    }
+    envelope::plot_over(&mut outputs, &plots, &results, |r, tmp| {
+        plot::grouped_bar_chart(tmp, &render::chart(r))
+    })?;
     for path in &waveform_tables {
         envelope::csv_over(
             &mut outputs,

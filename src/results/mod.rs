@@ -188,6 +188,14 @@ pub struct Ranking {
 }
 
 impl Ranking {
+    /// The echoed inputs `top` and `floor`, given with `origin`.
+    pub fn inputs(&self, origin: Origin) -> [Input; 2] {
+        [
+            Input::number("top", self.top as f64, "1", origin),
+            Input::number("floor", self.floor_db, "dB", origin),
+        ]
+    }
+
     /// The indices of `items`, each (its level in dB, its reference level
     /// in dB), to show: highest level first (earlier first among equals),
     /// those within the floor of their reference, at most `top`.

@@ -288,18 +288,7 @@ pub fn response(
         request.margin.1,
     ));
     let (ranking, ranking_origin) = request.ranking;
-    inputs.push(Input::number(
-        "top",
-        ranking.top as f64,
-        "1",
-        ranking_origin,
-    ));
-    inputs.push(Input::number(
-        "floor",
-        ranking.floor_db,
-        "dB",
-        ranking_origin,
-    ));
+    inputs.extend(ranking.inputs(ranking_origin));
     let speeds = speed_range(&circuit, pump_index, request.sweep.speed_range);
     let grid = grid(
         &circuit,

@@ -190,18 +190,7 @@ pub fn sweep(
     let (p_ref, ref_origin) = request.db_ref_pa;
     inputs.push(Input::number("db_ref", p_ref, "Pa", ref_origin));
     let (ranking, ranking_origin) = request.ranking;
-    inputs.push(Input::number(
-        "top",
-        ranking.top as f64,
-        "1",
-        ranking_origin,
-    ));
-    inputs.push(Input::number(
-        "floor",
-        ranking.floor_db,
-        "dB",
-        ranking_origin,
-    ));
+    inputs.extend(ranking.inputs(ranking_origin));
     let count = ((high - low) / step * (1.0 + 1e-12)).floor() as usize + 1;
     if !(3..=MAX_SPEEDS).contains(&count) {
         return Err(Error::Request(format!(
