@@ -303,7 +303,8 @@ pub fn assess(
     let mut sweeps = Vec::with_capacity(points.len());
     let mut warnings: Vec<EnvelopeWarning> = Vec::new();
     // Per limit: the worst (point index, WorstSpeed, order index) so far.
-    let mut limit_worst: Vec<Vec<Option<(usize, WorstSpeed, Option<usize>)>>> =
+    type WorstSoFar = Option<(usize, WorstSpeed, Option<usize>)>;
+    let mut limit_worst: Vec<Vec<WorstSoFar>> =
         limits.iter().map(|t| vec![None; t.limits.len()]).collect();
     for (pi, (point, circuit)) in points.iter().enumerate() {
         let label = point.label();
