@@ -52,8 +52,8 @@ pub struct RippleBands {
     pub sources: Vec<SourceBands>,
 }
 
-/// The bands of `nominal` (solved from `template`'s circuit with
-/// `request`). `progress(done, planned)` counts Monte Carlo draws.
+/// The bands of `nominal` (solved from `template`'s circuit at `point`
+/// with `request`). `progress(done, planned)` counts Monte Carlo draws.
 ///
 /// # Errors
 /// [`Error::Request`] when the circuit has nothing uncertain or a drawn
@@ -61,6 +61,7 @@ pub struct RippleBands {
 /// solved or the bands do not fit in memory.
 pub fn ripple_bands(
     template: &CircuitTemplate,
+    point: &OperatingPoint,
     request: &SolveRequest,
     bands: &BandRequest,
     nominal: &SolveResult,
@@ -75,18 +76,12 @@ pub fn ripple_bands(
             crate::meanflow::resolve_line_mean_flows(c);
         }
     };
-    let p = propagate(
-        template,
-        &OperatingPoint::default(),
-        &prepare,
-        &ripple_outputs,
-        bands,
-        progress,
-    )
-    .map_err(|e| match e {
-        BandError::NothingUncertain | BandError::Input(_) => Error::Request(e.to_string()),
-        other => Error::failed("uncertainty bands of the ripple", other),
-    })?;
+    let p = propagate(template, point, &prepare, &ripple_outputs, bands, progress).map_err(
+        |e| match e {
+            BandError::NothingUncertain | BandError::Input(_) => Error::Request(e.to_string()),
+            other => Error::failed("uncertainty bands of the ripple", other),
+        },
+    )?;
     // the layout of `ripple_outputs`: every amplitude (source, point,
     // order), then each point's rms and peak-to-peak
     let amplitudes: usize = nominal
