@@ -7,7 +7,6 @@ use super::common::{self, Outputs, UsageError};
 use super::ranges::{self, Progress};
 use clap::{Args, ValueEnum};
 use ripline::analysis::silencer::WithoutReference;
-use ripline::elements::ElementKind;
 use ripline::plot;
 use ripline::render::silencer as render;
 use ripline::results::silencer::{SilencerRequest, silencer};
@@ -40,9 +39,10 @@ pub struct SilencerArgs {
     /// are simply removed).
     #[arg(long, value_enum, default_value = "pipe")]
     without: Without,
-    /// The tube whose characteristic impedance is the reference on both sides
-    /// for the transmission loss (default: the pipes met at each end).
-    #[arg(long, value_name = "TUBE")]
+    /// The tube or hose whose characteristic impedance is the reference on
+    /// both sides for the transmission loss (default: the lines met at each
+    /// end).
+    #[arg(long, value_name = "LINE")]
     reference: Option<String>,
     /// Write TL and IL versus frequency as CSV
     /// (frequency_hz,transmission_loss_db,insertion_loss_db).
@@ -79,10 +79,11 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     let reference_tube = match &args.reference {
         Some(name) => {
             let i = ranges::element(circuit, name)?;
-            if !matches!(circuit.elements[i].kind, ElementKind::Tube(_)) {
-                return Err(
-                    UsageError(format!("--reference {name}: `{name}` is not a tube")).into(),
-                );
+            if circuit.elements[i].kind.line().is_none() {
+                return Err(UsageError(format!(
+                    "--reference {name}: `{name}` is not a tube or a hose"
+                ))
+                .into());
             }
             Some(i)
         }
