@@ -143,7 +143,7 @@ fn rules_are_flagged_then_hard() {
     let mut lines = table.lines();
     assert_eq!(
         lines.next().unwrap(),
-        "evaluation,stage,objective_pa,objective_db,keeps_rules,gas_volume_m3"
+        "evaluation,stage,objective_pa,objective_db,keeps_rules,size,margin_db,gas_volume_m3"
     );
     let rows: Vec<&str> = lines.collect();
     assert_eq!(
@@ -272,4 +272,107 @@ fn silencer_takes_a_hose_as_reference_line() {
     }
     // V/B: 0.25 L over a bulk modulus between 0.5 and 2.5 GPa
     assert!(x0 > 0.25e-3 / 2.5e9 && x0 < 0.25e-3 / 0.5e9, "{x0}");
+}
+
+/// A stiff source (no source volume) feeding a resistance R = 1e10 Pa·s/m³
+/// (an orifice and a load valve in series) with a closed side branch teed
+/// off at the pump, lossless and rigid, one harmonic at one speed:
+/// 9 × 1500 rpm = 225 Hz.
+const BRANCH: &str = "\
+title: smallest side branch (invented test circuit)
+fluid: {density: 870 kg/m3, bulk_modulus: 1.6 GPa, viscosity: 32 cSt}
+line_model: lossless
+harmonics: 1
+pump: {node: a, speed: 1500 rpm, pumping_elements: 9,
+       flow_ripple: [{harmonic: 1, amplitude: 1 L/min}], source_impedance: {volume: 0}}
+elements:
+  - {name: branch, kind: side_branch, at: a, length: 0.3 m, bore: 10 mm, rigid: true}
+  - {name: valve, kind: orifice, from: a, to: b, resistance: 4e9}
+  - {name: load, kind: load_valve, at: b, resistance: 6e9}
+taps:
+  - {name: outlet, node: a}
+limits:
+  - {tap: outlet, rms: LIMIT}
+";
+
+// The closed branch's input admittance is j·tan(kL)/Zc (the quarter-wave
+// law, Kinsler et al., *Fundamentals of Acoustics*, ch. 10), so at the node
+// |P| = Q/√(1/R² + tan²(kL)/Zc²), falling from Q·R at L = 0 to zero at
+// L = λ/4. The smallest length with P_rms ≤ P_lim is
+// L* = atan(Zc·√(Q²/(2·P_lim²) − 1/R²))/k, k = 2πf/c, c = √(B/ρ),
+// Zc = ρc/A: solved here by hand, against tune's search.
+#[test]
+fn the_smallest_side_branch_meeting_a_limit_is_the_quarter_wave_law() {
+    let dir = scratch("smallest");
+    let file = dir.join("branch.yaml");
+    std::fs::write(&file, BRANCH.replace("LIMIT", "0.5 bar")).unwrap();
+    let out = dir.join("t.json");
+    let designs = dir.join("d.csv");
+    let report = ok(&ripline(&[
+        "tune",
+        file.to_str().unwrap(),
+        "--element",
+        "branch",
+        "--vary",
+        "length=0.2m..1.45m",
+        "--objective",
+        "smallest",
+        "--size",
+        "length",
+        "--json",
+        out.to_str().unwrap(),
+        "--designs-csv",
+        designs.to_str().unwrap(),
+    ]));
+    let (rho, b, r) = (870.0f64, 1.6e9f64, 1e10f64);
+    let c = (b / rho).sqrt();
+    let area = std::f64::consts::PI * 0.005f64.powi(2);
+    let zc = rho * c / area;
+    let q = 1e-3 / 60.0;
+    let p_lim = 0.5e5;
+    let k = 2.0 * std::f64::consts::PI * 225.0 / c;
+    let expected = (zc * (q * q / (2.0 * p_lim * p_lim) - 1.0 / (r * r)).sqrt()).atan() / k;
+    let v = json(&out);
+    let best = v["result"]["parameters"][0]["best"].as_f64().unwrap();
+    assert!(
+        (best / expected - 1.0).abs() < 1e-4,
+        "{best} m against the law's {expected} m\n{report}"
+    );
+    let s = &v["result"]["smallest"];
+    assert_eq!(s["met"], true);
+    let margin = s["tightest"]["margin_db"].as_f64().unwrap();
+    assert!((0.0..0.01).contains(&margin), "{margin}");
+    assert!(
+        report.contains("smallest length meeting every limit"),
+        "{report}"
+    );
+    assert!(std::fs::read_to_string(&designs).unwrap().starts_with(
+        "evaluation,stage,objective_pa,objective_db,keeps_rules,size,margin_db,length_m\n"
+    ));
+
+    // a limit no branch within the bounds meets (the load alone gives
+    // Q·R/√2 = 1.18 bar; a 0.2..0.4 m branch brings it to 1.13 bar at
+    // best): reported with the tap that fails, exit code 3
+    let file = dir.join("tight.yaml");
+    std::fs::write(&file, BRANCH.replace("LIMIT", "0.1 bar")).unwrap();
+    let o = ripline(&[
+        "tune",
+        file.to_str().unwrap(),
+        "--element",
+        "branch",
+        "--vary",
+        "length=0.2m..0.4m",
+        "--objective",
+        "smallest",
+    ]);
+    assert_eq!(o.status.code(), Some(3), "{}", text(&o.stderr));
+    let report = text(&o.stdout);
+    assert!(
+        report.contains(
+            "NO DESIGN within the bounds meets the limits: the nearest misses `outlet` rms: 0.1 bar"
+        ),
+        "{report}"
+    );
+    // the nearest is the longest branch allowed
+    assert!(report.contains("length: 400.0 mm"), "{report}");
 }

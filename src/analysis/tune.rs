@@ -37,6 +37,7 @@
 
 use super::ripple::{report_points, tap_pressure};
 use super::search::{golden_section_max, halton, nelder_mead_in_box};
+use super::tune_limits::{LimitGoal, Tightest, tightest_limit};
 use super::tune_rules::{RuleCheck, RuleContext, Rules};
 use super::worst::{Measure, SpeedGrid, WorstSettings, worst_speed};
 use crate::circuit::{Circuit, TapLocation};
@@ -626,6 +627,21 @@ pub enum TuneError {
     /// The design as given cannot be evaluated.
     #[error("the circuit as given cannot be evaluated: {0}")]
     Baseline(String),
+    /// The smallest-silencer objective on a kind without that size.
+    #[error(
+        "a `{kind}` has no {size} to minimise (length: side branches and expansion chambers; volume: those, resonators and dampers)"
+    )]
+    NoSize {
+        /// The element's kind.
+        kind: &'static str,
+        /// The size asked for.
+        size: &'static str,
+    },
+    /// The smallest-silencer objective without limits.
+    #[error(
+        "the smallest-silencer objective needs limits: give the circuit file a `limits` section"
+    )]
+    NoLimits,
     /// No candidate in the bounds could be evaluated.
     #[error("no design within the bounds gives a valid circuit: {0}")]
     NothingValid(String),
@@ -703,8 +719,14 @@ pub struct Design {
     /// The varied parameters' values (SI), in the order of the bounds.
     pub values: Vec<f64>,
     /// Its objective in Pa; `None` when the design is not valid (not
-    /// physical, not solvable, or breaking a hard rule).
+    /// physical, not solvable, or breaking a hard rule), and with the
+    /// smallest-silencer objective (which looks at the limits instead).
     pub objective_pa: Option<f64>,
+    /// Smallest-silencer objective: its size (SI, see
+    /// [`super::tune_limits::SizeMeasure`]).
+    pub size: Option<f64>,
+    /// Smallest-silencer objective: its margin to the tightest limit, dB.
+    pub margin_db: Option<f64>,
     /// Whether it keeps every practical rule.
     pub keeps_rules: bool,
     /// The search stage: `global` or `local`.
@@ -755,6 +777,21 @@ pub struct TuneResult {
     pub rule_context: RuleContext,
     /// Parameters the objective cannot separate near the optimum.
     pub degeneracies: Vec<Degeneracy>,
+    /// Smallest-silencer objective: the best design's tightest limit
+    /// (`None` without that objective, or when no limited point has
+    /// ripple); a negative margin means no design in the bounds meets the
+    /// limits and this is the nearest.
+    pub tightest: Option<Tightest>,
+    /// The same for the design as in the file.
+    pub tightest_before: Option<Tightest>,
+}
+
+/// What one design scored in the search.
+struct Score {
+    cost: f64,
+    objective_pa: Option<f64>,
+    size: Option<f64>,
+    margin_db: Option<f64>,
 }
 
 impl TuneProblem<'_> {
@@ -906,21 +943,44 @@ impl TuneProblem<'_> {
         Ok(RippleSummary::combine(self.evaluator.objective, parts))
     }
 
+    /// `state` with the element rebuilt from `values` (unchanged when a
+    /// load case cut the element off).
+    fn variant(&self, state: &Circuit, values: &[f64]) -> Result<Circuit, String> {
+        let name = &self.circuit.elements[self.element].name;
+        let mut circuit = state.clone();
+        if let Some(i) = state.element_id(name) {
+            let mut kind = state.elements[i].kind.clone();
+            for (b, &v) in self.bounds.iter().zip(values) {
+                kind = b.parameter.apply(&kind, v, &state.fluid)?;
+            }
+            circuit.elements[i].kind = kind;
+        }
+        Ok(circuit)
+    }
+
     /// The ripple with the element rebuilt from `values` (in every state
     /// that has it: a load case may cut the element off).
     fn evaluate_values(&self, values: &[f64]) -> Result<RippleSummary, String> {
-        let name = &self.circuit.elements[self.element].name;
-        self.evaluate_states(|state| {
-            let mut circuit = state.clone();
-            if let Some(i) = state.element_id(name) {
-                let mut kind = state.elements[i].kind.clone();
-                for (b, &v) in self.bounds.iter().zip(values) {
-                    kind = b.parameter.apply(&kind, v, &state.fluid)?;
-                }
-                circuit.elements[i].kind = kind;
-            }
-            Ok(circuit)
-        })
+        self.evaluate_states(|state| self.variant(state, values))
+    }
+
+    /// The tightest limit of the design `values` (`None`: as in the file)
+    /// over every state.
+    fn tightest(
+        &self,
+        values: Option<&[f64]>,
+        goal: &LimitGoal,
+    ) -> Result<Option<Tightest>, String> {
+        let circuits = self
+            .states()
+            .into_iter()
+            .map(|s| match values {
+                Some(v) => self.variant(s, v),
+                None => Ok(s.clone()),
+            })
+            .collect::<Result<Vec<_>, _>>()?;
+        let refs: Vec<&Circuit> = circuits.iter().collect();
+        tightest_limit(&refs, goal, &self.evaluator.speeds_rev_s)
     }
 
     fn values_at(&self, u: &[f64]) -> Vec<f64> {
@@ -957,7 +1017,77 @@ impl TuneProblem<'_> {
         rules: &Rules,
         progress: &mut dyn FnMut(usize),
     ) -> Result<TuneResult, TuneError> {
+        self.run(settings, rules, None, progress)
+    }
+
+    /// Searches for the smallest design that meets every limit of `goal`
+    /// over the states ([`super::tune_limits`]); the result's `tightest`
+    /// says how near the best design is to its tightest limit (negative
+    /// margin: no design in the bounds meets them).
+    ///
+    /// # Errors
+    /// As [`Self::solve`], and [`TuneError::NoSize`] / [`TuneError::NoLimits`].
+    pub fn solve_smallest(
+        &self,
+        settings: SearchSettings,
+        rules: &Rules,
+        goal: &LimitGoal,
+        progress: &mut dyn FnMut(usize),
+    ) -> Result<TuneResult, TuneError> {
+        if goal.limits.iter().all(|t| t.limits.is_empty()) {
+            return Err(TuneError::NoLimits);
+        }
+        let kind = &self.circuit.elements[self.element].kind;
+        if goal.size.of(kind).is_none() {
+            return Err(TuneError::NoSize {
+                kind: kind.name(),
+                size: goal.size.name(),
+            });
+        }
+        self.run(settings, rules, Some(goal), progress)
+    }
+
+    fn run(
+        &self,
+        settings: SearchSettings,
+        rules: &Rules,
+        goal: Option<&LimitGoal>,
+        progress: &mut dyn FnMut(usize),
+    ) -> Result<TuneResult, TuneError> {
         self.validate()?;
+        // sizes are scaled by the largest at the bounds' corners
+        let scale = goal.map_or(1.0, |g| {
+            let ends = [
+                self.bounds.iter().map(|b| b.low).collect::<Vec<_>>(),
+                self.bounds.iter().map(|b| b.high).collect(),
+            ];
+            ends.iter()
+                .filter_map(|v| self.element_with(v).ok())
+                .filter_map(|k| g.size.of(&k))
+                .fold(0.0, f64::max)
+                .max(f64::MIN_POSITIVE)
+        });
+        let score = |values: &[f64]| -> Result<Score, String> {
+            match goal {
+                None => self.evaluate_values(values).map(|s| Score {
+                    cost: s.objective_pa,
+                    objective_pa: Some(s.objective_pa),
+                    size: None,
+                    margin_db: None,
+                }),
+                Some(g) => {
+                    let kind = self.element_with(values)?;
+                    let size = g.size.of(&kind).unwrap_or(f64::INFINITY);
+                    let t = self.tightest(Some(values), g)?;
+                    Ok(Score {
+                        cost: super::tune_limits::cost(size, scale, t.as_ref()),
+                        objective_pa: None,
+                        size: Some(size),
+                        margin_db: t.map(|t| t.margin_db),
+                    })
+                }
+            }
+        };
         let before = self
             .evaluate_states(|state| Ok(state.clone()))
             .map_err(TuneError::Baseline)?;
@@ -966,6 +1096,7 @@ impl TuneProblem<'_> {
         let mut count = 0usize;
         let mut last_error = String::new();
         let mut designs: Vec<Design> = Vec::new();
+        let mut costs: Vec<f64> = Vec::new();
         let mut stage = "global";
         let mut cost = |u: &[f64], stage: &'static str| -> f64 {
             count += 1;
@@ -975,25 +1106,29 @@ impl TuneProblem<'_> {
                 .element_with(&values)
                 .map(|k| rules.check(&k, &context).iter().all(|c| c.pass))
                 .unwrap_or(true);
-            let objective = if rules.hard && !keeps_rules {
+            let scored = if rules.hard && !keeps_rules {
                 last_error = "every design tried breaks a practical rule".into();
                 None
             } else {
-                match self.evaluate_values(&values) {
-                    Ok(s) => Some(s.objective_pa),
+                match score(&values) {
+                    Ok(s) => Some(s),
                     Err(e) => {
                         last_error = e;
                         None
                     }
                 }
             };
+            let cost = scored.as_ref().map_or(f64::INFINITY, |s| s.cost);
             designs.push(Design {
                 values,
-                objective_pa: objective,
+                objective_pa: scored.as_ref().and_then(|s| s.objective_pa),
+                size: scored.as_ref().and_then(|s| s.size),
+                margin_db: scored.as_ref().and_then(|s| s.margin_db),
                 keeps_rules,
                 stage,
             });
-            objective.unwrap_or(f64::INFINITY)
+            costs.push(cost);
+            cost
         };
 
         // Global stage.
@@ -1075,7 +1210,27 @@ impl TuneProblem<'_> {
         let Some((u, _)) = best_u else {
             return Err(TuneError::NothingValid(last_error));
         };
-        let best = self.values_at(&u);
+        let mut best = self.values_at(&u);
+        // the limits objective: the best design evaluated (the search's
+        // last step may sit just across the edge of the region that meets
+        // the limits)
+        if goal.is_some()
+            && let Some(i) = (0..costs.len())
+                .filter(|&i| costs[i].is_finite())
+                .min_by(|&a, &b| costs[a].total_cmp(&costs[b]))
+        {
+            best = designs[i].values.clone();
+        }
+        let tightest = goal
+            .map(|g| self.tightest(Some(&best), g))
+            .transpose()
+            .map_err(TuneError::NothingValid)?
+            .flatten();
+        let tightest_before = goal
+            .map(|g| self.tightest(None, g))
+            .transpose()
+            .map_err(TuneError::Baseline)?
+            .flatten();
         let after = self
             .evaluate_values(&best)
             .map_err(TuneError::NothingValid)?;
@@ -1122,6 +1277,8 @@ impl TuneProblem<'_> {
             rule_checks,
             rule_context: context,
             degeneracies,
+            tightest,
+            tightest_before,
         })
     }
 }

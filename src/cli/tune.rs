@@ -7,6 +7,7 @@ use super::ranges::{self, Progress};
 use anyhow::Context;
 use clap::{Args, ValueEnum};
 use ripline::analysis::tune::{Bound, Objective, Parameter};
+use ripline::analysis::tune_limits::{LimitGoal, SizeMeasure};
 use ripline::analysis::tune_rules::Rules;
 use ripline::io::gas_pressure::parse_gas_pressure;
 use ripline::plot;
@@ -22,6 +23,17 @@ enum ObjectiveArg {
     Worst,
     /// The rms over the speeds of the overall rms ripple.
     Rms,
+    /// The smallest silencer (see --size) meeting every limit of the file's
+    /// `limits` section.
+    Smallest,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum SizeArg {
+    /// Bore area × length, cavity or gas volume.
+    Volume,
+    /// Length of a side branch or chamber.
+    Length,
 }
 
 #[derive(Debug, Args)]
@@ -43,6 +55,9 @@ pub struct TuneArgs {
     /// How the ripple over the speeds becomes one number.
     #[arg(long, value_enum, default_value = "worst")]
     objective: ObjectiveArg,
+    /// What `--objective smallest` minimises.
+    #[arg(long, value_enum, default_value = "volume")]
+    size: SizeArg,
     /// The pump (or a shaft: its first pump); default: the first pump.
     #[arg(long, value_name = "NAME")]
     pump: Option<String>,
@@ -203,8 +218,13 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
         );
     }
     let loaded = common::load_circuit(Some(&args.file))?;
-    let envelope = if args.envelope {
-        let file = ripline::io::load_circuit_file(&args.file)?;
+    let smallest = args.objective == ObjectiveArg::Smallest;
+    let file = if args.envelope || smallest {
+        Some(ripline::io::load_circuit_file(&args.file)?)
+    } else {
+        None
+    };
+    let envelope = if let (true, Some(file)) = (args.envelope, &file) {
         if file.envelope.is_none() {
             return Err(UsageError(format!(
                 "--envelope: {} has no `envelope` section",
@@ -225,11 +245,32 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     ])?;
     let circuit = &loaded.circuit;
     let (fluid_states, notes) = fluid_states(&args)?;
+    let pump_index = ranges::pump_index(circuit, args.pump.as_deref())?;
+    let goal = match &file {
+        Some(f) if smallest => {
+            if f.limits.is_empty() {
+                return Err(UsageError(format!(
+                    "--objective smallest: {} has no `limits` section to meet",
+                    args.file.display()
+                ))
+                .into());
+            }
+            Some(LimitGoal {
+                limits: f.limits.clone(),
+                shaft: Some(circuit.pumps[pump_index].name.clone()),
+                size: match args.size {
+                    SizeArg::Volume => SizeMeasure::Volume,
+                    SizeArg::Length => SizeMeasure::Length,
+                },
+            })
+        }
+        _ => None,
+    };
     let request = TuneRequest {
         element: ranges::element(circuit, &args.element)?,
         bounds,
         tap: ranges::point(circuit, args.tap.as_deref())?,
-        pump_index: ranges::pump_index(circuit, args.pump.as_deref())?,
+        pump_index,
         speed_rev_s: args
             .speed
             .as_deref()
@@ -243,7 +284,7 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
         speed_points,
         harmonics: common::harmonics_option(args.harmonics)?,
         objective: match args.objective {
-            ObjectiveArg::Worst => Objective::Worst,
+            ObjectiveArg::Worst | ObjectiveArg::Smallest => Objective::Worst,
             ObjectiveArg::Rms => Objective::Rms,
         },
         samples: args.samples,
@@ -251,6 +292,7 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
         fluid_states,
         envelope,
         rules,
+        goal,
         notes,
     };
     let progress = Progress::new(0, "searching");
@@ -276,7 +318,14 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
             render::DesignsChart::Map(m) => plot::heat_map(tmp, &m),
         }
     })?;
-    outputs.finish(json.as_deref(), "tune", &result, render::text)
+    outputs.finish(json.as_deref(), "tune", &result, render::text)?;
+    match &result.smallest {
+        Some(s) if !s.met => Err(common::LimitsExceeded(
+            "no design within the bounds meets every limit (the nearest is reported)".into(),
+        )
+        .into()),
+        _ => Ok(()),
+    }
 }
 
 /// The practical rules from the options.

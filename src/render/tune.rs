@@ -5,7 +5,7 @@ use super::table::{Align, DIGITS, Quantity, Table, Unit, sig};
 use super::{heading, reference_text};
 use crate::analysis::tune_rules::RuleKind;
 use crate::plot;
-use crate::results::tune::{ParameterResult, Ripple, TuneResult};
+use crate::results::tune::{ParameterResult, Ripple, TightestResult, TuneResult};
 use std::io::Write;
 
 /// Header of the ripple table (`tune --csv`): one row per condition, the
@@ -26,13 +26,17 @@ pub const TUNE_HEADER: [&str; 6] = [
 /// The header of the designs table (`tune --designs-csv`) before the
 /// parameter columns: one row per evaluated design, in the order the
 /// search made them; `objective_pa` is empty for a design that is not
-/// valid; then one column per varied parameter, `<name>_<SI unit>`.
-pub const DESIGNS_HEADER: [&str; 5] = [
+/// valid or with `--objective smallest`, which fills `size` (SI: m³ or m)
+/// and `margin_db` (to the tightest limit, negative when exceeded); then
+/// one column per varied parameter, `<name>_<SI unit>`.
+pub const DESIGNS_HEADER: [&str; 7] = [
     "evaluation",
     "stage",
     "objective_pa",
     "objective_db",
     "keeps_rules",
+    "size",
+    "margin_db",
 ];
 
 /// The display unit of a parameter row, from its largest value; gas
@@ -220,6 +224,7 @@ pub fn text(r: &TuneResult, out: &mut impl Write) -> std::io::Result<()> {
             )?,
         }
     }
+    smallest_text(r, out)?;
     writeln!(out)?;
     rules_text(r, out)?;
     writeln!(out)?;
@@ -410,6 +415,8 @@ pub fn designs_csv(r: &TuneResult, out: impl Write) -> Result<(), csv::Error> {
                     format!("{}", 20.0 * (v / r.db_ref_pa).log10())
                 }),
             d.keeps_rules.to_string(),
+            d.size.map_or_else(String::new, |v| format!("{v}")),
+            d.margin_db.map_or_else(String::new, |v| format!("{v}")),
         ];
         row.extend(d.values.iter().map(|v| format!("{v}")));
         w.write_record(&row)?;
@@ -601,4 +608,62 @@ pub enum DesignsChart {
     Line(plot::LineChart),
     /// Two or three parameters.
     Map(plot::HeatMap),
+}
+
+/// The smallest-silencer objective: sizes and the tightest limits.
+fn smallest_text(r: &TuneResult, out: &mut impl Write) -> std::io::Result<()> {
+    let Some(sm) = &r.smallest else {
+        return Ok(());
+    };
+    let size = |v: f64| match sm.unit {
+        "m3" => Quantity::Volume.unit_for(v).show(v),
+        _ => Quantity::Length.unit_for(v).show(v),
+    };
+    let tight = |t: &TightestResult| {
+        let unit = Quantity::Pressure.unit_for_all([t.value_pa, t.limit_pa]);
+        format!(
+            "`{}` {} (limit {}): {} at {:.0} rpm{}, margin {:+.2} dB",
+            t.tap,
+            t.limit,
+            unit.show(t.limit_pa),
+            unit.show(t.value_pa),
+            t.speed_rev_s * 60.0,
+            t.point
+                .as_ref()
+                .map_or_else(String::new, |p| format!(", point `{p}`")),
+            t.margin_db
+        )
+    };
+    writeln!(out)?;
+    writeln!(out, "smallest {} meeting every limit:", sm.size)?;
+    let rows = [
+        ("as in the file", sm.in_file_size, &sm.tightest_in_file),
+        ("tuned", Some(sm.tuned_size), &sm.tightest),
+    ];
+    for (label, v, t) in rows {
+        writeln!(
+            out,
+            "  {label:<15} {} {}; tightest limit {}",
+            sm.size,
+            v.map_or_else(|| "—".into(), size),
+            t.as_ref()
+                .map_or_else(|| "none reached (no ripple)".into(), tight)
+        )?;
+    }
+    if !sm.met {
+        if let Some(t) = &sm.tightest {
+            writeln!(
+                out,
+                "  NO DESIGN within the bounds meets the limits: the nearest misses `{}` {} by {:.2} dB{} at {:.0} rpm",
+                t.tap,
+                t.limit,
+                -t.margin_db,
+                t.point
+                    .as_ref()
+                    .map_or_else(String::new, |p| format!(" at point `{p}`")),
+                t.speed_rev_s * 60.0
+            )?;
+        }
+    }
+    Ok(())
 }

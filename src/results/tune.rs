@@ -14,6 +14,7 @@ use crate::analysis::tune::{
     Bound, Objective, Parameter, RippleEvaluator, RippleSummary, SearchSettings, TuneProblem,
     speed_conditions,
 };
+use crate::analysis::tune_limits::{LimitGoal, Tightest};
 use crate::analysis::tune_rules::{RuleCheck, Rules};
 use crate::circuit::TapLocation;
 use crate::elements::{Element, PRESSURE_VESSEL_CAUTION, STANDARD_ATMOSPHERE_PA};
@@ -54,6 +55,9 @@ pub struct TuneRequest {
     pub envelope: Vec<(OperatingPoint, Circuit)>,
     /// The practical rules (flagged, or hard).
     pub rules: Rules,
+    /// The smallest-silencer objective: the limits to meet and the size to
+    /// minimise (`None`: minimise `objective`).
+    pub goal: Option<LimitGoal>,
     /// Remarks about the inputs to pass on as warnings.
     pub notes: Vec<Notice>,
 }
@@ -85,6 +89,50 @@ pub struct DesignRow {
     pub keeps_rules: bool,
     /// `global` or `local`.
     pub stage: &'static str,
+    /// Smallest-silencer objective: its size (SI).
+    pub size: Option<f64>,
+    /// Smallest-silencer objective: its margin to the tightest limit, dB.
+    pub margin_db: Option<f64>,
+}
+
+/// A design's tightest limit (smallest-silencer objective).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TightestResult {
+    /// The measurement point.
+    pub tap: String,
+    /// The limit as written in the file.
+    pub limit: String,
+    /// The limit's value, Pa.
+    pub limit_pa: f64,
+    /// Where: the envelope point's label or the temperature (`None`: the
+    /// circuit as written).
+    pub point: Option<String>,
+    /// Shaft speed, rev/s.
+    pub speed_rev_s: f64,
+    /// The limited quantity there, Pa.
+    pub value_pa: f64,
+    /// 20·log10(limit/value), dB (negative: exceeded).
+    pub margin_db: f64,
+}
+
+/// The smallest-silencer objective's outcome.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SmallestResult {
+    /// What is minimised: `volume` or `length`.
+    pub size: &'static str,
+    /// Its SI unit.
+    pub unit: &'static str,
+    /// The tuned design's size.
+    pub tuned_size: f64,
+    /// The file's design's size.
+    pub in_file_size: Option<f64>,
+    /// Whether the tuned design meets every limit (when not, no design in
+    /// the bounds was found that does, and the tuned one is the nearest).
+    pub met: bool,
+    /// The tuned design's tightest limit.
+    pub tightest: Option<TightestResult>,
+    /// The file's design's tightest limit.
+    pub tightest_in_file: Option<TightestResult>,
 }
 
 /// The practical rules and the tuned design against them.
@@ -247,6 +295,9 @@ pub struct TuneResult {
     pub degeneracies: Vec<DegeneracyResult>,
     /// The practical rules.
     pub rules: RulesResult,
+    /// The smallest-silencer objective's outcome (`None` for `worst` or
+    /// `rms`).
+    pub smallest: Option<SmallestResult>,
     /// Every design evaluated, in order (in `--designs-csv`, not in JSON).
     #[serde(skip)]
     pub designs: Vec<DesignRow>,
@@ -389,17 +440,23 @@ pub fn tune(
             conditions.len(),
         )));
     }
-    let found = problem
-        .solve_with_rules(settings, &request.rules, &mut |n| progress(n, budget))
-        .map_err(|e| {
-            Error::failed(
-                format!(
-                    "tuning `{}` in {file}",
-                    circuit.elements[request.element].name
-                ),
-                e,
-            )
-        })?;
+    let found = match &request.goal {
+        None => problem.solve_with_rules(settings, &request.rules, &mut |n| progress(n, budget)),
+        Some(goal) => {
+            problem.solve_smallest(settings, &request.rules, goal, &mut |n| progress(n, budget))
+        }
+    }
+    .map_err(|e| match e {
+        crate::analysis::tune::TuneError::NoSize { .. }
+        | crate::analysis::tune::TuneError::NoLimits => Error::Request(e.to_string()),
+        e => Error::failed(
+            format!(
+                "tuning `{}` in {file}",
+                circuit.elements[request.element].name
+            ),
+            e,
+        ),
+    })?;
 
     // The ripple with the silencer taken out, for scale (over the same
     // fluid states as the search).
@@ -475,12 +532,40 @@ pub fn tune(
     };
     inputs.push(Input::text(
         "objective",
-        match objective {
-            Objective::Worst => "worst",
-            Objective::Rms => "rms",
+        match (&request.goal, objective) {
+            (Some(_), _) => "smallest",
+            (None, Objective::Worst) => "worst",
+            (None, Objective::Rms) => "rms",
         },
         Origin::Request,
     ));
+    let smallest = request.goal.as_ref().map(|g| {
+        let state_label = |i: usize| {
+            points.get(i).cloned().or_else(|| {
+                temperatures_k
+                    .get(i)
+                    .map(|t| format!("{:.1} °C", t - crate::oil::ZERO_CELSIUS_K))
+            })
+        };
+        let tightest = |t: &Tightest| TightestResult {
+            tap: t.tap.clone(),
+            limit: t.limit.clone(),
+            limit_pa: t.limit_pa,
+            point: state_label(t.state),
+            speed_rev_s: t.speed_rev_s,
+            value_pa: t.value_pa,
+            margin_db: t.margin_db,
+        };
+        SmallestResult {
+            size: g.size.name(),
+            unit: g.size.unit(),
+            tuned_size: g.size.of(&found.element).unwrap_or(0.0),
+            in_file_size: g.size.of(&e.kind),
+            met: found.tightest.as_ref().is_none_or(|t| t.margin_db >= 0.0),
+            tightest: found.tightest.as_ref().map(tightest),
+            tightest_in_file: found.tightest_before.as_ref().map(tightest),
+        }
+    });
     Ok(TuneResult {
         subject: Subject {
             file: file.to_string(),
@@ -491,7 +576,17 @@ pub fn tune(
         kind: e.kind.name(),
         place: describe::place(circuit, e),
         tap: request.tap.0.clone(),
-        objective: objective.describe(),
+        objective: match &request.goal {
+            Some(g) => match g.size {
+                crate::analysis::tune_limits::SizeMeasure::Volume => {
+                    "smallest volume meeting every limit of the file"
+                }
+                crate::analysis::tune_limits::SizeMeasure::Length => {
+                    "smallest length meeting every limit of the file"
+                }
+            },
+            None => objective.describe(),
+        },
         refined_worst: objective == Objective::Worst && conditions.len() > 1,
         pump: PumpRef::of(circuit, pump_index),
         harmonics: circuit.harmonics,
@@ -545,8 +640,11 @@ pub fn tune(
                 objective_pa: d.objective_pa,
                 keeps_rules: d.keeps_rules,
                 stage: d.stage,
+                size: d.size,
+                margin_db: d.margin_db,
             })
             .collect(),
+        smallest,
         tuned_description: describe::silencer(&tuned, None),
         cautions,
         warnings,
