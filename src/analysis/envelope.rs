@@ -303,7 +303,7 @@ pub fn assess(
     let mut sweeps = Vec::with_capacity(points.len());
     let mut warnings: Vec<EnvelopeWarning> = Vec::new();
     // Per limit: the worst (point index, WorstSpeed, order index) so far.
-    let mut limit_worst: Vec<Vec<Option<(usize, WorstSpeed, Option<usize>)>>> =
+    let mut limit_worst: Vec<Vec<LimitSlot>> =
         limits.iter().map(|t| vec![None; t.limits.len()]).collect();
     for (pi, (point, circuit)) in points.iter().enumerate() {
         let label = point.label();
@@ -468,6 +468,9 @@ pub fn limited_worsts(
             .collect::<Result<_, _>>()?,
     })
 }
+
+/// The worst so far of one limit: (point index, where, order index).
+type LimitSlot = Option<(usize, WorstSpeed, Option<usize>)>;
 
 /// A text with every digit replaced, to compare warnings whose numbers
 /// differ.

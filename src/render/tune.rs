@@ -650,20 +650,20 @@ fn smallest_text(r: &TuneResult, out: &mut impl Write) -> std::io::Result<()> {
                 .map_or_else(|| "none reached (no ripple)".into(), tight)
         )?;
     }
-    if !sm.met {
-        if let Some(t) = &sm.tightest {
-            writeln!(
-                out,
-                "  NO DESIGN within the bounds meets the limits: the nearest misses `{}` {} by {:.2} dB{} at {:.0} rpm",
-                t.tap,
-                t.limit,
-                -t.margin_db,
-                t.point
-                    .as_ref()
-                    .map_or_else(String::new, |p| format!(" at point `{p}`")),
-                t.speed_rev_s * 60.0
-            )?;
-        }
+    if !sm.met
+        && let Some(t) = &sm.tightest
+    {
+        writeln!(
+            out,
+            "  NO DESIGN within the bounds meets the limits: the nearest misses `{}` {} by {:.2} dB{} at {:.0} rpm",
+            t.tap,
+            t.limit,
+            -t.margin_db,
+            t.point
+                .as_ref()
+                .map_or_else(String::new, |p| format!(" at point `{p}`")),
+            t.speed_rev_s * 60.0
+        )?;
     }
     Ok(())
 }
