@@ -10,6 +10,7 @@ mod common;
 mod fit;
 mod profile;
 mod ranges;
+mod report;
 mod response;
 mod silencer;
 mod solve;
@@ -52,6 +53,9 @@ enum Command {
     /// Ripple over a range of pump speeds: worst speed per point and every
     /// resonance crossing.
     Sweep(sweep::SweepArgs),
+    /// One self-contained HTML report of a circuit: inputs, schematic,
+    /// ripple per point, resonance check, silencers, warnings and cautions.
+    Report(report::ReportArgs),
 }
 
 /// Exit code for invalid input or usage.
@@ -82,6 +86,7 @@ pub fn main() -> ExitCode {
         Command::Silencer(args) => silencer::run(args),
         Command::Tune(args) => tune::run(args),
         Command::Sweep(args) => sweep::run(args),
+        Command::Report(args) => report::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

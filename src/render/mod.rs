@@ -12,6 +12,7 @@ pub mod check;
 pub mod fit;
 pub mod json;
 pub mod profile;
+pub mod report;
 pub mod response;
 pub mod silencer;
 pub mod solve;

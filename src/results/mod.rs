@@ -14,7 +14,9 @@
 pub mod check;
 pub mod describe;
 pub mod fit;
+pub mod inputs;
 pub mod profile;
+pub mod report;
 pub mod response;
 pub mod setup;
 pub mod silencer;
