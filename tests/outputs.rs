@@ -715,7 +715,7 @@ fn the_json_schema_document_lists_every_key() {
         .unwrap();
     let dir = scratch("json-doc");
     let damper = "networks/drill_rig_feed_damper.yaml";
-    let runs: [(&str, Vec<&str>); 8] = [
+    let runs: [(&str, Vec<&str>); 9] = [
         ("solve", vec![]),
         ("check", vec![]),
         ("profile", vec![]),
@@ -756,6 +756,10 @@ fn the_json_schema_document_lists_every_key() {
             "fit",
             vec!["networks/bench/demo_bench.yaml", "--draws", "5"],
         ),
+        (
+            "assess",
+            vec!["networks/drill_rig_feed.yaml", "--speeds", "21"],
+        ),
     ];
     for (cmd, args) in runs {
         let file = path(&dir, &format!("{cmd}.json"));
@@ -773,4 +777,31 @@ fn the_json_schema_document_lists_every_key() {
         assert_eq!(documented_keys(&doc, cmd), keys, "{cmd}");
     }
     std::fs::remove_dir_all(dir).unwrap();
+}
+
+/// Every picture of the README's gallery is committed, is a PNG, and is
+/// named by the `--plot`/`--waveform` of a command shown in the gallery
+/// (the sweep's levels chart is the `-levels` companion of its map).
+#[test]
+fn the_gallery_pictures_exist_and_their_commands_are_shown() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let readme = std::fs::read_to_string(root.join("README.md")).unwrap();
+    let gallery = &readme[readme.find("## Gallery").unwrap()..];
+    let gallery = &gallery[..gallery[3..].find("\n## ").unwrap()];
+    let pictures: Vec<&str> = gallery
+        .split("](")
+        .skip(1)
+        .filter_map(|s| s.split(')').next())
+        .filter(|s| s.ends_with(".png"))
+        .collect();
+    assert!(pictures.len() >= 8, "{pictures:?}");
+    for p in pictures {
+        let bytes = std::fs::read(root.join(p)).unwrap_or_else(|_| panic!("{p} is missing"));
+        assert!(bytes.starts_with(b"\x89PNG"), "{p}");
+        let shown = p.replace("-levels", "");
+        assert!(
+            gallery.contains(&format!(" {shown}")),
+            "no command writes {p}"
+        );
+    }
 }

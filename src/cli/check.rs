@@ -53,17 +53,9 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
     let result = check(loaded.circuit, &loaded.source, &request)?;
     common::print_warnings(&result.warnings);
 
-    if let Some(path) = &csv {
-        outputs.csv(path, |buf| render::csv(&result, buf))?;
-    }
-    if let Some(path) = &plot {
-        outputs.plot(path, |tmp| {
-            plot::grouped_bar_chart(tmp, &render::chart(&result))
-        })?;
-    }
-    if let Some(path) = &json {
-        outputs.json(path, "check", &result)?;
-    }
-    outputs.commit()?;
-    common::print(|out| render::text(&result, out))
+    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
+    outputs.plot_to(plot.as_deref(), |tmp| {
+        plot::grouped_bar_chart(tmp, &render::chart(&result))
+    })?;
+    outputs.finish(json.as_deref(), "check", &result, render::text)
 }

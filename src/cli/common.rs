@@ -1,6 +1,6 @@
 //! Helpers shared by the commands: loading circuits, exit codes, output files.
 
-use super::{EXIT_COMPUTE, EXIT_INPUT};
+use super::{EXIT_COMPUTE, EXIT_INPUT, EXIT_LIMITS};
 use anyhow::Context;
 use ripline::io::InputError;
 use ripline::io::output::{OutputError, StagedOutputs};
@@ -51,8 +51,18 @@ pub fn cli_quantity(
     Ok(v)
 }
 
-/// Exit code for an error: 2 for input and usage errors, 1 otherwise.
+/// Limits of `assess` exceeded (exit code 3): not a failure of the
+/// command, whose outputs are complete.
+#[derive(Debug, thiserror::Error)]
+#[error("{0}")]
+pub struct LimitsExceeded(pub String);
+
+/// Exit code for an error: 2 for input and usage errors, 3 for exceeded
+/// limits, 1 otherwise.
 pub fn exit_code(err: &anyhow::Error) -> u8 {
+    if err.chain().any(|c| c.is::<LimitsExceeded>()) {
+        return EXIT_LIMITS;
+    }
     let input = err.chain().any(|c| {
         c.is::<InputError>()
             || c.is::<UsageError>()
@@ -267,6 +277,40 @@ impl Outputs {
         self.0
             .stage_with(path, draw)
             .with_context(|| format!("drawing {}", path.display()))
+    }
+
+    /// Stages a CSV table when `path` is given.
+    pub fn csv_to(
+        &mut self,
+        path: Option<&Path>,
+        write: impl FnOnce(&mut std::io::BufWriter<std::fs::File>) -> Result<(), csv::Error>,
+    ) -> anyhow::Result<()> {
+        path.map_or(Ok(()), |p| self.csv(p, write))
+    }
+
+    /// Stages a picture when `path` is given.
+    pub fn plot_to(
+        &mut self,
+        path: Option<&Path>,
+        draw: impl FnOnce(&Path) -> Result<(), ripline::plot::PlotError>,
+    ) -> anyhow::Result<()> {
+        path.map_or(Ok(()), |p| self.plot(p, draw))
+    }
+
+    /// Stages the JSON document of `result` when `json` is given, moves
+    /// every staged file into place and prints the text report.
+    pub fn finish<T: serde::Serialize>(
+        mut self,
+        json: Option<&Path>,
+        command: &str,
+        result: &T,
+        text: impl FnOnce(&T, &mut std::io::StdoutLock<'static>) -> std::io::Result<()>,
+    ) -> anyhow::Result<()> {
+        if let Some(path) = json {
+            self.json(path, command, result)?;
+        }
+        self.commit()?;
+        print(|out| text(result, out))
     }
 
     /// Moves every staged file into place (see [`commit`]).

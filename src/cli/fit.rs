@@ -140,9 +140,7 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
     let result = result?;
     common::print_warnings(&result.warnings);
 
-    if let Some(path) = &csv {
-        outputs.csv(path, |buf| render::csv(&result, buf))?;
-    }
+    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
     if let Some(path) = &source_path {
         let mut bytes = Vec::new();
         write_source_file(
@@ -155,13 +153,8 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
         )?;
         outputs.bytes(path, &bytes)?;
     }
-    if let Some(path) = &plot {
-        let charts = render::charts(&result);
-        outputs.plot(path, |tmp| plot::stacked_line_charts(tmp, &charts))?;
-    }
-    if let Some(path) = &json {
-        outputs.json(path, "fit", &result)?;
-    }
-    outputs.commit()?;
-    common::print(|out| render::text(&result, out))
+    outputs.plot_to(plot.as_deref(), |tmp| {
+        plot::stacked_line_charts(tmp, &render::charts(&result))
+    })?;
+    outputs.finish(json.as_deref(), "fit", &result, render::text)
 }

@@ -7,6 +7,7 @@ use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use ripline::Circuit;
 use ripline::analysis::ripple::report_points;
 use ripline::circuit::TapLocation;
+use ripline::results::setup::FrequencySweep;
 use ripline::units::Dimension;
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
@@ -208,19 +209,9 @@ pub fn band_option(text: &str) -> anyhow::Result<(f64, f64)> {
     Ok(band)
 }
 
-/// The options of [`SweepArgs`] checked and resolved against a circuit.
-pub struct Resolved {
-    pub pump_index: usize,
-    pub speed_rev_s: Option<f64>,
-    pub speed_range: Option<(f64, f64)>,
-    pub band: Option<(f64, f64)>,
-    pub points: Option<usize>,
-    pub harmonics: Option<u32>,
-}
-
 impl SweepArgs {
     /// Checks the options and looks the pump up in `circuit`.
-    pub fn resolve(&self, circuit: &Circuit) -> anyhow::Result<Resolved> {
+    pub fn resolve(&self, circuit: &Circuit) -> anyhow::Result<FrequencySweep> {
         let points = match self.points {
             Some(n) if !(10..=200_000).contains(&n) => {
                 return Err(UsageError(format!(
@@ -230,7 +221,7 @@ impl SweepArgs {
             }
             n => n,
         };
-        Ok(Resolved {
+        Ok(FrequencySweep {
             pump_index: pump_index(circuit, self.pump.as_deref())?,
             speed_rev_s: self
                 .speed

@@ -44,15 +44,7 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
         ("--json", json.as_deref()),
     ])?;
     let sweep = args.sweep.resolve(&loaded.circuit)?;
-    let request = ResponseRequest {
-        pump_index: sweep.pump_index,
-        speed_rev_s: sweep.speed_rev_s,
-        speed_range: sweep.speed_range,
-        harmonics: sweep.harmonics,
-        band: sweep.band,
-        points: sweep.points,
-        margin,
-    };
+    let request = ResponseRequest { sweep, margin };
     let progress = Progress::new(0, "frequency response");
     let result = response(
         loaded.circuit,
@@ -63,16 +55,9 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
     progress.finish();
     common::print_warnings(&result.warnings);
 
-    if let Some(path) = &csv {
-        outputs.csv(path, |buf| render::csv(&result, buf))?;
-    }
-    if let Some(path) = &plot {
-        let charts = render::charts(&result);
-        outputs.plot(path, |tmp| plot::stacked_line_charts(tmp, &charts))?;
-    }
-    if let Some(path) = &json {
-        outputs.json(path, "response", &result)?;
-    }
-    outputs.commit()?;
-    common::print(|out| render::text(&result, out))
+    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
+    outputs.plot_to(plot.as_deref(), |tmp| {
+        plot::stacked_line_charts(tmp, &render::charts(&result))
+    })?;
+    outputs.finish(json.as_deref(), "response", &result, render::text)
 }

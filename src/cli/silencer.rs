@@ -97,12 +97,7 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
             Without::ZeroLength => WithoutReference::ZeroLength,
         },
         tap: ranges::point(circuit, args.tap.as_deref())?,
-        pump_index: sweep.pump_index,
-        speed_rev_s: sweep.speed_rev_s,
-        speed_range: sweep.speed_range,
-        harmonics: sweep.harmonics,
-        band: sweep.band,
-        points: sweep.points,
+        sweep,
     };
     let progress = Progress::new(0, "transmission and insertion loss");
     let result = silencer(
@@ -114,19 +109,12 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     progress.finish();
     common::print_warnings(&result.warnings);
 
-    if let Some(path) = &csv {
-        outputs.csv(path, |buf| render::csv(&result, buf))?;
-    }
-    if let Some(path) = &harmonic_csv {
-        outputs.csv(path, |buf| render::harmonic_csv(&result, buf))?;
-    }
-    if let Some(path) = &plot {
-        let charts = render::charts(&result);
-        outputs.plot(path, |tmp| plot::stacked_line_charts(tmp, &charts))?;
-    }
-    if let Some(path) = &json {
-        outputs.json(path, "silencer", &result)?;
-    }
-    outputs.commit()?;
-    common::print(|out| render::text(&result, out))
+    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
+    outputs.csv_to(harmonic_csv.as_deref(), |buf| {
+        render::harmonic_csv(&result, buf)
+    })?;
+    outputs.plot_to(plot.as_deref(), |tmp| {
+        plot::stacked_line_charts(tmp, &render::charts(&result))
+    })?;
+    outputs.finish(json.as_deref(), "silencer", &result, render::text)
 }

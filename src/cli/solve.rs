@@ -79,17 +79,10 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
     common::print_warnings(&result.warnings);
 
     // Every output is prepared before anything is shown or renamed into place.
-    if let Some(path) = &csv {
-        outputs.csv(path, |buf| render::csv(&result, buf))?;
-    }
-    if let Some(path) = &plot {
-        outputs.plot(path, |tmp| {
-            plot::grouped_bar_chart(tmp, &render::chart(&result))
-        })?;
-    }
-    if let Some(path) = &json {
-        outputs.json(path, "solve", &result)?;
-    }
+    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
+    outputs.plot_to(plot.as_deref(), |tmp| {
+        plot::grouped_bar_chart(tmp, &render::chart(&result))
+    })?;
     for path in &waveforms {
         if path
             .extension()
@@ -101,6 +94,5 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
             outputs.plot(path, |tmp| plot::stacked_line_charts(tmp, &charts))?;
         }
     }
-    outputs.commit()?;
-    common::print(|out| render::text(&result, out))
+    outputs.finish(json.as_deref(), "solve", &result, render::text)
 }

@@ -102,9 +102,7 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
     bar.finish();
     common::print_warnings(&result.warnings);
 
-    if let Some(path) = &csv {
-        outputs.csv(path, |buf| render::csv(&result, buf))?;
-    }
+    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
     if let (Some(path), Some(levels)) = (&plot, &levels) {
         if !render::map_has_ripple(&result) {
             return Err(UsageError(format!(
@@ -118,9 +116,5 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
             plot::line_chart(tmp, &render::level_chart(&result))
         })?;
     }
-    if let Some(path) = &json {
-        outputs.json(path, "sweep", &result)?;
-    }
-    outputs.commit()?;
-    common::print(|out| render::text(&result, out))
+    outputs.finish(json.as_deref(), "sweep", &result, render::text)
 }

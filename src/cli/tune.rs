@@ -205,22 +205,19 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     progress.finish();
     common::print_warnings(&result.warnings);
 
-    if let Some(path) = &csv {
-        outputs.csv(path, |buf| render::csv(&result, buf))?;
-    }
-    if let Some(path) = &plot {
-        outputs.plot(path, |tmp| plot::line_chart(tmp, &render::chart(&result)))?;
-    }
-    if let Some(path) = &json {
-        outputs.json(path, "tune", &result)?;
-    }
-    outputs.commit()?;
-    common::print(|out| render::text(&result, out))
+    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
+    outputs.plot_to(plot.as_deref(), |tmp| {
+        plot::line_chart(tmp, &render::chart(&result))
+    })?;
+    outputs.finish(json.as_deref(), "tune", &result, render::text)
 }
+
+/// The circuit at each temperature (K) of a range.
+type FluidStates = Vec<(f64, ripline::Circuit)>;
 
 /// The circuit at each temperature of `--temperatures` (none without it),
 /// and a remark when explicit fluid values stay fixed.
-fn fluid_states(args: &TuneArgs) -> anyhow::Result<(Vec<(f64, ripline::Circuit)>, Vec<Notice>)> {
+fn fluid_states(args: &TuneArgs) -> anyhow::Result<(FluidStates, Vec<Notice>)> {
     let Some(range) = &args.temperatures else {
         return Ok((Vec::new(), Vec::new()));
     };

@@ -1,8 +1,8 @@
 //! Renderers of [`CheckResult`]: the terminal report, the CSV of each
 //! pump's source flow ripple and its bar chart.
 
-use super::heading;
-use super::table::{Align, DIGITS, Quantity, Table, phase, sig};
+use super::table::{DIGITS, Quantity, sig};
+use super::{harmonic_table, heading};
 use crate::plot;
 use crate::results::check::CheckResult;
 use std::io::Write;
@@ -65,17 +65,13 @@ pub fn text(r: &CheckResult, out: &mut impl Write) -> std::io::Result<()> {
             p.speed_rev_s * 60.0
         )?;
         let unit = Quantity::Flow.unit_for_all(p.harmonics.iter().map(|h| h.flow_m3_s.amplitude));
-        let mut t = Table::new(&[("harmonic", Align::Right), ("frequency Hz", Align::Right)])
-            .column(format!("amplitude {}", unit.symbol), Align::Right)
-            .column("phase deg", Align::Right);
-        for h in &p.harmonics {
-            t.row(vec![
-                h.order.to_string(),
-                format!("{:.2}", h.freq_hz),
-                sig(unit.of(h.flow_m3_s.amplitude), DIGITS),
-                phase(h.flow_m3_s.phase_deg),
-            ]);
-        }
+        let t = harmonic_table(
+            "harmonic",
+            unit,
+            p.harmonics
+                .iter()
+                .map(|h| (h.order, h.freq_hz, h.flow_m3_s)),
+        );
         t.write(out, "    ")?;
     }
     writeln!(out, "nodes ({}):", r.nodes.len())?;

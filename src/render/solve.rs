@@ -1,26 +1,16 @@
 //! Renderers of [`SolveResult`]: the terminal report, the harmonic CSV
 //! table, the waveform CSV, the bar chart and the waveform chart.
 
-use super::table::{Align, Quantity, Table, phase, sig};
-use super::{heading, level_text};
+use super::table::Quantity;
+use super::{harmonic_table, heading, level_text};
 use crate::plot;
-use crate::results::solve::{OrderBasis, SolveResult};
+use crate::results::solve::{OrderBasis, SolveResult, SourceRipple};
 use std::io::Write;
 
-/// Header of the harmonic table (`solve --csv`) with one source.
+/// Header of the harmonic table (`solve --csv`); with pumps on several
+/// shafts, a leading `source` column (the shaft, or the pump on a shaft of
+/// its own).
 pub const RIPPLE_HEADER: [&str; 5] = [
-    "point",
-    "harmonic",
-    "frequency_hz",
-    "amplitude_pa",
-    "phase_deg",
-];
-
-/// Header of the harmonic table with several sources: [`RIPPLE_HEADER`]
-/// with a leading `source` column (the shaft, or the pump on a shaft of its
-/// own).
-pub const SOURCES_RIPPLE_HEADER: [&str; 6] = [
-    "source",
     "point",
     "harmonic",
     "frequency_hz",
@@ -87,21 +77,15 @@ pub fn text(r: &SolveResult, out: &mut impl Write) -> std::io::Result<()> {
                     .map(|h| h.pressure_pa.amplitude)
                     .chain([p.rms_pa, p.peak_to_peak_pa]),
             );
-            let mut t = Table::new(&[
-                (s.order_basis.header(), Align::Right),
-                ("frequency Hz", Align::Right),
-            ])
-            .column(format!("amplitude {}", unit.symbol), Align::Right)
-            .column("phase deg", Align::Right);
-            for h in &p.harmonics {
-                t.row(vec![
-                    h.order.to_string(),
-                    format!("{:.2}", h.freq_hz),
-                    sig(unit.of(h.pressure_pa.amplitude), super::table::DIGITS),
-                    phase(h.pressure_pa.phase_deg),
-                ]);
-            }
+            let t = harmonic_table(
+                s.order_basis.header(),
+                unit,
+                p.harmonics
+                    .iter()
+                    .map(|h| (h.order, h.freq_hz, h.pressure_pa)),
+            );
             t.write(out, "  ")?;
+            super::silent_orders_note(out, "  ", &s.silent_orders)?;
             writeln!(
                 out,
                 "  {}: {} rms, {}, {} peak-to-peak",
@@ -129,33 +113,22 @@ pub fn text(r: &SolveResult, out: &mut impl Write) -> std::io::Result<()> {
 /// # Errors
 /// The CSV writer's error.
 pub fn csv(r: &SolveResult, out: impl Write) -> Result<(), csv::Error> {
-    let mut w = csv::Writer::from_writer(out);
-    let several = r.several_sources();
-    if several {
-        w.write_record(SOURCES_RIPPLE_HEADER)?;
-    } else {
-        w.write_record(RIPPLE_HEADER)?;
-    }
-    for s in &r.sources {
-        for p in &s.points {
-            for h in &p.harmonics {
-                let row = [
-                    p.point.clone(),
-                    h.order.to_string(),
-                    format!("{}", h.freq_hz),
-                    format!("{}", h.pressure_pa.amplitude),
-                    format!("{}", h.pressure_pa.phase_deg),
-                ];
-                if several {
-                    w.write_record(std::iter::once(s.name.clone()).chain(row))?;
-                } else {
-                    w.write_record(row)?;
-                }
-            }
-        }
-    }
-    w.flush()?;
-    Ok(())
+    per_source(r, RIPPLE_HEADER, out, |s| {
+        s.points
+            .iter()
+            .flat_map(|p| {
+                p.harmonics.iter().map(|h| {
+                    [
+                        p.point.clone(),
+                        h.order.to_string(),
+                        format!("{}", h.freq_hz),
+                        format!("{}", h.pressure_pa.amplitude),
+                        format!("{}", h.pressure_pa.phase_deg),
+                    ]
+                })
+            })
+            .collect()
+    })
 }
 
 /// Writes the waveforms (solved with `waveform: true`): one row per
@@ -164,33 +137,49 @@ pub fn csv(r: &SolveResult, out: impl Write) -> Result<(), csv::Error> {
 /// # Errors
 /// The CSV writer's error.
 pub fn waveform_csv(r: &SolveResult, out: impl Write) -> Result<(), csv::Error> {
+    per_source(r, WAVEFORM_HEADER, out, |s| {
+        s.points
+            .iter()
+            .filter_map(|p| p.waveform.as_ref().map(|w| (p, w)))
+            .flat_map(|(p, w)| {
+                w.shaft_angle_deg
+                    .iter()
+                    .zip(&w.time_s)
+                    .zip(&w.pressure_pa)
+                    .map(|((a, t), v)| {
+                        [
+                            p.point.clone(),
+                            format!("{a}"),
+                            format!("{t}"),
+                            format!("{v}"),
+                        ]
+                    })
+            })
+            .collect()
+    })
+}
+
+/// Writes `header` and each source's `rows`; with several sources, a
+/// leading `source` column holds the source's name.
+fn per_source<const N: usize>(
+    r: &SolveResult,
+    header: [&str; N],
+    out: impl Write,
+    rows: impl Fn(&SourceRipple) -> Vec<[String; N]>,
+) -> Result<(), csv::Error> {
     let mut w = csv::Writer::from_writer(out);
     let several = r.several_sources();
     if several {
-        w.write_record(std::iter::once("source").chain(WAVEFORM_HEADER))?;
+        w.write_record(std::iter::once("source").chain(header))?;
     } else {
-        w.write_record(WAVEFORM_HEADER)?;
+        w.write_record(header)?;
     }
     for s in &r.sources {
-        for p in &s.points {
-            let Some(wave) = &p.waveform else { continue };
-            for ((a, t), v) in wave
-                .shaft_angle_deg
-                .iter()
-                .zip(&wave.time_s)
-                .zip(&wave.pressure_pa)
-            {
-                let row = [
-                    p.point.clone(),
-                    format!("{a}"),
-                    format!("{t}"),
-                    format!("{v}"),
-                ];
-                if several {
-                    w.write_record(std::iter::once(s.name.clone()).chain(row))?;
-                } else {
-                    w.write_record(row)?;
-                }
+        for row in rows(s) {
+            if several {
+                w.write_record(std::iter::once(s.name.clone()).chain(row))?;
+            } else {
+                w.write_record(row)?;
             }
         }
     }

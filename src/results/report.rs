@@ -13,6 +13,7 @@
 use super::check::{CheckRequest, CheckResult, check};
 use super::inputs::{CircuitInputs, circuit_inputs};
 use super::response::{ResponseRequest, ResponseResult, response};
+use super::setup::FrequencySweep;
 use super::silencer::{SilencerRequest, SilencerResult, silencer};
 use super::solve::{SolveRequest, SolveResult, solve};
 use super::{Error, Input, Notice, Origin, Subject};
@@ -161,12 +162,11 @@ pub fn report(
             circuit.clone(),
             name,
             &ResponseRequest {
-                pump_index,
-                speed_rev_s: None,
-                speed_range: None,
-                harmonics: request.harmonics,
-                band: None,
-                points: None,
+                sweep: FrequencySweep {
+                    pump_index,
+                    harmonics: request.harmonics,
+                    ..FrequencySweep::default()
+                },
                 margin: request.margin,
             },
             &mut |i, n| progress(base + i * STEP / n.max(1), total),
@@ -186,12 +186,10 @@ pub fn report(
                     reference_tube: None,
                     without: WithoutReference::Pipe,
                     tap: (tap.name.clone(), tap.location),
-                    pump_index: 0,
-                    speed_rev_s: None,
-                    speed_range: None,
-                    harmonics: request.harmonics,
-                    band: None,
-                    points: None,
+                    sweep: FrequencySweep {
+                        harmonics: request.harmonics,
+                        ..FrequencySweep::default()
+                    },
                 },
                 &mut |i, n| progress(base + i * STEP / n.max(1), total),
             );

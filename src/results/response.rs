@@ -3,7 +3,7 @@
 //! sweep over the speed range, which cross which resonance, and the
 //! impedance the pump sees.
 
-use super::setup::{Grid, SpeedRange, excited_bands, grid, speed_range};
+use super::setup::{FrequencySweep, Grid, SpeedRange, excited_bands, grid, speed_range};
 use super::{Error, Input, Notice, Origin, Phasor, Subject, notices};
 use crate::analysis::response::{
     Coverage, HarmonicBand, PeakSettings, Resonance, crossings, find_resonances,
@@ -17,18 +17,8 @@ use serde::Serialize;
 /// What to compute, resolved against the circuit.
 #[derive(Debug, Clone)]
 pub struct ResponseRequest {
-    /// The pump whose source flow drives the circuit.
-    pub pump_index: usize,
-    /// Its shaft's speed (rev/s) instead of the file's.
-    pub speed_rev_s: Option<f64>,
-    /// The operating speed range (rev/s) instead of the file's.
-    pub speed_range: Option<(f64, f64)>,
-    /// Harmonics per pump, overriding the circuit's.
-    pub harmonics: Option<u32>,
-    /// The band in Hz.
-    pub band: Option<(f64, f64)>,
-    /// Number of log-spaced frequencies.
-    pub points: Option<usize>,
+    /// The pump, speeds and frequencies.
+    pub sweep: FrequencySweep,
     /// How close (a fraction of f0) a band edge counts as near, and where
     /// the value came from.
     pub margin: (f64, Origin),
@@ -204,17 +194,27 @@ pub fn response(
     request: &ResponseRequest,
     progress: &mut dyn FnMut(usize, usize),
 ) -> Result<ResponseResult, Error> {
-    let pump_index = request.pump_index;
-    let (circuit, mut inputs) =
-        adjusted(circuit, pump_index, request.harmonics, request.speed_rev_s);
+    let pump_index = request.sweep.pump_index;
+    let (circuit, mut inputs) = adjusted(
+        circuit,
+        pump_index,
+        request.sweep.harmonics,
+        request.sweep.speed_rev_s,
+    );
     inputs.push(Input::number(
         "margin",
         request.margin.0,
         "1",
         request.margin.1,
     ));
-    let speeds = speed_range(&circuit, pump_index, request.speed_range);
-    let grid = grid(&circuit, pump_index, &speeds, request.band, request.points);
+    let speeds = speed_range(&circuit, pump_index, request.sweep.speed_range);
+    let grid = grid(
+        &circuit,
+        pump_index,
+        &speeds,
+        request.sweep.band,
+        request.sweep.points,
+    );
     let warnings = notices(&crate::diagnostics::circuit_warnings(
         &circuit,
         grid.high_hz,

@@ -8,6 +8,24 @@ use crate::analysis::response::{HarmonicBand, default_points, harmonic_bands};
 use crate::source::shafts;
 use serde::Serialize;
 
+/// The pump and the speeds and frequencies a frequency sweep of
+/// `response` or `silencer` covers, resolved against the circuit.
+#[derive(Debug, Clone, Default)]
+pub struct FrequencySweep {
+    /// The pump whose source flow drives the circuit.
+    pub pump_index: usize,
+    /// Its shaft's speed (rev/s) instead of the file's.
+    pub speed_rev_s: Option<f64>,
+    /// The operating speed range (rev/s) instead of the file's.
+    pub speed_range: Option<(f64, f64)>,
+    /// Harmonics per pump, overriding the circuit's.
+    pub harmonics: Option<u32>,
+    /// The band in Hz.
+    pub band: Option<(f64, f64)>,
+    /// Number of log-spaced frequencies.
+    pub points: Option<usize>,
+}
+
 /// Where an operating speed range came from.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]

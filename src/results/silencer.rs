@@ -4,7 +4,7 @@
 
 use super::describe;
 use super::response::{PumpRef, adjusted};
-use super::setup::{Grid, SpeedRange, excited_bands, grid, speed_range};
+use super::setup::{FrequencySweep, Grid, SpeedRange, excited_bands, grid, speed_range};
 use super::{Error, Input, Notice, Origin, Subject, notices};
 use crate::analysis::response::{HarmonicBand, log_grid};
 use crate::analysis::ripple::report_points;
@@ -34,18 +34,8 @@ pub struct SilencerRequest {
     pub without: WithoutReference,
     /// The point of the insertion loss: its name and location.
     pub tap: (String, TapLocation),
-    /// The pump whose source flow drives the circuit.
-    pub pump_index: usize,
-    /// Its shaft's speed (rev/s) instead of the file's.
-    pub speed_rev_s: Option<f64>,
-    /// The operating speed range (rev/s) instead of the file's.
-    pub speed_range: Option<(f64, f64)>,
-    /// Harmonics per pump, overriding the circuit's.
-    pub harmonics: Option<u32>,
-    /// The band in Hz.
-    pub band: Option<(f64, f64)>,
-    /// Number of log-spaced frequencies.
-    pub points: Option<usize>,
+    /// The pump, speeds and frequencies.
+    pub sweep: FrequencySweep,
 }
 
 /// A silencer element and what it is.
@@ -123,8 +113,10 @@ pub struct SilencerResult {
     pub speed_range: SpeedRange,
     /// The frequency grid.
     pub grid: Grid,
-    /// Per harmonic at the pump's speed.
+    /// Per harmonic at the pump's speed (those with source flow).
     pub harmonics: Vec<HarmonicLoss>,
+    /// Harmonics without source flow in the pump's table, left out.
+    pub silent_orders: Vec<u32>,
     /// Overall rms without the silencer, Pa.
     pub rms_without_pa: f64,
     /// Overall rms with it, Pa.
@@ -191,9 +183,13 @@ pub fn silencer(
     request: &SilencerRequest,
     progress: &mut dyn FnMut(usize, usize),
 ) -> Result<SilencerResult, Error> {
-    let pump_index = request.pump_index;
-    let (circuit, mut inputs) =
-        adjusted(circuit, pump_index, request.harmonics, request.speed_rev_s);
+    let pump_index = request.sweep.pump_index;
+    let (circuit, mut inputs) = adjusted(
+        circuit,
+        pump_index,
+        request.sweep.harmonics,
+        request.sweep.speed_rev_s,
+    );
     let circuit = &circuit;
     let request_error = |e: crate::analysis::silencer::SilencerError| Error::Request(e.to_string());
     let chain = Chain::new(circuit, &request.elements).map_err(request_error)?;
@@ -223,8 +219,14 @@ pub fn silencer(
         })?
         .location;
     inputs.push(Input::text("tap", tap_name, Origin::Request));
-    let speeds = speed_range(circuit, pump_index, request.speed_range);
-    let grid = grid(circuit, pump_index, &speeds, request.band, request.points);
+    let speeds = speed_range(circuit, pump_index, request.sweep.speed_range);
+    let grid = grid(
+        circuit,
+        pump_index,
+        &speeds,
+        request.sweep.band,
+        request.sweep.points,
+    );
     let warnings = notices(&crate::diagnostics::circuit_warnings(circuit, grid.high_hz));
     let pump = &circuit.pumps[pump_index];
     let z = f64::from(pump.pumping_elements);
@@ -268,7 +270,10 @@ pub fn silencer(
     // Per harmonic at the pump's speed.
     let fp = pump.pumping_frequency_hz();
     let mut rows = Vec::new();
-    for k in 1..=circuit.harmonics {
+    // harmonics without source flow excite nothing: left out (and named)
+    let (with_flow, silent_orders): (Vec<u32>, Vec<u32>) =
+        (1..=circuit.harmonics).partition(|&k| pump.has_source_flow(k));
+    for &k in &with_flow {
         let f = f64::from(k) * fp;
         let (with, wo) = pair(f)?;
         let q = pump.flow_ripple(k).norm();
@@ -294,7 +299,7 @@ pub fn silencer(
     let mut over_speeds = Vec::new();
     if !speeds.is_single() {
         let conditions = speed_conditions(speeds.rev_s(), RANGE_SPEEDS);
-        for k in 1..=circuit.harmonics {
+        for &k in &with_flow {
             let (mut lo, mut hi) = ((f64::INFINITY, 0.0), (f64::NEG_INFINITY, 0.0));
             for c in &conditions {
                 let f = f64::from(k) * z * c.speed_rev_s;
@@ -357,6 +362,7 @@ pub fn silencer(
         speed_range: speeds,
         grid,
         harmonics: rows,
+        silent_orders,
         rms_without_pa,
         rms_with_pa,
         over_speeds,
