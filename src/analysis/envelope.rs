@@ -457,7 +457,7 @@ pub fn assess(
 
 /// A text with every digit replaced, to compare warnings whose numbers
 /// differ.
-fn without_numbers(text: &str) -> String {
+pub fn without_numbers(text: &str) -> String {
     text.chars()
         .map(|c| if c.is_ascii_digit() { '#' } else { c })
         .collect()

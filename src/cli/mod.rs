@@ -58,8 +58,9 @@ enum Command {
     /// The circuit over its operating envelope: each limit's verdict
     /// (exit code 3 when one is exceeded) and the findings ranked by level.
     Assess(assess::AssessArgs),
-    /// One self-contained HTML report of a circuit: inputs, schematic,
-    /// ripple per point, resonance check, silencers, warnings and cautions.
+    /// One self-contained HTML report of a circuit: the verdict against its
+    /// limits, the schematic, inputs, worst ripple, resonances, silencers,
+    /// warnings and cautions (exit code 3 when a limit is exceeded).
     Report(report::ReportArgs),
 }
 

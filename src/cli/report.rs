@@ -1,7 +1,8 @@
 //! `ripline report [FILE] --out FILE.html`: one self-contained HTML report
-//! of a circuit.
+//! of a circuit. Exit code 3 (the report written) when a limit is exceeded,
+//! as `assess`.
 
-use super::common::{self, Outputs, check_output};
+use super::common::{self, LimitsExceeded, Outputs, check_output};
 use super::ranges::{self, Progress};
 use anyhow::Context;
 use clap::Args;
@@ -68,5 +69,16 @@ pub fn run(args: ReportArgs) -> anyhow::Result<()> {
             html.len(),
             result.input_sha256
         )
-    })
+    })?;
+    // as `assess`: the report is complete, the exit code says a limit failed
+    if let Some(a) = result.assessment.as_ref().filter(|a| !a.passed()) {
+        let v = &a.assessment.verdicts;
+        return Err(LimitsExceeded(format!(
+            "{} of {} limits exceeded (see the report's conclusion)",
+            v.iter().filter(|v| !v.pass).count(),
+            v.len()
+        ))
+        .into());
+    }
+    Ok(())
 }

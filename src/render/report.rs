@@ -1,16 +1,21 @@
 //! Renderer of [`ReportResult`]: one self-contained HTML document (see
-//! [`crate::html`]) with the warnings at the top, the job statement, the
-//! schematic, the inputs with their origin, the ripple per measurement
-//! point, the resonance check, the silencers, the safety cautions and, in
-//! the footer, the program version and the input file's SHA-256.
+//! [`crate::html`]) with the job statement, the warnings at the top, the
+//! conclusion (each limit's verdict, the worst ripple per measurement
+//! point, the strongest resonance crossing), the schematic, the inputs with
+//! their origin, the worst ripple over the envelope with the findings, the
+//! ripple per measurement point at the file's speeds, the resonance check,
+//! the silencers, the safety cautions and, in the footer, the program
+//! version and the input file's SHA-256.
 //!
 //! Every number shown is a field of the result, converted to the unit of
 //! its column (one unit per column, chosen from the column's largest value
 //! as in [`super::table`]) with 4 significant digits; charts are the
 //! commands' own chart descriptions drawn as inline SVG.
 
+use super::assess::{self as assess_render, limit_text, where_text};
 use super::table::{DIGITS, Quantity, RPM, Unit};
 use crate::Circuit;
+use crate::analysis::envelope::{FindingKind, Verdict};
 use crate::analysis::response::Coverage;
 use crate::html::{Block, Cell, Column, Level, Report, Table};
 use crate::plot::{self, PlotError};
@@ -24,12 +29,15 @@ use crate::results::{Input, Origin, Value};
 
 /// Section anchors, in the order they appear (tests find them by these).
 pub mod anchors {
-    /// What the report decides, and the answers in brief.
+    /// The conclusion: verdicts, worst points, the answers in brief.
     pub const SUMMARY: &str = "summary";
     /// The schematic.
     pub const CIRCUIT: &str = "circuit";
     /// The inputs with their origin.
     pub const INPUTS: &str = "inputs";
+    /// The worst ripple over the operating envelope (or the speed range)
+    /// and each limit's verdict.
+    pub const ENVELOPE: &str = "envelope";
     /// The ripple per measurement point.
     pub const RIPPLE: &str = "ripple";
     /// The resonance check.
@@ -275,6 +283,7 @@ pub fn html(r: &ReportResult, circuit: &Circuit) -> Result<String, PlotError> {
         }],
     ));
     report.blocks.push(inputs(r));
+    report.blocks.push(envelope(r)?);
     report.blocks.push(ripple(&r.ripple)?);
     let mut blocks = Vec::new();
     for resp in &r.resonances {
@@ -306,23 +315,90 @@ pub fn html(r: &ReportResult, circuit: &Circuit) -> Result<String, PlotError> {
     Ok(report.to_html())
 }
 
-/// The answers in brief.
+/// The conclusion: the verdict against the limits, the worst ripple per
+/// measurement point, the resonances crossed, the silencers' effect.
 fn summary(r: &ReportResult) -> Block {
-    let mut kv = vec![("circuit file".to_string(), r.subject.file.clone())];
-    if let Some(t) = &r.subject.title {
-        kv.push(("circuit".into(), t.clone()));
+    let mut blocks = Vec::new();
+    let mut kv = Vec::new();
+    match &r.assessment {
+        Some(a) if !a.assessment.verdicts.is_empty() => {
+            let v = &a.assessment.verdicts;
+            let failed: Vec<_> = v.iter().filter(|v| !v.pass).collect();
+            let over = if a.envelope.is_some() {
+                "over the operating envelope"
+            } else {
+                "over the speed range"
+            };
+            blocks.push(if failed.is_empty() {
+                Block::Notice(
+                    Level::Pass,
+                    format!("every limit met {over} ({n} of {n}).", n = v.len()),
+                )
+            } else {
+                Block::Notice(
+                    Level::Fail,
+                    format!(
+                        "{} of {} limits exceeded {over}: {}.",
+                        failed.len(),
+                        v.len(),
+                        failed
+                            .iter()
+                            .map(|v| format!("{} at {}", limit_text(v), v.tap))
+                            .collect::<Vec<_>>()
+                            .join("; ")
+                    ),
+                )
+            });
+            for v in v {
+                kv.push((
+                    format!("{} at {}", limit_text(v), v.tap),
+                    verdict_text(v),
+                ));
+            }
+        }
+        Some(_) => blocks.push(Block::Notice(
+            Level::Info,
+            "No verdict: the file has no `limits` section. The figures below are for the reader's judgement; add limits to get PASS or FAIL."
+                .into(),
+        )),
+        None => {}
     }
-    for p in &r.ripple.pumps {
-        kv.push((
-            format!("pump {}", p.name),
-            format!(
-                "{:.0} rpm at node {}, {} pumping elements, pumping frequency {} Hz",
-                p.speed_rev_s * 60.0,
-                p.node,
-                p.pumping_elements,
-                crate::html::format_number(p.pumping_frequency_hz, 2)
-            ),
-        ));
+    if let Some(a) = &r.assessment {
+        for (tap, w) in a.assessment.taps.iter().zip(&a.assessment.worst) {
+            kv.push((
+                format!("worst ripple at {tap}"),
+                match w {
+                    Some(w) => format!(
+                        "{} rms ({}) at {}; largest harmonic {} ({} Hz)",
+                        Quantity::Pressure.show(w.value_pa),
+                        level_re_1pa(w.value_pa),
+                        where_text(w.speed_rev_s, &w.point),
+                        w.order,
+                        crate::html::format_number(w.frequency_hz, 1)
+                    ),
+                    None => "no ripple reaches it".into(),
+                },
+            ));
+        }
+        if let Some(f) = a
+            .assessment
+            .findings
+            .iter()
+            .find(|f| f.kind == FindingKind::Resonance)
+        {
+            kv.push((
+                "strongest resonance crossing".into(),
+                format!(
+                    "{} Hz met by harmonic {} at {}: {} rms ({}) at {}",
+                    crate::html::format_number(f.resonance_hz.unwrap_or(f.frequency_hz), 1),
+                    f.order,
+                    where_text(f.speed_rev_s, &f.point),
+                    Quantity::Pressure.show(f.rms_pa),
+                    level_re_1pa(f.rms_pa),
+                    f.tap
+                ),
+            ));
+        }
     }
     if let Some(top) = r
         .ripple
@@ -330,14 +406,28 @@ fn summary(r: &ReportResult) -> Block {
         .iter()
         .max_by(|a, b| a.rms_pa.total_cmp(&b.rms_pa))
     {
+        let speeds: Vec<String> = r
+            .ripple
+            .sources
+            .iter()
+            .map(|s| format!("{:.0} rpm", s.speed_rev_s * 60.0))
+            .fold(Vec::new(), |mut v, s| {
+                if !v.contains(&s) {
+                    v.push(s);
+                }
+                v
+            });
         kv.push((
-            "highest ripple".into(),
+            "highest ripple at the file's speed".into(),
             format!(
-                "{} rms at {}{}",
+                "{} rms at {}{} ({})",
                 Quantity::Pressure.show(top.rms_pa),
                 top.point,
-                top.level_db
-                    .map_or(String::new(), |l| format!(" ({l:.1} dB)"))
+                top.level_db.map_or(String::new(), |l| format!(
+                    " ({l:.1} dB re {})",
+                    super::reference_text(r.ripple.db_ref_pa)
+                )),
+                speeds.join(", ")
             ),
         ));
     }
@@ -364,8 +454,264 @@ fn summary(r: &ReportResult) -> Block {
             ));
         }
     }
-    kv.push(("warnings".into(), r.warnings.len().to_string()));
-    section(anchors::SUMMARY, "In brief", vec![Block::KeyValues(kv)])
+    kv.push((
+        "warnings".into(),
+        if r.warnings.is_empty() {
+            "none".into()
+        } else {
+            format!("{} (listed above)", r.warnings.len())
+        },
+    ));
+    kv.push((
+        "circuit file".into(),
+        format!("{} (SHA-256 {})", r.subject.file, r.input_sha256),
+    ));
+    blocks.push(Block::KeyValues(kv));
+    section(anchors::SUMMARY, "Conclusion", blocks)
+}
+
+/// "PASS: worst 0.1326 bar at 1800 rpm, 120 bar (harmonic 2, 540.0 Hz);
+/// margin +1.23 dB (0.0123 bar to spare)".
+fn verdict_text(v: &Verdict) -> String {
+    let word = if v.pass { "PASS" } else { "FAIL" };
+    match (&v.worst, v.margin_db) {
+        (Some(w), Some(margin)) => format!(
+            "{word}: worst {} at {} (harmonic {}, {} Hz); margin {} dB ({} {})",
+            Quantity::Pressure.show(w.value_pa),
+            where_text(w.speed_rev_s, &w.point),
+            w.order,
+            crate::html::format_number(w.frequency_hz, 1),
+            signed(margin, 2),
+            Quantity::Pressure.show(v.margin_pa.abs()),
+            if v.margin_pa < 0.0 {
+                "over"
+            } else {
+                "to spare"
+            }
+        ),
+        _ => format!("{word}: no ripple reaches it anywhere"),
+    }
+}
+
+/// `+1.23` or `−0.45` with `decimals` decimals.
+fn signed(v: f64, decimals: usize) -> String {
+    let t = crate::html::format_number(v, decimals);
+    if t.starts_with('−') || v == 0.0 {
+        t
+    } else {
+        format!("+{t}")
+    }
+}
+
+/// "97.0 dB re 1 Pa" (levels of `assess` are re 1 Pa).
+fn level_re_1pa(rms_pa: f64) -> String {
+    crate::results::level_db(rms_pa, 1.0)
+        .map_or_else(|| "no ripple".into(), |l| format!("{l:.1} dB re 1 Pa"))
+}
+
+/// The worst ripple over the operating envelope (or the speed range), each
+/// limit's verdict, the findings ranked by level and a chart per point.
+fn envelope(r: &ReportResult) -> Result<Block, PlotError> {
+    let Some(a) = &r.assessment else {
+        return Ok(section(
+            anchors::ENVELOPE,
+            "Worst ripple over the speed range",
+            vec![Block::Notice(
+                Level::Info,
+                format!(
+                    "Not assessed: {}",
+                    r.no_assessment.as_deref().unwrap_or("no speed range")
+                ),
+            )],
+        ));
+    };
+    let x = &a.assessment;
+    let spans = assess_render::envelope_spans(a);
+    let mut blocks = vec![Block::Paragraph(format!(
+        "Shaft {} swept over {:.0}–{:.0} rpm ({} speeds, each worst speed refined between them to 0.01 dB) at {}. Levels are rms in dB re 1 Pa, as ripline assess gives them.",
+        a.assessment.shaft,
+        x.speed_range_rev_s.0 * 60.0,
+        x.speed_range_rev_s.1 * 60.0,
+        x.sweeps.first().map_or(0, |s| s.sweep.speeds_rev_s.len()),
+        if spans.is_empty() {
+            "the circuit as written (the file has no `envelope` section)".to_string()
+        } else {
+            format!(
+                "each of {} envelope points: {}",
+                x.points.len(),
+                spans.join("; ").replace('`', "")
+            )
+        }
+    ))];
+    if !a.silent_orders.is_empty() {
+        blocks.push(Block::Notice(
+            Level::Info,
+            format!(
+                "Left out: harmonic {} (no source flow in the pump's table).",
+                a.silent_orders
+                    .iter()
+                    .map(u32::to_string)
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
+        ));
+    }
+    if !x.verdicts.is_empty() {
+        let (worst_col, worst_unit) = pressure_column(
+            "worst",
+            x.verdicts
+                .iter()
+                .filter_map(|v| v.worst.as_ref())
+                .map(|w| w.value_pa),
+        );
+        let (margin_col, margin_unit) =
+            pressure_column("margin", x.verdicts.iter().map(|v| v.margin_pa));
+        let rows = x
+            .verdicts
+            .iter()
+            .map(|v| {
+                let mut row = vec![
+                    Cell::text(&v.tap),
+                    Cell::text(limit_text(v)),
+                    Cell::text(if v.pass { "PASS" } else { "FAIL" }),
+                ];
+                match (&v.worst, v.margin_db) {
+                    (Some(w), Some(m)) => row.extend([
+                        in_unit(w.value_pa, worst_unit),
+                        Cell::num(w.speed_rev_s * 60.0, 0),
+                        Cell::text(w.point.label()),
+                        Cell::num(f64::from(w.order), 0),
+                        Cell::num(w.frequency_hz, 1),
+                        Cell::num(m, 2),
+                        in_unit(v.margin_pa, margin_unit),
+                    ]),
+                    _ => row.push(Cell::text("no ripple reaches it")),
+                }
+                row
+            })
+            .collect();
+        blocks.push(Block::Table(Table {
+            caption:
+                "Each limit against the worst of the envelope (margin: positive below the limit)"
+                    .into(),
+            columns: vec![
+                Column::text("point"),
+                Column::text("limit"),
+                Column::text("verdict"),
+                worst_col,
+                Column::quantity("at speed", "rpm"),
+                Column::text("envelope point"),
+                Column::text("harmonic"),
+                Column::quantity("frequency", "Hz"),
+                Column::quantity("margin", "dB"),
+                margin_col,
+            ],
+            rows,
+        }));
+    }
+    let (rms_col, rms_unit) = pressure_column(
+        "worst overall rms",
+        x.worst.iter().flatten().map(|w| w.value_pa),
+    );
+    blocks.push(Block::Table(Table {
+        caption: "Worst overall ripple per measurement point".into(),
+        columns: vec![
+            Column::text("point"),
+            rms_col,
+            Column::quantity("level", "dB re 1 Pa"),
+            Column::quantity("at speed", "rpm"),
+            Column::text("envelope point"),
+            Column::text("largest harmonic"),
+            Column::quantity("its frequency", "Hz"),
+        ],
+        rows: x
+            .taps
+            .iter()
+            .zip(&x.worst)
+            .map(|(tap, w)| match w {
+                Some(w) => vec![
+                    Cell::text(tap),
+                    in_unit(w.value_pa, rms_unit),
+                    crate::results::level_db(w.value_pa, 1.0)
+                        .map_or(Cell::Empty, |l| Cell::num(l, 1)),
+                    Cell::num(w.speed_rev_s * 60.0, 0),
+                    Cell::text(w.point.label()),
+                    Cell::num(f64::from(w.order), 0),
+                    Cell::num(w.frequency_hz, 1),
+                ],
+                None => vec![Cell::text(tap), Cell::text("no ripple reaches it")],
+            })
+            .collect(),
+    }));
+    let shown = x.ranked(a.top, a.floor_db);
+    let (f_col, f_unit) = pressure_column("rms", shown.iter().map(|f| f.rms_pa));
+    blocks.push(Block::Table(Table {
+        caption: format!(
+            "Findings ranked by level: {} of {} (at most {}, none more than {} dB below its point's overall worst; ripline assess {} --csv lists every one)",
+            shown.len(),
+            x.findings.len(),
+            a.top,
+            a.floor_db,
+            r.subject.file
+        ),
+        columns: vec![
+            Column::text("#"),
+            Column::text("kind"),
+            Column::text("point"),
+            Column::quantity("level", "dB re 1 Pa"),
+            f_col,
+            Column::text("harmonic"),
+            Column::quantity("at speed", "rpm"),
+            Column::quantity("frequency", "Hz"),
+            Column::quantity("resonance", "Hz"),
+            Column::text("envelope point"),
+        ],
+        rows: shown
+            .iter()
+            .enumerate()
+            .map(|(i, f)| {
+                vec![
+                    Cell::num((i + 1) as f64, 0),
+                    Cell::text(f.kind.name()),
+                    Cell::text(&f.tap),
+                    Cell::num(f.level_db, 1),
+                    in_unit(f.rms_pa, f_unit),
+                    Cell::num(f64::from(f.order), 0),
+                    Cell::num(f.speed_rev_s * 60.0, 0),
+                    Cell::num(f.frequency_hz, 1),
+                    f.resonance_hz.map_or(Cell::text("—"), |h| Cell::num(h, 1)),
+                    Cell::text(f.point.label()),
+                ]
+            })
+            .collect(),
+    }));
+    for (ti, tap) in x.taps.iter().enumerate() {
+        blocks.push(Block::Figure {
+            svg: plot::stacked_line_charts_svg(&assess_render::charts(a, ti))?,
+            caption: format!(
+                "Overall ripple at {tap} against speed over the envelope{}, the worst point marked.",
+                if a.limits.iter().any(|l| &l.tap == tap) {
+                    ", with its rms limit"
+                } else {
+                    ""
+                }
+            ),
+        });
+    }
+    let title = if a.envelope.is_some() {
+        "Worst ripple over the operating envelope"
+    } else {
+        "Worst ripple over the speed range"
+    };
+    Ok(section(
+        anchors::ENVELOPE,
+        if x.verdicts.is_empty() {
+            title.to_string()
+        } else {
+            format!("{title}, against the limits")
+        },
+        blocks,
+    ))
 }
 
 fn element_names(s: &SilencerResult) -> String {

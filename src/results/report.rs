@@ -1,15 +1,17 @@
 //! `report`: everything the analyses say about one circuit, composed for a
 //! self-contained document: the inputs with their origin, the circuit's
-//! check, the ripple at every measurement point, the resonance check of
-//! every pump over its speed range, each silencer's losses, the warnings
-//! and the safety cautions, the program version and the input file's
-//! SHA-256.
+//! check, the worst ripple over the operating envelope (or the speed range)
+//! with each limit's verdict, the ripple at every measurement point, the
+//! resonance check of every pump over its speed range, each silencer's
+//! losses, the warnings and the safety cautions, the program version and
+//! the input file's SHA-256.
 //!
 //! Nothing is computed here that an analysis does not compute: the parts
-//! are the results of [`super::check`], [`super::solve`],
-//! [`super::response`] and [`super::silencer`], run as their commands run
-//! them with their defaults.
+//! are the results of [`super::check`], [`super::assess`],
+//! [`super::solve`], [`super::response`] and [`super::silencer`], run as
+//! their commands run them with their defaults.
 
+use super::assess::{AssessFile, AssessReport, AssessRequest, assess};
 use super::check::{CheckRequest, CheckResult, check};
 use super::inputs::{CircuitInputs, circuit_inputs};
 use super::response::{ResponseRequest, ResponseResult, response};
@@ -17,9 +19,11 @@ use super::setup::FrequencySweep;
 use super::silencer::{SilencerRequest, SilencerResult, silencer};
 use super::solve::{SolveRequest, SolveResult, solve};
 use super::{Error, Input, Notice, Origin, Subject};
+use crate::analysis::envelope::{AssessSettings, without_numbers};
 use crate::analysis::ripple::report_points;
 use crate::analysis::silencer::WithoutReference;
 use crate::elements::{ElementKind, PRESSURE_VESSEL_CAUTION, STORED_ENERGY_CAUTION};
+use crate::envelope::OperatingPoint;
 use crate::io::CircuitFile;
 use serde::Serialize;
 use sha2::{Digest, Sha256};
@@ -69,6 +73,14 @@ pub struct ReportResult {
     pub cautions: Vec<String>,
     /// What the circuit holds.
     pub check: CheckResult,
+    /// The circuit over its operating envelope (the file's own point when
+    /// it has no `envelope` section) and over the speed range, with each
+    /// limit's verdict, as `assess` gives it with its defaults; `None`
+    /// when no speed range is known and the file has neither `envelope`
+    /// nor `limits` (then [`ReportResult::no_assessment`] says why).
+    pub assessment: Option<AssessReport>,
+    /// Why there is no assessment.
+    pub no_assessment: Option<String>,
     /// The ripple at every measurement point at the file's speeds.
     pub ripple: SolveResult,
     /// The resonance check of each pump over its speed range.
@@ -124,10 +136,20 @@ pub fn report(
         .filter(|&i| is_silencer(&circuit.elements[i].kind))
         .collect();
     let points = report_points(circuit);
-    // parts: check and solve, one response per pump, one silencer per
-    // element and point; each counts 1000 steps
+    // every envelope point's circuit first: a point that makes the circuit
+    // invalid stops the report before any work
+    let mut envelope_points = file
+        .circuits(&file.points())
+        .map_err(|e| Error::Request(e.to_string()))?;
+    if let Some(n) = request.harmonics {
+        for (_, c) in &mut envelope_points {
+            c.harmonics = n;
+        }
+    }
+    // parts: check, assess and solve, one response per pump, one silencer
+    // per element and point; each counts 1000 steps
     const STEP: usize = 1000;
-    let parts = 2 + circuit.pumps.len() + silencer_elements.len() * points.len();
+    let parts = 3 + circuit.pumps.len() + silencer_elements.len() * points.len();
     let total = parts * STEP;
     let mut done = 0;
     let part = |done: &mut usize, progress: &mut dyn FnMut(usize, usize)| {
@@ -143,6 +165,10 @@ pub fn report(
             speed: None,
         },
     )?;
+    part(&mut done, progress);
+    let (assessment, no_assessment) = over_envelope(file, &envelope_points, &mut |i, n| {
+        progress(done + i * STEP / n.max(1), total);
+    })?;
     part(&mut done, progress);
     let ripple = solve(
         circuit.clone(),
@@ -218,8 +244,32 @@ pub fn report(
             warnings.push(w.clone());
         }
     }
+    // the envelope's own (at other points than the file's, or with other
+    // numbers), each with the points where it holds
+    if let Some(a) = &assessment {
+        let all = a.assessment.points.len();
+        for w in &a.assessment.warnings {
+            let key = without_numbers(&w.text);
+            if warnings
+                .iter()
+                .any(|n| without_numbers(&n.to_string()) == key)
+            {
+                continue;
+            }
+            warnings.push(Notice {
+                subject: "operating envelope".into(),
+                message: format!(
+                    "at {} of {all} points ({}): {}",
+                    w.points.len(),
+                    w.points.join("; "),
+                    w.text
+                ),
+            });
+        }
+    }
     let mut cautions = vec![STORED_ENERGY_CAUTION.to_string()];
-    if circuit.elements.iter().any(|e| e.kind.is_pressure_vessel()) {
+    let vessel = |c: &crate::Circuit| c.elements.iter().any(|e| e.kind.is_pressure_vessel());
+    if vessel(circuit) || envelope_points.iter().any(|(_, c)| vessel(c)) {
         cautions.push(PRESSURE_VESSEL_CAUTION.to_string());
     }
     let mut inputs = vec![Input::number(
@@ -246,7 +296,7 @@ pub fn report(
         "1",
         request.margin.1,
     ));
-    let job = job_statement(&check, &resonances, &silencers);
+    let job = job_statement(&check, assessment.as_ref(), &resonances, &silencers);
     Ok(ReportResult {
         subject: Subject {
             file: name.to_string(),
@@ -260,6 +310,8 @@ pub fn report(
         warnings,
         cautions,
         check,
+        assessment,
+        no_assessment,
         ripple,
         resonances,
         silencers,
@@ -267,10 +319,65 @@ pub fn report(
     })
 }
 
+/// Findings the report shows, at most (as `assess`'s default `--top`).
+pub const TOP_FINDINGS: usize = 10;
+/// Findings further below their point's overall worst are left out, dB (as
+/// `assess`'s default `--floor`).
+pub const FINDINGS_FLOOR_DB: f64 = 20.0;
+
+/// `assess` with its defaults over the file's envelope points (`points`,
+/// resolved); when it cannot run for want of a speed range and the file
+/// has neither `envelope` nor `limits`, no assessment and the reason.
+///
+/// # Errors
+/// As [`assess`]; no speed range is an error only for a file with an
+/// `envelope` or `limits` section (as `assess` itself).
+fn over_envelope(
+    file: &CircuitFile,
+    points: &[(OperatingPoint, crate::Circuit)],
+    progress: &mut dyn FnMut(usize, usize),
+) -> Result<(Option<AssessReport>, Option<String>), Error> {
+    let envelope = file.envelope.as_ref();
+    let settings = AssessSettings::default();
+    let request = AssessRequest {
+        speed_range: envelope
+            .and_then(|e| e.speed_range_rev_s)
+            .map(|r| (r, Origin::File)),
+        shaft: envelope
+            .and_then(|e| e.shaft.clone())
+            .map(|s| (s, Origin::File)),
+        speed_points: (settings.speed_points, Origin::Default),
+        min_rise_db: (settings.min_rise_db, Origin::Default),
+        top: TOP_FINDINGS,
+        floor_db: FINDINGS_FLOOR_DB,
+    };
+    let result = assess(
+        AssessFile {
+            file: &file.file,
+            circuit: &file.circuit,
+            envelope,
+            limits: &file.limits,
+            pressure_pa: file.pressure_pa,
+            temperature_k: file.temperature_k,
+        },
+        points,
+        &request,
+        progress,
+    );
+    match result {
+        Ok(a) => Ok((Some(a), None)),
+        Err(Error::Request(reason)) if envelope.is_none() && file.limits.is_empty() => {
+            Ok((None, Some(reason)))
+        }
+        Err(e) => Err(e),
+    }
+}
+
 /// What the report decides: the questions its parts answer for this
 /// circuit.
 fn job_statement(
     check: &CheckResult,
+    assessment: Option<&AssessReport>,
     resonances: &[ResponseResult],
     silencers: &[SilencerResult],
 ) -> String {
@@ -292,13 +399,37 @@ fn job_statement(
                 }
                 v
             });
-    let mut parts = vec![
-        format!("how large the pressure ripple is at {points} at the pumps' speeds"),
+    let mut parts = Vec::new();
+    if let Some(a) = assessment.filter(|a| !a.assessment.verdicts.is_empty()) {
+        parts.push(format!(
+            "whether the ripple meets its {} limit{} over the operating {}",
+            a.assessment.verdicts.len(),
+            if a.assessment.verdicts.len() == 1 {
+                ""
+            } else {
+                "s"
+            },
+            if a.envelope.is_some() {
+                "envelope"
+            } else {
+                "speed range"
+            }
+        ));
+    }
+    parts.extend([
+        format!(
+            "how large the pressure ripple is at {points} at the pumps' speeds{}",
+            if assessment.is_some() {
+                " and at its worst over the speed range"
+            } else {
+                ""
+            }
+        ),
         format!(
             "whether a pump harmonic crosses a resonance of the circuit over the speed range ({})",
             ranges.join("; ")
         ),
-    ];
+    ]);
     if !silencers.is_empty() {
         parts.push("how much its silencers take out".to_string());
     }
@@ -311,4 +442,28 @@ fn job_statement(
             parts.join(", ")
         }
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The SHA-256 examples of FIPS 180-2, Appendix B.1 ("abc") and B.2
+    /// (the 448-bit message), and the empty message; the digests (recalled
+    /// from memory) agree with Python's `hashlib.sha256(m).hexdigest()`.
+    #[test]
+    fn sha256_of_the_fips_examples() {
+        assert_eq!(
+            sha256_hex(b"abc"),
+            "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+        );
+        assert_eq!(
+            sha256_hex(b"abcdbcdecdefdefgefghfghighijhijkijkljklmklmnlmnomnopnopq"),
+            "248d6a61d20638b8e5c026930c3e6039a33ce45964ff2167f6ecedd419db06c1"
+        );
+        assert_eq!(
+            sha256_hex(b""),
+            "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855"
+        );
+    }
 }
