@@ -209,9 +209,9 @@ h1 { font-size: 18pt; margin: 0 0 0.2em 0; }
 h2 { font-size: 14pt; border-bottom: 1px solid #999; margin-top: 1.6em; break-after: avoid; }
 h3 { font-size: 12pt; break-after: avoid; }
 p.subtitle { font-size: 12pt; color: #444; margin-top: 0; }
-table { border-collapse: collapse; margin: 0.6em 0 1em 0; font-size: 10pt; }
+table { border-collapse: collapse; margin: 0.6em 0 1em 0; font-size: 9.5pt; max-width: 100%; }
 caption { text-align: left; font-weight: bold; padding-bottom: 0.3em; }
-th, td { border: 1px solid #bbb; padding: 0.2em 0.5em; vertical-align: top; }
+th, td { border: 1px solid #bbb; padding: 0.2em 0.4em; vertical-align: top; }
 th { background: #eee; text-align: left; }
 th .unit { font-weight: normal; color: #555; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }

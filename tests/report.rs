@@ -586,3 +586,46 @@ fn the_example_report_in_docs_is_whole() {
     );
     assert!(!html.contains("http") && !html.contains("<script"));
 }
+
+/// `--harmonics` reaches every part: the ripple table, the envelope's
+/// worst points and findings, the resonance check and the silencer tables
+/// list no harmonic above it.
+#[test]
+fn harmonics_option_reaches_every_part() {
+    let dir = scratch("harmonics");
+    let out = path(&dir, "r.html");
+    let o = ripline(&[
+        "report",
+        "networks/drill_rig_feed_damper.yaml",
+        "--out",
+        &out,
+        "--harmonics",
+        "3",
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let html = std::fs::read_to_string(&out).unwrap();
+    let doc = Html::parse_document(&html);
+    let mut seen = 0;
+    for id in ["envelope", "ripple", "resonances", "silencers"] {
+        for t in tables(section(&doc, id)) {
+            let Some(col) = t
+                .headers
+                .iter()
+                .position(|h| h == "harmonic" || h == "largest harmonic")
+            else {
+                continue;
+            };
+            for row in t
+                .rows
+                .iter()
+                .filter(|r| r.len() > col && r[0] != "overall rms")
+            {
+                let k: u32 = row[col].parse().unwrap_or_else(|_| panic!("{row:?}"));
+                assert!((1..=3).contains(&k), "{id}: `{}`: {row:?}", t.caption);
+                seen += 1;
+            }
+        }
+    }
+    assert!(seen >= 10, "{seen}");
+    std::fs::remove_dir_all(dir).unwrap();
+}
