@@ -265,7 +265,7 @@ impl RawPump {
 /// [`InputError`] as [`super::parse_circuit`] gives it, for text that does
 /// not parse or whose valve blocks cannot be expanded.
 pub fn given_inputs(text: &str, file: &str) -> Result<GivenInputs, InputError> {
-    let raw: RawCircuit = crate::io::parse_yaml(text, file)?;
+    let raw: RawCircuit = super::parse_raw(text, file)?;
     let checker = Checker(FileCheck { text, file });
     let root = KeyPath::root();
     let part = |path: KeyPath, keys: Vec<(&'static str, Given)>| GivenKeys {
