@@ -14,6 +14,7 @@ pub mod check;
 pub mod compare;
 pub mod fit;
 pub mod json;
+pub mod over_envelope;
 pub mod profile;
 pub mod report;
 pub mod response;

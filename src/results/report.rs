@@ -194,6 +194,13 @@ pub fn report(
                     ..FrequencySweep::default()
                 },
                 margin: request.margin,
+                ranking: (
+                    super::Ranking {
+                        top: TOP_FINDINGS,
+                        floor_db: FINDINGS_FLOOR_DB,
+                    },
+                    Origin::Default,
+                ),
             },
             &mut |i, n| progress(base + i * STEP / n.max(1), total),
         )?);
