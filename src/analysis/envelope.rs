@@ -477,7 +477,7 @@ pub fn add_warning(warnings: &mut Vec<EnvelopeWarning>, text: String, label: &st
 
 /// A text with every digit replaced, to compare warnings whose numbers
 /// differ.
-fn without_numbers(text: &str) -> String {
+pub fn without_numbers(text: &str) -> String {
     text.chars()
         .map(|c| if c.is_ascii_digit() { '#' } else { c })
         .collect()

@@ -16,6 +16,7 @@ mod envelope;
 mod fit;
 mod profile;
 mod ranges;
+mod report;
 mod response;
 mod silencer;
 mod solve;
@@ -67,6 +68,10 @@ enum Command {
     /// The circuit over its operating envelope: each limit's verdict
     /// (exit code 3 when one is exceeded) and the findings ranked by level.
     Assess(assess::AssessArgs),
+    /// One self-contained HTML report of a circuit: the verdict against its
+    /// limits, the schematic, inputs, worst ripple, resonances, silencers,
+    /// warnings and cautions (exit code 3 when a limit is exceeded).
+    Report(report::ReportArgs),
 }
 
 /// Exit code for invalid input or usage.
@@ -101,6 +106,7 @@ pub fn main() -> ExitCode {
         Command::Tune(args) => tune::run(args),
         Command::Sweep(args) => sweep::run(args),
         Command::Assess(args) => assess::run(args),
+        Command::Report(args) => report::run(args),
         Command::Compare(args) => compare::run(args),
         Command::Calibrate(args) => calibrate::run(args),
     };

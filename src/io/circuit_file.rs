@@ -9,6 +9,7 @@
 
 mod components;
 mod envelope;
+mod given;
 mod pumps;
 mod settings;
 
@@ -254,75 +255,7 @@ struct RawElement {
 impl RawElement {
     /// The optional keys that are present, by name.
     fn present_keys(&self) -> Vec<&'static str> {
-        let mut keys = Vec::new();
-        let mut add = |name: &'static str, present: bool| {
-            if present {
-                keys.push(name);
-            }
-        };
-        add("from", self.from.is_some());
-        add("to", self.to.is_some());
-        add("at", self.at.is_some());
-        add("length", self.length.is_some());
-        add("bore", self.bore.is_some());
-        add("wall", self.wall.is_some());
-        add("material", self.material.is_some());
-        add("youngs_modulus", self.youngs_modulus.is_some());
-        add("rigid", self.rigid.is_some());
-        add("model", self.model.is_some());
-        add("volume", self.volume.is_some());
-        add("resistance", self.resistance.is_some());
-        add("mean_flow", self.mean_flow.is_some());
-        add("pressure_drop", self.pressure_drop.is_some());
-        add("inertance", self.inertance.is_some());
-        add("line", self.line.is_some());
-        add("wall_model", self.wall_model.is_some());
-        add("poisson_ratio", self.poisson_ratio.is_some());
-        add("construction", self.construction.is_some());
-        add("wave_speed", self.wave_speed.is_some());
-        add("loss_factor", self.loss_factor.is_some());
-        add("reference_frequency", self.reference_frequency.is_some());
-        add("kelvin_voigt", self.kelvin_voigt.is_some());
-        add("neck_length", self.neck_length.is_some());
-        add("neck_bore", self.neck_bore.is_some());
-        add("end_correction", self.end_correction.is_some());
-        add("gas_volume", self.gas_volume.is_some());
-        add("precharge", self.precharge.is_some());
-        add("operating_pressure", self.operating_pressure.is_some());
-        add("polytropic_index", self.polytropic_index.is_some());
-        add("cracking_pressure", self.cracking_pressure.is_some());
-        add("full_open_pressure", self.full_open_pressure.is_some());
-        add("mass", self.mass.is_some());
-        add("spring_rate", self.spring_rate.is_some());
-        add("damping", self.damping.is_some());
-        add("damping_area", self.damping_area.is_some());
-        add("damping_resistance", self.damping_resistance.is_some());
-        add("feedback_area", self.feedback_area.is_some());
-        add("jet_angle", self.jet_angle.is_some());
-        add("flow_gain", self.flow_gain.is_some());
-        add(
-            "flow_pressure_coefficient",
-            self.flow_pressure_coefficient.is_some(),
-        );
-        add("rod_diameter", self.rod_diameter.is_some());
-        add("stroke", self.stroke.is_some());
-        add("position", self.position.is_some());
-        add("dead_volume", self.dead_volume.is_some());
-        add("load_mass", self.load_mass.is_some());
-        add("load_stiffness", self.load_stiffness.is_some());
-        add("load_damping", self.load_damping.is_some());
-        add("friction", self.friction.is_some());
-        add("port", self.port.is_some());
-        add("oil_volume", self.oil_volume.is_some());
-        add("port_length", self.port_length.is_some());
-        add("port_bore", self.port_bore.is_some());
-        add("inlet_extension", self.inlet_extension.is_some());
-        add("outlet_extension", self.outlet_extension.is_some());
-        add("wave_speeds", self.wave_speeds.is_some());
-        add("ports", self.ports.is_some());
-        add("galleries", self.galleries.is_some());
-        add("cavities", self.cavities.is_some());
-        keys
+        self.given().into_iter().map(|(key, _)| key).collect()
     }
 
     /// Whether it connects `from` one node `to` another: two-port kinds,
@@ -555,6 +488,8 @@ pub fn parse_circuit(text: &str, file: &str) -> Result<Circuit, InputError> {
 fn parse_raw(text: &str, file: &str) -> Result<RawCircuit, InputError> {
     super::quantity::allowing_tolerances(|| super::parse_yaml(text, file))
 }
+
+pub use given::{Given, GivenInputs, GivenKeys, given_inputs};
 
 pub use envelope::{
     CircuitFile, MAX_CASES, MAX_LEVELS, MAX_POINTS, load_circuit_file, parse_circuit_at,

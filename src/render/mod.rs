@@ -17,6 +17,7 @@ pub mod fit;
 pub mod json;
 pub mod over_envelope;
 pub mod profile;
+pub mod report;
 pub mod response;
 pub mod silencer;
 pub mod solve;
