@@ -637,7 +637,7 @@ const BAD_BENCH_FILES: &[(&str, &str)] = &[
     ),
     (
         "low_sample_rate.yaml",
-        "data/good.csv: the sample rate 1000 Hz is too low",
+        "data/good.csv: condition `A`: the sample rate 1000 Hz is too low",
     ),
     (
         "missing_harmonic.yaml",
@@ -670,7 +670,7 @@ const BAD_BENCH_FILES: &[(&str, &str)] = &[
     ),
     (
         "short_record.yaml",
-        "data/short.csv: the record is too short",
+        "data/short.csv: condition `A`: the record is too short",
     ),
     (
         "transducer_beyond_line.yaml",

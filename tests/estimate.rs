@@ -20,11 +20,11 @@ use ripline::estimate::bench::{
     ReferenceLine, SpeedOfSound, Synthesis, Termination, Transducer,
 };
 use ripline::estimate::decompose::decompose;
-use ripline::estimate::extract::{ConditionSpectra, ExtractRequest, TimeRecord, extract};
+use ripline::estimate::extract::ConditionSpectra;
 use ripline::estimate::rng::Rng;
 use ripline::estimate::synth::{self, Drive};
 use ripline::estimate::wavespeed::{self, FitStatus, Observation, SearchSettings};
-use ripline::estimate::{FitOptions, FitReport, Quiet, fit, two_systems};
+use ripline::estimate::{FitOptions, FitReport, Quiet, fit, selfcheck, two_systems};
 use ripline::fluid::Fluid;
 use ripline::line::LineModel;
 use ripline::source::{FlowHarmonic, FlowRipple, SourceImpedance};
@@ -50,9 +50,12 @@ fn condition(name: &str, kind: ConditionKind, r_load: f64) -> Condition {
             resistance_pa_s_m3: Some(r_load),
             volume_m3: None,
         }),
-        data: DataFile::Spectra {
+        data: DataFile::TimeSeries {
             path: "unused.csv".into(),
             unit_pa: 1.0,
+            sample_rate_hz: None,
+            time_column: None,
+            tacho_column: None,
             columns: vec![],
         },
     }
@@ -303,40 +306,7 @@ fn extracted(bench: &Bench, noise: f64, seed: u64, speed_error: f64) -> Vec<Cond
     let mut syn = bench.synthesis.clone().unwrap();
     syn.noise = noise;
     syn.speed_error = speed_error;
-    let mut rng = Rng::new(seed);
-    let fs = syn.sample_rate_hz.unwrap();
-    bench
-        .conditions
-        .iter()
-        .map(|cond| {
-            let lines = synth::condition_lines(bench, &syn, cond).unwrap();
-            let channels = synth::time_series(
-                &lines,
-                bench.transducers.len(),
-                fs,
-                syn.duration_s,
-                syn.mean_pressure_pa,
-                noise,
-                &mut rng,
-            );
-            let rec = TimeRecord {
-                file: cond.name.clone(),
-                sample_rate_hz: fs,
-                channels,
-            };
-            let req = ExtractRequest {
-                pump_fundamental_hz: bench.pump.pumping_frequency_hz(),
-                harmonics: bench.harmonics,
-                secondary_fundamental_hz: match cond.kind {
-                    ConditionKind::SecondarySource { fundamental_hz, .. } => Some(fundamental_hz),
-                    ConditionKind::Pump => None,
-                },
-                segments: bench.extraction.segments,
-                speed_tolerance: bench.extraction.speed_tolerance,
-            };
-            extract(&rec, &req, &mut Quiet).unwrap()
-        })
-        .collect()
+    selfcheck::synthetic_spectra(bench, &syn, &mut Rng::new(seed)).unwrap()
 }
 
 /// The true Qs and Zs at each reported harmonic (actual speed).
@@ -398,6 +368,7 @@ fn check_round_trip_on(
     let options = FitOptions {
         draws: 60,
         seed: 11,
+        ..FitOptions::default()
     };
     let exact = fit(bench, exact_data, &options, &mut Quiet).unwrap();
     assert_eq!(exact.harmonics.len(), bench.harmonics as usize);
@@ -488,7 +459,16 @@ fn secondary_source_round_trip() {
     b.method = Method::SecondarySource {
         impedance_fit: ImpedanceFit::Interpolate,
     };
-    let r = fit(&b, &exact, &FitOptions { draws: 0, seed: 1 }, &mut Quiet).unwrap();
+    let r = fit(
+        &b,
+        &exact,
+        &FitOptions {
+            draws: 0,
+            ..FitOptions::default()
+        },
+        &mut Quiet,
+    )
+    .unwrap();
     let (eq, ez) = max_rel_error(&b, &r);
     assert!(eq < 1e-3 && ez < 1e-3, "{eq} {ez}");
 }

@@ -6,7 +6,7 @@ use anyhow::Context;
 use clap::Args;
 use indicatif::{ProgressBar, ProgressStyle};
 use ripline::estimate::bench::{Bench, SpeedOfSound};
-use ripline::estimate::fit::{Estimate, FitReport, HarmonicResult};
+use ripline::estimate::fit::{Estimate, FitReport, HarmonicResult, HarmonicStatus};
 use ripline::estimate::{FitOptions, Observer, fit};
 use ripline::io::output::StagedOutputs;
 use ripline::io::source_file::{PumpSource, SourceHarmonic, write_source_file};
@@ -37,6 +37,10 @@ pub struct FitArgs {
     /// Plot amplitude and phase of Qs and Zs against frequency (.svg or .png).
     #[arg(long, value_name = "FILE")]
     plot: Option<PathBuf>,
+    /// Include ill-conditioned, extrapolated and unstable harmonics in the
+    /// overall levels.
+    #[arg(long)]
+    include_flagged: bool,
 }
 
 /// Header of the `--csv` table.
@@ -90,17 +94,11 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
         bench.harmonics = n;
     }
     let mut progress = Progress(None);
-    let mut data = Vec::with_capacity(bench.conditions.len());
-    for cond in &bench.conditions {
-        data.push(ripline::io::records::load_condition(
-            &bench,
-            cond,
-            &mut progress,
-        )?);
-    }
+    let data = ripline::io::records::load_conditions(&bench, &mut progress)?;
     let options = FitOptions {
         draws: args.draws,
         seed: args.seed,
+        include_flagged: args.include_flagged,
     };
     let report = fit(&bench, &data, &options, &mut progress)
         .map_err(|e| UsageError(format!("{}: {e}", args.file.display())))?;
@@ -210,6 +208,8 @@ fn source_of(report: &FitReport) -> PumpSource {
                 impedance: h.impedance.value,
                 flow_uncertainty: h.flow.uncertainty.map(|u| u.amplitude),
                 impedance_uncertainty: h.impedance.uncertainty.map(|u| u.amplitude),
+                status: h.status,
+                note: (h.status != HarmonicStatus::Estimated).then(|| h.flags.join("; ")),
             })
             .collect(),
     }
@@ -324,7 +324,11 @@ fn print_report(file: &Path, bench: &Bench, report: &FitReport) -> anyhow::Resul
             zp,
             bar_pm(&h.anechoic),
             bar_pm(&h.blocked),
-            if h.flags.is_empty() { "" } else { " *" }
+            match (h.status, h.flags.is_empty()) {
+                (HarmonicStatus::Estimated, true) => String::new(),
+                (HarmonicStatus::Estimated, false) => " *".into(),
+                (s, _) => format!(" * {}", s.key()),
+            }
         )?;
     }
     let rms = |s: &ripline::estimate::fit::Scalar| match s.uncertainty {
@@ -332,11 +336,25 @@ fn print_report(file: &Path, bench: &Bench, report: &FitReport) -> anyhow::Resul
         None => PressureDisplay(s.value).to_string(),
     };
     writeln!(out)?;
+    let left_out: Vec<String> = report
+        .harmonics
+        .iter()
+        .filter(|h| !report.rms_orders.contains(&h.order))
+        .map(|h| h.order.to_string())
+        .collect();
     writeln!(
         out,
-        "overall rms: anechoic {}, blocked {} (reference line Zc at the estimated speed of sound)",
+        "overall rms: anechoic {}, blocked {} (reference line Zc at the estimated speed of sound{})",
         rms(&report.anechoic_rms_pa),
-        rms(&report.blocked_rms_pa)
+        rms(&report.blocked_rms_pa),
+        if left_out.is_empty() {
+            String::new()
+        } else {
+            format!(
+                "; flagged harmonics {} left out, --include-flagged to include them",
+                left_out.join(", ")
+            )
+        }
     )?;
     out.flush()?;
     Ok(())

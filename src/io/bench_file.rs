@@ -123,24 +123,21 @@ enum RawImpedanceFit {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(
-    deny_unknown_fields,
-    expecting = "a mapping with segments and speed_tolerance"
-)]
+#[serde(deny_unknown_fields, expecting = "a mapping with speed_tolerance")]
 struct RawExtraction {
-    segments: Option<usize>,
     speed_tolerance: Option<Q<q::Ratio>>,
 }
 
 #[derive(Debug, Deserialize)]
 #[serde(
     deny_unknown_fields,
-    expecting = "a mapping with unit, sample_rate and time_column"
+    expecting = "a mapping with unit, sample_rate, time_column and tacho_column"
 )]
 struct RawRecords {
     unit: Option<String>,
     sample_rate: Option<Q<q::Frequency>>,
     time_column: Option<String>,
+    tacho_column: Option<String>,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
@@ -166,6 +163,7 @@ struct RawCondition {
     unit: Option<String>,
     sample_rate: Option<Q<q::Frequency>>,
     time_column: Option<String>,
+    tacho_column: Option<String>,
     columns: Option<BTreeMap<String, String>>,
 }
 
@@ -376,16 +374,11 @@ impl Checker<'_> {
             None => Extraction::default(),
             Some(e) => {
                 let ep = root.key("extraction");
-                let segments = e.segments.unwrap_or(8);
-                if !(2..=256).contains(&segments) {
-                    return Err(self.err(&ep.key("segments"), format!("must be between 2 and 256 (the spread of the segments gives the noise), found {segments}")));
-                }
                 let tol = match e.speed_tolerance {
                     None => 0.05,
                     Some(t) => self.in_range(&ep.key("speed_tolerance"), t.si, 1e-4, 0.2, "")?,
                 };
                 Extraction {
-                    segments,
                     speed_tolerance: tol,
                 }
             }
@@ -628,11 +621,26 @@ impl Checker<'_> {
                 if sample_rate_hz.is_none() && time_column.is_none() {
                     return Err(self.err(cp, "time-series records need `sample_rate` or `time_column` (here or under `records`)"));
                 }
+                let tacho_column = c
+                    .tacho_column
+                    .clone()
+                    .or(defaults.and_then(|d| d.tacho_column.clone()));
+                if let Some(tc) = &tacho_column
+                    && (columns.contains(tc) || time_column.as_ref() == Some(tc))
+                {
+                    return Err(self.err(
+                        &cp.key("tacho_column"),
+                        format!(
+                            "the tacho column `{tc}` is also a transducer's or the time column"
+                        ),
+                    ));
+                }
                 DataFile::TimeSeries {
                     path: base.join(f),
                     unit_pa,
                     sample_rate_hz,
                     time_column,
+                    tacho_column,
                     columns,
                 }
             }

@@ -15,7 +15,9 @@ pub mod records;
 pub mod source_file;
 mod validate;
 
-pub use circuit_file::{load_circuit, parse_circuit, parse_circuit_at_temperature};
+pub use circuit_file::{
+    load_circuit, parse_circuit, parse_circuit_at_temperature, source_file_notes,
+};
 
 use locate::KeyPath;
 use std::fmt;

@@ -15,7 +15,13 @@
 //!     impedance_phase: -87.0 deg
 //!     flow_uncertainty: 2e-7        # optional, m³/s
 //!     impedance_uncertainty: 3e8    # optional, Pa·s/m³
+//!     status: ill_conditioned       # optional: estimated (default), extrapolated,
+//!                                   # ill_conditioned, unstable
+//!     note: "…"                     # optional: why, and the bias to expect
 //! ```
+//!
+//! A harmonic whose status is not `estimated` is still used by circuits,
+//! with a warning (see [`source_file_notes`](super::circuit_file::source_file_notes)).
 //!
 //! The flow ripple becomes a harmonic table at the measured speed (scaled in
 //! proportion to speed elsewhere) and the impedance a table against
@@ -25,13 +31,14 @@ use super::InputError;
 use super::locate::KeyPath;
 use super::quantity::{self as q, Q};
 use crate::C64;
+use crate::estimate::fit::HarmonicStatus;
 use crate::source::{FlowHarmonic, FlowRipple, ImpedanceTable, SourceImpedance};
 use serde::Deserialize;
 use std::io::Write;
 use std::path::Path;
 
 /// One harmonic of a pump source.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct SourceHarmonic {
     /// Harmonic order k of the pumping frequency.
     pub order: u32,
@@ -43,6 +50,10 @@ pub struct SourceHarmonic {
     pub flow_uncertainty: Option<f64>,
     /// Standard uncertainty of |Zs| in Pa·s/m³, if known.
     pub impedance_uncertainty: Option<f64>,
+    /// How far the estimate can be trusted (from the bench fit).
+    pub status: HarmonicStatus,
+    /// Why, and the bias to expect, if the status is not `estimated`.
+    pub note: Option<String>,
 }
 
 /// A pump's Norton parameters per harmonic at one speed.
@@ -120,6 +131,8 @@ struct RawSourceHarmonic {
     impedance_phase: Q<q::Angle>,
     flow_uncertainty: Option<Q<q::Flow>>,
     impedance_uncertainty: Option<Q<q::Resistance>>,
+    status: Option<String>,
+    note: Option<String>,
 }
 
 /// Reads and validates a pump source file.
@@ -197,13 +210,25 @@ pub fn parse_source(text: &str, file: &str) -> Result<PumpSource, InputError> {
                 ),
             ));
         }
-        let nonneg = |v: Option<Q<q::Flow>>| v.map(|q| q.si);
+        let status = match h.status.as_deref() {
+            None => HarmonicStatus::Estimated,
+            Some(s) => HarmonicStatus::from_key(s).ok_or_else(|| {
+                err(
+                    &hp.key("status"),
+                    format!(
+                        "unknown status `{s}`: write estimated, extrapolated, ill_conditioned or unstable"
+                    ),
+                )
+            })?,
+        };
         harmonics.push(SourceHarmonic {
             order: h.harmonic,
             flow: C64::from_polar(h.flow_amplitude.si, h.flow_phase.si),
             impedance: C64::from_polar(h.impedance_amplitude.si, h.impedance_phase.si),
-            flow_uncertainty: nonneg(h.flow_uncertainty),
+            flow_uncertainty: h.flow_uncertainty.map(|q| q.si),
             impedance_uncertainty: h.impedance_uncertainty.map(|q| q.si),
+            status,
+            note: h.note.clone(),
         });
     }
     for (i, h) in harmonics.iter().enumerate() {
@@ -261,6 +286,12 @@ pub fn write_source_file<W: Write>(
         if let Some(u) = h.impedance_uncertainty {
             writeln!(out, "    impedance_uncertainty: {u:e} Pa.s/m3")?;
         }
+        if h.status != HarmonicStatus::Estimated {
+            writeln!(out, "    status: {}", h.status.key())?;
+        }
+        if let Some(n) = &h.note {
+            writeln!(out, "    note: {}", yaml_string(n))?;
+        }
     }
     Ok(())
 }
@@ -297,6 +328,8 @@ mod tests {
                     impedance: C64::new(1.0e8, -1.13e10),
                     flow_uncertainty: Some(1e-7),
                     impedance_uncertainty: None,
+                    status: HarmonicStatus::Estimated,
+                    note: None,
                 },
                 SourceHarmonic {
                     order: 2,
@@ -304,6 +337,8 @@ mod tests {
                     impedance: C64::new(5e7, -5.6e9),
                     flow_uncertainty: None,
                     impedance_uncertainty: Some(2e8),
+                    status: HarmonicStatus::IllConditioned,
+                    note: Some("cond = 14 \"high\"".into()),
                 },
             ],
         };
@@ -318,6 +353,7 @@ mod tests {
             assert!((a.impedance - b.impedance).norm() < 1e-15 * b.impedance.norm());
             assert_eq!(a.flow_uncertainty, b.flow_uncertainty);
             assert_eq!(a.impedance_uncertainty, b.impedance_uncertainty);
+            assert_eq!((a.status, &a.note), (b.status, &b.note));
         }
         // The impedance table holds the values at k·f_p.
         let SourceImpedance::Table(t) = back.source_impedance().unwrap() else {
