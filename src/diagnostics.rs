@@ -46,6 +46,7 @@ pub fn circuit_warnings(circuit: &Circuit, max_freq_hz: f64) -> Vec<Warning> {
     }
     for e in &circuit.elements {
         out.extend(silencer_warning(e, max_freq_hz));
+        out.extend(bottomed_damper_warning(e));
         if let Some(line) = e.kind.line() {
             let p = &line.properties;
             let limit = plane_wave_limit_hz(p.wave_speed_m_s(), 2.0 * p.radius_m);
@@ -123,6 +124,23 @@ pub fn conditioning_warning(solution: &Solution) -> Option<Warning> {
             "the network is nearly singular here (condition number {:.1e}): an undamped or lightly damped resonance lies at or very near this frequency; about {:.0} significant digits are lost to round-off",
             solution.condition,
             solution.condition.log10()
+        ),
+    })
+}
+
+/// A pulsation damper whose mean operating pressure is below its precharge:
+/// it is bottomed, its gas out of the circuit
+/// ([`crate::elements::PulsationDamper::is_bottomed`]).
+pub fn bottomed_damper_warning(e: &crate::elements::Element) -> Option<Warning> {
+    let ElementKind::Damper(d) = &e.kind else {
+        return None;
+    };
+    d.is_bottomed().then(|| Warning {
+        subject: format!("{} `{}`", e.kind.name(), e.name),
+        message: format!(
+            "the mean pressure {:.2} bar abs is below its precharge {:.2} bar abs: the damper is bottomed (the separator rests on the oil port), its gas is out of the circuit and only its neck remains, a short closed branch; it damps almost nothing here",
+            d.operating_pa / 1e5,
+            d.precharge_pa / 1e5
         ),
     })
 }

@@ -44,6 +44,7 @@ pub mod circuit;
 pub mod demo;
 pub mod diagnostics;
 pub mod elements;
+pub mod envelope;
 pub mod estimate;
 pub mod fluid;
 pub mod hose;

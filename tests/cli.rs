@@ -405,9 +405,30 @@ const BAD_FILES: &[(&str, &str)] = &[
         "wall_key_on_hose.yaml",
         ":65:5: elements[1].wall: key `wall` does not apply to a `hose`",
     ),
+    // envelopes and limits
     (
-        "damper_below_precharge.yaml",
-        ":71:5: elements[3].operating_pressure: the operating pressure 51.01 bar abs is below the precharge 121.01 bar abs",
+        "limits_unknown_tap.yaml",
+        ":34:3: limits[1].tap: no measurement point is called `valve block`; the points are: `outlet`, `end`",
+    ),
+    (
+        "limits_bad_level.yaml",
+        ":34:3: limits[1].harmonic: `150 dB re 1 m`: unknown unit `m` for a pressure",
+    ),
+    (
+        "envelope_case_unknown_element.yaml",
+        ":29:9: envelope.cases[1].set.throttle: no element is called `throttle`",
+    ),
+    (
+        "envelope_case_sets_a_connection.yaml",
+        ":29:9: envelope.cases[1].set.valve.to: a load case cannot change an element's `to`",
+    ),
+    (
+        "envelope_temperatures_without_grade.yaml",
+        ":24:3: envelope.temperatures: the fluid has no temperature model",
+    ),
+    (
+        "damper_pressure_disagrees.yaml",
+        ":72:5: elements[3].operating_pressure: 201.013 bar abs disagrees with the fluid's mean pressure `fluid.pressure`, 151.013 bar abs",
     ),
     (
         "gas_pressure_without_abs_or_gauge.yaml",
@@ -1267,17 +1288,17 @@ fn the_readme_demo_numbers_hold() {
     for (tap, without, with, readme_without, readme_with) in [
         (
             "head block",
-            "4.0033 bar rms",
-            "8.265 kPa rms",
-            "4.003 bar",
-            "0.0083 bar (−33.7 dB)",
+            "4.1598 bar rms",
+            "0.1024 bar rms",
+            "4.160 bar",
+            "0.102 bar (−32.2 dB)",
         ),
         (
             "pump outlet",
-            "7.2717 bar rms",
-            "0.6231 bar rms",
-            "7.272 bar",
-            "0.623 bar (−21.3 dB)",
+            "7.4244 bar rms",
+            "0.7083 bar rms",
+            "7.424 bar",
+            "0.708 bar (−20.4 dB)",
         ),
     ] {
         // Bounds that pin the damper to the file's design.

@@ -71,6 +71,7 @@ pub fn main() -> ExitCode {
             };
         }
     };
+    common::remove_outputs_on_signal();
     let result = match cli.command {
         Command::Solve(args) => solve::run(args),
         Command::Check(args) => check::run(args),
@@ -92,7 +93,7 @@ pub fn main() -> ExitCode {
             for cause in err.chain().skip(1) {
                 text.push_str(&format!("\n  caused by: {cause}"));
             }
-            eprintln!("{text}");
+            eprintln!("{}", ripline::io::message::readable(&text));
             ExitCode::from(common::exit_code(&err))
         }
     }

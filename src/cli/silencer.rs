@@ -17,7 +17,6 @@ use ripline::analysis::tune::speed_conditions;
 use ripline::diagnostics::plane_wave_limit_hz;
 use ripline::elements::{Connection, Element, ElementKind, PRESSURE_VESSEL_CAUTION};
 use ripline::io::csv_response::{HarmonicLoss, write_harmonic_loss_csv, write_loss_csv};
-use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
 use ripline::units::PressureDisplay;
@@ -72,6 +71,15 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     let harmonic_csv_path = ranges::csv_output("--harmonic-csv", args.harmonic_csv.as_deref())?;
     let plot_path = ranges::plot_output(args.plot.as_deref())?;
     let loaded = common::load_circuit(Some(&args.file))?;
+    let mut outputs = common::plan_outputs(
+        &[],
+        &[
+            ("--csv", csv_path.as_deref()),
+            ("--harmonic-csv", harmonic_csv_path.as_deref()),
+            ("--plot", plot_path.as_deref()),
+        ],
+        false,
+    )?;
     let circuit = &loaded.circuit;
     let ids = args
         .element
@@ -204,7 +212,6 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     }
 
     let (bands, _) = ranges::excited_bands(pump, &speeds, circuit.harmonics);
-    let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
         common::stage_csv(&mut outputs, path, |buf| {
             write_loss_csv(&freqs, &tl, &il, buf)
@@ -391,28 +398,38 @@ pub fn describe(e: &Element, pipe: Option<&ripline::elements::Tube>) -> Vec<Stri
                 "the bare neck length"
             }
         )],
-        ElementKind::Damper(d) => vec![
-            format!(
+        ElementKind::Damper(d) => {
+            let mut v = vec![format!(
                 "gas-charged pulsation damper, gas volume {:.4} L at a precharge of {:.2} bar abs, operating at {:.2} bar abs, polytropic index {:.2}",
                 d.gas_volume_m3 * 1e3,
                 d.precharge_pa / 1e5,
                 d.operating_pa / 1e5,
                 d.polytropic_index
-            ),
-            format!(
-                "gas volume at the operating pressure {:.4} L (Boyle's law, isothermal charging), oil in the vessel {:.4} L; compliance {:.4e} m³/Pa",
-                d.gas_volume_at_operating_m3() * 1e3,
-                d.oil_volume_m3() * 1e3,
-                d.compliance()
-            ),
-            format!(
-                "neck {:.2} mm long, {:.2} mm bore: lumped resonance {:.2} Hz (it attenuates above it); gas energy at the operating pressure about {:.1} kJ",
-                d.neck_length_m * 1e3,
-                d.neck.radius_m * 2e3,
-                d.lumped_resonance_hz(),
-                d.stored_energy_j() / 1e3
-            ),
-        ],
+            )];
+            match d.lumped_resonance_hz() {
+                Some(f_r) => v.extend([
+                    format!(
+                        "gas volume at the operating pressure {:.4} L (Boyle's law, isothermal charging), oil in the vessel {:.4} L; compliance {:.4e} m³/Pa",
+                        d.gas_volume_at_operating_m3() * 1e3,
+                        d.oil_volume_m3() * 1e3,
+                        d.compliance()
+                    ),
+                    format!(
+                        "neck {:.2} mm long, {:.2} mm bore: lumped resonance {f_r:.2} Hz (it attenuates above it); gas energy at the operating pressure about {:.1} kJ",
+                        d.neck_length_m * 1e3,
+                        d.neck.radius_m * 2e3,
+                        d.stored_energy_j() / 1e3
+                    ),
+                ]),
+                None => v.push(format!(
+                    "BOTTOMED: the operating pressure is below the precharge, so the gas is out of the circuit and only the neck ({:.2} mm long, {:.2} mm bore) remains, closed at its end; the gas still holds about {:.1} kJ at its precharge",
+                    d.neck_length_m * 1e3,
+                    d.neck.radius_m * 2e3,
+                    d.stored_energy_j() / 1e3
+                )),
+            }
+            v
+        }
         _ => Vec::new(),
     }
 }

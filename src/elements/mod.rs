@@ -23,9 +23,9 @@ pub use ends::Anechoic;
 pub use hose::Hose;
 pub use lumped::{Inertance, LoadValve, Orifice, Volume, orifice_resistance};
 pub use silencers::{
-    DamperError, ExpansionChamber, FLANGED_END_CORRECTION, HelmholtzResonator,
-    PRESSURE_VESSEL_CAUTION, PulsationDamper, STANDARD_ATMOSPHERE_PA, SideBranch,
-    loaded_line_admittance, rigid_neck, tanh_gamma_l,
+    ExpansionChamber, FLANGED_END_CORRECTION, HelmholtzResonator, PRESSURE_VESSEL_CAUTION,
+    PulsationDamper, STANDARD_ATMOSPHERE_PA, SideBranch, loaded_line_admittance, rigid_neck,
+    tanh_gamma_l,
 };
 pub use tube::{Tube, line_behaviour};
 

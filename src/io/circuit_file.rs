@@ -7,6 +7,7 @@
 //! SI; its errors carry the key path, mapped back to a line by
 //! [`super::locate`]. The file format is documented in README.md.
 
+mod envelope;
 mod pumps;
 
 use super::InputError;
@@ -51,6 +52,8 @@ struct RawCircuit {
     elements: Vec<RawElement>,
     #[serde(default)]
     taps: Vec<RawTap>,
+    envelope: Option<envelope::RawEnvelope>,
+    limits: Option<Vec<envelope::RawLimit>>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -392,8 +395,13 @@ pub fn load_circuit(path: &Path) -> Result<Circuit, InputError> {
 /// [`InputError`] naming the file, the line and the key at fault.
 pub fn parse_circuit(text: &str, file: &str) -> Result<Circuit, InputError> {
     let raw: RawCircuit = super::parse_yaml(text, file)?;
-    Checker(FileCheck { text, file }).circuit(raw)
+    Checker(FileCheck { text, file }).circuit(&raw)
 }
+
+pub use envelope::{
+    CircuitFile, MAX_CASES, MAX_LEVELS, MAX_POINTS, load_circuit_file, parse_circuit_at,
+    parse_circuit_file,
+};
 
 /// Parses circuit text as [`parse_circuit`] does, with the oil at another
 /// temperature (K): the fluid's temperature-dependent properties (density,
@@ -409,17 +417,11 @@ pub fn parse_circuit_at_temperature(
     file: &str,
     temperature_k: f64,
 ) -> Result<Circuit, InputError> {
-    let mut raw: RawCircuit = super::parse_yaml(text, file)?;
-    if raw.fluid.grade.is_none() && raw.fluid.viscosity_points.is_none() {
-        return Err(InputError::located(
-            file,
-            text,
-            &KeyPath::root().key("fluid"),
-            "the fluid has no temperature model: give a `grade` (or `viscosity_points`) with a `temperature` to evaluate the circuit at other temperatures",
-        ));
-    }
-    raw.fluid.temperature = Some(Q::new(temperature_k));
-    Checker(FileCheck { text, file }).circuit(raw)
+    let point = crate::envelope::OperatingPoint {
+        temperature_k: Some(temperature_k),
+        ..Default::default()
+    };
+    parse_circuit_at(text, file, &point)
 }
 
 /// The explicit fluid values of a circuit text that do not follow the oil's
@@ -487,7 +489,7 @@ impl<'a> std::ops::Deref for Checker<'a> {
 }
 
 impl Checker<'_> {
-    fn circuit(&self, raw: RawCircuit) -> Res<Circuit> {
+    fn circuit(&self, raw: &RawCircuit) -> Res<Circuit> {
         let root = KeyPath::root();
         let fluid = self.fluid(&root.key("fluid"), &raw.fluid)?;
         let line_model = raw.line_model.map_or(LineModel::Laminar, LineModel::from);
@@ -606,9 +608,13 @@ impl Checker<'_> {
                 RawKind::HelmholtzResonator => Some(ElementKind::Helmholtz(
                     self.helmholtz(&path, e, &fluid, line_model)?,
                 )),
-                RawKind::PulsationDamper => Some(ElementKind::Damper(
-                    self.damper(&path, e, &fluid, line_model)?,
-                )),
+                RawKind::PulsationDamper => Some(ElementKind::Damper(self.damper(
+                    &path,
+                    e,
+                    &fluid,
+                    raw.fluid.pressure.map(|p| p.si),
+                    line_model,
+                )?)),
                 RawKind::AnechoicEnd => None,
             });
         }
@@ -700,6 +706,7 @@ impl Checker<'_> {
             };
             self.err(&path, e.to_string())
         })?;
+        self.envelope_sections(raw, &circuit)?;
         Ok(circuit)
     }
 
@@ -1161,28 +1168,59 @@ impl Checker<'_> {
         })
     }
 
+    /// A pulsation damper. Its mean operating pressure is its
+    /// `operating_pressure`, or else the fluid's mean `pressure` (gauge),
+    /// which it follows; when both are given they must agree. Below the
+    /// precharge the damper is bottomed ([`PulsationDamper::is_bottomed`];
+    /// `diagnostics` warns).
     fn damper(
         &self,
         path: &KeyPath,
         e: &RawElement,
         fluid: &Fluid,
+        fluid_gauge_pa: Option<f64>,
         default: LineModel,
     ) -> Res<PulsationDamper> {
         let gas_volume =
             self.required_in(path, "gas_volume", e.gas_volume, e.kind, 1e-7, 1.0, "m³")?;
-        let gas = |key: &str, value: Option<GasPressure>| -> Res<f64> {
-            let p = value.ok_or_else(|| {
+        let gas = |key: &str, value: GasPressure| -> Res<f64> {
+            self.in_range(&path.key(key), value.absolute_pa, 1e4, 1e9, "Pa (absolute)")
+        };
+        let precharge = gas(
+            "precharge",
+            e.precharge.ok_or_else(|| {
                 self.err(
                     path,
-                    format!(
-                        "a `pulsation_damper` needs the key `{key}` (a gas pressure such as `60 bar abs` or `59 bar gauge`)"
-                    ),
+                    "a `pulsation_damper` needs the key `precharge` (a gas pressure such as `60 bar abs` or `59 bar gauge`)",
                 )
-            })?;
-            self.in_range(&path.key(key), p.absolute_pa, 1e4, 1e9, "Pa (absolute)")
+            })?,
+        )?;
+        let from_fluid = fluid_gauge_pa.map(|p| p + crate::elements::STANDARD_ATMOSPHERE_PA);
+        let operating = match (e.operating_pressure, from_fluid) {
+            (Some(p), None) => gas("operating_pressure", p)?,
+            (Some(p), Some(f)) => {
+                let p = gas("operating_pressure", p)?;
+                if (p - f).abs() > 1.0 + 1e-6 * f {
+                    return Err(self.err(
+                        &path.key("operating_pressure"),
+                        format!(
+                            "{:.3} bar abs disagrees with the fluid's mean pressure `fluid.pressure`, {:.3} bar abs: remove `operating_pressure` (the damper then follows `fluid.pressure` and the envelope's pressures) or make the two agree",
+                            p / 1e5,
+                            f / 1e5
+                        ),
+                    ));
+                }
+                p
+            }
+            // fluid.pressure is at least -0.9 bar gauge, within the gas range
+            (None, Some(f)) => f,
+            (None, None) => {
+                return Err(self.err(
+                    path,
+                    "a `pulsation_damper` needs its mean operating pressure: give the fluid's mean `pressure` (which it follows), or `operating_pressure` (a gas pressure such as `200 bar gauge`)",
+                ));
+            }
         };
-        let precharge = gas("precharge", e.precharge)?;
-        let operating = gas("operating_pressure", e.operating_pressure)?;
         let kappa = match e.polytropic_index {
             None => 1.4,
             Some(k) if (1.0..=1.67).contains(&k) => k,
@@ -1196,7 +1234,7 @@ impl Checker<'_> {
             }
         };
         let (neck_length_m, neck) = self.neck(path, e, fluid, default)?;
-        let damper = PulsationDamper {
+        Ok(PulsationDamper {
             gas_volume_m3: gas_volume,
             precharge_pa: precharge,
             operating_pa: operating,
@@ -1204,11 +1242,7 @@ impl Checker<'_> {
             bulk_modulus_pa: fluid.bulk_modulus_pa,
             neck_length_m,
             neck,
-        };
-        damper
-            .validate()
-            .map_err(|err| self.err(&path.key("operating_pressure"), err.to_string()))?;
-        Ok(damper)
+        })
     }
 
     /// A resistance given directly, or linearised from a mean operating point.
