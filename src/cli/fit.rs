@@ -40,6 +40,12 @@ pub struct FitArgs {
     /// overall levels.
     #[arg(long)]
     include_flagged: bool,
+    /// Instead of fitting the records: fit N sets of synthetic data made
+    /// from the bench file's `synthesis` section at its noise (seeds from
+    /// --seed on) and report per harmonic the bias, the spread over the
+    /// reported uncertainty and the coverage (--csv writes that table).
+    #[arg(long, value_name = "N", conflicts_with_all = ["source_out", "plot"])]
+    self_check: Option<usize>,
 }
 
 /// Most Monte Carlo draws: the relative standard error of a standard
@@ -105,6 +111,30 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
         }
         bench.harmonics = n;
     }
+    let options = FitOptions {
+        draws: args.draws,
+        seed: args.seed,
+        include_flagged: args.include_flagged,
+    };
+    if let Some(seeds) = args.self_check {
+        let mut outputs =
+            common::plan_outputs(&[&args.file], &[("--csv", csv_path.as_deref())], false)?;
+        let mut progress = Progress(None);
+        let report = super::fit_check::run(&args.file, &bench, seeds, options, &mut progress)?;
+        progress.finish();
+        if let Some(path) = &csv_path {
+            let mut bytes = Vec::new();
+            super::fit_check::write_csv(&mut bytes, &report)?;
+            outputs
+                .stage_bytes(path, &bytes)
+                .with_context(|| format!("writing {}", path.display()))?;
+        }
+        common::commit(outputs)?;
+        let mut out = std::io::stdout().lock();
+        super::fit_check::write_text(&mut out, &args.file, &report)?;
+        out.flush()?;
+        return Ok(());
+    }
     let records: Vec<&Path> = bench.conditions.iter().map(|c| c.data.path()).collect();
     let mut outputs = common::plan_outputs(
         &records,
@@ -117,11 +147,6 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
     )?;
     let mut progress = Progress(None);
     let data = ripline::io::records::load_conditions(&bench, &mut progress)?;
-    let options = FitOptions {
-        draws: args.draws,
-        seed: args.seed,
-        include_flagged: args.include_flagged,
-    };
     let report = fit(&bench, &data, &options, &mut progress)
         .map_err(|e| UsageError(format!("{}: {e}", args.file.display())))?;
     progress.finish();

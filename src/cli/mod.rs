@@ -8,6 +8,7 @@
 mod check;
 mod common;
 mod fit;
+mod fit_check;
 mod profile;
 mod ranges;
 mod response;

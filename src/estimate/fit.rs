@@ -607,19 +607,9 @@ pub fn fit(
             });
         if let Some(b) = expected_bias {
             flags.push(format!(
-                "expected bias from the conditioning: |Qs| {:+.1} %, |Zs| {:+.1} % (median of the Monte Carlo draws against the estimate); left out of the overall levels{}",
+                "expected bias from the conditioning: |Qs| {:+.1} %, |Zs| {:+.1} % (median of the Monte Carlo draws against the estimate)",
                 100.0 * b.flow,
                 100.0 * b.impedance,
-                if options.include_flagged { " unless included on request (it is)" } else { "" }
-            ));
-        } else if status != HarmonicStatus::Estimated {
-            flags.push(format!(
-                "left out of the overall levels{}",
-                if options.include_flagged {
-                    " unless included on request (it is)"
-                } else {
-                    ""
-                }
             ));
         }
         for f in &flags {
