@@ -697,6 +697,14 @@ const BAD_BENCH_FILES: &[(&str, &str)] = &[
         "transducer_beyond_line.yaml",
         "conditions[1].line_length: the line (0.9 m) must reach beyond the last transducer (1.05 m)",
     ),
+    (
+        "tacho_constant.yaml",
+        "data/tacho_constant.csv: column `tach`: condition `A`: the tacho channel holds no pulses",
+    ),
+    (
+        "tacho_irregular.yaml",
+        "data/tacho_irregular.csv:963: column `tach`: condition `A`: irregular tacho pulses",
+    ),
     ("unknown_bench_key.yaml", "unknown field `colour`"),
     (
         "wrong_columns.yaml",
@@ -781,10 +789,17 @@ fn demo_bench_fit_recovers_the_known_source() {
     ]);
     assert!(o.status.success(), "{}", stderr(&o));
     let out = stdout(&o);
-    assert!(
-        out.contains("1503.0 rpm measured") && out.contains("estimated in situ"),
-        "{out}"
-    );
+    // The speed with the digits its uncertainty supports: 1503.0 rpm within
+    // a few of its standard uncertainties.
+    let measured = out
+        .split("pump `demo piston pump`: ")
+        .nth(1)
+        .and_then(|r| r.split(" rpm measured").next())
+        .unwrap();
+    let (rpm, u) = measured.split_once(" ± ").unwrap();
+    let (rpm, u): (f64, f64) = (rpm.parse().unwrap(), u.parse().unwrap());
+    assert!((rpm - 1503.0).abs() < 4.0 * u, "{measured}");
+    assert!(out.contains("estimated in situ"), "{out}");
     assert!(!out.contains("NaN") && !out.contains("inf"), "{out}");
     let text = std::fs::read_to_string(&csv).unwrap();
     let mut lines = text.lines();
@@ -833,6 +848,52 @@ fn demo_bench_fit_recovers_the_known_source() {
         "{}",
         stdout(&o)
     );
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+#[test]
+fn a_tacho_channel_gives_the_shaft_reference_of_records_that_start_anywhere() {
+    // The demo bench with a tacho column: synth starts each record at a
+    // random shaft angle and writes one pulse per revolution (rising edge
+    // at angle zero); fit takes the reference from the pulses, so the
+    // phases against the shaft are those of the known source: harmonic 2
+    // at 150° (demo_bench.yaml's synthesis section), to 1e-3°.
+    let dir = scratch("tachofit");
+    let bench = dir.join("bench.yaml");
+    let text = std::fs::read_to_string("networks/bench/demo_bench.yaml")
+        .unwrap()
+        .replace("noise: 0.5 %", "noise: 0")
+        .replace(
+            "records: {unit: bar, sample_rate: 6 kHz}",
+            "records: {unit: bar, sample_rate: 6 kHz, tacho_column: tach}",
+        );
+    std::fs::write(&bench, text).unwrap();
+    let o = ripline(&["synth", bench.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let record = std::fs::read_to_string(dir.join("data/system_a.csv")).unwrap();
+    assert!(
+        record.lines().any(|l| l == "p1,p2,p3,tach"),
+        "a tacho column"
+    );
+    let csv = dir.join("fit.csv");
+    let o = ripline(&[
+        "fit",
+        bench.to_str().unwrap(),
+        "--draws",
+        "0",
+        "--csv",
+        csv.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stdout(&o).contains("shaft reference from the tacho"),
+        "{}",
+        stdout(&o)
+    );
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let row: Vec<&str> = text.lines().nth(2).unwrap().split(',').collect();
+    let phase: f64 = row[3].parse().unwrap();
+    assert!((phase - 150.0).abs() < 1e-3, "{phase}");
     std::fs::remove_dir_all(dir).unwrap();
 }
 

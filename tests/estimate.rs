@@ -571,3 +571,69 @@ fn a_secondary_harmonic_next_to_the_pumping_frequency_leaves_no_bias() {
         }
     }
 }
+
+/// A bench file with the given fluid section and reference line.
+fn bench_text(fluid: &str, line: &str) -> String {
+    format!(
+        "fluid: {fluid}\n\
+         pump: {{speed: 1500 rpm, pumping_elements: 9}}\n\
+         reference_line: {line}\n\
+         speed_of_sound: from_fluid\n\
+         transducers: [{{name: p1, position: 0.25 m}}, {{name: p2, position: 0.58 m}}]\n\
+         method: two_systems\n\
+         records: {{unit: bar, sample_rate: 6 kHz}}\n\
+         conditions: [{{name: A, records: a.csv}}, {{name: B, records: b.csv}}]\n"
+    )
+}
+
+#[test]
+fn speed_of_sound_from_the_fluid_follows_the_wall_model_as_documented() {
+    // README (bench files, `speed_of_sound`): `from_fluid` is √(B_eff/ρ)
+    // with the reference line's wall model, thick-wall (Lamé) unless
+    // `wall_model: thin` (Korteweg). A 16 × 2 mm steel tube, B = 1.6 GPa,
+    // ρ = 870 (tests/oracles/stats_refs.py [4], mpmath): 1317.100824139556
+    // m/s thick, 1325.591153023871 m/s thin.
+    let fluid = "{density: 870 kg/m3, bulk_modulus: 1.6 GPa, viscosity: 32 cSt}";
+    for (model, want) in [
+        ("", 1317.100824139556),
+        (", wall_model: thick", 1317.100824139556),
+        (", wall_model: thin", 1325.591153023871),
+    ] {
+        let line = format!("{{bore: 12 mm, wall: 2 mm, material: steel{model}}}");
+        let b = ripline::io::bench_file::parse_bench(&bench_text(fluid, &line), "b.yaml").unwrap();
+        let c = b.nominal_speed_of_sound_m_s();
+        assert!((c - want).abs() < 1e-9 * want, "{model}: {c} vs {want}");
+    }
+}
+
+#[test]
+fn bench_files_take_an_oil_grade_at_a_temperature_as_circuit_files_do() {
+    // The same `fluid` section as a circuit file (ISO VG 46 at 50 °C and
+    // 150 bar): the bench's fluid is the circuit's, whose oil data are
+    // checked against their sources in tests/lines_and_fluids.rs.
+    let fluid = "{grade: VG 46, temperature: 50 degC, pressure: 150 bar}";
+    let b = ripline::io::bench_file::parse_bench(
+        &bench_text(fluid, "{bore: 10 mm, rigid: true}"),
+        "b.yaml",
+    )
+    .unwrap();
+    let circuit = ripline::io::parse_circuit(
+        &format!(
+            "fluid: {fluid}\npump: {{node: a, speed: 1500 rpm, pumping_elements: 9, flow_ripple: [{{harmonic: 1, amplitude: 1e-5}}], source_impedance: {{volume: 0.1 L}}}}\nelements:\n  - {{name: l, kind: tube, from: a, to: b, length: 1 m, bore: 10 mm, rigid: true}}\n  - {{name: v, kind: load_valve, at: b, resistance: 1e10}}\n"
+        ),
+        "c.yaml",
+    )
+    .unwrap();
+    assert_eq!(b.fluid, circuit.fluid);
+    // A grade without its temperature is refused where the key is.
+    let err = ripline::io::bench_file::parse_bench(
+        &bench_text("{grade: VG 46}", "{bore: 10 mm, rigid: true}"),
+        "b.yaml",
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(
+        err.starts_with("b.yaml:1:") && err.contains("temperature"),
+        "{err}"
+    );
+}

@@ -45,6 +45,7 @@ fn source_file_pump_matches_inline_pump() {
     let source = PumpSource {
         name: "test".into(),
         speed_rev_s: speed,
+        speed_uncertainty_rev_s: None,
         pumping_elements: z,
         harmonics: flows
             .iter()

@@ -7,6 +7,7 @@ use clap::Args;
 use indicatif::{ProgressBar, ProgressStyle};
 use ripline::estimate::bench::{Bench, SpeedOfSound};
 use ripline::estimate::fit::{Estimate, FitReport, HarmonicResult, HarmonicStatus};
+use ripline::estimate::uncertainty::{fixed, scientific};
 use ripline::estimate::{FitOptions, Observer, fit};
 use ripline::io::source_file::{PumpSource, SourceHarmonic, write_source_file};
 use ripline::plot;
@@ -244,6 +245,7 @@ fn source_of(report: &FitReport) -> PumpSource {
     PumpSource {
         name: report.pump.clone(),
         speed_rev_s: report.speed_rev_s,
+        speed_uncertainty_rev_s: report.speed_uncertainty_rev_s,
         pumping_elements: report.pumping_elements,
         harmonics: report
             .harmonics
@@ -261,21 +263,22 @@ fn source_of(report: &FitReport) -> PumpSource {
     }
 }
 
-fn pm(e: &Estimate, scale: f64, prec: usize) -> (String, String) {
+/// Amplitude and phase (degrees) with their uncertainties, each value with
+/// the digits its uncertainty supports; 5 significant digits and 0.1°
+/// without one.
+fn pm(e: &Estimate, scale: f64) -> (String, String) {
     let a = e.value.norm() / scale;
-    let amp = match e.uncertainty {
-        Some(u) => format!("{a:.prec$e} ± {:.1e}", u.amplitude / scale),
-        None => format!("{a:.prec$e}"),
-    };
-    let ph = match e.uncertainty {
-        Some(u) => format!(
-            "{:.1} ± {:.1}",
-            e.value.arg().to_degrees(),
-            u.phase_rad.to_degrees()
-        ),
-        None => format!("{:.1}", e.value.arg().to_degrees()),
-    };
-    (amp, ph)
+    let deg = e.value.arg().to_degrees();
+    match e.uncertainty {
+        Some(u) => {
+            let (ua, up) = (u.amplitude / scale, u.phase_rad.to_degrees());
+            (
+                format!("{} ± {ua:.1e}", scientific(a, Some(ua))),
+                format!("{} ± {}", fixed(deg, Some(up)), fixed(up, Some(up))),
+            )
+        }
+        None => (format!("{a:.4e}"), format!("{deg:.1}")),
+    }
 }
 
 fn bar_pm(e: &Estimate) -> String {
@@ -295,11 +298,18 @@ fn print_report(file: &Path, bench: &Bench, report: &FitReport) -> anyhow::Resul
     if let Some(t) = &bench.title {
         writeln!(out, "bench: {t}")?;
     }
+    let measured = match report.speed_uncertainty_rev_s {
+        Some(u) => format!(
+            "{} ± {:.1e}",
+            fixed(60.0 * report.speed_rev_s, Some(60.0 * u)),
+            60.0 * u
+        ),
+        None => format!("{:.1}", 60.0 * report.speed_rev_s),
+    };
     writeln!(
         out,
-        "pump `{}`: {:.1} rpm measured ({:.1} rpm stated) × {} pumping elements = pumping frequency {:.2} Hz",
+        "pump `{}`: {measured} rpm measured ({:.1} rpm stated) × {} pumping elements = pumping frequency {:.2} Hz",
         report.pump,
-        report.speed_rev_s * 60.0,
         bench.pump.speed_rev_s * 60.0,
         report.pumping_elements,
         report.pumping_frequency_hz()
@@ -315,7 +325,15 @@ fn print_report(file: &Path, bench: &Bench, report: &FitReport) -> anyhow::Resul
     let source = match c.source {
         SpeedOfSound::InSitu => "estimated in situ",
         SpeedOfSound::Fixed(_) => "as stated",
-        SpeedOfSound::FromFluid => "from the fluid and the wall",
+        SpeedOfSound::FromFluid => match bench.line.wall {
+            ripline::wall::Wall::Rigid => "from the fluid, rigid wall",
+            ripline::wall::Wall::Elastic { .. } => {
+                "from the fluid and the wall, thin-wall (Korteweg)"
+            }
+            ripline::wall::Wall::ThickElastic { .. } => {
+                "from the fluid and the wall, thick-wall (Lamé)"
+            }
+        },
     };
     match c.estimate.uncertainty {
         Some(u) => writeln!(
@@ -333,9 +351,18 @@ fn print_report(file: &Path, bench: &Bench, report: &FitReport) -> anyhow::Resul
         let snr = ci.snr_db.iter().flatten().copied().reduce(f64::min);
         write!(
             out,
-            "condition `{}`: pumping frequency {:.3} Hz",
-            ci.name, ci.pumping_frequency_hz
+            "condition `{}`: pumping frequency {:.3} Hz{}",
+            ci.name,
+            ci.pumping_frequency_hz,
+            if ci.pumping_frequency_held {
+                " (held from the pump runs)"
+            } else {
+                ""
+            }
         )?;
+        if ci.tacho {
+            write!(out, ", shaft reference from the tacho")?;
+        }
         if let Some(f) = ci.secondary_fundamental_hz {
             write!(out, ", secondary source {f:.3} Hz")?;
         }
@@ -357,8 +384,8 @@ fn print_report(file: &Path, bench: &Bench, report: &FitReport) -> anyhow::Resul
         "k", "freq Hz", "Qs m³/s", "phase", "Zs Pa·s/m³", "phase", "anechoic", "blocked"
     )?;
     for h in &report.harmonics {
-        let (qa, qp) = pm(&h.flow, 1.0, 4);
-        let (za, zp) = pm(&h.impedance, 1.0, 4);
+        let (qa, qp) = pm(&h.flow, 1.0);
+        let (za, zp) = pm(&h.impedance, 1.0);
         writeln!(
             out,
             "{:>3} {:>9.2}  {:>22} {:>13}  {:>22} {:>13}  {:>22}  {:>22}{}",

@@ -46,7 +46,7 @@ pub enum TachoError {
     },
     /// A pulse interval far from the others (a missing or extra pulse).
     #[error(
-        "irregular tacho pulses: the interval ending at sample {sample} lasts {interval_s:.6} s, the median interval is {median_s:.6} s (a missing or extra pulse, or more than one pulse per revolution?)"
+        "irregular tacho pulses: the interval ending with the pulse at sample {sample} (from 0) lasts {interval_s:.6} s, the median interval {median_s:.6} s (a missing or extra pulse, or more than one pulse per revolution?)"
     )]
     Irregular {
         /// Sample index (0-based) of the pulse that ends the interval.

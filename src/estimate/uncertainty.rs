@@ -63,6 +63,41 @@ pub fn chi_square_quantile(z: f64, dof: f64) -> f64 {
     dof * (1.0 - a + z * a.sqrt()).max(0.0).powi(3)
 }
 
+/// The decimal exponent of the last digit a value with standard
+/// uncertainty `u` is written to: the uncertainty's second significant
+/// digit (JCGM 100:2008 §7.2.6: at most two significant digits for the
+/// uncertainty, the value rounded to match). `None` for an unknown or zero
+/// uncertainty.
+pub fn last_digit_exponent(u: Option<f64>) -> Option<i32> {
+    u.filter(|u| u.is_finite() && *u > 0.0)
+        .map(|u| u.log10().floor() as i32 - 1)
+}
+
+/// `value` in scientific notation with the digits its uncertainty supports
+/// (all of a double's digits when the uncertainty is unknown).
+pub fn scientific(value: f64, u: Option<f64>) -> String {
+    match last_digit_exponent(u) {
+        Some(last) if value != 0.0 && value.is_finite() => {
+            let first = value.abs().log10().floor() as i32;
+            let digits = (first - last).clamp(0, 16) as usize;
+            format!("{value:.digits$e}")
+        }
+        _ => format!("{value:e}"),
+    }
+}
+
+/// `value` in fixed notation with the digits its uncertainty supports (all
+/// of a double's digits when the uncertainty is unknown).
+pub fn fixed(value: f64, u: Option<f64>) -> String {
+    match last_digit_exponent(u) {
+        Some(last) => {
+            let decimals = (-last).clamp(0, 16) as usize;
+            format!("{value:.decimals$}")
+        }
+        None => format!("{value:?}"),
+    }
+}
+
 /// Standard deviation of real draws; `None` with fewer than two.
 pub fn real_spread(draws: &[f64]) -> Option<f64> {
     if draws.len() < 2 {
@@ -98,6 +133,18 @@ mod tests {
         );
         assert_eq!(real_spread(&[1.0]), None);
         assert!((real_spread(&[1.0, 3.0]).unwrap() - 2f64.sqrt()).abs() < 1e-15);
+    }
+
+    #[test]
+    fn values_keep_the_digits_of_their_uncertainty() {
+        // JCGM 100:2008 §7.2.6 (two significant digits of the uncertainty,
+        // the value rounded to the same place), worked by hand.
+        assert_eq!(scientific(1.0023456e-5, Some(1.2e-7)), "1.002e-5");
+        assert_eq!(scientific(1.0023456e-5, Some(9.9e-9)), "1.00235e-5");
+        assert_eq!(fixed(1503.00213, Some(0.0015)), "1503.0021");
+        assert_eq!(fixed(-89.53, Some(2.4)), "-89.5");
+        assert_eq!(fixed(1503.0, Some(40.0)), "1503");
+        assert_eq!(scientific(0.1 + 0.2, None), "3.0000000000000004e-1");
     }
 
     #[test]

@@ -31,7 +31,7 @@ use std::path::{Path, PathBuf};
 )]
 struct RawBench {
     title: Option<String>,
-    fluid: RawFluid,
+    fluid: super::circuit_file::RawFluid,
     pump: RawPump,
     harmonics: Option<u32>,
     reference_line: RawLine,
@@ -44,17 +44,6 @@ struct RawBench {
     records: Option<RawRecords>,
     conditions: Vec<RawCondition>,
     synthesis: Option<RawSynthesis>,
-}
-
-#[derive(Debug, Deserialize)]
-#[serde(
-    deny_unknown_fields,
-    expecting = "a mapping with density, bulk_modulus and viscosity"
-)]
-struct RawFluid {
-    density: Q<q::Density>,
-    bulk_modulus: Q<q::Modulus>,
-    viscosity: Q<q::KinematicViscosity>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -270,30 +259,9 @@ impl Checker<'_> {
 
     fn bench(&self, raw: RawBench) -> Res<Bench> {
         let root = KeyPath::root();
-        let fp = root.key("fluid");
-        let fluid = Fluid {
-            density_kg_m3: self.in_range(
-                &fp.key("density"),
-                raw.fluid.density.si,
-                100.0,
-                3000.0,
-                "kg/m³",
-            )?,
-            bulk_modulus_pa: self.in_range(
-                &fp.key("bulk_modulus"),
-                raw.fluid.bulk_modulus.si,
-                1e6,
-                1e11,
-                "Pa",
-            )?,
-            kinematic_viscosity_m2_s: self.in_range(
-                &fp.key("viscosity"),
-                raw.fluid.viscosity.si,
-                1e-8,
-                1e-1,
-                "m²/s",
-            )?,
-        };
+        // The same fluid section as circuit files: explicit values, or an
+        // oil grade at a temperature (and mean pressure, free air).
+        let fluid = super::circuit_file::check_fluid(self.0, &root.key("fluid"), &raw.fluid)?;
         let pp = root.key("pump");
         let pump = BenchPump {
             name: raw.pump.name.clone().unwrap_or_else(|| "pump".into()),

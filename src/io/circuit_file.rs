@@ -61,7 +61,7 @@ struct RawCircuit {
     deny_unknown_fields,
     expecting = "a fluid section: a mapping with density, bulk_modulus and viscosity, or a grade with temperature"
 )]
-struct RawFluid {
+pub(crate) struct RawFluid {
     grade: Option<String>,
     temperature: Option<Q<q::Temperature>>,
     pressure: Option<Q<q::Pressure>>,
@@ -77,7 +77,7 @@ struct RawFluid {
     deny_unknown_fields,
     expecting = "a viscosity point: a mapping with temperature and viscosity"
 )]
-struct RawViscosityPoint {
+pub(crate) struct RawViscosityPoint {
     temperature: Q<q::Temperature>,
     viscosity: Q<q::KinematicViscosity>,
 }
@@ -475,6 +475,13 @@ pub fn source_file_notes(text: &str, file: &str) -> Vec<crate::diagnostics::Warn
         }
     }
     out
+}
+
+/// The fluid of a `fluid` section as circuit files have it (explicit
+/// values, or an oil grade at a temperature and pressure), for other files
+/// with the same section (bench files).
+pub(crate) fn check_fluid(check: FileCheck<'_>, path: &KeyPath, raw: &RawFluid) -> Res<Fluid> {
+    Checker(check).fluid(path, raw)
 }
 
 /// Validates raw values; every error is located in the file (the shared

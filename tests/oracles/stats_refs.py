@@ -17,6 +17,11 @@ tests/bench_statistics.rs and src/estimate/uncertainty.rs come from its output.
     fourth parameter, as ripline's model has one. The tests use the exact
     values.
 [2] Normal coverage of +-1 and +-2 standard deviations: mpmath.erf(k/sqrt(2)).
+[4] The wave speed of a bench's reference line with `speed_of_sound:
+    from_fluid`: c = sqrt(B_eff/rho), 1/B_eff = 1/B + 1/B_wall, for a 12 mm
+    bore with a 2 mm steel wall (E = 206 GPa, nu = 0.3; the 16 x 2 mm tube),
+    B = 1.6 GPa, rho = 870: thick wall (Lame) 1/B_wall = (2/E)((ro^2 + ri^2)/
+    (ro^2 - ri^2) + nu), thin wall (Korteweg) D/(E e); mpmath.sqrt.
 [3] chi-square quantiles: x with mpmath.gammainc(nu/2, 0, x/2, regularized=True)
     = p (mpmath.findroot); the normal quantile sqrt(2)*mpmath.erfinv(2p - 1).
 
@@ -62,3 +67,9 @@ for nu in (10, 40, 80, 300):
     for p in ("0.005", "0.995"):
         x = mp.findroot(lambda x: mp.gammainc(mp.mpf(nu) / 2, 0, x / 2, regularized=True) - mp.mpf(p), nu)
         print("  chi2", nu, p, mp.nstr(mp.re(x), 16))
+
+# [4]
+B, rho, E, nu, D, e = mp.mpf("1.6e9"), mp.mpf(870), mp.mpf("206e9"), mp.mpf("0.3"), mp.mpf("0.012"), mp.mpf("0.002")
+ri, ro = D / 2, D / 2 + e
+for name, cw in (("thick", 2 / E * ((ro**2 + ri**2) / (ro**2 - ri**2) + nu)), ("thin", D / (E * e))):
+    print("[4]", name, "c =", mp.nstr(mp.sqrt(1 / (1 / B + cw) / rho), 16))
