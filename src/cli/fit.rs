@@ -172,9 +172,14 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
             &source_of(&report),
             &mut bytes,
             &format!(
-                "estimated by ripline fit from {} ({} method); uncertainties are standard uncertainties of the amplitudes",
+                "estimated by ripline fit from {} ({} method); uncertainties are standard uncertainties of the amplitudes{}",
                 args.file.display(),
-                report.method.name()
+                report.method.name(),
+                report
+                    .equivalent
+                    .as_ref()
+                    .map(|e| format!("\n{}", equivalent_text(e, bench.fluid.bulk_modulus_pa)))
+                    .unwrap_or_default()
             ),
         )?;
         outputs
@@ -429,8 +434,49 @@ fn print_report(file: &Path, bench: &Bench, report: &FitReport) -> anyhow::Resul
             )
         }
     )?;
+    if let Some(e) = &report.equivalent {
+        writeln!(out, "{}", equivalent_text(e, bench.fluid.bulk_modulus_pa))?;
+    }
     out.flush()?;
     Ok(())
+}
+
+/// The volume-with-leakage line of the report.
+fn equivalent_text(e: &ripline::estimate::fit::EquivalentSource, bulk_pa: f64) -> String {
+    let orders: Vec<String> = e.orders.iter().map(u32::to_string).collect();
+    let litres = |v: f64| v * 1e3;
+    let volume = match e.volume_m3.uncertainty {
+        Some(u) => format!(
+            "{} ± {:.1e} L",
+            fixed(litres(e.volume_m3.value), Some(litres(u))),
+            litres(u)
+        ),
+        None => format!("{:.4} L", litres(e.volume_m3.value)),
+    };
+    let g = e.leakage_conductance;
+    let leakage = match g.uncertainty {
+        Some(u) if g.value > 2.0 * u => {
+            let r = 1.0 / g.value;
+            let ur = u / (g.value * g.value);
+            format!(
+                "leakage resistance {} ± {ur:.1e} Pa·s/m³",
+                scientific(r, Some(ur))
+            )
+        }
+        Some(u) => format!(
+            "leakage not resolved (conductance {:.2e} ± {u:.1e} m³/(Pa·s); resistance above {:.1e} Pa·s/m³)",
+            g.value,
+            1.0 / (g.value.max(0.0) + 2.0 * u)
+        ),
+        None if g.value > 0.0 => format!("leakage resistance {:.4e} Pa·s/m³", 1.0 / g.value),
+        None => format!("leakage conductance {:.2e} m³/(Pa·s)", g.value),
+    };
+    format!(
+        "source impedance as a volume with leakage (Ys = G + jωV/B, B = {:.4} GPa; harmonics {}; rms misfit {:.2} %): volume {volume}, {leakage}",
+        bulk_pa / 1e9,
+        orders.join(", "),
+        100.0 * e.misfit
+    )
 }
 
 fn series(

@@ -205,6 +205,28 @@ pub struct ResidualCheck {
     pub applied: bool,
 }
 
+/// The source impedance read as an internal volume with leakage,
+/// Ys = G + jωV/B (methods.md §5 form b; B the bench fluid's bulk
+/// modulus), fitted by weighted least squares (weights 1/var Ys from the
+/// Monte Carlo, equal without it) to the harmonics estimated without flags;
+/// uncertainties from refitting every Monte Carlo draw.
+#[derive(Debug, Clone, PartialEq)]
+pub struct EquivalentSource {
+    /// The equivalent internal volume V = C·B in m³.
+    pub volume_m3: Scalar,
+    /// The leakage conductance G = 1/R_leak in m³/(Pa·s) (it may come out
+    /// near zero or below when the leakage is too small to resolve).
+    pub leakage_conductance: Scalar,
+    /// The harmonics fitted.
+    pub orders: Vec<u32>,
+    /// Root mean square of |Ys − (G + jωC)|/|Ys| over those harmonics: how
+    /// well the form describes the estimates.
+    pub misfit: f64,
+    /// With uncertainties: Σ w|Ys − model|² over its expectation 2n − 2;
+    /// well above 1 means the form does not describe the impedance.
+    pub reduced_chi_square: Option<f64>,
+}
+
 /// The outcome of a fit.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FitReport {
@@ -237,6 +259,9 @@ pub struct FitReport {
     /// The residual check of the wave fits, where they are over-determined
     /// and the phasor uncertainties are known.
     pub residual_check: Option<ResidualCheck>,
+    /// The source impedance as a volume with leakage (two or more harmonics
+    /// estimated without flags).
+    pub equivalent: Option<EquivalentSource>,
 }
 
 impl FitReport {
@@ -460,6 +485,7 @@ pub fn fit(
     // Per draw: Σ|P_an|² and Σ|P_blk|² per harmonic, summed once the
     // statuses are known.
     let mut levels_d: Vec<Vec<Option<(f64, f64)>>> = Vec::new();
+    let mut impedance_d: Vec<Vec<Option<C64>>> = Vec::new();
     if draws > 0 {
         observer.stage("uncertainty (Monte Carlo)", draws as u64);
         let mut rng = Rng::new(options.seed);
@@ -504,6 +530,7 @@ pub fn fit(
             if let Ok(core) = core {
                 c_d.push(core.c0);
                 let mut levels = vec![None; n_h];
+                let mut impedances = vec![None; n_h];
                 for (k, h) in core.harmonics.iter().enumerate() {
                     if let (Some(h), true) = (h, usable_nominal[k]) {
                         let d = &mut per_h[k];
@@ -512,9 +539,11 @@ pub fn fit(
                         d.anechoic.push(h.anechoic());
                         d.blocked.push(h.blocked());
                         levels[k] = Some((h.anechoic().norm_sqr(), h.blocked().norm_sqr()));
+                        impedances[k] = Some(h.impedance);
                     }
                 }
                 levels_d.push(levels);
+                impedance_d.push(impedances);
             }
             observer.advance(1);
         }
@@ -704,6 +733,20 @@ pub fn fit(
             ),
         });
     }
+    let equivalent = equivalent_source(bench, &harmonics, &impedance_d);
+    if let Some(e) = equivalent
+        .as_ref()
+        .filter(|e| e.reduced_chi_square.is_some_and(|c| c > 4.0))
+    {
+        warnings.push(Warning {
+            subject: "source impedance".into(),
+            message: format!(
+                "a volume with leakage describes the estimated impedance poorly (reduced χ² {:.1}, rms misfit {:.1} %): read the equivalent volume and leakage with care",
+                e.reduced_chi_square.unwrap_or(0.0),
+                100.0 * e.misfit
+            ),
+        });
+    }
     let rms_orders: Vec<u32> = harmonics
         .iter()
         .filter(|h| options.include_flagged || h.status == HarmonicStatus::Estimated)
@@ -791,6 +834,99 @@ pub fn fit(
         warnings,
         draws,
         residual_check: check,
+        equivalent,
+    })
+}
+
+/// The volume-with-leakage reading of the estimated source impedance (see
+/// [`EquivalentSource`]); `None` with fewer than two harmonics estimated
+/// without flags.
+fn equivalent_source(
+    bench: &Bench,
+    harmonics: &[HarmonicResult],
+    impedance_draws: &[Vec<Option<C64>>],
+) -> Option<EquivalentSource> {
+    let used: Vec<&HarmonicResult> = harmonics
+        .iter()
+        .filter(|h| h.status == HarmonicStatus::Estimated)
+        .collect();
+    if used.len() < 2 {
+        return None;
+    }
+    let b = bench.fluid.bulk_modulus_pa;
+    // var Ys per harmonic from the draws (about the estimate).
+    let var: Vec<f64> = used
+        .iter()
+        .map(|h| {
+            let k = (h.order - 1) as usize;
+            let y0 = h.impedance.value.inv();
+            let d: Vec<f64> = impedance_draws
+                .iter()
+                .filter_map(|dr| dr[k].map(|z| (z.inv() - y0).norm_sqr()))
+                .collect();
+            if d.len() >= 2 {
+                d.iter().sum::<f64>() / d.len() as f64
+            } else {
+                0.0
+            }
+        })
+        .collect();
+    let fit_of = |zs: &[C64]| -> Option<(f64, f64)> {
+        let points: Vec<(f64, C64, f64)> = used
+            .iter()
+            .zip(zs)
+            .zip(&var)
+            .map(|((h, z), v)| (h.freq_hz, *z, *v))
+            .collect();
+        match ImpedanceModel::build(&points, ImpedanceFit::CapacitanceLeakage) {
+            Ok(ImpedanceModel::CapacitanceLeakage {
+                conductance,
+                capacitance,
+            }) => Some((conductance, capacitance)),
+            _ => None,
+        }
+    };
+    let nominal: Vec<C64> = used.iter().map(|h| h.impedance.value).collect();
+    let (g, c) = fit_of(&nominal)?;
+    let model = |f: f64| C64::new(g, std::f64::consts::TAU * f * c);
+    let misfit = (used
+        .iter()
+        .map(|h| {
+            let y = h.impedance.value.inv();
+            ((y - model(h.freq_hz)).norm() / y.norm()).powi(2)
+        })
+        .sum::<f64>()
+        / used.len() as f64)
+        .sqrt();
+    let known = var.iter().all(|v| *v > 0.0);
+    let reduced_chi_square = known.then(|| {
+        used.iter()
+            .zip(&var)
+            .map(|(h, v)| (h.impedance.value.inv() - model(h.freq_hz)).norm_sqr() / v)
+            .sum::<f64>()
+            * 2.0
+            / (2.0 * used.len() as f64 - 2.0)
+    });
+    let (mut g_d, mut v_d) = (Vec::new(), Vec::new());
+    for dr in impedance_draws {
+        let zs: Option<Vec<C64>> = used.iter().map(|h| dr[(h.order - 1) as usize]).collect();
+        if let Some((gd, cd)) = zs.as_deref().and_then(fit_of) {
+            g_d.push(gd);
+            v_d.push(cd * b);
+        }
+    }
+    Some(EquivalentSource {
+        volume_m3: Scalar {
+            value: c * b,
+            uncertainty: real_spread(&v_d),
+        },
+        leakage_conductance: Scalar {
+            value: g,
+            uncertainty: real_spread(&g_d),
+        },
+        orders: used.iter().map(|h| h.order).collect(),
+        misfit,
+        reduced_chi_square,
     })
 }
 
