@@ -48,6 +48,7 @@ pub mod envelope;
 pub mod estimate;
 pub mod fluid;
 pub mod hose;
+pub mod html;
 pub mod io;
 pub mod line;
 pub mod meanflow;

@@ -124,6 +124,7 @@ fn circuit(nodes: usize, elements: Vec<Element>, pump: Pump, taps: Vec<Tap>) -> 
 fn expansion_chamber_matches_the_classical_formula() {
     let chamber = ElementKind::ExpansionChamber(ExpansionChamber {
         tube: tube(props(0.02, LineModel::Lossless), 0.5),
+        ports: None,
     });
     let e = element("chamber", chamber, Connection::Series { a: 0, b: 1 });
     let z0 = props(0.005, LineModel::Lossless).z0();
@@ -300,6 +301,7 @@ fn insertion_loss_of_a_chamber_between_a_norton_source_and_a_load() {
     assert!((zs - C64::new(1e8, -1.13e10)).norm() < 1e-6 * zs.norm());
     let chamber = ElementKind::ExpansionChamber(ExpansionChamber {
         tube: tube(props(0.02, LineModel::Lossless), 0.5),
+        ports: None,
     });
     let with = circuit(
         2,

@@ -64,11 +64,18 @@ pub enum Parameter {
     GasVolume,
     /// Precharge pressure of a damper (absolute).
     Precharge,
+    /// How far an expansion chamber's inlet pipe reaches into its shell.
+    InletExtension,
+    /// How far an expansion chamber's outlet pipe reaches into its shell.
+    OutletExtension,
+    /// Viscous damping of a relief or check valve's poppet (a damping
+    /// orifice or piston to be chosen).
+    Damping,
 }
 
 impl Parameter {
     /// Every parameter.
-    pub const ALL: [Parameter; 7] = [
+    pub const ALL: [Parameter; 10] = [
         Parameter::Length,
         Parameter::Bore,
         Parameter::Volume,
@@ -76,6 +83,9 @@ impl Parameter {
         Parameter::NeckBore,
         Parameter::GasVolume,
         Parameter::Precharge,
+        Parameter::InletExtension,
+        Parameter::OutletExtension,
+        Parameter::Damping,
     ];
 
     /// The name used on the command line (the circuit-file key).
@@ -88,6 +98,9 @@ impl Parameter {
             Parameter::NeckBore => "neck_bore",
             Parameter::GasVolume => "gas_volume",
             Parameter::Precharge => "precharge",
+            Parameter::InletExtension => "inlet_extension",
+            Parameter::OutletExtension => "outlet_extension",
+            Parameter::Damping => "damping",
         }
     }
 
@@ -100,11 +113,15 @@ impl Parameter {
     /// `abs` or `gauge`).
     pub fn dimension(self) -> Dimension {
         match self {
-            Parameter::Length | Parameter::Bore | Parameter::NeckLength | Parameter::NeckBore => {
-                Dimension::Length
-            }
+            Parameter::Length
+            | Parameter::Bore
+            | Parameter::NeckLength
+            | Parameter::NeckBore
+            | Parameter::InletExtension
+            | Parameter::OutletExtension => Dimension::Length,
             Parameter::Volume | Parameter::GasVolume => Dimension::Volume,
             Parameter::Precharge => Dimension::Pressure,
+            Parameter::Damping => Dimension::Damping,
         }
     }
 
@@ -112,7 +129,16 @@ impl Parameter {
     pub fn for_kind(kind: &ElementKind) -> &'static [Parameter] {
         use Parameter::*;
         match kind {
+            ElementKind::ExpansionChamber(c) if c.ports.is_some() => {
+                &[Length, Bore, InletExtension, OutletExtension]
+            }
             ElementKind::SideBranch(_) | ElementKind::ExpansionChamber(_) => &[Length, Bore],
+            ElementKind::InlineDamper(_) => &[GasVolume, Precharge],
+            ElementKind::ReliefValve(_)
+            | ElementKind::CheckValve(crate::elements::CheckValve {
+                state: crate::elements::CheckState::Opening { .. },
+                ..
+            }) => &[Damping],
             ElementKind::Helmholtz(_) => &[Volume, NeckLength, NeckBore],
             ElementKind::Damper(_) => &[GasVolume, Precharge, NeckLength, NeckBore],
             _ => &[],
@@ -133,6 +159,22 @@ impl Parameter {
             (Parameter::Precharge, ElementKind::Damper(d)) => d.precharge_pa,
             (Parameter::NeckLength, ElementKind::Damper(d)) => d.neck_length_m,
             (Parameter::NeckBore, ElementKind::Damper(d)) => 2.0 * d.neck.radius_m,
+            (Parameter::InletExtension, ElementKind::ExpansionChamber(c)) => {
+                c.ports?.inlet_extension_m
+            }
+            (Parameter::OutletExtension, ElementKind::ExpansionChamber(c)) => {
+                c.ports?.outlet_extension_m
+            }
+            (Parameter::GasVolume, ElementKind::InlineDamper(d)) => d.vessel.gas_volume_m3,
+            (Parameter::Precharge, ElementKind::InlineDamper(d)) => d.vessel.precharge_pa,
+            (Parameter::Damping, ElementKind::ReliefValve(v)) => v.poppet.damping_n_s_m,
+            (
+                Parameter::Damping,
+                ElementKind::CheckValve(crate::elements::CheckValve {
+                    state: crate::elements::CheckState::Opening { poppet, .. },
+                    ..
+                }),
+            ) => poppet.damping_n_s_m,
             _ => return None,
         })
     }
@@ -154,11 +196,46 @@ impl Parameter {
         let mut k = kind.clone();
         match (self, &mut k) {
             (Parameter::Length, ElementKind::SideBranch(s)) => s.tube.line.length_m = value,
-            (Parameter::Length, ElementKind::ExpansionChamber(c)) => c.tube.line.length_m = value,
+            (Parameter::Length, ElementKind::ExpansionChamber(c)) => {
+                c.tube.line.length_m = value;
+                check_chamber(c)?;
+            }
             (Parameter::Bore, ElementKind::SideBranch(s)) => set_bore(&mut s.tube, value, fluid)?,
             (Parameter::Bore, ElementKind::ExpansionChamber(c)) => {
-                set_bore(&mut c.tube, value, fluid)?
+                set_bore(&mut c.tube, value, fluid)?;
+                check_chamber(c)?;
             }
+            (Parameter::InletExtension, ElementKind::ExpansionChamber(c)) if c.ports.is_some() => {
+                if let Some(p) = c.ports.as_mut() {
+                    p.inlet_extension_m = value;
+                }
+                check_chamber(c)?;
+            }
+            (Parameter::OutletExtension, ElementKind::ExpansionChamber(c)) if c.ports.is_some() => {
+                if let Some(p) = c.ports.as_mut() {
+                    p.outlet_extension_m = value;
+                }
+                check_chamber(c)?;
+            }
+            (Parameter::GasVolume, ElementKind::InlineDamper(d)) => d.vessel.gas_volume_m3 = value,
+            (Parameter::Precharge, ElementKind::InlineDamper(d)) => {
+                d.vessel.precharge_pa = value;
+                if d.vessel.is_bottomed() {
+                    return Err(format!(
+                        "a precharge of {:.2} bar abs is above the operating pressure {:.2} bar abs: the damper would be bottomed (its gas out of the circuit)",
+                        value / 1e5,
+                        d.vessel.operating_pa / 1e5
+                    ));
+                }
+            }
+            (Parameter::Damping, ElementKind::ReliefValve(v)) => v.poppet.damping_n_s_m = value,
+            (
+                Parameter::Damping,
+                ElementKind::CheckValve(crate::elements::CheckValve {
+                    state: crate::elements::CheckState::Opening { poppet, .. },
+                    ..
+                }),
+            ) => poppet.damping_n_s_m = value,
             (Parameter::Volume, ElementKind::Helmholtz(h)) => h.volume_m3 = value,
             (Parameter::NeckLength, ElementKind::Helmholtz(h)) => h.neck_length_m = value,
             (Parameter::NeckBore, ElementKind::Helmholtz(h)) => h.neck.radius_m = value / 2.0,
@@ -185,6 +262,27 @@ impl Parameter {
         }
         Ok(k)
     }
+}
+
+/// An expansion chamber's ports must be narrower than its shell and its
+/// extended pipes must leave a gap between them.
+fn check_chamber(c: &crate::elements::ExpansionChamber) -> Result<(), String> {
+    let Some(p) = &c.ports else { return Ok(()) };
+    if p.pipe.radius_m >= c.tube.line.properties.radius_m {
+        return Err(format!(
+            "a chamber bore of {:.2} mm is not larger than its ports' {:.2} mm",
+            c.tube.bore_m() * 1e3,
+            p.pipe.radius_m * 2e3
+        ));
+    }
+    if p.inlet_extension_m + p.outlet_extension_m >= c.tube.line.length_m {
+        return Err(format!(
+            "extended pipes of {:.1} mm together fill a chamber {:.1} mm long",
+            (p.inlet_extension_m + p.outlet_extension_m) * 1e3,
+            c.tube.line.length_m * 1e3
+        ));
+    }
+    Ok(())
 }
 
 /// A new bore for a tube, with its wall's compliance at that bore.
@@ -622,7 +720,12 @@ impl TuneProblem<'_> {
             if !(b.low > 0.0 && b.high > b.low && b.high.is_finite()) {
                 return Err(TuneError::BadBounds(b.parameter.name()));
             }
-            if let (Parameter::Precharge, ElementKind::Damper(d)) = (b.parameter, &e.kind)
+            let vessel = match &e.kind {
+                ElementKind::Damper(d) => Some(d),
+                ElementKind::InlineDamper(d) => Some(&d.vessel),
+                _ => None,
+            };
+            if let (Parameter::Precharge, Some(d)) = (b.parameter, vessel)
                 && b.high > d.operating_pa
             {
                 return Err(TuneError::PrechargeAboveOperating {

@@ -515,13 +515,20 @@ fn charts(report: &FitReport, title: Option<&str>) -> Vec<plot::LineChart> {
             e.uncertainty.map(|u| u.phase_rad.to_degrees()),
         )
     };
+    // amplitudes cannot be negative: their error bars are cut at zero
     let chart = |t: String, y: &str, s: plot::XySeries, log_y: bool| plot::LineChart {
         title: t,
         x_label: "frequency (Hz)".into(),
         y_label: y.into(),
         series: vec![s],
         log_y,
+        y_floor: (!log_y && !y.starts_with("phase")).then_some(0.0),
         ..Default::default()
+    };
+    // phases of separate harmonics are points, not a curve
+    let points = |s: plot::XySeries| plot::XySeries {
+        style: plot::SeriesStyle::Points,
+        ..s
     };
     vec![
         chart(
@@ -537,7 +544,7 @@ fn charts(report: &FitReport, title: Option<&str>) -> Vec<plot::LineChart> {
         chart(
             String::new(),
             "phase of Qs (deg)",
-            series("flow ripple phase", hs, |h| ph(&h.flow)),
+            points(series("flow ripple phase", hs, |h| ph(&h.flow))),
             false,
         ),
         chart(
@@ -549,7 +556,7 @@ fn charts(report: &FitReport, title: Option<&str>) -> Vec<plot::LineChart> {
         chart(
             String::new(),
             "phase of Zs (deg)",
-            series("impedance phase", hs, |h| ph(&h.impedance)),
+            points(series("impedance phase", hs, |h| ph(&h.impedance))),
             false,
         ),
     ]

@@ -257,7 +257,8 @@ fn bar_chart(reports: &[RippleReport], title: Option<&str>) -> plot::BarChart {
                     .collect(),
             })
             .collect(),
-        log_y: false,
+        // a log axis keeps the higher harmonics (tens of dB down) visible
+        log_y: true,
         ..Default::default()
     }
 }

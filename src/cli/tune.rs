@@ -101,6 +101,7 @@ fn parse_vary(text: &str) -> anyhow::Result<Bound> {
             (p(lo)?, p(hi)?)
         }
         Dimension::Volume => ranges::parse_range("--vary", range, Dimension::Volume, "m3")?,
+        Dimension::Damping => ranges::parse_range("--vary", range, Dimension::Damping, "N.s/m")?,
         dim => ranges::parse_range("--vary", range, dim, "m")?,
     };
     if !(low > 0.0 && high > low) {
@@ -121,6 +122,7 @@ fn show(parameter: Parameter, value: f64) -> String {
         Dimension::Length if value < 0.1 => format!("{:.2} mm", value * 1e3),
         Dimension::Length => format!("{:.4} m", value),
         Dimension::Volume => format!("{:.4} L", value * 1e3),
+        Dimension::Damping => format!("{value:.4} N·s/m"),
         _ => format!("{:.3} bar abs", value / 1e5),
     }
 }
@@ -405,7 +407,7 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
             .collect::<Vec<_>>()
             .join(", ")
     )?;
-    if matches!(e.kind, ElementKind::Damper(_)) {
+    if e.kind.is_pressure_vessel() {
         writeln!(out)?;
         writeln!(out, "{PRESSURE_VESSEL_CAUTION}")?;
     }
@@ -461,6 +463,7 @@ fn file_value(parameter: Parameter, value: f64) -> String {
     match parameter.dimension() {
         Dimension::Length => format!("{:.1} mm", value * 1e3),
         Dimension::Volume => format!("{:.3} L", value * 1e3),
+        Dimension::Damping => format!("{value:.3} N·s/m"),
         _ => format!("{:.2} bar abs", value / 1e5),
     }
 }

@@ -15,7 +15,7 @@
 //! Y_in = (tanh(Γl)/Zc + Y_L) / (1 + Zc Y_L tanh(Γl)); tanh(Γl) is taken as
 //! (1 − E²)/(1 + E²) with E = e^{−Γl}, which never overflows.
 
-use super::{Behaviour, Tube};
+use super::{Behaviour, ChamberPorts, Tube};
 use crate::line::{LineProperties, Propagation};
 use num_complex::Complex64 as C64;
 use std::f64::consts::PI;
@@ -83,16 +83,36 @@ impl SideBranch {
 /// NACA Report 1192, 1954; Munjal 2014, §3), largest at kl = (2n − 1)π/2.
 /// It holds below the chamber's first cut-on frequency
 /// ([`crate::diagnostics::plane_wave_limit_hz`]).
+///
+/// With `ports` its inlet and outlet pipes, and pipes extended into the
+/// shell, are part of the element ([`ChamberPorts`]).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ExpansionChamber {
-    /// The chamber as a tube.
+    /// The chamber (its shell) as a tube.
     pub tube: Tube,
+    /// The inlet and outlet geometry, when given.
+    pub ports: Option<ChamberPorts>,
 }
 
 impl ExpansionChamber {
-    /// The chamber's two-port (as a tube).
-    pub fn behaviour(&self, prop: &Propagation) -> Behaviour {
-        self.tube.behaviour(prop)
+    /// The chamber's two-port at ω given the shell's propagation: the tube,
+    /// or the chain through its ports.
+    pub fn behaviour(&self, omega: f64, prop: &Propagation) -> Behaviour {
+        match &self.ports {
+            None => self.tube.behaviour(prop),
+            Some(p) if self.needs_branch_flows() => {
+                Behaviour::Transfer(p.transfer(omega, &self.tube, prop))
+            }
+            Some(p) => p
+                .admittance(omega, &self.tube, prop)
+                .map_or(Behaviour::Nothing, Behaviour::Admittance),
+        }
+    }
+
+    /// Whether the network gives it branch-flow unknowns (a lossless
+    /// shell, whose ports share its friction model).
+    pub fn needs_branch_flows(&self) -> bool {
+        self.tube.needs_branch_flows()
     }
 
     /// Lossless frequency of the first transmission-loss maximum, c0/(4l).

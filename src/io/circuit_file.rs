@@ -7,6 +7,7 @@
 //! SI; its errors carry the key path, mapped back to a line by
 //! [`super::locate`]. The file format is documented in README.md.
 
+mod components;
 mod envelope;
 mod pumps;
 
@@ -18,7 +19,7 @@ use super::validate::{FileCheck, Res, WallKeys, WallModel};
 use crate::circuit::{Circuit, Node, Tap, TapLocation};
 use crate::elements::{
     Anechoic, Connection, Element, ElementKind, ExpansionChamber, HelmholtzResonator, Hose,
-    Inertance, LoadValve, Orifice, PulsationDamper, SideBranch, Tube, Volume, rigid_neck,
+    Inertance, LoadValve, Orifice, PulsationDamper, SideBranch, Tube, Volume,
 };
 use crate::fluid::Fluid;
 use crate::hose::{
@@ -100,7 +101,7 @@ impl From<RawLineModel> for LineModel {
     }
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Clone, Deserialize)]
 #[serde(
     deny_unknown_fields,
     expecting = "a Kelvin–Voigt wall: a mapping with instantaneous_modulus and terms"
@@ -111,7 +112,7 @@ struct RawKelvinVoigt {
     terms: Vec<RawRetardation>,
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Clone, Deserialize)]
 #[serde(
     deny_unknown_fields,
     expecting = "a retardation term: a mapping with modulus and time"
@@ -154,9 +155,10 @@ struct RawHarmonic {
     phase: Option<Q<q::Angle>>,
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize)]
 #[serde(rename_all = "snake_case")]
 enum RawKind {
+    #[default]
     Tube,
     Volume,
     Orifice,
@@ -170,9 +172,14 @@ enum RawKind {
     ExpansionChamber,
     HelmholtzResonator,
     PulsationDamper,
+    ReliefValve,
+    CheckValve,
+    Cylinder,
+    InlinePulsationDamper,
+    ValveBlock,
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Clone, Default, Deserialize)]
 #[serde(
     deny_unknown_fields,
     expecting = "an element: a mapping with name, kind and the kind's keys"
@@ -210,6 +217,37 @@ struct RawElement {
     precharge: Option<GasPressure>,
     operating_pressure: Option<GasPressure>,
     polytropic_index: Option<f64>,
+    // valves, cylinders, in-line silencers, valve blocks, hoses against
+    // pressure (circuit_file/components.rs)
+    cracking_pressure: Option<Q<q::Pressure>>,
+    full_open_pressure: Option<Q<q::Pressure>>,
+    mass: Option<Q<q::Mass>>,
+    spring_rate: Option<Q<q::Stiffness>>,
+    damping: Option<Q<q::Damping>>,
+    damping_area: Option<Q<q::Area>>,
+    damping_resistance: Option<Q<q::Resistance>>,
+    feedback_area: Option<Q<q::Area>>,
+    jet_angle: Option<Q<q::Angle>>,
+    flow_gain: Option<Q<q::FlowGain>>,
+    flow_pressure_coefficient: Option<Q<q::FlowPressureCoefficient>>,
+    rod_diameter: Option<Q<q::Length>>,
+    stroke: Option<Q<q::Length>>,
+    position: Option<Q<q::Length>>,
+    dead_volume: Option<Q<q::Volume>>,
+    load_mass: Option<Q<q::Mass>>,
+    load_stiffness: Option<Q<q::Stiffness>>,
+    load_damping: Option<Q<q::Damping>>,
+    friction: Option<Q<q::Damping>>,
+    port: Option<components::RawCylinderPort>,
+    oil_volume: Option<Q<q::Volume>>,
+    port_length: Option<Q<q::Length>>,
+    port_bore: Option<Q<q::Length>>,
+    inlet_extension: Option<Q<q::Length>>,
+    outlet_extension: Option<Q<q::Length>>,
+    wave_speeds: Option<Vec<components::RawHosePoint>>,
+    ports: Option<components::RawPorts>,
+    galleries: Option<Vec<components::RawGallery>>,
+    cavities: Option<Vec<components::RawCavity>>,
 }
 
 impl RawElement {
@@ -251,7 +289,47 @@ impl RawElement {
         add("precharge", self.precharge.is_some());
         add("operating_pressure", self.operating_pressure.is_some());
         add("polytropic_index", self.polytropic_index.is_some());
+        add("cracking_pressure", self.cracking_pressure.is_some());
+        add("full_open_pressure", self.full_open_pressure.is_some());
+        add("mass", self.mass.is_some());
+        add("spring_rate", self.spring_rate.is_some());
+        add("damping", self.damping.is_some());
+        add("damping_area", self.damping_area.is_some());
+        add("damping_resistance", self.damping_resistance.is_some());
+        add("feedback_area", self.feedback_area.is_some());
+        add("jet_angle", self.jet_angle.is_some());
+        add("flow_gain", self.flow_gain.is_some());
+        add(
+            "flow_pressure_coefficient",
+            self.flow_pressure_coefficient.is_some(),
+        );
+        add("rod_diameter", self.rod_diameter.is_some());
+        add("stroke", self.stroke.is_some());
+        add("position", self.position.is_some());
+        add("dead_volume", self.dead_volume.is_some());
+        add("load_mass", self.load_mass.is_some());
+        add("load_stiffness", self.load_stiffness.is_some());
+        add("load_damping", self.load_damping.is_some());
+        add("friction", self.friction.is_some());
+        add("port", self.port.is_some());
+        add("oil_volume", self.oil_volume.is_some());
+        add("port_length", self.port_length.is_some());
+        add("port_bore", self.port_bore.is_some());
+        add("inlet_extension", self.inlet_extension.is_some());
+        add("outlet_extension", self.outlet_extension.is_some());
+        add("wave_speeds", self.wave_speeds.is_some());
+        add("ports", self.ports.is_some());
+        add("galleries", self.galleries.is_some());
+        add("cavities", self.cavities.is_some());
         keys
+    }
+
+    /// Whether it connects `from` one node `to` another: two-port kinds,
+    /// and the kinds that may be either (relief valve, cylinder) when not
+    /// given `at`.
+    fn is_two_port(&self) -> bool {
+        self.kind.is_two_port()
+            || (matches!(self.kind, RawKind::ReliefValve | RawKind::Cylinder) && self.at.is_none())
     }
 }
 
@@ -271,6 +349,11 @@ impl RawKind {
             RawKind::ExpansionChamber => "expansion_chamber",
             RawKind::HelmholtzResonator => "helmholtz_resonator",
             RawKind::PulsationDamper => "pulsation_damper",
+            RawKind::ReliefValve => "relief_valve",
+            RawKind::CheckValve => "check_valve",
+            RawKind::Cylinder => "cylinder",
+            RawKind::InlinePulsationDamper => "inline_pulsation_damper",
+            RawKind::ValveBlock => "valve_block",
         }
     }
 
@@ -303,6 +386,7 @@ impl RawKind {
                 "reference_frequency",
                 "kelvin_voigt",
                 "mean_flow",
+                "wave_speeds",
             ],
             RawKind::Volume => &["at", "volume"],
             RawKind::Orifice => &["from", "to", "resistance", "mean_flow", "pressure_drop"],
@@ -322,6 +406,10 @@ impl RawKind {
                 "model",
                 "wall_model",
                 "poisson_ratio",
+                "port_length",
+                "port_bore",
+                "inlet_extension",
+                "outlet_extension",
             ],
             RawKind::SideBranch => &[
                 "at",
@@ -353,6 +441,68 @@ impl RawKind {
                 "neck_bore",
                 "model",
             ],
+            RawKind::ReliefValve => &[
+                "at",
+                "from",
+                "to",
+                "cracking_pressure",
+                "mean_flow",
+                "pressure_drop",
+                "mass",
+                "spring_rate",
+                "damping",
+                "damping_area",
+                "damping_resistance",
+                "feedback_area",
+                "jet_angle",
+                "flow_gain",
+                "flow_pressure_coefficient",
+            ],
+            RawKind::CheckValve => &[
+                "from",
+                "to",
+                "cracking_pressure",
+                "full_open_pressure",
+                "mean_flow",
+                "pressure_drop",
+                "mass",
+                "spring_rate",
+                "damping",
+                "damping_area",
+                "damping_resistance",
+                "feedback_area",
+                "jet_angle",
+                "flow_gain",
+                "flow_pressure_coefficient",
+            ],
+            RawKind::Cylinder => &[
+                "at",
+                "from",
+                "to",
+                "port",
+                "bore",
+                "rod_diameter",
+                "stroke",
+                "position",
+                "dead_volume",
+                "load_mass",
+                "load_stiffness",
+                "load_damping",
+                "friction",
+            ],
+            RawKind::InlinePulsationDamper => &[
+                "from",
+                "to",
+                "gas_volume",
+                "precharge",
+                "operating_pressure",
+                "polytropic_index",
+                "oil_volume",
+                "port_length",
+                "port_bore",
+                "model",
+            ],
+            RawKind::ValveBlock => &["ports", "galleries", "cavities"],
         }
     }
 
@@ -364,6 +514,8 @@ impl RawKind {
                 | RawKind::Orifice
                 | RawKind::Inertance
                 | RawKind::ExpansionChamber
+                | RawKind::CheckValve
+                | RawKind::InlinePulsationDamper
         )
     }
 }
@@ -516,6 +668,10 @@ impl Checker<'_> {
                 "the circuit has no `elements`: add at least one tube or other element",
             ));
         }
+        // Valve blocks become their galleries and cavities; `element_paths` locates
+        // each element in the file.
+        let mean_pressure = raw.fluid.pressure.map(|p| p.si);
+        let (raws, element_paths) = self.expand_valve_blocks(&root, &raw.elements)?;
 
         // Nodes, in order of first mention by an element.
         let mut nodes: Vec<Node> = Vec::new();
@@ -532,9 +688,8 @@ impl Checker<'_> {
         };
 
         let mut names = HashSet::new();
-        let mut connections = Vec::with_capacity(raw.elements.len());
-        for (i, e) in raw.elements.iter().enumerate() {
-            let path = root.key("elements").index(i);
+        let mut connections = Vec::with_capacity(raws.len());
+        for (e, path) in raws.iter().zip(&element_paths) {
             if e.name.trim().is_empty() {
                 return Err(self.err(&path.key("name"), "an element name must not be empty"));
             }
@@ -556,9 +711,10 @@ impl Checker<'_> {
                     ));
                 }
             }
-            let connection = if e.kind.is_two_port() {
-                let from = self.node_name(&path, "from", e.from.as_deref(), e.kind)?;
-                let to = self.node_name(&path, "to", e.to.as_deref(), e.kind)?;
+            self.either_way(path, e)?;
+            let connection = if e.is_two_port() {
+                let from = self.node_name(path, "from", e.from.as_deref(), e.kind)?;
+                let to = self.node_name(path, "to", e.to.as_deref(), e.kind)?;
                 if from == to {
                     return Err(self.err(
                         &path.key("to"),
@@ -570,19 +726,25 @@ impl Checker<'_> {
                     b: node_id(to),
                 }
             } else {
-                let at = self.node_name(&path, "at", e.at.as_deref(), e.kind)?;
+                let at = self.node_name(path, "at", e.at.as_deref(), e.kind)?;
                 Connection::Shunt { at: node_id(at) }
             };
             connections.push(connection);
         }
 
         // Element models; anechoic ends match a tube, so they are built last.
-        let mut kinds: Vec<Option<ElementKind>> = Vec::with_capacity(raw.elements.len());
-        for (i, e) in raw.elements.iter().enumerate() {
-            let path = root.key("elements").index(i);
+        let mut kinds: Vec<Option<ElementKind>> = Vec::with_capacity(raws.len());
+        for (e, path) in raws.iter().zip(&element_paths) {
+            let path = path.clone();
             kinds.push(match e.kind {
                 RawKind::Tube => Some(ElementKind::Tube(self.tube(&path, e, &fluid, line_model)?)),
-                RawKind::Hose => Some(ElementKind::Hose(self.hose(&path, e, &fluid, line_model)?)),
+                RawKind::Hose => Some(ElementKind::Hose(self.hose(
+                    &path,
+                    e,
+                    &fluid,
+                    line_model,
+                    mean_pressure,
+                )?)),
                 RawKind::Volume => Some(ElementKind::Volume(Volume {
                     volume_m3: self.in_range(
                         &path.key("volume"),
@@ -608,8 +770,11 @@ impl Checker<'_> {
                     tube: self.tube(&path, e, &fluid, line_model)?,
                 })),
                 RawKind::ExpansionChamber => {
+                    let tube = self.tube(&path, e, &fluid, line_model)?;
+                    let ports = self.chamber_ports(&path, e, &fluid, line_model, &tube)?;
                     Some(ElementKind::ExpansionChamber(ExpansionChamber {
-                        tube: self.tube(&path, e, &fluid, line_model)?,
+                        tube,
+                        ports,
                     }))
                 }
                 RawKind::HelmholtzResonator => Some(ElementKind::Helmholtz(
@@ -619,21 +784,32 @@ impl Checker<'_> {
                     &path,
                     e,
                     &fluid,
-                    raw.fluid.pressure.map(|p| p.si),
+                    mean_pressure,
                     line_model,
                 )?)),
+                RawKind::ReliefValve => Some(ElementKind::ReliefValve(
+                    self.relief_valve(&path, e, &fluid)?,
+                )),
+                RawKind::CheckValve => {
+                    Some(ElementKind::CheckValve(self.check_valve(&path, e, &fluid)?))
+                }
+                RawKind::Cylinder => Some(ElementKind::Cylinder(self.cylinder(&path, e, &fluid)?)),
+                RawKind::InlinePulsationDamper => Some(ElementKind::InlineDamper(
+                    self.inline_damper(&path, e, &fluid, mean_pressure, line_model)?,
+                )),
+                RawKind::ValveBlock => {
+                    return Err(self.err(&path, "a valve block inside a valve block"));
+                }
                 RawKind::AnechoicEnd => None,
             });
         }
-        for i in 0..raw.elements.len() {
+        for i in 0..raws.len() {
             if kinds[i].is_none() {
-                let path = root.key("elements").index(i);
-                let line = self.anechoic_line(&path, &raw.elements[i], &raw.elements, &kinds)?;
+                let line = self.anechoic_line(&element_paths[i], &raws[i], &raws, &kinds)?;
                 kinds[i] = Some(ElementKind::Anechoic(Anechoic { line }));
             }
         }
-        let elements: Vec<Element> = raw
-            .elements
+        let elements: Vec<Element> = raws
             .iter()
             .zip(kinds)
             .zip(&connections)
@@ -643,7 +819,7 @@ impl Checker<'_> {
                 connection,
             })
             .collect();
-        self.check_node_conditions(&root, &raw.elements, &connections, &nodes)?;
+        self.check_node_conditions(&element_paths, &raws, &connections, &nodes)?;
 
         let mut circuit = Circuit {
             title: raw.title.clone(),
@@ -703,7 +879,7 @@ impl Checker<'_> {
             let path = match &e {
                 crate::network::NetworkError::Disconnected { element } => circuit
                     .element_id(element)
-                    .map_or(root.clone(), |i| root.key("elements").index(i)),
+                    .map_or(root.clone(), |i| element_paths[i].clone()),
                 crate::network::NetworkError::PumpIntoTank { pump, .. } => circuit
                     .pumps
                     .iter()
@@ -1008,14 +1184,22 @@ impl Checker<'_> {
         })
     }
 
-    fn hose(&self, path: &KeyPath, e: &RawElement, fluid: &Fluid, default: LineModel) -> Res<Hose> {
+    fn hose(
+        &self,
+        path: &KeyPath,
+        e: &RawElement,
+        fluid: &Fluid,
+        default: LineModel,
+        mean_pressure: Option<f64>,
+    ) -> Res<Hose> {
         let (length, bore) = self.line_geometry(path, e)?;
         let given = [
             e.construction.is_some(),
             e.wave_speed.is_some(),
             e.kelvin_voigt.is_some(),
+            e.wave_speeds.is_some(),
         ];
-        let ways = "`construction` (one of: textile_braid, one_wire_braid, two_wire_braid, spiral), or `wave_speed` with `loss_factor` (at `reference_frequency`, default 200 Hz), or `kelvin_voigt`";
+        let ways = "`construction` (one of: textile_braid, one_wire_braid, two_wire_braid, spiral), or `wave_speed` with `loss_factor` (at `reference_frequency`, default 200 Hz), or `wave_speeds` at several mean pressures, or `kelvin_voigt`";
         match given.iter().filter(|&&g| g).count() {
             0 => {
                 return Err(self.err(path, format!("a `hose` needs its wall: give {ways}")));
@@ -1031,7 +1215,10 @@ impl Checker<'_> {
         if e.wave_speed.is_none() {
             for (key, present) in [
                 ("loss_factor", e.loss_factor.is_some()),
-                ("reference_frequency", e.reference_frequency.is_some()),
+                (
+                    "reference_frequency",
+                    e.reference_frequency.is_some() && e.wave_speeds.is_none(),
+                ),
             ] {
                 if present {
                     return Err(self.err(&path.key(key), format!("`{key}` goes with `wave_speed`")));
@@ -1039,7 +1226,18 @@ impl Checker<'_> {
             }
         }
         let mut construction = None;
-        let wall = if let Some(name) = &e.construction {
+        let mut pressure = None;
+        let wall = if let Some(points) = &e.wave_speeds {
+            let f_ref = match e.reference_frequency {
+                Some(f) => {
+                    Some(self.in_range(&path.key("reference_frequency"), f.si, 1.0, 1e4, "Hz")?)
+                }
+                None => None,
+            };
+            let (wall, p) = self.pressure_wall(path, points, fluid, mean_pressure, f_ref)?;
+            pressure = Some(p);
+            wall
+        } else if let Some(name) = &e.construction {
             let c = HoseConstruction::from_name(name).ok_or_else(|| {
                 self.err(
                     &path.key("construction"),
@@ -1130,6 +1328,7 @@ impl Checker<'_> {
                 length_m: length,
             },
             construction,
+            pressure,
         })
     }
 
@@ -1145,16 +1344,7 @@ impl Checker<'_> {
         let length =
             self.required_in(path, "neck_length", e.neck_length, e.kind, 1e-4, 10.0, "m")?;
         let bore = self.required_in(path, "neck_bore", e.neck_bore, e.kind, 1e-4, 0.5, "m")?;
-        let like = LineProperties {
-            radius_m: bore / 2.0,
-            density_kg_m3: fluid.density_kg_m3,
-            kinematic_viscosity_m2_s: fluid.kinematic_viscosity_m2_s,
-            effective_bulk_modulus_pa: fluid.bulk_modulus_pa,
-            model: e.model.map_or(default, LineModel::from),
-            viscoelastic_wall: None,
-            mean_flow: crate::line::MeanFlow::Unknown,
-        };
-        Ok((length, rigid_neck(&like, bore, fluid.bulk_modulus_pa)))
+        Ok((length, components::drilled_passage(bore, e, fluid, default)))
     }
 
     fn helmholtz(
@@ -1346,7 +1536,7 @@ impl Checker<'_> {
 
     fn check_node_conditions(
         &self,
-        root: &KeyPath,
+        paths: &[KeyPath],
         raws: &[RawElement],
         connections: &[Connection],
         nodes: &[Node],
@@ -1358,7 +1548,7 @@ impl Checker<'_> {
             let has = |k: RawKind| at_node.iter().find(|&&i| raws[i].kind == k).copied();
             if let (Some(_), Some(i)) = (has(RawKind::Tank), has(RawKind::ClosedEnd)) {
                 return Err(self.err(
-                    &root.key("elements").index(i),
+                    &paths[i],
                     format!(
                         "node `{}` cannot be both a tank and a closed end",
                         node.name
@@ -1371,7 +1561,7 @@ impl Checker<'_> {
             if !reached_by_two_port {
                 let i = at_node[0];
                 return Err(self.err(
-                    &root.key("elements").index(i).key("at"),
+                    &paths[i].key("at"),
                     format!(
                         "node `{}` is reached by no tube, hose, orifice or inertance: a `{}` must sit at a node of the line network",
                         node.name,

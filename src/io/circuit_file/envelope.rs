@@ -544,7 +544,10 @@ pub fn parse_circuit_at(
         moved.push(("fluid.air_content".into(), listed("pressures", p)));
         raw.fluid.pressure = Some(Q::new(p));
         for (i, e) in raw.elements.iter_mut().enumerate() {
-            if e.kind == RawKind::PulsationDamper {
+            if matches!(
+                e.kind,
+                RawKind::PulsationDamper | RawKind::InlinePulsationDamper
+            ) {
                 e.operating_pressure = None;
                 moved.push((
                     format!("elements[{i}].operating_pressure"),
@@ -617,7 +620,7 @@ pub fn parse_circuit_at(
                 .ok_or_else(|| checker.err(&kp, format!("no element is called `{name}`")))?;
             moved.push((format!("elements[{i}]"), kp.clone()));
             let e = &mut raw.elements[i];
-            if e.kind.is_two_port() {
+            if e.is_two_port() {
                 // its `to` end shut: the element stays on `from`, dead-ended
                 e.to = Some(format!(
                     "{} (closed in case {})",
@@ -671,6 +674,7 @@ fn drop_cut_off(raw: &mut RawCircuit) -> Kept {
         .flat_map(|e| [&e.from, &e.to, &e.at])
         .flatten()
         .map(String::as_str)
+        .chain(raw.elements.iter().flat_map(block_nodes))
         .chain(pump_nodes.iter().copied())
     {
         let n = index.len();
@@ -686,8 +690,16 @@ fn drop_cut_off(raw: &mut RawCircuit) -> Kept {
         i
     }
     for e in &raw.elements {
-        if let (true, Some(a), Some(b)) = (e.kind.is_two_port(), node(&e.from), node(&e.to)) {
+        if let (true, Some(a), Some(b)) = (e.is_two_port(), node(&e.from), node(&e.to)) {
             let (ra, rb) = (root(&mut parent, a), root(&mut parent, b));
+            parent[ra] = rb;
+        }
+        let ports: Vec<usize> = block_nodes(e)
+            .iter()
+            .filter_map(|n| index.get(n).copied())
+            .collect();
+        for pair in ports.windows(2) {
+            let (ra, rb) = (root(&mut parent, pair[0]), root(&mut parent, pair[1]));
             parent[ra] = rb;
         }
     }
@@ -703,7 +715,10 @@ fn drop_cut_off(raw: &mut RawCircuit) -> Kept {
     let keep: Vec<bool> = raw
         .elements
         .iter()
-        .map(|e| live(if e.kind.is_two_port() { &e.from } else { &e.at }))
+        .map(|e| match block_nodes(e).first() {
+            Some(n) => live(&Some((*n).to_string())),
+            None => live(if e.is_two_port() { &e.from } else { &e.at }),
+        })
         .collect();
     let kept_names: Vec<String> = raw
         .elements
@@ -736,6 +751,16 @@ fn drop_cut_off(raw: &mut RawCircuit) -> Kept {
         keep_tap[i - 1]
     });
     kept
+}
+
+/// The circuit nodes a valve block's ports join (a block joins them
+/// through its galleries); none for other kinds.
+fn block_nodes(e: &RawElement) -> Vec<&str> {
+    e.ports
+        .iter()
+        .flat_map(|p| p.values())
+        .map(String::as_str)
+        .collect()
 }
 
 /// The element called `name` in the document's `elements` list, as its
