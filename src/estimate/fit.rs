@@ -602,7 +602,7 @@ pub fn fit(
         {
             status = status.max(HarmonicStatus::Extrapolated);
             flags.push(format!(
-                "the source impedance is extrapolated (log-log, from the end segment): the secondary-source lines cover {lo:.1} .. {hi:.1} Hz, and the error of the extrapolation is not in the uncertainty"
+                "the source impedance is extrapolated (Ys linear in frequency, from the end segment): the secondary-source lines cover {lo:.1} .. {hi:.1} Hz, and the error of the extrapolation is not in the uncertainty"
             ));
         }
         let d = &per_h[ki];

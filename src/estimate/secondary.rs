@@ -10,10 +10,11 @@
 //! R_s = F/G,      Zs = Zc (1 + R_s)/(1 − R_s) = −P0/Q0
 //! ```
 //!
-//! Zs is carried to the pump harmonics by interpolation (log amplitude and
-//! unwrapped phase, linear in log frequency, so that a capacitive impedance
-//! ∝ 1/f is interpolated exactly; beyond the end lines the end segment is
-//! extended, and the harmonic is reported as extrapolated) or by a weighted
+//! Zs is carried to the pump harmonics by interpolation (the admittance
+//! Ys = 1/Zs, real and imaginary parts linear in frequency between the
+//! secondary lines, which is exact for an internal volume with leakage,
+//! Ys = G + jωC; beyond the end lines the end segment is extended, and the
+//! harmonic is reported as extrapolated) or by a weighted
 //! least-squares fit of a physical form, Ys = G + jωC (internal volume with
 //! leakage, methods.md §5 form b), each line weighted by the inverse
 //! variance of its Ys (generalised least squares: the noisy lines do not
@@ -37,8 +38,8 @@ pub fn impedance_point(p0: C64, q0: C64) -> C64 {
 /// measured at the secondary-source frequencies.
 #[derive(Debug, Clone, PartialEq)]
 pub enum ImpedanceModel {
-    /// Interpolated between the points: (frequency Hz, ln |Zs|, unwrapped phase).
-    Table(Vec<(f64, f64, f64)>),
+    /// Interpolated between the points: (frequency Hz, Ys = 1/Zs).
+    Table(Vec<(f64, C64)>),
     /// Ys = G + jωC.
     CapacitanceLeakage {
         /// Conductance G in m³/(Pa·s).
@@ -87,18 +88,9 @@ impl ImpedanceModel {
             .map(|(f, yw, w)| (f, (yw / w).inv(), w))
             .collect();
         match fit {
-            ImpedanceFit::Interpolate => {
-                let mut table: Vec<(f64, f64, f64)> = Vec::with_capacity(pts.len());
-                for (f, z, _) in pts {
-                    let mut phase = z.arg();
-                    if let Some(&(_, _, last)) = table.last() {
-                        phase += std::f64::consts::TAU
-                            * ((last - phase) / std::f64::consts::TAU).round();
-                    }
-                    table.push((f, z.norm().ln(), phase));
-                }
-                Ok(ImpedanceModel::Table(table))
-            }
+            ImpedanceFit::Interpolate => Ok(ImpedanceModel::Table(
+                pts.into_iter().map(|(f, z, _)| (f, z.inv())).collect(),
+            )),
             ImpedanceFit::CapacitanceLeakage => {
                 // Weighted least squares on Ys = G + jωC (weights w_i):
                 // G = Σ w Re Ys / Σ w, C = Σ w ω Im Ys / Σ w ω².
@@ -125,13 +117,13 @@ impl ImpedanceModel {
         match self {
             ImpedanceModel::Table(t) => {
                 if t.len() == 1 {
-                    return C64::from_polar(t[0].1.exp(), t[0].2);
+                    return t[0].1.inv();
                 }
                 let i = t.partition_point(|p| p.0 < freq_hz).clamp(1, t.len() - 1);
-                let (f0, a0, p0) = t[i - 1];
-                let (f1, a1, p1) = t[i];
-                let x = (freq_hz / f0).ln() / (f1 / f0).ln();
-                C64::from_polar((a0 + x * (a1 - a0)).exp(), p0 + x * (p1 - p0))
+                let (f0, y0) = t[i - 1];
+                let (f1, y1) = t[i];
+                let x = (freq_hz - f0) / (f1 - f0);
+                (y0 + (y1 - y0) * x).inv()
             }
             ImpedanceModel::CapacitanceLeakage {
                 conductance,
@@ -174,13 +166,11 @@ mod tests {
         let t = ImpedanceModel::build(&pts, ImpedanceFit::Interpolate).unwrap();
         assert_eq!(t.range_hz(), Some((90.0, 410.0)));
         assert!((t.at(180.0) - z(180.0)).norm() < 1e-14 * z(180.0).norm());
-        // A pure capacitance (∝ 1/f) is interpolated exactly in log-log.
-        let cap = |f: f64| C64::new(0.0, std::f64::consts::TAU * f * c).inv();
-        let pts: Vec<(f64, C64, f64)> = [90.0, 410.0].map(|f| (f, cap(f), 0.0)).to_vec();
-        let t = ImpedanceModel::build(&pts, ImpedanceFit::Interpolate).unwrap();
-        assert!((t.at(225.0) - cap(225.0)).norm() < 1e-13 * cap(225.0).norm());
-        // ... and extrapolated exactly beyond the end lines.
-        assert!((t.at(500.0) - cap(500.0)).norm() < 1e-13 * cap(500.0).norm());
+        // The same form is interpolated exactly between the lines (Ys linear
+        // in f), and extrapolated exactly beyond the end lines.
+        for f in [225.0, 500.0, 60.0] {
+            assert!((t.at(f) - z(f)).norm() < 1e-12 * z(f).norm(), "{f}");
+        }
     }
 
     #[test]
