@@ -17,7 +17,7 @@
 use ripline::C64;
 use ripline::estimate::Quiet;
 use ripline::estimate::extract::{
-    ExtractRequest, PumpFrequency, ReferenceKind, TimeRecord, extract,
+    ConditionSpectra, ExtractRequest, PumpFrequency, ReferenceKind, TimeRecord, extract,
 };
 use ripline::estimate::fit::{FitOptions, HarmonicStatus};
 use ripline::estimate::rng::Rng;
@@ -33,6 +33,26 @@ const COVER_2: f64 = 0.9544997361036416;
 const CRB_STD_A: f64 = 0.004479338362303288;
 const CRB_STD_F_HZ: f64 = 0.002453864349763048;
 const CRB_STD_PHI: f64 = 0.008903230862405027;
+
+/// The phasors of one channel, the pumping frequency searched within 5 % of
+/// `nominal`, harmonics 1..=`harmonics`.
+fn extract_one(channel: Vec<f64>, fs: f64, nominal: f64, harmonics: u32) -> ConditionSpectra {
+    let rec = TimeRecord {
+        file: "tones".into(),
+        sample_rate_hz: fs,
+        channels: vec![channel],
+    };
+    let req = ExtractRequest {
+        pump: PumpFrequency::Search {
+            nominal_hz: nominal,
+        },
+        harmonics,
+        secondary_fundamental_hz: None,
+        speed_tolerance: 0.05,
+        origin: None,
+    };
+    extract(&rec, &req, &mut Quiet).unwrap()
+}
 
 fn std_dev(v: &[f64]) -> f64 {
     let n = v.len() as f64;
@@ -54,19 +74,7 @@ fn extraction_reaches_the_cramer_rao_bound_for_a_tone_in_white_noise() {
         let ch: Vec<f64> = (0..n)
             .map(|i| a * (TAU * f * i as f64 / fs + phi).cos() + 2.0 + sigma * rng.normal())
             .collect();
-        let rec = TimeRecord {
-            file: "tone".into(),
-            sample_rate_hz: fs,
-            channels: vec![ch],
-        };
-        let req = ExtractRequest {
-            pump: PumpFrequency::Search { nominal_hz: 47.0 },
-            harmonics: 1,
-            secondary_fundamental_hz: None,
-            speed_tolerance: 0.05,
-            origin: None,
-        };
-        let out = extract(&rec, &req, &mut Quiet).unwrap();
+        let out = extract_one(ch, fs, 47.0, 1);
         let p = out.pump[0].pressures[0];
         amps.push(p.norm());
         phases.push(p.arg());
@@ -269,19 +277,7 @@ fn a_phase_error_at_the_reference_rotates_every_harmonic_in_proportion_to_its_or
                 .sum()
         })
         .collect();
-    let rec = TimeRecord {
-        file: "tones".into(),
-        sample_rate_hz: fs,
-        channels: vec![ch],
-    };
-    let req = ExtractRequest {
-        pump: PumpFrequency::Search { nominal_hz: 52.0 },
-        harmonics: 2,
-        secondary_fundamental_hz: None,
-        speed_tolerance: 0.05,
-        origin: None,
-    };
-    let out = extract(&rec, &req, &mut Quiet).unwrap();
+    let out = extract_one(ch, fs, 52.0, 2);
     let t = n as f64 / fs;
     for (k, p) in out.pump.iter().enumerate() {
         let want = C64::new(0.0, -std::f64::consts::PI * (k + 1) as f64 * t) * p.pressures[0];

@@ -954,30 +954,25 @@ fn demo_bench_fit_recovers_the_known_source() {
     std::fs::remove_dir_all(dir).unwrap();
 }
 
-#[test]
-fn a_tacho_channel_gives_the_shaft_reference_of_records_that_start_anywhere() {
-    // The demo bench with a tacho column: synth starts each record at a
-    // random shaft angle and writes one pulse per revolution (rising edge
-    // at angle zero); fit takes the reference from the pulses, so the
-    // phases against the shaft are those of the known source: harmonic 2
-    // at 150° (demo_bench.yaml's synthesis section), to 1e-3°.
-    let dir = scratch("tachofit");
+/// The demo bench without noise, edited by `edits`, synthesised into a
+/// scratch folder and fitted without draws: (folder, synth's stdout, fit's
+/// stdout, the second row of the fit's CSV, harmonic 2).
+fn demo_synth_then_fit(
+    name: &str,
+    edits: &[(&str, &str)],
+) -> (PathBuf, String, String, Vec<String>) {
+    let dir = scratch(name);
     let bench = dir.join("bench.yaml");
-    let text = std::fs::read_to_string("networks/bench/demo_bench.yaml")
+    let mut text = std::fs::read_to_string("networks/bench/demo_bench.yaml")
         .unwrap()
-        .replace("noise: 0.5 %", "noise: 0")
-        .replace(
-            "records: {unit: bar, sample_rate: 6 kHz}",
-            "records: {unit: bar, sample_rate: 6 kHz, tacho_column: tach}",
-        );
+        .replace("noise: 0.5 %", "noise: 0");
+    for (from, to) in edits {
+        text = text.replace(from, to);
+    }
     std::fs::write(&bench, text).unwrap();
     let o = ripline(&["synth", bench.to_str().unwrap()]);
     assert!(o.status.success(), "{}", stderr(&o));
-    let record = std::fs::read_to_string(dir.join("data/system_a.csv")).unwrap();
-    assert!(
-        record.lines().any(|l| l == "p1,p2,p3,tach"),
-        "a tacho column"
-    );
+    let synth_out = stdout(&o);
     let csv = dir.join("fit.csv");
     let o = ripline(&[
         "fit",
@@ -988,13 +983,37 @@ fn a_tacho_channel_gives_the_shaft_reference_of_records_that_start_anywhere() {
         csv.to_str().unwrap(),
     ]);
     assert!(o.status.success(), "{}", stderr(&o));
-    assert!(
-        stdout(&o).contains("shaft reference from the tacho"),
-        "{}",
-        stdout(&o)
-    );
     let text = std::fs::read_to_string(&csv).unwrap();
-    let row: Vec<&str> = text.lines().nth(2).unwrap().split(',').collect();
+    let row = text
+        .lines()
+        .nth(2)
+        .unwrap()
+        .split(',')
+        .map(str::to_string)
+        .collect();
+    (dir, synth_out, stdout(&o), row)
+}
+
+#[test]
+fn a_tacho_channel_gives_the_shaft_reference_of_records_that_start_anywhere() {
+    // The demo bench with a tacho column: synth starts each record at a
+    // random shaft angle and writes one pulse per revolution (rising edge
+    // at angle zero); fit takes the reference from the pulses, so the
+    // phases against the shaft are those of the known source: harmonic 2
+    // at 150° (demo_bench.yaml's synthesis section), to 1e-3°.
+    let (dir, _, out, row) = demo_synth_then_fit(
+        "tachofit",
+        &[(
+            "records: {unit: bar, sample_rate: 6 kHz}",
+            "records: {unit: bar, sample_rate: 6 kHz, tacho_column: tach}",
+        )],
+    );
+    let record = std::fs::read_to_string(dir.join("data/system_a.csv")).unwrap();
+    assert!(
+        record.lines().any(|l| l == "p1,p2,p3,tach"),
+        "a tacho column"
+    );
+    assert!(out.contains("shaft reference from the tacho"), "{out}");
     let phase: f64 = row[3].parse().unwrap();
     assert!((phase - 150.0).abs() < 1e-3, "{phase}");
     std::fs::remove_dir_all(dir).unwrap();
@@ -1005,28 +1024,11 @@ fn synth_then_fit_round_trip_without_noise() {
     // The demo bench synthesised without noise into a scratch folder: the
     // fit returns the known source (see the demo test for the values) to
     // 1e-6 relative (the records are written in full precision).
-    let dir = scratch("synthfit");
-    let bench = dir.join("bench.yaml");
-    let text = std::fs::read_to_string("networks/bench/demo_bench.yaml")
-        .unwrap()
-        .replace("noise: 0.5 %", "noise: 0")
-        .replace("mean_pressure: 150 bar", "mean_pressure: 0");
-    std::fs::write(&bench, text).unwrap();
-    let o = ripline(&["synth", bench.to_str().unwrap()]);
-    assert!(o.status.success(), "{}", stderr(&o));
-    assert!(stdout(&o).contains("data/system_a.csv"));
-    let csv = dir.join("fit.csv");
-    let o = ripline(&[
-        "fit",
-        bench.to_str().unwrap(),
-        "--draws",
-        "0",
-        "--csv",
-        csv.to_str().unwrap(),
-    ]);
-    assert!(o.status.success(), "{}", stderr(&o));
-    let text = std::fs::read_to_string(&csv).unwrap();
-    let row: Vec<&str> = text.lines().nth(2).unwrap().split(',').collect();
+    let (dir, synth_out, _, row) = demo_synth_then_fit(
+        "synthfit",
+        &[("mean_pressure: 150 bar", "mean_pressure: 0")],
+    );
+    assert!(synth_out.contains("data/system_a.csv"));
     let want_q = 0.25 / 60_000.0 * 1.002;
     let q: f64 = row[2].parse().unwrap();
     assert!((q - want_q).abs() < 1e-6 * want_q, "{q} vs {want_q}");

@@ -285,34 +285,30 @@ pub fn write_source_file<W: Write>(
     }
     writeln!(out, "pumping_elements: {}", source.pumping_elements)?;
     writeln!(out, "harmonics:")?;
-    let phase_u = |x: C64, u: Option<f64>| u.map(|u| (u / x.norm()).to_degrees());
+    // Amplitude and phase of a phasor; the phase's uncertainty is the
+    // amplitude's over |X| (circular noise).
+    let polar = |out: &mut W, name: &str, x: C64, u: Option<f64>, unit: &str| {
+        writeln!(
+            out,
+            "    {name}_amplitude: {} {unit}",
+            scientific(x.norm(), u)
+        )?;
+        let u_deg = u.map(|u| (u / x.norm()).to_degrees());
+        writeln!(
+            out,
+            "    {name}_phase: {} deg",
+            fixed(x.arg().to_degrees(), u_deg)
+        )
+    };
     for h in &source.harmonics {
         writeln!(out, "  - harmonic: {}", h.order)?;
-        writeln!(
-            out,
-            "    flow_amplitude: {} m3/s",
-            scientific(h.flow.norm(), h.flow_uncertainty)
-        )?;
-        writeln!(
-            out,
-            "    flow_phase: {} deg",
-            fixed(
-                h.flow.arg().to_degrees(),
-                phase_u(h.flow, h.flow_uncertainty)
-            )
-        )?;
-        writeln!(
-            out,
-            "    impedance_amplitude: {} Pa.s/m3",
-            scientific(h.impedance.norm(), h.impedance_uncertainty)
-        )?;
-        writeln!(
-            out,
-            "    impedance_phase: {} deg",
-            fixed(
-                h.impedance.arg().to_degrees(),
-                phase_u(h.impedance, h.impedance_uncertainty)
-            )
+        polar(&mut out, "flow", h.flow, h.flow_uncertainty, "m3/s")?;
+        polar(
+            &mut out,
+            "impedance",
+            h.impedance,
+            h.impedance_uncertainty,
+            "Pa.s/m3",
         )?;
         if let Some(u) = h.flow_uncertainty {
             writeln!(out, "    flow_uncertainty: {u:.1e} m3/s")?;
