@@ -389,8 +389,8 @@ fn prepare(
     Ok(lines)
 }
 
-/// The χ² check of the wave fits (lines with known uncertainties and three
-/// or more transducers).
+/// The χ² check of the wave fits (lines with known uncertainties above
+/// round-off and three or more transducers).
 fn residual_check(
     lines: &[Prepared],
     decomps: &[Option<Decomposition>],
@@ -399,7 +399,13 @@ fn residual_check(
     let (mut chi, mut dof) = (0.0, 0.0);
     for (l, d) in lines.iter().zip(decomps) {
         let n_t = l.pressures.len();
-        if let (true, Some(d), true) = (l.uncertainty_known(), d, n_t > 2) {
+        // Phasors known to round-off (noise-free data) carry no statistics.
+        let noisy = l
+            .uncertainty
+            .iter()
+            .zip(&l.pressures)
+            .any(|(u, p)| u.is_some_and(|u| u > 1e-9 * p.norm()));
+        if let (true, Some(d), true) = (l.uncertainty_known() && noisy, d, n_t > 2) {
             chi += 2.0 * d.residual;
             dof += 2.0 * (n_t - 2) as f64;
         }
