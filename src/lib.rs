@@ -55,6 +55,8 @@ pub mod meanflow;
 pub mod network;
 pub mod oil;
 pub mod plot;
+pub mod render;
+pub mod results;
 pub mod source;
 pub mod units;
 pub mod wall;

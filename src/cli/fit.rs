@@ -1,18 +1,17 @@
 //! `ripline fit BENCH_FILE`: the pump's source flow ripple and source
 //! impedance from bench records, with uncertainties and warnings.
 
-use super::common::{self, UsageError};
-use anyhow::Context;
+use super::common::{self, Outputs, UsageError};
 use clap::Args;
 use indicatif::{ProgressBar, ProgressStyle};
-use ripline::estimate::bench::{Bench, SpeedOfSound};
-use ripline::estimate::fit::{Estimate, FitReport, HarmonicResult, HarmonicStatus};
-use ripline::estimate::uncertainty::{fixed, scientific};
-use ripline::estimate::{FitOptions, Observer, fit};
-use ripline::io::source_file::{PumpSource, SourceHarmonic, write_source_file};
+use ripline::estimate::{FitOptions, Observer};
+use ripline::io::source_file::write_source_file;
 use ripline::plot;
-use ripline::units::PressureDisplay;
-use std::io::{IsTerminal, Write};
+use ripline::render::fit as render;
+use ripline::results::Origin;
+use ripline::results::fit::fit;
+use ripline::results::fit_check::self_check as run_self_check;
+use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 
 #[derive(Debug, Args)]
@@ -37,6 +36,9 @@ pub struct FitArgs {
     /// Plot amplitude and phase of Qs and Zs against frequency (.svg or .png).
     #[arg(long, value_name = "FILE")]
     plot: Option<PathBuf>,
+    /// Write the result as JSON (schema in docs/json.md).
+    #[arg(long, value_name = "FILE")]
+    json: Option<PathBuf>,
     /// Include ill-conditioned, extrapolated and unstable harmonics in the
     /// overall levels.
     #[arg(long)]
@@ -44,7 +46,7 @@ pub struct FitArgs {
     /// Instead of fitting the records: fit N sets of synthetic data made
     /// from the bench file's `synthesis` section at its noise (seeds from
     /// --seed on) and report per harmonic the bias, the spread over the
-    /// reported uncertainty and the coverage (--csv writes that table).
+    /// reported uncertainty and the coverage (--csv and --json write that).
     #[arg(long, value_name = "N", conflicts_with_all = ["source_out", "plot"])]
     self_check: Option<usize>,
 }
@@ -55,8 +57,9 @@ pub struct FitArgs {
 /// about a millisecond.
 pub const MAX_DRAWS: usize = 20_000;
 
-/// Header of the `--csv` table.
-pub const FIT_HEADER: &str = "harmonic,frequency_hz,flow_amplitude_m3s,flow_phase_deg,impedance_amplitude_pa_s_m3,impedance_phase_deg,flow_uncertainty_m3s,impedance_uncertainty_pa_s_m3";
+/// Most seeds × Monte Carlo draws a self-check may run (each draw is a
+/// fit's worth of work: about a millisecond).
+pub const MAX_SELF_CHECK_WORK: usize = 1_000_000;
 
 /// A progress bar on standard error when it is a terminal; silent otherwise.
 struct Progress(Option<ProgressBar>);
@@ -88,11 +91,6 @@ impl Observer for Progress {
 }
 
 pub fn run(args: FitArgs) -> anyhow::Result<()> {
-    let out = |o: &Option<PathBuf>, name: &str, ext: &[&str]| {
-        o.as_deref()
-            .map(|p| common::check_output(name, p, ext))
-            .transpose()
-    };
     if args.draws > MAX_DRAWS {
         return Err(UsageError(format!(
             "--draws must be at most {MAX_DRAWS} (the uncertainties are then known to 0.5 %), found {}",
@@ -100,464 +98,125 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
         ))
         .into());
     }
-    let csv_path = out(&args.csv, "--csv", &["csv"])?;
-    let source_path = out(&args.source_out, "--source-out", &["yaml", "yml"])?;
-    let plot_path = out(&args.plot, "--plot", &["svg", "png"])?;
+    let (csv, plot) = common::csv_and_plot_paths(args.csv.as_deref(), args.plot.as_deref())?;
+    let source_path = args
+        .source_out
+        .as_deref()
+        .map(|p| common::check_output("--source-out", p, &["yaml", "yml"]))
+        .transpose()?;
+    let json = common::json_path(args.json.as_deref())?;
     let mut bench = ripline::io::bench_file::load_bench(&args.file)?;
-    if let Some(n) = args.harmonics {
-        if !(1..=50).contains(&n) {
+    let harmonics_origin = match args.harmonics {
+        Some(n) if !(1..=50).contains(&n) => {
             return Err(
                 UsageError(format!("--harmonics must be between 1 and 50, found {n}")).into(),
             );
         }
-        bench.harmonics = n;
-    }
+        Some(n) => {
+            bench.harmonics = n;
+            Origin::Request
+        }
+        None => Origin::File,
+    };
     let options = FitOptions {
         draws: args.draws,
         seed: args.seed,
         include_flagged: args.include_flagged,
     };
+    let file = args.file.display().to_string();
     if let Some(seeds) = args.self_check {
-        let mut outputs =
-            common::plan_outputs(&[&args.file], &[("--csv", csv_path.as_deref())], false)?;
-        let mut progress = Progress(None);
-        let report = super::fit_check::run(&args.file, &bench, seeds, options, &mut progress)?;
-        progress.finish();
-        if let Some(path) = &csv_path {
-            let mut bytes = Vec::new();
-            super::fit_check::write_csv(&mut bytes, &report)?;
-            outputs
-                .stage_bytes(path, &bytes)
-                .with_context(|| format!("writing {}", path.display()))?;
-        }
-        common::commit(outputs)?;
-        let mut out = std::io::stdout().lock();
-        super::fit_check::write_text(&mut out, &args.file, &report)?;
-        out.flush()?;
-        return Ok(());
+        return self_check(&bench, &file, seeds, options, harmonics_origin, csv, json);
     }
     let records: Vec<&Path> = bench.conditions.iter().map(|c| c.data.path()).collect();
-    let mut outputs = common::plan_outputs(
+    let mut outputs = Outputs(common::plan_outputs(
         &records,
         &[
-            ("--csv", csv_path.as_deref()),
+            ("--csv", csv.as_deref()),
             ("--source-out", source_path.as_deref()),
-            ("--plot", plot_path.as_deref()),
+            ("--plot", plot.as_deref()),
+            ("--json", json.as_deref()),
         ],
         false,
-    )?;
+    )?);
     let mut progress = Progress(None);
     let data = ripline::io::records::load_conditions(&bench, &mut progress)?;
-    let report = fit(&bench, &data, &options, &mut progress)
-        .map_err(|e| UsageError(format!("{}: {e}", args.file.display())))?;
+    let result = fit(
+        &bench,
+        &data,
+        &file,
+        &options,
+        harmonics_origin,
+        &mut progress,
+    );
     progress.finish();
-    if report.harmonics.is_empty() {
-        for w in &report.warnings {
-            eprintln!("warning: {w}");
-        }
-        anyhow::bail!("{}: no harmonic could be estimated", args.file.display());
-    }
-    ensure_finite(&report)?;
+    let result = result?;
+    common::print_warnings(&result.warnings);
 
-    if let Some(path) = &csv_path {
-        let mut bytes = Vec::new();
-        write_csv(&report, &mut bytes)?;
-        outputs
-            .stage_bytes(path, &bytes)
-            .with_context(|| format!("writing {}", path.display()))?;
-    }
+    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
     if let Some(path) = &source_path {
         let mut bytes = Vec::new();
         write_source_file(
-            &source_of(&report),
+            &result.pump_source(),
             &mut bytes,
             &format!(
-                "estimated by ripline fit from {} ({} method); uncertainties are standard uncertainties of the amplitudes{}",
-                args.file.display(),
-                report.method.name(),
-                report
+                "estimated by ripline fit from {file} ({} method); uncertainties are standard uncertainties of the amplitudes{}",
+                result.method,
+                result
                     .equivalent
                     .as_ref()
-                    .map(|e| format!("\n{}", equivalent_text(e, bench.fluid.bulk_modulus_pa)))
+                    .map(|e| format!("\n{}", render::equivalent_text(e)))
                     .unwrap_or_default()
             ),
         )?;
-        outputs
-            .stage_bytes(path, &bytes)
-            .with_context(|| format!("writing {}", path.display()))?;
+        outputs.bytes(path, &bytes)?;
     }
-    if let Some(path) = &plot_path {
-        let charts = charts(&report, bench.title.as_deref());
-        outputs
-            .stage_with(path, |tmp| plot::stacked_line_charts(tmp, &charts))
-            .with_context(|| format!("drawing {}", path.display()))?;
-    }
-    for w in &report.warnings {
-        eprintln!("warning: {w}");
-    }
-    common::commit(outputs)?;
-    print_report(&args.file, &bench, &report)?;
-    Ok(())
+    outputs.plot_to(plot.as_deref(), |tmp| {
+        plot::stacked_line_charts(tmp, &render::charts(&result))
+    })?;
+    outputs.finish(json.as_deref(), "fit", &result, render::text)
 }
 
-fn ensure_finite(report: &FitReport) -> anyhow::Result<()> {
-    for h in &report.harmonics {
-        for (what, e) in [
-            ("flow ripple", &h.flow),
-            ("source impedance", &h.impedance),
-            ("anechoic ripple", &h.anechoic),
-            ("blocked ripple", &h.blocked),
-        ] {
-            let u_ok = e
-                .uncertainty
-                .is_none_or(|u| u.amplitude.is_finite() && u.phase_rad.is_finite());
-            if !(e.value.is_finite() && u_ok) {
-                anyhow::bail!(
-                    "the {what} of harmonic {} ({:.2} Hz) is not a finite number",
-                    h.order,
-                    h.freq_hz
-                );
-            }
-        }
+/// `fit --self-check N`: the bench's synthetic data over N seeds.
+fn self_check(
+    bench: &ripline::estimate::bench::Bench,
+    file: &str,
+    seeds: usize,
+    options: FitOptions,
+    harmonics_origin: Origin,
+    csv: Option<PathBuf>,
+    json: Option<PathBuf>,
+) -> anyhow::Result<()> {
+    use ripline::estimate::selfcheck::MAX_SEEDS;
+    if !(1..=MAX_SEEDS).contains(&seeds) {
+        return Err(UsageError(format!(
+            "--self-check must be between 1 and {MAX_SEEDS} seeds, found {seeds}"
+        ))
+        .into());
     }
-    Ok(())
-}
-
-fn u_text(u: Option<f64>) -> String {
-    u.map_or_else(String::new, |u| format!("{u:e}"))
-}
-
-fn write_csv(report: &FitReport, out: &mut Vec<u8>) -> anyhow::Result<()> {
-    let mut w = csv::Writer::from_writer(out);
-    w.write_record(FIT_HEADER.split(','))?;
-    for h in &report.harmonics {
-        w.write_record([
-            h.order.to_string(),
-            format!("{}", h.freq_hz),
-            format!("{:e}", h.flow.value.norm()),
-            format!("{}", h.flow.value.arg().to_degrees()),
-            format!("{:e}", h.impedance.value.norm()),
-            format!("{}", h.impedance.value.arg().to_degrees()),
-            u_text(h.flow.uncertainty.map(|u| u.amplitude)),
-            u_text(h.impedance.uncertainty.map(|u| u.amplitude)),
-        ])?;
+    let work = seeds * options.draws.max(1);
+    if work > MAX_SELF_CHECK_WORK {
+        return Err(UsageError(format!(
+            "--self-check {seeds} with --draws {} is {work} fits' worth of Monte Carlo draws; at most {MAX_SELF_CHECK_WORK} (lower one of them)",
+            options.draws
+        ))
+        .into());
     }
-    w.flush()?;
-    Ok(())
-}
-
-fn source_of(report: &FitReport) -> PumpSource {
-    PumpSource {
-        name: report.pump.clone(),
-        speed_rev_s: report.speed_rev_s,
-        speed_uncertainty_rev_s: report.speed_uncertainty_rev_s,
-        pumping_elements: report.pumping_elements,
-        harmonics: report
-            .harmonics
-            .iter()
-            .map(|h| SourceHarmonic {
-                order: h.order,
-                flow: h.flow.value,
-                impedance: h.impedance.value,
-                flow_uncertainty: h.flow.uncertainty.map(|u| u.amplitude),
-                impedance_uncertainty: h.impedance.uncertainty.map(|u| u.amplitude),
-                status: h.status,
-                note: (h.status != HarmonicStatus::Estimated).then(|| h.flags.join("; ")),
-            })
-            .collect(),
-    }
-}
-
-/// Amplitude and phase (degrees) with their uncertainties, each value with
-/// the digits its uncertainty supports; 5 significant digits and 0.1°
-/// without one.
-fn pm(e: &Estimate, scale: f64) -> (String, String) {
-    let a = e.value.norm() / scale;
-    let deg = e.value.arg().to_degrees();
-    match e.uncertainty {
-        Some(u) => {
-            let (ua, up) = (u.amplitude / scale, u.phase_rad.to_degrees());
-            (
-                format!("{} ± {ua:.1e}", scientific(a, Some(ua))),
-                format!("{} ± {}", fixed(deg, Some(up)), fixed(up, Some(up))),
-            )
-        }
-        None => (format!("{a:.4e}"), format!("{deg:.1}")),
-    }
-}
-
-fn bar_pm(e: &Estimate) -> String {
-    match e.uncertainty {
-        Some(u) => format!(
-            "{} ± {}",
-            PressureDisplay(e.value.norm()),
-            PressureDisplay(u.amplitude)
-        ),
-        None => PressureDisplay(e.value.norm()).to_string(),
-    }
-}
-
-fn print_report(file: &Path, bench: &Bench, report: &FitReport) -> anyhow::Result<()> {
-    let mut out = std::io::stdout().lock();
-    writeln!(out, "ripline fit: {}", file.display())?;
-    if let Some(t) = &bench.title {
-        writeln!(out, "bench: {t}")?;
-    }
-    let measured = match report.speed_uncertainty_rev_s {
-        Some(u) => format!(
-            "{} ± {:.1e}",
-            fixed(60.0 * report.speed_rev_s, Some(60.0 * u)),
-            60.0 * u
-        ),
-        None => format!("{:.1}", 60.0 * report.speed_rev_s),
-    };
-    writeln!(
-        out,
-        "pump `{}`: {measured} rpm measured ({:.1} rpm stated) × {} pumping elements = pumping frequency {:.2} Hz",
-        report.pump,
-        bench.pump.speed_rev_s * 60.0,
-        report.pumping_elements,
-        report.pumping_frequency_hz()
-    )?;
-    writeln!(
-        out,
-        "method: {}, {} conditions, {} transducers",
-        report.method.name(),
-        bench.conditions.len(),
-        bench.transducers.len()
-    )?;
-    let c = &report.speed_of_sound;
-    let source = match c.source {
-        SpeedOfSound::InSitu => "estimated in situ",
-        SpeedOfSound::Fixed(_) => "as stated",
-        SpeedOfSound::FromFluid => match bench.line.wall {
-            ripline::wall::Wall::Rigid => "from the fluid, rigid wall",
-            ripline::wall::Wall::Elastic { .. } => {
-                "from the fluid and the wall, thin-wall (Korteweg)"
-            }
-            ripline::wall::Wall::ThickElastic { .. } => {
-                "from the fluid and the wall, thick-wall (Lamé)"
-            }
-        },
-    };
-    match c.estimate.uncertainty {
-        Some(u) => writeln!(
-            out,
-            "speed of sound: {:.2} ± {:.2} m/s ({source})",
-            c.estimate.value, u
-        )?,
-        None => writeln!(
-            out,
-            "speed of sound: {:.2} m/s ({source})",
-            c.estimate.value
-        )?,
-    }
-    for ci in &report.conditions {
-        let snr = ci.snr_db.iter().flatten().copied().reduce(f64::min);
-        write!(
-            out,
-            "condition `{}`: pumping frequency {:.3} Hz{}",
-            ci.name,
-            ci.pumping_frequency_hz,
-            if ci.pumping_frequency_held {
-                " (held from the pump runs)"
-            } else {
-                ""
-            }
-        )?;
-        if ci.tacho {
-            write!(out, ", shaft reference from the tacho")?;
-        }
-        if let Some(f) = ci.secondary_fundamental_hz {
-            write!(out, ", secondary source {f:.3} Hz")?;
-        }
-        match snr {
-            Some(s) if s < 200.0 => writeln!(out, ", lowest harmonic SNR {s:.1} dB")?,
-            Some(_) => writeln!(out, ", lowest harmonic SNR above 200 dB")?,
-            None => writeln!(out)?,
-        }
-    }
-    writeln!(
-        out,
-        "amplitudes are peak values; ± standard uncertainties (k = 1, {} Monte Carlo draws); phases in degrees against the shaft reference; * = flagged (see the warnings)",
-        report.draws
-    )?;
-    writeln!(out)?;
-    writeln!(
-        out,
-        "{:>3} {:>9}  {:>22} {:>13}  {:>22} {:>13}  {:>22}  {:>22}",
-        "k", "freq Hz", "Qs m³/s", "phase", "Zs Pa·s/m³", "phase", "anechoic", "blocked"
-    )?;
-    for h in &report.harmonics {
-        let (qa, qp) = pm(&h.flow, 1.0);
-        let (za, zp) = pm(&h.impedance, 1.0);
-        writeln!(
-            out,
-            "{:>3} {:>9.2}  {:>22} {:>13}  {:>22} {:>13}  {:>22}  {:>22}{}",
-            h.order,
-            h.freq_hz,
-            qa,
-            qp,
-            za,
-            zp,
-            bar_pm(&h.anechoic),
-            bar_pm(&h.blocked),
-            match (h.status, h.flags.is_empty()) {
-                (HarmonicStatus::Estimated, true) => String::new(),
-                (HarmonicStatus::Estimated, false) => " *".into(),
-                (s, _) => format!(" * {}", s.key()),
-            }
-        )?;
-    }
-    let rms = |s: &ripline::estimate::fit::Scalar| match s.uncertainty {
-        Some(u) => format!("{} ± {}", PressureDisplay(s.value), PressureDisplay(u)),
-        None => PressureDisplay(s.value).to_string(),
-    };
-    writeln!(out)?;
-    let left_out: Vec<String> = report
-        .harmonics
-        .iter()
-        .filter(|h| !report.rms_orders.contains(&h.order))
-        .map(|h| h.order.to_string())
-        .collect();
-    writeln!(
-        out,
-        "overall rms: anechoic {}, blocked {} (reference line Zc at the estimated speed of sound{})",
-        rms(&report.anechoic_rms_pa),
-        rms(&report.blocked_rms_pa),
-        if left_out.is_empty() {
-            String::new()
-        } else {
-            format!(
-                "; flagged harmonics {} left out, --include-flagged to include them",
-                left_out.join(", ")
-            )
-        }
-    )?;
-    if let Some(e) = &report.equivalent {
-        writeln!(out, "{}", equivalent_text(e, bench.fluid.bulk_modulus_pa))?;
-    }
-    out.flush()?;
-    Ok(())
-}
-
-/// The volume-with-leakage line of the report.
-fn equivalent_text(e: &ripline::estimate::fit::EquivalentSource, bulk_pa: f64) -> String {
-    let orders: Vec<String> = e.orders.iter().map(u32::to_string).collect();
-    let litres = |v: f64| v * 1e3;
-    let volume = match e.volume_m3.uncertainty {
-        Some(u) => format!(
-            "{} ± {:.1e} L",
-            fixed(litres(e.volume_m3.value), Some(litres(u))),
-            litres(u)
-        ),
-        None => format!("{:.4} L", litres(e.volume_m3.value)),
-    };
-    let g = e.leakage_conductance;
-    let leakage = match g.uncertainty {
-        Some(u) if g.value > 2.0 * u => {
-            let r = 1.0 / g.value;
-            let ur = u / (g.value * g.value);
-            format!(
-                "leakage resistance {} ± {ur:.1e} Pa·s/m³",
-                scientific(r, Some(ur))
-            )
-        }
-        Some(u) => format!(
-            "leakage not resolved (conductance {:.2e} ± {u:.1e} m³/(Pa·s); resistance above {:.1e} Pa·s/m³)",
-            g.value,
-            1.0 / (g.value.max(0.0) + 2.0 * u)
-        ),
-        None if g.value > 0.0 => format!("leakage resistance {:.4e} Pa·s/m³", 1.0 / g.value),
-        None => format!("leakage conductance {:.2e} m³/(Pa·s)", g.value),
-    };
-    format!(
-        "source impedance as a volume with leakage (Ys = G + jωV/B, B = {:.4} GPa; harmonics {}; rms misfit {:.2} %): volume {volume}, {leakage}",
-        bulk_pa / 1e9,
-        orders.join(", "),
-        100.0 * e.misfit
+    let mut outputs = Outputs(common::plan_outputs(
+        &[Path::new(file)],
+        &[("--csv", csv.as_deref()), ("--json", json.as_deref())],
+        false,
+    )?);
+    let mut progress = Progress(None);
+    let result = run_self_check(bench, file, seeds, options, harmonics_origin, &mut progress);
+    progress.finish();
+    let result = result?;
+    outputs.csv_to(csv.as_deref(), |buf| {
+        ripline::render::fit_check::csv(&result, buf)
+    })?;
+    outputs.finish(
+        json.as_deref(),
+        "fit --self-check",
+        &result,
+        ripline::render::fit_check::text,
     )
-}
-
-fn series(
-    name: &str,
-    hs: &[HarmonicResult],
-    value: impl Fn(&HarmonicResult) -> (f64, Option<f64>),
-) -> plot::XySeries {
-    let pts: Vec<(f64, f64, Option<f64>)> = hs
-        .iter()
-        .map(|h| {
-            let (v, u) = value(h);
-            (h.freq_hz, v, u)
-        })
-        .collect();
-    let bars = pts.iter().all(|p| p.2.is_some());
-    plot::XySeries {
-        name: name.into(),
-        points: pts.iter().map(|p| (p.0, p.1)).collect(),
-        error_bars: bars.then(|| {
-            pts.iter()
-                .map(|p| (p.1 - p.2.unwrap_or(0.0), p.1 + p.2.unwrap_or(0.0)))
-                .collect()
-        }),
-        style: plot::SeriesStyle::LineAndPoints,
-        color: None,
-    }
-}
-
-fn charts(report: &FitReport, title: Option<&str>) -> Vec<plot::LineChart> {
-    let hs = &report.harmonics;
-    let name = title.unwrap_or(&report.pump);
-    let amp = |e: &Estimate, s: f64| (e.value.norm() / s, e.uncertainty.map(|u| u.amplitude / s));
-    let ph = |e: &Estimate| {
-        (
-            e.value.arg().to_degrees(),
-            e.uncertainty.map(|u| u.phase_rad.to_degrees()),
-        )
-    };
-    // amplitudes cannot be negative: their error bars are cut at zero
-    let chart = |t: String, y: &str, s: plot::XySeries, log_y: bool| plot::LineChart {
-        title: t,
-        x_label: "frequency (Hz)".into(),
-        y_label: y.into(),
-        series: vec![s],
-        log_y,
-        y_floor: (!log_y && !y.starts_with("phase")).then_some(0.0),
-        ..Default::default()
-    };
-    // phases of separate harmonics are points, not a curve
-    let points = |s: plot::XySeries| plot::XySeries {
-        style: plot::SeriesStyle::Points,
-        ..s
-    };
-    vec![
-        chart(
-            format!(
-                "Source flow ripple — {name} ({:.0} rpm, f_p = {:.1} Hz); error bars ± standard uncertainty",
-                report.speed_rev_s * 60.0,
-                report.pumping_frequency_hz()
-            ),
-            "|Qs|, peak (L/min)",
-            series("flow ripple", hs, |h| amp(&h.flow, 1.0 / 60_000.0)),
-            false,
-        ),
-        chart(
-            String::new(),
-            "phase of Qs (deg)",
-            points(series("flow ripple phase", hs, |h| ph(&h.flow))),
-            false,
-        ),
-        chart(
-            "Source impedance".into(),
-            "|Zs| (Pa·s/m³)",
-            series("source impedance", hs, |h| amp(&h.impedance, 1.0)),
-            true,
-        ),
-        chart(
-            String::new(),
-            "phase of Zs (deg)",
-            points(series("impedance phase", hs, |h| ph(&h.impedance))),
-            false,
-        ),
-    ]
 }

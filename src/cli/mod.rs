@@ -7,9 +7,7 @@
 
 mod check;
 mod common;
-mod components;
 mod fit;
-mod fit_check;
 mod profile;
 mod ranges;
 mod response;

@@ -82,7 +82,8 @@ pub struct Scalar {
 }
 
 /// How far a harmonic's estimate can be trusted.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
 pub enum HarmonicStatus {
     /// Well-conditioned: an estimate with a meaningful uncertainty.
     Estimated,
