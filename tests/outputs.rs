@@ -771,7 +771,7 @@ fn the_json_schema_document_lists_every_key() {
         .unwrap();
     let dir = scratch("json-doc");
     let damper = "networks/drill_rig_feed_damper.yaml";
-    let runs: [(&str, Vec<&str>); 8] = [
+    let runs: [(&str, Vec<&str>); 9] = [
         ("solve", vec![]),
         ("check", vec![]),
         ("profile", vec![]),
@@ -811,6 +811,10 @@ fn the_json_schema_document_lists_every_key() {
         (
             "fit",
             vec!["networks/bench/demo_bench.yaml", "--draws", "5"],
+        ),
+        (
+            "assess",
+            vec!["networks/drill_rig_feed.yaml", "--speeds", "21"],
         ),
     ];
     for (cmd, args) in runs {

@@ -1,6 +1,6 @@
 //! Helpers shared by the commands: loading circuits, exit codes, output files.
 
-use super::{EXIT_COMPUTE, EXIT_INPUT};
+use super::{EXIT_COMPUTE, EXIT_INPUT, EXIT_LIMITS};
 use anyhow::Context;
 use ripline::io::InputError;
 use ripline::io::output::{OutputError, StagedOutputs};
@@ -60,8 +60,18 @@ pub fn cli_quantity(
     Ok(v)
 }
 
-/// Exit code for an error: 2 for input and usage errors, 1 otherwise.
+/// Limits of `assess` exceeded (exit code 3): not a failure of the
+/// command, whose outputs are complete.
+#[derive(Debug, thiserror::Error)]
+#[error("{0}")]
+pub struct LimitsExceeded(pub String);
+
+/// Exit code for an error: 2 for input and usage errors, 3 for exceeded
+/// limits, 1 otherwise.
 pub fn exit_code(err: &anyhow::Error) -> u8 {
+    if err.chain().any(|c| c.is::<LimitsExceeded>()) {
+        return EXIT_LIMITS;
+    }
     let input = err.chain().any(|c| {
         c.is::<InputError>()
             || c.is::<UsageError>()

@@ -5,6 +5,7 @@
 
 pub mod bench_file;
 pub mod circuit_file;
+pub mod csv_envelope;
 pub mod gas_pressure;
 pub mod locate;
 pub mod message;

@@ -116,17 +116,7 @@ fn resonances(out: &mut impl Write, list: &[ResonanceVerdict]) -> std::io::Resul
 fn bands(out: &mut impl Write, r: &ResponseResult) -> std::io::Result<()> {
     let single = r.speed_range.is_single();
     writeln!(out, "harmonic bands over {}:", r.speed_range.describe())?;
-    if !r.silent_orders.is_empty() {
-        writeln!(
-            out,
-            "  (left out, no source flow in the pump's table: harmonic {})",
-            r.silent_orders
-                .iter()
-                .map(u32::to_string)
-                .collect::<Vec<_>>()
-                .join(", ")
-        )?;
-    }
+    super::silent_orders_note(out, "  ", &r.silent_orders)?;
     for b in &r.bands {
         if single {
             writeln!(out, "  harmonic {:>2}: {:>9.2} Hz", b.order, b.low_hz)?;

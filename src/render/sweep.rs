@@ -33,14 +33,7 @@ const DOMINANT_SHARE_DB: f64 = -6.0;
 
 /// The companion file of a map: `sweep.svg` → `sweep-levels.svg`.
 pub fn levels_path(map: &Path) -> PathBuf {
-    let stem = map
-        .file_stem()
-        .map_or_else(|| "sweep".into(), |s| s.to_string_lossy().into_owned());
-    let ext = map
-        .extension()
-        .map(|e| format!(".{}", e.to_string_lossy()))
-        .unwrap_or_default();
-    map.with_file_name(format!("{stem}-levels{ext}"))
+    super::companion_path(map, "levels")
 }
 
 /// Writes the terminal report.

@@ -11,6 +11,7 @@
 //! cautions. Nothing here prints or writes a file: the renderers in
 //! [`crate::render`] turn a result into terminal text, CSV, JSON and charts.
 
+pub mod assess;
 pub mod check;
 pub mod describe;
 pub mod fit;

@@ -481,6 +481,42 @@ impl CircuitFile {
         }
     }
 
+    /// The envelope's points that match `filter` (every point for an empty
+    /// filter; the file's own point when it has no envelope).
+    ///
+    /// # Errors
+    /// [`crate::envelope::NoSuchPoint`] when the filter matches no point,
+    /// or asks for a part of a point without an envelope.
+    pub fn select(
+        &self,
+        filter: &crate::envelope::PointFilter,
+    ) -> Result<Vec<OperatingPoint>, crate::envelope::NoSuchPoint> {
+        match &self.envelope {
+            Some(e) => e.select(filter),
+            None if *filter == crate::envelope::PointFilter::default() => Ok(self.points()),
+            None => Err(crate::envelope::NoSuchPoint {
+                what: "an envelope point".into(),
+                valid: "none: the file has no `envelope` section".into(),
+            }),
+        }
+    }
+
+    /// The circuit at each of `points`, all resolved before any is used
+    /// (so a point that makes the circuit invalid is found before any
+    /// work).
+    ///
+    /// # Errors
+    /// The first point's [`InputError`], as [`CircuitFile::at`].
+    pub fn circuits(
+        &self,
+        points: &[OperatingPoint],
+    ) -> Result<Vec<(OperatingPoint, Circuit)>, InputError> {
+        points
+            .iter()
+            .map(|p| self.at(p).map(|c| (p.clone(), c)))
+            .collect()
+    }
+
     /// The circuit at an envelope point (the point evaluator).
     ///
     /// # Errors
@@ -621,23 +657,16 @@ pub fn parse_circuit_at(
             moved.push((format!("elements[{i}]"), kp.clone()));
             let e = &mut raw.elements[i];
             if e.is_two_port() {
-                // its `to` end shut: the element stays on `from`, dead-ended
-                e.to = Some(format!(
-                    "{} (closed in case {})",
-                    e.to.clone().unwrap_or_default(),
-                    case.name
-                ));
+                // its `to` end shut: the element stays on `from`, ended by a
+                // closed end at a node of its own (appended, so the other
+                // elements keep their places)
+                let node = format!("{} (closed in case {})", e.name, case.name);
+                e.to = Some(node.clone());
+                let end = closed_end(&node, &node, &checker, &kp)?;
+                raw.elements.push(end);
             } else {
-                let closed = RawElement::deserialize(Value::Mapping(Mapping::from_iter([
-                    (Value::from("name"), Value::from(e.name.clone())),
-                    (Value::from("kind"), Value::from("closed_end")),
-                    (
-                        Value::from("at"),
-                        Value::from(e.at.clone().unwrap_or_default()),
-                    ),
-                ])))
-                .map_err(|err| checker.err(&kp, err.to_string()))?;
-                *e = closed;
+                let at = e.at.clone().unwrap_or_default();
+                *e = closed_end(&e.name, &at, &checker, &kp)?;
             }
         }
         moved.push(("elements".into(), cp.clone()));
@@ -751,6 +780,16 @@ fn drop_cut_off(raw: &mut RawCircuit) -> Kept {
         keep_tap[i - 1]
     });
     kept
+}
+
+/// A `closed_end` element called `name` at node `at`.
+fn closed_end(name: &str, at: &str, checker: &Checker<'_>, path: &KeyPath) -> Res<RawElement> {
+    RawElement::deserialize(Value::Mapping(Mapping::from_iter([
+        (Value::from("name"), Value::from(name)),
+        (Value::from("kind"), Value::from("closed_end")),
+        (Value::from("at"), Value::from(at)),
+    ])))
+    .map_err(|err| checker.err(path, err.to_string()))
 }
 
 /// The circuit nodes a valve block's ports join (a block joins them
