@@ -748,7 +748,9 @@ fn refine_fundamental(
     // Golden-section searches on the series-fit residual, with 1, 2, 4, …
     // harmonics: each stage's estimate lies well inside the next stage's
     // bracket, ±0.75/(k·T), where the residual has a single minimum; the
-    // caller polishes the last stage's estimate by Gauss–Newton.
+    // caller polishes the last stage's estimate by Gauss–Newton. The
+    // brackets stay inside the tolerance band: a short record's first
+    // bracket is wider than the band and could carry the search off it.
     let duration = n as f64 / fs;
     let mut f = best.0;
     let mut k = 1;
@@ -757,8 +759,8 @@ fn refine_fundamental(
         let last = k == k_top;
         f = super::golden_section(
             |x| series_residual(samples, x, k, other),
-            f - half,
-            f + half,
+            (f - half).max(lo),
+            (f + half).min(hi),
             1e-14,
             10,
         )
