@@ -209,7 +209,7 @@ pub struct ResidualCheck {
 /// The source impedance read as an internal volume with leakage,
 /// Ys = G + jωV/B (methods.md §5 form b; B the bench fluid's bulk
 /// modulus), fitted by weighted least squares (weights 1/var Ys from the
-/// Monte Carlo, equal without it) to the harmonics estimated without flags;
+/// Monte Carlo, equal without it) to the harmonics of status `estimated`;
 /// uncertainties from refitting every Monte Carlo draw.
 #[derive(Debug, Clone, PartialEq)]
 pub struct EquivalentSource {
@@ -261,7 +261,7 @@ pub struct FitReport {
     /// and the phasor uncertainties are known.
     pub residual_check: Option<ResidualCheck>,
     /// The source impedance as a volume with leakage (two or more harmonics
-    /// estimated without flags).
+    /// of status `estimated`).
     pub equivalent: Option<EquivalentSource>,
 }
 

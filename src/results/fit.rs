@@ -178,7 +178,7 @@ pub struct FitResult {
     /// The harmonics the overall levels include.
     pub rms_orders: Vec<u32>,
     /// The source impedance as a volume with leakage (two or more
-    /// harmonics estimated without flags).
+    /// harmonics of status `estimated`).
     pub equivalent: Option<EquivalentResult>,
     /// The χ² check of the wave fits, where they are over-determined.
     pub residual_check: Option<ResidualCheckResult>,
