@@ -202,10 +202,15 @@ fn secondary_source_interpolated_uncertainties_cover_the_errors() {
 }
 
 /// The targets over 300 seeds per method, with the run's figures
-/// printed (about 10 minutes per method in a debug build).
+/// printed (about 10 minutes per method in a debug build): spread/σ within
+/// 0.85–1.15 on every estimated harmonic, and the bias within 3 standard
+/// errors of the mean, read over the many quantities tested as a normal
+/// tail (P(|z| > 3) = 0.27 %, erf(3/√2)): at most one of them beyond 3 SE
+/// and none beyond 4 SE (P = 6e-5).
 #[test]
 #[ignore = "long: 300 seeds per method; run with --ignored"]
 fn three_hundred_seeds_per_method_meet_the_targets() {
+    let mut beyond_3 = Vec::new();
     for file in [
         "tests/data/stats/two_systems.yaml",
         "tests/data/stats/secondary_interpolate.yaml",
@@ -248,14 +253,18 @@ fn three_hundred_seeds_per_method_meet_the_targets() {
                     c.spread_over_sigma
                 );
                 assert!(
-                    c.bias_standard_errors.abs() < 3.0,
+                    c.bias_standard_errors.abs() < 4.0,
                     "{file} k = {} {what}: bias {:.2} SE",
                     h.order,
                     c.bias_standard_errors
                 );
+                if c.bias_standard_errors.abs() >= 3.0 {
+                    beyond_3.push(format!("{file} k = {} {what}", h.order));
+                }
             }
         }
     }
+    assert!(beyond_3.len() <= 1, "bias beyond 3 SE: {beyond_3:?}");
 }
 
 #[test]
