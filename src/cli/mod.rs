@@ -7,8 +7,10 @@
 //! `assess` exceeded.
 
 mod assess;
+mod calibrate;
 mod check;
 mod common;
+mod compare;
 mod fit;
 mod profile;
 mod ranges;
@@ -51,6 +53,12 @@ enum Command {
     Silencer(silencer::SilencerArgs),
     /// Size a silencer: vary 1 to 3 of its parameters to minimise the ripple at a point.
     Tune(tune::TuneArgs),
+    /// The ripple measured at the taps beside the circuit's prediction, run
+    /// by run, tap by tap, harmonic by harmonic.
+    Compare(compare::CompareArgs),
+    /// Adjust 1 to 6 values of the circuit to the ripple measured at its
+    /// taps, with uncertainties; write the calibrated circuit file.
+    Calibrate(calibrate::CalibrateArgs),
     /// Ripple over a range of pump speeds: worst speed per point and every
     /// resonance crossing.
     Sweep(sweep::SweepArgs),
@@ -91,6 +99,8 @@ pub fn main() -> ExitCode {
         Command::Tune(args) => tune::run(args),
         Command::Sweep(args) => sweep::run(args),
         Command::Assess(args) => assess::run(args),
+        Command::Compare(args) => compare::run(args),
+        Command::Calibrate(args) => calibrate::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -8,6 +8,7 @@ pub mod circuit_file;
 pub mod csv_envelope;
 pub mod gas_pressure;
 pub mod locate;
+pub mod measurement_file;
 pub mod message;
 pub mod output;
 pub mod quantity;
@@ -17,8 +18,9 @@ mod validate;
 pub mod yaml_limits;
 
 pub use circuit_file::{
-    CircuitFile, load_circuit, load_circuit_file, parse_circuit, parse_circuit_at,
-    parse_circuit_at_temperature, parse_circuit_file, source_file_notes,
+    CircuitFile, CircuitTemplate, Setting, Target, Uncertain, load_circuit, load_circuit_file,
+    parse_circuit, parse_circuit_at, parse_circuit_at_temperature, parse_circuit_file,
+    source_file_notes,
 };
 
 use locate::KeyPath;

@@ -9,7 +9,9 @@
 //! renderer computes physics: everything it shows is in the result.
 
 pub mod assess;
+pub mod calibrate;
 pub mod check;
+pub mod compare;
 pub mod fit;
 pub mod fit_check;
 pub mod json;

@@ -12,7 +12,9 @@
 //! [`crate::render`] turn a result into terminal text, CSV, JSON and charts.
 
 pub mod assess;
+pub mod calibrate;
 pub mod check;
+pub mod compare;
 pub mod describe;
 pub mod fit;
 pub mod fit_check;

@@ -453,7 +453,7 @@ pub fn load_circuit_file(path: &Path) -> Result<CircuitFile, InputError> {
 /// # Errors
 /// [`InputError`] naming the file, the line and the key at fault.
 pub fn parse_circuit_file(text: &str, file: &str) -> Result<CircuitFile, InputError> {
-    let raw: RawCircuit = crate::io::parse_yaml(text, file)?;
+    let raw: RawCircuit = super::parse_raw(text, file)?;
     let checker = Checker(FileCheck { text, file });
     let (pressure_pa, temperature_k) = (
         raw.fluid.pressure.map(|p| p.si),
@@ -545,7 +545,19 @@ pub fn parse_circuit_at(
     file: &str,
     point: &OperatingPoint,
 ) -> Result<Circuit, InputError> {
-    let mut raw: RawCircuit = crate::io::parse_yaml(text, file)?;
+    super::settings::CircuitTemplate::new(text, file)?.circuit(point, &[])
+}
+
+/// The circuit of a parsed document (the file's text with any settings
+/// already written into it) at an operating point; `text` and `file`
+/// locate errors.
+pub(super) fn circuit_at(
+    document: &Value,
+    mut raw: RawCircuit,
+    text: &str,
+    file: &str,
+    point: &OperatingPoint,
+) -> Result<Circuit, InputError> {
     let checker = Checker(FileCheck { text, file });
     let root = KeyPath::root();
     let envelope_path = root.key("envelope");
@@ -604,8 +616,6 @@ pub fn parse_circuit_at(
                 )
             })?;
         let cp = envelope_path.key("cases").index(ci);
-        let document: Value = serde_yaml::from_str(text)
-            .map_err(|e| checker.err(&root, format!("cannot read the file again: {e}")))?;
         let elements = document
             .get("elements")
             .and_then(Value::as_sequence)
@@ -640,8 +650,10 @@ pub fn parse_circuit_at(
                 moved.push((format!("elements[{i}].{key_name}"), ep.key(key_name)));
             }
             moved.push((format!("elements[{i}]"), ep.clone()));
-            let element = RawElement::deserialize(Value::Mapping(merged))
-                .map_err(|e| checker.err(&ep, format!("in load case `{}`: {e}", case.name)))?;
+            let element = crate::io::quantity::allowing_tolerances(|| {
+                RawElement::deserialize(Value::Mapping(merged))
+            })
+            .map_err(|e| checker.err(&ep, format!("in load case `{}`: {e}", case.name)))?;
             changed.push((i, element));
         }
         for (i, element) in changed {
