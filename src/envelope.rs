@@ -128,7 +128,7 @@ impl Envelope {
 
 /// Which envelope points a command runs at: every point matching all the
 /// given parts (all of them when none is given). A command that runs at
-/// one point takes the options that select it (`--point LABEL`, or the
+/// one point takes the options that select it (`--at LABEL`, or the
 /// pressure, temperature and case).
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct PointFilter {

@@ -1596,9 +1596,10 @@ fn sweep_of_the_engine_example_writes_the_grid_and_finds_crossings() {
     let out = stdout(&o);
     assert!(out.contains("800.0 .. 2400.0 rpm, 41 speeds"), "{out}");
     let crossings: usize = out
-        .split("resonance crossings (")
+        .split("resonance crossings, highest first (")
         .nth(1)
-        .and_then(|t| t.split(';').next())
+        .and_then(|t| t.split(':').next())
+        .and_then(|t| t.split(" of ").nth(1))
         .and_then(|n| n.parse().ok())
         .expect("a crossing count");
     assert!(crossings >= 1, "{out}");

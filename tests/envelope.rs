@@ -323,7 +323,7 @@ fn the_verdict_is_the_worst_of_a_brute_force_grid_of_the_envelope() {
             let Some(tp) = s.points.iter().position(|p| *p == v.tap) else {
                 continue;
             };
-            for si in 0..n {
+            for (si, &speed) in speeds.iter().enumerate().take(n) {
                 let value = match v.limit.kind {
                     LimitKind::Rms => s.rms_pa(si, tp),
                     LimitKind::PeakToPeak => {
@@ -337,7 +337,7 @@ fn the_verdict_is_the_worst_of_a_brute_force_grid_of_the_envelope() {
                         .fold(0.0, f64::max),
                 };
                 if value > best.0 {
-                    best = (value, point.label(), speeds[si]);
+                    best = (value, point.label(), speed);
                 }
             }
         }

@@ -32,6 +32,19 @@ fn write(dir: &Path, name: &str, content: &str) -> String {
     path.to_str().unwrap().to_string()
 }
 
+/// The test envelope with an oil temperature beyond the oil models
+/// (-40..150 °C), written to `dir/hot.yaml`.
+fn hot_envelope(dir: &Path) -> String {
+    write(
+        dir,
+        "hot.yaml",
+        &ENVELOPE.replace(
+            "temperatures: [40 degC, 80 degC]",
+            "temperatures: [40 degC, 180 degC]",
+        ),
+    )
+}
+
 // Exit codes of `assess` (README, "Exit codes"): 3 when a limit is exceeded
 // (outputs complete), 0 when every limit is met or none is given.
 #[test]
@@ -108,14 +121,7 @@ fn assess_exit_codes_follow_the_verdicts() {
 #[test]
 fn an_invalid_envelope_point_is_located_and_writes_nothing() {
     let dir = scratch("bad-point");
-    let bad = write(
-        &dir,
-        "hot.yaml",
-        &ENVELOPE.replace(
-            "temperatures: [40 degC, 80 degC]",
-            "temperatures: [40 degC, 180 degC]",
-        ),
-    );
+    let bad = hot_envelope(&dir);
     let csv = dir.join("f.csv");
     let o = ripline(&["assess", &bad, "--csv", csv.to_str().unwrap()]);
     let err = text(&o.stderr);
@@ -196,5 +202,306 @@ fn the_readme_envelope_demo_holds() {
         readme.contains(
             "(0.94 bar rms at the valve block, now at 250 bar and 80 °C, margin +6.5 dB)"
         )
+    );
+}
+
+/// The lines of a CSV file.
+fn csv_lines(path: &Path) -> Vec<String> {
+    std::fs::read_to_string(path)
+        .unwrap()
+        .lines()
+        .map(str::to_string)
+        .collect()
+}
+
+// `solve` over the envelope: every point (4 per case, 12 in all), the
+// envelope columns after `point,harmonic`, the ranked report, the JSON
+// with every point; `--at` and `--case`/`--pressure` select points.
+#[test]
+fn solve_runs_over_the_envelope_and_at_a_chosen_point() {
+    let dir = scratch("solve");
+    let csv = dir.join("solve.csv");
+    let json = dir.join("solve.json");
+    let o = ripline(&[
+        "solve",
+        "tests/circuits/envelope_test.yaml",
+        "--csv",
+        csv.to_str().unwrap(),
+        "--json",
+        json.to_str().unwrap(),
+    ]);
+    let out = text(&o.stdout);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    assert!(out.contains("over 12 envelope points"), "{out}");
+    assert!(
+        out.contains("Overall rms ripple at each measurement point, highest first (10 of 20;"),
+        "{out}"
+    );
+    assert!(
+        text(&o.stderr).contains("warning: at 6 of 12 envelope points (30 bar, 40 °C, open;"),
+        "{}",
+        text(&o.stderr)
+    );
+    let lines = csv_lines(&csv);
+    assert_eq!(
+        lines[0],
+        "point,harmonic,speed_rpm,pressure_pa,temperature_c,case,frequency_hz,amplitude_pa,phase_deg"
+    );
+    assert!(
+        lines[1].starts_with("outlet,1,1500,3000000,40,open,225,"),
+        "{}",
+        lines[1]
+    );
+    // 2 harmonics at 2 points, but one point (`end`) cut off by `closed`
+    assert_eq!(lines.len(), 1 + 8 * 4 + 4 * 2);
+    let doc: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let points = doc["result"]["envelope_points"].as_array().unwrap();
+    assert_eq!(points.len(), 12);
+    assert_eq!(points[0]["label"], "30 bar, 40 °C, open");
+    let ranked = doc["result"]["ranked"].as_array().unwrap();
+    assert_eq!(ranked.len(), 20);
+    assert!(ranked[0]["value_pa"].as_f64() >= ranked[1]["value_pa"].as_f64());
+
+    let o = ripline(&[
+        "solve",
+        "tests/circuits/envelope_test.yaml",
+        "--at",
+        "200 bar, 80 °C, throttled",
+        "--csv",
+        csv.to_str().unwrap(),
+    ]);
+    let out = text(&o.stdout);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    assert!(
+        out.starts_with("envelope point: 200 bar, 80 °C, throttled\n"),
+        "{out}"
+    );
+    assert!(out.contains("point `outlet`"), "{out}");
+    let lines = csv_lines(&csv);
+    assert_eq!(lines.len(), 5);
+    assert!(lines[1].starts_with("outlet,1,1500,20000000,80,throttled,"));
+    let o = ripline(&[
+        "solve",
+        "tests/circuits/envelope_test.yaml",
+        "--case",
+        "closed",
+        "--pressure",
+        "200 bar",
+        "--top",
+        "1",
+    ]);
+    let out = text(&o.stdout);
+    assert!(out.contains("over 2 envelope points"), "{out}");
+    assert!(out.contains("(1 of 2;"), "{out}");
+}
+
+// Choosing a point that is not in the envelope is a usage error naming
+// what was asked and what the envelope has: exit 2, nothing written.
+#[test]
+fn a_point_not_in_the_envelope_is_refused() {
+    let dir = scratch("no-point");
+    let csv = dir.join("s.csv");
+    for (option, value, says) in [
+        (
+            "--at",
+            "30 bar, 60 °C, open",
+            "the point `30 bar, 60 °C, open` is not in the envelope; it has: `30 bar, 40 °C, open`",
+        ),
+        (
+            "--pressure",
+            "120 bar",
+            "the mean pressure 120 bar is not in the envelope; it has: 30 bar, 200 bar",
+        ),
+        (
+            "--case",
+            "lifting",
+            "the load case `lifting` is not in the envelope; it has: `open`, `throttled`, `closed`",
+        ),
+    ] {
+        let o = ripline(&[
+            "solve",
+            "tests/circuits/envelope_test.yaml",
+            option,
+            value,
+            "--csv",
+            csv.to_str().unwrap(),
+        ]);
+        let err = text(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{err}");
+        assert!(err.contains(says), "{err}");
+        assert!(!csv.exists());
+    }
+    let o = ripline(&[
+        "solve",
+        "networks/crane_pressure_line.yaml",
+        "--case",
+        "open",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(text(&o.stderr).contains("the file has no `envelope` section"));
+}
+
+// `sweep`, `response`, `profile` and `silencer` over the envelope: the
+// envelope columns after each table's fixed leading columns, a ranked
+// report over the points, and one point chosen with `--at`.
+#[test]
+fn the_other_commands_run_over_the_envelope() {
+    let dir = scratch("commands");
+    let file = "tests/circuits/envelope_test.yaml";
+    let csv = dir.join("t.csv");
+    let c = csv.to_str().unwrap();
+    const SILENCER: &[&str] = &[
+        "silencer",
+        "tests/circuits/envelope_test.yaml",
+        "--element",
+        "damper",
+        "--tap",
+        "outlet",
+        "--points",
+        "50",
+    ];
+    let cases: [(&[&str], &str, &str); 5] = [
+        (
+            &["sweep", file, "--speed-step", "100", "--csv", c],
+            "point,harmonic,speed_rpm,pressure_pa,temperature_c,case,frequency_hz,amplitude_pa",
+            "Worst overall rms ripple over the speed range at each measurement point",
+        ),
+        (
+            &["response", file, "--points", "50", "--csv", c],
+            "point,speed_rpm,pressure_pa,temperature_c,case,frequency_hz,amplitude_pa_per_m3s,phase_deg",
+            "Peak ripple of each harmonic crossing a resonance",
+        ),
+        (
+            &["profile", file, "--csv", c],
+            "element,position_m,speed_rpm,pressure_pa,temperature_c,case,frequency_hz,amplitude_pa,phase_deg",
+            "Largest ripple amplitude (peak) along each line",
+        ),
+        (
+            &[SILENCER, &["--csv", c]].concat(),
+            "frequency_hz,speed_rpm,pressure_pa,temperature_c,case,transmission_loss_db,insertion_loss_db",
+            "Overall rms ripple at the measurement point with the silencer",
+        ),
+        (
+            &[SILENCER, &["--harmonic-csv", c]].concat(),
+            "harmonic,speed_rpm,pressure_pa,temperature_c,case,frequency_hz,transmission_loss_db,insertion_loss_db,amplitude_without_pa,amplitude_with_pa",
+            "(insertion loss ",
+        ),
+    ];
+    for (args, header, says) in cases {
+        let o = ripline(args);
+        let out = text(&o.stdout);
+        assert!(o.status.success(), "{args:?}: {}", text(&o.stderr));
+        assert!(out.contains("over 12 envelope points"), "{args:?}: {out}");
+        assert!(out.contains(says), "{args:?}: {out}");
+        let lines = csv_lines(&csv);
+        assert_eq!(lines[0], header, "{args:?}");
+        // every point's rows, in the envelope's order
+        let case_column = header.split(',').position(|h| h == "case").unwrap();
+        let cases_seen: Vec<&str> = lines[1..]
+            .iter()
+            .map(|l| l.split(',').nth(case_column).unwrap())
+            .collect();
+        assert_eq!(cases_seen.first(), Some(&"open"), "{args:?}");
+        assert_eq!(cases_seen.last(), Some(&"closed"), "{args:?}");
+        std::fs::remove_file(&csv).unwrap();
+
+        // one point: its own report, its rows only
+        let mut one: Vec<&str> = args.to_vec();
+        one.extend(["--at", "200 bar, 80 °C, throttled"]);
+        let o = ripline(&one);
+        let out = text(&o.stdout);
+        assert!(o.status.success(), "{one:?}: {}", text(&o.stderr));
+        assert!(
+            out.starts_with("envelope point: 200 bar, 80 °C, throttled\n"),
+            "{out}"
+        );
+        let lines = csv_lines(&csv);
+        assert_eq!(lines[0], header);
+        assert!(
+            lines[1..]
+                .iter()
+                .all(|l| l.contains(",20000000,80,throttled,")),
+            "{one:?}: {}",
+            lines[1]
+        );
+    }
+}
+
+// A point that makes the circuit invalid stops every command before any
+// work: the point and the envelope key named, exit 2, nothing written.
+#[test]
+fn an_invalid_envelope_point_stops_every_command() {
+    let dir = scratch("bad-point-commands");
+    let bad = hot_envelope(&dir);
+    let csv = dir.join("out.csv");
+    let c = csv.to_str().unwrap();
+    for args in [
+        vec!["solve", &bad, "--csv", c],
+        vec!["sweep", &bad, "--csv", c],
+        vec!["response", &bad, "--csv", c],
+        vec!["profile", &bad, "--csv", c],
+        vec![
+            "silencer",
+            &bad,
+            "--element",
+            "damper",
+            "--tap",
+            "outlet",
+            "--csv",
+            c,
+        ],
+        // chosen by its parts: still located
+        vec![
+            "solve",
+            &bad,
+            "--temperature",
+            "180 degC",
+            "--case",
+            "open",
+            "--csv",
+            c,
+        ],
+    ] {
+        let o = ripline(&args);
+        let err = text(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {err}");
+        assert!(err.contains("hot.yaml:26:"), "{args:?}: {err}");
+        assert!(
+            err.contains("envelope.temperatures[1]: at envelope point `30 bar, 180 °C, open`: "),
+            "{args:?}: {err}"
+        );
+        assert!(!csv.exists(), "{args:?}");
+        assert!(text(&o.stdout).is_empty(), "{args:?}");
+    }
+}
+
+// `sweep` over the envelope finds the worst overall rms that `assess`
+// reports for the same envelope (the README demo: 11.2586 bar rms at the
+// pump outlet at 25 bar, 80 °C, holding): both refine the worst speed with
+// the same routine from the envelope's speed range.
+#[test]
+fn sweep_over_the_envelope_agrees_with_assess() {
+    let dir = scratch("sweep-assess");
+    let json = dir.join("s.json");
+    let o = ripline(&[
+        "sweep",
+        "networks/loader_work_envelope.yaml",
+        "--json",
+        json.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let out = text(&o.stdout);
+    assert!(out.contains("over 27 envelope points"), "{out}");
+    let doc: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let top = &doc["result"]["ranked"][0];
+    assert_eq!(top["label"], "25 bar, 80 °C, holding");
+    assert_eq!(top["subject"], "`pump outlet`");
+    let bar = top["value_pa"].as_f64().unwrap() / 1e5;
+    assert!((bar - 11.2586).abs() < 5e-5, "{bar}");
+    assert!(
+        out.contains("one point's full report: ripline sweep … --at \"25 bar, 80 °C, holding\""),
+        "{out}"
     );
 }

@@ -303,7 +303,8 @@ pub fn assess(
     let mut sweeps = Vec::with_capacity(points.len());
     let mut warnings: Vec<EnvelopeWarning> = Vec::new();
     // Per limit: the worst (point index, WorstSpeed, order index) so far.
-    let mut limit_worst: Vec<Vec<Option<(usize, WorstSpeed, Option<usize>)>>> =
+    type WorstSoFar = Option<(usize, WorstSpeed, Option<usize>)>;
+    let mut limit_worst: Vec<Vec<WorstSoFar>> =
         limits.iter().map(|t| vec![None; t.limits.len()]).collect();
     for (pi, (point, circuit)) in points.iter().enumerate() {
         let label = point.label();
@@ -340,19 +341,7 @@ pub fn assess(
             .into_iter()
             .chain(swept.warnings.iter().cloned())
         {
-            let text = w.to_string();
-            let key = without_numbers(&text);
-            match warnings
-                .iter_mut()
-                .find(|x| without_numbers(&x.text) == key)
-            {
-                Some(x) if !x.points.contains(&label) => x.points.push(label.clone()),
-                Some(_) => {}
-                None => warnings.push(EnvelopeWarning {
-                    text,
-                    points: vec![label.clone()],
-                }),
-            }
+            add_warning(&mut warnings, w.to_string(), &label);
         }
         for (li, tap_limits) in limits.iter().enumerate() {
             let Some(tp) = swept.points.iter().position(|p| *p == tap_limits.tap) else {
@@ -453,6 +442,23 @@ pub fn assess(
         warnings,
         sweeps,
     })
+}
+
+/// Adds warning `text` at the point `label` to `warnings`: to the warning
+/// that differs from it only in its numbers, if there is one.
+pub fn add_warning(warnings: &mut Vec<EnvelopeWarning>, text: String, label: &str) {
+    let key = without_numbers(&text);
+    match warnings
+        .iter_mut()
+        .find(|x| without_numbers(&x.text) == key)
+    {
+        Some(x) if !x.points.iter().any(|p| p == label) => x.points.push(label.to_string()),
+        Some(_) => {}
+        None => warnings.push(EnvelopeWarning {
+            text,
+            points: vec![label.to_string()],
+        }),
+    }
 }
 
 /// A text with every digit replaced, to compare warnings whose numbers

@@ -57,21 +57,8 @@ pub struct AssessArgs {
     json: Option<PathBuf>,
 }
 
-/// A level option written `20dB`, `20 dB` or `20`.
-fn parse_db(option: &str, text: &str) -> anyhow::Result<f64> {
-    let t = text.trim();
-    let number = t.strip_suffix("dB").unwrap_or(t).trim();
-    match number.parse::<f64>() {
-        Ok(v) if v.is_finite() && (0.0..=400.0).contains(&v) => Ok(v),
-        _ => Err(UsageError(format!(
-            "{option} {text}: write a level difference in dB between 0 and 400, e.g. 20dB"
-        ))
-        .into()),
-    }
-}
-
 pub fn run(args: AssessArgs) -> anyhow::Result<()> {
-    let floor_db = parse_db("--floor", &args.floor)?;
+    let floor_db = common::parse_db("--floor", &args.floor)?;
     let speed_points = match args.speeds {
         Some(n) if !(3..=MAX_SPEEDS).contains(&n) => {
             return Err(UsageError(format!(
@@ -157,7 +144,10 @@ pub fn run(args: AssessArgs) -> anyhow::Result<()> {
         &mut |done, total| bar.set_of(done, total),
     )?;
     bar.finish();
-    print_warnings(&result);
+    super::envelope::print_grouped_warnings(
+        &result.assessment.warnings,
+        result.assessment.points.len(),
+    );
 
     outputs.csv_to(csv.as_deref(), |buf| render::findings_csv(&result, buf))?;
     outputs.csv_to(grid.as_deref(), |buf| render::grid_csv(&result, buf))?;
@@ -177,27 +167,4 @@ pub fn run(args: AssessArgs) -> anyhow::Result<()> {
         .into());
     }
     Ok(())
-}
-
-/// Each warning once, with the envelope points where it holds.
-fn print_warnings(result: &ripline::results::assess::AssessReport) {
-    let all = result.assessment.points.len();
-    for w in &result.assessment.warnings {
-        let n = w.points.len();
-        if all == 1 {
-            eprintln!("warning: {}", w.text);
-        } else {
-            let at = if n == all {
-                "at every envelope point".to_string()
-            } else {
-                format!("at {n} of {all} envelope points ({})", w.points.join("; "))
-            };
-            let numbers = if n > 1 {
-                " (numbers at the first of them)"
-            } else {
-                ""
-            };
-            eprintln!("warning: {at}: {}{numbers}", w.text);
-        }
-    }
 }

@@ -389,3 +389,36 @@ pub fn commit(outputs: StagedOutputs) -> anyhow::Result<()> {
         .commit()
         .context("moving the output files into place")
 }
+
+/// A level option written `20dB`, `20 dB` or `20`.
+pub fn parse_db(option: &str, text: &str) -> anyhow::Result<f64> {
+    let t = text.trim();
+    let number = t.strip_suffix("dB").unwrap_or(t).trim();
+    match number.parse::<f64>() {
+        Ok(v) if v.is_finite() && (0.0..=400.0).contains(&v) => Ok(v),
+        _ => Err(UsageError(format!(
+            "{option} {text}: write a level difference in dB between 0 and 400, e.g. 20dB"
+        ))
+        .into()),
+    }
+}
+
+/// `--top N` and `--floor DB` (default 10 and 20 dB): which findings a
+/// report shows, and whether either was given.
+pub fn ranking_options(
+    top: Option<usize>,
+    floor: Option<&str>,
+) -> anyhow::Result<(ripline::results::Ranking, Origin)> {
+    let origin = if top.is_some() || floor.is_some() {
+        Origin::Request
+    } else {
+        Origin::Default
+    };
+    Ok((
+        ripline::results::Ranking {
+            top: top.unwrap_or(10),
+            floor_db: floor.map_or(Ok(20.0), |f| parse_db("--floor", f))?,
+        },
+        origin,
+    ))
+}

@@ -11,6 +11,7 @@ mod calibrate;
 mod check;
 mod common;
 mod compare;
+mod envelope;
 mod fit;
 mod profile;
 mod ranges;

@@ -117,17 +117,19 @@ pub fn merge_with_envelope<W: Write>(
         for record in reader.records() {
             let record = record?;
             let values = rest(&record);
-            let speed = match speed_column {
-                Some(i) => record
-                    .get(i)
-                    .and_then(|v| v.parse::<f64>().ok())
-                    .map(|rpm| rpm / 60.0),
-                None => table.speed_rev_s,
+            let own_speed = speed_column.and_then(|i| record.get(i));
+            let speed = if own_speed.is_some() {
+                None
+            } else {
+                table.speed_rev_s
             };
             let mut columns = envelope_columns(speed.unwrap_or(f64::NAN), table.point, own);
-            if speed.is_none() {
-                columns[0].clear();
-            }
+            // the table's own speed as it wrote it, or none known
+            columns[0] = match (own_speed, speed) {
+                (Some(rpm), _) => rpm.to_string(),
+                (None, None) => String::new(),
+                (None, Some(_)) => std::mem::take(&mut columns[0]),
+            };
             let mut row: Vec<String> = values[..leading].to_vec();
             row.extend(columns);
             row.extend(values[leading..].iter().cloned());

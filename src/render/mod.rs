@@ -15,6 +15,7 @@ pub mod compare;
 pub mod fit;
 pub mod fit_check;
 pub mod json;
+pub mod over_envelope;
 pub mod profile;
 pub mod response;
 pub mod silencer;
