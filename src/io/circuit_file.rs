@@ -64,7 +64,7 @@ struct RawCircuit {
     deny_unknown_fields,
     expecting = "a fluid section: a mapping with density, bulk_modulus and viscosity, or a grade with temperature"
 )]
-struct RawFluid {
+pub(crate) struct RawFluid {
     grade: Option<String>,
     temperature: Option<Q<q::Temperature>>,
     pressure: Option<Q<q::Pressure>>,
@@ -80,7 +80,7 @@ struct RawFluid {
     deny_unknown_fields,
     expecting = "a viscosity point: a mapping with temperature and viscosity"
 )]
-struct RawViscosityPoint {
+pub(crate) struct RawViscosityPoint {
     temperature: Q<q::Temperature>,
     viscosity: Q<q::KinematicViscosity>,
 }
@@ -534,6 +534,48 @@ pub fn fixed_fluid_keys(text: &str, file: &str) -> Result<Vec<&'static str>, Inp
     .into_iter()
     .filter_map(|(k, given)| given.then_some(k))
     .collect())
+}
+
+/// Warnings about the pump source files a circuit text reads: each harmonic
+/// a bench fit marked other than `estimated` (ill-conditioned, extrapolated,
+/// unstable) among the harmonics the circuit solves, with the fit's note.
+/// The values are used as written; the warning says they may be biased.
+/// A text that does not parse, or a source file that cannot be read, gives
+/// no warning here (loading the circuit reports those).
+pub fn source_file_notes(text: &str, file: &str) -> Vec<crate::diagnostics::Warning> {
+    let Ok(raw) = super::parse_yaml::<RawCircuit>(text, file) else {
+        return Vec::new();
+    };
+    let solved = raw.harmonics.unwrap_or(DEFAULT_HARMONICS);
+    let base = Path::new(file).parent().unwrap_or(Path::new(""));
+    let mut out = Vec::new();
+    for p in raw.pump.iter().chain(raw.pumps.iter().flatten()) {
+        let Some(name) = &p.source_file else { continue };
+        let Ok(src) = super::source_file::load_source_file(&base.join(name)) else {
+            continue;
+        };
+        for h in src.harmonics.iter().filter(|h| {
+            h.order <= solved && h.status != crate::estimate::fit::HarmonicStatus::Estimated
+        }) {
+            out.push(crate::diagnostics::Warning {
+                subject: format!("pump `{}`", p.name.as_deref().unwrap_or("pump")),
+                message: format!(
+                    "{name}: harmonic {} is marked `{}` by the bench fit{}; its values are used as written and may be biased",
+                    h.order,
+                    h.status.key(),
+                    h.note.as_deref().map(|n| format!(" ({n})")).unwrap_or_default()
+                ),
+            });
+        }
+    }
+    out
+}
+
+/// The fluid of a `fluid` section as circuit files have it (explicit
+/// values, or an oil grade at a temperature and pressure), for other files
+/// with the same section (bench files).
+pub(crate) fn check_fluid(check: FileCheck<'_>, path: &KeyPath, raw: &RawFluid) -> Res<Fluid> {
+    Checker(check).fluid(path, raw)
 }
 
 /// Validates raw values; every error is located in the file (the shared

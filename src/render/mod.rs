@@ -14,6 +14,7 @@ pub mod calibrate;
 pub mod check;
 pub mod compare;
 pub mod fit;
+pub mod fit_check;
 pub mod json;
 pub mod over_envelope;
 pub mod profile;
