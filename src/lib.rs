@@ -46,6 +46,8 @@ pub mod diagnostics;
 pub mod elements;
 pub mod estimate;
 pub mod fluid;
+#[doc(hidden)]
+pub mod generated;
 pub mod hose;
 pub mod io;
 pub mod line;

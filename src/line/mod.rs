@@ -214,19 +214,23 @@ impl LineProperties {
     /// Γ = √(Z'Y') (Re Γ ≥ 0), Zc = Z'/Γ, with Z' = jωρ/(A(1 − F)) + ΔR' and
     /// Y' = jωA/B*(ω).
     pub fn propagation(&self, omega: f64) -> Propagation {
+        let factor = (self.model != LineModel::Lossless)
+            .then(|| viscous::one_minus_viscous_factor(self.shear_number(omega)));
+        self.propagation_with(omega, factor)
+    }
+
+    /// [`LineProperties::propagation`] with the viscous factor 1 − F already
+    /// evaluated at this frequency for this line's bore and fluid (`None`
+    /// for the lossless model): lines of one bore in one fluid share it.
+    pub fn propagation_with(&self, omega: f64, one_minus_f: Option<C64>) -> Propagation {
         let extra_r = self.turbulent_resistance_per_m();
         if self.viscoelastic_wall.is_some() || extra_r != 0.0 {
-            return self.general_propagation(omega, extra_r);
+            return self.general_propagation(omega, extra_r, one_minus_f);
         }
         let c0 = self.wave_speed_m_s();
         let area = self.area_m2();
-        match self.model {
-            LineModel::Lossless => Propagation {
-                gamma: J * (omega / c0),
-                zc: C64::new(self.density_kg_m3 * c0 / area, 0.0),
-            },
-            LineModel::Laminar | LineModel::Turbulent => {
-                let g = viscous::one_minus_viscous_factor(self.shear_number(omega));
+        match (self.model, one_minus_f) {
+            (LineModel::Laminar | LineModel::Turbulent, Some(g)) => {
                 let series = J * (omega * self.density_kg_m3 / area) / g; // Z'
                 let mut gamma = J * (omega / c0) / sqrt(g);
                 if gamma.re < 0.0 {
@@ -237,20 +241,27 @@ impl LineProperties {
                     zc: series / gamma,
                 }
             }
+            _ => Propagation {
+                gamma: J * (omega / c0),
+                zc: C64::new(self.density_kg_m3 * c0 / area, 0.0),
+            },
         }
     }
 
     /// Γ = √(Z'Y') with Re Γ ≥ 0 (and Im Γ ≥ 0 when Re Γ = 0, the wave
     /// travelling towards +x), Zc = Z'/Γ, for any series resistance added to
     /// the friction model and any wall compliance.
-    fn general_propagation(&self, omega: f64, extra_r: f64) -> Propagation {
+    fn general_propagation(
+        &self,
+        omega: f64,
+        extra_r: f64,
+        one_minus_f: Option<C64>,
+    ) -> Propagation {
         let area = self.area_m2();
         let inertia = J * (omega * self.density_kg_m3 / area);
-        let series = match self.model {
-            LineModel::Lossless => inertia,
-            LineModel::Laminar | LineModel::Turbulent => {
-                inertia / viscous::one_minus_viscous_factor(self.shear_number(omega)) + extra_r
-            }
+        let series = match (self.model, one_minus_f) {
+            (LineModel::Laminar | LineModel::Turbulent, Some(g)) => inertia / g + extra_r,
+            _ => inertia,
         };
         let shunt = J * (omega * area) * self.compliance(omega);
         let mut gamma = sqrt(series * shunt);
