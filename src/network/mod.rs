@@ -209,7 +209,18 @@ impl<'c> Plan<'c> {
 
         let pump_nodes: Vec<Option<usize>> =
             circuit.pumps.iter().map(|p| node_index[p.node]).collect();
-        let symbolic = Symbolic::new(next, &pattern(&slots, &pump_nodes)).map_err(|e| {
+        // Elimination groups: branch flows first (a line's two flows then
+        // leave its admittance between its nodes), node pressures next, the
+        // pumps' nodes last, so that on a tree the flow injected there
+        // reaches every node through single products in the back
+        // substitution (no cancellation).
+        let nodes = node_index.iter().flatten().count();
+        let mut group = vec![0u8; next];
+        group[..nodes].fill(1);
+        for &p in pump_nodes.iter().flatten() {
+            group[p] = 2;
+        }
+        let symbolic = Symbolic::new(next, &pattern(&slots, &pump_nodes), &group).map_err(|e| {
             NetworkError::TooManyLoops {
                 reached: e.reached,
                 limit: e.limit,
@@ -267,6 +278,12 @@ impl<'c> Plan<'c> {
     /// Number of unknowns per frequency (node pressures and branch flows).
     pub fn unknowns(&self) -> usize {
         self.unknowns
+    }
+
+    /// The reference impedance Z_ref in Pa·s/m³ that rows and branch flows
+    /// are non-dimensionalised with (module docs).
+    pub fn reference_impedance(&self) -> f64 {
+        self.z_ref
     }
 
     /// Number of distinct lines (propagations evaluated per frequency).

@@ -176,7 +176,7 @@ impl SparseFactors<'_> {
         }
         match (self.which, adjoint) {
             (Factored::Static, false) => {
-                sparse::solve_static(self.symbolic, self.vals, self.permuted)
+                sparse::solve_static(self.symbolic, self.vals, self.permuted, None);
             }
             (Factored::Static, true) => {
                 sparse::solve_static_adjoint(self.symbolic, self.vals, self.permuted);
@@ -274,9 +274,43 @@ impl Plan<'_> {
         };
         // NaN-safe: a NaN condition is not <= the limit.
         let solvable = condition <= SINGULAR_CONDITION;
-        match which {
-            Factored::Static => sparse::solve_static(sym, &ws.vals, &mut ws.rhs),
-            Factored::Pivoted => ws.pivoted.solve(&mut ws.rhs),
+        let clean = match which {
+            Factored::Static => sparse::solve_static(
+                sym,
+                &ws.vals,
+                &mut ws.rhs,
+                Some(&mut ws.mass[..self.unknowns]),
+            ),
+            Factored::Pivoted => {
+                ws.pivoted.solve(&mut ws.rhs);
+                false
+            }
+        };
+        if !clean && solvable {
+            // One step of iterative refinement (sparse module docs): the
+            // residual of the assembled matrix, solved with the same factors.
+            if !assembled {
+                ws.assembled.fill(ZERO);
+                self.assemble(omega, &ws.behaviours, &mut ws.assembled);
+            }
+            let r = &mut ws.scratch;
+            r.fill(ZERO);
+            for &(node, q) in injections {
+                if let Some(at) = self.node_index[node] {
+                    r[sym.position(at)] += q * zr;
+                }
+            }
+            let x = &ws.rhs;
+            sym.for_each_entry(|slot, row, col| r[row] -= ws.assembled[slot] * x[col]);
+            match which {
+                Factored::Static => {
+                    sparse::solve_static(sym, &ws.vals, r, None);
+                }
+                Factored::Pivoted => ws.pivoted.solve(r),
+            }
+            for (x, d) in ws.rhs.iter_mut().zip(r.iter()) {
+                *x += d;
+            }
         }
         if !solvable || !ws.rhs.iter().all(|v| v.is_finite()) {
             return Err(singular(condition));
@@ -435,6 +469,6 @@ impl Plan<'_> {
 fn norm1(sym: &Symbolic, vals: &[C64], colsum: &mut [C64]) -> f64 {
     // sums kept in the real parts of the scratch vector
     colsum.fill(ZERO);
-    sym.for_each_column(|slot, col| colsum[col].re += abs(vals[slot]));
+    sym.for_each_entry(|slot, _, col| colsum[col].re += abs(vals[slot]));
     colsum.iter().map(|c| c.re).fold(0.0, f64::max)
 }
