@@ -138,8 +138,11 @@ impl Plan<'_> {
         if !solvable || !rhs.iter().all(|v| v.is_finite()) {
             return Err(singular(condition));
         }
-        let x = rhs.as_slice();
-        Ok(self.solution(freq_hz, |i| x[i], &ws.behaviours, condition))
+        // into the sparse order, which `solution` reads
+        for (i, &v) in rhs.iter().enumerate() {
+            scratch[self.symbolic.position(i)] = v;
+        }
+        Ok(self.solution(freq_hz, scratch, &ws.behaviours, condition))
     }
 }
 

@@ -101,8 +101,8 @@ enum Stamp {
     Admittance([u32; 4]),
     /// Transfer two-port, modified nodal: entries (a,qa), (b,qb); the flow
     /// row qa: (qa,qa), (qa,b), (qa,qb); the pressure row qb: (qb,a),
-    /// (qb,b), (qb,qb).
-    Transfer([u32; 8]),
+    /// (qb,b), (qb,qb); and the positions of qa and qb in the solution.
+    Transfer([u32; 8], [u32; 2]),
     /// Shunt: the node's diagonal.
     Shunt(u32),
     /// Nothing.
@@ -133,6 +133,9 @@ pub struct Plan<'c> {
     stamps: Vec<Stamp>,
     /// Each pump's diagonal slot (`NO_SLOT` at a tank).
     pump_slots: Vec<u32>,
+    /// Each node's position in the (permuted) solution vector (`NO_SLOT` at
+    /// a tank).
+    node_pos: Vec<u32>,
 }
 
 impl<'c> Plan<'c> {
@@ -237,23 +240,31 @@ impl<'c> Plan<'c> {
                     Stamp::Admittance([slot(a, a), slot(a, b), slot(b, a), slot(b, b)])
                 }
                 Slot::Transfer { a, b, qa, qb } => {
+                    let positions = [qa, qb].map(|q| symbolic.position(q) as u32);
                     let (qa, qb) = (Some(qa), Some(qb));
-                    Stamp::Transfer([
-                        slot(a, qa),
-                        slot(b, qb),
-                        slot(qa, qa),
-                        slot(qa, b),
-                        slot(qa, qb),
-                        slot(qb, a),
-                        slot(qb, b),
-                        slot(qb, qb),
-                    ])
+                    Stamp::Transfer(
+                        [
+                            slot(a, qa),
+                            slot(b, qb),
+                            slot(qa, qa),
+                            slot(qa, b),
+                            slot(qa, qb),
+                            slot(qb, a),
+                            slot(qb, b),
+                            slot(qb, qb),
+                        ],
+                        positions,
+                    )
                 }
                 Slot::Shunt { at } => Stamp::Shunt(slot(at, at)),
                 Slot::Empty => Stamp::Empty,
             })
             .collect();
         let pump_slots = pump_nodes.iter().map(|&n| slot(n, n)).collect();
+        let node_pos = node_index
+            .iter()
+            .map(|i| i.map_or(NO_SLOT, |i| symbolic.position(i) as u32))
+            .collect();
         Ok(Plan {
             circuit,
             node_index,
@@ -267,6 +278,7 @@ impl<'c> Plan<'c> {
             symbolic,
             stamps,
             pump_slots,
+            node_pos,
         })
     }
 

@@ -316,7 +316,7 @@ impl Plan<'_> {
             return Err(singular(condition));
         }
         let x = &ws.rhs;
-        Ok(self.solution(freq_hz, |i| x[sym.position(i)], &ws.behaviours, condition))
+        Ok(self.solution(freq_hz, x, &ws.behaviours, condition))
     }
 
     /// Checks the frequency and fills the workspace's behaviours: the
@@ -390,7 +390,7 @@ impl Plan<'_> {
                     add(s[2], m[1][0] * zr);
                     add(s[3], m[1][1] * zr);
                 }
-                (Stamp::Transfer(s), Behaviour::Transfer(t)) => {
+                (Stamp::Transfer(s, _), Behaviour::Transfer(t)) => {
                     // KCL: flow qa leaves node a into the element, qb enters node b.
                     add(s[0], ONE);
                     add(s[1], -ONE);
@@ -414,47 +414,49 @@ impl Plan<'_> {
         }
     }
 
-    /// The solution from the unknowns (`unknown(i)`: unknown i of the
-    /// compile order) and the elements' behaviours.
+    /// The solution from the unknowns `x` (in the sparse order) and the
+    /// elements' behaviours.
     pub(super) fn solution(
         &self,
         freq_hz: f64,
-        unknown: impl Fn(usize) -> C64,
+        x: &[C64],
         behaviours: &[Behaviour],
         condition: f64,
     ) -> Solution {
         let zr = self.z_ref;
         let node_pressures: Vec<C64> = self
-            .node_index
+            .node_pos
             .iter()
-            .map(|i| i.map_or(ZERO, &unknown))
+            .map(|&p| if p == NO_SLOT { ZERO } else { x[p as usize] })
             .collect();
         let end_flows = self
             .circuit
             .elements
             .iter()
-            .zip(&self.slots)
+            .zip(&self.stamps)
             .zip(behaviours)
-            .map(|((element, slot), behaviour)| match (*slot, behaviour) {
-                (Slot::Admittance { .. }, Behaviour::Admittance(m)) => {
-                    let Connection::Series { a, b } = element.connection else {
-                        return None;
-                    };
-                    let (pa, pb) = (node_pressures[a], node_pressures[b]);
-                    let qa_in = m[0][0] * pa + m[0][1] * pb;
-                    let qb_in = m[1][0] * pa + m[1][1] * pb;
-                    Some((qa_in, -qb_in))
-                }
-                (Slot::Transfer { qa, qb, .. }, _) => Some((unknown(qa) / zr, unknown(qb) / zr)),
-                (Slot::Shunt { .. }, Behaviour::Shunt(y)) => {
-                    let Connection::Shunt { at } = element.connection else {
-                        return None;
-                    };
-                    let q = y * node_pressures[at];
-                    Some((q, q))
-                }
-                _ => None,
-            })
+            .map(
+                |((element, stamp), behaviour)| match (stamp, behaviour, element.connection) {
+                    (
+                        Stamp::Admittance(_),
+                        Behaviour::Admittance(m),
+                        Connection::Series { a, b },
+                    ) => {
+                        let (pa, pb) = (node_pressures[a], node_pressures[b]);
+                        let qa_in = m[0][0] * pa + m[0][1] * pb;
+                        let qb_in = m[1][0] * pa + m[1][1] * pb;
+                        Some((qa_in, -qb_in))
+                    }
+                    (Stamp::Transfer(_, [qa, qb]), _, _) => {
+                        Some((x[*qa as usize] / zr, x[*qb as usize] / zr))
+                    }
+                    (Stamp::Shunt(_), Behaviour::Shunt(y), Connection::Shunt { at }) => {
+                        let q = y * node_pressures[at];
+                        Some((q, q))
+                    }
+                    _ => None,
+                },
+            )
             .collect();
         Solution {
             freq_hz,

@@ -350,33 +350,47 @@ pub fn factor_static(sym: &Symbolic, vals: &mut [C64], mass: &mut [f64]) -> Opti
     let w = sym.wing_idx.len();
     mass.fill(0.0);
     let (mut lo, mut hi) = (f64::INFINITY, 0.0_f64);
+    // NaN-safe throughout: a NaN fails every comparison.
+    let mut ok = true;
     for k in 0..n {
         let d = vals[k];
         let size = abs1(d);
-        // NaN-safe: a NaN fails every comparison.
-        if !(size > 0.0 && size.is_finite() && mass[k] <= MAX_GROWTH * size) {
+        ok &= size > 0.0 && size.is_finite() && mass[k] <= MAX_GROWTH * size;
+        if !ok {
             return None;
         }
         let d2 = d.norm_sqr();
         lo = lo.min(d2);
         hi = hi.max(d2);
-        let range = sym.wing_range(k);
-        if range.is_empty() {
+        let (b, e) = (sym.wing_ptr[k] as usize, sym.wing_ptr[k + 1] as usize);
+        if b == e {
             continue;
         }
-        let inv = d.inv();
-        for e in range.clone() {
-            let (u, l) = (n + e, n + w + e);
-            if !(mass[u] <= MAX_GROWTH * abs1(vals[u]) && mass[l] <= MAX_GROWTH * abs1(vals[l])) {
-                return None;
-            }
-            vals[l] *= inv;
+        let inv = d.conj() / d2;
+        let t0 = sym.upd_ptr[k] as usize;
+        if e - b == 1 {
+            // one later neighbour (every step of a tree): one update
+            let (u, l) = (vals[n + b], vals[n + w + b]);
+            ok &= mass[n + b] <= MAX_GROWTH * abs1(u) && mass[n + w + b] <= MAX_GROWTH * abs1(l);
+            let l = l * inv;
+            vals[n + w + b] = l;
+            let target = sym.targets[t0] as usize;
+            vals[target] -= l * u;
+            mass[target] += abs1(l) * abs1(u);
+            continue;
         }
-        let mut t = sym.upd_ptr[k] as usize;
-        for p in range.clone() {
+        // this pivot's row of U and column of L are final: check them,
+        // then scale L
+        for p in b..e {
+            let (u, l) = (vals[n + p], vals[n + w + p]);
+            ok &= mass[n + p] <= MAX_GROWTH * abs1(u) && mass[n + w + p] <= MAX_GROWTH * abs1(l);
+            vals[n + w + p] = l * inv;
+        }
+        let mut t = t0;
+        for p in b..e {
             let l = vals[n + w + p];
             let l_size = abs1(l);
-            for q in range.clone() {
+            for q in b..e {
                 let u = vals[n + q];
                 let target = sym.targets[t] as usize;
                 vals[target] -= l * u;
@@ -384,6 +398,9 @@ pub fn factor_static(sym: &Symbolic, vals: &mut [C64], mass: &mut [f64]) -> Opti
                 t += 1;
             }
         }
+    }
+    if !ok {
+        return None;
     }
     Some((lo / hi).sqrt())
 }
