@@ -54,6 +54,7 @@ pub mod line;
 pub mod meanflow;
 pub mod network;
 pub mod oil;
+pub mod parallel;
 pub mod plot;
 pub mod source;
 pub mod units;

@@ -144,33 +144,46 @@ pub fn frequency_response(
             values: Vec::with_capacity(freqs_hz.len()),
         })
         .collect();
-    let mut load_impedance = Vec::with_capacity(freqs_hz.len());
-    let mut ws = plan.workspace();
-    for (i, &f) in freqs_hz.iter().enumerate() {
-        let solution = solve_unit_nudged(plan, pump_index, f, &mut ws)?;
-        for point in &mut points {
-            let h = tap_pressure(circuit, &solution, point.location);
-            if !h.is_finite() {
+    // each frequency on its own (in parallel), collected in order
+    let columns = crate::parallel::ordered_map(
+        freqs_hz,
+        crate::parallel::pays(plan.unknowns(), freqs_hz.len()),
+        || plan.workspace(),
+        |ws, &f| {
+            let solution = solve_unit_nudged(plan, pump_index, f, ws)?;
+            let mut values = Vec::with_capacity(taps.len() + 1);
+            for tap in &taps {
+                let h = tap_pressure(circuit, &solution, tap.location);
+                if !h.is_finite() {
+                    return Err(ResponseError::NotFinite {
+                        what: format!("the response at `{}`", tap.name),
+                        freq_hz: f,
+                    });
+                }
+                values.push(h);
+            }
+            let p = solution.node_pressures[pump.node];
+            let ys = pump
+                .source_impedance
+                .admittance(2.0 * std::f64::consts::PI * f);
+            let z = p / (C64::new(1.0, 0.0) - ys * p);
+            if !z.is_finite() {
                 return Err(ResponseError::NotFinite {
-                    what: format!("the response at `{}`", point.name),
+                    what: format!("the impedance pump `{}` sees", pump.name),
                     freq_hz: f,
                 });
             }
+            values.push(z);
+            Ok(values)
+        },
+        progress,
+    )?;
+    let mut load_impedance = Vec::with_capacity(freqs_hz.len());
+    for column in columns {
+        for (point, &h) in points.iter_mut().zip(&column) {
             point.values.push(h);
         }
-        let p = solution.node_pressures[pump.node];
-        let ys = pump
-            .source_impedance
-            .admittance(2.0 * std::f64::consts::PI * f);
-        let z = p / (C64::new(1.0, 0.0) - ys * p);
-        if !z.is_finite() {
-            return Err(ResponseError::NotFinite {
-                what: format!("the impedance pump `{}` sees", pump.name),
-                freq_hz: f,
-            });
-        }
-        load_impedance.push(z);
-        progress(i + 1);
+        load_impedance.push(column[taps.len()]);
     }
     Ok(FrequencyResponse {
         pump: pump.name.clone(),

@@ -583,8 +583,37 @@ impl TuneProblem<'_> {
             .evaluate_states(|state| Ok(state.clone()))
             .map_err(TuneError::Baseline)?;
         let dims = self.bounds.len();
-        let mut count = 0usize;
+
+        // Global stage: every candidate compiled and solved on its own, in
+        // parallel, collected in order.
+        let samples: Vec<Vec<f64>> = if dims == 1 {
+            let n = settings.global_points.max(3);
+            (0..n).map(|i| vec![i as f64 / (n - 1) as f64]).collect()
+        } else {
+            (1..=settings.global_points)
+                .map(|i| halton(i, dims))
+                .collect()
+        };
+        let evaluated = crate::parallel::ordered_map(
+            &samples,
+            true,
+            || (),
+            |_, u| Ok::<_, std::convert::Infallible>(self.evaluate_values(&self.values_at(u))),
+            progress,
+        )
+        .unwrap_or_else(|never| match never {});
+        let mut count = samples.len();
         let mut last_error = String::new();
+        let values: Vec<f64> = evaluated
+            .into_iter()
+            .map(|r| match r {
+                Ok(s) => s.objective_pa,
+                Err(e) => {
+                    last_error = e;
+                    f64::INFINITY
+                }
+            })
+            .collect();
         let mut cost = |u: &[f64]| -> f64 {
             count += 1;
             progress(count);
@@ -596,17 +625,6 @@ impl TuneProblem<'_> {
                 }
             }
         };
-
-        // Global stage.
-        let samples: Vec<Vec<f64>> = if dims == 1 {
-            let n = settings.global_points.max(3);
-            (0..n).map(|i| vec![i as f64 / (n - 1) as f64]).collect()
-        } else {
-            (1..=settings.global_points)
-                .map(|i| halton(i, dims))
-                .collect()
-        };
-        let values: Vec<f64> = samples.iter().map(|u| cost(u)).collect();
 
         // Starts for the local stage.
         let mut order: Vec<usize> = (0..samples.len())
