@@ -46,6 +46,7 @@ pub fn circuit_warnings(circuit: &Circuit, max_freq_hz: f64) -> Vec<Warning> {
     }
     for e in &circuit.elements {
         out.extend(silencer_warning(e, max_freq_hz));
+        out.extend(bottomed_damper_warning(e));
         if let Some(line) = e.kind.line() {
             let p = &line.properties;
             let limit = plane_wave_limit_hz(p.wave_speed_m_s(), 2.0 * p.radius_m);
@@ -60,6 +61,135 @@ pub fn circuit_warnings(circuit: &Circuit, max_freq_hz: f64) -> Vec<Warning> {
         }
     }
     out.extend(mean_flow_warnings(circuit));
+    out.extend(component_warnings(circuit));
+    out
+}
+
+/// How close (a fraction of the natural frequency) a pump harmonic's band
+/// may come to a valve's natural frequency before it is flagged: 10 %,
+/// common practice (the default `--margin` of `response`).
+pub const VALVE_RESONANCE_MARGIN: f64 = 0.10;
+
+/// The linearised poppet of a relief valve or of a check valve that floats
+/// on its spring, if the element is one.
+fn poppet_of(kind: &ElementKind) -> Option<&crate::elements::Poppet> {
+    match kind {
+        ElementKind::ReliefValve(v) => Some(&v.poppet),
+        ElementKind::CheckValve(crate::elements::CheckValve {
+            state: crate::elements::CheckState::Opening { poppet, .. },
+            ..
+        }) => Some(poppet),
+        _ => None,
+    }
+}
+
+/// Warnings about the components with dynamics: a pump harmonic whose band
+/// over the pump's speed range (its `speed_range`, else its speed) crosses
+/// or comes within [`VALVE_RESONANCE_MARGIN`] of the natural frequency of a
+/// valve poppet with a resonance peak (damping ratio below 1/√2), or
+/// overlaps the band where the linearised valve delivers power (negative
+/// resistance, [`crate::elements::Poppet::active_band_hz`]) — margins of the
+/// linear model, not predictions of a valve's stability; a hose whose wall
+/// data against pressure do not reach the circuit's mean pressure (end
+/// values held); and a bottomed in-line damper.
+pub fn component_warnings(circuit: &Circuit) -> Vec<Warning> {
+    use crate::analysis::response::{Coverage, crossings, harmonic_bands};
+    let mut out = Vec::new();
+    for e in &circuit.elements {
+        let subject = format!("{} `{}`", e.kind.name(), e.name);
+        if let ElementKind::Hose(h) = &e.kind
+            && let Some(p) = &h.pressure
+            && p.data.at(p.mean_pressure_pa).held
+        {
+            let pts = p.data.points();
+            out.push(Warning {
+                subject,
+                message: format!(
+                    "the mean pressure {:.1} bar lies outside its wall data ({:.1} .. {:.1} bar): the wave speed and loss factor of the nearer end are held, not extrapolated",
+                    p.mean_pressure_pa / 1e5,
+                    pts[0].pressure_pa / 1e5,
+                    pts[pts.len() - 1].pressure_pa / 1e5
+                ),
+            });
+            continue;
+        }
+        if let ElementKind::InlineDamper(d) = &e.kind
+            && d.vessel.is_bottomed()
+        {
+            out.push(Warning {
+                subject,
+                message: format!(
+                    "the mean pressure {:.2} bar abs is below its precharge {:.2} bar abs: the in-line damper is bottomed, its gas is out of the circuit and only the oil in its flow path and its ports remain; it damps almost nothing here",
+                    d.vessel.operating_pa / 1e5,
+                    d.vessel.precharge_pa / 1e5
+                ),
+            });
+            continue;
+        }
+        let Some(poppet) = poppet_of(&e.kind) else {
+            continue;
+        };
+        let fn_hz = poppet.natural_frequency_hz();
+        let active = poppet.active_band_hz();
+        for pump in &circuit.pumps {
+            let range = pump
+                .speed_range_rev_s
+                .unwrap_or((pump.speed_rev_s, pump.speed_rev_s));
+            let bands = harmonic_bands(pump.pumping_elements, range, circuit.harmonics);
+            let mut found: Vec<String> = crossings(fn_hz, &bands, VALVE_RESONANCE_MARGIN)
+                .into_iter()
+                .map(|c| match c.coverage {
+                    Coverage::Crossed { speed_rev_s } => format!(
+                        "harmonic {} crosses it at {:.0} rpm",
+                        c.order,
+                        speed_rev_s * 60.0
+                    ),
+                    Coverage::Near { gap, speed_rev_s } => format!(
+                        "harmonic {} passes within {:.1} % of it (at {:.0} rpm)",
+                        c.order,
+                        gap * 100.0,
+                        speed_rev_s * 60.0
+                    ),
+                })
+                .collect();
+            // an overdamped poppet (ζ ≥ 1/√2) has no resonance peak (a
+            // second-order system's magnitude peak needs ζ < 1/√2)
+            if !found.is_empty() && poppet.damping_ratio() < std::f64::consts::FRAC_1_SQRT_2 {
+                found.dedup();
+                out.push(Warning {
+                    subject: subject.clone(),
+                    message: format!(
+                        "its poppet's natural frequency {fn_hz:.1} Hz (damping ratio {:.3}, linearised about its operating point) meets the harmonics of pump `{}` over {:.0}..{:.0} rpm: {}. Near it the valve can amplify ripple or chatter; this is a margin of the linear model only: confirm with the valve maker's data or a test",
+                        poppet.damping_ratio(),
+                        pump.name,
+                        range.0 * 60.0,
+                        range.1 * 60.0,
+                        found.join("; ")
+                    ),
+                });
+            }
+            if let Some((lo, hi)) = active {
+                let top = hi.unwrap_or(f64::INFINITY);
+                let hit: Vec<String> = bands
+                    .iter()
+                    .filter(|b| b.high_hz >= lo && b.low_hz <= top)
+                    .map(|b| b.order.to_string())
+                    .collect();
+                if !hit.is_empty() {
+                    let upper = hi.map_or("upwards".to_string(), |h| format!("to {h:.1} Hz"));
+                    out.push(Warning {
+                        subject: subject.clone(),
+                        message: format!(
+                            "the linearised valve has negative resistance (it delivers ripple power) from {lo:.1} Hz {upper}, which harmonic(s) {} of pump `{}` reach: more damping (damping ≥ K_q·m/A = {:.3} N·s/m removes it) or a test is needed; a margin of the linear model only",
+                            hit.join(", "),
+                            pump.name,
+                            poppet.flow_gain_m2_s * poppet.mass_kg / poppet.area_m2
+                        ),
+                    });
+                }
+            }
+        }
+    }
     out
 }
 
@@ -123,6 +253,23 @@ pub fn conditioning_warning(solution: &Solution) -> Option<Warning> {
             "the network is nearly singular here (condition number {:.1e}): an undamped or lightly damped resonance lies at or very near this frequency; about {:.0} significant digits are lost to round-off",
             solution.condition,
             solution.condition.log10()
+        ),
+    })
+}
+
+/// A pulsation damper whose mean operating pressure is below its precharge:
+/// it is bottomed, its gas out of the circuit
+/// ([`crate::elements::PulsationDamper::is_bottomed`]).
+pub fn bottomed_damper_warning(e: &crate::elements::Element) -> Option<Warning> {
+    let ElementKind::Damper(d) = &e.kind else {
+        return None;
+    };
+    d.is_bottomed().then(|| Warning {
+        subject: format!("{} `{}`", e.kind.name(), e.name),
+        message: format!(
+            "the mean pressure {:.2} bar abs is below its precharge {:.2} bar abs: the damper is bottomed (the separator rests on the oil port), its gas is out of the circuit and only its neck remains, a short closed branch; it damps almost nothing here",
+            d.operating_pa / 1e5,
+            d.precharge_pa / 1e5
         ),
     })
 }

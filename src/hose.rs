@@ -56,6 +56,11 @@ pub enum HoseError {
     /// More retardation terms than supported.
     #[error("a Kelvin–Voigt wall takes at most {MAX_RETARDATION_TERMS} retardation terms")]
     TooManyTerms,
+    /// Wall data against pressure that cannot be interpolated.
+    #[error(
+        "give the hose's wall at 2 to {MAX_PRESSURE_POINTS} mean pressures, in increasing order of pressure"
+    )]
+    PressurePoints,
 }
 
 /// One retardation term ΔJ/(1 + jωτ) of a Kelvin–Voigt wall.
@@ -213,6 +218,132 @@ impl ViscoelasticWall {
     }
 }
 
+/// Most mean pressures a hose's wall data may list (a fixed array keeps
+/// [`crate::line::LineProperties`] and the hose `Copy`).
+pub const MAX_PRESSURE_POINTS: usize = 8;
+
+/// A hose's measured wave speed and loss factor at one mean pressure.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct PressurePoint {
+    /// Mean pressure (gauge, as the fluid's `pressure`) in Pa.
+    pub pressure_pa: f64,
+    /// Wave speed of the oil-filled hose in m/s.
+    pub wave_speed_m_s: f64,
+    /// Loss factor η.
+    pub loss_factor: f64,
+}
+
+/// A hose wall that follows the mean pressure: wave speed and loss factor
+/// measured at two or more mean pressures (wire-reinforced hoses stiffen as
+/// the pressure stretches the reinforcement, so their wave speed rises with
+/// pressure; methods-2 §3, common practice, no single published model).
+/// Between the points both are interpolated linearly in pressure, outside
+/// them the end values are held (and `at` says so); the wall at a pressure
+/// is then the constant-loss wall of [`ViscoelasticWall::from_wave_speed`]
+/// with the fluid at that pressure.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PressureData {
+    points: [PressurePoint; MAX_PRESSURE_POINTS],
+    count: usize,
+    /// Frequency at which the wave speeds and loss factors hold, Hz.
+    pub reference_frequency_hz: f64,
+}
+
+/// The wave speed and loss factor of a [`PressureData`] at a mean pressure.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PressureValues {
+    /// Interpolated wave speed in m/s.
+    pub wave_speed_m_s: f64,
+    /// Interpolated loss factor.
+    pub loss_factor: f64,
+    /// Whether the pressure lies outside the data (end values held).
+    pub held: bool,
+}
+
+impl PressureData {
+    /// Wall data at increasing mean pressures.
+    ///
+    /// # Errors
+    /// [`HoseError::PressurePoints`] for fewer than two or more than
+    /// [`MAX_PRESSURE_POINTS`] points, or pressures not strictly increasing.
+    pub fn new(
+        points: &[PressurePoint],
+        reference_frequency_hz: f64,
+    ) -> Result<PressureData, HoseError> {
+        if !(2..=MAX_PRESSURE_POINTS).contains(&points.len())
+            || points
+                .windows(2)
+                .any(|w| w[1].pressure_pa <= w[0].pressure_pa)
+        {
+            return Err(HoseError::PressurePoints);
+        }
+        let mut fixed = [PressurePoint::default(); MAX_PRESSURE_POINTS];
+        fixed[..points.len()].copy_from_slice(points);
+        Ok(PressureData {
+            points: fixed,
+            count: points.len(),
+            reference_frequency_hz,
+        })
+    }
+
+    /// The data points, in increasing pressure.
+    pub fn points(&self) -> &[PressurePoint] {
+        &self.points[..self.count]
+    }
+
+    /// Wave speed and loss factor at mean pressure `pressure_pa`: linear
+    /// interpolation between the neighbouring points, end values held
+    /// outside.
+    pub fn at(&self, pressure_pa: f64) -> PressureValues {
+        let pts = self.points();
+        let (first, last) = (pts[0], pts[pts.len() - 1]);
+        let held = |p: PressurePoint| PressureValues {
+            wave_speed_m_s: p.wave_speed_m_s,
+            loss_factor: p.loss_factor,
+            held: true,
+        };
+        if pressure_pa < first.pressure_pa {
+            return held(first);
+        }
+        if pressure_pa > last.pressure_pa {
+            return held(last);
+        }
+        let i = pts
+            .windows(2)
+            .position(|w| pressure_pa <= w[1].pressure_pa)
+            .unwrap_or(pts.len() - 2);
+        let (a, b) = (pts[i], pts[i + 1]);
+        let t = (pressure_pa - a.pressure_pa) / (b.pressure_pa - a.pressure_pa);
+        PressureValues {
+            wave_speed_m_s: a.wave_speed_m_s + t * (b.wave_speed_m_s - a.wave_speed_m_s),
+            loss_factor: a.loss_factor + t * (b.loss_factor - a.loss_factor),
+            held: false,
+        }
+    }
+
+    /// The wall at mean pressure `pressure_pa` in a fluid of density ρ and
+    /// bulk modulus B (both at that pressure).
+    ///
+    /// # Errors
+    /// [`HoseError::FasterThanFluid`] when the interpolated hose is not
+    /// softer than the fluid.
+    pub fn wall_at(
+        &self,
+        pressure_pa: f64,
+        density_kg_m3: f64,
+        fluid_bulk_modulus_pa: f64,
+    ) -> Result<ViscoelasticWall, HoseError> {
+        let v = self.at(pressure_pa);
+        ViscoelasticWall::from_wave_speed(
+            v.wave_speed_m_s,
+            v.loss_factor,
+            self.reference_frequency_hz,
+            density_kg_m3,
+            fluid_bulk_modulus_pa,
+        )
+    }
+}
+
 /// Density of the reference oil in which [`HoseConstruction`] wave speeds
 /// are stated, kg/m³ (a typical mineral oil, common practice).
 pub const REFERENCE_OIL_DENSITY: f64 = 870.0;
@@ -319,6 +450,52 @@ mod tests {
         assert!((j1.arg() - j2.arg()).abs() < 1e-14);
         let g2 = -2.0 * j1.arg() / std::f64::consts::PI;
         assert!((j1.norm() / j2.norm() - 10f64.powf(g2)).abs() < 1e-12);
+    }
+
+    // Linear interpolation by hand: halfway between (50 bar, 1000 m/s,
+    // 0.14) and (250 bar, 1200 m/s, 0.10) is (150 bar, 1100 m/s, 0.12);
+    // a quarter of the way, 1050 m/s and 0.13; outside, the end values.
+    #[test]
+    fn pressure_data_interpolates_and_holds_its_ends() {
+        let pts = [
+            PressurePoint {
+                pressure_pa: 50e5,
+                wave_speed_m_s: 1000.0,
+                loss_factor: 0.14,
+            },
+            PressurePoint {
+                pressure_pa: 250e5,
+                wave_speed_m_s: 1200.0,
+                loss_factor: 0.10,
+            },
+        ];
+        let d = PressureData::new(&pts, 200.0).unwrap();
+        let mid = d.at(150e5);
+        assert!(
+            (mid.wave_speed_m_s - 1100.0).abs() < 1e-9 && (mid.loss_factor - 0.12).abs() < 1e-12
+        );
+        assert!(!mid.held);
+        let q = d.at(100e5);
+        assert!((q.wave_speed_m_s - 1050.0).abs() < 1e-9 && (q.loss_factor - 0.13).abs() < 1e-12);
+        assert_eq!(d.at(0.0).wave_speed_m_s, 1000.0);
+        assert!(d.at(0.0).held && d.at(300e5).held);
+        assert_eq!(d.at(300e5).loss_factor, 0.10);
+        // the wall at a pressure gives back the interpolated wave speed:
+        // ρc² = |1/(1/B + J_w)| at the reference frequency, with its loss
+        let w = d.wall_at(150e5, 870.0, 1.6e9).unwrap();
+        let b =
+            (C64::new(1.0 / 1.6e9, 0.0) + w.compliance(2.0 * std::f64::consts::PI * 200.0)).inv();
+        assert!((b.re / 870.0 - 1100.0 * 1100.0).abs() < 1e-6 * 1100.0 * 1100.0);
+        assert!((b.im / b.re - 0.12).abs() < 1e-9);
+        let reversed = [pts[1], pts[0]];
+        assert_eq!(
+            PressureData::new(&reversed, 200.0),
+            Err(HoseError::PressurePoints)
+        );
+        assert_eq!(
+            PressureData::new(&pts[..1], 200.0),
+            Err(HoseError::PressurePoints)
+        );
     }
 
     #[test]

@@ -44,11 +44,13 @@ pub mod circuit;
 pub mod demo;
 pub mod diagnostics;
 pub mod elements;
+pub mod envelope;
 pub mod estimate;
 pub mod fluid;
 #[doc(hidden)]
 pub mod generated;
 pub mod hose;
+pub mod html;
 pub mod io;
 pub mod line;
 pub mod meanflow;

@@ -12,6 +12,8 @@
 //! | orifice | the secant resistance Δp̄/Q̄ = R/2 of a turbulent orifice linearised as R = 2Δp̄/Q̄ (consistent with its stated mean flow and pressure drop) |
 //! | inertance | its resistance (a passage of zero resistance joins its two nodes) |
 //! | load valve | a path to tank with the secant resistance R/2 |
+//! | relief valve, open check valve | the secant resistance p̄/Q̄ of their operating point (to tank, or between their nodes) |
+//! | cylinder, closed check valve | no mean flow (a steady piston speed is not modelled: give the lines' `mean_flow`) |
 //! | tank | zero mean pressure: the flow returns there |
 //! | anechoic end | zero mean pressure: it stands for a line that continues, and the flow leaves there |
 //! | volume, closed end | no mean flow |
@@ -24,7 +26,7 @@
 //! changing a speed call [`resolve_line_mean_flows`] again.
 
 use crate::circuit::Circuit;
-use crate::elements::{Connection, ElementKind};
+use crate::elements::{CheckState, CheckValve, Connection, ElementKind};
 use crate::line::MeanFlow;
 use crate::network::sparse::{self, PivotedLu, Symbolic};
 use num_complex::Complex64 as C64;
@@ -58,6 +60,16 @@ fn dc_model(circuit: &Circuit, index: usize) -> Dc {
     let e = &circuit.elements[index];
     let mu = circuit.fluid.dynamic_viscosity_pa_s();
     match (&e.kind, e.connection) {
+        // a cylinder's piston (held by its load) and a closed check valve
+        // pass no steady flow
+        (ElementKind::Cylinder(_), _)
+        | (
+            ElementKind::CheckValve(CheckValve {
+                state: CheckState::Closed,
+                ..
+            }),
+            _,
+        ) => Dc::Open,
         (kind, Connection::Series { a, b }) => {
             let r = match kind {
                 ElementKind::Tube(_) | ElementKind::Hose(_) => {
@@ -67,6 +79,10 @@ fn dc_model(circuit: &Circuit, index: usize) -> Dc {
                 }
                 ElementKind::Orifice(o) => 0.5 * o.resistance_pa_s_m3,
                 ElementKind::Inertance(i) => i.resistance_pa_s_m3,
+                ElementKind::ReliefValve(v) => {
+                    v.operating.pressure_drop_pa / v.operating.mean_flow_m3_s
+                }
+                ElementKind::CheckValve(v) => v.pressure_drop_pa / v.mean_flow_m3_s,
                 _ => 0.0,
             };
             if r > 0.0 && r.is_finite() {
@@ -78,6 +94,10 @@ fn dc_model(circuit: &Circuit, index: usize) -> Dc {
         (ElementKind::LoadValve(v), Connection::Shunt { at }) => Dc::ToTank {
             at,
             r: 0.5 * v.resistance_pa_s_m3,
+        },
+        (ElementKind::ReliefValve(v), Connection::Shunt { at }) => Dc::ToTank {
+            at,
+            r: v.operating.pressure_drop_pa / v.operating.mean_flow_m3_s,
         },
         (ElementKind::Tank | ElementKind::Anechoic(_), Connection::Shunt { at }) => Dc::Sink { at },
         _ => Dc::Open,

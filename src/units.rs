@@ -44,6 +44,18 @@ pub enum Dimension {
     Velocity,
     /// Time, SI unit s.
     Time,
+    /// Mass, SI unit kg.
+    Mass,
+    /// Area, SI unit m².
+    Area,
+    /// Stiffness (a spring rate), SI unit N/m.
+    Stiffness,
+    /// Mechanical damping (force per speed), SI unit N·s/m.
+    Damping,
+    /// A valve's flow gain ∂Q/∂x (flow per opening), SI unit m²/s.
+    FlowGain,
+    /// A valve's flow-pressure coefficient ∂Q/∂p, SI unit m³/(s·Pa).
+    FlowPressureCoefficient,
 }
 
 impl Dimension {
@@ -66,6 +78,12 @@ impl Dimension {
             Dimension::Temperature => "temperature",
             Dimension::Velocity => "speed",
             Dimension::Time => "time",
+            Dimension::Mass => "mass",
+            Dimension::Area => "area",
+            Dimension::Stiffness => "stiffness",
+            Dimension::Damping => "damping",
+            Dimension::FlowGain => "flow gain",
+            Dimension::FlowPressureCoefficient => "flow-pressure coefficient",
         }
     }
 
@@ -183,6 +201,37 @@ impl Dimension {
                 ("µs", 1e-6),
                 ("min", 60.0),
             ],
+            Dimension::Mass => &[("kg", 1.0), ("g", 1e-3), ("t", 1e3), ("lb", 0.453_592_37)],
+            Dimension::Area => &[
+                ("m2", 1.0),
+                ("cm2", 1e-4),
+                ("mm2", 1e-6),
+                ("in2", INCH * INCH),
+            ],
+            Dimension::Stiffness => &[
+                ("N/m", 1.0),
+                ("N/mm", 1e3),
+                ("kN/m", 1e3),
+                ("kN/mm", 1e6),
+                ("MN/m", 1e6),
+            ],
+            Dimension::Damping => &[
+                ("N.s/m", 1.0),
+                ("Ns/m", 1.0),
+                ("kg/s", 1.0),
+                ("kN.s/m", 1e3),
+            ],
+            Dimension::FlowGain => &[
+                ("m2/s", 1.0),
+                ("L/min/mm", LPM / 1e-3),
+                ("(L/min)/mm", LPM / 1e-3),
+            ],
+            Dimension::FlowPressureCoefficient => &[
+                ("m3/s/Pa", 1.0),
+                ("m3/(s.Pa)", 1.0),
+                ("L/min/bar", LPM / 1e5),
+                ("(L/min)/bar", LPM / 1e5),
+            ],
         }
     }
 
@@ -204,6 +253,12 @@ impl Dimension {
             Dimension::Temperature => "K",
             Dimension::Velocity => "m/s",
             Dimension::Time => "s",
+            Dimension::Mass => "kg",
+            Dimension::Area => "m²",
+            Dimension::Stiffness => "N/m",
+            Dimension::Damping => "N·s/m",
+            Dimension::FlowGain => "m²/s",
+            Dimension::FlowPressureCoefficient => "m³/(s·Pa)",
         }
     }
 }
@@ -430,6 +485,17 @@ mod tests {
             ("1100 m/s", Dimension::Velocity, 1100.0),
             ("2 ms", Dimension::Time, 2e-3),
             ("0.5 %", Dimension::Ratio, 5e-3),
+            // mechanical units of valves and actuators (SI by definition;
+            // avoirdupois pound 0.45359237 kg exactly, NIST SP 811 §B.8)
+            ("25 g", Dimension::Mass, 0.025),
+            ("1 lb", Dimension::Mass, 0.453_592_37),
+            ("50 mm²", Dimension::Area, 50e-6),
+            ("1 in2", Dimension::Area, 6.4516e-4),
+            ("40 N/mm", Dimension::Stiffness, 4e4),
+            ("2 kN/mm", Dimension::Stiffness, 2e6),
+            ("15 N·s/m", Dimension::Damping, 15.0),
+            ("6 L/min/mm", Dimension::FlowGain, 0.1),
+            ("3 (L/min)/bar", Dimension::FlowPressureCoefficient, 5e-10),
         ];
         for (text, dim, want) in cases {
             let got = parse_quantity(text, dim).unwrap();

@@ -145,9 +145,112 @@ fn every_example_network_checks() {
     }
 }
 
+// The relief-valve example: `check` reports the poppet's natural frequency,
+// the cylinder's oil-column resonance and the hose evaluated at the mean
+// pressure, and warns (on standard error) that a pump harmonic crosses the
+// poppet resonance; `response`, `sweep` and `profile` run on it.
+#[test]
+fn relief_valve_example_is_reported_and_flagged() {
+    let file = "networks/compactor_relief_valve.yaml";
+    let o = ripline(&["check", file]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let out = stdout(&o);
+    for want in [
+        "system relief (relief_valve, at block_p): relief valve to tank",
+        "natural frequency",
+        "negative resistance",
+        "compactor block.feed (tube, block_p → compactor block.spool)",
+        "interpolated at 200.0 bar",
+        "oil-column resonance with the ports blocked",
+    ] {
+        assert!(out.contains(want), "`{want}` missing in:\n{out}");
+    }
+    let err = stderr(&o);
+    assert!(
+        err.contains("warning: relief_valve `system relief`: its poppet's natural frequency")
+            && err.contains("harmonic 1 crosses it at")
+            && err.contains("margin of the linear model"),
+        "{err}"
+    );
+    for cmd in [
+        vec!["response", file],
+        vec!["sweep", file, "--speed", "700..1800", "--step", "50"],
+        vec!["profile", file],
+        vec!["solve", file],
+    ] {
+        let o = ripline(&cmd);
+        assert!(o.status.success(), "{cmd:?}: {}", stderr(&o));
+        assert!(stderr(&o).contains("crosses it at"), "{cmd:?}");
+    }
+}
+
 /// Each malformed circuit in tests/bad/ must fail with exit code 2 and a
 /// message that names the file, the place and the fault.
 const BAD_FILES: &[(&str, &str)] = &[
+    (
+        "relief_negative_mass.yaml",
+        ":33:5: elements[1].mass: must be greater than zero, found -0.018 kg",
+    ),
+    (
+        "relief_negative_spring_rate.yaml",
+        ":34:5: elements[1].spring_rate: must be greater than zero, found -45000 N/m",
+    ),
+    (
+        "relief_closed_at_operating_point.yaml",
+        ":31:5: elements[1].pressure_drop: the mean pressure difference 200.000 bar does not exceed the",
+    ),
+    (
+        "relief_at_and_between.yaml",
+        ":29:5: elements[1].at: a `relief_valve` sits either `at` one node (to tank) or betw",
+    ),
+    (
+        "cylinder_rod_wider_than_bore.yaml",
+        ":31:5: elements[1].rod_diameter: the rod (110.00 mm) must be thinner than the bore (100.00 mm",
+    ),
+    (
+        "cylinder_position_outside.yaml",
+        ":33:5: elements[1].position: the piston position 1.2 m (from the cap end) is outside the",
+    ),
+    (
+        "cylinder_negative_friction.yaml",
+        ":36:5: elements[1].friction: a falling friction curve (negative slope, the Stribeck regio",
+    ),
+    (
+        "check_valve_without_poppet.yaml",
+        ":27:3: elements[1]: a `check_valve` needs the key `mass` (mass)",
+    ),
+    (
+        "chamber_port_wider_than_bore.yaml",
+        ":34:5: elements[1].port_bore: the port bore 50.00 mm is not smaller than the chamber bore",
+    ),
+    (
+        "chamber_extensions_too_long.yaml",
+        ":36:5: elements[1].outlet_extension: the pipes reach 450.0 mm into a chamber 400.0 mm long: their",
+    ),
+    (
+        "block_gallery_without_bore.yaml",
+        ":32:7: elements[1].galleries[1]: a gallery is `length` with `bore` (a drilled passage; `lumpe",
+    ),
+    (
+        "block_port_unused.yaml",
+        ":32:7: elements[1].ports.T: no gallery of `main block` reaches its port `T`",
+    ),
+    (
+        "block_gallery_bore_absurd.yaml",
+        ":35:9: elements[1].galleries[0].bore: 12 m is outside the plausible range 1e-4 .. 1e0 m: check the",
+    ),
+    (
+        "hose_pressures_not_increasing.yaml",
+        ":36:7: elements[1].wave_speeds[1].pressure: list the pressures in increasing order, each once",
+    ),
+    (
+        "hose_pressure_data_without_mean_pressure.yaml",
+        ":33:5: elements[1].wave_speeds: a hose wall given against pressure is evaluated at the circu",
+    ),
+    (
+        "inline_damper_without_port_bore.yaml",
+        ":27:3: elements[1]: a `inline_pulsation_damper` needs the key `port_bore` (lengt",
+    ),
     (
         "absurd_bore.yaml",
         ":50:5: elements[0].bore: 12 m is outside the plausible range",
@@ -405,9 +508,30 @@ const BAD_FILES: &[(&str, &str)] = &[
         "wall_key_on_hose.yaml",
         ":65:5: elements[1].wall: key `wall` does not apply to a `hose`",
     ),
+    // envelopes and limits
     (
-        "damper_below_precharge.yaml",
-        ":71:5: elements[3].operating_pressure: the operating pressure 51.01 bar abs is below the precharge 121.01 bar abs",
+        "limits_unknown_tap.yaml",
+        ":34:3: limits[1].tap: no measurement point is called `valve block`; the points are: `outlet`, `end`",
+    ),
+    (
+        "limits_bad_level.yaml",
+        ":34:3: limits[1].harmonic: `150 dB re 1 m`: unknown unit `m` for a pressure",
+    ),
+    (
+        "envelope_case_unknown_element.yaml",
+        ":29:9: envelope.cases[1].set.throttle: no element is called `throttle`",
+    ),
+    (
+        "envelope_case_sets_a_connection.yaml",
+        ":29:9: envelope.cases[1].set.valve.to: a load case cannot change an element's `to`",
+    ),
+    (
+        "envelope_temperatures_without_grade.yaml",
+        ":24:3: envelope.temperatures: the fluid has no temperature model",
+    ),
+    (
+        "damper_pressure_disagrees.yaml",
+        ":72:5: elements[3].operating_pressure: 201.013 bar abs disagrees with the fluid's mean pressure `fluid.pressure`, 151.013 bar abs",
     ),
     (
         "gas_pressure_without_abs_or_gauge.yaml",
@@ -1267,17 +1391,17 @@ fn the_readme_demo_numbers_hold() {
     for (tap, without, with, readme_without, readme_with) in [
         (
             "head block",
-            "4.0033 bar rms",
-            "8.265 kPa rms",
-            "4.003 bar",
-            "0.0083 bar (−33.7 dB)",
+            "4.1598 bar rms",
+            "0.1024 bar rms",
+            "4.160 bar",
+            "0.102 bar (−32.2 dB)",
         ),
         (
             "pump outlet",
-            "7.2717 bar rms",
-            "0.6231 bar rms",
-            "7.272 bar",
-            "0.623 bar (−21.3 dB)",
+            "7.4244 bar rms",
+            "0.7083 bar rms",
+            "7.424 bar",
+            "0.708 bar (−20.4 dB)",
         ),
     ] {
         // Bounds that pin the damper to the file's design.
@@ -1647,5 +1771,69 @@ fn a_closed_stdout_keeps_the_output_files_and_exits_0() {
     assert!(status.success(), "{status:?}");
     let text = std::fs::read_to_string(&csv).unwrap();
     assert_eq!(text.lines().count(), 1 + 5 * 10);
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+// The figures of README.md's relief-valve example ("Example: a relief valve
+// whose poppet resonance meets a pump harmonic"), from `check`, `response`
+// and `solve` on networks/compactor_relief_valve.yaml and on the same file
+// with the poppet damped to 150 N·s/m. If the model changes, update both.
+#[test]
+fn the_relief_valve_readme_numbers_hold() {
+    let file = "networks/compactor_relief_valve.yaml";
+    let readme =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("README.md")).unwrap();
+    let o = ripline(&["check", file]);
+    let (out, err) = (stdout(&o), stderr(&o));
+    for want in [
+        "mean opening 0.7402 mm",
+        "flow gain K_q 3.3773e-1 m²/s",
+        "flow force adds 22.5 N/mm",
+        "natural frequency 308.3 Hz, damping ratio 0.057",
+    ] {
+        assert!(out.contains(want), "`{want}` missing in:\n{out}");
+    }
+    for want in [
+        "harmonic 1 crosses it at 1542 rpm; harmonic 2 crosses it at 771 rpm",
+        "from 313.6 Hz to 1925.2 Hz",
+        "damping ≥ K_q·m/A = 121.583 N·s/m",
+    ] {
+        assert!(err.contains(want), "`{want}` missing in:\n{err}");
+        assert!(readme.contains(want), "README lacks `{want}`");
+    }
+    let dir = scratch("relief-readme");
+    let damped = dir.join("damped.yaml");
+    let text = std::fs::read_to_string(file).unwrap();
+    std::fs::write(
+        &damped,
+        text.replace("damping: 4 N·s/m", "damping: 150 N·s/m"),
+    )
+    .unwrap();
+    let damped = damped.to_str().unwrap();
+    let resonance = |f: &str, freq: &str, q: &str, level: &str| {
+        let out = stdout(&ripline(&["response", f]));
+        assert!(
+            out.lines()
+                .any(|l| l.contains(freq) && l.contains(q) && l.contains(level)),
+            "{freq} {q} {level} missing in:\n{out}"
+        );
+    };
+    resonance(file, "667.85", " 47.0 ", "4.401 bar per L/min");
+    resonance(damped, "658.21", " 13.8 ", "1.445 bar per L/min");
+    let ram = |f: &str, want: &str| {
+        let out = stdout(&ripline(&["solve", f]));
+        let tail = &out[out.find("point `ram`").unwrap()..];
+        assert!(tail.contains(want), "{want} missing in:\n{tail}");
+    };
+    ram(file, "overall: 1.977 kPa rms");
+    ram(damped, "overall: 3.567 kPa rms");
+    assert!(!stderr(&ripline(&["check", damped])).contains("warning"));
+    for want in [
+        "has Q = 47 and\n4.4 bar per L/min",
+        "Q = 14 and 1.4 bar per L/min",
+        "2.0 kPa rms with the light poppet and 3.6 kPa rms with the\ndamped one",
+    ] {
+        assert!(readme.contains(want), "README lacks `{want}`");
+    }
     std::fs::remove_dir_all(dir).unwrap();
 }

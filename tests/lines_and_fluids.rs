@@ -317,6 +317,7 @@ fn hose_with_zero_loss_is_a_line_of_the_same_wave_speed() {
                 ElementKind::Hose(Hose {
                     line,
                     construction: None,
+                    pressure: None,
                 }),
                 Connection::Series { a: 0, b: 1 },
             ),

@@ -15,6 +15,9 @@
 //! * [`search`]: golden-section, Halton and Nelder–Mead helpers.
 //! * [`sweep`]: the ripple over a range of shaft speeds, resonance
 //!   crossings and the circuit's resonance frequencies (`ripline sweep`).
+//! * [`worst`]: the true worst speed of a point over a speed range, its
+//!   resonance crossings refined (shared by `sweep`, `tune` and the
+//!   envelope verdicts).
 
 pub mod profile;
 pub mod response;
@@ -24,3 +27,4 @@ pub mod silencer;
 pub mod sweep;
 pub mod tune;
 pub mod waveform;
+pub mod worst;

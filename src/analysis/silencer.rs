@@ -122,13 +122,7 @@ pub fn element_transfer(element: &Element, omega: f64) -> Result<Transfer2, Sile
 
 /// The product of two transfer matrices, a then b.
 pub fn multiply(a: &Transfer2, b: &Transfer2) -> Transfer2 {
-    let mut m = [[ZERO; 2]; 2];
-    for (i, row) in m.iter_mut().enumerate() {
-        for (j, v) in row.iter_mut().enumerate() {
-            *v = a[i][0] * b[0][j] + a[i][1] * b[1][j];
-        }
-    }
-    m
+    crate::elements::cascade(a, b)
 }
 
 /// The matrix of a two-port passed from its `to` end to its `from` end:
@@ -417,7 +411,10 @@ pub fn circuit_without(
             match (&e.kind, e.connection) {
                 (_, Connection::Shunt { .. }) => {}
                 (ElementKind::Tube(t), _) => length += t.line.length_m,
-                (ElementKind::ExpansionChamber(c), _) => length += c.tube.line.length_m,
+                (ElementKind::ExpansionChamber(c), _) => {
+                    length += c.tube.line.length_m + c.ports.map_or(0.0, |p| 2.0 * p.length_m)
+                }
+                (ElementKind::InlineDamper(d), _) => length += 2.0 * d.vessel.neck_length_m,
                 _ => return Err(SilencerError::NoLength(e.name.clone())),
             }
         }

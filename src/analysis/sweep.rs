@@ -33,6 +33,10 @@
 //! sweep's highest amplitude are held at that floor when searching, so that
 //! round-off in harmonics that vanish makes no peaks.
 //!
+//! **Worst speed.** Per point, the speed of the largest overall rms ripple
+//! is found between the grid speeds to 0.01 dB by [`super::worst`] (every
+//! crossing refined), the routine `tune` and the envelope verdicts use.
+//!
 //! **Resonance frequencies** ([`shaft_resonances`]): the resonances of the
 //! frequency response to each pump of the shaft, found as `ripline response`
 //! finds them ([`super::response`]).
@@ -43,11 +47,13 @@ use super::response::{
 };
 use super::ripple::{OrderSolver, report_points, shaft_ripple};
 use super::search::golden_section_max;
+use super::worst::{Measure, SpeedGrid, WorstSettings, WorstSpeed, worst_speed};
 use crate::circuit::Circuit;
 use crate::diagnostics::Warning;
 use crate::line::{LineModel, MeanFlow};
 use crate::network::{NetworkError, Plan, SolveError};
 use crate::source::Shaft;
+use num_complex::Complex64 as C64;
 
 /// Level floor in dB re 1 Pa used for zero amplitudes when searching peaks.
 const FLOOR_DB: f64 = -400.0;
@@ -217,11 +223,14 @@ pub struct SweepResult {
     pub points: Vec<String>,
     /// Every resonance crossing, by speed, then order, then point.
     pub crossings: Vec<Crossing>,
+    /// Per point, the true worst speed of the overall rms ripple: every
+    /// crossing between the grid speeds refined ([`super::worst`]).
+    pub worst_speeds: Vec<WorstSpeed>,
     /// Grid frequencies solved close to an undamped resonance
     /// (ill-conditioned; see `diagnostics::conditioning_warning`).
     pub warnings: Vec<Warning>,
-    /// Peak amplitudes in Pa, indexed by speed, then point, then order.
-    amplitudes_pa: Vec<f64>,
+    /// Pressure phasors (peak, Pa), indexed by speed, then point, then order.
+    phasors: Vec<C64>,
     /// Mean squares Σ|P|²/2 in Pa² from the pumps on other shafts, indexed
     /// by speed, then point.
     other_ms_pa2: Vec<f64>,
@@ -231,8 +240,30 @@ impl SweepResult {
     /// Peak amplitude (Pa) of order `order_i` at point `point_i` and speed
     /// `speed_i` (indices into the grids).
     pub fn amplitude_pa(&self, speed_i: usize, point_i: usize, order_i: usize) -> f64 {
+        self.phasor(speed_i, point_i, order_i).norm()
+    }
+
+    /// Pressure phasor (peak, Pa) of order `order_i` at point `point_i` and
+    /// speed `speed_i` (indices into the grids).
+    pub fn phasor(&self, speed_i: usize, point_i: usize, order_i: usize) -> C64 {
         let (np, no) = (self.points.len(), self.orders.len());
-        self.amplitudes_pa[(speed_i * np + point_i) * no + order_i]
+        self.phasors[(speed_i * np + point_i) * no + order_i]
+    }
+
+    /// The phasors of every order at point `point_i`, by speed then order
+    /// (the layout of [`super::worst::SpeedGrid::phasors`]).
+    pub fn point_phasors(&self, point_i: usize) -> Vec<C64> {
+        (0..self.speeds_rev_s.len())
+            .flat_map(|si| (0..self.orders.len()).map(move |oi| (si, oi)))
+            .map(|(si, oi)| self.phasor(si, point_i, oi))
+            .collect()
+    }
+
+    /// The other shafts' mean square (Pa²) at point `point_i`, by speed.
+    pub fn point_other_ms_pa2(&self, point_i: usize) -> Vec<f64> {
+        (0..self.speeds_rev_s.len())
+            .map(|si| self.other_shafts_ms_pa2(si, point_i))
+            .collect()
     }
 
     /// Frequency (Hz) of order `order_i` at speed `speed_i`.
@@ -256,15 +287,10 @@ impl SweepResult {
         (swept + self.other_shafts_ms_pa2(speed_i, point_i)).sqrt()
     }
 
-    /// The grid speed index with the highest overall rms at point
-    /// `point_i` (the first one on a tie), and that rms in Pa.
-    pub fn worst(&self, point_i: usize) -> (usize, f64) {
-        (0..self.speeds_rev_s.len())
-            .map(|s| (s, self.rms_pa(s, point_i)))
-            .fold(
-                (0, f64::NEG_INFINITY),
-                |best, x| if x.1 > best.1 { x } else { best },
-            )
+    /// The true worst speed of the overall rms ripple at point `point_i`
+    /// (refined between the grid speeds).
+    pub fn worst(&self, point_i: usize) -> &WorstSpeed {
+        &self.worst_speeds[point_i]
     }
 }
 
@@ -351,7 +377,7 @@ pub fn sweep(
     let points: Vec<String> = report_points(circuit).into_iter().map(|t| t.name).collect();
     let orders = shaft.orders(&circuit.pumps, settings.harmonics);
     let (np, no) = (points.len(), orders.len());
-    let mut amplitudes = vec![0.0; speeds.len() * np * no];
+    let mut phasors = vec![C64::new(0.0, 0.0); speeds.len() * np * no];
     let mut other = vec![0.0; speeds.len() * np];
     let mut at = AtSpeed::new(plan, shaft, settings.harmonics);
     let mut warnings = Vec::new();
@@ -372,13 +398,13 @@ pub fn sweep(
         || AtSpeed::new(plan, shaft, settings.harmonics),
         |at, &speed| {
             at.with(speed, |solver| {
-                let mut amps = vec![0.0; np * no];
+                let mut amps = vec![C64::new(0.0, 0.0); np * no];
                 let mut found = Vec::new();
                 for (oi, &order) in orders.iter().enumerate() {
                     solver.solve(order, speed).map_err(at_speed(speed))?;
                     found.extend(solver.warning.take());
                     for (pi, p) in solver.pressures.iter().enumerate() {
-                        amps[pi * no + oi] = p.norm();
+                        amps[pi * no + oi] = *p;
                     }
                 }
                 let others = match &fixed_other {
@@ -391,7 +417,7 @@ pub fn sweep(
         progress,
     )?;
     for (si, (amps, others, found)) in per_speed.into_iter().enumerate() {
-        amplitudes[si * np * no..(si + 1) * np * no].copy_from_slice(&amps);
+        phasors[si * np * no..(si + 1) * np * no].copy_from_slice(&amps);
         other[si * np..(si + 1) * np].copy_from_slice(&others);
         warnings.extend(found);
     }
@@ -402,11 +428,12 @@ pub fn sweep(
         orders,
         points,
         crossings: Vec::new(),
+        worst_speeds: Vec::new(),
         warnings,
-        amplitudes_pa: amplitudes,
+        phasors,
         other_ms_pa2: other,
     };
-    let top_db = level_db(result.amplitudes_pa.iter().copied().fold(0.0, f64::max));
+    let top_db = level_db(result.phasors.iter().map(|p| p.norm()).fold(0.0, f64::max));
     let mut crossings = Vec::new();
     for pi in 0..np {
         for oi in 0..no {
@@ -468,6 +495,30 @@ pub fn sweep(
             .then(a.point.cmp(&b.point))
     });
     result.crossings = crossings;
+    for pi in 0..np {
+        let phasors = result.point_phasors(pi);
+        let other_ms = result.point_other_ms_pa2(pi);
+        let grid = SpeedGrid {
+            speeds_rev_s: speeds,
+            orders: &result.orders,
+            phasors: &phasors,
+            other_ms_pa2: &other_ms,
+        };
+        let orders = &result.orders;
+        let worst = worst_speed(
+            grid,
+            Measure::Rms,
+            &mut |oi, n| {
+                at.with(n, |solver| {
+                    solver.solve(orders[oi], n).map_err(at_speed(n))?;
+                    Ok(solver.pressures[pi])
+                })
+            },
+            &WorstSettings::default(),
+        )
+        .map_err(|u| u.error)?;
+        result.worst_speeds.push(worst);
+    }
     Ok(result)
 }
 

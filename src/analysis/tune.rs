@@ -6,7 +6,10 @@
 //! ripple at the point is P_rms = √(Σ_k |P_k|²/2) over the pump harmonics
 //! k = 1..N (methods.md §7.4), each solved with the source flow ripple at
 //! that speed. Over the conditions the objective is either the **worst**
-//! (largest) P_rms or their **rms** √(mean P_rms²).
+//! (largest) P_rms or their **rms** √(mean P_rms²). The worst is not taken
+//! from the conditions' speeds alone: every resonance crossing between them
+//! is refined ([`super::worst`]), so it is the true worst over the range to
+//! 0.01 dB.
 //!
 //! **Conditions.** Speeds spread evenly in log(speed) over the range and,
 //! optionally, fluid temperatures: [`TuneProblem::fluid_states`] holds the
@@ -34,10 +37,12 @@
 
 use super::ripple::tap_pressure;
 use super::search::{golden_section_max, halton, nelder_mead_in_box};
+use super::worst::{Measure, SpeedGrid, WorstSettings, worst_speed};
 use crate::circuit::{Circuit, TapLocation};
 use crate::elements::ElementKind;
 use crate::fluid::Fluid;
 use crate::network::{NetworkError, Plan, SolveError};
+use crate::source::Pump;
 use crate::units::Dimension;
 use num_complex::Complex64 as C64;
 
@@ -59,11 +64,18 @@ pub enum Parameter {
     GasVolume,
     /// Precharge pressure of a damper (absolute).
     Precharge,
+    /// How far an expansion chamber's inlet pipe reaches into its shell.
+    InletExtension,
+    /// How far an expansion chamber's outlet pipe reaches into its shell.
+    OutletExtension,
+    /// Viscous damping of a relief or check valve's poppet (a damping
+    /// orifice or piston to be chosen).
+    Damping,
 }
 
 impl Parameter {
     /// Every parameter.
-    pub const ALL: [Parameter; 7] = [
+    pub const ALL: [Parameter; 10] = [
         Parameter::Length,
         Parameter::Bore,
         Parameter::Volume,
@@ -71,6 +83,9 @@ impl Parameter {
         Parameter::NeckBore,
         Parameter::GasVolume,
         Parameter::Precharge,
+        Parameter::InletExtension,
+        Parameter::OutletExtension,
+        Parameter::Damping,
     ];
 
     /// The name used on the command line (the circuit-file key).
@@ -83,6 +98,9 @@ impl Parameter {
             Parameter::NeckBore => "neck_bore",
             Parameter::GasVolume => "gas_volume",
             Parameter::Precharge => "precharge",
+            Parameter::InletExtension => "inlet_extension",
+            Parameter::OutletExtension => "outlet_extension",
+            Parameter::Damping => "damping",
         }
     }
 
@@ -95,11 +113,15 @@ impl Parameter {
     /// `abs` or `gauge`).
     pub fn dimension(self) -> Dimension {
         match self {
-            Parameter::Length | Parameter::Bore | Parameter::NeckLength | Parameter::NeckBore => {
-                Dimension::Length
-            }
+            Parameter::Length
+            | Parameter::Bore
+            | Parameter::NeckLength
+            | Parameter::NeckBore
+            | Parameter::InletExtension
+            | Parameter::OutletExtension => Dimension::Length,
             Parameter::Volume | Parameter::GasVolume => Dimension::Volume,
             Parameter::Precharge => Dimension::Pressure,
+            Parameter::Damping => Dimension::Damping,
         }
     }
 
@@ -107,7 +129,16 @@ impl Parameter {
     pub fn for_kind(kind: &ElementKind) -> &'static [Parameter] {
         use Parameter::*;
         match kind {
+            ElementKind::ExpansionChamber(c) if c.ports.is_some() => {
+                &[Length, Bore, InletExtension, OutletExtension]
+            }
             ElementKind::SideBranch(_) | ElementKind::ExpansionChamber(_) => &[Length, Bore],
+            ElementKind::InlineDamper(_) => &[GasVolume, Precharge],
+            ElementKind::ReliefValve(_)
+            | ElementKind::CheckValve(crate::elements::CheckValve {
+                state: crate::elements::CheckState::Opening { .. },
+                ..
+            }) => &[Damping],
             ElementKind::Helmholtz(_) => &[Volume, NeckLength, NeckBore],
             ElementKind::Damper(_) => &[GasVolume, Precharge, NeckLength, NeckBore],
             _ => &[],
@@ -128,6 +159,22 @@ impl Parameter {
             (Parameter::Precharge, ElementKind::Damper(d)) => d.precharge_pa,
             (Parameter::NeckLength, ElementKind::Damper(d)) => d.neck_length_m,
             (Parameter::NeckBore, ElementKind::Damper(d)) => 2.0 * d.neck.radius_m,
+            (Parameter::InletExtension, ElementKind::ExpansionChamber(c)) => {
+                c.ports?.inlet_extension_m
+            }
+            (Parameter::OutletExtension, ElementKind::ExpansionChamber(c)) => {
+                c.ports?.outlet_extension_m
+            }
+            (Parameter::GasVolume, ElementKind::InlineDamper(d)) => d.vessel.gas_volume_m3,
+            (Parameter::Precharge, ElementKind::InlineDamper(d)) => d.vessel.precharge_pa,
+            (Parameter::Damping, ElementKind::ReliefValve(v)) => v.poppet.damping_n_s_m,
+            (
+                Parameter::Damping,
+                ElementKind::CheckValve(crate::elements::CheckValve {
+                    state: crate::elements::CheckState::Opening { poppet, .. },
+                    ..
+                }),
+            ) => poppet.damping_n_s_m,
             _ => return None,
         })
     }
@@ -149,18 +196,59 @@ impl Parameter {
         let mut k = kind.clone();
         match (self, &mut k) {
             (Parameter::Length, ElementKind::SideBranch(s)) => s.tube.line.length_m = value,
-            (Parameter::Length, ElementKind::ExpansionChamber(c)) => c.tube.line.length_m = value,
+            (Parameter::Length, ElementKind::ExpansionChamber(c)) => {
+                c.tube.line.length_m = value;
+                check_chamber(c)?;
+            }
             (Parameter::Bore, ElementKind::SideBranch(s)) => set_bore(&mut s.tube, value, fluid)?,
             (Parameter::Bore, ElementKind::ExpansionChamber(c)) => {
-                set_bore(&mut c.tube, value, fluid)?
+                set_bore(&mut c.tube, value, fluid)?;
+                check_chamber(c)?;
             }
+            (Parameter::InletExtension, ElementKind::ExpansionChamber(c)) if c.ports.is_some() => {
+                if let Some(p) = c.ports.as_mut() {
+                    p.inlet_extension_m = value;
+                }
+                check_chamber(c)?;
+            }
+            (Parameter::OutletExtension, ElementKind::ExpansionChamber(c)) if c.ports.is_some() => {
+                if let Some(p) = c.ports.as_mut() {
+                    p.outlet_extension_m = value;
+                }
+                check_chamber(c)?;
+            }
+            (Parameter::GasVolume, ElementKind::InlineDamper(d)) => d.vessel.gas_volume_m3 = value,
+            (Parameter::Precharge, ElementKind::InlineDamper(d)) => {
+                d.vessel.precharge_pa = value;
+                if d.vessel.is_bottomed() {
+                    return Err(format!(
+                        "a precharge of {:.2} bar abs is above the operating pressure {:.2} bar abs: the damper would be bottomed (its gas out of the circuit)",
+                        value / 1e5,
+                        d.vessel.operating_pa / 1e5
+                    ));
+                }
+            }
+            (Parameter::Damping, ElementKind::ReliefValve(v)) => v.poppet.damping_n_s_m = value,
+            (
+                Parameter::Damping,
+                ElementKind::CheckValve(crate::elements::CheckValve {
+                    state: crate::elements::CheckState::Opening { poppet, .. },
+                    ..
+                }),
+            ) => poppet.damping_n_s_m = value,
             (Parameter::Volume, ElementKind::Helmholtz(h)) => h.volume_m3 = value,
             (Parameter::NeckLength, ElementKind::Helmholtz(h)) => h.neck_length_m = value,
             (Parameter::NeckBore, ElementKind::Helmholtz(h)) => h.neck.radius_m = value / 2.0,
             (Parameter::GasVolume, ElementKind::Damper(d)) => d.gas_volume_m3 = value,
             (Parameter::Precharge, ElementKind::Damper(d)) => {
                 d.precharge_pa = value;
-                d.validate().map_err(|e| e.to_string())?;
+                if d.is_bottomed() {
+                    return Err(format!(
+                        "a precharge of {:.2} bar abs is above the operating pressure {:.2} bar abs: the damper would be bottomed (its gas out of the circuit)",
+                        value / 1e5,
+                        d.operating_pa / 1e5
+                    ));
+                }
             }
             (Parameter::NeckLength, ElementKind::Damper(d)) => d.neck_length_m = value,
             (Parameter::NeckBore, ElementKind::Damper(d)) => d.neck.radius_m = value / 2.0,
@@ -174,6 +262,27 @@ impl Parameter {
         }
         Ok(k)
     }
+}
+
+/// An expansion chamber's ports must be narrower than its shell and its
+/// extended pipes must leave a gap between them.
+fn check_chamber(c: &crate::elements::ExpansionChamber) -> Result<(), String> {
+    let Some(p) = &c.ports else { return Ok(()) };
+    if p.pipe.radius_m >= c.tube.line.properties.radius_m {
+        return Err(format!(
+            "a chamber bore of {:.2} mm is not larger than its ports' {:.2} mm",
+            c.tube.bore_m() * 1e3,
+            p.pipe.radius_m * 2e3
+        ));
+    }
+    if p.inlet_extension_m + p.outlet_extension_m >= c.tube.line.length_m {
+        return Err(format!(
+            "extended pipes of {:.1} mm together fill a chamber {:.1} mm long",
+            (p.inlet_extension_m + p.outlet_extension_m) * 1e3,
+            c.tube.line.length_m * 1e3
+        ));
+    }
+    Ok(())
 }
 
 /// A new bore for a tube, with its wall's compliance at that bore.
@@ -231,14 +340,16 @@ pub fn speed_conditions(range: (f64, f64), count: usize) -> Vec<Condition> {
 /// How the ripple over the conditions becomes one number.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Objective {
-    /// The largest overall rms ripple over the conditions.
+    /// The largest overall rms ripple over the speed range (refined
+    /// between the conditions' speeds, [`super::worst`]).
     Worst,
     /// The rms over the conditions of the overall rms ripple.
     Rms,
 }
 
 impl Objective {
-    /// The objective over per-condition overall rms ripples (Pa).
+    /// The objective over per-condition overall rms ripples (Pa), as
+    /// sampled (the worst is refined by [`RippleEvaluator::evaluate`]).
     pub fn over(self, per_condition_pa: &[f64]) -> f64 {
         match self {
             Objective::Worst => per_condition_pa.iter().copied().fold(0.0, f64::max),
@@ -251,7 +362,7 @@ impl Objective {
     /// How reports describe it.
     pub fn describe(self) -> &'static str {
         match self {
-            Objective::Worst => "worst overall rms ripple over the speeds",
+            Objective::Worst => "worst overall rms ripple over the speed range",
             Objective::Rms => "rms over the speeds of the overall rms ripple",
         }
     }
@@ -259,22 +370,71 @@ impl Objective {
 
 /// The ripple at a point over a set of conditions, for any variant of a
 /// circuit (the pump and the point stay the same).
+///
+/// With [`Objective::Worst`] the conditions' speeds are only the start: the
+/// worst speed is found between them to 0.01 dB by
+/// [`super::worst::worst_speed`] (every resonance crossing refined), so the
+/// objective is the true worst ripple over the speed range, the same
+/// `sweep` and the envelope verdicts report.
 #[derive(Debug, Clone)]
 pub struct RippleEvaluator {
     pump_index: usize,
     point: TapLocation,
     objective: Objective,
-    /// For each condition, the (frequency, source flow) of each harmonic.
+    /// The pump, to set at any speed.
+    pump: Pump,
+    /// The harmonics with source flow.
+    orders: Vec<u32>,
+    /// The conditions' speeds (rev/s), increasing.
+    speeds_rev_s: Vec<f64>,
+    /// For each condition, the (frequency, source flow) of each order.
     excitations: Vec<Vec<(f64, C64)>>,
 }
 
-/// The ripple of one circuit variant.
+/// The ripple of one circuit variant (or of several, [`RippleSummary::combine`]).
 #[derive(Debug, Clone, PartialEq)]
 pub struct RippleSummary {
     /// The objective in Pa (rms).
     pub objective_pa: f64,
     /// Overall rms ripple at each condition, in Pa.
     pub per_condition_pa: Vec<f64>,
+    /// With [`Objective::Worst`]: where the ripple is largest, as (fluid
+    /// state, shaft speed in rev/s): the index of the circuit among those
+    /// combined (0 for one), and the refined speed.
+    pub worst: Option<(usize, f64)>,
+}
+
+impl RippleSummary {
+    /// The summary over several circuit variants (fluid states), in order:
+    /// the worst of their worst ripples, or the rms over all their
+    /// conditions.
+    pub fn combine(objective: Objective, parts: Vec<RippleSummary>) -> RippleSummary {
+        let per_condition_pa: Vec<f64> = parts
+            .iter()
+            .flat_map(|s| s.per_condition_pa.iter().copied())
+            .collect();
+        match objective {
+            Objective::Worst => {
+                let (state, top) = parts.iter().enumerate().fold((0, &parts[0]), |b, (i, s)| {
+                    if s.objective_pa > b.1.objective_pa {
+                        (i, s)
+                    } else {
+                        b
+                    }
+                });
+                RippleSummary {
+                    objective_pa: top.objective_pa,
+                    worst: top.worst.map(|(_, speed)| (state, speed)),
+                    per_condition_pa,
+                }
+            }
+            Objective::Rms => RippleSummary {
+                objective_pa: objective.over(&per_condition_pa),
+                per_condition_pa,
+                worst: None,
+            },
+        }
+    }
 }
 
 /// Why a ripple evaluation failed.
@@ -291,7 +451,8 @@ pub enum EvaluateError {
 
 impl RippleEvaluator {
     /// Prepares the harmonic excitations of pump `pump_index` of `circuit`
-    /// at each condition (harmonics 1..=`circuit.harmonics`).
+    /// at each condition (harmonics 1..=`circuit.harmonics` that have
+    /// source flow).
     ///
     /// # Panics
     /// If `pump_index` is out of range.
@@ -302,27 +463,36 @@ impl RippleEvaluator {
         conditions: &[Condition],
         objective: Objective,
     ) -> Self {
-        let excitations = conditions
-            .iter()
-            .map(|c| {
-                let mut pump = circuit.pumps[pump_index].clone();
-                pump.speed_rev_s = c.speed_rev_s;
-                let fp = pump.pumping_frequency_hz();
-                (1..=circuit.harmonics)
-                    .map(|k| (f64::from(k) * fp, pump.flow_ripple(k)))
-                    .filter(|(_, q)| *q != C64::new(0.0, 0.0))
-                    .collect()
-            })
+        let pump = circuit.pumps[pump_index].clone();
+        let orders: Vec<u32> = (1..=circuit.harmonics)
+            .filter(|&k| pump.flow_ripple(k) != C64::new(0.0, 0.0))
             .collect();
-        RippleEvaluator {
+        let mut evaluator = RippleEvaluator {
             pump_index,
             point,
             objective,
-            excitations,
-        }
+            pump,
+            orders,
+            speeds_rev_s: conditions.iter().map(|c| c.speed_rev_s).collect(),
+            excitations: Vec::new(),
+        };
+        let mut pump = evaluator.pump.clone();
+        evaluator.excitations = evaluator
+            .speeds_rev_s
+            .iter()
+            .map(|&n| {
+                evaluator
+                    .orders
+                    .iter()
+                    .map(|&k| excitation(&mut pump, k, n))
+                    .collect()
+            })
+            .collect();
+        evaluator
     }
 
-    /// Number of network solves per evaluation.
+    /// Number of network solves on the conditions' speeds per evaluation
+    /// (the worst objective adds its refinement of the crossings).
     pub fn solves_per_evaluation(&self) -> usize {
         self.excitations.iter().map(Vec::len).sum()
     }
@@ -330,26 +500,64 @@ impl RippleEvaluator {
     /// The ripple of `circuit` (a variant of the one given to [`Self::new`]).
     ///
     /// # Errors
-    /// [`EvaluateError`] when the variant cannot be compiled or solved.
+    /// [`EvaluateError`] when the variant cannot be compiled or solved
+    /// (also when the worst-speed search meets an undamped resonance).
     pub fn evaluate(&self, circuit: &Circuit) -> Result<RippleSummary, EvaluateError> {
         let plan = Plan::compile(circuit)?;
         let mut ws = plan.workspace();
         let node = circuit.pumps[self.pump_index].node;
+        let mut phasors = Vec::with_capacity(self.solves_per_evaluation());
         let mut per_condition_pa = Vec::with_capacity(self.excitations.len());
         for harmonics in &self.excitations {
             let mut sum = 0.0;
             for &(f, q) in harmonics {
                 let s = plan.solve(f, &[(node, q)], &mut ws)?;
-                sum += tap_pressure(circuit, &s, self.point).norm_sqr();
+                let p = tap_pressure(circuit, &s, self.point);
+                sum += p.norm_sqr();
+                phasors.push(p);
             }
             per_condition_pa.push((sum / 2.0).sqrt());
         }
-        let objective_pa = self.objective.over(&per_condition_pa);
+        if self.objective == Objective::Rms || self.orders.is_empty() {
+            return Ok(RippleSummary {
+                objective_pa: self.objective.over(&per_condition_pa),
+                per_condition_pa,
+                worst: None,
+            });
+        }
+        let grid = SpeedGrid {
+            speeds_rev_s: &self.speeds_rev_s,
+            orders: &self.orders,
+            phasors: &phasors,
+            other_ms_pa2: &[],
+        };
+        let mut pump = self.pump.clone();
+        let worst = worst_speed(
+            grid,
+            Measure::Rms,
+            &mut |o, n| {
+                let (f, q) = excitation(&mut pump, self.orders[o], n);
+                let s = plan.solve(f, &[(node, q)], &mut ws)?;
+                Ok(tap_pressure(circuit, &s, self.point))
+            },
+            &WorstSettings::default(),
+        )
+        .map_err(|u| EvaluateError::Solve(u.error))?;
         Ok(RippleSummary {
-            objective_pa,
+            objective_pa: worst.value_pa,
             per_condition_pa,
+            worst: Some((0, worst.speed_rev_s)),
         })
     }
+}
+
+/// The (frequency, source flow) of harmonic `k` of `pump` at speed `n`.
+fn excitation(pump: &mut Pump, k: u32, speed_rev_s: f64) -> (f64, C64) {
+    pump.speed_rev_s = speed_rev_s;
+    (
+        f64::from(k) * pump.pumping_frequency_hz(),
+        pump.flow_ripple(k),
+    )
 }
 
 /// Why a search cannot run.
@@ -377,6 +585,17 @@ pub enum TuneError {
     /// Bounds not positive or not increasing.
     #[error("the bounds of `{0}` must be positive and increasing (low < high)")]
     BadBounds(&'static str),
+    /// A damper's precharge range reaches above its operating pressure
+    /// (the gas would not be compressed: no valid damper).
+    #[error(
+        "the precharge bounds reach {high_bar:.3} bar abs, above the damper's operating pressure of {operating_bar:.3} bar abs: a precharge must stay below the operating pressure"
+    )]
+    PrechargeAboveOperating {
+        /// The upper bound, bar absolute.
+        high_bar: f64,
+        /// The operating pressure, bar absolute.
+        operating_bar: f64,
+    },
     /// The design as given cannot be evaluated.
     #[error("the circuit as given cannot be evaluated: {0}")]
     Baseline(String),
@@ -501,6 +720,19 @@ impl TuneProblem<'_> {
             if !(b.low > 0.0 && b.high > b.low && b.high.is_finite()) {
                 return Err(TuneError::BadBounds(b.parameter.name()));
             }
+            let vessel = match &e.kind {
+                ElementKind::Damper(d) => Some(d),
+                ElementKind::InlineDamper(d) => Some(&d.vessel),
+                _ => None,
+            };
+            if let (Parameter::Precharge, Some(d)) = (b.parameter, vessel)
+                && b.high > d.operating_pa
+            {
+                return Err(TuneError::PrechargeAboveOperating {
+                    high_bar: b.high / 1e5,
+                    operating_bar: d.operating_pa / 1e5,
+                });
+            }
         }
         Ok(())
     }
@@ -535,19 +767,16 @@ impl TuneProblem<'_> {
         &self,
         variant: impl Fn(&Circuit) -> Result<Circuit, String>,
     ) -> Result<RippleSummary, String> {
-        let mut per_condition_pa = Vec::new();
+        let mut parts = Vec::new();
         for state in self.states() {
             let circuit = variant(state)?;
-            let summary = self
-                .evaluator
-                .evaluate(&circuit)
-                .map_err(|e| e.to_string())?;
-            per_condition_pa.extend(summary.per_condition_pa);
+            parts.push(
+                self.evaluator
+                    .evaluate(&circuit)
+                    .map_err(|e| e.to_string())?,
+            );
         }
-        Ok(RippleSummary {
-            objective_pa: self.evaluator.objective.over(&per_condition_pa),
-            per_condition_pa,
-        })
+        Ok(RippleSummary::combine(self.evaluator.objective, parts))
     }
 
     /// The ripple with the element rebuilt from `values`.

@@ -181,6 +181,16 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
                 let omega = 2.0 * std::f64::consts::PI * fp;
                 let modulus = p.compliance(omega).inv();
                 let prop = p.propagation(omega);
+                let wall = match &h.pressure {
+                    Some(hp) => format!(
+                        "wall data at {} mean pressures ({:.1} .. {:.1} bar), interpolated at {:.1} bar",
+                        hp.data.points().len(),
+                        hp.data.points()[0].pressure_pa / 1e5,
+                        hp.data.points()[hp.data.points().len() - 1].pressure_pa / 1e5,
+                        hp.mean_pressure_pa / 1e5
+                    ),
+                    None => wall,
+                };
                 format!(
                     "length {:.3} m, bore {:.2} mm, {wall}; at {fp:.1} Hz: wave speed {:.1} m/s and loss factor {:.3} (wall and fluid), phase speed {:.1} m/s, attenuation {:.3} dB/m; {} model{}",
                     h.line.length_m,
@@ -208,7 +218,11 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
             ElementKind::SideBranch(_)
             | ElementKind::ExpansionChamber(_)
             | ElementKind::Helmholtz(_)
-            | ElementKind::Damper(_) => super::silencer::describe(e, None).join("; "),
+            | ElementKind::Damper(_)
+            | ElementKind::InlineDamper(_) => super::silencer::describe(e, None).join("; "),
+            ElementKind::ReliefValve(_) | ElementKind::CheckValve(_) | ElementKind::Cylinder(_) => {
+                super::components::describe(&e.kind).join("; ")
+            }
             _ => String::new(),
         };
         writeln!(out, "  {} ({}, {place}): {detail}", e.name, e.kind.name())?;
@@ -239,10 +253,10 @@ pub fn run(args: CheckArgs) -> anyhow::Result<()> {
         c.harmonics,
         plan.unknowns()
     )?;
-    if c.elements
-        .iter()
-        .any(|e| matches!(e.kind, ElementKind::Damper(_)))
-    {
+    for w in ripline::diagnostics::component_warnings(c) {
+        eprintln!("warning: {w}");
+    }
+    if c.elements.iter().any(|e| e.kind.is_pressure_vessel()) {
         writeln!(out, "{}", ripline::elements::PRESSURE_VESSEL_CAUTION)?;
     }
     writeln!(out, "OK")?;

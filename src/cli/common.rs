@@ -3,9 +3,9 @@
 use super::{EXIT_COMPUTE, EXIT_INPUT};
 use anyhow::Context;
 use ripline::io::InputError;
-use ripline::io::output::StagedOutputs;
+use ripline::io::output::{OutputError, StagedOutputs};
 use ripline::source::{Shaft, shafts};
-use ripline::units::{Dimension, parse_quantity};
+use ripline::units::{Dimension, PressureDisplay, parse_quantity};
 use ripline::{Circuit, demo};
 use std::path::{Path, PathBuf};
 
@@ -69,7 +69,7 @@ pub fn cli_quantity(
 pub fn exit_code(err: &anyhow::Error) -> u8 {
     let input = err
         .chain()
-        .any(|c| c.is::<InputError>() || c.is::<UsageError>());
+        .any(|c| c.is::<InputError>() || c.is::<UsageError>() || c.is::<OutputError>());
     if input { EXIT_INPUT } else { EXIT_COMPUTE }
 }
 
@@ -129,16 +129,19 @@ pub fn csv_and_plot_paths(
     Ok((csv, plot))
 }
 
-/// Stages a CSV table produced by `write`.
+/// Stages a CSV table produced by `write`, streamed to the staged file (a
+/// large sweep table is never held whole in memory).
 pub fn stage_csv(
     outputs: &mut StagedOutputs,
     path: &Path,
-    write: impl FnOnce(&mut Vec<u8>) -> Result<(), csv::Error>,
+    write: impl FnOnce(&mut std::io::BufWriter<std::fs::File>) -> Result<(), csv::Error>,
 ) -> anyhow::Result<()> {
-    let mut bytes = Vec::new();
-    write(&mut bytes).context("formatting the CSV table")?;
     outputs
-        .stage_bytes(path, &bytes)
+        .stage_with(path, |tmp| {
+            let mut file = std::io::BufWriter::new(std::fs::File::create(tmp)?);
+            write(&mut file).map_err(std::io::Error::other)?;
+            std::io::Write::flush(&mut file)
+        })
         .with_context(|| format!("writing {}", path.display()))
 }
 
@@ -198,10 +201,7 @@ pub fn prepare(
     file: Option<&Path>,
     harmonics: Option<u32>,
 ) -> anyhow::Result<Prepared> {
-    let p_ref = cli_quantity("--db-ref", db_ref, Dimension::Pressure, "Pa")?;
-    if p_ref <= 0.0 {
-        return Err(UsageError("--db-ref must be a positive pressure".into()).into());
-    }
+    let p_ref = db_reference(db_ref)?;
     let (csv, plot) = csv_and_plot_paths(csv, plot)?;
     let mut loaded = load_circuit(file)?;
     if let Some(n) = harmonics {
@@ -220,13 +220,91 @@ pub fn prepare(
     })
 }
 
+/// Smallest and largest reference pressure for levels in dB, Pa: from the
+/// 1 µPa of underwater acoustics to 10 kbar, beyond any hydraulic pressure.
+pub const DB_REF_RANGE_PA: (f64, f64) = (1e-6, 1e9);
+
+/// Parses `--db-ref` (Pa when bare) and checks it is within
+/// [`DB_REF_RANGE_PA`], so every level printed is a finite number.
+pub fn db_reference(text: &str) -> anyhow::Result<f64> {
+    let p_ref = cli_quantity("--db-ref", text, Dimension::Pressure, "Pa")?;
+    let (lo, hi) = DB_REF_RANGE_PA;
+    if !(lo..=hi).contains(&p_ref) {
+        return Err(UsageError(format!(
+            "--db-ref {text}: the reference pressure must be between 1 µPa and 1 GPa (10 kbar), e.g. \"1 Pa\" or \"1 bar\""
+        ))
+        .into());
+    }
+    Ok(p_ref)
+}
+
+/// The reference pressure as printed beside levels: 4 significant digits,
+/// in Pa below 10 Pa (`20e-6 Pa` rather than `0.000 Pa`).
+pub fn reference_text(p_ref: f64) -> String {
+    if p_ref >= 10.0 {
+        return PressureDisplay(p_ref).to_string();
+    }
+    let rounded: f64 = format!("{p_ref:.3e}").parse().unwrap_or(p_ref);
+    if rounded >= 1e-3 {
+        format!("{rounded} Pa")
+    } else {
+        format!("{rounded:e} Pa")
+    }
+}
+
+/// 20·log10(rms/p_ref), taken as a difference of logarithms so that it is
+/// finite for every positive finite pressure (the ratio itself can
+/// underflow or overflow).
+pub fn db_re(rms: f64, p_ref: f64) -> f64 {
+    20.0 * (rms.log10() - p_ref.log10())
+}
+
 /// A level in dB re `p_ref` of an rms pressure, or "no ripple".
 pub fn level_text(rms: f64, p_ref: f64) -> String {
     if rms > 0.0 {
-        format!("{:.1} dB", 20.0 * (rms / p_ref).log10())
+        format!("{:.1} dB", db_re(rms, p_ref))
     } else {
         "no ripple".to_string()
     }
+}
+
+/// The output files of a command as one all-or-nothing group, checked before
+/// any work: each target is a file name in a folder that exists and takes a
+/// new file, no two outputs are the same file, and no output is any file the
+/// command reads (`inputs`, and every file read so far: circuit, source
+/// files, bench file). With `create_folders`, missing folders of the targets
+/// are made (and removed again if nothing is committed). Every command calls
+/// this once, after loading its inputs and before its work; [`commit`] moves
+/// the files into place.
+pub fn plan_outputs(
+    inputs: &[&Path],
+    outputs: &[(&str, Option<&Path>)],
+    create_folders: bool,
+) -> anyhow::Result<StagedOutputs> {
+    let mut read = ripline::io::files_read();
+    read.extend(inputs.iter().map(|p| p.to_path_buf()));
+    let targets: Vec<(&str, &Path, bool)> = outputs
+        .iter()
+        .filter_map(|&(option, path)| Some((option, path?, create_folders)))
+        .collect();
+    Ok(StagedOutputs::plan(&targets, &read)?)
+}
+
+/// [`plan_outputs`] for the usual `--csv` and `--plot` of a circuit command.
+pub fn plan_csv_and_plot(csv: Option<&Path>, plot: Option<&Path>) -> anyhow::Result<StagedOutputs> {
+    plan_outputs(&[], &[("--csv", csv), ("--plot", plot)], false)
+}
+
+/// Removes the staged output files of this process when it is interrupted
+/// (Ctrl-C, SIGTERM, SIGHUP) and exits with code 130. A commit in progress
+/// finishes first, so a group is either wholly in place or not at all.
+pub fn remove_outputs_on_signal() {
+    // Without a handler (one already set) the temporary files may stay; that
+    // is not a reason to refuse to run.
+    let _ = ctrlc::set_handler(|| {
+        ripline::io::output::remove_staged_files();
+        std::process::exit(130);
+    });
 }
 
 /// Moves the staged output files into place. Commands call it once every

@@ -8,7 +8,6 @@ use indicatif::{ProgressBar, ProgressStyle};
 use ripline::estimate::bench::{Bench, SpeedOfSound};
 use ripline::estimate::fit::{Estimate, FitReport, HarmonicResult};
 use ripline::estimate::{FitOptions, Observer, fit};
-use ripline::io::output::StagedOutputs;
 use ripline::io::source_file::{PumpSource, SourceHarmonic, write_source_file};
 use ripline::plot;
 use ripline::units::PressureDisplay;
@@ -38,6 +37,12 @@ pub struct FitArgs {
     #[arg(long, value_name = "FILE")]
     plot: Option<PathBuf>,
 }
+
+/// Most Monte Carlo draws: the relative standard error of a standard
+/// deviation estimated from M normal draws is about 1/√(2(M−1)), 0.5 % at
+/// this M, far below what the uncertainties are needed to; each draw costs
+/// about a millisecond.
+pub const MAX_DRAWS: usize = 20_000;
 
 /// Header of the `--csv` table.
 pub const FIT_HEADER: &str = "harmonic,frequency_hz,flow_amplitude_m3s,flow_phase_deg,impedance_amplitude_pa_s_m3,impedance_phase_deg,flow_uncertainty_m3s,impedance_uncertainty_pa_s_m3";
@@ -77,6 +82,13 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
             .map(|p| common::check_output(name, p, ext))
             .transpose()
     };
+    if args.draws > MAX_DRAWS {
+        return Err(UsageError(format!(
+            "--draws must be at most {MAX_DRAWS} (the uncertainties are then known to 0.5 %), found {}",
+            args.draws
+        ))
+        .into());
+    }
     let csv_path = out(&args.csv, "--csv", &["csv"])?;
     let source_path = out(&args.source_out, "--source-out", &["yaml", "yml"])?;
     let plot_path = out(&args.plot, "--plot", &["svg", "png"])?;
@@ -89,6 +101,16 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
         }
         bench.harmonics = n;
     }
+    let records: Vec<&Path> = bench.conditions.iter().map(|c| c.data.path()).collect();
+    let mut outputs = common::plan_outputs(
+        &records,
+        &[
+            ("--csv", csv_path.as_deref()),
+            ("--source-out", source_path.as_deref()),
+            ("--plot", plot_path.as_deref()),
+        ],
+        false,
+    )?;
     let mut progress = Progress(None);
     let mut data = Vec::with_capacity(bench.conditions.len());
     for cond in &bench.conditions {
@@ -113,7 +135,6 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
     }
     ensure_finite(&report)?;
 
-    let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
         let mut bytes = Vec::new();
         write_csv(&report, &mut bytes)?;
@@ -378,13 +399,20 @@ fn charts(report: &FitReport, title: Option<&str>) -> Vec<plot::LineChart> {
             e.uncertainty.map(|u| u.phase_rad.to_degrees()),
         )
     };
+    // amplitudes cannot be negative: their error bars are cut at zero
     let chart = |t: String, y: &str, s: plot::XySeries, log_y: bool| plot::LineChart {
         title: t,
         x_label: "frequency (Hz)".into(),
         y_label: y.into(),
         series: vec![s],
         log_y,
+        y_floor: (!log_y && !y.starts_with("phase")).then_some(0.0),
         ..Default::default()
+    };
+    // phases of separate harmonics are points, not a curve
+    let points = |s: plot::XySeries| plot::XySeries {
+        style: plot::SeriesStyle::Points,
+        ..s
     };
     vec![
         chart(
@@ -400,7 +428,7 @@ fn charts(report: &FitReport, title: Option<&str>) -> Vec<plot::LineChart> {
         chart(
             String::new(),
             "phase of Qs (deg)",
-            series("flow ripple phase", hs, |h| ph(&h.flow)),
+            points(series("flow ripple phase", hs, |h| ph(&h.flow))),
             false,
         ),
         chart(
@@ -412,7 +440,7 @@ fn charts(report: &FitReport, title: Option<&str>) -> Vec<plot::LineChart> {
         chart(
             String::new(),
             "phase of Zs (deg)",
-            series("impedance phase", hs, |h| ph(&h.impedance)),
+            points(series("impedance phase", hs, |h| ph(&h.impedance))),
             false,
         ),
     ]

@@ -7,6 +7,7 @@
 
 mod check;
 mod common;
+mod components;
 mod fit;
 mod profile;
 mod ranges;
@@ -82,6 +83,7 @@ pub fn main() -> ExitCode {
             .num_threads(usize::from(n))
             .build_global();
     }
+    common::remove_outputs_on_signal();
     let result = match cli.command {
         Command::Solve(args) => solve::run(args),
         Command::Check(args) => check::run(args),
@@ -103,7 +105,7 @@ pub fn main() -> ExitCode {
             for cause in err.chain().skip(1) {
                 text.push_str(&format!("\n  caused by: {cause}"));
             }
-            eprintln!("{text}");
+            eprintln!("{}", ripline::io::message::readable(&text));
             ExitCode::from(common::exit_code(&err))
         }
     }

@@ -7,7 +7,6 @@ use clap::Args;
 use ripline::analysis::profile::{RippleProfile, ripple_profile};
 use ripline::circuit::TapLocation;
 use ripline::io::csv_out::write_profile_csv;
-use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
 use ripline::units::PressureDisplay;
@@ -40,6 +39,7 @@ pub fn run(args: ProfileArgs) -> anyhow::Result<()> {
         .into());
     }
     let loaded = common::load_circuit(args.file.as_deref())?;
+    let mut outputs = common::plan_csv_and_plot(csv_path.as_deref(), plot_path.as_deref())?;
     let circuit = &loaded.circuit;
     let pump = &circuit.pumps[0];
     if pump.flow_ripple(args.harmonic).norm() == 0.0 {
@@ -68,7 +68,6 @@ pub fn run(args: ProfileArgs) -> anyhow::Result<()> {
         .with_context(|| format!("solving {}", loaded.source))?;
     ensure_finite(&profile)?;
 
-    let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
         common::stage_csv(&mut outputs, path, |buf| write_profile_csv(&profile, buf))?;
     }

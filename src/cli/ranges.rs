@@ -264,6 +264,11 @@ pub struct SweepArgs {
     pump: Option<String>,
 }
 
+/// Lowest and highest frequency `--band` may reach, Hz: far outside the
+/// ripple of any pump, and inside the range where every frequency and its
+/// logarithm print as ordinary numbers.
+pub const BAND_RANGE_HZ: (f64, f64) = (1e-3, 1e6);
+
 /// Resolves the sweep options against a circuit (see [`SweepArgs`]) and
 /// prints the circuit's warnings up to the top of the band.
 pub fn sweep(circuit: &Circuit, args: &SweepArgs) -> anyhow::Result<Sweep> {
@@ -277,7 +282,17 @@ pub fn sweep(circuit: &Circuit, args: &SweepArgs) -> anyhow::Result<Sweep> {
     let speeds = self::speed_range(speed_range, circuit, pump_index)?;
     let z = f64::from(circuit.pumps[pump_index].pumping_elements);
     let band = match band {
-        Some(text) => parse_range("--band", text, Dimension::Frequency, "Hz")?,
+        Some(text) => {
+            let band = parse_range("--band", text, Dimension::Frequency, "Hz")?;
+            let (lo, hi) = BAND_RANGE_HZ;
+            if band.0 < lo || band.1 > hi {
+                return Err(UsageError(format!(
+                    "--band {text}: the band must lie within 0.001 Hz .. 1 MHz (pressure ripple of a pump is a few Hz to some kHz)"
+                ))
+                .into());
+            }
+            band
+        }
         None => (
             0.25 * z * speeds.rev_s.0,
             f64::from(circuit.harmonics.max(10)) * z * speeds.rev_s.1,

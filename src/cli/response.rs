@@ -10,7 +10,6 @@ use ripline::analysis::response::{
     frequency_response, log_grid,
 };
 use ripline::io::csv_response::{load_impedance_point, write_response_csv};
-use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
 use ripline::units::PressureDisplay;
@@ -42,6 +41,7 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
     let plot_path = ranges::plot_output(args.plot.as_deref())?;
     let margin = ranges::parse_fraction("--margin", &args.margin)?;
     let loaded = common::load_circuit(args.file.as_deref())?;
+    let mut outputs = common::plan_csv_and_plot(csv_path.as_deref(), plot_path.as_deref())?;
     let circuit = &loaded.circuit;
     let ranges::Sweep {
         pump_index,
@@ -62,7 +62,6 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
     // Only harmonics the pump's source flow has can excite a resonance.
     let (bands, silent) = ranges::excited_bands(pump, &speeds, circuit.harmonics);
 
-    let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
         common::stage_csv(&mut outputs, path, |buf| write_response_csv(&response, buf))?;
     }

@@ -17,7 +17,6 @@ use ripline::analysis::tune::speed_conditions;
 use ripline::diagnostics::plane_wave_limit_hz;
 use ripline::elements::{Connection, Element, ElementKind, PRESSURE_VESSEL_CAUTION};
 use ripline::io::csv_response::{HarmonicLoss, write_harmonic_loss_csv, write_loss_csv};
-use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
 use ripline::units::PressureDisplay;
@@ -72,6 +71,15 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     let harmonic_csv_path = ranges::csv_output("--harmonic-csv", args.harmonic_csv.as_deref())?;
     let plot_path = ranges::plot_output(args.plot.as_deref())?;
     let loaded = common::load_circuit(Some(&args.file))?;
+    let mut outputs = common::plan_outputs(
+        &[],
+        &[
+            ("--csv", csv_path.as_deref()),
+            ("--harmonic-csv", harmonic_csv_path.as_deref()),
+            ("--plot", plot_path.as_deref()),
+        ],
+        false,
+    )?;
     let circuit = &loaded.circuit;
     let ids = args
         .element
@@ -204,7 +212,6 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     }
 
     let (bands, _) = ranges::excited_bands(pump, &speeds, circuit.harmonics);
-    let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
         common::stage_csv(&mut outputs, path, |buf| {
             write_loss_csv(&freqs, &tl, &il, buf)
@@ -231,7 +238,7 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     }
     let has_damper = ids
         .iter()
-        .any(|&i| matches!(circuit.elements[i].kind, ElementKind::Damper(_)));
+        .any(|&i| circuit.elements[i].kind.is_pressure_vessel());
     for &i in &ids {
         let e = &circuit.elements[i];
         writeln!(
@@ -369,6 +376,24 @@ pub fn describe(e: &Element, pipe: Option<&ripline::elements::Tube>) -> Vec<Stri
                 c.first_maximum_hz(),
                 plane_wave_limit_hz(c.tube.line.properties.wave_speed_m_s(), c.tube.bore_m())
             )];
+            if let Some(p) = &c.ports {
+                let shell = &c.tube.line.properties;
+                let notch = |e: f64, end: &str| {
+                    p.notch_hz(shell, e).map_or(String::new(), |f| {
+                        format!(
+                            "; {end} pipe reaches {:.1} mm in: annulus notch near c/4e = {f:.2} Hz",
+                            e * 1e3
+                        )
+                    })
+                };
+                v.push(format!(
+                    "ports {:.2} mm bore, {:.1} mm long outside the shell{}{}",
+                    p.pipe.radius_m * 2e3,
+                    p.length_m * 1e3,
+                    notch(p.inlet_extension_m, "inlet"),
+                    notch(p.outlet_extension_m, "outlet")
+                ));
+            }
             if let Some(p) = pipe {
                 let m = c.tube.line.properties.area_m2() / p.line.properties.area_m2();
                 v.push(format!(
@@ -391,28 +416,73 @@ pub fn describe(e: &Element, pipe: Option<&ripline::elements::Tube>) -> Vec<Stri
                 "the bare neck length"
             }
         )],
-        ElementKind::Damper(d) => vec![
-            format!(
+        ElementKind::Damper(d) => {
+            let mut v = vec![format!(
                 "gas-charged pulsation damper, gas volume {:.4} L at a precharge of {:.2} bar abs, operating at {:.2} bar abs, polytropic index {:.2}",
                 d.gas_volume_m3 * 1e3,
                 d.precharge_pa / 1e5,
                 d.operating_pa / 1e5,
                 d.polytropic_index
-            ),
-            format!(
-                "gas volume at the operating pressure {:.4} L (Boyle's law, isothermal charging), oil in the vessel {:.4} L; compliance {:.4e} m³/Pa",
-                d.gas_volume_at_operating_m3() * 1e3,
-                d.oil_volume_m3() * 1e3,
-                d.compliance()
-            ),
-            format!(
-                "neck {:.2} mm long, {:.2} mm bore: lumped resonance {:.2} Hz (it attenuates above it); gas energy at the operating pressure about {:.1} kJ",
-                d.neck_length_m * 1e3,
-                d.neck.radius_m * 2e3,
-                d.lumped_resonance_hz(),
-                d.stored_energy_j() / 1e3
-            ),
-        ],
+            )];
+            match d.lumped_resonance_hz() {
+                Some(f_r) => v.extend([
+                    format!(
+                        "gas volume at the operating pressure {:.4} L (Boyle's law, isothermal charging), oil in the vessel {:.4} L; compliance {:.4e} m³/Pa",
+                        d.gas_volume_at_operating_m3() * 1e3,
+                        d.oil_volume_m3() * 1e3,
+                        d.compliance()
+                    ),
+                    format!(
+                        "neck {:.2} mm long, {:.2} mm bore: lumped resonance {f_r:.2} Hz (it attenuates above it); gas energy at the operating pressure about {:.1} kJ",
+                        d.neck_length_m * 1e3,
+                        d.neck.radius_m * 2e3,
+                        d.stored_energy_j() / 1e3
+                    ),
+                ]),
+                None => v.push(format!(
+                    "BOTTOMED: the operating pressure is below the precharge, so the gas is out of the circuit and only the neck ({:.2} mm long, {:.2} mm bore) remains, closed at its end; the gas still holds about {:.1} kJ at its precharge",
+                    d.neck_length_m * 1e3,
+                    d.neck.radius_m * 2e3,
+                    d.stored_energy_j() / 1e3
+                )),
+            }
+            v
+        }
+        ElementKind::InlineDamper(d) => {
+            let g = &d.vessel;
+            let mut v = vec![
+                format!(
+                    "in-line (flow-through) pulsation damper, gas volume {:.4} L at a precharge of {:.2} bar abs, operating at {:.2} bar abs, polytropic index {:.2}",
+                    g.gas_volume_m3 * 1e3,
+                    g.precharge_pa / 1e5,
+                    g.operating_pa / 1e5,
+                    g.polytropic_index
+                ),
+                format!(
+                    "gas volume at the operating pressure {:.4} L (Boyle's law), oil in the vessel {:.4} L plus {:.4} L in the flow path; compliance {:.4e} m³/Pa; ports {:.2} mm long, {:.2} mm bore; gas energy about {:.1} kJ",
+                    g.gas_volume_at_operating_m3() * 1e3,
+                    g.oil_volume_m3() * 1e3,
+                    d.oil_volume_m3 * 1e3,
+                    d.compliance(),
+                    g.neck_length_m * 1e3,
+                    g.neck.radius_m * 2e3,
+                    g.stored_energy_j() / 1e3
+                ),
+            ];
+            if g.is_bottomed() {
+                v.push(
+                    "BOTTOMED: the operating pressure is below the precharge, so the gas is out of the circuit and only the oil in the flow path and the ports remain".into(),
+                );
+            }
+            if let Some(p) = pipe.filter(|_| d.compliance() > 0.0) {
+                v.push(format!(
+                    "against the upstream pipe (Z0 = {:.4e} Pa·s/m³) its transmission loss passes 3 dB at 1/(πCZ0) = {:.2} Hz (short ports) and rises 6 dB per octave above",
+                    p.line.properties.z0(),
+                    d.corner_frequency_hz(p.line.properties.z0())
+                ));
+            }
+            v
+        }
         _ => Vec::new(),
     }
 }

@@ -5,7 +5,6 @@ use anyhow::Context;
 use clap::Args;
 use ripline::analysis::ripple::{RippleReport, shaft_ripple};
 use ripline::io::csv_out::write_sources_ripple_csv;
-use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
 use ripline::source::{Shaft, shafts};
@@ -60,6 +59,7 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
         // mean flows scale with speed (turbulent friction)
         ripline::meanflow::resolve_line_mean_flows(&mut loaded.circuit);
     }
+    let mut outputs = common::plan_csv_and_plot(csv_path.as_deref(), plot_path.as_deref())?;
     let circuit = &loaded.circuit;
     let shafts = shafts(&circuit.pumps);
     let top_hz = circuit
@@ -84,7 +84,6 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
     }
 
     // Every output is prepared before anything is shown or renamed into place.
-    let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
         common::stage_csv(&mut outputs, path, |buf| {
             write_sources_ripple_csv(&reports, buf)
@@ -157,7 +156,7 @@ fn print_report(
     writeln!(
         out,
         "amplitudes are peak values; overall levels are rms (dB re {})",
-        PressureDisplay(p_ref)
+        common::reference_text(p_ref)
     )?;
     for (i, tap) in reports[0].taps.iter().enumerate() {
         writeln!(out)?;
@@ -258,7 +257,8 @@ fn bar_chart(reports: &[RippleReport], title: Option<&str>) -> plot::BarChart {
                     .collect(),
             })
             .collect(),
-        log_y: false,
+        // a log axis keeps the higher harmonics (tens of dB down) visible
+        log_y: true,
         ..Default::default()
     }
 }

@@ -7,7 +7,6 @@ use anyhow::Context;
 use clap::Args;
 use ripline::analysis::sweep::{SweepResult, SweepSettings, shaft_resonances, sweep};
 use ripline::io::csv_out::write_sweep_csv;
-use ripline::io::output::StagedOutputs;
 use ripline::network::Plan;
 use ripline::plot;
 use ripline::units::Dimension;
@@ -18,9 +17,11 @@ use std::path::{Path, PathBuf};
 /// Default number of speed steps when `--step` is not given.
 const DEFAULT_STEPS: f64 = 200.0;
 /// Most speeds a sweep may hold.
-const MAX_SPEEDS: usize = 100_001;
-/// Most amplitudes (speeds × points × orders) a sweep may hold.
-const MAX_CELLS: usize = 20_000_000;
+const MAX_SPEEDS: usize = 20_001;
+/// Most amplitudes (speeds × points × orders) a sweep may hold: bounds its
+/// time (about one solve per speed and order) and memory (the grid, the
+/// map and the crossings grow with it).
+const MAX_CELLS: usize = 2_000_000;
 /// Rows of the frequency axis of the map.
 const MAP_ROWS: usize = 300;
 /// Rows added either side of an order line on the map, so its colour shows
@@ -107,6 +108,16 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
         args.plot.as_deref(),
         args.file.as_deref(),
         args.harmonics,
+    )?;
+    let levels_plot = plot_path.as_deref().map(levels_path);
+    let mut outputs = common::plan_outputs(
+        &[],
+        &[
+            ("--csv", csv_path.as_deref()),
+            ("--plot", plot_path.as_deref()),
+            ("--plot (its levels chart)", levels_plot.as_deref()),
+        ],
+        false,
     )?;
     let shaft = common::pick_shaft(&loaded.circuit, args.shaft.as_deref())?;
     let (low, high) = match &args.speed {
@@ -208,7 +219,6 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
         );
     }
 
-    let mut outputs = StagedOutputs::new();
     if let Some(path) = &csv_path {
         common::stage_csv(&mut outputs, path, |buf| write_sweep_csv(&result, buf))?;
     }
@@ -261,7 +271,7 @@ fn ensure_finite(result: &SweepResult) -> anyhow::Result<()> {
 /// The point whose worst overall level is the highest.
 fn loudest_point(result: &SweepResult) -> usize {
     (0..result.points.len())
-        .map(|p| (p, result.worst(p).1))
+        .map(|p| (p, result.worst(p).value_pa))
         .fold(
             (0, f64::NEG_INFINITY),
             |best, x| if x.1 > best.1 { x } else { best },
@@ -309,7 +319,7 @@ fn print_report(
     writeln!(
         out,
         "levels are rms in dB re {}; amplitudes are peak values",
-        PressureDisplay(p_ref)
+        common::reference_text(p_ref)
     )?;
     let list: Vec<String> = resonances.iter().map(|f| format!("{f:.1}")).collect();
     writeln!(
@@ -322,7 +332,10 @@ fn print_report(
         }
     )?;
     writeln!(out)?;
-    writeln!(out, "worst speed per point (overall rms ripple):")?;
+    writeln!(
+        out,
+        "worst speed per point (overall rms ripple; every crossing between the grid speeds refined to 0.01 dB):"
+    )?;
     let width = result
         .points
         .iter()
@@ -336,11 +349,12 @@ fn print_report(
         "point", "speed rpm", "rms", "level"
     )?;
     for (pi, point) in result.points.iter().enumerate() {
-        let (si, rms) = result.worst(pi);
+        let worst = result.worst(pi);
+        let rms = worst.value_pa;
         writeln!(
             out,
             "  {point:<width$}  {:>9.1}  {:>12}  {:>9}",
-            speeds[si] * 60.0,
+            worst.speed_rev_s * 60.0,
             PressureDisplay(rms).to_string(),
             common::level_text(rms, p_ref)
         )?;
@@ -413,7 +427,7 @@ fn map(
             if amp <= 0.0 {
                 continue;
             }
-            let level = 20.0 * (amp / std::f64::consts::SQRT_2 / p_ref).log10();
+            let level = common::db_re(amp / std::f64::consts::SQRT_2, p_ref);
             top = top.max(level);
             let f1 = result.shaft.fundamental_hz(1.0) * f64::from(order);
             if f1 * lo > f_top {
@@ -441,7 +455,10 @@ fn map(
         ),
         x_label: "shaft speed (rpm)".into(),
         y_label: "frequency (Hz)".into(),
-        z_label: format!("harmonic level, dB re {} (rms)", PressureDisplay(p_ref)),
+        z_label: format!(
+            "harmonic level, dB re {} (rms)",
+            common::reference_text(p_ref)
+        ),
         x: rpm,
         y,
         z,
@@ -496,7 +513,10 @@ fn level_chart(result: &SweepResult, p_ref: f64, title: Option<&str>) -> plot::L
             result.shaft.name
         ),
         x_label: "shaft speed (rpm)".into(),
-        y_label: format!("overall level, dB re {} (rms)", PressureDisplay(p_ref)),
+        y_label: format!(
+            "overall level, dB re {} (rms)",
+            common::reference_text(p_ref)
+        ),
         series: result
             .points
             .iter()
@@ -509,7 +529,7 @@ fn level_chart(result: &SweepResult, p_ref: f64, title: Option<&str>) -> plot::L
                     .enumerate()
                     .filter_map(|(si, s)| {
                         let rms = result.rms_pa(si, pi);
-                        (rms > 0.0).then(|| (s * 60.0, 20.0 * (rms / p_ref).log10()))
+                        (rms > 0.0).then(|| (s * 60.0, common::db_re(rms, p_ref)))
                     })
                     .collect(),
                 ..Default::default()

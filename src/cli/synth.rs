@@ -8,7 +8,8 @@ use ripline::estimate::bench::{DataFile, Synthesis};
 use ripline::estimate::extract::Phasors;
 use ripline::estimate::rng::Rng;
 use ripline::estimate::synth;
-use ripline::io::output::StagedOutputs;
+use ripline::io::InputError;
+use ripline::io::locate::KeyPath;
 use ripline::io::records::{write_spectra, write_time_record};
 use ripline::units::Dimension;
 use std::io::Write;
@@ -47,8 +48,13 @@ fn fraction(option: &str, text: &str, lo: f64, hi: f64) -> anyhow::Result<f64> {
 pub fn run(args: SynthArgs) -> anyhow::Result<()> {
     if let Some(dir) = args.out_dir.as_deref().filter(|d| !d.is_dir()) {
         return Err(UsageError(format!(
-            "--out-dir {}: the folder does not exist",
-            dir.display()
+            "--out-dir {}: {}",
+            dir.display(),
+            if dir.exists() {
+                "is not a folder"
+            } else {
+                "the folder does not exist"
+            }
         ))
         .into());
     }
@@ -69,8 +75,18 @@ pub fn run(args: SynthArgs) -> anyhow::Result<()> {
         syn.seed = s;
     }
     let base = args.file.parent().unwrap_or(Path::new(""));
+    let targets = bench
+        .conditions
+        .iter()
+        .enumerate()
+        .map(|(i, c)| record_target(&args.file, base, args.out_dir.as_deref(), i, &c.data))
+        .collect::<anyhow::Result<Vec<_>>>()?;
+    let named: Vec<(&str, Option<&Path>)> = targets
+        .iter()
+        .map(|t| ("records", Some(t.as_path())))
+        .collect();
+    let mut outputs = common::plan_outputs(&[&args.file], &named, true)?;
     let mut rng = Rng::new(syn.seed);
-    let mut outputs = StagedOutputs::new();
     let mut written = Vec::new();
     let comment = format!(
         "synthetic record written by ripline synth from {} (an invented scenario)\nnoise {} of the rms ripple, seed {}, speed error {}",
@@ -79,22 +95,9 @@ pub fn run(args: SynthArgs) -> anyhow::Result<()> {
         syn.seed,
         syn.speed_error
     );
-    for cond in &bench.conditions {
+    for (cond, target) in bench.conditions.iter().zip(&targets) {
         let lines = synth::condition_lines(&bench, &syn, cond)
             .map_err(|e| UsageError(format!("{}: {e}", args.file.display())))?;
-        let target = match &args.out_dir {
-            Some(dir) => dir.join(
-                cond.data
-                    .path()
-                    .strip_prefix(base)
-                    .unwrap_or(cond.data.path()),
-            ),
-            None => cond.data.path().to_path_buf(),
-        };
-        if let Some(parent) = target.parent().filter(|p| !p.as_os_str().is_empty()) {
-            std::fs::create_dir_all(parent)
-                .with_context(|| format!("creating {}", parent.display()))?;
-        }
         let mut bytes = Vec::new();
         match &cond.data {
             DataFile::TimeSeries {
@@ -164,15 +167,57 @@ pub fn run(args: SynthArgs) -> anyhow::Result<()> {
             }
         }
         outputs
-            .stage_bytes(&target, &bytes)
+            .stage_bytes(target, &bytes)
             .with_context(|| format!("writing {}", target.display()))?;
         written.push(format!("condition `{}`: {}", cond.name, target.display()));
     }
-    outputs.commit().context("moving the records into place")?;
+    common::commit(outputs)?;
     let mut out = std::io::stdout().lock();
     for w in written {
         writeln!(out, "wrote {w}")?;
     }
     out.flush()?;
     Ok(())
+}
+
+/// Where a condition's record is written: its path in the bench file, taken
+/// relative to the bench file's folder and placed under `--out-dir` (or that
+/// folder). The path must stay inside: an absolute path or one that climbs
+/// out with `..` is refused at its key in the bench file.
+fn record_target(
+    bench_file: &Path,
+    base: &Path,
+    out_dir: Option<&Path>,
+    index: usize,
+    data: &DataFile,
+) -> anyhow::Result<PathBuf> {
+    use std::path::Component;
+    let relative = data.path().strip_prefix(base).unwrap_or(data.path());
+    let inside = relative
+        .components()
+        .all(|c| matches!(c, Component::Normal(_) | Component::CurDir));
+    if inside && relative.file_name().is_some() {
+        return Ok(out_dir.unwrap_or(base).join(relative));
+    }
+    let key = match data {
+        DataFile::TimeSeries { .. } => "records",
+        DataFile::Spectra { .. } => "spectra",
+    };
+    let file = bench_file.display().to_string();
+    let text = ripline::io::read_text(bench_file)?;
+    let path = KeyPath::root().key("conditions").index(index).key(key);
+    Err(InputError::located(
+        &file,
+        &text,
+        &path,
+        format!(
+            "`{}`: synth writes records only inside {} (a relative path without `..`)",
+            relative.display(),
+            match out_dir {
+                Some(d) => format!("the --out-dir folder {}", d.display()),
+                None => "the bench file's folder".to_string(),
+            }
+        ),
+    )
+    .into())
 }

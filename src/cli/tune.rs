@@ -69,6 +69,11 @@ pub struct TuneArgs {
     temperature_steps: usize,
 }
 
+/// Most ripple evaluations (search evaluations × speeds × temperatures) a
+/// tune may make: about seven times the default three-parameter search over
+/// 41 speeds and 3 temperatures.
+pub const MAX_TUNE_WORK: usize = 2_000_000;
+
 fn parse_vary(text: &str) -> anyhow::Result<Bound> {
     let Some((name, range)) = text.split_once('=') else {
         return Err(UsageError(format!(
@@ -96,6 +101,7 @@ fn parse_vary(text: &str) -> anyhow::Result<Bound> {
             (p(lo)?, p(hi)?)
         }
         Dimension::Volume => ranges::parse_range("--vary", range, Dimension::Volume, "m3")?,
+        Dimension::Damping => ranges::parse_range("--vary", range, Dimension::Damping, "N.s/m")?,
         dim => ranges::parse_range("--vary", range, dim, "m")?,
     };
     if !(low > 0.0 && high > low) {
@@ -116,6 +122,7 @@ fn show(parameter: Parameter, value: f64) -> String {
         Dimension::Length if value < 0.1 => format!("{:.2} mm", value * 1e3),
         Dimension::Length => format!("{:.4} m", value),
         Dimension::Volume => format!("{:.4} L", value * 1e3),
+        Dimension::Damping => format!("{value:.4} N·s/m"),
         _ => format!("{:.3} bar abs", value / 1e5),
     }
 }
@@ -184,6 +191,16 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     for w in ripline::diagnostics::circuit_warnings(circuit, top) {
         eprintln!("warning: {w}");
     }
+    let work = settings.budget() * conditions.len() * temperatures_k.len().max(1);
+    if work > MAX_TUNE_WORK {
+        return Err(UsageError(format!(
+            "{} evaluations × {} speeds × {} temperatures is {work} ripple evaluations, more than {MAX_TUNE_WORK}: use fewer --samples, --speeds or --temperature-steps",
+            settings.budget(),
+            conditions.len(),
+            temperatures_k.len().max(1)
+        ))
+        .into());
+    }
     let progress = Progress::new(settings.budget(), "searching");
     let result = problem
         .solve(settings, &mut |n| progress.set(n))
@@ -215,14 +232,7 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
             .iter()
             .map(without_in)
             .collect::<Option<Vec<_>>>()
-            .map(|all| {
-                let per_condition_pa: Vec<f64> =
-                    all.into_iter().flat_map(|s| s.per_condition_pa).collect();
-                RippleSummary {
-                    objective_pa: objective.over(&per_condition_pa),
-                    per_condition_pa,
-                }
-            })
+            .map(|all| RippleSummary::combine(objective, all))
     };
 
     let e = &circuit.elements[element];
@@ -252,8 +262,13 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     )?;
     writeln!(
         out,
-        "speeds: {} (log-spaced, ends included); speed range {}",
+        "speeds: {} (log-spaced, ends included{}); speed range {}",
         conditions.len(),
+        if objective == Objective::Worst && conditions.len() > 1 {
+            ", every resonance crossing between them refined to 0.01 dB"
+        } else {
+            ""
+        },
         speeds.source
     )?;
     if !temperatures_k.is_empty() {
@@ -269,7 +284,7 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     }
     writeln!(
         out,
-        "search: {} in log scale over the bounds, then {}; {} ripple evaluations of {} network solves each",
+        "search: {} in log scale over the bounds, then {}; {} ripple evaluations of {} network solves each on the speed grid",
         if problem.bounds.len() == 1 {
             format!("an even grid of {} values", settings.global_points)
         } else {
@@ -343,25 +358,21 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
             20.0 * (w.objective_pa / result.after.objective_pa).log10()
         )?;
     }
-    if result.after.per_condition_pa.len() > 1 {
-        let (i, worst) = result
-            .after
-            .per_condition_pa
-            .iter()
-            .enumerate()
-            .fold((0, 0.0), |b, (i, &v)| if v > b.1 { (i, v) } else { b });
-        let speed = conditions[i % conditions.len()].speed_rev_s * 60.0;
-        match temperatures_k.get(i / conditions.len()) {
+    if let Some((state, speed)) = result.after.worst
+        && (!speeds.is_single() || !temperatures_k.is_empty())
+    {
+        let speed = speed * 60.0;
+        match temperatures_k.get(state) {
             Some(t) => writeln!(
                 out,
                 "  tuned, worst condition: {speed:.0} rpm at {:.1} °C with {}",
                 t - 273.15,
-                level(worst)
+                level(result.after.objective_pa)
             )?,
             None => writeln!(
                 out,
                 "  tuned, worst speed: {speed:.0} rpm with {}",
-                level(worst)
+                level(result.after.objective_pa)
             )?,
         }
     }
@@ -396,7 +407,7 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
             .collect::<Vec<_>>()
             .join(", ")
     )?;
-    if matches!(e.kind, ElementKind::Damper(_)) {
+    if e.kind.is_pressure_vessel() {
         writeln!(out)?;
         writeln!(out, "{PRESSURE_VESSEL_CAUTION}")?;
     }
@@ -452,6 +463,7 @@ fn file_value(parameter: Parameter, value: f64) -> String {
     match parameter.dimension() {
         Dimension::Length => format!("{:.1} mm", value * 1e3),
         Dimension::Volume => format!("{:.3} L", value * 1e3),
+        Dimension::Damping => format!("{value:.3} N·s/m"),
         _ => format!("{:.2} bar abs", value / 1e5),
     }
 }

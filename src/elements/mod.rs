@@ -13,21 +13,29 @@
 //! [`ElementKind::connection_kind`], then teach the circuit file
 //! (`io::circuit_file`) to build it.
 
+mod actuators;
 mod ends;
 mod hose;
+mod inline;
 mod lumped;
 mod silencers;
 mod tube;
+mod valves;
 
+pub use actuators::{Cylinder, CylinderPorts};
 pub use ends::Anechoic;
-pub use hose::Hose;
+pub use hose::{Hose, HosePressure};
+pub use inline::{ChamberPorts, InlineDamper, Rung, cascade, ladder_admittance, shunt_transfer};
 pub use lumped::{Inertance, LoadValve, Orifice, Volume, orifice_resistance};
 pub use silencers::{
-    DamperError, ExpansionChamber, FLANGED_END_CORRECTION, HelmholtzResonator,
-    PRESSURE_VESSEL_CAUTION, PulsationDamper, STANDARD_ATMOSPHERE_PA, SideBranch,
-    loaded_line_admittance, rigid_neck, tanh_gamma_l,
+    ExpansionChamber, FLANGED_END_CORRECTION, HelmholtzResonator, PRESSURE_VESSEL_CAUTION,
+    PulsationDamper, STANDARD_ATMOSPHERE_PA, SideBranch, loaded_line_admittance, rigid_neck,
+    tanh_gamma_l,
 };
 pub use tube::{Tube, line_behaviour};
+pub use valves::{
+    CheckState, CheckValve, Poppet, PoppetData, ReliefValve, ValveError, ValveOperatingPoint,
+};
 
 use crate::line::{Admittance2, Line, LineProperties, Propagation, Transfer2};
 use num_complex::Complex64 as C64;
@@ -112,6 +120,14 @@ pub enum ElementKind {
     Helmholtz(HelmholtzResonator),
     /// A gas-charged pulsation damper teed off a node.
     Damper(PulsationDamper),
+    /// A direct-acting relief valve (to tank or between two nodes).
+    ReliefValve(ReliefValve),
+    /// A spring-loaded check valve.
+    CheckValve(CheckValve),
+    /// A hydraulic cylinder with its load (a shunt or a two-port).
+    Cylinder(Cylinder),
+    /// An in-line (flow-through) gas-charged pulsation damper.
+    InlineDamper(InlineDamper),
 }
 
 impl ElementKind {
@@ -131,6 +147,10 @@ impl ElementKind {
             ElementKind::Helmholtz(_) => "helmholtz_resonator",
             ElementKind::Damper(_) => "pulsation_damper",
             ElementKind::Hose(_) => "hose",
+            ElementKind::ReliefValve(_) => "relief_valve",
+            ElementKind::CheckValve(_) => "check_valve",
+            ElementKind::Cylinder(_) => "cylinder",
+            ElementKind::InlineDamper(_) => "inline_pulsation_damper",
         }
     }
 
@@ -158,9 +178,16 @@ impl ElementKind {
         match self {
             ElementKind::Tube(t) if t.needs_branch_flows() => ConnectionKind::TransferTwoPort,
             ElementKind::Hose(h) if h.needs_branch_flows() => ConnectionKind::TransferTwoPort,
-            ElementKind::ExpansionChamber(c) if c.tube.needs_branch_flows() => {
+            ElementKind::ExpansionChamber(c) if c.needs_branch_flows() => {
                 ConnectionKind::TransferTwoPort
             }
+            ElementKind::InlineDamper(d) if d.is_lossless() => ConnectionKind::TransferTwoPort,
+            ElementKind::ReliefValve(v) if !v.in_line => ConnectionKind::Shunt,
+            ElementKind::Cylinder(c) if c.ports != CylinderPorts::Both => ConnectionKind::Shunt,
+            ElementKind::ReliefValve(_)
+            | ElementKind::CheckValve(_)
+            | ElementKind::Cylinder(_)
+            | ElementKind::InlineDamper(_) => ConnectionKind::AdmittanceTwoPort,
             ElementKind::SideBranch(_) | ElementKind::Helmholtz(_) | ElementKind::Damper(_) => {
                 ConnectionKind::Shunt
             }
@@ -190,6 +217,7 @@ impl ElementKind {
             ElementKind::ExpansionChamber(c) => Some(&c.tube.line.properties),
             ElementKind::Helmholtz(h) => Some(&h.neck),
             ElementKind::Damper(d) => Some(&d.neck),
+            ElementKind::InlineDamper(d) => Some(&d.vessel.neck),
             _ => None,
         }
     }
@@ -219,10 +247,21 @@ impl ElementKind {
             ElementKind::Anechoic(a) => Behaviour::Shunt(a.admittance(line())),
             ElementKind::ClosedEnd | ElementKind::Tank => Behaviour::Nothing,
             ElementKind::SideBranch(s) => Behaviour::Shunt(s.admittance(line())),
-            ElementKind::ExpansionChamber(c) => c.behaviour(line()),
+            ElementKind::ExpansionChamber(c) => c.behaviour(omega, line()),
             ElementKind::Helmholtz(h) => Behaviour::Shunt(h.admittance(omega, line())),
             ElementKind::Damper(d) => Behaviour::Shunt(d.admittance(omega, line())),
+            ElementKind::ReliefValve(v) => v.behaviour(omega),
+            ElementKind::CheckValve(v) => v.behaviour(omega),
+            ElementKind::Cylinder(c) => c.behaviour(omega),
+            ElementKind::InlineDamper(d) => d.behaviour(omega, line()),
         }
+    }
+
+    /// Whether the element is a gas-charged pressure vessel (a pulsation
+    /// damper, teed off or in-line): reports that show it print
+    /// [`PRESSURE_VESSEL_CAUTION`].
+    pub fn is_pressure_vessel(&self) -> bool {
+        matches!(self, ElementKind::Damper(_) | ElementKind::InlineDamper(_))
     }
 }
 

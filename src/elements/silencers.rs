@@ -15,7 +15,7 @@
 //! Y_in = (tanh(Γl)/Zc + Y_L) / (1 + Zc Y_L tanh(Γl)); tanh(Γl) is taken as
 //! (1 − E²)/(1 + E²) with E = e^{−Γl}, which never overflows.
 
-use super::{Behaviour, Tube};
+use super::{Behaviour, ChamberPorts, Tube};
 use crate::line::{LineProperties, Propagation};
 use num_complex::Complex64 as C64;
 use std::f64::consts::PI;
@@ -83,16 +83,36 @@ impl SideBranch {
 /// NACA Report 1192, 1954; Munjal 2014, §3), largest at kl = (2n − 1)π/2.
 /// It holds below the chamber's first cut-on frequency
 /// ([`crate::diagnostics::plane_wave_limit_hz`]).
+///
+/// With `ports` its inlet and outlet pipes, and pipes extended into the
+/// shell, are part of the element ([`ChamberPorts`]).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ExpansionChamber {
-    /// The chamber as a tube.
+    /// The chamber (its shell) as a tube.
     pub tube: Tube,
+    /// The inlet and outlet geometry, when given.
+    pub ports: Option<ChamberPorts>,
 }
 
 impl ExpansionChamber {
-    /// The chamber's two-port (as a tube).
-    pub fn behaviour(&self, prop: &Propagation) -> Behaviour {
-        self.tube.behaviour(prop)
+    /// The chamber's two-port at ω given the shell's propagation: the tube,
+    /// or the chain through its ports.
+    pub fn behaviour(&self, omega: f64, prop: &Propagation) -> Behaviour {
+        match &self.ports {
+            None => self.tube.behaviour(prop),
+            Some(p) if self.needs_branch_flows() => {
+                Behaviour::Transfer(p.transfer(omega, &self.tube, prop))
+            }
+            Some(p) => p
+                .admittance(omega, &self.tube, prop)
+                .map_or(Behaviour::Nothing, Behaviour::Admittance),
+        }
+    }
+
+    /// Whether the network gives it branch-flow unknowns (a lossless
+    /// shell, whose ports share its friction model).
+    pub fn needs_branch_flows(&self) -> bool {
+        self.tube.needs_branch_flows()
     }
 
     /// Lossless frequency of the first transmission-loss maximum, c0/(4l).
@@ -170,23 +190,6 @@ impl HelmholtzResonator {
     }
 }
 
-/// Why a pulsation damper's data are inconsistent.
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
-#[non_exhaustive]
-pub enum DamperError {
-    /// The operating pressure is below the precharge: the separator (bladder
-    /// or diaphragm) sits on its seat and the gas takes no part.
-    #[error(
-        "the operating pressure {operating_bar:.2} bar abs is below the precharge {precharge_bar:.2} bar abs: the gas side would stay closed off and the damper would not work; raise the operating pressure or lower the precharge"
-    )]
-    OperatingBelowPrecharge {
-        /// Precharge in bar (absolute).
-        precharge_bar: f64,
-        /// Operating pressure in bar (absolute).
-        operating_bar: f64,
-    },
-}
-
 /// A gas-charged pulsation damper (a bladder or diaphragm vessel) teed off
 /// the line through a neck.
 ///
@@ -195,10 +198,18 @@ pub enum DamperError {
 /// precharge temperature: Boyle's law), the gas occupies V_g = V0·p0/p_m and
 /// the rest of the vessel, V0 − V_g, fills with oil. Ripple compresses the
 /// gas polytropically, p V^κ = const, so its compliance is
-/// C_g = V_g/(κ p_m); the oil adds C_oil = (V0 − V_g)/B (methods.md §4).
+/// C_g = V_g/(κ p_m); the oil adds C_oil = (V0 − V_g)/B (methods-2.md §2).
 /// The neck is a rigid line (length l, bore d, laminar friction by default)
 /// ended by C = C_g + C_oil; lumped it resonates at f_r = 1/(2π√(L_n C)),
 /// L_n = ρl/A. Above f_r the damper shunts the ripple to its gas.
+///
+/// **Bottomed.** Below the precharge (p_m < p0) the separator rests on the
+/// shell's oil port (the bladder on its poppet valve): the gas stays at V0
+/// and p0, out of the circuit, and the vessel holds no oil. What the circuit
+/// still sees is the oil port, the neck, closed at its inner end: a short
+/// closed side branch (common practice; methods-2.md §2). The damper then
+/// does almost nothing, which is a real state of a machine whose mean
+/// pressure falls below the precharge (a load-sensing pump at standby).
 ///
 /// No temperature model: the gas is taken at the precharge temperature.
 /// The vessel is lumped, which holds while it is small against the
@@ -225,36 +236,39 @@ pub struct PulsationDamper {
 }
 
 impl PulsationDamper {
-    /// Checks that the operating pressure is not below the precharge.
-    ///
-    /// # Errors
-    /// [`DamperError::OperatingBelowPrecharge`].
-    pub fn validate(&self) -> Result<(), DamperError> {
-        if self.operating_pa < self.precharge_pa {
-            return Err(DamperError::OperatingBelowPrecharge {
-                precharge_bar: self.precharge_pa / 1e5,
-                operating_bar: self.operating_pa / 1e5,
-            });
-        }
-        Ok(())
+    /// Whether the mean operating pressure is below the precharge, so that
+    /// the separator rests on the oil port and the gas is out of the circuit.
+    pub fn is_bottomed(&self) -> bool {
+        self.operating_pa < self.precharge_pa
     }
 
-    /// Gas volume at the operating pressure, V_g = V0·p0/p_m, in m³.
+    /// Gas volume in the circuit at the operating pressure, V_g = V0·p0/p_m
+    /// (Boyle's law), in m³; zero when the damper is bottomed.
     pub fn gas_volume_at_operating_m3(&self) -> f64 {
-        self.gas_volume_m3 * self.precharge_pa / self.operating_pa
+        if self.is_bottomed() {
+            0.0
+        } else {
+            self.gas_volume_m3 * self.precharge_pa / self.operating_pa
+        }
     }
 
-    /// Oil in the vessel at the operating pressure, V0 − V_g, in m³.
+    /// Oil in the vessel at the operating pressure, V0 − V_g, in m³; zero
+    /// when the damper is bottomed.
     pub fn oil_volume_m3(&self) -> f64 {
-        self.gas_volume_m3 - self.gas_volume_at_operating_m3()
+        if self.is_bottomed() {
+            0.0
+        } else {
+            self.gas_volume_m3 - self.gas_volume_at_operating_m3()
+        }
     }
 
-    /// Gas compliance C_g = V_g/(κ p_m) in m³/Pa.
+    /// Gas compliance C_g = V_g/(κ p_m) in m³/Pa (zero when bottomed).
     pub fn gas_compliance(&self) -> f64 {
         self.gas_volume_at_operating_m3() / (self.polytropic_index * self.operating_pa)
     }
 
-    /// Total compliance of the vessel, C_g + (V0 − V_g)/B, in m³/Pa.
+    /// Total compliance of the vessel, C_g + (V0 − V_g)/B, in m³/Pa (zero
+    /// when bottomed: the neck is then closed at its inner end).
     pub fn compliance(&self) -> f64 {
         self.gas_compliance() + self.oil_volume_m3() / self.bulk_modulus_pa
     }
@@ -264,18 +278,21 @@ impl PulsationDamper {
         self.neck.density_kg_m3 * self.neck_length_m / self.neck.area_m2()
     }
 
-    /// Lumped resonance f_r = 1/(2π√(L_n C)) in Hz, with C the total compliance.
-    pub fn lumped_resonance_hz(&self) -> f64 {
-        1.0 / (2.0 * PI * (self.neck_inertance() * self.compliance()).sqrt())
+    /// Lumped resonance f_r = 1/(2π√(L_n C)) in Hz, with C the total
+    /// compliance; `None` when the damper is bottomed (no compliance).
+    pub fn lumped_resonance_hz(&self) -> Option<f64> {
+        let c = self.compliance();
+        (c > 0.0).then(|| 1.0 / (2.0 * PI * (self.neck_inertance() * c).sqrt()))
     }
 
-    /// Energy stored in the gas at the operating pressure relative to
-    /// atmospheric pressure, for an isothermal expansion from p_m to the
-    /// atmosphere: W = p_m V_g ln(p_m/p_atm), in J. An indication of the
-    /// hazard, not a rating.
+    /// Energy stored in the gas relative to atmospheric pressure, for an
+    /// isothermal expansion from its pressure p to the atmosphere:
+    /// W = p V ln(p/p_atm), in J, with p V = p0 V0 (Boyle's law) and p the
+    /// larger of p_m and p0 (a bottomed damper keeps its precharge). An
+    /// indication of the hazard, not a rating.
     pub fn stored_energy_j(&self) -> f64 {
-        let pm = self.operating_pa;
-        pm * self.gas_volume_at_operating_m3() * (pm / STANDARD_ATMOSPHERE_PA).ln()
+        let p = self.operating_pa.max(self.precharge_pa);
+        self.precharge_pa * self.gas_volume_m3 * (p / STANDARD_ATMOSPHERE_PA).ln()
     }
 
     /// Shunt admittance at the tee: the neck ended by the vessel's compliance.
@@ -314,8 +331,12 @@ mod tests {
     // frequency, the damper's gas volume and resonance and the side branch
     // against published values; these unit tests cover what they do not.
 
+    // Below its precharge the damper is its neck closed at the inner end:
+    // the same admittance as a closed side branch of the neck's length and
+    // bore, tanh(Γl)/Zc (Kinsler et al. 2000, ch. 10, as below).
     #[test]
-    fn damper_refuses_an_operating_pressure_below_the_precharge() {
+    fn a_bottomed_damper_is_its_neck_closed_at_the_end() {
+        let neck = props(0.01, LineModel::Laminar);
         let d = PulsationDamper {
             gas_volume_m3: 1e-3,
             precharge_pa: 60e5,
@@ -323,10 +344,19 @@ mod tests {
             polytropic_index: 1.4,
             bulk_modulus_pa: 1.6e9,
             neck_length_m: 0.1,
-            neck: props(0.01, LineModel::Laminar),
+            neck,
         };
-        let err = d.validate().unwrap_err().to_string();
-        assert!(err.contains("below the precharge 60.00 bar abs"), "{err}");
+        assert!(d.is_bottomed());
+        assert_eq!(d.compliance(), 0.0);
+        assert_eq!(d.lumped_resonance_hz(), None);
+        // the gas keeps its precharge: p0 V0 ln(p0/p_atm)
+        let w = 60e5 * 1e-3 * (60e5 / STANDARD_ATMOSPHERE_PA).ln();
+        assert!((d.stored_energy_j() - w).abs() < 1e-9 * w);
+        for f in [50.0, 400.0, 3000.0] {
+            let prop = neck.propagation(2.0 * PI * f);
+            let closed = tanh_gamma_l(&prop, 0.1) / prop.zc;
+            assert!((d.admittance(2.0 * PI * f, &prop) - closed).norm() <= 1e-12 * closed.norm());
+        }
     }
 
     // A closed lossless tube: Z_in = −jZ0 cot(kl), so Y = j tan(kl)/Z0

@@ -7,6 +7,8 @@
 //! SI; its errors carry the key path, mapped back to a line by
 //! [`super::locate`]. The file format is documented in README.md.
 
+mod components;
+mod envelope;
 mod pumps;
 
 use super::InputError;
@@ -17,7 +19,7 @@ use super::validate::{FileCheck, Res, WallKeys, WallModel};
 use crate::circuit::{Circuit, Node, Tap, TapLocation};
 use crate::elements::{
     Anechoic, Connection, Element, ElementKind, ExpansionChamber, HelmholtzResonator, Hose,
-    Inertance, LoadValve, Orifice, PulsationDamper, SideBranch, Tube, Volume, rigid_neck,
+    Inertance, LoadValve, Orifice, PulsationDamper, SideBranch, Tube, Volume,
 };
 use crate::fluid::Fluid;
 use crate::hose::{
@@ -51,6 +53,8 @@ struct RawCircuit {
     elements: Vec<RawElement>,
     #[serde(default)]
     taps: Vec<RawTap>,
+    envelope: Option<envelope::RawEnvelope>,
+    limits: Option<Vec<envelope::RawLimit>>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -97,7 +101,7 @@ impl From<RawLineModel> for LineModel {
     }
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Clone, Deserialize)]
 #[serde(
     deny_unknown_fields,
     expecting = "a Kelvin–Voigt wall: a mapping with instantaneous_modulus and terms"
@@ -108,7 +112,7 @@ struct RawKelvinVoigt {
     terms: Vec<RawRetardation>,
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Clone, Deserialize)]
 #[serde(
     deny_unknown_fields,
     expecting = "a retardation term: a mapping with modulus and time"
@@ -151,9 +155,10 @@ struct RawHarmonic {
     phase: Option<Q<q::Angle>>,
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize)]
 #[serde(rename_all = "snake_case")]
 enum RawKind {
+    #[default]
     Tube,
     Volume,
     Orifice,
@@ -167,9 +172,14 @@ enum RawKind {
     ExpansionChamber,
     HelmholtzResonator,
     PulsationDamper,
+    ReliefValve,
+    CheckValve,
+    Cylinder,
+    InlinePulsationDamper,
+    ValveBlock,
 }
 
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Clone, Default, Deserialize)]
 #[serde(
     deny_unknown_fields,
     expecting = "an element: a mapping with name, kind and the kind's keys"
@@ -207,6 +217,37 @@ struct RawElement {
     precharge: Option<GasPressure>,
     operating_pressure: Option<GasPressure>,
     polytropic_index: Option<f64>,
+    // valves, cylinders, in-line silencers, valve blocks, hoses against
+    // pressure (circuit_file/components.rs)
+    cracking_pressure: Option<Q<q::Pressure>>,
+    full_open_pressure: Option<Q<q::Pressure>>,
+    mass: Option<Q<q::Mass>>,
+    spring_rate: Option<Q<q::Stiffness>>,
+    damping: Option<Q<q::Damping>>,
+    damping_area: Option<Q<q::Area>>,
+    damping_resistance: Option<Q<q::Resistance>>,
+    feedback_area: Option<Q<q::Area>>,
+    jet_angle: Option<Q<q::Angle>>,
+    flow_gain: Option<Q<q::FlowGain>>,
+    flow_pressure_coefficient: Option<Q<q::FlowPressureCoefficient>>,
+    rod_diameter: Option<Q<q::Length>>,
+    stroke: Option<Q<q::Length>>,
+    position: Option<Q<q::Length>>,
+    dead_volume: Option<Q<q::Volume>>,
+    load_mass: Option<Q<q::Mass>>,
+    load_stiffness: Option<Q<q::Stiffness>>,
+    load_damping: Option<Q<q::Damping>>,
+    friction: Option<Q<q::Damping>>,
+    port: Option<components::RawCylinderPort>,
+    oil_volume: Option<Q<q::Volume>>,
+    port_length: Option<Q<q::Length>>,
+    port_bore: Option<Q<q::Length>>,
+    inlet_extension: Option<Q<q::Length>>,
+    outlet_extension: Option<Q<q::Length>>,
+    wave_speeds: Option<Vec<components::RawHosePoint>>,
+    ports: Option<components::RawPorts>,
+    galleries: Option<Vec<components::RawGallery>>,
+    cavities: Option<Vec<components::RawCavity>>,
 }
 
 impl RawElement {
@@ -248,7 +289,47 @@ impl RawElement {
         add("precharge", self.precharge.is_some());
         add("operating_pressure", self.operating_pressure.is_some());
         add("polytropic_index", self.polytropic_index.is_some());
+        add("cracking_pressure", self.cracking_pressure.is_some());
+        add("full_open_pressure", self.full_open_pressure.is_some());
+        add("mass", self.mass.is_some());
+        add("spring_rate", self.spring_rate.is_some());
+        add("damping", self.damping.is_some());
+        add("damping_area", self.damping_area.is_some());
+        add("damping_resistance", self.damping_resistance.is_some());
+        add("feedback_area", self.feedback_area.is_some());
+        add("jet_angle", self.jet_angle.is_some());
+        add("flow_gain", self.flow_gain.is_some());
+        add(
+            "flow_pressure_coefficient",
+            self.flow_pressure_coefficient.is_some(),
+        );
+        add("rod_diameter", self.rod_diameter.is_some());
+        add("stroke", self.stroke.is_some());
+        add("position", self.position.is_some());
+        add("dead_volume", self.dead_volume.is_some());
+        add("load_mass", self.load_mass.is_some());
+        add("load_stiffness", self.load_stiffness.is_some());
+        add("load_damping", self.load_damping.is_some());
+        add("friction", self.friction.is_some());
+        add("port", self.port.is_some());
+        add("oil_volume", self.oil_volume.is_some());
+        add("port_length", self.port_length.is_some());
+        add("port_bore", self.port_bore.is_some());
+        add("inlet_extension", self.inlet_extension.is_some());
+        add("outlet_extension", self.outlet_extension.is_some());
+        add("wave_speeds", self.wave_speeds.is_some());
+        add("ports", self.ports.is_some());
+        add("galleries", self.galleries.is_some());
+        add("cavities", self.cavities.is_some());
         keys
+    }
+
+    /// Whether it connects `from` one node `to` another: two-port kinds,
+    /// and the kinds that may be either (relief valve, cylinder) when not
+    /// given `at`.
+    fn is_two_port(&self) -> bool {
+        self.kind.is_two_port()
+            || (matches!(self.kind, RawKind::ReliefValve | RawKind::Cylinder) && self.at.is_none())
     }
 }
 
@@ -268,6 +349,11 @@ impl RawKind {
             RawKind::ExpansionChamber => "expansion_chamber",
             RawKind::HelmholtzResonator => "helmholtz_resonator",
             RawKind::PulsationDamper => "pulsation_damper",
+            RawKind::ReliefValve => "relief_valve",
+            RawKind::CheckValve => "check_valve",
+            RawKind::Cylinder => "cylinder",
+            RawKind::InlinePulsationDamper => "inline_pulsation_damper",
+            RawKind::ValveBlock => "valve_block",
         }
     }
 
@@ -300,6 +386,7 @@ impl RawKind {
                 "reference_frequency",
                 "kelvin_voigt",
                 "mean_flow",
+                "wave_speeds",
             ],
             RawKind::Volume => &["at", "volume"],
             RawKind::Orifice => &["from", "to", "resistance", "mean_flow", "pressure_drop"],
@@ -319,6 +406,10 @@ impl RawKind {
                 "model",
                 "wall_model",
                 "poisson_ratio",
+                "port_length",
+                "port_bore",
+                "inlet_extension",
+                "outlet_extension",
             ],
             RawKind::SideBranch => &[
                 "at",
@@ -350,6 +441,68 @@ impl RawKind {
                 "neck_bore",
                 "model",
             ],
+            RawKind::ReliefValve => &[
+                "at",
+                "from",
+                "to",
+                "cracking_pressure",
+                "mean_flow",
+                "pressure_drop",
+                "mass",
+                "spring_rate",
+                "damping",
+                "damping_area",
+                "damping_resistance",
+                "feedback_area",
+                "jet_angle",
+                "flow_gain",
+                "flow_pressure_coefficient",
+            ],
+            RawKind::CheckValve => &[
+                "from",
+                "to",
+                "cracking_pressure",
+                "full_open_pressure",
+                "mean_flow",
+                "pressure_drop",
+                "mass",
+                "spring_rate",
+                "damping",
+                "damping_area",
+                "damping_resistance",
+                "feedback_area",
+                "jet_angle",
+                "flow_gain",
+                "flow_pressure_coefficient",
+            ],
+            RawKind::Cylinder => &[
+                "at",
+                "from",
+                "to",
+                "port",
+                "bore",
+                "rod_diameter",
+                "stroke",
+                "position",
+                "dead_volume",
+                "load_mass",
+                "load_stiffness",
+                "load_damping",
+                "friction",
+            ],
+            RawKind::InlinePulsationDamper => &[
+                "from",
+                "to",
+                "gas_volume",
+                "precharge",
+                "operating_pressure",
+                "polytropic_index",
+                "oil_volume",
+                "port_length",
+                "port_bore",
+                "model",
+            ],
+            RawKind::ValveBlock => &["ports", "galleries", "cavities"],
         }
     }
 
@@ -361,6 +514,8 @@ impl RawKind {
                 | RawKind::Orifice
                 | RawKind::Inertance
                 | RawKind::ExpansionChamber
+                | RawKind::CheckValve
+                | RawKind::InlinePulsationDamper
         )
     }
 }
@@ -392,8 +547,13 @@ pub fn load_circuit(path: &Path) -> Result<Circuit, InputError> {
 /// [`InputError`] naming the file, the line and the key at fault.
 pub fn parse_circuit(text: &str, file: &str) -> Result<Circuit, InputError> {
     let raw: RawCircuit = super::parse_yaml(text, file)?;
-    Checker(FileCheck { text, file }).circuit(raw)
+    Checker(FileCheck { text, file }).circuit(&raw)
 }
+
+pub use envelope::{
+    CircuitFile, MAX_CASES, MAX_LEVELS, MAX_POINTS, load_circuit_file, parse_circuit_at,
+    parse_circuit_file,
+};
 
 /// Parses circuit text as [`parse_circuit`] does, with the oil at another
 /// temperature (K): the fluid's temperature-dependent properties (density,
@@ -409,17 +569,11 @@ pub fn parse_circuit_at_temperature(
     file: &str,
     temperature_k: f64,
 ) -> Result<Circuit, InputError> {
-    let mut raw: RawCircuit = super::parse_yaml(text, file)?;
-    if raw.fluid.grade.is_none() && raw.fluid.viscosity_points.is_none() {
-        return Err(InputError::located(
-            file,
-            text,
-            &KeyPath::root().key("fluid"),
-            "the fluid has no temperature model: give a `grade` (or `viscosity_points`) with a `temperature` to evaluate the circuit at other temperatures",
-        ));
-    }
-    raw.fluid.temperature = Some(Q::new(temperature_k));
-    Checker(FileCheck { text, file }).circuit(raw)
+    let point = crate::envelope::OperatingPoint {
+        temperature_k: Some(temperature_k),
+        ..Default::default()
+    };
+    parse_circuit_at(text, file, &point)
 }
 
 /// The explicit fluid values of a circuit text that do not follow the oil's
@@ -452,7 +606,7 @@ impl<'a> std::ops::Deref for Checker<'a> {
 }
 
 impl Checker<'_> {
-    fn circuit(&self, raw: RawCircuit) -> Res<Circuit> {
+    fn circuit(&self, raw: &RawCircuit) -> Res<Circuit> {
         let root = KeyPath::root();
         let fluid = self.fluid(&root.key("fluid"), &raw.fluid)?;
         let line_model = raw.line_model.map_or(LineModel::Laminar, LineModel::from);
@@ -472,6 +626,10 @@ impl Checker<'_> {
                 "the circuit has no `elements`: add at least one tube or other element",
             ));
         }
+        // Valve blocks become their galleries and cavities; `element_paths` locates
+        // each element in the file.
+        let mean_pressure = raw.fluid.pressure.map(|p| p.si);
+        let (raws, element_paths) = self.expand_valve_blocks(&root, &raw.elements)?;
 
         // Nodes, in order of first mention by an element.
         let mut nodes: Vec<Node> = Vec::new();
@@ -488,9 +646,8 @@ impl Checker<'_> {
         };
 
         let mut names = HashSet::new();
-        let mut connections = Vec::with_capacity(raw.elements.len());
-        for (i, e) in raw.elements.iter().enumerate() {
-            let path = root.key("elements").index(i);
+        let mut connections = Vec::with_capacity(raws.len());
+        for (e, path) in raws.iter().zip(&element_paths) {
             if e.name.trim().is_empty() {
                 return Err(self.err(&path.key("name"), "an element name must not be empty"));
             }
@@ -512,9 +669,10 @@ impl Checker<'_> {
                     ));
                 }
             }
-            let connection = if e.kind.is_two_port() {
-                let from = self.node_name(&path, "from", e.from.as_deref(), e.kind)?;
-                let to = self.node_name(&path, "to", e.to.as_deref(), e.kind)?;
+            self.either_way(path, e)?;
+            let connection = if e.is_two_port() {
+                let from = self.node_name(path, "from", e.from.as_deref(), e.kind)?;
+                let to = self.node_name(path, "to", e.to.as_deref(), e.kind)?;
                 if from == to {
                     return Err(self.err(
                         &path.key("to"),
@@ -526,19 +684,25 @@ impl Checker<'_> {
                     b: node_id(to),
                 }
             } else {
-                let at = self.node_name(&path, "at", e.at.as_deref(), e.kind)?;
+                let at = self.node_name(path, "at", e.at.as_deref(), e.kind)?;
                 Connection::Shunt { at: node_id(at) }
             };
             connections.push(connection);
         }
 
         // Element models; anechoic ends match a tube, so they are built last.
-        let mut kinds: Vec<Option<ElementKind>> = Vec::with_capacity(raw.elements.len());
-        for (i, e) in raw.elements.iter().enumerate() {
-            let path = root.key("elements").index(i);
+        let mut kinds: Vec<Option<ElementKind>> = Vec::with_capacity(raws.len());
+        for (e, path) in raws.iter().zip(&element_paths) {
+            let path = path.clone();
             kinds.push(match e.kind {
                 RawKind::Tube => Some(ElementKind::Tube(self.tube(&path, e, &fluid, line_model)?)),
-                RawKind::Hose => Some(ElementKind::Hose(self.hose(&path, e, &fluid, line_model)?)),
+                RawKind::Hose => Some(ElementKind::Hose(self.hose(
+                    &path,
+                    e,
+                    &fluid,
+                    line_model,
+                    mean_pressure,
+                )?)),
                 RawKind::Volume => Some(ElementKind::Volume(Volume {
                     volume_m3: self.in_range(
                         &path.key("volume"),
@@ -564,28 +728,46 @@ impl Checker<'_> {
                     tube: self.tube(&path, e, &fluid, line_model)?,
                 })),
                 RawKind::ExpansionChamber => {
+                    let tube = self.tube(&path, e, &fluid, line_model)?;
+                    let ports = self.chamber_ports(&path, e, &fluid, line_model, &tube)?;
                     Some(ElementKind::ExpansionChamber(ExpansionChamber {
-                        tube: self.tube(&path, e, &fluid, line_model)?,
+                        tube,
+                        ports,
                     }))
                 }
                 RawKind::HelmholtzResonator => Some(ElementKind::Helmholtz(
                     self.helmholtz(&path, e, &fluid, line_model)?,
                 )),
-                RawKind::PulsationDamper => Some(ElementKind::Damper(
-                    self.damper(&path, e, &fluid, line_model)?,
+                RawKind::PulsationDamper => Some(ElementKind::Damper(self.damper(
+                    &path,
+                    e,
+                    &fluid,
+                    mean_pressure,
+                    line_model,
+                )?)),
+                RawKind::ReliefValve => Some(ElementKind::ReliefValve(
+                    self.relief_valve(&path, e, &fluid)?,
                 )),
+                RawKind::CheckValve => {
+                    Some(ElementKind::CheckValve(self.check_valve(&path, e, &fluid)?))
+                }
+                RawKind::Cylinder => Some(ElementKind::Cylinder(self.cylinder(&path, e, &fluid)?)),
+                RawKind::InlinePulsationDamper => Some(ElementKind::InlineDamper(
+                    self.inline_damper(&path, e, &fluid, mean_pressure, line_model)?,
+                )),
+                RawKind::ValveBlock => {
+                    return Err(self.err(&path, "a valve block inside a valve block"));
+                }
                 RawKind::AnechoicEnd => None,
             });
         }
-        for i in 0..raw.elements.len() {
+        for i in 0..raws.len() {
             if kinds[i].is_none() {
-                let path = root.key("elements").index(i);
-                let line = self.anechoic_line(&path, &raw.elements[i], &raw.elements, &kinds)?;
+                let line = self.anechoic_line(&element_paths[i], &raws[i], &raws, &kinds)?;
                 kinds[i] = Some(ElementKind::Anechoic(Anechoic { line }));
             }
         }
-        let elements: Vec<Element> = raw
-            .elements
+        let elements: Vec<Element> = raws
             .iter()
             .zip(kinds)
             .zip(&connections)
@@ -595,7 +777,7 @@ impl Checker<'_> {
                 connection,
             })
             .collect();
-        self.check_node_conditions(&root, &raw.elements, &connections, &nodes)?;
+        self.check_node_conditions(&element_paths, &raws, &connections, &nodes)?;
 
         let mut circuit = Circuit {
             title: raw.title.clone(),
@@ -655,7 +837,7 @@ impl Checker<'_> {
             let path = match &e {
                 crate::network::NetworkError::Disconnected { element } => circuit
                     .element_id(element)
-                    .map_or(root.clone(), |i| root.key("elements").index(i)),
+                    .map_or(root.clone(), |i| element_paths[i].clone()),
                 crate::network::NetworkError::PumpIntoTank { pump, .. } => circuit
                     .pumps
                     .iter()
@@ -665,6 +847,7 @@ impl Checker<'_> {
             };
             self.err(&path, e.to_string())
         })?;
+        self.envelope_sections(raw, &circuit)?;
         Ok(circuit)
     }
 
@@ -959,14 +1142,22 @@ impl Checker<'_> {
         })
     }
 
-    fn hose(&self, path: &KeyPath, e: &RawElement, fluid: &Fluid, default: LineModel) -> Res<Hose> {
+    fn hose(
+        &self,
+        path: &KeyPath,
+        e: &RawElement,
+        fluid: &Fluid,
+        default: LineModel,
+        mean_pressure: Option<f64>,
+    ) -> Res<Hose> {
         let (length, bore) = self.line_geometry(path, e)?;
         let given = [
             e.construction.is_some(),
             e.wave_speed.is_some(),
             e.kelvin_voigt.is_some(),
+            e.wave_speeds.is_some(),
         ];
-        let ways = "`construction` (one of: textile_braid, one_wire_braid, two_wire_braid, spiral), or `wave_speed` with `loss_factor` (at `reference_frequency`, default 200 Hz), or `kelvin_voigt`";
+        let ways = "`construction` (one of: textile_braid, one_wire_braid, two_wire_braid, spiral), or `wave_speed` with `loss_factor` (at `reference_frequency`, default 200 Hz), or `wave_speeds` at several mean pressures, or `kelvin_voigt`";
         match given.iter().filter(|&&g| g).count() {
             0 => {
                 return Err(self.err(path, format!("a `hose` needs its wall: give {ways}")));
@@ -982,7 +1173,10 @@ impl Checker<'_> {
         if e.wave_speed.is_none() {
             for (key, present) in [
                 ("loss_factor", e.loss_factor.is_some()),
-                ("reference_frequency", e.reference_frequency.is_some()),
+                (
+                    "reference_frequency",
+                    e.reference_frequency.is_some() && e.wave_speeds.is_none(),
+                ),
             ] {
                 if present {
                     return Err(self.err(&path.key(key), format!("`{key}` goes with `wave_speed`")));
@@ -990,7 +1184,18 @@ impl Checker<'_> {
             }
         }
         let mut construction = None;
-        let wall = if let Some(name) = &e.construction {
+        let mut pressure = None;
+        let wall = if let Some(points) = &e.wave_speeds {
+            let f_ref = match e.reference_frequency {
+                Some(f) => {
+                    Some(self.in_range(&path.key("reference_frequency"), f.si, 1.0, 1e4, "Hz")?)
+                }
+                None => None,
+            };
+            let (wall, p) = self.pressure_wall(path, points, fluid, mean_pressure, f_ref)?;
+            pressure = Some(p);
+            wall
+        } else if let Some(name) = &e.construction {
             let c = HoseConstruction::from_name(name).ok_or_else(|| {
                 self.err(
                     &path.key("construction"),
@@ -1081,6 +1286,7 @@ impl Checker<'_> {
                 length_m: length,
             },
             construction,
+            pressure,
         })
     }
 
@@ -1096,16 +1302,7 @@ impl Checker<'_> {
         let length =
             self.required_in(path, "neck_length", e.neck_length, e.kind, 1e-4, 10.0, "m")?;
         let bore = self.required_in(path, "neck_bore", e.neck_bore, e.kind, 1e-4, 0.5, "m")?;
-        let like = LineProperties {
-            radius_m: bore / 2.0,
-            density_kg_m3: fluid.density_kg_m3,
-            kinematic_viscosity_m2_s: fluid.kinematic_viscosity_m2_s,
-            effective_bulk_modulus_pa: fluid.bulk_modulus_pa,
-            model: e.model.map_or(default, LineModel::from),
-            viscoelastic_wall: None,
-            mean_flow: crate::line::MeanFlow::Unknown,
-        };
-        Ok((length, rigid_neck(&like, bore, fluid.bulk_modulus_pa)))
+        Ok((length, components::drilled_passage(bore, e, fluid, default)))
     }
 
     fn helmholtz(
@@ -1126,28 +1323,59 @@ impl Checker<'_> {
         })
     }
 
+    /// A pulsation damper. Its mean operating pressure is its
+    /// `operating_pressure`, or else the fluid's mean `pressure` (gauge),
+    /// which it follows; when both are given they must agree. Below the
+    /// precharge the damper is bottomed ([`PulsationDamper::is_bottomed`];
+    /// `diagnostics` warns).
     fn damper(
         &self,
         path: &KeyPath,
         e: &RawElement,
         fluid: &Fluid,
+        fluid_gauge_pa: Option<f64>,
         default: LineModel,
     ) -> Res<PulsationDamper> {
         let gas_volume =
             self.required_in(path, "gas_volume", e.gas_volume, e.kind, 1e-7, 1.0, "m³")?;
-        let gas = |key: &str, value: Option<GasPressure>| -> Res<f64> {
-            let p = value.ok_or_else(|| {
+        let gas = |key: &str, value: GasPressure| -> Res<f64> {
+            self.in_range(&path.key(key), value.absolute_pa, 1e4, 1e9, "Pa (absolute)")
+        };
+        let precharge = gas(
+            "precharge",
+            e.precharge.ok_or_else(|| {
                 self.err(
                     path,
-                    format!(
-                        "a `pulsation_damper` needs the key `{key}` (a gas pressure such as `60 bar abs` or `59 bar gauge`)"
-                    ),
+                    "a `pulsation_damper` needs the key `precharge` (a gas pressure such as `60 bar abs` or `59 bar gauge`)",
                 )
-            })?;
-            self.in_range(&path.key(key), p.absolute_pa, 1e4, 1e9, "Pa (absolute)")
+            })?,
+        )?;
+        let from_fluid = fluid_gauge_pa.map(|p| p + crate::elements::STANDARD_ATMOSPHERE_PA);
+        let operating = match (e.operating_pressure, from_fluid) {
+            (Some(p), None) => gas("operating_pressure", p)?,
+            (Some(p), Some(f)) => {
+                let p = gas("operating_pressure", p)?;
+                if (p - f).abs() > 1.0 + 1e-6 * f {
+                    return Err(self.err(
+                        &path.key("operating_pressure"),
+                        format!(
+                            "{:.3} bar abs disagrees with the fluid's mean pressure `fluid.pressure`, {:.3} bar abs: remove `operating_pressure` (the damper then follows `fluid.pressure` and the envelope's pressures) or make the two agree",
+                            p / 1e5,
+                            f / 1e5
+                        ),
+                    ));
+                }
+                p
+            }
+            // fluid.pressure is at least -0.9 bar gauge, within the gas range
+            (None, Some(f)) => f,
+            (None, None) => {
+                return Err(self.err(
+                    path,
+                    "a `pulsation_damper` needs its mean operating pressure: give the fluid's mean `pressure` (which it follows), or `operating_pressure` (a gas pressure such as `200 bar gauge`)",
+                ));
+            }
         };
-        let precharge = gas("precharge", e.precharge)?;
-        let operating = gas("operating_pressure", e.operating_pressure)?;
         let kappa = match e.polytropic_index {
             None => 1.4,
             Some(k) if (1.0..=1.67).contains(&k) => k,
@@ -1161,7 +1389,7 @@ impl Checker<'_> {
             }
         };
         let (neck_length_m, neck) = self.neck(path, e, fluid, default)?;
-        let damper = PulsationDamper {
+        Ok(PulsationDamper {
             gas_volume_m3: gas_volume,
             precharge_pa: precharge,
             operating_pa: operating,
@@ -1169,11 +1397,7 @@ impl Checker<'_> {
             bulk_modulus_pa: fluid.bulk_modulus_pa,
             neck_length_m,
             neck,
-        };
-        damper
-            .validate()
-            .map_err(|err| self.err(&path.key("operating_pressure"), err.to_string()))?;
-        Ok(damper)
+        })
     }
 
     /// A resistance given directly, or linearised from a mean operating point.
@@ -1270,7 +1494,7 @@ impl Checker<'_> {
 
     fn check_node_conditions(
         &self,
-        root: &KeyPath,
+        paths: &[KeyPath],
         raws: &[RawElement],
         connections: &[Connection],
         nodes: &[Node],
@@ -1282,7 +1506,7 @@ impl Checker<'_> {
             let has = |k: RawKind| at_node.iter().find(|&&i| raws[i].kind == k).copied();
             if let (Some(_), Some(i)) = (has(RawKind::Tank), has(RawKind::ClosedEnd)) {
                 return Err(self.err(
-                    &root.key("elements").index(i),
+                    &paths[i],
                     format!(
                         "node `{}` cannot be both a tank and a closed end",
                         node.name
@@ -1295,7 +1519,7 @@ impl Checker<'_> {
             if !reached_by_two_port {
                 let i = at_node[0];
                 return Err(self.err(
-                    &root.key("elements").index(i).key("at"),
+                    &paths[i].key("at"),
                     format!(
                         "node `{}` is reached by no tube, hose, orifice or inertance: a `{}` must sit at a node of the line network",
                         node.name,

@@ -46,6 +46,12 @@ dims! {
     Temperature => Temperature,
     Velocity => Velocity,
     Time => Time,
+    Mass => Mass,
+    Area => Area,
+    Stiffness => Stiffness,
+    Damping => Damping,
+    FlowGain => FlowGain,
+    FlowPressureCoefficient => FlowPressureCoefficient,
 }
 
 /// A quantity of dimension `D`, stored in SI.

@@ -38,7 +38,7 @@ struct Table {
 impl Table {
     fn read(path: &Path) -> Result<Self, InputError> {
         let file = path.display().to_string();
-        let text = super::read_text(path)?;
+        let text = super::read_text_capped(path, super::MAX_RECORD_BYTES)?;
         let mut reader = csv::ReaderBuilder::new()
             .has_headers(true)
             .comment(Some(b'#'))
@@ -148,7 +148,30 @@ impl Table {
         }
         Ok(v)
     }
+
+    /// A pressure in Pa: the number times `unit_pa`, within ±[`MAX_RECORD_PA`].
+    fn pressure(&self, row: usize, col: usize, unit_pa: f64) -> Result<f64, InputError> {
+        let v = self.number(row, col)?;
+        let pa = v * unit_pa;
+        if pa.abs() > MAX_RECORD_PA {
+            return Err(located(
+                &self.file,
+                Some(self.rows[row].0),
+                &format!("column `{}`", self.header[col]),
+                format!(
+                    "`{v:e}` × {unit_pa} Pa is outside a plausible pressure (±{:e} Pa, 10 kbar): is the unit right?",
+                    MAX_RECORD_PA
+                ),
+            ));
+        }
+        Ok(pa)
+    }
 }
+
+/// Largest pressure a record may hold, Pa (10 kbar): beyond any hydraulic
+/// system, and small enough that sums of squares of a long record stay
+/// finite.
+pub const MAX_RECORD_PA: f64 = 1e9;
 
 /// Reads a time-series record; values are converted to Pa with `unit_pa`.
 ///
@@ -173,7 +196,7 @@ pub fn read_time_record(
     let mut channels = vec![Vec::with_capacity(n); columns.len()];
     for r in 0..n {
         for (ch, &c) in idx.iter().enumerate() {
-            channels[ch].push(t.number(r, c)? * unit_pa);
+            channels[ch].push(t.pressure(r, c, unit_pa)?);
         }
     }
     let rate = match time_column {
@@ -214,6 +237,16 @@ pub fn read_time_record(
                 }
             }
             let rate = 1.0 / dt;
+            if !(10.0..=1e7).contains(&rate) {
+                return Err(located(
+                    &t.file,
+                    None,
+                    &format!("column `{name}`"),
+                    format!(
+                        "the time column gives a sample rate of {rate:.3e} Hz (step {dt:.3e} s): it must be between 10 Hz and 10 MHz, as `sample_rate` (is the column in seconds?)"
+                    ),
+                ));
+            }
             if let Some(stated) = sample_rate_hz.filter(|s| (rate - s).abs() > 1e-4 * s) {
                 return Err(located(
                     &t.file,
@@ -293,11 +326,14 @@ pub fn read_spectra(
         let mut pressures = Vec::with_capacity(columns.len());
         let mut uncertainty = Vec::with_capacity(columns.len());
         for i in 0..columns.len() {
-            pressures.push(C64::new(t.number(r, re[i])?, t.number(r, im[i])?) * unit_pa);
+            pressures.push(C64::new(
+                t.pressure(r, re[i], unit_pa)?,
+                t.pressure(r, im[i], unit_pa)?,
+            ));
             uncertainty.push(match u[i] {
                 None => None,
                 Some(c) => {
-                    let v = t.number(r, c)?;
+                    let v = t.pressure(r, c, unit_pa)?;
                     if v < 0.0 {
                         return Err(located(
                             &t.file,
@@ -306,7 +342,7 @@ pub fn read_spectra(
                             "an uncertainty must not be negative".into(),
                         ));
                     }
-                    Some(v * unit_pa)
+                    Some(v)
                 }
             });
         }

@@ -13,12 +13,35 @@ use super::frame::{
     legend_width, palette, text_width, with_title, x_area_height, y_area_width,
 };
 use super::render::{Figure, be, check_size};
-use super::{BarChart, PlotError};
+use super::{BAR_DYNAMIC_RANGE_DB, BarChart, PlotError};
 
 pub(super) struct BarFigure<'a> {
     chart: &'a BarChart,
     /// y range in axis units
     y_range: (f64, f64),
+    scale: Scale,
+}
+
+/// How values map to the value axis.
+#[derive(Clone, Copy)]
+enum Scale {
+    Linear,
+    /// log10 of the value
+    Log,
+    /// 20·log10(v / reference)
+    Decibel(f64),
+}
+
+impl Scale {
+    /// The value in axis units, or `None` for a value that has no bar.
+    fn axis(self, v: f64) -> Option<f64> {
+        match self {
+            Scale::Linear => Some(v),
+            Scale::Log => (v > 0.0).then(|| v.log10()),
+            Scale::Decibel(r) => (v > 0.0).then(|| 20.0 * (v / r).log10()),
+        }
+        .filter(|u| u.is_finite())
+    }
 }
 
 impl<'a> BarFigure<'a> {
@@ -30,6 +53,16 @@ impl<'a> BarFigure<'a> {
         if chart.series.is_empty() {
             return Err(PlotError::NoData("the bar chart has no series".into()));
         }
+        let scale = match chart.db_ref {
+            Some(r) if r.is_finite() && r > 0.0 => Scale::Decibel(r),
+            Some(r) => {
+                return Err(PlotError::InvalidData(format!(
+                    "the decibel reference must be a positive finite number (got {r})"
+                )));
+            }
+            None if chart.log_y => Scale::Log,
+            None => Scale::Linear,
+        };
         let mut ext = Extent(None);
         for (si, s) in chart.series.iter().enumerate() {
             let name = display_name(&s.name, si);
@@ -42,42 +75,53 @@ impl<'a> BarFigure<'a> {
             }
             for (i, &v) in s.values.iter().enumerate() {
                 check_finite(v, &name, i, "value")?;
-                if chart.log_y {
-                    if v > 0.0 {
-                        ext.add(v.log10());
-                    }
-                } else {
-                    ext.add(v);
+                if let Some(u) = scale.axis(v) {
+                    ext.add(u);
                 }
             }
         }
-        let y_range = if chart.log_y {
-            let Some((a, b)) = ext.0 else {
-                return Err(PlotError::NoData(
-                    "no value is above zero, so nothing can be shown on the logarithmic y axis"
-                        .into(),
-                ));
-            };
-            if b - a < 1e-9 {
-                (a - 1.0, b + 0.3)
-            } else {
-                (a - 0.1 * (b - a).max(1.0), b + 0.06 * (b - a))
+        let y_range = match scale {
+            Scale::Linear => {
+                let (a, b) = ext.0.unwrap_or((0.0, 0.0));
+                let (a, b) = (a.min(0.0), b.max(0.0));
+                if a == b {
+                    (0.0, 1.0)
+                } else {
+                    let pad = 0.06 * (b - a);
+                    (
+                        if a < 0.0 { a - pad } else { a },
+                        if b > 0.0 { b + pad } else { b },
+                    )
+                }
             }
-        } else {
-            let (a, b) = ext.0.unwrap_or((0.0, 0.0));
-            let (a, b) = (a.min(0.0), b.max(0.0));
-            if a == b {
-                (0.0, 1.0)
-            } else {
-                let pad = 0.06 * (b - a);
-                (
-                    if a < 0.0 { a - pad } else { a },
-                    if b > 0.0 { b + pad } else { b },
-                )
+            Scale::Log | Scale::Decibel(_) => {
+                let Some((a, b)) = ext.0 else {
+                    return Err(PlotError::NoData(
+                        "no value is above zero, so nothing can be shown on a logarithmic \
+                         or decibel axis"
+                            .into(),
+                    ));
+                };
+                // axis units per decibel
+                let per_db = if matches!(scale, Scale::Log) {
+                    0.05
+                } else {
+                    1.0
+                };
+                let a = a.max(b - BAR_DYNAMIC_RANGE_DB * per_db);
+                if b - a < 1e-9 {
+                    (a - 20.0 * per_db, b + 6.0 * per_db)
+                } else {
+                    (a - 0.1 * (b - a).max(20.0 * per_db), b + 0.06 * (b - a))
+                }
             }
         };
         let y_range = finite_range(y_range, "y")?;
-        Ok(BarFigure { chart, y_range })
+        Ok(BarFigure {
+            chart,
+            y_range,
+            scale,
+        })
     }
 }
 
@@ -93,7 +137,7 @@ impl Figure for BarFigure<'_> {
         let y = Axis::numeric(
             self.y_range.0,
             self.y_range.1,
-            c.log_y,
+            matches!(self.scale, Scale::Log),
             (est_h / 55) as usize,
         );
         let y_area = y_area_width(root, &y, &c.y_label)?;
@@ -122,22 +166,23 @@ impl Figure for BarFigure<'_> {
         let ns = c.series.len() as f64;
         let group = 0.8;
         let bar_w = group / ns;
-        let base = if c.log_y {
-            y.lo
-        } else {
+        let linear = matches!(self.scale, Scale::Linear);
+        let base = if linear {
             0.0f64.clamp(y.lo, y.hi)
+        } else {
+            y.lo
         };
         let py_base = frame.px_y(base);
         for (si, s) in c.series.iter().enumerate() {
             let color = palette(si);
             for (ci, &v) in s.values.iter().enumerate() {
-                if c.log_y && v <= 0.0 {
+                let Some(u) = self.scale.axis(v) else {
                     continue;
-                }
+                };
                 let u0 = ci as f64 + (1.0 - group) / 2.0 + si as f64 * bar_w;
                 let x0 = frame.px_x(u0);
                 let x1 = frame.px_x(u0 + bar_w).max(x0 + 1);
-                let yv = y.frac(y.unit(v)).clamp(0.0, 1.0);
+                let yv = y.frac(u).clamp(0.0, 1.0);
                 let py = frame.px((0.0, yv)).1;
                 if py == py_base {
                     continue;
@@ -149,7 +194,7 @@ impl Figure for BarFigure<'_> {
                 .map_err(be)?;
             }
         }
-        if !c.log_y && y.lo < 0.0 && y.hi > 0.0 {
+        if linear && y.lo < 0.0 && y.hi > 0.0 {
             root.draw(&PathElement::new(
                 vec![(frame.left_px(), py_base), (frame.right_px(), py_base)],
                 AXIS.stroke_width(1),

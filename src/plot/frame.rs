@@ -274,19 +274,43 @@ fn clip_segment(a: (f64, f64), b: (f64, f64)) -> Option<((f64, f64), (f64, f64),
     Some((pa, pb, t0 > 0.0, t1 < 1.0))
 }
 
-/// Rectangles that must not overlap (for label placement).
+/// What labels must not cover: rectangles (other labels, dots) and line
+/// segments (curves), in pixels.
 #[derive(Default)]
-pub(super) struct Occupied(Vec<(i32, i32, i32, i32)>);
+pub(super) struct Occupied {
+    boxes: Vec<(i32, i32, i32, i32)>,
+    segments: Vec<((i32, i32), (i32, i32))>,
+}
 
 impl Occupied {
+    /// True when `r` (left, top, right, bottom) overlaps no rectangle and
+    /// crosses no segment.
     pub(super) fn free(&self, r: (i32, i32, i32, i32)) -> bool {
-        self.0
+        self.free_of_boxes(r) && !self.segments.iter().any(|&(a, b)| segment_hits(a, b, r))
+    }
+    /// True when `r` overlaps no rectangle (segments are not looked at).
+    pub(super) fn free_of_boxes(&self, r: (i32, i32, i32, i32)) -> bool {
+        self.boxes
             .iter()
             .all(|o| r.2 <= o.0 || o.2 <= r.0 || r.3 <= o.1 || o.3 <= r.1)
     }
     pub(super) fn add(&mut self, r: (i32, i32, i32, i32)) {
-        self.0.push(r);
+        self.boxes.push(r);
     }
+    pub(super) fn add_segment(&mut self, a: (i32, i32), b: (i32, i32)) {
+        self.segments.push((a, b));
+    }
+}
+
+/// Whether the segment `a`–`b` passes through the rectangle `r` (left, top,
+/// right, bottom), by clipping it to the rectangle (Liang–Barsky).
+fn segment_hits(a: (i32, i32), b: (i32, i32), r: (i32, i32, i32, i32)) -> bool {
+    let (w, h) = (f64::from(r.2 - r.0), f64::from(r.3 - r.1));
+    if w <= 0.0 || h <= 0.0 {
+        return false;
+    }
+    let n = |p: (i32, i32)| (f64::from(p.0 - r.0) / w, f64::from(p.1 - r.1) / h);
+    clip_segment(n(a), n(b)).is_some()
 }
 
 // ---------------------------------------------------------------------------
@@ -422,7 +446,71 @@ pub(super) fn draw_legend<DB: DrawingBackend>(
     Ok(())
 }
 
+/// Smallest size a title is shrunk to before it is wrapped.
+const TITLE_MIN_PX: f64 = 14.0;
+
+/// Most lines a title is wrapped into; the rest is cut with "…".
+const TITLE_MAX_LINES: usize = 3;
+
+/// Fits `text` into `avail` pixels: at `px` if it fits, else shrunk down to
+/// [`TITLE_MIN_PX`], else wrapped at spaces into at most [`TITLE_MAX_LINES`]
+/// lines (a word too long for a line is cut with "…"). Returns the size and
+/// the lines.
+pub(super) fn fit_title(
+    text: &str,
+    px: f64,
+    avail: u32,
+    width: &dyn Fn(&str, f64) -> Result<u32, PlotError>,
+) -> Result<(f64, Vec<String>), PlotError> {
+    let full = width(text, px)?;
+    if full <= avail {
+        return Ok((px, vec![text.to_string()]));
+    }
+    let small = TITLE_MIN_PX.min(px);
+    let shrunk = (px * f64::from(avail) / f64::from(full)).floor();
+    if shrunk >= small {
+        return Ok((shrunk, vec![text.to_string()]));
+    }
+    let cut = |word: &str| -> Result<String, PlotError> {
+        let mut s: String = word.to_string();
+        while !s.is_empty() && width(&format!("{s}…"), small)? > avail {
+            s.pop();
+        }
+        Ok(format!("{s}…"))
+    };
+    let mut lines: Vec<String> = Vec::new();
+    let mut current = String::new();
+    for word in text.split_whitespace() {
+        let trial = if current.is_empty() {
+            word.to_string()
+        } else {
+            format!("{current} {word}")
+        };
+        if width(&trial, small)? <= avail {
+            current = trial;
+            continue;
+        }
+        if !current.is_empty() {
+            lines.push(std::mem::take(&mut current));
+        }
+        current = if width(word, small)? <= avail {
+            word.to_string()
+        } else {
+            cut(word)?
+        };
+    }
+    if !current.is_empty() {
+        lines.push(current);
+    }
+    if lines.len() > TITLE_MAX_LINES {
+        let rest = lines.split_off(TITLE_MAX_LINES - 1).join(" ");
+        lines.push(cut(&rest)?);
+    }
+    Ok((small, lines))
+}
+
 /// Draws a title centred in the band at the top of `area` and returns the rest.
+/// A title wider than the area is shrunk, then wrapped (see [`fit_title`]).
 pub(super) fn with_title<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     title: &str,
@@ -431,15 +519,22 @@ pub(super) fn with_title<DB: DrawingBackend>(
     if title.is_empty() {
         return Ok(area.clone());
     }
-    let band = (px * 1.8).round() as u32;
+    let (w, _) = area.dim_in_pixel();
+    let avail = w.saturating_sub(2 * MARGIN).max(1);
+    let measure = |t: &str, p: f64| text_width(area, t, p);
+    let (px, lines) = fit_title(title, px, avail, &measure)?;
+    let line_h = px * 1.25;
+    let band = (px * 1.8 + (lines.len() - 1) as f64 * line_h).round() as u32;
     let (top, rest) = area.split_vertically(band);
-    let (w, h) = top.dim_in_pixel();
-    top.draw_text(
-        title,
-        &text_style(px).pos(Pos::new(HPos::Center, VPos::Center)),
-        ((w / 2) as i32, (h / 2) as i32 + 2),
-    )
-    .map_err(be)?;
+    let first = f64::from(band) / 2.0 - (lines.len() - 1) as f64 * line_h / 2.0 + 2.0;
+    for (i, line) in lines.iter().enumerate() {
+        top.draw_text(
+            line,
+            &text_style(px).pos(Pos::new(HPos::Center, VPos::Center)),
+            ((w / 2) as i32, (first + i as f64 * line_h).round() as i32),
+        )
+        .map_err(be)?;
+    }
     Ok(rest)
 }
 
@@ -532,6 +627,62 @@ pub(super) fn x_area_height(show_labels: bool, has_desc: bool) -> u32 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A monospace stand-in for text measurement: 10 px per character at 20 px.
+    fn mono(t: &str, px: f64) -> Result<u32, PlotError> {
+        Ok((t.chars().count() as f64 * px / 2.0).round() as u32)
+    }
+
+    /// Property of the title layout: every line fits the width, no word is
+    /// lost unless cut with "…", at most three lines.
+    #[test]
+    fn long_titles_shrink_then_wrap_within_the_width() {
+        let (px, lines) = fit_title("short", 20.0, 200, &mono).unwrap();
+        assert_eq!((px, lines), (20.0, vec!["short".to_string()]));
+        // 30 chars: 300 px at 20 px, fits at 16 px in 240
+        let t = "a".repeat(30);
+        let (px, lines) = fit_title(&t, 20.0, 240, &mono).unwrap();
+        assert_eq!(lines.len(), 1);
+        assert!((TITLE_MIN_PX..=16.0).contains(&px), "{px}");
+        let long = "Pressure ripple per harmonic — Truck crane pressure line (invented demo) \
+                    (1500 rpm, f_p = 300.0 Hz) with a very long name";
+        let (px, lines) = fit_title(long, 22.0, 300, &mono).unwrap();
+        assert_eq!(px, TITLE_MIN_PX);
+        assert!(
+            lines.len() <= TITLE_MAX_LINES && lines.len() > 1,
+            "{lines:?}"
+        );
+        for l in &lines {
+            assert!(mono(l, px).unwrap() <= 300, "line too wide: {l}");
+        }
+        let joined = lines.join(" ");
+        assert!(joined.starts_with("Pressure ripple per harmonic"));
+        assert!(joined.ends_with('…') || joined.ends_with("name"));
+        // one word longer than the width is cut
+        let (_, lines) = fit_title(&"x".repeat(100), 20.0, 100, &mono).unwrap();
+        assert_eq!(lines.len(), 1);
+        assert!(lines[0].ends_with('…') && mono(&lines[0], TITLE_MIN_PX).unwrap() <= 100);
+    }
+
+    /// Geometry of label placement: a curve through a box makes it occupied,
+    /// one that passes beside it or ends before it does not.
+    #[test]
+    fn labels_avoid_curves_and_other_labels() {
+        let r = (10, 10, 50, 30);
+        assert!(segment_hits((0, 20), (60, 20), r), "straight through");
+        assert!(segment_hits((20, 0), (40, 40), r), "diagonal through");
+        assert!(segment_hits((20, 15), (25, 16), r), "inside");
+        assert!(!segment_hits((0, 0), (60, 5), r), "above");
+        assert!(!segment_hits((0, 20), (9, 20), r), "ends before");
+        assert!(!segment_hits((0, 40), (40, 80), r), "beside");
+        let mut o = Occupied::default();
+        o.add_segment((0, 20), (60, 20));
+        o.add((100, 100, 120, 110));
+        assert!(!o.free(r));
+        assert!(o.free_of_boxes(r));
+        assert!(o.free((10, 40, 50, 60)));
+        assert!(!o.free((110, 105, 130, 115)));
+    }
 
     #[test]
     fn clipping_keeps_the_visible_part() {

@@ -10,36 +10,24 @@ use plotters::style::{Color, FontTransform, RGBColor};
 use super::axis::{Axis, padded};
 use super::check::{Extent, check_finite, finite_range};
 use super::frame::{
-    AXIS, BACKGROUND, DESC_PX, Frame, Layout, MARGIN, NOTE_PX, Occupied, TICK_PX, TITLE_PX,
+    AXIS, BACKGROUND, DESC_PX, Frame, Layout, MARGIN, MARKER, NOTE_PX, Occupied, TICK_PX, TITLE_PX,
     box_size, boxed_text, build_chart, dashed_line, draw_mesh, put_text, text_style, text_width,
     with_title, x_area_height, y_area_width,
 };
 use super::render::{Figure, be, check_size};
 use super::{HeatMap, PlotError};
 
-/// Colour scale: a ramp through anchor colours chosen for this module (dark
-/// blue, blue, cyan, green, yellow, orange, dark red), interpolated linearly.
+/// Colour scale: viridis, a perceptually uniform scale that also reads in
+/// grey and for the common colour-vision deficiencies (the `colorous` crate's
+/// `VIRIDIS`, ported from d3-scale-chromatic). `t` runs from 0 (low) to 1.
 fn colour_scale(t: f64) -> RGBColor {
-    const ANCHORS: [(u8, u8, u8); 7] = [
-        (24, 28, 96),
-        (30, 92, 200),
-        (32, 176, 204),
-        (120, 204, 96),
-        (248, 222, 48),
-        (240, 128, 32),
-        (160, 20, 24),
-    ];
     let t = if t.is_finite() {
         t.clamp(0.0, 1.0)
     } else {
         0.0
     };
-    let pos = t * (ANCHORS.len() - 1) as f64;
-    let i = (pos.floor() as usize).min(ANCHORS.len() - 2);
-    let f = pos - i as f64;
-    let (a, b) = (ANCHORS[i], ANCHORS[i + 1]);
-    let mix = |p: u8, q: u8| (p as f64 + f * (q as f64 - p as f64)).round() as u8;
-    RGBColor(mix(a.0, b.0), mix(a.1, b.1), mix(a.2, b.2))
+    let c = colorous::VIRIDIS.eval_continuous(t);
+    RGBColor(c.r, c.g, c.b)
 }
 
 /// Number of distinct colours used for the cells (neighbouring cells with the
@@ -261,7 +249,10 @@ impl Figure for HeatFigure<'_> {
         .map_err(be)?;
 
         let mut occupied = Occupied::default();
-        // Horizontal marker lines.
+        let mut unlabelled = 0usize;
+        // Horizontal marker lines: thin and light, so that many of them do not
+        // hide the colours; their labels are placed first at the right end.
+        let mut marker_rows: Vec<(i32, &str)> = Vec::new();
         for mk in &m.y_markers {
             let f = y.frac(mk.value);
             if !(0.0..=1.0).contains(&f) {
@@ -269,25 +260,19 @@ impl Figure for HeatFigure<'_> {
             }
             let py = frame.px((0.0, f)).1;
             let (l, r) = (frame.left_px(), frame.right_px());
-            root.draw(&PathElement::new(
-                vec![(l, py), (r, py)],
-                RGBColor(0, 0, 0).stroke_width(3),
-            ))
-            .map_err(be)?;
-            dashed_line(root, (l, py), (r, py), BACKGROUND.stroke_width(1), 7.0, 4.0)?;
-            if !mk.label.is_empty() {
-                let (bw, bh) = box_size(root, &mk.label, NOTE_PX)?;
-                let lx = r - bw - 6;
-                let ly = if py - bh - 3 >= frame.top_px() {
-                    py - bh - 3
-                } else {
-                    py + 3
-                };
-                boxed_text(root, &mk.label, NOTE_PX, (lx, ly), (bw, bh))?;
-                occupied.add((lx, ly, lx + bw, ly + bh));
-            }
+            dashed_line(
+                root,
+                (l, py),
+                (r, py),
+                MARKER.mix(0.8).stroke_width(1),
+                6.0,
+                5.0,
+            )?;
+            marker_rows.push((py, &mk.label));
         }
-        // Overlaid polylines with a dark halo so that they show on any colour.
+        // Overlaid polylines: a light line with a faint dark edge, so that
+        // they show on any colour without covering it.
+        let mut line_ends = Vec::new();
         for l in &m.lines {
             let norm: Vec<(f64, f64)> = l.points.iter().map(|&(a, b)| frame.norm(a, b)).collect();
             let pieces = frame.clip(&norm);
@@ -295,20 +280,39 @@ impl Figure for HeatFigure<'_> {
                 if piece.len() > 1 {
                     root.draw(&PathElement::new(
                         piece.clone(),
-                        RGBColor(0, 0, 0).stroke_width(3),
+                        RGBColor(0, 0, 0).mix(0.45).stroke_width(3),
                     ))
                     .map_err(be)?;
                     root.draw(&PathElement::new(piece.clone(), BACKGROUND.stroke_width(1)))
                         .map_err(be)?;
+                    for w in piece.windows(2) {
+                        occupied.add_segment(w[0], w[1]);
+                    }
                 }
             }
-            if l.label.is_empty() {
+            if let Some(&end) = pieces.iter().rev().find_map(|p| p.last()) {
+                line_ends.push((end, l.label.as_str()));
+            }
+        }
+        let clamp = |(lx, ly): (i32, i32), (bw, bh): (i32, i32)| {
+            (
+                lx.clamp(
+                    frame.left_px() + 2,
+                    (frame.right_px() - bw - 2).max(frame.left_px()),
+                ),
+                ly.clamp(
+                    frame.top_px() + 2,
+                    (frame.bottom_px() - bh - 2).max(frame.top_px()),
+                ),
+            )
+        };
+        // Order-line labels at the end of each line, then marker labels along
+        // their line; a label that finds no free place is left out and counted.
+        for ((ex, ey), label) in line_ends {
+            if label.is_empty() {
                 continue;
             }
-            let Some(&(ex, ey)) = pieces.iter().rev().find_map(|p| p.last()) else {
-                continue;
-            };
-            let (bw, bh) = box_size(root, &l.label, NOTE_PX)?;
+            let (bw, bh) = box_size(root, label, NOTE_PX)?;
             let candidates = [
                 (ex - bw - 4, ey + 4),
                 (ex - bw - 4, ey - bh - 4),
@@ -316,25 +320,53 @@ impl Figure for HeatFigure<'_> {
                 (ex + 4, ey - bh - 4),
                 (ex - bw / 2, ey + 10),
             ];
-            let clamp = |(lx, ly): (i32, i32)| {
-                (
-                    lx.clamp(
-                        frame.left_px() + 2,
-                        (frame.right_px() - bw - 2).max(frame.left_px()),
-                    ),
-                    ly.clamp(
-                        frame.top_px() + 2,
-                        (frame.bottom_px() - bh - 2).max(frame.top_px()),
-                    ),
-                )
-            };
             let pick = candidates
                 .iter()
-                .map(|&c| clamp(c))
-                .find(|&(lx, ly)| occupied.free((lx, ly, lx + bw, ly + bh)))
-                .unwrap_or_else(|| clamp(candidates[0]));
-            boxed_text(root, &l.label, NOTE_PX, pick, (bw, bh))?;
+                .map(|&c| clamp(c, (bw, bh)))
+                .find(|&(lx, ly)| occupied.free_of_boxes((lx, ly, lx + bw, ly + bh)))
+                .unwrap_or_else(|| clamp(candidates[0], (bw, bh)));
+            boxed_text(root, label, NOTE_PX, pick, (bw, bh))?;
             occupied.add((pick.0, pick.1, pick.0 + bw, pick.1 + bh));
+        }
+        for (py, label) in marker_rows {
+            if label.is_empty() {
+                continue;
+            }
+            let (bw, bh) = box_size(root, label, NOTE_PX)?;
+            let (l, r) = (frame.left_px(), frame.right_px());
+            let xs = [
+                r - bw - 6,
+                l + 6,
+                (l + r) / 2 - bw / 2,
+                (3 * l + r) / 4,
+                (l + 3 * r) / 4,
+            ];
+            let pick = xs
+                .iter()
+                .flat_map(|&x| [(x, py - bh - 2), (x, py + 2)])
+                .map(|c| clamp(c, (bw, bh)))
+                .find(|&(lx, ly)| occupied.free((lx, ly, lx + bw, ly + bh)));
+            match pick {
+                Some(p) => {
+                    boxed_text(root, label, NOTE_PX, p, (bw, bh))?;
+                    occupied.add((p.0, p.1, p.0 + bw, p.1 + bh));
+                }
+                None => unlabelled += 1,
+            }
+        }
+        if unlabelled > 0 {
+            let note = format!(
+                "{unlabelled} of {} marker labels left out for lack of room",
+                m.y_markers.len()
+            );
+            let (bw, bh) = box_size(root, &note, NOTE_PX)?;
+            boxed_text(
+                root,
+                &note,
+                NOTE_PX,
+                (frame.left_px() + 4, frame.bottom_px() - bh - 4),
+                (bw, bh),
+            )?;
         }
 
         // Colour bar.

@@ -60,6 +60,7 @@ fn validate_line_chart(c: &LineChart) -> Result<(Extent, Extent), PlotError> {
             for (i, &(lo, hi)) in bars.iter().enumerate() {
                 check_finite(lo, &name, i, "error bar low end")?;
                 check_finite(hi, &name, i, "error bar high end")?;
+                let lo = c.y_floor.map_or(lo, |f| lo.max(f));
                 if lo > hi {
                     return Err(PlotError::InvalidData(format!(
                         "error bar {i} of series '{name}' has its low end {lo} above its \
@@ -76,6 +77,17 @@ fn validate_line_chart(c: &LineChart) -> Result<(Extent, Extent), PlotError> {
                     ye.add(lo);
                     ye.add(hi);
                 }
+            }
+        }
+    }
+    if let Some(f) = c.y_floor {
+        check_finite(f, "y floor", 0, "value")?;
+        for (si, s) in c.series.iter().enumerate() {
+            if let Some((i, &(_, y))) = s.points.iter().enumerate().find(|(_, p)| p.1 < f) {
+                return Err(PlotError::InvalidData(format!(
+                    "point {i} of series '{}' has y = {y}, below the chart's floor {f}",
+                    display_name(&s.name, si)
+                )));
             }
         }
     }
@@ -152,7 +164,15 @@ impl<'a> StackFigure<'a> {
                 Some(r) => r,
                 None => {
                     let (a, b) = ye.0.unwrap_or((0.0, 1.0));
-                    padded(a, b, c.log_y, 0.05)
+                    let (lo, hi) = padded(a, b, c.log_y, 0.05);
+                    // the padding does not reach below the floor
+                    match c.y_floor {
+                        Some(f) if !c.log_y && lo < f && f < hi => (f, hi),
+                        Some(f) if c.log_y && f > 0.0 && lo < f.log10() && f.log10() < hi => {
+                            (f.log10(), hi)
+                        }
+                        _ => (lo, hi),
+                    }
                 }
             };
             let y_range = finite_range(y_range, "y")?;
@@ -168,7 +188,12 @@ impl<'a> StackFigure<'a> {
             Some(r) => r,
             None => {
                 let (a, b) = x_ext.0.unwrap_or((0.0, 1.0));
-                padded(a, b, log_x, 0.0)
+                // dots and error bars at the ends stay whole
+                let dots = charts.iter().flat_map(|c| &c.series).any(|s| {
+                    s.error_bars.is_some()
+                        || matches!(s.style, SeriesStyle::Points | SeriesStyle::LineAndPoints)
+                });
+                padded(a, b, log_x, if dots { 0.03 } else { 0.0 })
             }
         };
         let x_range = finite_range(x_range, "x")?;
@@ -366,6 +391,9 @@ fn draw_line_panel<DB: DrawingBackend>(
         match s.style {
             SeriesStyle::Line | SeriesStyle::LineAndPoints => {
                 for piece in frame.clip(&norm) {
+                    for w in piece.windows(2) {
+                        occupied.add_segment(w[0], w[1]);
+                    }
                     if piece.len() > 1 {
                         root.draw(&PathElement::new(piece, line_style))
                             .map_err(be)?;
@@ -375,6 +403,7 @@ fn draw_line_panel<DB: DrawingBackend>(
             SeriesStyle::Dashed => {
                 for piece in frame.clip(&norm) {
                     for w in piece.windows(2) {
+                        occupied.add_segment(w[0], w[1]);
                         dashed_line(root, w[0], w[1], line_style, 8.0, 5.0)?;
                     }
                 }
@@ -384,6 +413,8 @@ fn draw_line_panel<DB: DrawingBackend>(
         if let Some(bars) = &s.error_bars {
             for (&(px, _), &(lo, hi)) in s.points.iter().zip(bars) {
                 let u = x.unit(px);
+                let cut = c.y_floor.is_some_and(|f| lo < f);
+                let lo = c.y_floor.map_or(lo, |f| lo.max(f));
                 let a = frame.norm(u, y.unit_or_below(lo));
                 let b = frame.norm(u, y.unit_or_below(hi));
                 for piece in frame.clip(&[a, b]) {
@@ -392,8 +423,8 @@ fn draw_line_panel<DB: DrawingBackend>(
                             .map_err(be)?;
                     }
                 }
-                for (end, n) in [(a, a.1), (b, b.1)] {
-                    if (0.0..=1.0).contains(&end.0) && (0.0..=1.0).contains(&n) {
+                for (end, n, capped) in [(a, a.1, !cut), (b, b.1, true)] {
+                    if capped && (0.0..=1.0).contains(&end.0) && (0.0..=1.0).contains(&n) {
                         let p = frame.px(end);
                         root.draw(&PathElement::new(
                             vec![(p.0 - 4, p.1), (p.0 + 4, p.1)],
@@ -407,8 +438,10 @@ fn draw_line_panel<DB: DrawingBackend>(
         if matches!(s.style, SeriesStyle::Points | SeriesStyle::LineAndPoints) {
             for &n in &norm {
                 if (0.0..=1.0).contains(&n.0) && (0.0..=1.0).contains(&n.1) {
-                    root.draw(&Circle::new(frame.px(n), 3, color.filled()))
+                    let (cx, cy) = frame.px(n);
+                    root.draw(&Circle::new((cx, cy), 3, color.filled()))
                         .map_err(be)?;
+                    occupied.add((cx - 3, cy - 3, cx + 3, cy + 3));
                 }
             }
         }
@@ -491,26 +524,49 @@ fn draw_line_panel<DB: DrawingBackend>(
         }
         let (cx, cy) = frame.px(n);
         let (bw, bh) = box_size(root, &p.label, NOTE_PX)?;
-        let candidates = [
-            (cx + 7, cy - bh - 5),
-            (cx - bw - 7, cy - bh - 5),
-            (cx + 7, cy + 5),
-            (cx - bw - 7, cy + 5),
-            (cx - bw / 2, cy - bh - 10),
-            (cx - bw / 2, cy + 10),
-        ];
+        // Near the dot first, then further away (with a leader line), so that
+        // the label covers neither another label nor a curve.
+        let mut candidates = Vec::new();
+        for d in [0, 14, 30, 50] {
+            candidates.extend([
+                (cx + 7 + d, cy - bh - 5 - d),
+                (cx - bw - 7 - d, cy - bh - 5 - d),
+                (cx + 7 + d, cy + 5 + d),
+                (cx - bw - 7 - d, cy + 5 + d),
+                (cx - bw / 2, cy - bh - 10 - d),
+                (cx - bw / 2, cy + 10 + d),
+            ]);
+        }
         let inside = |(lx, ly): (i32, i32)| {
             lx >= frame.left_px()
                 && lx + bw <= frame.right_px()
                 && ly >= frame.top_px()
                 && ly + bh <= frame.bottom_px()
         };
+        let rect = |(lx, ly): (i32, i32)| (lx, ly, lx + bw, ly + bh);
         let pick = candidates
             .iter()
             .copied()
-            .find(|&(lx, ly)| inside((lx, ly)) && occupied.free((lx, ly, lx + bw, ly + bh)))
+            .find(|&c| inside(c) && occupied.free(rect(c)))
+            .or_else(|| {
+                candidates
+                    .iter()
+                    .copied()
+                    .find(|&c| inside(c) && occupied.free_of_boxes(rect(c)))
+            })
             .or_else(|| candidates.iter().copied().find(|&c| inside(c)))
             .unwrap_or(candidates[0]);
+        // a label moved away from its dot gets a leader line to it
+        let (lx, ly) = pick;
+        let near_x = cx.clamp(lx, lx + bw);
+        let near_y = cy.clamp(ly, ly + bh);
+        if (near_x - cx).abs() + (near_y - cy).abs() > 16 {
+            root.draw(&PathElement::new(
+                vec![(cx, cy), (near_x, near_y)],
+                POINT_MARKER.stroke_width(1),
+            ))
+            .map_err(be)?;
+        }
         boxed_text(root, &p.label, NOTE_PX, pick, (bw, bh))?;
         occupied.add((pick.0, pick.1, pick.0 + bw, pick.1 + bh));
     }

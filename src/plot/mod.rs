@@ -29,13 +29,16 @@ mod frame;
 mod heatmap;
 mod lines;
 mod render;
+mod schematic;
 #[cfg(test)]
 mod tests;
 
 use bars::BarFigure;
 use heatmap::HeatFigure;
 use lines::StackFigure;
-use render::render;
+pub use render::svg_to_png;
+use render::{render, svg_string};
+pub use schematic::{SchematicLayout, schematic_layout, schematic_svg};
 
 /// Default picture size in pixels (width, height).
 pub const DEFAULT_SIZE: (u32, u32) = (1000, 600);
@@ -155,11 +158,23 @@ pub struct BarChart {
     /// The series; each must have exactly one value per category.
     pub series: Vec<Series>,
     /// Logarithmic value axis. Values that are zero or negative are then drawn as
-    /// no bar at all; at least one value must be positive.
+    /// no bar at all; at least one value must be positive. The axis spans at
+    /// most [`BAR_DYNAMIC_RANGE_DB`] below the largest value; smaller values
+    /// show as no bar.
     pub log_y: bool,
+    /// Value axis in decibels: each value `v` is drawn as `20·log10(v / ref)`
+    /// with `ref` this reference (same unit as the values, positive), bars
+    /// rising from the bottom of the axis. Overrides `log_y`; zero or negative
+    /// values and those more than [`BAR_DYNAMIC_RANGE_DB`] below the largest
+    /// show as no bar. The caller names the reference in `y_label`.
+    pub db_ref: Option<f64>,
     /// Picture size in pixels (width, height).
     pub size: (u32, u32),
 }
+
+/// Range of a logarithmic or decibel bar axis below its largest value, in dB
+/// (5 decades of amplitude).
+pub const BAR_DYNAMIC_RANGE_DB: f64 = 100.0;
 
 impl Default for BarChart {
     fn default() -> Self {
@@ -170,6 +185,7 @@ impl Default for BarChart {
             categories: Vec::new(),
             series: Vec::new(),
             log_y: false,
+            db_ref: None,
             size: DEFAULT_SIZE,
         }
     }
@@ -260,6 +276,10 @@ pub struct LineChart {
     /// Fixed y range (low, high) in data units; `None` fits the curves, their
     /// error bars and the point markers, with a small margin.
     pub y_range: Option<(f64, f64)>,
+    /// Lowest value the quantity can take, e.g. `Some(0.0)` for an amplitude:
+    /// the automatic y range does not reach below it and error bars are cut
+    /// there (a cut end is drawn without its cap). Data below it are an error.
+    pub y_floor: Option<f64>,
     /// Vertical dashed lines, labelled above the plot (e.g. resonances). They do
     /// not widen the x range; markers outside it are left out.
     pub x_markers: Vec<Marker>,
@@ -286,6 +306,7 @@ impl Default for LineChart {
             log_y: false,
             x_range: None,
             y_range: None,
+            y_floor: None,
             x_markers: Vec::new(),
             y_markers: Vec::new(),
             point_markers: Vec::new(),
@@ -390,4 +411,28 @@ pub fn heat_map(path: &Path, map: &HeatMap) -> Result<(), PlotError> {
     let format = output_format(path)?;
     let fig = HeatFigure::new(map)?;
     render(path, format, map.size, &fig)
+}
+
+/// The grouped bar chart of [`grouped_bar_chart`] as an SVG document in a
+/// string (for embedding, e.g. in an HTML report).
+pub fn grouped_bar_chart_svg(chart: &BarChart) -> Result<String, PlotError> {
+    svg_string(chart.size, &BarFigure::new(chart)?)
+}
+
+/// The line chart of [`line_chart`] as an SVG document in a string.
+pub fn line_chart_svg(chart: &LineChart) -> Result<String, PlotError> {
+    let fig = StackFigure::new(std::slice::from_ref(chart))?;
+    svg_string(fig.size, &fig)
+}
+
+/// The stacked line charts of [`stacked_line_charts`] as an SVG document in a
+/// string.
+pub fn stacked_line_charts_svg(charts: &[LineChart]) -> Result<String, PlotError> {
+    let fig = StackFigure::new(charts)?;
+    svg_string(fig.size, &fig)
+}
+
+/// The heat map of [`heat_map`] as an SVG document in a string.
+pub fn heat_map_svg(map: &HeatMap) -> Result<String, PlotError> {
+    svg_string(map.size, &HeatFigure::new(map)?)
 }

@@ -1,15 +1,18 @@
-//! Output: the embedded font, the in-memory drawing of a figure and the file
-//! write, the PNG text rasteriser and the picture size limits.
+//! Output: the embedded font, the in-memory drawing of a figure as SVG, its
+//! rasterisation to PNG (resvg, anti-aliased, embedded font only), the file
+//! write and the picture size limits.
 
 use std::path::Path;
 use std::sync::OnceLock;
 
+use std::sync::Arc;
+
 use plotters::coord::Shift;
 use plotters::drawing::{DrawingArea, IntoDrawingArea};
-use plotters::prelude::{BitMapBackend, DrawingBackend, SVGBackend};
-use plotters::style::text_anchor::{HPos, VPos};
+use plotters::prelude::{DrawingBackend, SVGBackend};
 use plotters::style::{FontStyle, register_font};
-use plotters_backend::{BackendColor, BackendCoord, DrawingErrorKind};
+use resvg::usvg::fontdb;
+use resvg::{tiny_skia, usvg};
 
 use super::frame::BACKGROUND;
 use super::{MAX_DIMENSION, MIN_SIZE, OutputFormat, PlotError};
@@ -17,8 +20,13 @@ use super::{MAX_DIMENSION, MIN_SIZE, OutputFormat, PlotError};
 /// The embedded font (a DejaVu Sans subset, see `assets/fonts/README.md`).
 const FONT_BYTES: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans-subset.ttf");
 
-/// Font family name under which the embedded font is registered with plotters.
-pub(super) const FAMILY: &str = "sans-serif";
+/// Family name of the embedded font.
+const FONT_NAME: &str = "DejaVu Sans";
+
+/// Font family under which the embedded font is registered with plotters. It is
+/// written as is into the SVG `font-family` attribute: the embedded font first,
+/// then the generic family for viewers without it.
+pub(super) const FAMILY: &str = "DejaVu Sans, sans-serif";
 
 /// A validated chart that can draw itself on any plotters backend.
 pub(super) trait Figure {
@@ -56,6 +64,68 @@ pub(super) fn check_size(size: (u32, u32), what: &str) -> Result<(), PlotError> 
     Ok(())
 }
 
+/// Draws `fig` as an SVG document in memory.
+pub(super) fn svg_string<F: Figure>(size: (u32, u32), fig: &F) -> Result<String, PlotError> {
+    ensure_font()?;
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, size).into_drawing_area();
+        root.fill(&BACKGROUND).map_err(be)?;
+        fig.draw(&root)?;
+        root.present().map_err(be)?;
+    }
+    Ok(svg)
+}
+
+/// The font database for rasterising: the embedded font only, also answering
+/// for the generic family `sans-serif`. No system font folder is read.
+fn font_db() -> Result<&'static Arc<fontdb::Database>, PlotError> {
+    static DB: OnceLock<Result<Arc<fontdb::Database>, String>> = OnceLock::new();
+    DB.get_or_init(|| {
+        let mut db = fontdb::Database::new();
+        db.load_font_data(FONT_BYTES.to_vec());
+        let family = db
+            .faces()
+            .next()
+            .and_then(|f| f.families.first())
+            .map(|(name, _)| name.clone())
+            .ok_or_else(|| "the embedded font could not be loaded".to_string())?;
+        db.set_sans_serif_family(family);
+        Ok(Arc::new(db))
+    })
+    .as_ref()
+    .map_err(|e| PlotError::Backend(e.clone()))
+}
+
+/// Rasterises an SVG document (a chart or a schematic of this module) to PNG
+/// bytes, anti-aliased, with the embedded font; text in any other font family
+/// falls back to it. External files and images are never loaded.
+pub fn svg_to_png(svg: &str) -> Result<Vec<u8>, PlotError> {
+    let db = font_db()?;
+    let options = usvg::Options {
+        font_family: FONT_NAME.to_string(),
+        fontdb: Arc::clone(db),
+        // the charts never reference files; refuse any that might appear
+        resources_dir: None,
+        image_href_resolver: usvg::ImageHrefResolver {
+            resolve_data: Box::new(|_, _, _| None),
+            resolve_string: Box::new(|_, _| None),
+        },
+        ..usvg::Options::default()
+    };
+    let tree = usvg::Tree::from_str(svg, &options).map_err(be)?;
+    let size = tree.size().to_int_size();
+    let mut pixmap = tiny_skia::Pixmap::new(size.width(), size.height())
+        .ok_or_else(|| PlotError::Backend("the picture has no pixels".into()))?;
+    pixmap.fill(tiny_skia::Color::WHITE);
+    resvg::render(
+        &tree,
+        tiny_skia::Transform::identity(),
+        &mut pixmap.as_mut(),
+    );
+    pixmap.encode_png().map_err(be)
+}
+
 /// Draws `fig` in memory and then writes the file. No file is created when
 /// drawing fails.
 pub(super) fn render<F: Figure>(
@@ -64,232 +134,17 @@ pub(super) fn render<F: Figure>(
     size: (u32, u32),
     fig: &F,
 ) -> Result<(), PlotError> {
-    ensure_font()?;
-    match format {
-        OutputFormat::Svg => {
-            let mut svg = String::new();
-            {
-                let root = SVGBackend::with_string(&mut svg, size).into_drawing_area();
-                root.fill(&BACKGROUND).map_err(be)?;
-                fig.draw(&root)?;
-                root.present().map_err(be)?;
-            }
-            std::fs::write(path, svg).map_err(|source| {
-                // do not leave a partly written file behind
-                let _ = std::fs::remove_file(path);
-                PlotError::Io {
-                    path: path.to_path_buf(),
-                    source,
-                }
-            })
+    let svg = svg_string(size, fig)?;
+    let bytes = match format {
+        OutputFormat::Svg => svg.into_bytes(),
+        OutputFormat::Png => svg_to_png(&svg)?,
+    };
+    std::fs::write(path, bytes).map_err(|source| {
+        // do not leave a partly written file behind
+        let _ = std::fs::remove_file(path);
+        PlotError::Io {
+            path: path.to_path_buf(),
+            source,
         }
-        OutputFormat::Png => {
-            let (w, h) = size;
-            let mut pixels = vec![0u8; w as usize * h as usize * 3];
-            {
-                let root =
-                    RasterText(BitMapBackend::with_buffer(&mut pixels, size)).into_drawing_area();
-                root.fill(&BACKGROUND).map_err(be)?;
-                fig.draw(&root)?;
-                root.present().map_err(be)?;
-            }
-            // Open the file first so that an unwritable path is reported as an
-            // I/O error (the PNG encoder would only give a generic message).
-            std::fs::OpenOptions::new()
-                .write(true)
-                .create(true)
-                .truncate(true)
-                .open(path)
-                .map_err(|source| PlotError::Io {
-                    path: path.to_path_buf(),
-                    source,
-                })?;
-            let result = {
-                let mut file = BitMapBackend::new(path, size);
-                file.blit_bitmap((0, 0), size, &pixels)
-                    .and_then(|()| file.present())
-                    .map_err(be)
-            }; // the backend is dropped here, before any clean-up
-            if result.is_err() {
-                let _ = std::fs::remove_file(path);
-            }
-            result
-        }
-    }
-}
-
-/// The embedded font as seen by the glyph rasteriser (`None` if it cannot be
-/// parsed, which [`ensure_font`] would already have reported).
-fn glyph_font() -> Option<&'static ab_glyph::FontRef<'static>> {
-    static FONT: OnceLock<Option<ab_glyph::FontRef<'static>>> = OnceLock::new();
-    FONT.get_or_init(|| ab_glyph::FontRef::try_from_slice(FONT_BYTES).ok())
-        .as_ref()
-}
-
-/// A bitmap backend wrapper that rasterises text itself.
-///
-/// plotters 0.3.7 places every glyph at the pen position without its left side
-/// bearing, which makes the letter spacing in PNG output visibly uneven. This
-/// wrapper draws each glyph at pen position plus bearing, with kerning, and
-/// otherwise keeps the layout of plotters (same text box, anchors, baseline and
-/// rotations), so that labels stay where plotters expects them.
-struct RasterText<B>(B);
-
-impl<B: DrawingBackend> DrawingBackend for RasterText<B> {
-    type ErrorType = B::ErrorType;
-
-    fn get_size(&self) -> (u32, u32) {
-        self.0.get_size()
-    }
-
-    fn ensure_prepared(&mut self) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
-        self.0.ensure_prepared()
-    }
-
-    fn present(&mut self) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
-        self.0.present()
-    }
-
-    fn draw_pixel(
-        &mut self,
-        point: BackendCoord,
-        color: BackendColor,
-    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
-        self.0.draw_pixel(point, color)
-    }
-
-    fn draw_line<S: plotters_backend::BackendStyle>(
-        &mut self,
-        from: BackendCoord,
-        to: BackendCoord,
-        style: &S,
-    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
-        self.0.draw_line(from, to, style)
-    }
-
-    fn draw_rect<S: plotters_backend::BackendStyle>(
-        &mut self,
-        upper_left: BackendCoord,
-        bottom_right: BackendCoord,
-        style: &S,
-        fill: bool,
-    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
-        self.0.draw_rect(upper_left, bottom_right, style, fill)
-    }
-
-    fn draw_path<S: plotters_backend::BackendStyle, I: IntoIterator<Item = BackendCoord>>(
-        &mut self,
-        path: I,
-        style: &S,
-    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
-        self.0.draw_path(path, style)
-    }
-
-    fn draw_circle<S: plotters_backend::BackendStyle>(
-        &mut self,
-        center: BackendCoord,
-        radius: u32,
-        style: &S,
-        fill: bool,
-    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
-        self.0.draw_circle(center, radius, style, fill)
-    }
-
-    fn fill_polygon<S: plotters_backend::BackendStyle, I: IntoIterator<Item = BackendCoord>>(
-        &mut self,
-        vert: I,
-        style: &S,
-    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
-        self.0.fill_polygon(vert, style)
-    }
-
-    fn blit_bitmap(
-        &mut self,
-        pos: BackendCoord,
-        size: (u32, u32),
-        src: &[u8],
-    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
-        self.0.blit_bitmap(pos, size, src)
-    }
-
-    fn estimate_text_size<S: plotters_backend::BackendTextStyle>(
-        &self,
-        text: &str,
-        style: &S,
-    ) -> Result<(u32, u32), DrawingErrorKind<Self::ErrorType>> {
-        self.0.estimate_text_size(text, style)
-    }
-
-    fn draw_text<S: plotters_backend::BackendTextStyle>(
-        &mut self,
-        text: &str,
-        style: &S,
-        pos: BackendCoord,
-    ) -> Result<(), DrawingErrorKind<Self::ErrorType>> {
-        use ab_glyph::{Font, ScaleFont};
-        let color = style.color();
-        if color.alpha == 0.0 || text.is_empty() {
-            return Ok(());
-        }
-        let Some(font) = glyph_font() else {
-            return self.0.draw_text(text, style, pos);
-        };
-        // Text box and anchor offsets exactly as plotters computes them.
-        let ((min_x, min_y), (max_x, max_y)) = style
-            .layout_box(text)
-            .map_err(|e| DrawingErrorKind::FontError(Box::new(e)))?;
-        let (width, height) = (max_x - min_x, max_y - min_y);
-        let anchor = style.anchor();
-        let dx = match anchor.h_pos {
-            HPos::Left => 0,
-            HPos::Right => -width,
-            HPos::Center => -width / 2,
-        };
-        let dy = match anchor.v_pos {
-            VPos::Top => 0,
-            VPos::Center => -height / 2,
-            VPos::Bottom => -height,
-        };
-        let trans = style.transform();
-        let size = style.size() as f32;
-        let scaled = font.as_scaled(size);
-        let (w, h) = self.0.get_size();
-        let mut pen = 0.0f32;
-        let mut prev = None;
-        for ch in text.chars() {
-            let id = scaled.glyph_id(ch);
-            if let Some(p) = prev {
-                pen += scaled.kern(p, id);
-            }
-            prev = Some(id);
-            let glyph = id.with_scale_and_position(size, ab_glyph::point(pen, 0.0));
-            pen += scaled.h_advance(id);
-            let Some(outline) = font.outline_glyph(glyph) else {
-                continue; // blank glyph such as a space
-            };
-            let bounds = outline.px_bounds();
-            let ox = bounds.min.x as i32;
-            // baseline at half the font size below the box top, as in plotters
-            let oy = (size / 2.0 + bounds.min.y) as i32;
-            let mut result = Ok(());
-            let inner = &mut self.0;
-            outline.draw(|gx, gy, coverage| {
-                if result.is_err() || coverage <= 0.0 {
-                    return;
-                }
-                let (x, y) =
-                    trans.transform(ox + gx as i32 + dx - min_x, oy + gy as i32 + dy - min_y);
-                let (x, y) = (pos.0 + x, pos.1 + y);
-                if x >= 0 && y >= 0 && x < w as i32 && y < h as i32 {
-                    let c = BackendColor {
-                        alpha: color.alpha * f64::from(coverage.min(1.0)),
-                        rgb: color.rgb,
-                    };
-                    result = inner.draw_pixel((x, y), c);
-                }
-            });
-            result?;
-        }
-        Ok(())
-    }
+    })
 }

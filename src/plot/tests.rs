@@ -58,6 +58,7 @@ fn bar_chart() -> BarChart {
             },
         ],
         log_y: false,
+        db_ref: None,
         size: SIZE,
     }
 }
@@ -380,4 +381,140 @@ fn unwritable_path_is_an_io_error() {
     assert!(matches!(e, PlotError::Io { .. }), "{e}");
     let e = grouped_bar_chart(&missing.join("a.png"), &bar_chart()).unwrap_err();
     assert!(matches!(e, PlotError::Io { .. }), "{e}");
+}
+
+/// Rows (top to bottom) of a PNG in which some pixel is close to `rgb`, and
+/// whether any pixel lies strictly between that colour and white.
+fn rows_with_colour(path: &Path, rgb: [u8; 3]) -> (Vec<u32>, bool) {
+    let bytes = std::fs::read(path).expect("read png");
+    let pixmap = resvg::tiny_skia::Pixmap::decode_png(&bytes).expect("decode png");
+    let mut rows = Vec::new();
+    let mut blended = false;
+    for y in 0..pixmap.height() {
+        let mut hit = false;
+        for x in 0..pixmap.width() {
+            let p = pixmap.pixel(x, y).expect("pixel").demultiply();
+            let c = [p.red(), p.green(), p.blue()];
+            let d = |i: usize| (i32::from(c[i]) - i32::from(rgb[i])).abs();
+            if d(0) + d(1) + d(2) < 60 {
+                hit = true;
+            }
+            // a pure-red line on white: anti-aliased edge pixels are light red
+            if c[0] > 240 && c[1] > 40 && c[1] < 200 && c[1].abs_diff(c[2]) < 8 {
+                blended = true;
+            }
+        }
+        if hit {
+            rows.push(y);
+        }
+    }
+    (rows, blended)
+}
+
+/// Property of a raster line: a steep segment (a jump over the whole height
+/// within one x step) is drawn in every pixel row it crosses, and its edges
+/// are anti-aliased (blended pixels exist). plotters' own bitmap backend left
+/// gaps in such segments (issue 16).
+#[test]
+fn png_steep_segments_have_no_gaps_and_are_anti_aliased() {
+    let dir = TempDir::new("steep");
+    let chart = LineChart {
+        series: vec![XySeries {
+            points: vec![(0.0, 0.0), (1.0, 100.0), (1.02, 0.0), (2.0, 50.0)],
+            color: Some([255, 0, 0]),
+            ..Default::default()
+        }],
+        size: SIZE,
+        ..Default::default()
+    };
+    let path = dir.path("steep.png");
+    line_chart(&path, &chart).unwrap();
+    let (rows, blended) = rows_with_colour(&path, [255, 0, 0]);
+    assert!(
+        rows.len() > 250,
+        "the line covers most of the height: {rows:?}"
+    );
+    for w in rows.windows(2) {
+        assert_eq!(
+            w[1],
+            w[0] + 1,
+            "a gap in the line between rows {} and {}",
+            w[0],
+            w[1]
+        );
+    }
+    assert!(blended, "no anti-aliased edge pixels found");
+}
+
+/// dB bars: 20·log10(v/ref) of the values, a bad reference is refused; the
+/// axis of log and dB bars spans at most BAR_DYNAMIC_RANGE_DB (plus margins)
+/// below the largest value, so tiny harmonics do not squash the others.
+#[test]
+fn decibel_and_log_bars() {
+    let dir = TempDir::new("db");
+    let mut c = bar_chart();
+    c.series[0].values[5] = 1e-12; // 220 dB below the largest value
+    c.db_ref = Some(1e-5);
+    c.y_label = "level (dB re 1 µbar)".into();
+    grouped_bar_chart(&dir.path("db.svg"), &c).unwrap();
+    let svg = std::fs::read_to_string(dir.path("db.svg")).unwrap();
+    let ticks: Vec<f64> = svg
+        .split("<text")
+        .filter_map(|t| t.split('>').nth(1))
+        .filter_map(|t| {
+            t.trim()
+                .trim_end_matches("</text")
+                .trim()
+                .replace('−', "-")
+                .parse()
+                .ok()
+        })
+        .collect();
+    // 3 bar re 1e-5 bar is 109.5 dB; the axis reaches down 100 dB from there
+    // (plus a margin), not to the −140 dB of the 1e-12 bar value
+    assert!(ticks.contains(&100.0), "{ticks:?}");
+    let lowest = ticks.iter().copied().fold(f64::INFINITY, f64::min);
+    assert!(
+        lowest >= 109.5 - BAR_DYNAMIC_RANGE_DB - 25.0,
+        "lowest tick {lowest}"
+    );
+    for bad in [0.0, -1.0, f64::NAN] {
+        c.db_ref = Some(bad);
+        assert!(matches!(
+            grouped_bar_chart(&dir.path("bad.svg"), &c),
+            Err(PlotError::InvalidData(_))
+        ));
+    }
+    assert!(!dir.path("bad.svg").exists());
+}
+
+/// An amplitude chart with `y_floor = 0`: error bars reaching below zero
+/// are cut there and the axis shows no negative tick; a point below the floor
+/// is refused.
+#[test]
+fn y_floor_keeps_amplitudes_non_negative() {
+    let dir = TempDir::new("floor");
+    let mut c = LineChart {
+        series: vec![XySeries {
+            name: "amplitude".into(),
+            points: vec![(1.0, 0.05), (2.0, 0.6), (3.0, 0.02)],
+            error_bars: Some(vec![(-0.05, 0.15), (0.5, 0.7), (-0.1, 0.14)]),
+            style: SeriesStyle::Points,
+            ..Default::default()
+        }],
+        y_floor: Some(0.0),
+        size: SIZE,
+        ..Default::default()
+    };
+    line_chart(&dir.path("a.svg"), &c).unwrap();
+    let svg = std::fs::read_to_string(dir.path("a.svg")).unwrap();
+    assert!(
+        !svg.contains(">−"),
+        "a negative tick label on an amplitude axis"
+    );
+    c.series[0].points[0].1 = -0.01;
+    assert!(matches!(
+        line_chart(&dir.path("b.svg"), &c),
+        Err(PlotError::InvalidData(_))
+    ));
 }
