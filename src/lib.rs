@@ -58,6 +58,8 @@ pub mod network;
 pub mod oil;
 pub mod parallel;
 pub mod plot;
+pub mod render;
+pub mod results;
 pub mod source;
 pub mod units;
 pub mod wall;

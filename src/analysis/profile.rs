@@ -16,6 +16,7 @@ use super::ripple::tap_pressure;
 use crate::circuit::Circuit;
 use crate::elements::{Connection, NodeId};
 use crate::network::{Plan, SolveError};
+use crate::source::Shaft;
 use num_complex::Complex64 as C64;
 
 /// Samples per wavelength along a line.
@@ -24,6 +25,9 @@ pub const POINTS_PER_WAVELENGTH: usize = 48;
 pub const MIN_POINTS: usize = 51;
 /// Most samples along a line.
 pub const MAX_POINTS: usize = 4001;
+/// Highest harmonic a pump on the shaft contributes to a profile (the
+/// highest a circuit solves).
+const MAX_HARMONIC: u32 = 200;
 
 /// The ripple at one point of a line.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -117,10 +121,18 @@ pub fn sample_count(length_m: f64, gamma: C64) -> usize {
 /// two-ports: a tube or hose counts its length, any other two-port (orifice,
 /// inertance) zero (Dijkstra's algorithm; circuits are small).
 pub fn path_distances(circuit: &Circuit, start: NodeId) -> Vec<Option<f64>> {
+    path_distances_from(circuit, &[start])
+}
+
+/// Shortest distance from the nearest of `starts` to every node (as
+/// [`path_distances`]; several pumps feed a circuit from several nodes).
+pub fn path_distances_from(circuit: &Circuit, starts: &[NodeId]) -> Vec<Option<f64>> {
     let n = circuit.nodes.len();
     let mut dist: Vec<Option<f64>> = vec![None; n];
     let mut done = vec![false; n];
-    dist[start] = Some(0.0);
+    for &start in starts {
+        dist[start] = Some(0.0);
+    }
     loop {
         let next = (0..n)
             .filter(|&i| !done[i])
@@ -147,8 +159,8 @@ pub fn path_distances(circuit: &Circuit, start: NodeId) -> Vec<Option<f64>> {
     dist
 }
 
-/// Solves harmonic `harmonic` of pump `pump_index` and samples every tube and
-/// hose ([`sample_count`] points each, ends included).
+/// Solves harmonic `harmonic` of pump `pump_index` alone and samples every
+/// tube and hose ([`sample_count`] points each, ends included).
 ///
 /// # Errors
 /// [`SolveError`] if the network is singular at the harmonic's frequency.
@@ -160,13 +172,62 @@ pub fn ripple_profile(
     pump_index: usize,
     harmonic: u32,
 ) -> Result<RippleProfile, SolveError> {
+    let pumps = &plan.circuit().pumps;
+    shaft_profile(
+        plan,
+        &Shaft::single(pumps, pump_index),
+        pump_index,
+        harmonic,
+    )
+}
+
+/// Solves the frequency of harmonic `harmonic` of pump `pump_index` with
+/// every pump of `shaft` injecting what it has there (pumps on one shaft
+/// share the speed and the angle reference, so their flows add as
+/// phasors), and samples every tube and hose. Distances along the circuit
+/// are measured from the nearest pump that injects at that frequency.
+///
+/// # Errors
+/// [`SolveError`] if the network is singular at that frequency.
+///
+/// # Panics
+/// If `pump_index` is out of range or not on `shaft`.
+pub fn shaft_profile(
+    plan: &Plan<'_>,
+    shaft: &Shaft,
+    pump_index: usize,
+    harmonic: u32,
+) -> Result<RippleProfile, SolveError> {
     let circuit = plan.circuit();
     let pump = &circuit.pumps[pump_index];
+    assert!(
+        shaft.pumps.contains(&pump_index),
+        "the pump is on the shaft"
+    );
     let freq_hz = f64::from(harmonic) * pump.pumping_frequency_hz();
     let omega = 2.0 * std::f64::consts::PI * freq_hz;
+    // the order of the shaft fundamental n·g at this frequency
+    let order = harmonic * pump.pumping_elements / shaft.fundamental_elements;
+    let mut injections = Vec::new();
+    shaft.injections(
+        &circuit.pumps,
+        order,
+        harmonic.max(MAX_HARMONIC),
+        pump.speed_rev_s,
+        &mut injections,
+    );
     let mut ws = plan.workspace();
-    let solution = plan.solve(freq_hz, &[(pump.node, pump.flow_ripple(harmonic))], &mut ws)?;
-    let distances = path_distances(circuit, pump.node);
+    let solution = plan.solve(freq_hz, &injections, &mut ws)?;
+    // distances from the pumps that inject at this frequency
+    let mut starts: Vec<NodeId> = injections
+        .iter()
+        .filter(|(_, q)| q.norm() > 0.0)
+        .map(|(n, _)| *n)
+        .collect();
+    if starts.is_empty() {
+        starts.push(pump.node);
+    }
+    let distances = path_distances_from(circuit, &starts);
     let mut lines = Vec::new();
     for (i, e) in circuit.elements.iter().enumerate() {
         let (Some(line), Connection::Series { a, b }) = (e.kind.line(), e.connection) else {

@@ -216,13 +216,14 @@ impl Default for PeakSettings {
 }
 
 /// A resonance of the circuit.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Resonance {
     /// Peak frequency f0 in Hz.
     pub freq_hz: f64,
     /// The point where the peak is highest.
     pub point: String,
     /// |H(f0)| at that point, in Pa per m³/s.
+    #[serde(rename = "level_pa_per_m3_s")]
     pub level: f64,
     /// Quality factor f0/(f2 − f1) from the half-power points; where the
     /// response does not fall to half power on one side before the next
@@ -422,7 +423,7 @@ fn half_power(
 }
 
 /// The frequency band a pump harmonic sweeps over the operating speed range.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct HarmonicBand {
     /// Harmonic order k.
     pub order: u32,
@@ -456,7 +457,8 @@ pub fn harmonic_bands(
 }
 
 /// How a harmonic band meets a resonance.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
 pub enum Coverage {
     /// The band contains the resonance: the harmonic crosses it at this
     /// shaft speed.

@@ -16,15 +16,28 @@ pub fn evaluate(harmonics: &[(u32, C64)], theta: f64) -> f64 {
         .sum()
 }
 
-/// The peak-to-peak value of p(θ) over one period.
+/// The highest and lowest points of p(θ) over one period: (θ, p(θ)) each,
+/// θ in 0..2π of the fundamental.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Extremes {
+    /// The maximum: (θ, value).
+    pub max: (f64, f64),
+    /// The minimum: (θ, value).
+    pub min: (f64, f64),
+}
+
+/// The extremes of p(θ) over one period.
 ///
 /// Samples 64 points per period of the highest order (at least 1024), then
 /// refines the largest and smallest samples by golden-section search on the
-/// exact sum, so the result is accurate to round-off.
-pub fn peak_to_peak(harmonics: &[(u32, C64)]) -> f64 {
+/// exact sum, so the values are accurate to round-off.
+pub fn extremes(harmonics: &[(u32, C64)]) -> Extremes {
     let max_order = harmonics.iter().map(|h| h.0).max().unwrap_or(0);
     if max_order == 0 {
-        return 0.0;
+        return Extremes {
+            max: (0.0, 0.0),
+            min: (0.0, 0.0),
+        };
     }
     let n = (64 * max_order as usize).max(1024);
     let step = std::f64::consts::TAU / n as f64;
@@ -46,17 +59,32 @@ pub fn peak_to_peak(harmonics: &[(u32, C64)]) -> f64 {
         centre_max - step,
         centre_max + step,
         80,
-    )
-    .1
-    .max(v_max);
-    let lo = -golden_section_max(
+    );
+    let lo = golden_section_max(
         |t| -evaluate(harmonics, t),
         centre_min - step,
         centre_min + step,
         80,
-    )
-    .1;
-    hi - lo.min(v_min)
+    );
+    let tau = std::f64::consts::TAU;
+    Extremes {
+        max: if hi.1 >= v_max {
+            (hi.0.rem_euclid(tau), hi.1)
+        } else {
+            (centre_max, v_max)
+        },
+        min: if -lo.1 <= v_min {
+            (lo.0.rem_euclid(tau), -lo.1)
+        } else {
+            (centre_min, v_min)
+        },
+    }
+}
+
+/// The peak-to-peak value of p(θ) over one period (see [`extremes`]).
+pub fn peak_to_peak(harmonics: &[(u32, C64)]) -> f64 {
+    let e = extremes(harmonics);
+    e.max.1 - e.min.1
 }
 
 #[cfg(test)]
@@ -84,6 +112,21 @@ mod tests {
             (pp - 5.911_479_321_806_25e-5).abs() < 1e-9 * 5.9e-5,
             "{pp:e}"
         );
+    }
+
+    // A cos(θ + φ) peaks at θ = −φ (mod 2π) with value A and dips at
+    // θ = π − φ with −A (the cosine's extremes).
+    #[test]
+    fn extremes_of_one_harmonic_sit_where_the_cosine_peaks() {
+        let e = extremes(&[(1, C64::from_polar(2.0, 0.5))]);
+        let tau = std::f64::consts::TAU;
+        assert!((e.max.0 - (tau - 0.5)).abs() < 1e-6, "{e:?}");
+        assert!((e.max.1 - 2.0).abs() < 1e-12);
+        assert!(
+            (e.min.0 - (std::f64::consts::PI - 0.5)).abs() < 1e-6,
+            "{e:?}"
+        );
+        assert!((e.min.1 + 2.0).abs() < 1e-12);
     }
 
     #[test]

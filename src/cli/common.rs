@@ -4,8 +4,9 @@ use super::{EXIT_COMPUTE, EXIT_INPUT};
 use anyhow::Context;
 use ripline::io::InputError;
 use ripline::io::output::{OutputError, StagedOutputs};
+use ripline::results::{self, Notice, Origin};
 use ripline::source::{Shaft, shafts};
-use ripline::units::{Dimension, PressureDisplay, parse_quantity};
+use ripline::units::{Dimension, parse_quantity};
 use ripline::{Circuit, demo};
 use std::path::{Path, PathBuf};
 
@@ -27,21 +28,6 @@ pub fn load_circuit(file: Option<&Path>) -> anyhow::Result<LoadedCircuit> {
             source: demo::DEMO_NAME.to_string(),
         }),
     }
-}
-
-/// The first lines of a command's report: `ripline <command>: <source>` and
-/// the circuit's title, if any.
-pub fn write_heading(
-    out: &mut impl std::io::Write,
-    command: &str,
-    source: &str,
-    circuit: &Circuit,
-) -> std::io::Result<()> {
-    writeln!(out, "ripline {command}: {source}")?;
-    if let Some(title) = &circuit.title {
-        writeln!(out, "circuit: {title}")?;
-    }
-    Ok(())
 }
 
 /// A user error in a command-line value (exit code 2).
@@ -67,9 +53,15 @@ pub fn cli_quantity(
 
 /// Exit code for an error: 2 for input and usage errors, 1 otherwise.
 pub fn exit_code(err: &anyhow::Error) -> u8 {
-    let input = err
-        .chain()
-        .any(|c| c.is::<InputError>() || c.is::<UsageError>() || c.is::<OutputError>());
+    let input = err.chain().any(|c| {
+        c.is::<InputError>()
+            || c.is::<UsageError>()
+            || c.is::<OutputError>()
+            || matches!(
+                c.downcast_ref::<results::Error>(),
+                Some(results::Error::Request(_))
+            )
+    });
     if input { EXIT_INPUT } else { EXIT_COMPUTE }
 }
 
@@ -176,48 +168,11 @@ pub fn pick_shaft(circuit: &Circuit, name: Option<&str>) -> anyhow::Result<Shaft
         .ok_or_else(|| {
             let names: Vec<String> = all.iter().map(|s| format!("`{}`", s.name)).collect();
             UsageError(format!(
-                "--shaft {name}: no shaft or pump has that name; the circuit's shafts are {}",
+                "--pump {name}: no shaft or pump has that name; the circuit's shafts are {}",
                 names.join(", ")
             ))
             .into()
         })
-}
-
-/// The options `solve` and `sweep` share, checked before any work: the dB
-/// reference, the output paths, and the circuit with its harmonic count.
-pub struct Prepared {
-    pub p_ref: f64,
-    pub csv: Option<PathBuf>,
-    pub plot: Option<PathBuf>,
-    pub loaded: LoadedCircuit,
-}
-
-/// Checks `--db-ref`, `--csv`, `--plot`, loads FILE (or the demo) and
-/// applies `--harmonics`.
-pub fn prepare(
-    db_ref: &str,
-    csv: Option<&Path>,
-    plot: Option<&Path>,
-    file: Option<&Path>,
-    harmonics: Option<u32>,
-) -> anyhow::Result<Prepared> {
-    let p_ref = db_reference(db_ref)?;
-    let (csv, plot) = csv_and_plot_paths(csv, plot)?;
-    let mut loaded = load_circuit(file)?;
-    if let Some(n) = harmonics {
-        if !(1..=200).contains(&n) {
-            return Err(
-                UsageError(format!("--harmonics must be between 1 and 200, found {n}")).into(),
-            );
-        }
-        loaded.circuit.harmonics = n;
-    }
-    Ok(Prepared {
-        p_ref,
-        csv,
-        plot,
-        loaded,
-    })
 }
 
 /// Smallest and largest reference pressure for levels in dB, Pa: from the
@@ -238,34 +193,138 @@ pub fn db_reference(text: &str) -> anyhow::Result<f64> {
     Ok(p_ref)
 }
 
-/// The reference pressure as printed beside levels: 4 significant digits,
-/// in Pa below 10 Pa (`20e-6 Pa` rather than `0.000 Pa`).
-pub fn reference_text(p_ref: f64) -> String {
-    if p_ref >= 10.0 {
-        return PressureDisplay(p_ref).to_string();
-    }
-    let rounded: f64 = format!("{p_ref:.3e}").parse().unwrap_or(p_ref);
-    if rounded >= 1e-3 {
-        format!("{rounded} Pa")
-    } else {
-        format!("{rounded:e} Pa")
+/// `--db-ref PRESSURE` (a bare number in Pa), default 1 Pa.
+pub fn db_ref_option(text: Option<&str>) -> anyhow::Result<(f64, Origin)> {
+    let Some(text) = text else {
+        return Ok((1.0, Origin::Default));
+    };
+    Ok((db_reference(text)?, Origin::Request))
+}
+
+/// `--harmonics N`, checked to be 1..=200.
+pub fn harmonics_option(n: Option<u32>) -> anyhow::Result<Option<u32>> {
+    match n {
+        Some(n) if !(1..=200).contains(&n) => {
+            Err(UsageError(format!("--harmonics must be between 1 and 200, found {n}")).into())
+        }
+        _ => Ok(n),
     }
 }
 
-/// 20·log10(rms/p_ref), taken as a difference of logarithms so that it is
-/// finite for every positive finite pressure (the ratio itself can
-/// underflow or overflow).
-pub fn db_re(rms: f64, p_ref: f64) -> f64 {
-    20.0 * (rms.log10() - p_ref.log10())
+/// Checks an optional `--json FILE` path before any work.
+pub fn json_path(path: Option<&Path>) -> anyhow::Result<Option<PathBuf>> {
+    path.map(|p| check_output("--json", p, &["json"]))
+        .transpose()
 }
 
-/// A level in dB re `p_ref` of an rms pressure, or "no ripple".
-pub fn level_text(rms: f64, p_ref: f64) -> String {
-    if rms > 0.0 {
-        format!("{:.1} dB", db_re(rms, p_ref))
-    } else {
-        "no ripple".to_string()
+/// The output files of one command as one all-or-nothing group (see
+/// [`plan_outputs`]), staged until every result is ready.
+pub struct Outputs(pub StagedOutputs);
+
+impl Outputs {
+    /// Plans the group: `outputs` are (option, path) pairs, none of which
+    /// may be a file the command reads. Call after loading the inputs and
+    /// before the work.
+    pub fn plan(outputs: &[(&str, Option<&Path>)]) -> anyhow::Result<Self> {
+        Ok(Outputs(plan_outputs(&[], outputs, false)?))
     }
+
+    /// Stages a CSV table produced by `write`.
+    pub fn csv(
+        &mut self,
+        path: &Path,
+        write: impl FnOnce(&mut std::io::BufWriter<std::fs::File>) -> Result<(), csv::Error>,
+    ) -> anyhow::Result<()> {
+        stage_csv(&mut self.0, path, write)
+    }
+
+    /// Stages a file of `bytes`.
+    pub fn bytes(&mut self, path: &Path, bytes: &[u8]) -> anyhow::Result<()> {
+        self.0
+            .stage_bytes(path, bytes)
+            .with_context(|| format!("writing {}", path.display()))
+    }
+
+    /// Stages the JSON document of a result.
+    pub fn json<T: serde::Serialize>(
+        &mut self,
+        path: &Path,
+        command: &str,
+        result: &T,
+    ) -> anyhow::Result<()> {
+        let mut bytes = Vec::new();
+        ripline::render::json::write(command, result, &mut bytes)
+            .context("formatting the JSON document")?;
+        self.bytes(path, &bytes)
+    }
+
+    /// Stages a picture drawn by `draw` at the path it is given.
+    pub fn plot(
+        &mut self,
+        path: &Path,
+        draw: impl FnOnce(&Path) -> Result<(), ripline::plot::PlotError>,
+    ) -> anyhow::Result<()> {
+        self.0
+            .stage_with(path, draw)
+            .with_context(|| format!("drawing {}", path.display()))
+    }
+
+    /// Stages a CSV table when `path` is given.
+    pub fn csv_to(
+        &mut self,
+        path: Option<&Path>,
+        write: impl FnOnce(&mut std::io::BufWriter<std::fs::File>) -> Result<(), csv::Error>,
+    ) -> anyhow::Result<()> {
+        path.map_or(Ok(()), |p| self.csv(p, write))
+    }
+
+    /// Stages a picture when `path` is given.
+    pub fn plot_to(
+        &mut self,
+        path: Option<&Path>,
+        draw: impl FnOnce(&Path) -> Result<(), ripline::plot::PlotError>,
+    ) -> anyhow::Result<()> {
+        path.map_or(Ok(()), |p| self.plot(p, draw))
+    }
+
+    /// Stages the JSON document of `result` when `json` is given, moves
+    /// every staged file into place and prints the text report.
+    pub fn finish<T: serde::Serialize>(
+        mut self,
+        json: Option<&Path>,
+        command: &str,
+        result: &T,
+        text: impl FnOnce(&T, &mut std::io::StdoutLock<'static>) -> std::io::Result<()>,
+    ) -> anyhow::Result<()> {
+        if let Some(path) = json {
+            self.json(path, command, result)?;
+        }
+        self.commit()?;
+        print(|out| text(result, out))
+    }
+
+    /// Moves every staged file into place (see [`commit`]).
+    pub fn commit(self) -> anyhow::Result<()> {
+        commit(self.0)
+    }
+}
+
+/// Prints warnings on standard error.
+pub fn print_warnings(warnings: &[Notice]) {
+    for w in warnings {
+        eprintln!("warning: {w}");
+    }
+}
+
+/// Prints a report on standard output.
+pub fn print(
+    write: impl FnOnce(&mut std::io::StdoutLock<'static>) -> std::io::Result<()>,
+) -> anyhow::Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    write(&mut out)?;
+    out.flush()?;
+    Ok(())
 }
 
 /// The output files of a command as one all-or-nothing group, checked before
@@ -288,11 +347,6 @@ pub fn plan_outputs(
         .filter_map(|&(option, path)| Some((option, path?, create_folders)))
         .collect();
     Ok(StagedOutputs::plan(&targets, &read)?)
-}
-
-/// [`plan_outputs`] for the usual `--csv` and `--plot` of a circuit command.
-pub fn plan_csv_and_plot(csv: Option<&Path>, plot: Option<&Path>) -> anyhow::Result<StagedOutputs> {
-    plan_outputs(&[], &[("--csv", csv), ("--plot", plot)], false)
 }
 
 /// Removes the staged output files of this process when it is interrupted

@@ -7,7 +7,6 @@
 
 mod check;
 mod common;
-mod components;
 mod fit;
 mod profile;
 mod ranges;

@@ -7,6 +7,7 @@ use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use ripline::Circuit;
 use ripline::analysis::ripple::report_points;
 use ripline::circuit::TapLocation;
+use ripline::results::setup::FrequencySweep;
 use ripline::units::Dimension;
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
@@ -35,92 +36,32 @@ pub fn parse_range(
     Ok((lo, hi))
 }
 
-/// The operating speed range and where it came from.
-pub struct SpeedRange {
-    /// (low, high) in rev/s; equal when only the pump's speed is known.
-    pub rev_s: (f64, f64),
-    /// The range and where it comes from, e.g. "800–2400 rpm (the pump's
-    /// `speed_range`)".
-    pub source: String,
-}
-
-impl SpeedRange {
-    /// Whether the range is a single speed.
-    pub fn is_single(&self) -> bool {
-        self.rev_s.0 == self.rev_s.1
-    }
-
-    /// "800–2400 rpm" or "1500 rpm".
-    pub fn describe(&self) -> String {
-        if self.is_single() {
-            format!("{:.0} rpm", self.rev_s.0 * 60.0)
-        } else {
-            format!("{:.0}–{:.0} rpm", self.rev_s.0 * 60.0, self.rev_s.1 * 60.0)
-        }
-    }
-}
-
-/// The speed range: `--speed-range` (rpm unless a unit is given), else the
-/// pump's `speed_range`, else the pump's speed alone (and the report says so).
-pub fn speed_range(
-    option: Option<&str>,
-    circuit: &Circuit,
-    pump_index: usize,
-) -> anyhow::Result<SpeedRange> {
-    let pump = &circuit.pumps[pump_index];
-    if let Some(text) = option {
-        let (lo, hi) = parse_range("--speed-range", text, Dimension::ShaftSpeed, "rpm")?;
-        if hi > 1000.0 {
-            return Err(UsageError(format!(
-                "--speed-range {text}: speeds must be at most 60000 rpm"
-            ))
-            .into());
-        }
-        return Ok(SpeedRange {
-            rev_s: (lo, hi),
-            source: format!("{:.0}–{:.0} rpm (from --speed-range)", lo * 60.0, hi * 60.0),
-        });
-    }
-    Ok(match pump.speed_range_rev_s {
-        Some(r) => SpeedRange {
-            rev_s: r,
-            source: format!(
-                "{:.0}–{:.0} rpm (the pump's `speed_range`)",
-                r.0 * 60.0,
-                r.1 * 60.0
-            ),
-        },
-        None => SpeedRange {
-            rev_s: (pump.speed_rev_s, pump.speed_rev_s),
-            source: format!(
-                "none given (no `speed_range` in the pump section and no --speed-range), so the pump's speed {:.0} rpm alone",
-                pump.speed_rev_s * 60.0
-            ),
-        },
-    })
-}
-
-/// The index of the pump called `name`, or the first pump.
+/// The index of the pump called `name` (or the first pump on the shaft
+/// called `name`), or the first pump.
 pub fn pump_index(circuit: &Circuit, name: Option<&str>) -> anyhow::Result<usize> {
-    match name {
-        None => Ok(0),
-        Some(n) => circuit
-            .pumps
-            .iter()
-            .position(|p| p.name == n)
-            .ok_or_else(|| {
-                UsageError(format!(
-                    "--pump {n}: no pump has that name; the circuit has: {}",
-                    circuit
-                        .pumps
-                        .iter()
-                        .map(|p| format!("`{}`", p.name))
-                        .collect::<Vec<_>>()
-                        .join(", ")
-                ))
-                .into()
-            }),
-    }
+    let Some(n) = name else { return Ok(0) };
+    circuit
+        .pumps
+        .iter()
+        .position(|p| p.name == n)
+        .or_else(|| {
+            circuit
+                .pumps
+                .iter()
+                .position(|p| p.shaft.as_deref() == Some(n))
+        })
+        .ok_or_else(|| {
+            UsageError(format!(
+                "--pump {n}: no pump or shaft has that name; the circuit has: {}",
+                circuit
+                    .pumps
+                    .iter()
+                    .map(|p| format!("`{}`", p.name))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ))
+            .into()
+        })
 }
 
 /// The measurement point called `name` (a tap, or a node when the circuit
@@ -205,13 +146,10 @@ impl Progress {
         Progress(bar)
     }
 
-    /// Moves the bar to `done` steps (growing its length if the work ran over).
-    pub fn set(&self, done: usize) {
-        let done = done as u64;
-        if self.0.length().is_some_and(|l| done > l) {
-            self.0.set_length(done);
-        }
-        self.0.set_position(done);
+    /// Moves the bar to `done` of `total` steps.
+    pub fn set_of(&self, done: usize, total: usize) {
+        self.0.set_length(total as u64);
+        self.0.set_position(done as u64);
     }
 
     /// Removes the bar.
@@ -223,24 +161,6 @@ impl Progress {
 /// Checks an optional CSV output path before any work.
 pub fn csv_output(option: &str, path: Option<&Path>) -> anyhow::Result<Option<PathBuf>> {
     path.map(|p| check_output(option, p, &["csv"])).transpose()
-}
-
-/// Checks an optional plot output path before any work.
-pub fn plot_output(path: Option<&Path>) -> anyhow::Result<Option<PathBuf>> {
-    path.map(|p| check_output("--plot", p, &["svg", "png"]))
-        .transpose()
-}
-
-/// What a frequency sweep of `response` or `silencer` covers.
-pub struct Sweep {
-    /// The pump that drives it.
-    pub pump_index: usize,
-    /// The operating speed range.
-    pub speeds: SpeedRange,
-    /// The band in Hz.
-    pub band: (f64, f64),
-    /// Number of log-spaced frequencies.
-    pub points: usize,
 }
 
 /// The options that set up a frequency sweep, shared by `response` and
@@ -259,9 +179,16 @@ pub struct SweepArgs {
     /// (overrides the pump's `speed_range`).
     #[arg(long, value_name = "LOW..HIGH")]
     speed_range: Option<String>,
-    /// The pump whose source flow drives the circuit (default: the first).
+    /// The pump whose source flow drives the circuit (or a shaft: its
+    /// first pump); default: the first pump.
     #[arg(long, value_name = "NAME")]
     pump: Option<String>,
+    /// The pump's shaft speed, in rpm unless a unit is given (overrides the file).
+    #[arg(long, value_name = "RPM")]
+    speed: Option<String>,
+    /// Number of harmonics of the pumping frequency (overrides the file).
+    #[arg(long, value_name = "N")]
+    harmonics: Option<u32>,
 }
 
 /// Lowest and highest frequency `--band` may reach, Hz: far outside the
@@ -269,92 +196,58 @@ pub struct SweepArgs {
 /// logarithm print as ordinary numbers.
 pub const BAND_RANGE_HZ: (f64, f64) = (1e-3, 1e6);
 
-/// Resolves the sweep options against a circuit (see [`SweepArgs`]) and
-/// prints the circuit's warnings up to the top of the band.
-pub fn sweep(circuit: &Circuit, args: &SweepArgs) -> anyhow::Result<Sweep> {
-    let (pump, speed_range, band, points) = (
-        args.pump.as_deref(),
-        args.speed_range.as_deref(),
-        args.band.as_deref(),
-        args.points,
-    );
-    let pump_index = pump_index(circuit, pump)?;
-    let speeds = self::speed_range(speed_range, circuit, pump_index)?;
-    let z = f64::from(circuit.pumps[pump_index].pumping_elements);
-    let band = match band {
-        Some(text) => {
-            let band = parse_range("--band", text, Dimension::Frequency, "Hz")?;
-            let (lo, hi) = BAND_RANGE_HZ;
-            if band.0 < lo || band.1 > hi {
+/// `--band LOW..HIGH` in Hz, within [`BAND_RANGE_HZ`].
+pub fn band_option(text: &str) -> anyhow::Result<(f64, f64)> {
+    let band = parse_range("--band", text, Dimension::Frequency, "Hz")?;
+    let (lo, hi) = BAND_RANGE_HZ;
+    if band.0 < lo || band.1 > hi {
+        return Err(UsageError(format!(
+            "--band {text}: the band must lie within 0.001 Hz .. 1 MHz (pressure ripple of a pump is a few Hz to some kHz)"
+        ))
+        .into());
+    }
+    Ok(band)
+}
+
+impl SweepArgs {
+    /// Checks the options and looks the pump up in `circuit`.
+    pub fn resolve(&self, circuit: &Circuit) -> anyhow::Result<FrequencySweep> {
+        let points = match self.points {
+            Some(n) if !(10..=200_000).contains(&n) => {
                 return Err(UsageError(format!(
-                    "--band {text}: the band must lie within 0.001 Hz .. 1 MHz (pressure ripple of a pump is a few Hz to some kHz)"
+                    "--points must be between 10 and 200000, found {n}"
                 ))
                 .into());
             }
-            band
-        }
-        None => (
-            0.25 * z * speeds.rev_s.0,
-            f64::from(circuit.harmonics.max(10)) * z * speeds.rev_s.1,
-        ),
-    };
-    let points = match points {
-        Some(n) if (10..=200_000).contains(&n) => n,
-        Some(n) => {
-            return Err(
-                UsageError(format!("--points must be between 10 and 200000, found {n}")).into(),
-            );
-        }
-        None => ripline::analysis::response::default_points(band.0, band.1),
-    };
-    for w in ripline::diagnostics::circuit_warnings(circuit, band.1) {
-        eprintln!("warning: {w}");
+            n => n,
+        };
+        Ok(FrequencySweep {
+            pump_index: pump_index(circuit, self.pump.as_deref())?,
+            speed_rev_s: self
+                .speed
+                .as_deref()
+                .map(|s| super::common::speed_option("--speed", s))
+                .transpose()?,
+            speed_range: self
+                .speed_range
+                .as_deref()
+                .map(speed_range_option)
+                .transpose()?,
+            band: self.band.as_deref().map(band_option).transpose()?,
+            points,
+            harmonics: super::common::harmonics_option(self.harmonics)?,
+        })
     }
-    Ok(Sweep {
-        pump_index,
-        speeds,
-        band,
-        points,
-    })
 }
 
-/// Harmonic bands for a chart: shaded bands over a speed range, or dashed
-/// markers when the range is a single speed.
-pub fn band_marks(
-    bands: &[ripline::analysis::response::HarmonicBand],
-) -> (Vec<ripline::plot::Band>, Vec<ripline::plot::Marker>) {
-    let label = |order: u32| format!("{order}×");
-    let shaded = bands
-        .iter()
-        .filter(|b| b.high_hz > b.low_hz)
-        .map(|b| ripline::plot::Band {
-            from: b.low_hz,
-            to: b.high_hz,
-            label: label(b.order),
-        })
-        .collect();
-    let lines = bands
-        .iter()
-        .filter(|b| b.high_hz == b.low_hz)
-        .map(|b| ripline::plot::Marker {
-            value: b.low_hz,
-            label: label(b.order),
-        })
-        .collect();
-    (shaded, lines)
-}
-
-/// The bands of the harmonics the pump's source flow has, and those of the
-/// harmonics it lacks (which excite nothing).
-pub fn excited_bands(
-    pump: &ripline::source::Pump,
-    speeds: &SpeedRange,
-    harmonics: u32,
-) -> (
-    Vec<ripline::analysis::response::HarmonicBand>,
-    Vec<ripline::analysis::response::HarmonicBand>,
-) {
-    ripline::analysis::response::harmonic_bands(pump.pumping_elements, speeds.rev_s, harmonics)
-        .into_iter()
-        .partition(|b| pump.flow_ripple(b.order).norm() > 0.0)
+/// `--speed-range LOW..HIGH` in rev/s (rpm when bare), at most 60000 rpm.
+pub fn speed_range_option(text: &str) -> anyhow::Result<(f64, f64)> {
+    let (lo, hi) = parse_range("--speed-range", text, Dimension::ShaftSpeed, "rpm")?;
+    if hi > 1000.0 {
+        return Err(UsageError(format!(
+            "--speed-range {text}: speeds must be at most 60000 rpm"
+        ))
+        .into());
+    }
+    Ok((lo, hi))
 }

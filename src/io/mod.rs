@@ -5,8 +5,6 @@
 
 pub mod bench_file;
 pub mod circuit_file;
-pub mod csv_out;
-pub mod csv_response;
 pub mod gas_pressure;
 pub mod locate;
 pub mod message;

@@ -1,0 +1,360 @@
+//! Renderers of [`ResponseResult`]: the terminal report, the response CSV
+//! and the stacked response and impedance charts.
+
+use super::heading;
+use super::table::{Align, DIGITS, Quantity, Table, phase, sig};
+use crate::analysis::response::{Coverage, HarmonicBand, Resonance};
+use crate::plot;
+use crate::results::response::{ResonanceVerdict, ResponseResult};
+use std::io::Write;
+
+/// Pa per m³/s in one bar per L/min.
+pub const BAR_PER_LPM: f64 = 1e5 * 60_000.0;
+
+/// Header of the frequency-response table (`response --csv`).
+pub const RESPONSE_HEADER: [&str; 4] =
+    ["point", "frequency_hz", "amplitude_pa_per_m3s", "phase_deg"];
+
+/// The name under which the impedance the pump sees appears in the
+/// response table (its unit, Pa·s/m³, is also Pa per m³/s).
+pub fn load_impedance_point(pump: &str) -> String {
+    format!("impedance seen by pump {pump}")
+}
+
+/// Writes the terminal report.
+///
+/// # Errors
+/// The writer's error.
+pub fn text(r: &ResponseResult, out: &mut impl Write) -> std::io::Result<()> {
+    heading(out, "response", &r.subject)?;
+    let z = f64::from(r.pump.pumping_elements);
+    writeln!(
+        out,
+        "pump `{}` at node `{}`, {} pumping elements",
+        r.pump.name, r.pump.node, r.pump.pumping_elements,
+    )?;
+    let s = &r.speed_range;
+    writeln!(
+        out,
+        "speed range: {}; pumping frequency {}",
+        s.describe_origin(),
+        if s.is_single() {
+            format!("{:.2} Hz", z * s.low_rev_s)
+        } else {
+            format!("{:.2}–{:.2} Hz", z * s.low_rev_s, z * s.high_rev_s)
+        }
+    )?;
+    writeln!(
+        out,
+        "band {:.2}–{:.2} Hz, {} log-spaced frequencies; response = pressure per unit source flow (peak/peak)",
+        r.grid.low_hz, r.grid.high_hz, r.grid.points
+    )?;
+    writeln!(out)?;
+    resonances(out, &r.resonances)?;
+    writeln!(out)?;
+    bands(out, r)?;
+    writeln!(out)?;
+    verdicts(out, r)?;
+    writeln!(out)?;
+    load(out, r)
+}
+
+fn level_text(r: &Resonance) -> String {
+    let base = format!(
+        "{:.4e} Pa·s/m³ = {} bar per L/min",
+        r.level,
+        sig(r.level / BAR_PER_LPM, DIGITS)
+    );
+    if r.unbounded {
+        format!("≥ {base} (undamped: lossless model)")
+    } else {
+        base
+    }
+}
+
+fn resonances(out: &mut impl Write, list: &[ResonanceVerdict]) -> std::io::Result<()> {
+    if list.is_empty() {
+        return writeln!(
+            out,
+            "resonances: none in the band (no peak with 3 dB prominence)"
+        );
+    }
+    writeln!(
+        out,
+        "resonances (peaks with at least 3 dB prominence, refined by golden-section search; Q from the half-power points):"
+    )?;
+    let mut t = Table::new(&[
+        ("#", Align::Right),
+        ("frequency Hz", Align::Right),
+        ("Q", Align::Right),
+        ("peak level", Align::Left),
+        ("highest at (also seen at)", Align::Left),
+    ]);
+    for (i, v) in list.iter().enumerate() {
+        let r = &v.resonance;
+        let also: Vec<&str> = r
+            .seen_at
+            .iter()
+            .filter(|n| **n != r.point)
+            .map(String::as_str)
+            .collect();
+        t.row(vec![
+            (i + 1).to_string(),
+            format!("{:.2}", r.freq_hz),
+            r.quality.map_or_else(|| "—".into(), |q| format!("{q:.1}")),
+            level_text(r),
+            if also.is_empty() {
+                format!("`{}`", r.point)
+            } else {
+                format!("`{}` ({})", r.point, also.join(", "))
+            },
+        ]);
+    }
+    t.write(out, "  ")
+}
+
+fn bands(out: &mut impl Write, r: &ResponseResult) -> std::io::Result<()> {
+    let single = r.speed_range.is_single();
+    writeln!(out, "harmonic bands over {}:", r.speed_range.describe())?;
+    if !r.silent_orders.is_empty() {
+        writeln!(
+            out,
+            "  (left out, no source flow in the pump's table: harmonic {})",
+            r.silent_orders
+                .iter()
+                .map(u32::to_string)
+                .collect::<Vec<_>>()
+                .join(", ")
+        )?;
+    }
+    for b in &r.bands {
+        if single {
+            writeln!(out, "  harmonic {:>2}: {:>9.2} Hz", b.order, b.low_hz)?;
+        } else {
+            writeln!(
+                out,
+                "  harmonic {:>2}: {:>9.2} – {:>9.2} Hz",
+                b.order, b.low_hz, b.high_hz
+            )?;
+        }
+    }
+    Ok(())
+}
+
+fn verdicts(out: &mut impl Write, r: &ResponseResult) -> std::io::Result<()> {
+    writeln!(
+        out,
+        "verdict (a harmonic band containing a resonance crosses it; one ending within {:.0} % of it is near; ≈ the peak ripple at the crossing, peak level × source flow):",
+        r.margin * 100.0
+    )?;
+    if r.resonances.is_empty() {
+        return writeln!(out, "  nothing to cross");
+    }
+    for (i, v) in r.resonances.iter().enumerate() {
+        let text = if v.harmonics.is_empty() {
+            "clear".to_string()
+        } else {
+            v.harmonics
+                .iter()
+                .map(|h| match h.coverage {
+                    Coverage::Crossed { speed_rev_s } => {
+                        let estimate = match h.ripple_pa {
+                            Some(p) => format!(
+                                "≈ {} at `{}`",
+                                Quantity::Pressure.show(p),
+                                v.resonance.point
+                            ),
+                            None => "unbounded: lossless model".to_string(),
+                        };
+                        format!(
+                            "CROSSED by harmonic {} at {:.0} rpm ({estimate})",
+                            h.order,
+                            speed_rev_s * 60.0
+                        )
+                    }
+                    Coverage::Near { gap, speed_rev_s } => format!(
+                        "near harmonic {} ({:.1} % away at {:.0} rpm)",
+                        h.order,
+                        gap * 100.0,
+                        speed_rev_s * 60.0
+                    ),
+                })
+                .collect::<Vec<_>>()
+                .join("; ")
+        };
+        writeln!(
+            out,
+            "  {:>2}  {:>10.2} Hz  {text}",
+            i + 1,
+            v.resonance.freq_hz
+        )?;
+    }
+    writeln!(
+        out,
+        "  {} of {} resonances crossed by a harmonic band",
+        r.resonances.iter().filter(|v| v.crossed()).count(),
+        r.resonances.len()
+    )
+}
+
+fn load(out: &mut impl Write, r: &ResponseResult) -> std::io::Result<()> {
+    writeln!(
+        out,
+        "impedance pump `{}` sees at its harmonics ({:.0} rpm); the full curve is in the CSV as `{}`:",
+        r.pump.name,
+        r.pump.speed_rev_s * 60.0,
+        load_impedance_point(&r.pump.name)
+    )?;
+    let mut t = Table::new(&[
+        ("harmonic", Align::Right),
+        ("frequency Hz", Align::Right),
+        ("|Z| Pa·s/m³", Align::Right),
+        ("phase deg", Align::Right),
+    ]);
+    for row in &r.load {
+        t.row(match row.impedance_pa_s_m3 {
+            Some(z) => vec![
+                row.order.to_string(),
+                format!("{:.2}", row.freq_hz),
+                format!("{:.4e}", z.amplitude),
+                phase(z.phase_deg),
+            ],
+            None => vec![
+                row.order.to_string(),
+                format!("{:.2}", row.freq_hz),
+                "unbounded".into(),
+                "(an undamped resonance of a lossless model)".into(),
+            ],
+        });
+    }
+    t.write(out, "  ")
+}
+
+/// Writes one row per point and frequency, then the impedance the pump
+/// sees as one more "point" (SI, peak amplitudes).
+///
+/// # Errors
+/// The CSV writer's error.
+pub fn csv(r: &ResponseResult, out: impl Write) -> Result<(), csv::Error> {
+    let mut w = csv::Writer::from_writer(out);
+    w.write_record(RESPONSE_HEADER)?;
+    let load = load_impedance_point(&r.pump.name);
+    let curves = r
+        .points
+        .iter()
+        .map(|p| (p.name.as_str(), &p.values_pa_per_m3_s))
+        .chain(std::iter::once((load.as_str(), &r.load_impedance_pa_s_m3)));
+    for (name, values) in curves {
+        for (f, v) in r.freqs_hz.iter().zip(values) {
+            w.write_record([
+                name.to_string(),
+                format!("{f}"),
+                format!("{}", v.amplitude),
+                format!("{}", v.phase_deg),
+            ])?;
+        }
+    }
+    w.flush()?;
+    Ok(())
+}
+
+/// Harmonic bands for a chart: shaded bands over a speed range, or dashed
+/// markers when the range is a single speed.
+pub fn band_marks(bands: &[HarmonicBand]) -> (Vec<plot::Band>, Vec<plot::Marker>) {
+    let label = |order: u32| format!("{order}×");
+    let shaded = bands
+        .iter()
+        .filter(|b| b.high_hz > b.low_hz)
+        .map(|b| plot::Band {
+            from: b.low_hz,
+            to: b.high_hz,
+            label: label(b.order),
+        })
+        .collect();
+    let lines = bands
+        .iter()
+        .filter(|b| b.high_hz == b.low_hz)
+        .map(|b| plot::Marker {
+            value: b.low_hz,
+            label: label(b.order),
+        })
+        .collect();
+    (shaded, lines)
+}
+
+/// The response curves (log–log) with the harmonic bands shaded and the
+/// resonances marked, above the impedance the pump sees.
+pub fn charts(r: &ResponseResult) -> Vec<plot::LineChart> {
+    let (x_bands, mut x_markers) = band_marks(&r.bands);
+    // Label the resonances that a harmonic crosses or nears; mark all.
+    x_markers.extend(
+        r.resonances
+            .iter()
+            .filter(|v| !v.harmonics.is_empty())
+            .map(|v| plot::Marker {
+                value: v.resonance.freq_hz,
+                label: format!("{:.0} Hz", v.resonance.freq_hz),
+            }),
+    );
+    // A point held at zero ripple (a tank) has nothing to draw on a log axis.
+    let series = r
+        .points
+        .iter()
+        .filter(|p| p.values_pa_per_m3_s.iter().any(|v| v.amplitude > 0.0))
+        .map(|p| plot::XySeries {
+            name: p.name.clone(),
+            points: r
+                .freqs_hz
+                .iter()
+                .zip(&p.values_pa_per_m3_s)
+                .map(|(f, v)| (*f, (v.amplitude / BAR_PER_LPM).max(1e-300)))
+                .collect(),
+            ..Default::default()
+        })
+        .collect();
+    let point_markers = r
+        .resonances
+        .iter()
+        .map(|v| plot::PointMarker {
+            x: v.resonance.freq_hz,
+            y: v.resonance.level / BAR_PER_LPM,
+            label: String::new(),
+        })
+        .collect();
+    let name = r.subject.title.as_deref().unwrap_or(&r.pump.name);
+    let top = plot::LineChart {
+        title: format!("Response per unit source flow — {name}"),
+        x_label: "frequency (Hz)".into(),
+        y_label: "pressure per source flow (bar per L/min)".into(),
+        series,
+        log_x: true,
+        log_y: true,
+        x_markers,
+        point_markers,
+        x_bands: x_bands.clone(),
+        ..Default::default()
+    };
+    let load = plot::LineChart {
+        title: format!(
+            "Impedance seen by pump {}; shaded: harmonic bands over the speed range",
+            r.pump.name
+        ),
+        x_label: "frequency (Hz)".into(),
+        y_label: "|Z| (Pa·s/m³)".into(),
+        series: vec![plot::XySeries {
+            name: "load impedance".into(),
+            points: r
+                .freqs_hz
+                .iter()
+                .zip(&r.load_impedance_pa_s_m3)
+                .map(|(f, z)| (*f, z.amplitude.max(1e-300)))
+                .collect(),
+            ..Default::default()
+        }],
+        log_x: true,
+        log_y: true,
+        x_bands,
+        ..Default::default()
+    };
+    vec![top, load]
+}
