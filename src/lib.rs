@@ -52,6 +52,7 @@ pub mod generated;
 pub mod hose;
 pub mod html;
 pub mod io;
+pub mod limits;
 pub mod line;
 pub mod meanflow;
 pub mod network;
