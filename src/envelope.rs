@@ -126,6 +126,112 @@ impl Envelope {
     }
 }
 
+/// Which envelope points a command runs at: every point matching all the
+/// given parts (all of them when none is given). A command that runs at
+/// one point takes the options that select it (`--at LABEL`, or the
+/// pressure, temperature and case).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct PointFilter {
+    /// A point's full label, as [`OperatingPoint::label`] writes it.
+    pub label: Option<String>,
+    /// A mean pressure (gauge, Pa) of the envelope.
+    pub pressure_pa: Option<f64>,
+    /// An oil temperature (K) of the envelope.
+    pub temperature_k: Option<f64>,
+    /// A load case's name.
+    pub case: Option<String>,
+}
+
+/// A point filter that matches no point of the envelope.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("{what} is not in the envelope; it has: {valid}")]
+pub struct NoSuchPoint {
+    /// What was asked for.
+    pub what: String,
+    /// What the envelope has.
+    pub valid: String,
+}
+
+impl Envelope {
+    /// The points that match `filter`, in the envelope's order.
+    ///
+    /// # Errors
+    /// [`NoSuchPoint`] naming the part that matches nothing and the values
+    /// the envelope has for it.
+    pub fn select(&self, filter: &PointFilter) -> Result<Vec<OperatingPoint>, NoSuchPoint> {
+        let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * a.abs().max(b.abs()).max(1.0);
+        let list = |v: Vec<String>| {
+            if v.is_empty() {
+                "none (the envelope does not vary it)".to_string()
+            } else {
+                v.join(", ")
+            }
+        };
+        if let Some(p) = filter.pressure_pa
+            && !self.pressures_pa.iter().any(|&x| close(x, p))
+        {
+            return Err(NoSuchPoint {
+                what: format!("the mean pressure {} bar", trim_number(p / 1e5)),
+                valid: list(
+                    self.pressures_pa
+                        .iter()
+                        .map(|x| format!("{} bar", trim_number(x / 1e5)))
+                        .collect(),
+                ),
+            });
+        }
+        if let Some(t) = filter.temperature_k
+            && !self.temperatures_k.iter().any(|&x| close(x, t))
+        {
+            return Err(NoSuchPoint {
+                what: format!(
+                    "the oil temperature {} °C",
+                    trim_number(t - crate::oil::ZERO_CELSIUS_K)
+                ),
+                valid: list(
+                    self.temperatures_k
+                        .iter()
+                        .map(|x| format!("{} °C", trim_number(x - crate::oil::ZERO_CELSIUS_K)))
+                        .collect(),
+                ),
+            });
+        }
+        if let Some(c) = &filter.case
+            && !self.cases.iter().any(|x| &x.name == c)
+        {
+            return Err(NoSuchPoint {
+                what: format!("the load case `{c}`"),
+                valid: list(self.cases.iter().map(|x| format!("`{}`", x.name)).collect()),
+            });
+        }
+        let all = self.points();
+        let chosen: Vec<OperatingPoint> = all
+            .iter()
+            .filter(|p| {
+                filter.label.as_ref().is_none_or(|l| p.label() == *l)
+                    && filter
+                        .pressure_pa
+                        .is_none_or(|x| p.pressure_pa.is_some_and(|y| close(x, y)))
+                    && filter
+                        .temperature_k
+                        .is_none_or(|x| p.temperature_k.is_some_and(|y| close(x, y)))
+                    && filter
+                        .case
+                        .as_ref()
+                        .is_none_or(|c| p.case.as_ref() == Some(c))
+            })
+            .cloned()
+            .collect();
+        if chosen.is_empty() {
+            return Err(NoSuchPoint {
+                what: format!("the point `{}`", filter.label.clone().unwrap_or_default()),
+                valid: list(all.iter().map(|p| format!("`{}`", p.label())).collect()),
+            });
+        }
+        Ok(chosen)
+    }
+}
+
 /// What a limit bounds.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
@@ -225,6 +331,52 @@ mod tests {
         };
         assert_eq!(bare.points(), vec![OperatingPoint::default()]);
         assert_eq!(bare.points()[0].label(), "as written");
+    }
+
+    #[test]
+    fn points_are_selected_by_label_or_part() {
+        let e = Envelope {
+            speed_range_rev_s: None,
+            shaft: None,
+            pressures_pa: vec![25e5, 250e5],
+            temperatures_k: vec![273.15, 353.15],
+            cases: vec![LoadCase {
+                name: "lift".into(),
+                note: None,
+                changed: vec![],
+                closed: vec![],
+            }],
+        };
+        let by_label = PointFilter {
+            label: Some("250 bar, 80 °C, lift".into()),
+            ..Default::default()
+        };
+        assert_eq!(e.select(&by_label).unwrap().len(), 1);
+        let by_pressure = PointFilter {
+            pressure_pa: Some(25e5),
+            ..Default::default()
+        };
+        let p = e.select(&by_pressure).unwrap();
+        assert_eq!(p.len(), 2);
+        assert!(p.iter().all(|p| p.pressure_pa == Some(25e5)));
+        assert_eq!(e.select(&PointFilter::default()).unwrap().len(), 4);
+        let err = e
+            .select(&PointFilter {
+                pressure_pa: Some(100e5),
+                ..Default::default()
+            })
+            .unwrap_err();
+        assert_eq!(
+            err.to_string(),
+            "the mean pressure 100 bar is not in the envelope; it has: 25 bar, 250 bar"
+        );
+        let err = e
+            .select(&PointFilter {
+                label: Some("nowhere".into()),
+                ..Default::default()
+            })
+            .unwrap_err();
+        assert!(err.to_string().contains("`25 bar, 0 °C, lift`"), "{err}");
     }
 
     // L = 20·log10(p/p_ref) (the definition of a level in dB): 100 dB re

@@ -40,6 +40,7 @@
 #![deny(missing_docs)]
 
 pub mod analysis;
+pub mod calibrate;
 pub mod circuit;
 pub mod demo;
 pub mod diagnostics;
@@ -62,6 +63,7 @@ pub mod plot;
 pub mod render;
 pub mod results;
 pub mod source;
+pub mod uncertainty;
 pub mod units;
 pub mod wall;
 

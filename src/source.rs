@@ -288,6 +288,13 @@ impl Pump {
         }
     }
 
+    /// Whether harmonic `order` has any source flow (a table lists it with
+    /// a non-zero amplitude, or the kinematics give it). Harmonics without
+    /// source flow excite nothing: reports, plots and tables leave them out.
+    pub fn has_source_flow(&self, order: u32) -> bool {
+        self.flow_ripple_at(order, 1.0) != C64::new(0.0, 0.0)
+    }
+
     /// Complex source flow ripple Qs of harmonic `order` at the pump's speed
     /// (zero for an order the table does not list).
     pub fn flow_ripple(&self, order: u32) -> C64 {

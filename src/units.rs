@@ -87,6 +87,40 @@ impl Dimension {
         }
     }
 
+    /// Every dimension, for looking a unit up without knowing its dimension.
+    pub const ALL: [Dimension; 16] = [
+        Dimension::Length,
+        Dimension::Pressure,
+        Dimension::Modulus,
+        Dimension::Volume,
+        Dimension::ShaftSpeed,
+        Dimension::KinematicViscosity,
+        Dimension::Density,
+        Dimension::Frequency,
+        Dimension::Flow,
+        Dimension::Angle,
+        Dimension::Resistance,
+        Dimension::Inertance,
+        Dimension::Ratio,
+        Dimension::Temperature,
+        Dimension::Velocity,
+        Dimension::Time,
+    ];
+
+    /// The factor of a unit to SI (value_SI = value × factor + offset),
+    /// spelled as [`parse_quantity`] accepts it; 1 for an empty unit (a bare
+    /// number is SI); `None` for a unit this dimension does not have.
+    pub fn unit_factor(self, unit: &str) -> Option<f64> {
+        let unit = normalise_unit(unit);
+        if unit.is_empty() {
+            return Some(1.0);
+        }
+        self.units()
+            .iter()
+            .find(|(u, _)| normalise_unit(u) == unit)
+            .map(|(_, f)| *f)
+    }
+
     /// The offset of an affine unit: value_SI = value × factor + offset.
     /// Only temperatures have one: °C (K = °C + 273.15) and °F
     /// (K = (°F + 459.67)·5/9), by definition of the scales (NIST SP 811,
@@ -314,7 +348,7 @@ fn normalise_unit(unit: &str) -> String {
 
 /// Split `"12.5 mm"` into the number and the rest. Accepts a sign, decimals
 /// and an exponent (`1.2e-3`).
-fn split_number(text: &str) -> Option<(f64, &str)> {
+pub fn split_number(text: &str) -> Option<(f64, &str)> {
     let t = text.trim();
     let bytes = t.as_bytes();
     let mut end = 0;

@@ -310,7 +310,8 @@ fn response_of_the_second_pump_uses_the_shaft_speed_range() {
     assert!((num(&band["high_hz"]) - 480.0).abs() < 1e-9);
     for v in r["resonances"].as_array().unwrap() {
         let f = num(&v["resonance"]["freq_hz"]);
-        assert!(text.contains(&format!("{f:.2} Hz")), "{f} {text}");
+        // every resonance is in the report's table (the verdicts are ranked)
+        assert!(text.contains(&format!(" {f:.2} ")), "{f} {text}");
     }
     let rows = csv_rows(&c);
     let freqs = r["freqs_hz"].as_array().unwrap();
@@ -324,6 +325,85 @@ fn response_of_the_second_pump_uses_the_shaft_speed_range() {
             num(&first["values_pa_per_m3_s"][i]["amplitude"]),
         );
     }
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+/// `response` ranks its verdicts: the crossings shown are those whose
+/// ripple lies within `--floor` of the highest (levels L = 20·log10(p),
+/// the definition of a level in dB), highest first, at most `--top`; the
+/// near misses closest first; the JSON keeps every verdict.
+#[test]
+fn response_shows_the_highest_crossings_and_the_closest_near_misses() {
+    let dir = scratch("response-ranked");
+    let j = path(&dir, "r.json");
+    let text = ok(&[
+        "response",
+        "networks/crane_pressure_line.yaml",
+        "--speed-range",
+        "600..3000",
+        "--points",
+        "2000",
+        "--top",
+        "4",
+        "--floor",
+        "12dB",
+        "--json",
+        &j,
+    ]);
+    let r = json(&j, "response");
+    let resonances = r["resonances"].as_array().unwrap();
+    let mut crossed: Vec<((usize, usize), f64)> = Vec::new();
+    let mut near: Vec<((usize, usize), f64)> = Vec::new();
+    for (ri, v) in resonances.iter().enumerate() {
+        for (hi, h) in v["harmonics"].as_array().unwrap().iter().enumerate() {
+            if h["coverage"]["kind"] == "crossed" {
+                crossed.push(((ri, hi), 20.0 * num(&h["ripple_pa"]).log10()));
+            } else {
+                assert_eq!(h["coverage"]["kind"], "near");
+                near.push(((ri, hi), num(&h["coverage"]["gap"])));
+            }
+        }
+    }
+    let highest = crossed.iter().map(|c| c.1).fold(f64::MIN, f64::max);
+    let mut expected: Vec<((usize, usize), f64)> = crossed
+        .iter()
+        .copied()
+        .filter(|c| highest - c.1 <= 12.0)
+        .collect();
+    expected.sort_by(|a, b| b.1.total_cmp(&a.1));
+    expected.truncate(4);
+    let refs = |key: &str| -> Vec<(usize, usize)> {
+        r[key]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|x| {
+                (
+                    x["resonance"].as_u64().unwrap() as usize,
+                    x["harmonic"].as_u64().unwrap() as usize,
+                )
+            })
+            .collect()
+    };
+    assert_eq!(
+        refs("shown_crossings"),
+        expected.iter().map(|x| x.0).collect::<Vec<_>>()
+    );
+    assert_eq!(expected.len(), 4, "{text}");
+    near.sort_by(|a, b| a.1.total_cmp(&b.1));
+    near.truncate(4);
+    assert_eq!(
+        refs("shown_near"),
+        near.iter().map(|x| x.0).collect::<Vec<_>>()
+    );
+    assert!(
+        text.contains(&format!(
+            "crossings, highest ripple first (4 of {}: within 12 dB of the highest, at most --top 4):",
+            crossed.len()
+        )),
+        "{text}"
+    );
+    assert_eq!(text.matches("CROSSED by harmonic").count(), 4, "{text}");
     std::fs::remove_dir_all(dir).unwrap();
 }
 
@@ -518,8 +598,40 @@ fn sweep_json_agrees_with_the_grid_csv() {
         assert!(worst >= grid_max * (1.0 - 1e-12), "{worst} {grid_max}");
     }
     let crossings = r["crossings"].as_array().unwrap();
+    // the report shows the crossings within 20 dB of their point's worst
+    // overall rms level (a harmonic's level is that of its rms |P|/√2;
+    // L = 20·log10(p/p_ref)), highest first, at most 10
+    let worst_db = |point: &serde_json::Value| {
+        let i = r["points"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .position(|p| p == point)
+            .unwrap();
+        20.0 * num(&r["worst"][i]["rms_pa"]).log10()
+    };
+    let mut expected: Vec<(usize, f64)> = crossings
+        .iter()
+        .enumerate()
+        .map(|(i, c)| (i, 20.0 * (num(&c["amplitude_pa"]) / 2f64.sqrt()).log10()))
+        .filter(|(i, l)| worst_db(&crossings[*i]["point"]) - l <= 20.0)
+        .collect();
+    expected.sort_by(|a, b| b.1.total_cmp(&a.1));
+    let expected: Vec<usize> = expected.iter().take(10).map(|x| x.0).collect();
+    let shown: Vec<usize> = r["shown_crossings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|i| i.as_u64().unwrap() as usize)
+        .collect();
+    assert_eq!(shown, expected);
+    assert!(!shown.is_empty());
     assert!(
-        text.contains(&format!("resonance crossings ({};", crossings.len())),
+        text.contains(&format!(
+            "resonance crossings, highest first ({} of {}:",
+            shown.len(),
+            crossings.len()
+        )),
         "{text}"
     );
     assert_eq!(r["order_basis"], "shaft_fundamental");
@@ -715,7 +827,7 @@ fn the_json_schema_document_lists_every_key() {
         .unwrap();
     let dir = scratch("json-doc");
     let damper = "networks/drill_rig_feed_damper.yaml";
-    let runs: [(&str, Vec<&str>); 8] = [
+    let runs: [(&str, Vec<&str>); 9] = [
         ("solve", vec![]),
         ("check", vec![]),
         ("profile", vec![]),
@@ -755,6 +867,10 @@ fn the_json_schema_document_lists_every_key() {
         (
             "fit",
             vec!["networks/bench/demo_bench.yaml", "--draws", "5"],
+        ),
+        (
+            "assess",
+            vec!["networks/drill_rig_feed.yaml", "--speeds", "21"],
         ),
     ];
     for (cmd, args) in runs {

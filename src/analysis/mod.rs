@@ -12,6 +12,8 @@
 //!   in the circuit (`ripline silencer`).
 //! * [`tune`]: a bounded search for the silencer design that minimises the
 //!   ripple at a point over the speed range (`ripline tune`).
+//! * [`envelope`]: verdicts over an operating envelope against limits, and
+//!   findings ranked by severity (`ripline assess`).
 //! * [`search`]: golden-section, Halton and Nelder–Mead helpers.
 //! * [`sweep`]: the ripple over a range of shaft speeds, resonance
 //!   crossings and the circuit's resonance frequencies (`ripline sweep`).
@@ -19,6 +21,7 @@
 //!   resonance crossings refined (shared by `sweep`, `tune` and the
 //!   envelope verdicts).
 
+pub mod envelope;
 pub mod profile;
 pub mod response;
 pub mod ripple;

@@ -76,6 +76,9 @@ pub struct RippleReport {
     pub taps: Vec<TapRipple>,
     /// Harmonics solved close to an undamped resonance (ill-conditioned).
     pub warnings: Vec<Warning>,
+    /// Orders 1..=N without source flow, left out of `taps`
+    /// ([`Shaft::silent_orders`]).
+    pub silent_orders: Vec<u32>,
 }
 
 /// The measurement points a report covers: the circuit's taps, or every node
@@ -195,6 +198,7 @@ pub fn shaft_ripple(
         pumping_frequency_hz: shaft.fundamental_hz(speed_rev_s),
         taps,
         warnings,
+        silent_orders: shaft.silent_orders(&circuit.pumps, harmonics),
     })
 }
 

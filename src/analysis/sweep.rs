@@ -219,6 +219,8 @@ pub struct SweepResult {
     pub speeds_rev_s: Vec<f64>,
     /// The orders solved at every speed.
     pub orders: Vec<u32>,
+    /// The pump harmonics counted (1..=N of each pump).
+    pub harmonics: u32,
     /// Names of the measurement points.
     pub points: Vec<String>,
     /// Every resonance crossing, by speed, then order, then point.
@@ -426,6 +428,7 @@ pub fn sweep(
         shaft: shaft.clone(),
         speeds_rev_s: speeds.clone(),
         orders,
+        harmonics: settings.harmonics,
         points,
         crossings: Vec::new(),
         worst_speeds: Vec::new(),
@@ -496,30 +499,58 @@ pub fn sweep(
     });
     result.crossings = crossings;
     for pi in 0..np {
-        let phasors = result.point_phasors(pi);
-        let other_ms = result.point_other_ms_pa2(pi);
-        let grid = SpeedGrid {
-            speeds_rev_s: speeds,
-            orders: &result.orders,
-            phasors: &phasors,
-            other_ms_pa2: &other_ms,
-        };
-        let orders = &result.orders;
-        let worst = worst_speed(
-            grid,
-            Measure::Rms,
-            &mut |oi, n| {
-                at.with(n, |solver| {
-                    solver.solve(orders[oi], n).map_err(at_speed(n))?;
-                    Ok(solver.pressures[pi])
-                })
-            },
-            &WorstSettings::default(),
-        )
-        .map_err(|u| u.error)?;
+        let worst = refine_worst(&mut at, &result, pi, Measure::Rms)?;
         result.worst_speeds.push(worst);
     }
     Ok(result)
+}
+
+/// The true worst speed of `measure` at point `point_i` of a sweep's
+/// result ([`super::worst::worst_speed`] from its grid): for a
+/// peak-to-peak or a single harmonic, as [`SweepResult::worst`] is for the
+/// overall rms. `plan` and `shaft` must be the sweep's.
+///
+/// # Errors
+/// [`SweepError`] when a solve fails (an undamped resonance, naming its
+/// speed) or the circuit cannot be compiled again at a speed.
+pub fn worst_at_point(
+    plan: &Plan<'_>,
+    shaft: &Shaft,
+    result: &SweepResult,
+    point_i: usize,
+    measure: Measure,
+) -> Result<WorstSpeed, SweepError> {
+    let mut at = AtSpeed::new(plan, shaft, result.harmonics);
+    refine_worst(&mut at, result, point_i, measure)
+}
+
+fn refine_worst(
+    at: &mut AtSpeed<'_, '_>,
+    result: &SweepResult,
+    pi: usize,
+    measure: Measure,
+) -> Result<WorstSpeed, SweepError> {
+    let phasors = result.point_phasors(pi);
+    let other_ms = result.point_other_ms_pa2(pi);
+    let grid = SpeedGrid {
+        speeds_rev_s: &result.speeds_rev_s,
+        orders: &result.orders,
+        phasors: &phasors,
+        other_ms_pa2: &other_ms,
+    };
+    let orders = &result.orders;
+    worst_speed(
+        grid,
+        measure,
+        &mut |oi, n| {
+            at.with(n, |solver| {
+                solver.solve(orders[oi], n).map_err(at_speed(n))?;
+                Ok(solver.pressures[pi])
+            })
+        },
+        &WorstSettings::default(),
+    )
+    .map_err(|u| u.error)
 }
 
 /// The circuit's resonances as the pumps on `shaft` excite them: for each

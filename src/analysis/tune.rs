@@ -35,7 +35,7 @@
 //! 10 % below and above its best value and the ripple recomputed; the rise
 //! in dB is the attenuation lost by that manufacturing or drift error.
 
-use super::ripple::tap_pressure;
+use super::ripple::{report_points, tap_pressure};
 use super::search::{golden_section_max, halton, nelder_mead_in_box};
 use super::worst::{Measure, SpeedGrid, WorstSettings, worst_speed};
 use crate::circuit::{Circuit, TapLocation};
@@ -447,6 +447,16 @@ pub enum EvaluateError {
     /// The network could not be solved.
     #[error(transparent)]
     Solve(#[from] SolveError),
+    /// The worst-speed search met an undamped resonance: the ripple is
+    /// unbounded at that speed.
+    #[error("the ripple is unbounded at {:.2} rpm (an undamped resonance)", speed_rev_s * 60.0)]
+    Unbounded {
+        /// The shaft speed in rev/s.
+        speed_rev_s: f64,
+        /// The solver's failure there.
+        #[source]
+        source: SolveError,
+    },
 }
 
 impl RippleEvaluator {
@@ -503,6 +513,19 @@ impl RippleEvaluator {
     /// [`EvaluateError`] when the variant cannot be compiled or solved
     /// (also when the worst-speed search meets an undamped resonance).
     pub fn evaluate(&self, circuit: &Circuit) -> Result<RippleSummary, EvaluateError> {
+        self.evaluate_at(circuit, self.point)
+    }
+
+    /// The ripple of `circuit` at `point` (for a variant whose nodes or
+    /// taps are numbered differently, e.g. at another envelope point).
+    ///
+    /// # Errors
+    /// As [`Self::evaluate`].
+    pub fn evaluate_at(
+        &self,
+        circuit: &Circuit,
+        point: TapLocation,
+    ) -> Result<RippleSummary, EvaluateError> {
         let plan = Plan::compile(circuit)?;
         let mut ws = plan.workspace();
         let node = circuit.pumps[self.pump_index].node;
@@ -512,7 +535,7 @@ impl RippleEvaluator {
             let mut sum = 0.0;
             for &(f, q) in harmonics {
                 let s = plan.solve(f, &[(node, q)], &mut ws)?;
-                let p = tap_pressure(circuit, &s, self.point);
+                let p = tap_pressure(circuit, &s, point);
                 sum += p.norm_sqr();
                 phasors.push(p);
             }
@@ -538,11 +561,14 @@ impl RippleEvaluator {
             &mut |o, n| {
                 let (f, q) = excitation(&mut pump, self.orders[o], n);
                 let s = plan.solve(f, &[(node, q)], &mut ws)?;
-                Ok(tap_pressure(circuit, &s, self.point))
+                Ok(tap_pressure(circuit, &s, point))
             },
             &WorstSettings::default(),
         )
-        .map_err(|u| EvaluateError::Solve(u.error))?;
+        .map_err(|u| EvaluateError::Unbounded {
+            speed_rev_s: u.speed_rev_s,
+            source: u.error,
+        })?;
         Ok(RippleSummary {
             objective_pa: worst.value_pa,
             per_condition_pa,
@@ -615,8 +641,11 @@ pub struct TuneProblem<'c> {
     pub bounds: Vec<Bound>,
     /// The ripple to minimise.
     pub evaluator: RippleEvaluator,
-    /// The same circuit with the fluid at each temperature of a range
-    /// (empty: only `circuit`, at its own fluid state). When given, the
+    /// The same circuit in other states: with the fluid at each
+    /// temperature of a range, or at each point of an operating envelope
+    /// (`io::CircuitFile::circuits`; empty: only `circuit`, at its own
+    /// state). The element and the measurement point are found in each by
+    /// name (a load case may renumber or cut off parts). When given, the
     /// ripple is evaluated on these variants only, at every speed each, in
     /// this order; the element's design is applied to each.
     pub fluid_states: Vec<Circuit>,
@@ -739,17 +768,13 @@ impl TuneProblem<'_> {
 
     /// The element of `circuit` with the given parameter values (built with
     /// that circuit's fluid).
-    fn element_in(&self, circuit: &Circuit, values: &[f64]) -> Result<ElementKind, String> {
-        let mut kind = circuit.elements[self.element].kind.clone();
-        for (b, &v) in self.bounds.iter().zip(values) {
-            kind = b.parameter.apply(&kind, v, &circuit.fluid)?;
-        }
-        Ok(kind)
-    }
-
     /// The element with the given parameter values.
     fn element_with(&self, values: &[f64]) -> Result<ElementKind, String> {
-        self.element_in(self.circuit, values)
+        let mut kind = self.circuit.elements[self.element].kind.clone();
+        for (b, &v) in self.bounds.iter().zip(values) {
+            kind = b.parameter.apply(&kind, v, &self.circuit.fluid)?;
+        }
+        Ok(kind)
     }
 
     /// The circuits the ripple is evaluated on.
@@ -761,29 +786,57 @@ impl TuneProblem<'_> {
         }
     }
 
-    /// The ripple over every fluid state and speed of circuits built by
-    /// `variant` from each state.
+    /// The ripple over every state and speed of circuits built by `variant`
+    /// from each state. A state is matched to the circuit by names: the
+    /// measurement point is found in it by its name (a load case that cuts
+    /// it off leaves it no ripple there).
     fn evaluate_states(
         &self,
         variant: impl Fn(&Circuit) -> Result<Circuit, String>,
     ) -> Result<RippleSummary, String> {
+        let points = report_points(self.circuit);
+        let name = points
+            .iter()
+            .find(|t| t.location == self.evaluator.point)
+            .map(|t| t.name.clone());
         let mut parts = Vec::new();
         for state in self.states() {
             let circuit = variant(state)?;
-            parts.push(
-                self.evaluator
-                    .evaluate(&circuit)
+            let location = match &name {
+                None => Some(self.evaluator.point),
+                Some(n) => report_points(&circuit)
+                    .into_iter()
+                    .find(|t| &t.name == n)
+                    .map(|t| t.location),
+            };
+            parts.push(match location {
+                Some(at) => self
+                    .evaluator
+                    .evaluate_at(&circuit, at)
                     .map_err(|e| e.to_string())?,
-            );
+                None => RippleSummary {
+                    objective_pa: 0.0,
+                    per_condition_pa: vec![0.0; self.evaluator.speeds_rev_s.len()],
+                    worst: None,
+                },
+            });
         }
         Ok(RippleSummary::combine(self.evaluator.objective, parts))
     }
 
-    /// The ripple with the element rebuilt from `values`.
+    /// The ripple with the element rebuilt from `values` (in every state
+    /// that has it: a load case may cut the element off).
     fn evaluate_values(&self, values: &[f64]) -> Result<RippleSummary, String> {
+        let name = &self.circuit.elements[self.element].name;
         self.evaluate_states(|state| {
             let mut circuit = state.clone();
-            circuit.elements[self.element].kind = self.element_in(state, values)?;
+            if let Some(i) = state.element_id(name) {
+                let mut kind = state.elements[i].kind.clone();
+                for (b, &v) in self.bounds.iter().zip(values) {
+                    kind = b.parameter.apply(&kind, v, &state.fluid)?;
+                }
+                circuit.elements[i].kind = kind;
+            }
             Ok(circuit)
         })
     }

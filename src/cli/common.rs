@@ -1,6 +1,6 @@
 //! Helpers shared by the commands: loading circuits, exit codes, output files.
 
-use super::{EXIT_COMPUTE, EXIT_INPUT};
+use super::{EXIT_COMPUTE, EXIT_INPUT, EXIT_LIMITS};
 use anyhow::Context;
 use ripline::io::InputError;
 use ripline::io::output::{OutputError, StagedOutputs};
@@ -51,8 +51,18 @@ pub fn cli_quantity(
     Ok(v)
 }
 
-/// Exit code for an error: 2 for input and usage errors, 1 otherwise.
+/// Limits of `assess` exceeded (exit code 3): not a failure of the
+/// command, whose outputs are complete.
+#[derive(Debug, thiserror::Error)]
+#[error("{0}")]
+pub struct LimitsExceeded(pub String);
+
+/// Exit code for an error: 2 for input and usage errors, 3 for exceeded
+/// limits, 1 otherwise.
 pub fn exit_code(err: &anyhow::Error) -> u8 {
+    if err.chain().any(|c| c.is::<LimitsExceeded>()) {
+        return EXIT_LIMITS;
+    }
     let input = err.chain().any(|c| {
         c.is::<InputError>()
             || c.is::<UsageError>()
@@ -369,4 +379,37 @@ pub fn commit(outputs: StagedOutputs) -> anyhow::Result<()> {
     outputs
         .commit()
         .context("moving the output files into place")
+}
+
+/// A level option written `20dB`, `20 dB` or `20`.
+pub fn parse_db(option: &str, text: &str) -> anyhow::Result<f64> {
+    let t = text.trim();
+    let number = t.strip_suffix("dB").unwrap_or(t).trim();
+    match number.parse::<f64>() {
+        Ok(v) if v.is_finite() && (0.0..=400.0).contains(&v) => Ok(v),
+        _ => Err(UsageError(format!(
+            "{option} {text}: write a level difference in dB between 0 and 400, e.g. 20dB"
+        ))
+        .into()),
+    }
+}
+
+/// `--top N` and `--floor DB` (default 10 and 20 dB): which findings a
+/// report shows, and whether either was given.
+pub fn ranking_options(
+    top: Option<usize>,
+    floor: Option<&str>,
+) -> anyhow::Result<(ripline::results::Ranking, Origin)> {
+    let origin = if top.is_some() || floor.is_some() {
+        Origin::Request
+    } else {
+        Origin::Default
+    };
+    Ok((
+        ripline::results::Ranking {
+            top: top.unwrap_or(10),
+            floor_db: floor.map_or(Ok(20.0), |f| parse_db("--floor", f))?,
+        },
+        origin,
+    ))
 }

@@ -3,10 +3,15 @@
 //! Raw arguments are turned into a resolved configuration (circuit loaded,
 //! overrides applied, outputs chosen) before any library call; no clap type
 //! reaches the library. Exit codes: 0 success, 1 a computation failed (for
-//! example a singular network), 2 invalid input or usage.
+//! example a singular network), 2 invalid input or usage, 3 a limit of
+//! `assess` exceeded.
 
+mod assess;
+mod calibrate;
 mod check;
 mod common;
+mod compare;
+mod envelope;
 mod fit;
 mod profile;
 mod ranges;
@@ -53,15 +58,27 @@ enum Command {
     Silencer(silencer::SilencerArgs),
     /// Size a silencer: vary 1 to 3 of its parameters to minimise the ripple at a point.
     Tune(tune::TuneArgs),
+    /// The ripple measured at the taps beside the circuit's prediction, run
+    /// by run, tap by tap, harmonic by harmonic.
+    Compare(compare::CompareArgs),
+    /// Adjust 1 to 6 values of the circuit to the ripple measured at its
+    /// taps, with uncertainties; write the calibrated circuit file.
+    Calibrate(calibrate::CalibrateArgs),
     /// Ripple over a range of pump speeds: worst speed per point and every
     /// resonance crossing.
     Sweep(sweep::SweepArgs),
+    /// The circuit over its operating envelope: each limit's verdict
+    /// (exit code 3 when one is exceeded) and the findings ranked by level.
+    Assess(assess::AssessArgs),
 }
 
 /// Exit code for invalid input or usage.
 pub const EXIT_INPUT: u8 = 2;
 /// Exit code for a computation that failed.
 pub const EXIT_COMPUTE: u8 = 1;
+/// Exit code of `assess` when a limit is exceeded (everything was computed
+/// and written; 0 means every limit is met).
+pub const EXIT_LIMITS: u8 = 3;
 
 pub fn main() -> ExitCode {
     let cli = match Cli::try_parse() {
@@ -93,6 +110,9 @@ pub fn main() -> ExitCode {
         Command::Silencer(args) => silencer::run(args),
         Command::Tune(args) => tune::run(args),
         Command::Sweep(args) => sweep::run(args),
+        Command::Assess(args) => assess::run(args),
+        Command::Compare(args) => compare::run(args),
+        Command::Calibrate(args) => calibrate::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -2,6 +2,7 @@
 //! for one pump harmonic (the standing-wave pattern).
 
 use super::common::{self, Outputs, UsageError};
+use super::envelope::{self, PointArgs};
 use super::ranges;
 use clap::Args;
 use ripline::plot;
@@ -11,8 +12,11 @@ use std::path::PathBuf;
 
 #[derive(Debug, Args)]
 pub struct ProfileArgs {
-    /// Circuit file (YAML); the built-in demo circuit when omitted.
+    /// Circuit file (YAML); the built-in demo circuit when omitted. With
+    /// an `envelope`, every point of it (or those the options select).
     file: Option<PathBuf>,
+    #[command(flatten)]
+    at: PointArgs,
     /// Harmonic of the pump's pumping frequency to show (1 = the pumping frequency).
     #[arg(long, value_name = "K", default_value_t = 1)]
     harmonic: u32,
@@ -50,23 +54,40 @@ pub fn run(args: ProfileArgs) -> anyhow::Result<()> {
         .as_deref()
         .map(|s| common::speed_option("--speed", s))
         .transpose()?;
-    let loaded = common::load_circuit(args.file.as_deref())?;
-    let mut outputs = Outputs::plan(&[
-        ("--csv", csv.as_deref()),
-        ("--plot", plot.as_deref()),
-        ("--json", json.as_deref()),
-    ])?;
-    let request = ProfileRequest {
-        pump_index: ranges::pump_index(&loaded.circuit, args.pump.as_deref())?,
-        harmonic: args.harmonic,
-        speed_rev_s,
-    };
-    let result = profile(loaded.circuit, &loaded.source, &request)?;
-    common::print_warnings(&result.warnings);
-
-    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
-    outputs.plot_to(plot.as_deref(), |tmp| {
-        plot::line_chart(tmp, &render::chart(&result))
+    let mut at = args.at.load(args.file.as_deref(), false)?;
+    let plots = envelope::point_paths(plot.as_deref(), &at);
+    let mut targets = vec![("--csv", csv.as_deref()), ("--json", json.as_deref())];
+    targets.extend(plots.iter().map(|p| ("--plot", Some(p.as_path()))));
+    let mut outputs = Outputs::plan(&targets)?;
+    let results = at.run(|circuit, source| {
+        let request = ProfileRequest {
+            pump_index: ranges::pump_index(&circuit, args.pump.as_deref())?,
+            harmonic: args.harmonic,
+            speed_rev_s,
+        };
+        Ok(profile(circuit, source, &request)?)
     })?;
-    outputs.finish(json.as_deref(), "profile", &result, render::text)
+    envelope::print_warnings(&results, |r| &r.warnings);
+
+    // the envelope columns follow `element,position_m`
+    envelope::csv_over(
+        &mut outputs,
+        csv.as_deref(),
+        &at.own,
+        &results,
+        2,
+        |r| Some(r.speed_rev_s),
+        |r, buf| render::csv(r, buf),
+    )?;
+    envelope::plot_over(&mut outputs, &plots, &results, |r, tmp| {
+        plot::line_chart(tmp, &render::chart(r))
+    })?;
+    envelope::finish_over(
+        outputs,
+        json.as_deref(),
+        "profile",
+        &args.at,
+        &results,
+        render::text,
+    )
 }

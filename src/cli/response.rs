@@ -2,6 +2,7 @@
 //! harmonics cross them over the operating speed range.
 
 use super::common::{self, Outputs};
+use super::envelope::{self, PointArgs};
 use super::ranges::{self, Progress};
 use clap::Args;
 use ripline::plot;
@@ -14,11 +15,18 @@ use std::path::PathBuf;
 pub struct ResponseArgs {
     #[command(flatten)]
     sweep: ranges::SweepArgs,
-    /// Circuit file (YAML); the built-in demo circuit when omitted.
+    /// Circuit file (YAML); the built-in demo circuit when omitted. With
+    /// an `envelope`, every point of it (or those the options select).
     file: Option<PathBuf>,
+    #[command(flatten)]
+    at: PointArgs,
     /// How close to a harmonic band a resonance counts as "near" (default 10%).
     #[arg(long, value_name = "PERCENT")]
     margin: Option<String>,
+    /// Leave out of the report crossings whose ripple is this far below the
+    /// highest crossing's (default 20dB; every verdict is in the JSON).
+    #[arg(long, value_name = "DB")]
+    floor: Option<String>,
     /// Write the response as CSV (point,frequency_hz,amplitude_pa_per_m3s,phase_deg).
     #[arg(long, value_name = "FILE")]
     csv: Option<PathBuf>,
@@ -37,27 +45,46 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
         Some(text) => (ranges::parse_fraction("--margin", text)?, Origin::Request),
         None => (0.1, Origin::Default),
     };
-    let loaded = common::load_circuit(args.file.as_deref())?;
-    let mut outputs = Outputs::plan(&[
-        ("--csv", csv.as_deref()),
-        ("--plot", plot.as_deref()),
-        ("--json", json.as_deref()),
-    ])?;
-    let sweep = args.sweep.resolve(&loaded.circuit)?;
-    let request = ResponseRequest { sweep, margin };
+    let ranking = common::ranking_options(args.at.top, args.floor.as_deref())?;
+    let mut at = args.at.load(args.file.as_deref(), false)?;
+    let plots = envelope::point_paths(plot.as_deref(), &at);
+    let mut targets = vec![("--csv", csv.as_deref()), ("--json", json.as_deref())];
+    targets.extend(plots.iter().map(|p| ("--plot", Some(p.as_path()))));
+    let mut outputs = Outputs::plan(&targets)?;
     let progress = Progress::new(0, "frequency response");
-    let result = response(
-        loaded.circuit,
-        &loaded.source,
-        &request,
-        &mut |done, total| progress.set_of(done, total),
-    )?;
-    progress.finish();
-    common::print_warnings(&result.warnings);
-
-    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
-    outputs.plot_to(plot.as_deref(), |tmp| {
-        plot::stacked_line_charts(tmp, &render::charts(&result))
+    let results = at.run(|circuit, source| {
+        let sweep = args.sweep.resolve(&circuit)?;
+        let request = ResponseRequest {
+            sweep,
+            margin,
+            ranking,
+        };
+        Ok(response(circuit, source, &request, &mut |done, total| {
+            progress.set_of(done, total)
+        })?)
     })?;
-    outputs.finish(json.as_deref(), "response", &result, render::text)
+    progress.finish();
+    envelope::print_warnings(&results, |r| &r.warnings);
+
+    // the envelope columns follow `point`
+    envelope::csv_over(
+        &mut outputs,
+        csv.as_deref(),
+        &at.own,
+        &results,
+        1,
+        |r| Some(r.pump.speed_rev_s),
+        |r, buf| render::csv(r, buf),
+    )?;
+    envelope::plot_over(&mut outputs, &plots, &results, |r, tmp| {
+        plot::stacked_line_charts(tmp, &render::charts(r))
+    })?;
+    envelope::finish_over(
+        outputs,
+        json.as_deref(),
+        "response",
+        &args.at,
+        &results,
+        render::text,
+    )
 }

@@ -4,13 +4,14 @@
 //! harmonic and versus frequency.
 
 use super::common::{self, Outputs, UsageError};
+use super::envelope::{self, PointArgs};
 use super::ranges::{self, Progress};
 use clap::{Args, ValueEnum};
 use ripline::analysis::silencer::WithoutReference;
 use ripline::elements::ElementKind;
 use ripline::plot;
 use ripline::render::silencer as render;
-use ripline::results::silencer::{SilencerRequest, silencer};
+use ripline::results::silencer::{SilencerRequest, SilencerResult, silencer};
 use std::path::PathBuf;
 
 /// What replaces a two-port silencer for the insertion loss.
@@ -26,8 +27,11 @@ enum Without {
 pub struct SilencerArgs {
     #[command(flatten)]
     sweep: ranges::SweepArgs,
-    /// Circuit file (YAML).
+    /// Circuit file (YAML). With an `envelope`, every point of it (or
+    /// those the options select).
     file: PathBuf,
+    #[command(flatten)]
+    at: PointArgs,
     /// The silencer element; repeat to analyse a chain, listed in order
     /// along the line (two-ports end to end, shunts at the node reached).
     #[arg(long, value_name = "NAME", required = true)]
@@ -63,14 +67,61 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     let (csv, plot) = common::csv_and_plot_paths(args.csv.as_deref(), args.plot.as_deref())?;
     let harmonic_csv = ranges::csv_output("--harmonic-csv", args.harmonic_csv.as_deref())?;
     let json = common::json_path(args.json.as_deref())?;
-    let loaded = common::load_circuit(Some(&args.file))?;
-    let mut outputs = Outputs::plan(&[
+    let mut at = args.at.load(Some(&args.file), false)?;
+    let plots = envelope::point_paths(plot.as_deref(), &at);
+    let mut targets = vec![
         ("--csv", csv.as_deref()),
         ("--harmonic-csv", harmonic_csv.as_deref()),
-        ("--plot", plot.as_deref()),
         ("--json", json.as_deref()),
-    ])?;
-    let circuit = &loaded.circuit;
+    ];
+    targets.extend(plots.iter().map(|p| ("--plot", Some(p.as_path()))));
+    let mut outputs = Outputs::plan(&targets)?;
+    let progress = Progress::new(0, "transmission and insertion loss");
+    let results = at.run(|circuit, source| {
+        let request = request(&args, &circuit)?;
+        Ok(silencer(circuit, source, &request, &mut |done, total| {
+            progress.set_of(done, total)
+        })?)
+    })?;
+    progress.finish();
+    envelope::print_warnings(&results, |r| &r.warnings);
+
+    // the envelope columns follow `frequency_hz` and `harmonic`
+    let speed = |r: &SilencerResult| Some(r.pump.speed_rev_s);
+    envelope::csv_over(
+        &mut outputs,
+        csv.as_deref(),
+        &at.own,
+        &results,
+        1,
+        speed,
+        |r, buf| render::csv(r, buf),
+    )?;
+    envelope::csv_over(
+        &mut outputs,
+        harmonic_csv.as_deref(),
+        &at.own,
+        &results,
+        1,
+        speed,
+        |r, buf| render::harmonic_csv(r, buf),
+    )?;
+    envelope::plot_over(&mut outputs, &plots, &results, |r, tmp| {
+        plot::stacked_line_charts(tmp, &render::charts(r))
+    })?;
+    envelope::finish_over(
+        outputs,
+        json.as_deref(),
+        "silencer",
+        &args.at,
+        &results,
+        render::text,
+    )
+}
+
+/// The request at one envelope point: the elements and the measurement
+/// point looked up in its circuit.
+fn request(args: &SilencerArgs, circuit: &ripline::Circuit) -> anyhow::Result<SilencerRequest> {
     let elements = args
         .element
         .iter()
@@ -88,8 +139,7 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
         }
         None => None,
     };
-    let sweep = args.sweep.resolve(circuit)?;
-    let request = SilencerRequest {
+    Ok(SilencerRequest {
         elements,
         reference_tube,
         without: match args.without {
@@ -97,24 +147,6 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
             Without::ZeroLength => WithoutReference::ZeroLength,
         },
         tap: ranges::point(circuit, args.tap.as_deref())?,
-        sweep,
-    };
-    let progress = Progress::new(0, "transmission and insertion loss");
-    let result = silencer(
-        loaded.circuit,
-        &loaded.source,
-        &request,
-        &mut |done, total| progress.set_of(done, total),
-    )?;
-    progress.finish();
-    common::print_warnings(&result.warnings);
-
-    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
-    outputs.csv_to(harmonic_csv.as_deref(), |buf| {
-        render::harmonic_csv(&result, buf)
-    })?;
-    outputs.plot_to(plot.as_deref(), |tmp| {
-        plot::stacked_line_charts(tmp, &render::charts(&result))
-    })?;
-    outputs.finish(json.as_deref(), "silencer", &result, render::text)
+        sweep: args.sweep.resolve(circuit)?,
+    })
 }

@@ -1,16 +1,20 @@
 //! `ripline solve [FILE]`: the pressure ripple at every measurement point.
 
 use super::common::{self, Outputs, check_output};
+use super::envelope::{self, PointArgs};
 use clap::Args;
 use ripline::plot;
 use ripline::render::solve as render;
-use ripline::results::solve::{SolveRequest, solve};
+use ripline::results::solve::{SolveRequest, SolveResult, solve};
 use std::path::PathBuf;
 
 #[derive(Debug, Args)]
 pub struct SolveArgs {
-    /// Circuit file (YAML); the built-in demo circuit when omitted.
+    /// Circuit file (YAML); the built-in demo circuit when omitted. With
+    /// an `envelope`, every point of it (or those the options select).
     file: Option<PathBuf>,
+    #[command(flatten)]
+    at: PointArgs,
     /// Number of harmonics of each pump's pumping frequency (overrides the file).
     #[arg(long, value_name = "N")]
     harmonics: Option<u32>,
@@ -51,48 +55,83 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
         .map(|p| check_output("--waveform", p, &["csv", "svg", "png"]))
         .collect::<anyhow::Result<Vec<_>>>()?;
     let harmonics = common::harmonics_option(args.harmonics)?;
-    let loaded = common::load_circuit(args.file.as_deref())?;
-    let mut targets = vec![
-        ("--csv", csv.as_deref()),
-        ("--plot", plot.as_deref()),
-        ("--json", json.as_deref()),
-    ];
-    targets.extend(waveforms.iter().map(|p| ("--waveform", Some(p.as_path()))));
+    let mut at = args.at.load(args.file.as_deref(), false)?;
+    let plots = envelope::point_paths(plot.as_deref(), &at);
+    // a waveform table holds every point; a chart is drawn per point
+    let (waveform_tables, waveform_charts): (Vec<PathBuf>, Vec<PathBuf>) = waveforms
+        .iter()
+        .cloned()
+        .partition(|p| p.extension().is_some_and(|e| e.eq_ignore_ascii_case("csv")));
+    let waveform_charts: Vec<Vec<PathBuf>> = waveform_charts
+        .iter()
+        .map(|p| envelope::point_paths(Some(p), &at))
+        .collect();
+    let mut targets = vec![("--csv", csv.as_deref()), ("--json", json.as_deref())];
+    targets.extend(plots.iter().map(|p| ("--plot", Some(p.as_path()))));
+    targets.extend(
+        waveform_tables
+            .iter()
+            .chain(waveform_charts.iter().flatten())
+            .map(|p| ("--waveform", Some(p.as_path()))),
+    );
     let mut outputs = Outputs::plan(&targets)?;
-    let speed = match &args.speed {
-        Some(text) => {
-            let rev_s = common::speed_option("--speed", text)?;
-            Some((
-                common::pick_shaft(&loaded.circuit, args.pump.as_deref())?,
-                rev_s,
-            ))
-        }
-        None => None,
-    };
-    let request = SolveRequest {
-        harmonics,
-        speed,
-        db_ref_pa: (db_ref_pa, db_ref_origin),
-        waveform: !waveforms.is_empty(),
-    };
-    let result = solve(loaded.circuit, &loaded.source, &request)?;
-    common::print_warnings(&result.warnings);
+    let results = at.run(|circuit, source| {
+        let speed = match &args.speed {
+            Some(text) => {
+                let rev_s = common::speed_option("--speed", text)?;
+                Some((common::pick_shaft(&circuit, args.pump.as_deref())?, rev_s))
+            }
+            None => None,
+        };
+        let request = SolveRequest {
+            harmonics,
+            speed,
+            db_ref_pa: (db_ref_pa, db_ref_origin),
+            waveform: !waveforms.is_empty(),
+        };
+        Ok(solve(circuit, source, &request)?)
+    })?;
+    envelope::print_warnings(&results, |r| &r.warnings);
 
     // Every output is prepared before anything is shown or renamed into place.
-    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
-    outputs.plot_to(plot.as_deref(), |tmp| {
-        plot::grouped_bar_chart(tmp, &render::chart(&result))
+    // The envelope columns follow `point,harmonic` (and a leading `source`).
+    let leading = |r: &SolveResult| if r.several_sources() { 3 } else { 2 };
+    let speed = |r: &SolveResult| (!r.several_sources()).then(|| r.sources[0].speed_rev_s);
+    envelope::csv_over(
+        &mut outputs,
+        csv.as_deref(),
+        &at.own,
+        &results,
+        leading(&results[0].1),
+        speed,
+        |r, buf| render::csv(r, buf),
+    )?;
+    envelope::plot_over(&mut outputs, &plots, &results, |r, tmp| {
+        plot::grouped_bar_chart(tmp, &render::chart(r))
     })?;
-    for path in &waveforms {
-        if path
-            .extension()
-            .is_some_and(|e| e.eq_ignore_ascii_case("csv"))
-        {
-            outputs.csv(path, |buf| render::waveform_csv(&result, buf))?;
-        } else {
-            let charts = render::waveform_charts(&result);
+    for path in &waveform_tables {
+        envelope::csv_over(
+            &mut outputs,
+            Some(path),
+            &at.own,
+            &results,
+            leading(&results[0].1) - 1,
+            speed,
+            |r, buf| render::waveform_csv(r, buf),
+        )?;
+    }
+    for paths in &waveform_charts {
+        for ((_, r), path) in results.iter().zip(paths) {
+            let charts = render::waveform_charts(r);
             outputs.plot(path, |tmp| plot::stacked_line_charts(tmp, &charts))?;
         }
     }
-    outputs.finish(json.as_deref(), "solve", &result, render::text)
+    envelope::finish_over(
+        outputs,
+        json.as_deref(),
+        "solve",
+        &args.at,
+        &results,
+        render::text,
+    )
 }

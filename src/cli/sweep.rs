@@ -3,6 +3,7 @@
 //! crossing.
 
 use super::common::{self, Outputs, UsageError};
+use super::envelope::{self, PointArgs};
 use super::ranges::{self, Progress};
 use clap::Args;
 use ripline::plot;
@@ -13,17 +14,21 @@ use std::path::PathBuf;
 
 #[derive(Debug, Args)]
 pub struct SweepArgs {
-    /// Circuit file (YAML); the built-in demo circuit when omitted.
+    /// Circuit file (YAML); the built-in demo circuit when omitted. With
+    /// an `envelope`, every point of it (or those the options select).
     file: Option<PathBuf>,
+    #[command(flatten)]
+    at: PointArgs,
     /// Speed range LOW..HIGH, in rpm unless a unit is given (e.g.
-    /// "600..3000"); default: the shaft's `speed_range`.
+    /// "600..3000"); default: the envelope's `speed`, else the shaft's
+    /// `speed_range`.
     #[arg(long, value_name = "LOW..HIGH", alias = "speed")]
     speed_range: Option<String>,
     /// Speed step, in rpm unless a unit is given; default: the range / 200.
     #[arg(long, value_name = "STEP", alias = "step")]
     speed_step: Option<String>,
     /// The shaft to sweep (a pump's name, or a `shaft` name); default: the
-    /// first pump's. Pumps on other shafts keep their own speed.
+    /// envelope's `shaft`, else the first pump's. Pumps on other shafts keep their own speed.
     #[arg(long, value_name = "NAME", alias = "shaft")]
     pump: Option<String>,
     /// Number of harmonics of each pump's pumping frequency (overrides the file).
@@ -40,6 +45,10 @@ pub struct SweepArgs {
     /// highest level.
     #[arg(long, value_name = "NAME", alias = "point")]
     tap: Option<String>,
+    /// Leave out of the report crossings this far below their measurement
+    /// point's worst overall level (default 20dB; all are in the JSON).
+    #[arg(long, value_name = "DB")]
+    floor: Option<String>,
     /// Write the full grid as CSV (speed_rpm,point,harmonic,frequency_hz,amplitude_pa).
     #[arg(long, value_name = "FILE")]
     csv: Option<PathBuf>,
@@ -64,57 +73,83 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
         None => (3.0, Origin::Default),
     };
     let db_ref = common::db_ref_option(args.db_ref.as_deref())?;
+    let ranking = common::ranking_options(args.at.top, args.floor.as_deref())?;
     let (csv, plot) = common::csv_and_plot_paths(args.csv.as_deref(), args.plot.as_deref())?;
     let json = common::json_path(args.json.as_deref())?;
-    let levels = plot.as_deref().map(render::levels_path);
     let harmonics = common::harmonics_option(args.harmonics)?;
-    let loaded = common::load_circuit(args.file.as_deref())?;
-    let mut outputs = Outputs::plan(&[
-        ("--csv", csv.as_deref()),
-        ("--plot", plot.as_deref()),
-        ("--plot (its levels chart)", levels.as_deref()),
-        ("--json", json.as_deref()),
-    ])?;
-    let request = SweepRequest {
-        shaft: common::pick_shaft(&loaded.circuit, args.pump.as_deref())?,
-        speed_range: args
-            .speed_range
-            .as_deref()
-            .map(ranges::speed_range_option)
-            .transpose()?,
-        step_rev_s: args
-            .speed_step
-            .as_deref()
-            .map(|s| common::speed_option("--speed-step", s))
-            .transpose()?,
-        harmonics,
-        min_rise_db: min_rise,
-        db_ref_pa: db_ref,
-        map_point: args.tap.clone(),
+    let mut at = args.at.load(args.file.as_deref(), false)?;
+    let maps = envelope::point_paths(plot.as_deref(), &at);
+    let levels: Vec<PathBuf> = maps.iter().map(|p| render::levels_path(p)).collect();
+    let mut targets = vec![("--csv", csv.as_deref()), ("--json", json.as_deref())];
+    targets.extend(maps.iter().map(|p| ("--plot", Some(p.as_path()))));
+    targets.extend(
+        levels
+            .iter()
+            .map(|p| ("--plot (its levels chart)", Some(p.as_path()))),
+    );
+    let mut outputs = Outputs::plan(&targets)?;
+    let speed_range = match args.speed_range.as_deref() {
+        Some(text) => Some(ranges::speed_range_option(text)?),
+        None => at.speed_range_rev_s,
     };
+    let step_rev_s = args
+        .speed_step
+        .as_deref()
+        .map(|s| common::speed_option("--speed-step", s))
+        .transpose()?;
+    let shaft = args.pump.clone().or_else(|| at.shaft.clone());
     let bar = Progress::new(0, "sweeping speeds");
-    let result = sweep(
-        loaded.circuit,
-        &loaded.source,
-        &request,
-        &mut |done, total| bar.set_of(done, total),
-    )?;
+    let results = at.run(|circuit, source| {
+        let request = SweepRequest {
+            shaft: common::pick_shaft(&circuit, shaft.as_deref())?,
+            speed_range,
+            step_rev_s,
+            harmonics,
+            min_rise_db: min_rise,
+            db_ref_pa: db_ref,
+            map_point: args.tap.clone(),
+            ranking,
+        };
+        Ok(sweep(circuit, source, &request, &mut |done, total| {
+            bar.set_of(done, total)
+        })?)
+    })?;
     bar.finish();
-    common::print_warnings(&result.warnings);
+    envelope::print_warnings(&results, |r| &r.warnings);
 
-    outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
-    if let (Some(path), Some(levels)) = (&plot, &levels) {
-        if !render::map_has_ripple(&result) {
+    // the envelope columns follow `point,harmonic`; the grid's own speed
+    // column moves into them
+    envelope::csv_over(
+        &mut outputs,
+        csv.as_deref(),
+        &at.own,
+        &results,
+        2,
+        |_| None,
+        |r, buf| render::csv(r, buf),
+    )?;
+    for (((p, r), path), levels) in results.iter().zip(&maps).zip(&levels) {
+        if !render::map_has_ripple(r) {
+            let at_point = if *p == Default::default() {
+                String::new()
+            } else {
+                format!(" at envelope point `{}`", p.label())
+            };
             return Err(UsageError(format!(
-                "--plot: the swept pumps make no ripple at `{}` at any speed (are their harmonics in the table?), so there is nothing to draw",
-                result.points[result.map_point]
+                "--plot: the swept pumps make no ripple at `{}` at any speed{at_point} (are their harmonics in the table?), so there is nothing to draw",
+                r.points[r.map_point]
             ))
             .into());
         }
-        outputs.plot(path, |tmp| plot::heat_map(tmp, &render::map(&result)))?;
-        outputs.plot(levels, |tmp| {
-            plot::line_chart(tmp, &render::level_chart(&result))
-        })?;
+        outputs.plot(path, |tmp| plot::heat_map(tmp, &render::map(r)))?;
+        outputs.plot(levels, |tmp| plot::line_chart(tmp, &render::level_chart(r)))?;
     }
-    outputs.finish(json.as_deref(), "sweep", &result, render::text)
+    envelope::finish_over(
+        outputs,
+        json.as_deref(),
+        "sweep",
+        &args.at,
+        &results,
+        render::text,
+    )
 }

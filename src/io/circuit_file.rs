@@ -10,6 +10,7 @@
 mod components;
 mod envelope;
 mod pumps;
+mod settings;
 
 use super::InputError;
 use super::gas_pressure::GasPressure;
@@ -547,14 +548,20 @@ pub fn load_circuit(path: &Path) -> Result<Circuit, InputError> {
 /// # Errors
 /// [`InputError`] naming the file, the line and the key at fault.
 pub fn parse_circuit(text: &str, file: &str) -> Result<Circuit, InputError> {
-    let raw: RawCircuit = super::parse_yaml(text, file)?;
+    let raw: RawCircuit = parse_raw(text, file)?;
     Checker(FileCheck { text, file }).circuit(&raw)
+}
+
+/// The raw sections of circuit text, tolerances accepted.
+fn parse_raw(text: &str, file: &str) -> Result<RawCircuit, InputError> {
+    super::quantity::allowing_tolerances(|| super::parse_yaml(text, file))
 }
 
 pub use envelope::{
     CircuitFile, MAX_CASES, MAX_LEVELS, MAX_POINTS, load_circuit_file, parse_circuit_at,
     parse_circuit_file,
 };
+pub use settings::{CircuitTemplate, Setting, Target, Uncertain};
 
 /// Parses circuit text as [`parse_circuit`] does, with the oil at another
 /// temperature (K): the fluid's temperature-dependent properties (density,
@@ -583,7 +590,7 @@ pub fn parse_circuit_at_temperature(
 /// # Errors
 /// [`InputError`] if the text does not parse.
 pub fn fixed_fluid_keys(text: &str, file: &str) -> Result<Vec<&'static str>, InputError> {
-    let raw: RawCircuit = super::parse_yaml(text, file)?;
+    let raw: RawCircuit = parse_raw(text, file)?;
     let f = &raw.fluid;
     Ok([
         ("density", f.density.is_some()),

@@ -86,7 +86,12 @@ impl<'de> serde::Deserialize<'de> for GasPressure {
             }
 
             fn visit_str<E: de::Error>(self, v: &str) -> Result<GasPressure, E> {
-                parse_gas_pressure(v)
+                let (value, tol) = crate::io::quantity::split_tolerance(v);
+                if tol.is_some() {
+                    crate::io::quantity::checked_tolerance(v, Dimension::Pressure)
+                        .map_err(E::custom)?;
+                }
+                parse_gas_pressure(value)
                     .map(|absolute_pa| GasPressure { absolute_pa })
                     .map_err(E::custom)
             }

@@ -5,8 +5,10 @@
 
 pub mod bench_file;
 pub mod circuit_file;
+pub mod csv_envelope;
 pub mod gas_pressure;
 pub mod locate;
+pub mod measurement_file;
 pub mod message;
 pub mod output;
 pub mod quantity;
@@ -16,8 +18,8 @@ mod validate;
 pub mod yaml_limits;
 
 pub use circuit_file::{
-    CircuitFile, load_circuit, load_circuit_file, parse_circuit, parse_circuit_at,
-    parse_circuit_at_temperature, parse_circuit_file,
+    CircuitFile, CircuitTemplate, Setting, Target, Uncertain, load_circuit, load_circuit_file,
+    parse_circuit, parse_circuit_at, parse_circuit_at_temperature, parse_circuit_file,
 };
 
 use locate::KeyPath;

@@ -436,3 +436,10 @@ pub fn stacked_line_charts_svg(charts: &[LineChart]) -> Result<String, PlotError
 pub fn heat_map_svg(map: &HeatMap) -> Result<String, PlotError> {
     svg_string(map.size, &HeatFigure::new(map)?)
 }
+
+/// The colour series `i` takes when it sets none, as red, green, blue (for
+/// drawing related series in one colour).
+pub fn series_color(i: usize) -> [u8; 3] {
+    let c = frame::palette(i);
+    [c.0, c.1, c.2]
+}

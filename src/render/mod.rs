@@ -8,9 +8,13 @@
 //! descriptions drawn by [`crate::plot`]). [`json`] writes any result. No
 //! renderer computes physics: everything it shows is in the result.
 
+pub mod assess;
+pub mod calibrate;
 pub mod check;
+pub mod compare;
 pub mod fit;
 pub mod json;
+pub mod over_envelope;
 pub mod profile;
 pub mod response;
 pub mod silencer;
@@ -35,6 +39,40 @@ pub fn heading(out: &mut impl Write, command: &str, subject: &Subject) -> std::i
         writeln!(out, "circuit: {title}")?;
     }
     Ok(())
+}
+
+/// A companion file of an output: `plot.svg` → `plot-<tag>.svg`.
+pub fn companion_path(path: &std::path::Path, tag: &str) -> std::path::PathBuf {
+    let stem = path
+        .file_stem()
+        .map_or_else(|| "output".into(), |s| s.to_string_lossy().into_owned());
+    let ext = path
+        .extension()
+        .map(|e| format!(".{}", e.to_string_lossy()))
+        .unwrap_or_default();
+    path.with_file_name(format!("{stem}-{tag}{ext}"))
+}
+
+/// The line that says which harmonics are left out for want of source
+/// flow, if any: the wording `response`, `solve`, `silencer` and `assess`
+/// share.
+///
+/// # Errors
+/// The writer's error.
+pub fn silent_orders_note(
+    out: &mut impl Write,
+    indent: &str,
+    orders: &[u32],
+) -> std::io::Result<()> {
+    if orders.is_empty() {
+        return Ok(());
+    }
+    let list: Vec<String> = orders.iter().map(u32::to_string).collect();
+    writeln!(
+        out,
+        "{indent}(left out, no source flow in the pump's table: harmonic {})",
+        list.join(", ")
+    )
 }
 
 /// "161.2 dB", or "no ripple" for a level of nothing.

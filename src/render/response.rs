@@ -5,6 +5,7 @@ use super::heading;
 use super::table::{Align, DIGITS, Quantity, Table, phase, sig};
 use crate::analysis::response::{Coverage, HarmonicBand, Resonance};
 use crate::plot;
+use crate::results::response::VerdictRef;
 use crate::results::response::{ResonanceVerdict, ResponseResult};
 use std::io::Write;
 
@@ -116,17 +117,7 @@ fn resonances(out: &mut impl Write, list: &[ResonanceVerdict]) -> std::io::Resul
 fn bands(out: &mut impl Write, r: &ResponseResult) -> std::io::Result<()> {
     let single = r.speed_range.is_single();
     writeln!(out, "harmonic bands over {}:", r.speed_range.describe())?;
-    if !r.silent_orders.is_empty() {
-        writeln!(
-            out,
-            "  (left out, no source flow in the pump's table: harmonic {})",
-            r.silent_orders
-                .iter()
-                .map(u32::to_string)
-                .collect::<Vec<_>>()
-                .join(", ")
-        )?;
-    }
+    super::silent_orders_note(out, "  ", &r.silent_orders)?;
     for b in &r.bands {
         if single {
             writeln!(out, "  harmonic {:>2}: {:>9.2} Hz", b.order, b.low_hz)?;
@@ -150,49 +141,79 @@ fn verdicts(out: &mut impl Write, r: &ResponseResult) -> std::io::Result<()> {
     if r.resonances.is_empty() {
         return writeln!(out, "  nothing to cross");
     }
-    for (i, v) in r.resonances.iter().enumerate() {
-        let text = if v.harmonics.is_empty() {
-            "clear".to_string()
-        } else {
-            v.harmonics
-                .iter()
-                .map(|h| match h.coverage {
-                    Coverage::Crossed { speed_rev_s } => {
-                        let estimate = match h.ripple_pa {
-                            Some(p) => format!(
-                                "≈ {} at `{}`",
-                                Quantity::Pressure.show(p),
-                                v.resonance.point
-                            ),
-                            None => "unbounded: lossless model".to_string(),
-                        };
-                        format!(
-                            "CROSSED by harmonic {} at {:.0} rpm ({estimate})",
-                            h.order,
-                            speed_rev_s * 60.0
-                        )
-                    }
-                    Coverage::Near { gap, speed_rev_s } => format!(
-                        "near harmonic {} ({:.1} % away at {:.0} rpm)",
-                        h.order,
-                        gap * 100.0,
-                        speed_rev_s * 60.0
+    let count = |crossed: bool| {
+        r.resonances
+            .iter()
+            .flat_map(|v| &v.harmonics)
+            .filter(|h| matches!(h.coverage, Coverage::Crossed { .. }) == crossed)
+            .count()
+    };
+    let (crossings, near) = (count(true), count(false));
+    let row = |at: &VerdictRef| {
+        let v = &r.resonances[at.resonance];
+        let h = &v.harmonics[at.harmonic];
+        let what = match h.coverage {
+            Coverage::Crossed { speed_rev_s } => {
+                let estimate = match h.ripple_pa {
+                    Some(p) => format!(
+                        "≈ {} at `{}`",
+                        Quantity::Pressure.show(p),
+                        v.resonance.point
                     ),
-                })
-                .collect::<Vec<_>>()
-                .join("; ")
+                    None => "unbounded: lossless model".to_string(),
+                };
+                format!(
+                    "CROSSED by harmonic {} at {:.0} rpm ({estimate})",
+                    h.order,
+                    speed_rev_s * 60.0
+                )
+            }
+            Coverage::Near { gap, speed_rev_s } => format!(
+                "near harmonic {} ({:.1} % away at {:.0} rpm)",
+                h.order,
+                gap * 100.0,
+                speed_rev_s * 60.0
+            ),
         };
+        format!(
+            "  {:>2}  {:>10.2} Hz  {what}",
+            at.resonance + 1,
+            v.resonance.freq_hz
+        )
+    };
+    if crossings > 0 {
         writeln!(
             out,
-            "  {:>2}  {:>10.2} Hz  {text}",
-            i + 1,
-            v.resonance.freq_hz
+            "  crossings, highest ripple first ({} of {}: within {} dB of the highest, at most --top {}):",
+            r.shown_crossings.len(),
+            crossings,
+            r.ranking.floor_db,
+            r.ranking.top
         )?;
+        for at in &r.shown_crossings {
+            writeln!(out, "  {}", row(at))?;
+        }
     }
+    if near > 0 {
+        writeln!(
+            out,
+            "  near misses, closest first ({} of {}):",
+            r.shown_near.len(),
+            near
+        )?;
+        for at in &r.shown_near {
+            writeln!(out, "  {}", row(at))?;
+        }
+    }
+    let crossed = r.resonances.iter().filter(|v| v.crossed()).count();
+    let clear = r
+        .resonances
+        .iter()
+        .filter(|v| v.harmonics.is_empty())
+        .count();
     writeln!(
         out,
-        "  {} of {} resonances crossed by a harmonic band",
-        r.resonances.iter().filter(|v| v.crossed()).count(),
+        "  {crossed} of {} resonances crossed by a harmonic band, {clear} clear (every verdict in --json)",
         r.resonances.len()
     )
 }

@@ -78,6 +78,7 @@ pub fn text(r: &SilencerResult, out: &mut impl Write) -> std::io::Result<()> {
         ]);
     }
     table.write(out, "  ")?;
+    super::silent_orders_note(out, "  ", &r.silent_orders)?;
     if r.rms_with_pa > 0.0 {
         writeln!(
             out,

@@ -85,6 +85,7 @@ pub fn text(r: &SolveResult, out: &mut impl Write) -> std::io::Result<()> {
                     .map(|h| (h.order, h.freq_hz, h.pressure_pa)),
             );
             t.write(out, "  ")?;
+            super::silent_orders_note(out, "  ", &s.silent_orders)?;
             writeln!(
                 out,
                 "  {}: {} rms, {}, {} peak-to-peak",

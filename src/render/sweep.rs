@@ -33,14 +33,7 @@ const DOMINANT_SHARE_DB: f64 = -6.0;
 
 /// The companion file of a map: `sweep.svg` → `sweep-levels.svg`.
 pub fn levels_path(map: &Path) -> PathBuf {
-    let stem = map
-        .file_stem()
-        .map_or_else(|| "sweep".into(), |s| s.to_string_lossy().into_owned());
-    let ext = map
-        .extension()
-        .map(|e| format!(".{}", e.to_string_lossy()))
-        .unwrap_or_default();
-    map.with_file_name(format!("{stem}-levels{ext}"))
+    super::companion_path(map, "levels")
 }
 
 /// Writes the terminal report.
@@ -79,14 +72,22 @@ pub fn text(r: &SweepReport, out: &mut impl Write) -> std::io::Result<()> {
         "levels are rms in dB re {}; amplitudes are peak values",
         reference_text(r.db_ref_pa)
     )?;
-    let list: Vec<String> = r.resonances_hz.iter().map(|f| format!("{f:.1}")).collect();
+    let list: Vec<String> = r
+        .excited_resonances_hz
+        .iter()
+        .map(|f| format!("{f:.1}"))
+        .collect();
     writeln!(
         out,
-        "circuit resonances (peaks of the response P/Qs to the shaft's pumps, as `ripline response` finds them): {}",
+        "circuit resonances (peaks of the response P/Qs to the shaft's pumps, as `ripline response` finds them): {} in the band{}",
+        r.resonances_hz.len(),
         if list.is_empty() {
-            "none in the band".to_string()
+            String::new()
         } else {
-            format!("{} Hz", list.join(", "))
+            format!(
+                "; excited by the crossings shown: {} Hz (all in --json)",
+                list.join(", ")
+            )
         }
     )?;
     writeln!(out)?;
@@ -114,12 +115,17 @@ pub fn text(r: &SweepReport, out: &mut impl Write) -> std::io::Result<()> {
             "no resonance crossing: no harmonic level peaks in the speed range"
         );
     }
+    let ranking = r.ranking;
     writeln!(
         out,
-        "resonance crossings ({}; rise: dB above the harmonic's level away from the resonance; share: its level against the point's overall level):",
-        r.crossings.len()
+        "resonance crossings, highest first ({} of {}: those within {} dB of their point's worst level, at most --top {}; all in --json; rise: dB above the harmonic's level away from the resonance; share: its level against the point's overall level):",
+        r.shown_crossings.len(),
+        r.crossings.len(),
+        ranking.floor_db,
+        ranking.top
     )?;
-    let unit = Quantity::Pressure.unit_for_all(r.crossings.iter().map(|c| c.amplitude_pa));
+    let shown: Vec<_> = r.shown_crossings.iter().map(|&i| &r.crossings[i]).collect();
+    let unit = Quantity::Pressure.unit_for_all(shown.iter().map(|c| c.amplitude_pa));
     let mut t = Table::new(&[
         ("speed rpm", Align::Right),
         (r.order_basis.header(), Align::Right),
@@ -129,7 +135,7 @@ pub fn text(r: &SweepReport, out: &mut impl Write) -> std::io::Result<()> {
     .column(format!("amplitude {}", unit.symbol), Align::Right)
     .column("rise dB", Align::Right)
     .column("share dB", Align::Right);
-    for c in &r.crossings {
+    for c in shown {
         t.row(vec![
             format!("{:.1}", c.speed_rev_s * 60.0),
             c.order.to_string(),
@@ -188,7 +194,8 @@ pub fn map_has_ripple(r: &SweepReport) -> bool {
 pub fn map(r: &SweepReport) -> plot::HeatMap {
     let result = &r.grid;
     let point = r.map_point;
-    let (resonances, f_top, p_ref) = (&r.resonances_hz, r.top_hz * 1.05, r.db_ref_pa);
+    // only the resonances the crossings shown excite, so the map stays legible
+    let (resonances, f_top, p_ref) = (&r.excited_resonances_hz, r.top_hz * 1.05, r.db_ref_pa);
     let title = r.subject.title.as_deref();
     let speeds = &result.speeds_rev_s;
     let rpm: Vec<f64> = speeds.iter().map(|s| s * 60.0).collect();

@@ -11,9 +11,13 @@
 //! cautions. Nothing here prints or writes a file: the renderers in
 //! [`crate::render`] turn a result into terminal text, CSV, JSON and charts.
 
+pub mod assess;
+pub mod calibrate;
 pub mod check;
+pub mod compare;
 pub mod describe;
 pub mod fit;
+pub mod over_envelope;
 pub mod profile;
 pub mod response;
 pub mod setup;
@@ -174,6 +178,41 @@ pub fn notices(warnings: &[Warning]) -> Vec<Notice> {
     warnings.iter().map(Notice::from).collect()
 }
 
+/// Which findings a report shows: the highest first, at most `top`, none
+/// lying more than `floor_db` below its reference (its measurement point's
+/// worst level); the full list stays in the CSV or JSON output.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Ranking {
+    /// Most findings shown.
+    pub top: usize,
+    /// How far below its reference a finding may lie, dB.
+    pub floor_db: f64,
+}
+
+impl Ranking {
+    /// The echoed inputs `top` and `floor`, given with `origin`.
+    pub fn inputs(&self, origin: Origin) -> [Input; 2] {
+        [
+            Input::number("top", self.top as f64, "1", origin),
+            Input::number("floor", self.floor_db, "dB", origin),
+        ]
+    }
+
+    /// The indices of `items`, each (its level in dB, its reference level
+    /// in dB), to show: highest level first (earlier first among equals),
+    /// those within the floor of their reference, at most `top`.
+    pub fn shown(&self, items: impl IntoIterator<Item = (f64, f64)>) -> Vec<usize> {
+        let mut kept: Vec<(usize, f64)> = items
+            .into_iter()
+            .enumerate()
+            .filter(|(_, (level, reference))| reference - level <= self.floor_db)
+            .map(|(i, (level, _))| (i, level))
+            .collect();
+        kept.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
+        kept.into_iter().take(self.top).map(|(i, _)| i).collect()
+    }
+}
+
 /// A level in dB re `p_ref_pa` of an rms pressure, `None` when there is no
 /// ripple (the level would be −∞). Taken as a difference of logarithms, so
 /// it is finite for every positive finite pressure (the ratio itself can
@@ -214,5 +253,34 @@ impl Error {
             context: context.into(),
             source: Box::new(source),
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::Ranking;
+
+    // Levels (dB) against their references: 60 is 40 dB below its 100, so
+    // it is left out by a 20 dB floor; the rest come highest first, equal
+    // levels in their order, at most `top`.
+    #[test]
+    fn a_ranking_keeps_the_highest_within_the_floor() {
+        let items = [
+            (90.0, 100.0),
+            (60.0, 100.0),
+            (95.0, 95.0),
+            (90.0, 91.0),
+            (50.0, 60.0),
+        ];
+        let r = Ranking {
+            top: 10,
+            floor_db: 20.0,
+        };
+        assert_eq!(r.shown(items), vec![2, 0, 3, 4]);
+        let r = Ranking {
+            top: 2,
+            floor_db: 5.0,
+        };
+        assert_eq!(r.shown(items), vec![2, 3]);
     }
 }

@@ -22,6 +22,9 @@ pub struct ResponseRequest {
     /// How close (a fraction of f0) a band edge counts as near, and where
     /// the value came from.
     pub margin: (f64, Origin),
+    /// Which crossings and near misses the report shows, and where it
+    /// came from.
+    pub ranking: (super::Ranking, Origin),
 }
 
 /// The pump that drives a response.
@@ -87,6 +90,75 @@ impl ResonanceVerdict {
     }
 }
 
+/// A verdict of one harmonic on one resonance.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub struct VerdictRef {
+    /// The index in `resonances`.
+    pub resonance: usize,
+    /// The index in that resonance's `harmonics`.
+    pub harmonic: usize,
+}
+
+/// The crossings and near misses of `resonances` a report shows (see
+/// [`ResponseResult::shown_crossings`] and [`ResponseResult::shown_near`]).
+fn shown(
+    resonances: &[ResonanceVerdict],
+    ranking: super::Ranking,
+) -> (Vec<VerdictRef>, Vec<VerdictRef>) {
+    let all: Vec<(VerdictRef, &Verdict)> = resonances
+        .iter()
+        .enumerate()
+        .flat_map(|(ri, r)| {
+            r.harmonics.iter().enumerate().map(move |(hi, v)| {
+                (
+                    VerdictRef {
+                        resonance: ri,
+                        harmonic: hi,
+                    },
+                    v,
+                )
+            })
+        })
+        .collect();
+    // the level of a crossing's ripple, dB re 1 Pa; an unbounded one (a
+    // lossless model) above every other
+    let crossed: Vec<(VerdictRef, f64)> = all
+        .iter()
+        .filter(|(_, v)| matches!(v.coverage, Coverage::Crossed { .. }))
+        .map(|(at, v)| {
+            let level = v
+                .ripple_pa
+                .map_or(f64::MAX, |p| 20.0 * p.max(f64::MIN_POSITIVE).log10());
+            (*at, level)
+        })
+        .collect();
+    let highest = crossed
+        .iter()
+        .map(|c| c.1)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let crossings = ranking
+        .shown(crossed.iter().map(|c| (c.1, highest)))
+        .into_iter()
+        .map(|i| crossed[i].0)
+        .collect();
+    let near: Vec<(VerdictRef, f64)> = all
+        .iter()
+        .filter_map(|(at, v)| match v.coverage {
+            Coverage::Near { gap, .. } => Some((*at, gap)),
+            Coverage::Crossed { .. } => None,
+        })
+        .collect();
+    let near = super::Ranking {
+        top: ranking.top,
+        floor_db: f64::INFINITY,
+    }
+    .shown(near.iter().map(|n| (-n.1, 0.0)))
+    .into_iter()
+    .map(|i| near[i].0)
+    .collect();
+    (crossings, near)
+}
+
 /// The impedance the pump sees at one of its harmonics.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct LoadAtHarmonic {
@@ -125,6 +197,14 @@ pub struct ResponseResult {
     pub margin: f64,
     /// Resonances with their verdicts, by frequency.
     pub resonances: Vec<ResonanceVerdict>,
+    /// The crossings the report shows, highest ripple first (an unbounded
+    /// one first of all): at most `top`, none more than `floor` below the
+    /// highest.
+    pub shown_crossings: Vec<VerdictRef>,
+    /// The near misses the report shows, closest first, at most `top`.
+    pub shown_near: Vec<VerdictRef>,
+    /// Which are shown (`top`, `floor_db`).
+    pub ranking: super::Ranking,
     /// The bands of the harmonics the pump's source flow has.
     pub bands: Vec<HarmonicBand>,
     /// Harmonics the pump's table lacks (left out).
@@ -207,6 +287,8 @@ pub fn response(
         "1",
         request.margin.1,
     ));
+    let (ranking, ranking_origin) = request.ranking;
+    inputs.extend(ranking.inputs(ranking_origin));
     let speeds = speed_range(&circuit, pump_index, request.sweep.speed_range);
     let grid = grid(
         &circuit,
@@ -233,7 +315,7 @@ pub fn response(
     let (bands, silent_orders) = excited_bands(&circuit, pump_index, &speeds);
     let pump = &circuit.pumps[pump_index];
     let margin = request.margin.0;
-    let resonances = resonances
+    let resonances: Vec<ResonanceVerdict> = resonances
         .into_iter()
         .map(|r| {
             let harmonics = crossings(r.freq_hz, &bands, margin)
@@ -258,6 +340,7 @@ pub fn response(
             }
         })
         .collect();
+    let (shown_crossings, shown_near) = shown(&resonances, ranking);
     let load = load_at_harmonics(&plan, pump_index)?;
     Ok(ResponseResult {
         subject: Subject {
@@ -269,6 +352,9 @@ pub fn response(
         speed_range: speeds,
         grid,
         margin,
+        shown_crossings,
+        shown_near,
+        ranking,
         resonances,
         bands,
         silent_orders,

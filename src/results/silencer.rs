@@ -113,8 +113,10 @@ pub struct SilencerResult {
     pub speed_range: SpeedRange,
     /// The frequency grid.
     pub grid: Grid,
-    /// Per harmonic at the pump's speed.
+    /// Per harmonic at the pump's speed (those with source flow).
     pub harmonics: Vec<HarmonicLoss>,
+    /// Harmonics without source flow in the pump's table, left out.
+    pub silent_orders: Vec<u32>,
     /// Overall rms without the silencer, Pa.
     pub rms_without_pa: f64,
     /// Overall rms with it, Pa.
@@ -268,7 +270,10 @@ pub fn silencer(
     // Per harmonic at the pump's speed.
     let fp = pump.pumping_frequency_hz();
     let mut rows = Vec::new();
-    for k in 1..=circuit.harmonics {
+    // harmonics without source flow excite nothing: left out (and named)
+    let (with_flow, silent_orders): (Vec<u32>, Vec<u32>) =
+        (1..=circuit.harmonics).partition(|&k| pump.has_source_flow(k));
+    for &k in &with_flow {
         let f = f64::from(k) * fp;
         let (with, wo) = pair(f)?;
         let q = pump.flow_ripple(k).norm();
@@ -294,7 +299,7 @@ pub fn silencer(
     let mut over_speeds = Vec::new();
     if !speeds.is_single() {
         let conditions = speed_conditions(speeds.rev_s(), RANGE_SPEEDS);
-        for k in 1..=circuit.harmonics {
+        for &k in &with_flow {
             let (mut lo, mut hi) = ((f64::INFINITY, 0.0), (f64::NEG_INFINITY, 0.0));
             for c in &conditions {
                 let f = f64::from(k) * z * c.speed_rev_s;
@@ -357,6 +362,7 @@ pub fn silencer(
         speed_range: speeds,
         grid,
         harmonics: rows,
+        silent_orders,
         rms_without_pa,
         rms_with_pa,
         over_speeds,

@@ -145,6 +145,9 @@ pub struct SourceRipple {
     pub fundamental_elements: u32,
     /// What the orders are.
     pub order_basis: OrderBasis,
+    /// Orders without source flow (a flow table shorter than the
+    /// harmonics asked), left out of `points`.
+    pub silent_orders: Vec<u32>,
     /// One entry per measurement point.
     pub points: Vec<PointRipple>,
 }
@@ -323,6 +326,7 @@ fn source(
         fundamental_hz: report.pumping_frequency_hz,
         fundamental_elements: shaft.fundamental_elements,
         order_basis: OrderBasis::of(circuit, shaft),
+        silent_orders: report.silent_orders.clone(),
         // each point's peak-to-peak (a waveform search) on its own, in
         // parallel; rayon's indexed collect keeps the order
         points: report

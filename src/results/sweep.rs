@@ -39,6 +39,8 @@ pub struct SweepRequest {
     pub db_ref_pa: (f64, Origin),
     /// The point shown on the map (default: the one with the highest level).
     pub map_point: Option<String>,
+    /// The crossings the report shows, and where it came from.
+    pub ranking: (super::Ranking, Origin),
 }
 
 /// A pump that keeps its own speed.
@@ -117,6 +119,15 @@ pub struct SweepReport {
     pub worst: Vec<WorstResult>,
     /// Every resonance crossing, by speed, then order, then point.
     pub crossings: Vec<CrossingResult>,
+    /// The crossings the report shows (indices into `crossings`): the
+    /// highest first, at most `top`, none more than `floor` below its
+    /// point's worst overall level.
+    pub shown_crossings: Vec<usize>,
+    /// Which crossings are shown (`top`, `floor_db`).
+    pub ranking: super::Ranking,
+    /// The resonances those crossings excite (of `resonances_hz`), the ones
+    /// the map draws.
+    pub excited_resonances_hz: Vec<f64>,
     /// Per point, the overall rms ripple at each grid speed, Pa.
     pub overall_rms_pa: Vec<Vec<f64>>,
     /// The index of the point shown on the map.
@@ -178,6 +189,8 @@ pub fn sweep(
     inputs.push(Input::number("min_rise", min_rise, "dB", rise_origin));
     let (p_ref, ref_origin) = request.db_ref_pa;
     inputs.push(Input::number("db_ref", p_ref, "Pa", ref_origin));
+    let (ranking, ranking_origin) = request.ranking;
+    inputs.extend(ranking.inputs(ranking_origin));
     let count = ((high - low) / step * (1.0 + 1e-12)).floor() as usize + 1;
     if !(3..=MAX_SPEEDS).contains(&count) {
         return Err(Error::Request(format!(
@@ -228,11 +241,12 @@ pub fn sweep(
     let low_hz = orders
         .first()
         .map_or(1.0, |&j| f64::from(j) * shaft.fundamental_hz(low));
-    let resonances_hz = shaft_resonances(&plan, shaft, 0.25 * low_hz, 1.05 * top_hz, min_rise)
-        .map_err(|e| Error::failed(format!("finding the resonances of {file}"), e))?
-        .iter()
-        .map(|r| r.freq_hz)
-        .collect();
+    let resonances_hz: Vec<f64> =
+        shaft_resonances(&plan, shaft, 0.25 * low_hz, 1.05 * top_hz, min_rise)
+            .map_err(|e| Error::failed(format!("finding the resonances of {file}"), e))?
+            .iter()
+            .map(|r| r.freq_hz)
+            .collect();
     ensure_finite(&grid)?;
     warnings.extend(notices(
         &grid.warnings[..grid.warnings.len().min(SHOWN_WARNINGS)],
@@ -274,6 +288,19 @@ pub fn sweep(
             })
             .0
     });
+    // levels in dB re 1 Pa: a crossing's harmonic rms |P|/√2 against its
+    // point's worst overall rms
+    let db = |p: f64| 20.0 * p.max(f64::MIN_POSITIVE).log10();
+    let shown_crossings = request.ranking.0.shown(grid.crossings.iter().map(|c| {
+        (
+            db(c.amplitude_pa / std::f64::consts::SQRT_2),
+            db(worst[c.point].rms_pa),
+        )
+    }));
+    let excited_resonances_hz = excited(
+        &resonances_hz,
+        shown_crossings.iter().map(|&i| grid.crossings[i].freq_hz),
+    );
     Ok(SweepReport {
         subject: Subject {
             file: file.to_string(),
@@ -319,6 +346,9 @@ pub fn sweep(
                 share_db: c.share_db,
             })
             .collect(),
+        shown_crossings,
+        ranking: request.ranking.0,
+        excited_resonances_hz,
         overall_rms_pa: (0..grid.points.len())
             .map(|pi| {
                 (0..grid.speeds_rev_s.len())
@@ -330,6 +360,25 @@ pub fn sweep(
         warnings,
         grid,
     })
+}
+
+/// The resonances of `resonances_hz` that the crossings at `crossing_hz`
+/// excite: each crossing's nearest resonance within 5 % of it (a crossing
+/// peaks at a resonance of the response, shifted a little by the
+/// neighbouring ones), in ascending order, each once.
+fn excited(resonances_hz: &[f64], crossing_hz: impl Iterator<Item = f64>) -> Vec<f64> {
+    let mut out: Vec<f64> = crossing_hz
+        .filter_map(|f| {
+            resonances_hz
+                .iter()
+                .copied()
+                .filter(|r| (r - f).abs() <= 0.05 * r)
+                .min_by(|a, b| (a - f).abs().total_cmp(&(b - f).abs()))
+        })
+        .collect();
+    out.sort_by(f64::total_cmp);
+    out.dedup();
+    out
 }
 
 /// Refuses a result that is not a finite number.

@@ -93,16 +93,35 @@ impl Shaft {
     }
 
     /// The orders j of the shaft fundamental at which at least one pump
-    /// has one of its harmonics 1..=`harmonics`, increasing. For one pump,
-    /// or pumps with equal z, these are 1..=`harmonics`.
+    /// has one of its harmonics 1..=`harmonics` with source flow
+    /// ([`Pump::has_source_flow`]), increasing. For one pump, or pumps with
+    /// equal z, these are 1..=`harmonics` less those without source flow
+    /// (a flow table shorter than `harmonics`): they excite nothing, so
+    /// every analysis and report leaves them out ([`Shaft::silent_orders`]).
     pub fn orders(&self, pumps: &[Pump], harmonics: u32) -> Vec<u32> {
+        self.all_orders(pumps, harmonics, true)
+    }
+
+    /// The orders 1..=`harmonics` (of each pump, as for [`Shaft::orders`])
+    /// at which no pump on the shaft has source flow, increasing.
+    pub fn silent_orders(&self, pumps: &[Pump], harmonics: u32) -> Vec<u32> {
+        let with = self.orders(pumps, harmonics);
+        let mut all = self.all_orders(pumps, harmonics, false);
+        all.retain(|o| !with.contains(o));
+        all
+    }
+
+    fn all_orders(&self, pumps: &[Pump], harmonics: u32, with_flow: bool) -> Vec<u32> {
         let g = self.fundamental_elements;
         let mut orders: Vec<u32> = self
             .pumps
             .iter()
             .flat_map(|&i| {
-                let per = pumps[i].pumping_elements / g;
-                (1..=harmonics).map(move |k| k * per)
+                let p = &pumps[i];
+                let per = p.pumping_elements / g;
+                (1..=harmonics)
+                    .filter(move |&k| !with_flow || p.has_source_flow(k))
+                    .map(move |k| k * per)
             })
             .collect();
         orders.sort_unstable();

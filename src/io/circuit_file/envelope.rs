@@ -453,7 +453,7 @@ pub fn load_circuit_file(path: &Path) -> Result<CircuitFile, InputError> {
 /// # Errors
 /// [`InputError`] naming the file, the line and the key at fault.
 pub fn parse_circuit_file(text: &str, file: &str) -> Result<CircuitFile, InputError> {
-    let raw: RawCircuit = crate::io::parse_yaml(text, file)?;
+    let raw: RawCircuit = super::parse_raw(text, file)?;
     let checker = Checker(FileCheck { text, file });
     let (pressure_pa, temperature_k) = (
         raw.fluid.pressure.map(|p| p.si),
@@ -479,6 +479,42 @@ impl CircuitFile {
             Some(e) => e.points(),
             None => vec![OperatingPoint::default()],
         }
+    }
+
+    /// The envelope's points that match `filter` (every point for an empty
+    /// filter; the file's own point when it has no envelope).
+    ///
+    /// # Errors
+    /// [`crate::envelope::NoSuchPoint`] when the filter matches no point,
+    /// or asks for a part of a point without an envelope.
+    pub fn select(
+        &self,
+        filter: &crate::envelope::PointFilter,
+    ) -> Result<Vec<OperatingPoint>, crate::envelope::NoSuchPoint> {
+        match &self.envelope {
+            Some(e) => e.select(filter),
+            None if *filter == crate::envelope::PointFilter::default() => Ok(self.points()),
+            None => Err(crate::envelope::NoSuchPoint {
+                what: "an envelope point".into(),
+                valid: "none: the file has no `envelope` section".into(),
+            }),
+        }
+    }
+
+    /// The circuit at each of `points`, all resolved before any is used
+    /// (so a point that makes the circuit invalid is found before any
+    /// work).
+    ///
+    /// # Errors
+    /// The first point's [`InputError`], as [`CircuitFile::at`].
+    pub fn circuits(
+        &self,
+        points: &[OperatingPoint],
+    ) -> Result<Vec<(OperatingPoint, Circuit)>, InputError> {
+        points
+            .iter()
+            .map(|p| self.at(p).map(|c| (p.clone(), c)))
+            .collect()
     }
 
     /// The circuit at an envelope point (the point evaluator).
@@ -509,7 +545,19 @@ pub fn parse_circuit_at(
     file: &str,
     point: &OperatingPoint,
 ) -> Result<Circuit, InputError> {
-    let mut raw: RawCircuit = crate::io::parse_yaml(text, file)?;
+    super::settings::CircuitTemplate::new(text, file)?.circuit(point, &[])
+}
+
+/// The circuit of a parsed document (the file's text with any settings
+/// already written into it) at an operating point; `text` and `file`
+/// locate errors.
+pub(super) fn circuit_at(
+    document: &Value,
+    mut raw: RawCircuit,
+    text: &str,
+    file: &str,
+    point: &OperatingPoint,
+) -> Result<Circuit, InputError> {
     let checker = Checker(FileCheck { text, file });
     let root = KeyPath::root();
     let envelope_path = root.key("envelope");
@@ -568,8 +616,6 @@ pub fn parse_circuit_at(
                 )
             })?;
         let cp = envelope_path.key("cases").index(ci);
-        let document: Value = serde_yaml::from_str(text)
-            .map_err(|e| checker.err(&root, format!("cannot read the file again: {e}")))?;
         let elements = document
             .get("elements")
             .and_then(Value::as_sequence)
@@ -604,8 +650,10 @@ pub fn parse_circuit_at(
                 moved.push((format!("elements[{i}].{key_name}"), ep.key(key_name)));
             }
             moved.push((format!("elements[{i}]"), ep.clone()));
-            let element = RawElement::deserialize(Value::Mapping(merged))
-                .map_err(|e| checker.err(&ep, format!("in load case `{}`: {e}", case.name)))?;
+            let element = crate::io::quantity::allowing_tolerances(|| {
+                RawElement::deserialize(Value::Mapping(merged))
+            })
+            .map_err(|e| checker.err(&ep, format!("in load case `{}`: {e}", case.name)))?;
             changed.push((i, element));
         }
         for (i, element) in changed {
@@ -621,23 +669,16 @@ pub fn parse_circuit_at(
             moved.push((format!("elements[{i}]"), kp.clone()));
             let e = &mut raw.elements[i];
             if e.is_two_port() {
-                // its `to` end shut: the element stays on `from`, dead-ended
-                e.to = Some(format!(
-                    "{} (closed in case {})",
-                    e.to.clone().unwrap_or_default(),
-                    case.name
-                ));
+                // its `to` end shut: the element stays on `from`, ended by a
+                // closed end at a node of its own (appended, so the other
+                // elements keep their places)
+                let node = format!("{} (closed in case {})", e.name, case.name);
+                e.to = Some(node.clone());
+                let end = closed_end(&node, &node, &checker, &kp)?;
+                raw.elements.push(end);
             } else {
-                let closed = RawElement::deserialize(Value::Mapping(Mapping::from_iter([
-                    (Value::from("name"), Value::from(e.name.clone())),
-                    (Value::from("kind"), Value::from("closed_end")),
-                    (
-                        Value::from("at"),
-                        Value::from(e.at.clone().unwrap_or_default()),
-                    ),
-                ])))
-                .map_err(|err| checker.err(&kp, err.to_string()))?;
-                *e = closed;
+                let at = e.at.clone().unwrap_or_default();
+                *e = closed_end(&e.name, &at, &checker, &kp)?;
             }
         }
         moved.push(("elements".into(), cp.clone()));
@@ -751,6 +792,16 @@ fn drop_cut_off(raw: &mut RawCircuit) -> Kept {
         keep_tap[i - 1]
     });
     kept
+}
+
+/// A `closed_end` element called `name` at node `at`.
+fn closed_end(name: &str, at: &str, checker: &Checker<'_>, path: &KeyPath) -> Res<RawElement> {
+    RawElement::deserialize(Value::Mapping(Mapping::from_iter([
+        (Value::from("name"), Value::from(name)),
+        (Value::from("kind"), Value::from("closed_end")),
+        (Value::from("at"), Value::from(at)),
+    ])))
+    .map_err(|err| checker.err(path, err.to_string()))
 }
 
 /// The circuit nodes a valve block's ports join (a block joins them

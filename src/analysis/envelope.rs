@@ -1,0 +1,572 @@
+//! Verdicts over an operating envelope: the worst ripple at every point of
+//! the envelope against the user's limits, and the findings ranked by
+//! severity (what `ripline assess` reports).
+//!
+//! At every envelope point (a mean pressure, an oil temperature, a load
+//! case: the circuit resolved there, see [`crate::envelope`]) the pumps on
+//! one shaft are swept over the speed range ([`super::sweep`]): the
+//! harmonics at every measurement point on a grid of speeds, the resonance
+//! crossings, and per point the true worst speed of the overall rms,
+//! refined between the grid speeds to 0.01 dB ([`super::worst`]). A
+//! peak-to-peak or per-harmonic limit gets its own true worst speed
+//! ([`super::sweep::worst_at_point`]). The **verdict** of a limit is the
+//! worst over every point and speed: where (point, speed, harmonic), its
+//! value, the margin to the limit (20·log10(limit/value) in dB: positive
+//! passes) and PASS or FAIL.
+//!
+//! **Findings** are what a designer looks at, ranked by level (rms, dB re
+//! 1 Pa): per measurement point and envelope point its worst speed; every
+//! excited resonance of the circuit (a resonance of the response to the
+//! shaft's pumps that a harmonic crosses in the speed range), at the level
+//! of its strongest crossing; and every resonance crossing. A report shows
+//! the first few and drops what lies far below the point's overall worst
+//! level ([`Assessment::ranked`]); the full list goes to CSV.
+
+use super::sweep::{
+    SweepError, SweepResult, SweepSettings, shaft_resonances, sweep, worst_at_point,
+};
+use super::worst::{Measure, WorstSpeed};
+use crate::circuit::Circuit;
+use crate::envelope::{Limit, LimitKind, OperatingPoint, TapLimits};
+use crate::network::{NetworkError, Plan};
+use crate::source::{Shaft, shafts};
+use serde::Serialize;
+
+/// Resonances of the response and crossings within this fraction of each
+/// other's frequency are one (the merge tolerance of `response`).
+const SAME_RESONANCE: f64 = 0.02;
+
+/// How an envelope is assessed.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct AssessSettings {
+    /// Speeds of the grid across the range (evenly spaced, ends included,
+    /// at least 3); the worst speeds are refined between them.
+    pub speed_points: usize,
+    /// Smallest rise (dB) of a resonance crossing (as for `sweep`).
+    pub min_rise_db: f64,
+}
+
+impl Default for AssessSettings {
+    /// 201 speeds and a 3 dB rise, as `sweep`'s defaults.
+    fn default() -> Self {
+        AssessSettings {
+            speed_points: 201,
+            min_rise_db: 3.0,
+        }
+    }
+}
+
+/// Where a quantity is worst over the envelope.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct WorstPoint {
+    /// The envelope point.
+    pub point: OperatingPoint,
+    /// Shaft speed in rev/s.
+    pub speed_rev_s: f64,
+    /// The harmonic (order of the shaft fundamental): the limited one for a
+    /// per-harmonic limit, else the one with the largest amplitude there.
+    pub order: u32,
+    /// That harmonic's frequency in Hz.
+    pub frequency_hz: f64,
+    /// The quantity there, in Pa (rms, peak-to-peak or a harmonic's peak
+    /// amplitude, as limited).
+    pub value_pa: f64,
+}
+
+/// A limit and how the envelope meets it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Verdict {
+    /// The measurement point.
+    pub tap: String,
+    /// The limit.
+    pub limit: Limit,
+    /// The worst point of the envelope; `None` when no ripple reaches the
+    /// tap anywhere (a load case cut it off, or no harmonic has flow).
+    pub worst: Option<WorstPoint>,
+    /// 20·log10(limit/worst) in dB (positive: below the limit); `None`
+    /// without ripple.
+    pub margin_db: Option<f64>,
+    /// limit − worst, in Pa.
+    pub margin_pa: f64,
+    /// Whether the worst stays within the limit.
+    pub pass: bool,
+}
+
+/// What a finding is.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum FindingKind {
+    /// The worst speed of a measurement point at an envelope point (its
+    /// overall rms).
+    WorstPoint,
+    /// A resonance of the circuit that a harmonic crosses (its strongest
+    /// crossing).
+    Resonance,
+    /// One harmonic crossing one resonance at one measurement point.
+    Crossing,
+}
+
+impl FindingKind {
+    /// How reports name it.
+    pub fn name(self) -> &'static str {
+        match self {
+            FindingKind::WorstPoint => "worst point",
+            FindingKind::Resonance => "resonance",
+            FindingKind::Crossing => "crossing",
+        }
+    }
+}
+
+/// One finding.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Finding {
+    /// What it is.
+    pub kind: FindingKind,
+    /// The measurement point.
+    pub tap: String,
+    /// The envelope point.
+    pub point: OperatingPoint,
+    /// Shaft speed in rev/s.
+    pub speed_rev_s: f64,
+    /// The harmonic (for a worst point: the largest one there).
+    pub order: u32,
+    /// Frequency in Hz (of the harmonic; for a resonance, the resonance's).
+    pub frequency_hz: f64,
+    /// The rms value in Pa (overall for a worst point, of the harmonic
+    /// otherwise).
+    pub rms_pa: f64,
+    /// Its level, 20·log10(rms/1 Pa).
+    pub level_db: f64,
+    /// How far below the measurement point's overall worst level over the
+    /// envelope it lies, in dB (0 for the worst itself).
+    pub below_overall_db: f64,
+    /// For a crossing or resonance: the rise above the harmonic's level away
+    /// from the resonance, in dB.
+    pub rise_db: Option<f64>,
+    /// The circuit resonance (Hz) it is at, when it is at one.
+    pub resonance_hz: Option<f64>,
+}
+
+/// A warning and the envelope points where it holds: one warning that
+/// differs between points only in its numbers is one, with the numbers of
+/// the first point.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct EnvelopeWarning {
+    /// The warning (see [`crate::diagnostics::Warning`]) at the first point.
+    pub text: String,
+    /// The labels of the points where it holds, in the envelope's order.
+    pub points: Vec<String>,
+}
+
+/// One envelope point's sweep.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PointSweep {
+    /// The envelope point.
+    pub point: OperatingPoint,
+    /// The sweep of the shaft at that point (its measurement points are the
+    /// circuit's there: a load case may have cut some off).
+    pub sweep: SweepResult,
+    /// The circuit's resonances there in Hz (response to the shaft's
+    /// pumps).
+    pub resonances_hz: Vec<f64>,
+}
+
+/// The assessment of an envelope.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Assessment {
+    /// The swept shaft's name.
+    pub shaft: String,
+    /// The speed range in rev/s.
+    pub speed_range_rev_s: (f64, f64),
+    /// The envelope points, in order.
+    pub points: Vec<OperatingPoint>,
+    /// The measurement points (of the circuit as written).
+    pub taps: Vec<String>,
+    /// Per measurement point, the worst overall rms over the envelope
+    /// (`None` when no ripple reaches it).
+    pub worst: Vec<Option<WorstPoint>>,
+    /// One verdict per limit.
+    pub verdicts: Vec<Verdict>,
+    /// Every finding, highest level first.
+    pub findings: Vec<Finding>,
+    /// Warnings, each with the envelope points where it holds.
+    pub warnings: Vec<EnvelopeWarning>,
+    /// The sweeps behind it, per envelope point (for tables and plots).
+    #[serde(skip)]
+    pub sweeps: Vec<PointSweep>,
+}
+
+impl Assessment {
+    /// Whether every limit is met.
+    pub fn passed(&self) -> bool {
+        self.verdicts.iter().all(|v| v.pass)
+    }
+
+    /// The first `top` findings that lie at most `floor_db` below their
+    /// measurement point's overall worst level.
+    pub fn ranked(&self, top: usize, floor_db: f64) -> Vec<&Finding> {
+        self.findings
+            .iter()
+            .filter(|f| f.below_overall_db <= floor_db)
+            .take(top)
+            .collect()
+    }
+}
+
+/// Why an assessment failed.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum AssessError {
+    /// No speed range is known.
+    #[error("no speed range: give the envelope a `speed` range, or the pump a `speed_range`")]
+    NoSpeedRange,
+    /// The settings are not usable.
+    #[error("{0}")]
+    Settings(String),
+    /// A circuit does not form a network at a point.
+    #[error("at envelope point `{point}`: {source}")]
+    Network {
+        /// The point's label.
+        point: String,
+        /// The failure.
+        #[source]
+        source: NetworkError,
+    },
+    /// A sweep failed at a point.
+    #[error("at envelope point `{point}`")]
+    Sweep {
+        /// The point's label.
+        point: String,
+        /// The failure.
+        #[source]
+        source: SweepError,
+    },
+}
+
+/// The shaft called `name` (a shaft, or a pump on it), or the first pump's.
+pub fn pick_shaft(circuit: &Circuit, name: Option<&str>) -> Option<Shaft> {
+    let all = shafts(&circuit.pumps);
+    match name {
+        None => all.into_iter().next(),
+        Some(n) => {
+            let pump = circuit.pumps.iter().position(|p| p.name == n);
+            all.into_iter()
+                .find(|s| s.name == n || pump.is_some_and(|i| s.pumps.contains(&i)))
+        }
+    }
+}
+
+/// Assesses the circuits of an envelope's points (each resolved at its
+/// point, in the envelope's order) over a speed range of one shaft, against
+/// `limits`. `speed_range` overrides the shaft's own range. `progress` is
+/// called with the number of points done.
+///
+/// # Errors
+/// [`AssessError`] when no speed range is known, the settings are unusable,
+/// or a point's circuit cannot be compiled or swept (an undamped resonance).
+///
+/// # Panics
+/// If `points` is empty or the circuits have no pumps.
+pub fn assess(
+    points: &[(OperatingPoint, Circuit)],
+    shaft: Option<&str>,
+    speed_range: Option<(f64, f64)>,
+    limits: &[TapLimits],
+    settings: &AssessSettings,
+    progress: &mut dyn FnMut(usize),
+) -> Result<Assessment, AssessError> {
+    let first = &points[0].1;
+    let base_shaft = pick_shaft(first, shaft).ok_or_else(|| {
+        AssessError::Settings(format!(
+            "no shaft or pump is called `{}`",
+            shaft.unwrap_or("")
+        ))
+    })?;
+    let (lo, hi) = speed_range
+        .or_else(|| base_shaft.speed_range_rev_s(&first.pumps))
+        .ok_or(AssessError::NoSpeedRange)?;
+    if settings.speed_points < 3 || !(lo > 0.0 && hi > lo) {
+        return Err(AssessError::Settings(
+            "the speed grid needs at least three speeds over a range from a lower to a higher speed"
+                .into(),
+        ));
+    }
+    let n = settings.speed_points;
+    let speeds: Vec<f64> = (0..n)
+        .map(|i| lo + (hi - lo) * i as f64 / (n - 1) as f64)
+        .collect();
+    let taps: Vec<String> = super::ripple::report_points(first)
+        .into_iter()
+        .map(|t| t.name)
+        .collect();
+
+    let mut sweeps = Vec::with_capacity(points.len());
+    let mut warnings: Vec<EnvelopeWarning> = Vec::new();
+    // Per limit: the worst (point index, WorstSpeed, order index) so far.
+    type WorstSoFar = Option<(usize, WorstSpeed, Option<usize>)>;
+    let mut limit_worst: Vec<Vec<WorstSoFar>> =
+        limits.iter().map(|t| vec![None; t.limits.len()]).collect();
+    for (pi, (point, circuit)) in points.iter().enumerate() {
+        let label = point.label();
+        let shaft = pick_shaft(circuit, shaft).unwrap_or_else(|| base_shaft.clone());
+        let plan = Plan::compile(circuit).map_err(|source| AssessError::Network {
+            point: label.clone(),
+            source,
+        })?;
+        let at_point = |source| AssessError::Sweep {
+            point: label.clone(),
+            source,
+        };
+        let swept = sweep(
+            &plan,
+            &shaft,
+            &SweepSettings {
+                speeds_rev_s: speeds.clone(),
+                harmonics: circuit.harmonics,
+                min_rise_db: settings.min_rise_db,
+            },
+            &mut |_| {},
+        )
+        .map_err(at_point)?;
+        let top_order = swept.orders.last().copied().unwrap_or(1);
+        let band = (
+            0.5 * shaft.fundamental_hz(lo),
+            1.1 * f64::from(top_order) * shaft.fundamental_hz(hi),
+        );
+        let resonances_hz: Vec<f64> =
+            shaft_resonances(&plan, &shaft, band.0, band.1, settings.min_rise_db)
+                .map(|r| r.into_iter().map(|r| r.freq_hz).collect())
+                .unwrap_or_default();
+        for w in crate::diagnostics::circuit_warnings(circuit, band.1)
+            .into_iter()
+            .chain(swept.warnings.iter().cloned())
+        {
+            add_warning(&mut warnings, w.to_string(), &label);
+        }
+        for (li, tap_limits) in limits.iter().enumerate() {
+            let Some(tp) = swept.points.iter().position(|p| *p == tap_limits.tap) else {
+                continue; // cut off at this point: no ripple
+            };
+            for (ki, limit) in tap_limits.limits.iter().enumerate() {
+                let candidates: Vec<(WorstSpeed, Option<usize>)> = match limit.kind {
+                    LimitKind::Rms => vec![(swept.worst(tp).clone(), None)],
+                    LimitKind::PeakToPeak => vec![(
+                        worst_at_point(&plan, &shaft, &swept, tp, Measure::PeakToPeak)
+                            .map_err(at_point)?,
+                        None,
+                    )],
+                    LimitKind::Harmonic => (0..swept.orders.len())
+                        .map(|o| {
+                            worst_at_point(&plan, &shaft, &swept, tp, Measure::Order(o))
+                                .map(|w| (w, Some(o)))
+                        })
+                        .collect::<Result<_, _>>()
+                        .map_err(at_point)?,
+                };
+                for (w, o) in candidates {
+                    let slot = &mut limit_worst[li][ki];
+                    if slot
+                        .as_ref()
+                        .is_none_or(|(_, b, _)| w.value_pa > b.value_pa)
+                    {
+                        *slot = Some((pi, w, o));
+                    }
+                }
+            }
+        }
+        sweeps.push(PointSweep {
+            point: point.clone(),
+            sweep: swept,
+            resonances_hz,
+        });
+        progress(pi + 1);
+    }
+
+    let worst_point = |pi: usize, w: &WorstSpeed, order_i: Option<usize>| {
+        let s = &sweeps[pi].sweep;
+        let oi = order_i.unwrap_or_else(|| w.dominant_order());
+        let order = s.orders.get(oi).copied().unwrap_or(1);
+        WorstPoint {
+            point: sweeps[pi].point.clone(),
+            speed_rev_s: w.speed_rev_s,
+            order,
+            frequency_hz: f64::from(order) * s.shaft.fundamental_hz(w.speed_rev_s),
+            value_pa: w.value_pa,
+        }
+    };
+    let worst: Vec<Option<WorstPoint>> = taps
+        .iter()
+        .map(|tap| {
+            sweeps
+                .iter()
+                .enumerate()
+                .filter_map(|(pi, ps)| {
+                    let tp = ps.sweep.points.iter().position(|p| p == tap)?;
+                    Some((pi, ps.sweep.worst(tp)))
+                })
+                .max_by(|a, b| a.1.value_pa.total_cmp(&b.1.value_pa))
+                .filter(|(_, w)| w.value_pa > 0.0)
+                .map(|(pi, w)| worst_point(pi, w, None))
+        })
+        .collect();
+    let verdicts = limits
+        .iter()
+        .zip(&limit_worst)
+        .flat_map(|(tl, slots)| {
+            tl.limits.iter().zip(slots).map(|(limit, slot)| {
+                let worst = slot
+                    .as_ref()
+                    .filter(|(_, w, _)| w.value_pa > 0.0)
+                    .map(|(pi, w, o)| worst_point(*pi, w, *o));
+                let value = worst.as_ref().map_or(0.0, |w| w.value_pa);
+                Verdict {
+                    tap: tl.tap.clone(),
+                    limit: limit.clone(),
+                    margin_db: (value > 0.0).then(|| 20.0 * (limit.value_pa / value).log10()),
+                    margin_pa: limit.value_pa - value,
+                    pass: value <= limit.value_pa,
+                    worst,
+                }
+            })
+        })
+        .collect::<Vec<_>>();
+    let findings = findings(&sweeps, &taps, &worst);
+    Ok(Assessment {
+        shaft: base_shaft.name.clone(),
+        speed_range_rev_s: (lo, hi),
+        points: points.iter().map(|(p, _)| p.clone()).collect(),
+        taps,
+        worst,
+        verdicts,
+        findings,
+        warnings,
+        sweeps,
+    })
+}
+
+/// Adds warning `text` at the point `label` to `warnings`: to the warning
+/// that differs from it only in its numbers, if there is one.
+pub fn add_warning(warnings: &mut Vec<EnvelopeWarning>, text: String, label: &str) {
+    let key = without_numbers(&text);
+    match warnings
+        .iter_mut()
+        .find(|x| without_numbers(&x.text) == key)
+    {
+        Some(x) if !x.points.iter().any(|p| p == label) => x.points.push(label.to_string()),
+        Some(_) => {}
+        None => warnings.push(EnvelopeWarning {
+            text,
+            points: vec![label.to_string()],
+        }),
+    }
+}
+
+/// A text with every digit replaced, to compare warnings whose numbers
+/// differ.
+fn without_numbers(text: &str) -> String {
+    text.chars()
+        .map(|c| if c.is_ascii_digit() { '#' } else { c })
+        .collect()
+}
+
+fn level_db(rms_pa: f64) -> f64 {
+    20.0 * rms_pa.log10()
+}
+
+/// Every finding, highest level first (see the module documentation). One
+/// event is one finding: the strongest crossing of a resonance is that
+/// resonance's finding, and a resonance that sets a measurement point's
+/// worst speed is told in that worst point's finding.
+fn findings(sweeps: &[PointSweep], taps: &[String], worst: &[Option<WorstPoint>]) -> Vec<Finding> {
+    let overall = |tap: &str| {
+        taps.iter()
+            .position(|t| t == tap)
+            .and_then(|i| worst[i].as_ref())
+            .map_or(f64::NEG_INFINITY, |w| level_db(w.value_pa))
+    };
+    let mut out = Vec::new();
+    for ps in sweeps {
+        let s = &ps.sweep;
+        let finding = |kind, tap: &str, speed: f64, order: u32, freq: f64, rms: f64| Finding {
+            kind,
+            tap: tap.to_string(),
+            point: ps.point.clone(),
+            speed_rev_s: speed,
+            order,
+            frequency_hz: freq,
+            rms_pa: rms,
+            level_db: level_db(rms),
+            below_overall_db: overall(tap) - level_db(rms),
+            rise_db: None,
+            resonance_hz: None,
+        };
+        let resonance_of = |f_hz: f64| {
+            ps.resonances_hz
+                .iter()
+                .copied()
+                .find(|&fr| (f_hz - fr).abs() <= SAME_RESONANCE * fr)
+        };
+        // crossings, each tagged with its resonance; the strongest crossing
+        // of each resonance becomes that resonance's finding
+        let mut crossings: Vec<Finding> = s
+            .crossings
+            .iter()
+            .filter(|c| c.amplitude_pa > 0.0)
+            .map(|c| Finding {
+                rise_db: Some(c.rise_db),
+                resonance_hz: resonance_of(c.freq_hz),
+                ..finding(
+                    FindingKind::Crossing,
+                    &s.points[c.point],
+                    c.speed_rev_s,
+                    c.order,
+                    c.freq_hz,
+                    c.amplitude_pa / std::f64::consts::SQRT_2,
+                )
+            })
+            .collect();
+        for &fr in &ps.resonances_hz {
+            let strongest = crossings
+                .iter()
+                .enumerate()
+                .filter(|(_, c)| c.kind == FindingKind::Crossing && c.resonance_hz == Some(fr))
+                .max_by(|a, b| a.1.rms_pa.total_cmp(&b.1.rms_pa))
+                .map(|(i, _)| i);
+            if let Some(i) = strongest {
+                crossings[i].kind = FindingKind::Resonance;
+            }
+        }
+        for (tp, tap) in s.points.iter().enumerate() {
+            let w = s.worst(tp);
+            if w.value_pa <= 0.0 {
+                continue;
+            }
+            let order = s.orders.get(w.dominant_order()).copied().unwrap_or(1);
+            let freq = f64::from(order) * s.shaft.fundamental_hz(w.speed_rev_s);
+            let mut f = finding(
+                FindingKind::WorstPoint,
+                tap,
+                w.speed_rev_s,
+                order,
+                freq,
+                w.value_pa,
+            );
+            // the crossing it sits on (a crossing of the same harmonic at
+            // this point peaking within 1 % of its speed): told here, not
+            // twice; a resonance's own finding moves to its next crossing
+            if let Some(i) = crossings.iter().position(|c| {
+                c.tap == *tap
+                    && c.order == order
+                    && (c.speed_rev_s - w.speed_rev_s).abs() <= 0.01 * w.speed_rev_s
+            }) {
+                let c = crossings.remove(i);
+                f.resonance_hz = c.resonance_hz;
+                f.rise_db = c.rise_db;
+            }
+            out.push(f);
+        }
+        out.extend(crossings);
+    }
+    out.sort_by(|a, b| b.level_db.total_cmp(&a.level_db));
+    out
+}

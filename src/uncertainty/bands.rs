@@ -1,0 +1,304 @@
+//! Uncertainty bands of the analyses: the outputs of `solve`, `response`
+//! and `sweep` computed for every draw of the uncertain inputs.
+//!
+//! [`propagate`] evaluates any list of output quantities by Monte Carlo
+//! (with the first-order bands and JCGM 101 §8's agreement check alongside,
+//! which cost 2n + 1 more evaluations) or by the first-order method alone.
+//! The output lists of the three analyses are built by [`ripple_outputs`],
+//! [`response_outputs`] and [`sweep_outputs`]; each analysis's layout of
+//! them is documented where it is read back (the renderers).
+
+use super::linear::{self, LinearBand};
+use super::monte_carlo::{self, Band, LimitError, draw_rng};
+use super::{InputSummary, Inputs};
+use crate::Circuit;
+use crate::analysis::response::{
+    FrequencyResponse, PeakSettings, find_resonances, frequency_response,
+};
+use crate::analysis::ripple::shaft_ripple;
+use crate::analysis::sweep::{SweepSettings, sweep};
+use crate::envelope::OperatingPoint;
+use crate::io::{CircuitTemplate, InputError};
+use crate::network::Plan;
+use crate::source::{Shaft, shafts};
+use serde::Serialize;
+
+/// How bands are computed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Method {
+    /// Monte Carlo (JCGM 101), with the first-order bands beside it.
+    MonteCarlo,
+    /// The first-order bands only (JCGM 100).
+    Linear,
+}
+
+/// What bands to compute.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct BandRequest {
+    /// The method.
+    pub method: Method,
+    /// The Monte Carlo settings (its coverage is also the linearised
+    /// bands').
+    pub monte_carlo: monte_carlo::Options,
+}
+
+/// The bands of one output quantity.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct OutputBand {
+    /// Its value with every input nominal.
+    pub nominal: f64,
+    /// The Monte Carlo band.
+    pub monte_carlo: Option<Band>,
+    /// The first-order band.
+    pub linear: Option<LinearBand>,
+    /// Whether the first-order interval agrees with the Monte Carlo one
+    /// (JCGM 101 §8), when both are computed.
+    pub linear_agrees: Option<bool>,
+}
+
+impl OutputBand {
+    /// The band shown: the Monte Carlo interval, else the first-order one.
+    pub fn interval(&self) -> Option<(f64, f64)> {
+        match (&self.monte_carlo, &self.linear) {
+            (Some(b), _) if b.low.is_finite() && b.high.is_finite() => Some((b.low, b.high)),
+            (None, Some(l)) if l.low.is_finite() && l.high.is_finite() => Some((l.low, l.high)),
+            _ => None,
+        }
+    }
+}
+
+/// Bands of a list of outputs and how they were made.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Propagated {
+    /// The uncertain inputs.
+    pub inputs: Vec<InputSummary>,
+    /// The method.
+    pub method: Method,
+    /// Coverage probability of the intervals.
+    pub coverage: f64,
+    /// Seed of the draws.
+    pub seed: u64,
+    /// Monte Carlo draws made (0 for the first-order method).
+    pub draws: usize,
+    /// Whether the adaptive procedure found every band stable (`None`:
+    /// first-order, or a fixed number of draws).
+    pub stable: Option<bool>,
+    /// One per output.
+    pub outputs: Vec<OutputBand>,
+    /// Outputs whose first-order band is good (nonlinearity index ≤ 0.1).
+    pub linear_good: usize,
+}
+
+/// Why bands could not be computed.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum BandError {
+    /// The circuit has nothing uncertain.
+    #[error(
+        "no value of the circuit has a tolerance and no pump source file states uncertainties: write e.g. `bulk_modulus: 1.55 GPa ± 5 %` (README, \"Tolerances and uncertainty bands\")"
+    )]
+    NothingUncertain,
+    /// A drawn circuit is not valid, or an input file cannot be read.
+    #[error(transparent)]
+    Input(#[from] InputError),
+    /// The outputs do not fit in memory.
+    #[error(transparent)]
+    Limit(#[from] LimitError),
+    /// An analysis failed for drawn values.
+    #[error("{0}")]
+    Analysis(String),
+}
+
+/// An analysis's outputs for one circuit.
+pub type Evaluate<'a> = dyn Fn(Circuit) -> Result<Vec<f64>, String> + Sync + 'a;
+
+/// Bands of `evaluate`'s outputs over the uncertain inputs of the circuit
+/// at `point`; `prepare` applies what the command changes in every circuit
+/// (a speed, a harmonic count). `progress(done, planned)` counts draws.
+///
+/// # Errors
+/// [`BandError`].
+pub fn propagate(
+    template: &CircuitTemplate,
+    point: &OperatingPoint,
+    prepare: &(dyn Fn(&mut Circuit) + Sync),
+    evaluate: &Evaluate<'_>,
+    request: &BandRequest,
+    progress: &mut dyn FnMut(usize, usize),
+) -> Result<Propagated, BandError> {
+    let inputs = Inputs::of(template)?;
+    if inputs.is_empty() {
+        return Err(BandError::NothingUncertain);
+    }
+    let nominal_values = inputs.nominal();
+    let run = |values: &[f64], why: &str| -> Result<Vec<f64>, BandError> {
+        let mut c = inputs.circuit(template, point, values, why)?;
+        prepare(&mut c);
+        evaluate(c).map_err(|e| BandError::Analysis(format!("{e} ({why})")))
+    };
+    let f0 = run(&nominal_values, "the nominal values")?;
+    // first order: each input at ±u
+    let mut plus = Vec::with_capacity(inputs.inputs.len());
+    let mut minus = Vec::with_capacity(inputs.inputs.len());
+    for (i, input) in inputs.inputs.iter().enumerate() {
+        let u = input.standard_uncertainty();
+        for (sign, out) in [(1.0, &mut plus), (-1.0, &mut minus)] {
+            let mut v = nominal_values.clone();
+            v[i] += sign * u;
+            let why = format!(
+                "`{}` at its value {} u",
+                input.name,
+                if sign > 0.0 { "+" } else { "−" }
+            );
+            out.push(run(&v, &why)?);
+        }
+    }
+    let coverage = request.monte_carlo.coverage;
+    let lin = linear::bands(&f0, &plus, &minus, coverage);
+    let (mc, draws, stable) = match request.method {
+        Method::Linear => (None, 0, None),
+        Method::MonteCarlo => {
+            let seed = request.monte_carlo.seed;
+            let eval = |i: usize| -> Result<Vec<f64>, BandError> {
+                let mut rng = draw_rng(seed, i);
+                let values = inputs.draw(&mut rng);
+                run(
+                    &values,
+                    &format!("Monte Carlo draw {} of seed {seed}", i + 1),
+                )
+            };
+            let bands = monte_carlo::propagate(
+                &f0,
+                &eval,
+                &request.monte_carlo,
+                BandError::Limit,
+                progress,
+            )?;
+            (Some(bands.bands), bands.draws, bands.stable)
+        }
+    };
+    let digits = request.monte_carlo.digits;
+    let outputs: Vec<OutputBand> = (0..f0.len())
+        .map(|o| {
+            let m = mc.as_ref().map(|b| b[o]);
+            OutputBand {
+                nominal: f0[o],
+                monte_carlo: m,
+                linear: Some(lin[o]),
+                linear_agrees: m.map(|m| linear::agrees_with_monte_carlo(&lin[o], &m, digits)),
+            }
+        })
+        .collect();
+    Ok(Propagated {
+        inputs: inputs.summary(),
+        method: request.method,
+        coverage,
+        seed: request.monte_carlo.seed,
+        draws,
+        stable,
+        linear_good: lin.iter().filter(|l| l.good).count(),
+        outputs,
+    })
+}
+
+/// The outputs of `solve`, per shaft (in `source::shafts` order), per
+/// measurement point, per order: the amplitude |P_k| (Pa); then per shaft
+/// and point the overall rms and the peak-to-peak (Pa).
+///
+/// # Errors
+/// A message when the network cannot be solved.
+pub fn ripple_outputs(circuit: Circuit) -> Result<Vec<f64>, String> {
+    let plan = Plan::compile(&circuit).map_err(|e| e.to_string())?;
+    let mut out = Vec::new();
+    let mut totals = Vec::new();
+    for s in shafts(&circuit.pumps) {
+        let r = shaft_ripple(&plan, &s, circuit.harmonics, s.speed_rev_s(&circuit.pumps))
+            .map_err(|e| e.to_string())?;
+        for tap in &r.taps {
+            out.extend(tap.harmonics.iter().map(|h| h.pressure.norm()));
+            totals.push(tap.rms_pa());
+            totals.push(tap.peak_to_peak_pa());
+        }
+    }
+    out.extend(totals);
+    Ok(out)
+}
+
+/// The outputs of `response` for pump `pump` on `freqs_hz`: |P/Qs| at every
+/// measurement point and frequency (point-major), then for each of the
+/// nominal resonances `nominal_hz` the frequency and level of the nearest
+/// resonance within a factor 1.5 (NaN when a draw has none there).
+///
+/// # Errors
+/// A message when the network cannot be solved.
+pub fn response_outputs(
+    circuit: Circuit,
+    pump: usize,
+    freqs_hz: &[f64],
+    nominal_hz: &[f64],
+) -> Result<Vec<f64>, String> {
+    let plan = Plan::compile(&circuit).map_err(|e| e.to_string())?;
+    let r: FrequencyResponse =
+        frequency_response(&plan, pump, freqs_hz, &mut |_| {}).map_err(|e| e.to_string())?;
+    let mut out: Vec<f64> = r
+        .points
+        .iter()
+        .flat_map(|p| p.values.iter().map(|v| v.norm()))
+        .collect();
+    if !nominal_hz.is_empty() {
+        let found =
+            find_resonances(&plan, pump, &r, PeakSettings::default()).map_err(|e| e.to_string())?;
+        for &f0 in nominal_hz {
+            let near = found
+                .iter()
+                .filter(|res| (res.freq_hz / f0).ln().abs() < 1.5f64.ln())
+                .min_by(|a, b| {
+                    (a.freq_hz / f0)
+                        .ln()
+                        .abs()
+                        .total_cmp(&(b.freq_hz / f0).ln().abs())
+                });
+            match near {
+                Some(res) => {
+                    out.push(res.freq_hz);
+                    out.push(if res.unbounded { f64::NAN } else { res.level });
+                }
+                None => out.extend([f64::NAN, f64::NAN]),
+            }
+        }
+    }
+    Ok(out)
+}
+
+/// The outputs of `sweep` of `shaft` over `speeds_rev_s`: the overall rms
+/// at every point and speed (point-major, Pa), then per point the true
+/// worst speed (rev/s) and the rms there (Pa).
+///
+/// # Errors
+/// A message when the network cannot be solved at a speed.
+pub fn sweep_outputs(
+    circuit: Circuit,
+    shaft: &Shaft,
+    speeds_rev_s: &[f64],
+    harmonics: u32,
+) -> Result<Vec<f64>, String> {
+    let plan = Plan::compile(&circuit).map_err(|e| e.to_string())?;
+    let settings = SweepSettings {
+        speeds_rev_s: speeds_rev_s.to_vec(),
+        harmonics,
+        min_rise_db: f64::INFINITY,
+    };
+    let r = sweep(&plan, shaft, &settings, &mut |_| {}).map_err(|e| e.to_string())?;
+    let np = r.points.len();
+    let mut out = Vec::with_capacity(np * (speeds_rev_s.len() + 2));
+    for pi in 0..np {
+        out.extend((0..speeds_rev_s.len()).map(|si| r.rms_pa(si, pi)));
+    }
+    for pi in 0..np {
+        let w = r.worst(pi);
+        out.push(w.speed_rev_s);
+        out.push(w.value_pa);
+    }
+    Ok(out)
+}

@@ -1,0 +1,173 @@
+//! Small statistics for the uncertainty analyses: the normal distribution
+//! and its quantiles, the χ² quantile, and quantiles of samples.
+
+/// erfc(x) = 1 − erf(x): a series of erf with positive terms below 0.75
+/// (Abramowitz & Stegun 7.1.6), the continued fraction of erfc above (A&S
+/// 7.1.14, evaluated by Lentz's method). Relative error below 1e-13.
+pub fn erfc(x: f64) -> f64 {
+    if x.is_nan() {
+        return f64::NAN;
+    }
+    if x < 0.0 {
+        return 2.0 - erfc(-x);
+    }
+    if x < 0.75 {
+        // erf x = 2/√π e^{−x²} Σ 2ⁿ x^{2n+1}/(1·3·…·(2n+1)): positive terms
+        let x2 = x * x;
+        let mut term = x;
+        let mut sum = x;
+        for n in 1..200 {
+            term *= 2.0 * x2 / (2 * n + 1) as f64;
+            sum += term;
+            if term < 1e-17 * sum {
+                break;
+            }
+        }
+        return 1.0 - 2.0 / std::f64::consts::PI.sqrt() * (-x2).exp() * sum;
+    }
+    if x > 27.3 {
+        return 0.0; // below the smallest double
+    }
+    // erfc x = e^{−x²}/√π · 1/(x + (1/2)/(x + 1/(x + (3/2)/(x + 2/(x + …)))))
+    let tiny = 1e-300;
+    let mut f = x;
+    let mut c = x;
+    let mut d = 0.0;
+    for n in 1..500 {
+        let a = n as f64 / 2.0;
+        d = x + a * d;
+        d = if d.abs() < tiny { tiny } else { d };
+        c = x + a / c;
+        c = if c.abs() < tiny { tiny } else { c };
+        d = 1.0 / d;
+        let delta = c * d;
+        f *= delta;
+        if (delta - 1.0).abs() < 1e-16 {
+            break;
+        }
+    }
+    (-x * x).exp() / (std::f64::consts::PI.sqrt() * f)
+}
+
+/// The standard normal distribution function Φ(x) = erfc(−x/√2)/2.
+pub fn normal_cdf(x: f64) -> f64 {
+    0.5 * erfc(-x / std::f64::consts::SQRT_2)
+}
+
+/// The standard normal quantile Φ⁻¹(p), 0 < p < 1, by Newton's method on
+/// the smaller tail Q(x) = 1 − Φ(|x|) from x = 0 (Q is convex and falling
+/// for x > 0, so the iterates rise monotonically to the root).
+///
+/// # Panics
+/// If p is not strictly between 0 and 1.
+pub fn normal_quantile(p: f64) -> f64 {
+    assert!(p > 0.0 && p < 1.0, "a probability strictly between 0 and 1");
+    // x ≥ 0 with Q(x) = erfc(x/√2)/2 = q, the smaller tail kept exact
+    let upper = |q: f64| -> f64 {
+        let mut x: f64 = 0.0;
+        for _ in 0..200 {
+            let density = (-0.5 * x * x).exp() / std::f64::consts::TAU.sqrt();
+            let step = (0.5 * erfc(x / std::f64::consts::SQRT_2) - q) / density;
+            x += step;
+            if step.abs() <= 1e-15 * x.abs().max(1.0) {
+                break;
+            }
+        }
+        x
+    };
+    if p < 0.5 { -upper(p) } else { upper(1.0 - p) }
+}
+
+/// The p-quantile of the χ² distribution with ν degrees of freedom by
+/// Wilson & Hilferty's (1931) cube-root normal approximation (within 2 %
+/// for ν ≥ 3; enough for a misfit flag).
+pub fn chi2_quantile(p: f64, nu: f64) -> f64 {
+    let z = normal_quantile(p);
+    let a = 2.0 / (9.0 * nu);
+    (nu * (1.0 - a + z * a.sqrt()).powi(3)).max(0.0)
+}
+
+/// The p-quantile of sorted samples by linear interpolation between order
+/// statistics (the rule of JCGM 101:2008 §7.7: the value at (M+1)·p,
+/// interpolated).
+///
+/// # Panics
+/// If `sorted` is empty.
+pub fn quantile_sorted(sorted: &[f64], p: f64) -> f64 {
+    assert!(!sorted.is_empty());
+    let m = sorted.len();
+    let pos = (m as f64 + 1.0) * p; // 1-based
+    if pos <= 1.0 {
+        return sorted[0];
+    }
+    if pos >= m as f64 {
+        return sorted[m - 1];
+    }
+    let i = pos.floor() as usize; // 1-based lower index
+    let frac = pos - i as f64;
+    sorted[i - 1] + frac * (sorted[i] - sorted[i - 1])
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // Values from scipy 1.17.1: scipy.special.erfc(x) and
+    // scipy.stats.norm.ppf(p) (tests/oracles/calibrate_refs.py).
+    #[test]
+    fn erfc_and_normal_quantiles_match_scipy() {
+        for (x, want) in [
+            (0.0, 1.0),
+            (0.5, 0.4795001221869535),
+            (1.5, 0.03389485352468927),
+            (1.99, 0.004888586800383002),
+            (2.0, 0.004677734981047266),
+            (3.5, 7.430983723414129e-07),
+            (6.0, 2.1519736712498913e-17),
+            (-1.0, 1.8427007929497148),
+        ] {
+            let got = erfc(x);
+            assert!(
+                (got - want).abs() <= 1e-13 * want,
+                "erfc({x}) = {got}, scipy {want}"
+            );
+        }
+        for (p, want) in [
+            (0.5, 0.0),
+            (0.95, 1.6448536269514722),
+            (0.975, 1.959963984540054),
+            (0.999, 3.090232306167813),
+            (0.05, -1.6448536269514729),
+            (1e-6, -4.753424308822899),
+        ] {
+            let got = normal_quantile(p);
+            assert!(
+                (got - want).abs() <= 1e-12,
+                "Φ⁻¹({p}) = {got}, scipy {want}"
+            );
+        }
+    }
+
+    // scipy.stats.chi2.ppf(0.999, nu): 16.266 (3), 45.315 (20), 149.449
+    // (100); the cube-root approximation is within 2 % there.
+    #[test]
+    fn chi2_quantiles_are_close_to_the_exact_ones() {
+        for (nu, want) in [
+            (3.0, 16.26623619623813),
+            (20.0, 45.31474661812586),
+            (100.0, 149.44925277903886),
+        ] {
+            let got = chi2_quantile(0.999, nu);
+            assert!((got / want - 1.0).abs() < 0.02, "ν = {nu}: {got} vs {want}");
+        }
+    }
+
+    #[test]
+    fn sample_quantiles_interpolate_order_statistics() {
+        let s: Vec<f64> = (1..=9).map(f64::from).collect();
+        assert_eq!(quantile_sorted(&s, 0.5), 5.0);
+        assert_eq!(quantile_sorted(&s, 0.25), 2.5);
+        assert_eq!(quantile_sorted(&s, 0.01), 1.0);
+        assert_eq!(quantile_sorted(&s, 0.99), 9.0);
+    }
+}
