@@ -179,7 +179,8 @@ fn solve_conductances(
         sparse::solve_static(&symbolic, &vals, &mut rhs, None);
     } else {
         let mut lu = PivotedLu::default();
-        if !(lu.factor(&symbolic, &assembled) > 0.0) {
+        let pivot_ratio = lu.factor(&symbolic, &assembled);
+        if pivot_ratio.is_nan() || pivot_ratio <= 0.0 {
             return None;
         }
         lu.solve(&mut rhs);
