@@ -1093,45 +1093,50 @@ impl TuneProblem<'_> {
             .map_err(TuneError::Baseline)?;
         let dims = self.bounds.len();
         let context = self.rule_context();
-        let mut count = 0usize;
-        let mut last_error = String::new();
-        let mut designs: Vec<Design> = Vec::new();
-        let mut costs: Vec<f64> = Vec::new();
-        let mut stage = "global";
-        let mut cost = |u: &[f64], stage: &'static str| -> f64 {
-            count += 1;
-            progress(count);
+        // One design scored, with nothing shared changed: the global stage
+        // runs it in parallel, the local stage one at a time.
+        let design_at = |u: &[f64], stage: &'static str| -> (Design, f64, Option<String>) {
             let values = self.values_at(u);
             let keeps_rules = self
                 .element_with(&values)
                 .map(|k| rules.check(&k, &context).iter().all(|c| c.pass))
                 .unwrap_or(true);
-            let scored = if rules.hard && !keeps_rules {
-                last_error = "every design tried breaks a practical rule".into();
-                None
+            let (scored, error) = if rules.hard && !keeps_rules {
+                (
+                    None,
+                    Some("every design tried breaks a practical rule".to_string()),
+                )
             } else {
                 match score(&values) {
-                    Ok(s) => Some(s),
-                    Err(e) => {
-                        last_error = e;
-                        None
-                    }
+                    Ok(s) => (Some(s), None),
+                    Err(e) => (None, Some(e)),
                 }
             };
             let cost = scored.as_ref().map_or(f64::INFINITY, |s| s.cost);
-            designs.push(Design {
+            let design = Design {
                 values,
                 objective_pa: scored.as_ref().and_then(|s| s.objective_pa),
                 size: scored.as_ref().and_then(|s| s.size),
                 margin_db: scored.as_ref().and_then(|s| s.margin_db),
                 keeps_rules,
                 stage,
-            });
+            };
+            (design, cost, error)
+        };
+        let mut last_error = String::new();
+        let mut designs: Vec<Design> = Vec::new();
+        let mut costs: Vec<f64> = Vec::new();
+        let mut record = |(design, cost, error): (Design, f64, Option<String>)| -> f64 {
+            if let Some(e) = error {
+                last_error = e;
+            }
+            designs.push(design);
             costs.push(cost);
             cost
         };
 
-        // Global stage.
+        // Global stage: every candidate compiled and solved on its own, in
+        // parallel, collected in order.
         let samples: Vec<Vec<f64>> = if dims == 1 {
             let n = settings.global_points.max(3);
             (0..n).map(|i| vec![i as f64 / (n - 1) as f64]).collect()
@@ -1140,8 +1145,22 @@ impl TuneProblem<'_> {
                 .map(|i| halton(i, dims))
                 .collect()
         };
-        let values: Vec<f64> = samples.iter().map(|u| cost(u, stage)).collect();
-        stage = "local";
+        let evaluated = crate::parallel::ordered_map(
+            &samples,
+            true,
+            || (),
+            |_, u| Ok::<_, std::convert::Infallible>(design_at(u, "global")),
+            progress,
+        )
+        .unwrap_or_else(|never| match never {});
+        let mut count = samples.len();
+        let values: Vec<f64> = evaluated.into_iter().map(&mut record).collect();
+        let stage = "local";
+        let mut cost = |u: &[f64], stage: &'static str| -> f64 {
+            count += 1;
+            progress(count);
+            record(design_at(u, stage))
+        };
 
         // Starts for the local stage.
         let mut order: Vec<usize> = (0..samples.len())

@@ -34,6 +34,10 @@ use std::process::ExitCode;
 struct Cli {
     #[command(subcommand)]
     command: Command,
+    /// Worker threads for the frequency, speed and design loops (default:
+    /// all cores, or RAYON_NUM_THREADS); results are the same for any number
+    #[arg(long, global = true, value_name = "N", value_parser = clap::value_parser!(u16).range(1..=1024))]
+    threads: Option<u16>,
 }
 
 #[derive(Debug, Subcommand)]
@@ -94,6 +98,13 @@ pub fn main() -> ExitCode {
             };
         }
     };
+    if let Some(n) = cli.threads {
+        // The first and only pool of the process; if a pool exists already
+        // (it cannot here), its size stands.
+        let _ = rayon::ThreadPoolBuilder::new()
+            .num_threads(usize::from(n))
+            .build_global();
+    }
     common::remove_outputs_on_signal();
     let result = match cli.command {
         Command::Solve(args) => solve::run(args),

@@ -28,12 +28,13 @@ use crate::hose::{
     HoseConstruction, MAX_RETARDATION_TERMS, RetardationTerm, TYPICAL_REFERENCE_FREQUENCY_HZ,
     ViscoelasticWall,
 };
+use crate::limits;
 use crate::line::{Line, LineModel, LineProperties, MeanFlow};
 use crate::oil::{self, Grade, OilData, Walther};
 use crate::source::{FlowHarmonic, FlowRipple, KinematicRipple, Pump};
 use pumps::{RawGear, RawPiston, RawSourceImpedance};
 use serde::Deserialize;
-use std::collections::HashSet;
+use std::collections::{HashMap, HashSet};
 use std::path::Path;
 
 /// Default number of harmonics solved and reported.
@@ -613,29 +614,55 @@ impl Checker<'_> {
         // Valve blocks become their galleries and cavities; `element_paths` locates
         // each element in the file.
         let mean_pressure = raw.fluid.pressure.map(|p| p.si);
+        // A count over a limit of `limits`, located at the first item beyond it.
+        let over = |path: &KeyPath, count: String, max: usize, what: &str| {
+            self.err(
+                path,
+                format!(
+                    "{count}; ripline accepts at most {max} {what} (README, Limits and safeguards)"
+                ),
+            )
+        };
+        if raw.elements.len() > limits::MAX_ELEMENTS {
+            return Err(over(
+                &root.key("elements").index(limits::MAX_ELEMENTS),
+                format!("the circuit has {} elements", raw.elements.len()),
+                limits::MAX_ELEMENTS,
+                "elements",
+            ));
+        }
         let (raws, element_paths) = self.expand_valve_blocks(&root, &raw.elements)?;
+        if raws.len() > limits::MAX_ELEMENTS {
+            return Err(over(
+                &element_paths[limits::MAX_ELEMENTS],
+                format!(
+                    "the circuit has {} elements once its valve blocks are expanded into their parts",
+                    raws.len()
+                ),
+                limits::MAX_ELEMENTS,
+                "elements",
+            ));
+        }
 
         // Nodes, in order of first mention by an element.
         let mut nodes: Vec<Node> = Vec::new();
+        let mut node_ids: HashMap<String, usize> = HashMap::new();
         let mut node_id = |name: &str| -> usize {
-            match nodes.iter().position(|n| n.name == name) {
-                Some(i) => i,
-                None => {
-                    nodes.push(Node {
-                        name: name.to_string(),
-                    });
-                    nodes.len() - 1
-                }
-            }
+            *node_ids.entry(name.to_string()).or_insert_with(|| {
+                nodes.push(Node {
+                    name: name.to_string(),
+                });
+                nodes.len() - 1
+            })
         };
 
-        let mut names = HashSet::new();
+        let mut names: HashMap<&str, usize> = HashMap::with_capacity(raws.len());
         let mut connections = Vec::with_capacity(raws.len());
-        for (e, path) in raws.iter().zip(&element_paths) {
+        for (i, (e, path)) in raws.iter().zip(&element_paths).enumerate() {
             if e.name.trim().is_empty() {
                 return Err(self.err(&path.key("name"), "an element name must not be empty"));
             }
-            if !names.insert(e.name.as_str()) {
+            if names.insert(e.name.as_str(), i).is_some() {
                 return Err(self.err(
                     &path.key("name"),
                     format!("duplicate element name `{}`: names must be unique", e.name),
@@ -671,7 +698,19 @@ impl Checker<'_> {
                 let at = self.node_name(path, "at", e.at.as_deref(), e.kind)?;
                 Connection::Shunt { at: node_id(at) }
             };
+            let newest = match connection {
+                Connection::Series { a, b } => a.max(b),
+                Connection::Shunt { at } => at,
+            };
             connections.push(connection);
+            if newest >= limits::MAX_NODES {
+                return Err(over(
+                    path,
+                    format!("with this element the circuit has {} nodes", newest + 1),
+                    limits::MAX_NODES,
+                    "nodes",
+                ));
+            }
         }
 
         // Element models; anechoic ends match a tube, so they are built last.
@@ -745,9 +784,25 @@ impl Checker<'_> {
                 RawKind::AnechoicEnd => None,
             });
         }
+        // the tubes and hoses at each node, for the anechoic ends
+        let mut lines_at: HashMap<&str, Vec<usize>> = HashMap::new();
+        if kinds.iter().any(Option::is_none) {
+            for (i, r) in raws.iter().enumerate() {
+                if matches!(r.kind, RawKind::Tube | RawKind::Hose) {
+                    for end in [&r.from, &r.to].into_iter().flatten() {
+                        lines_at.entry(end.as_str()).or_default().push(i);
+                    }
+                }
+            }
+        }
         for i in 0..raws.len() {
             if kinds[i].is_none() {
-                let line = self.anechoic_line(&element_paths[i], &raws[i], &raws, &kinds)?;
+                let line = self.anechoic_line(
+                    &element_paths[i],
+                    &raws[i],
+                    (&raws, &kinds),
+                    (&names, &lines_at),
+                )?;
                 kinds[i] = Some(ElementKind::Anechoic(Anechoic { line }));
             }
         }
@@ -795,8 +850,16 @@ impl Checker<'_> {
                 ));
             }
         };
+        if let Some((path, _)) = raw_pumps.get(limits::MAX_PUMPS) {
+            return Err(over(
+                path,
+                format!("the circuit has {} pumps", raw_pumps.len()),
+                limits::MAX_PUMPS,
+                "pumps (and so shafts)",
+            ));
+        }
         for (i, (path, raw_pump)) in raw_pumps.iter().enumerate() {
-            let mut pump = self.pump(path, raw_pump, &circuit)?;
+            let mut pump = self.pump(path, raw_pump, &circuit, &node_ids)?;
             if raw.pumps.is_some() && raw_pump.name.is_none() {
                 pump.name = format!("pump {}", i + 1);
             }
@@ -804,6 +867,14 @@ impl Checker<'_> {
         }
         let paths: Vec<KeyPath> = raw_pumps.into_iter().map(|(p, _)| p).collect();
         self.check_pumps(&paths, &circuit.pumps)?;
+        if raw.taps.len() > limits::MAX_TAPS {
+            return Err(over(
+                &root.key("taps").index(limits::MAX_TAPS),
+                format!("the circuit has {} taps", raw.taps.len()),
+                limits::MAX_TAPS,
+                "taps",
+            ));
+        }
         let mut tap_names = HashSet::new();
         for (i, t) in raw.taps.iter().enumerate() {
             let path = root.key("taps").index(i);
@@ -813,7 +884,7 @@ impl Checker<'_> {
                     format!("duplicate tap name `{}`: names must be unique", t.name),
                 ));
             }
-            let tap = self.tap(&path, t, &circuit)?;
+            let tap = self.tap(&path, t, &circuit, (&node_ids, &names))?;
             circuit.taps.push(tap);
         }
         crate::meanflow::resolve_line_mean_flows(&mut circuit);
@@ -1436,26 +1507,22 @@ impl Checker<'_> {
         &self,
         path: &KeyPath,
         e: &RawElement,
-        raws: &[RawElement],
-        kinds: &[Option<ElementKind>],
+        (raws, kinds): (&[RawElement], &[Option<ElementKind>]),
+        (names, lines_at): (&HashMap<&str, usize>, &HashMap<&str, Vec<usize>>),
     ) -> Res<LineProperties> {
         let candidates: Vec<usize> = match &e.line {
             Some(name) => {
-                let i = raws.iter().position(|r| &r.name == name).ok_or_else(|| {
+                let i = *names.get(name.as_str()).ok_or_else(|| {
                     self.err(&path.key("line"), format!("no element is called `{name}`"))
                 })?;
                 vec![i]
             }
-            None => raws
-                .iter()
-                .enumerate()
-                .filter(|(_, r)| {
-                    matches!(r.kind, RawKind::Tube | RawKind::Hose)
-                        && (r.from.as_deref() == e.at.as_deref()
-                            || r.to.as_deref() == e.at.as_deref())
-                })
-                .map(|(i, _)| i)
-                .collect(),
+            None => {
+                e.at.as_deref()
+                    .and_then(|at| lines_at.get(at))
+                    .cloned()
+                    .unwrap_or_default()
+            }
         };
         match candidates.as_slice() {
             [i] => match kinds[*i].as_ref().and_then(|k| k.line()) {
@@ -1483,12 +1550,34 @@ impl Checker<'_> {
         connections: &[Connection],
         nodes: &[Node],
     ) -> Res<()> {
+        // one pass over the elements: what sits at each node, which nodes a
+        // two-port reaches
+        let mut reached = vec![false; nodes.len()];
+        let mut first_shunt: Vec<Option<usize>> = vec![None; nodes.len()];
+        let mut tank: Vec<Option<usize>> = vec![None; nodes.len()];
+        let mut closed: Vec<Option<usize>> = vec![None; nodes.len()];
+        for (i, c) in connections.iter().enumerate() {
+            match *c {
+                Connection::Series { a, b } => {
+                    reached[a] = true;
+                    reached[b] = true;
+                }
+                Connection::Shunt { at } => {
+                    first_shunt[at].get_or_insert(i);
+                    match raws[i].kind {
+                        RawKind::Tank => {
+                            tank[at].get_or_insert(i);
+                        }
+                        RawKind::ClosedEnd => {
+                            closed[at].get_or_insert(i);
+                        }
+                        _ => {}
+                    }
+                }
+            }
+        }
         for (id, node) in nodes.iter().enumerate() {
-            let at_node: Vec<usize> = (0..raws.len())
-                .filter(|&i| connections[i] == Connection::Shunt { at: id })
-                .collect();
-            let has = |k: RawKind| at_node.iter().find(|&&i| raws[i].kind == k).copied();
-            if let (Some(_), Some(i)) = (has(RawKind::Tank), has(RawKind::ClosedEnd)) {
+            if let (Some(_), Some(i)) = (tank[id], closed[id]) {
                 return Err(self.err(
                     &paths[i],
                     format!(
@@ -1497,11 +1586,8 @@ impl Checker<'_> {
                     ),
                 ));
             }
-            let reached_by_two_port = connections
-                .iter()
-                .any(|c| matches!(c, Connection::Series { a, b } if *a == id || *b == id));
-            if !reached_by_two_port {
-                let i = at_node[0];
+            if !reached[id] {
+                let i = first_shunt[id].expect("a node is named by an element");
                 return Err(self.err(
                     &paths[i].key("at"),
                     format!(
@@ -1515,8 +1601,14 @@ impl Checker<'_> {
         Ok(())
     }
 
-    fn pump(&self, path: &KeyPath, raw: &RawPump, circuit: &Circuit) -> Res<Pump> {
-        let node = circuit.node_id(&raw.node).ok_or_else(|| {
+    fn pump(
+        &self,
+        path: &KeyPath,
+        raw: &RawPump,
+        circuit: &Circuit,
+        node_ids: &HashMap<String, usize>,
+    ) -> Res<Pump> {
+        let node = node_ids.get(raw.node.as_str()).copied().ok_or_else(|| {
             self.err(
                 &path.key("node"),
                 format!(
@@ -1729,10 +1821,16 @@ impl Checker<'_> {
         })
     }
 
-    fn tap(&self, path: &KeyPath, raw: &RawTap, circuit: &Circuit) -> Res<Tap> {
+    fn tap(
+        &self,
+        path: &KeyPath,
+        raw: &RawTap,
+        circuit: &Circuit,
+        (node_ids, element_ids): (&HashMap<String, usize>, &HashMap<&str, usize>),
+    ) -> Res<Tap> {
         let location = match (&raw.node, &raw.element, raw.distance) {
             (Some(node), None, None) => {
-                TapLocation::Node(circuit.node_id(node).ok_or_else(|| {
+                TapLocation::Node(node_ids.get(node.as_str()).copied().ok_or_else(|| {
                     self.err(
                         &path.key("node"),
                         format!("no element reaches node `{node}`"),
@@ -1740,7 +1838,7 @@ impl Checker<'_> {
                 })?)
             }
             (None, Some(name), Some(distance)) => {
-                let element = circuit.element_id(name).ok_or_else(|| {
+                let element = element_ids.get(name.as_str()).copied().ok_or_else(|| {
                     self.err(
                         &path.key("element"),
                         format!("no element is called `{name}`"),
