@@ -487,7 +487,31 @@ pub fn parse_circuit(text: &str, file: &str) -> Result<Circuit, InputError> {
 
 /// The raw sections of circuit text, tolerances accepted.
 fn parse_raw(text: &str, file: &str) -> Result<RawCircuit, InputError> {
+    refuse_too_many_elements(text, file)?;
     super::quantity::allowing_tolerances(|| super::parse_yaml(text, file))
+}
+
+/// Refuses circuit text whose `elements` list has more entries than
+/// [`limits::MAX_ELEMENTS`] before the YAML parser sees it, so that such a
+/// file costs a linear scan and no parser memory (the same message as the
+/// check after parsing, located at the first entry beyond the limit).
+///
+/// # Errors
+/// [`InputError::Invalid`] at that entry.
+pub(crate) fn refuse_too_many_elements(text: &str, file: &str) -> Result<(), InputError> {
+    let max = limits::MAX_ELEMENTS;
+    match super::yaml_limits::entries_over(text, "elements", max) {
+        None => Ok(()),
+        Some((count, line, column)) => Err(InputError::Invalid(super::Located {
+            file: file.to_string(),
+            line: Some(line),
+            column: Some(column),
+            path: format!("elements[{max}]"),
+            message: format!(
+                "the circuit has {count} elements; ripline accepts at most {max} elements (README, Limits and safeguards)"
+            ),
+        })),
+    }
 }
 
 pub use given::{Given, GivenInputs, GivenKeys, given_inputs};

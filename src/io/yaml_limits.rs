@@ -141,6 +141,52 @@ pub fn excess(text: &str, max_depth: usize, max_nodes: usize) -> Option<(usize, 
     None
 }
 
+/// The entries of the block sequence under the top-level key `key` (as in
+/// `elements:` followed by `  - …` lines), counted in one pass before the
+/// parser sees the text, so that a file with too many of them is refused
+/// without the parser's memory (about 160 bytes a node). When there are
+/// more than `limit`, returns the count and the 1-based line and column of
+/// entry `limit` (from 0), the first one beyond it.
+///
+/// Only block entries at the sequence's own indentation are counted, so the
+/// count never exceeds the true one; a flow sequence (`key: [...]`) is left
+/// to [`excess`] and the checks after parsing.
+pub fn entries_over(text: &str, key: &str, limit: usize) -> Option<(usize, usize, usize)> {
+    let mut inside = false;
+    let mut entry_indent: Option<usize> = None;
+    let mut count = 0usize;
+    let mut first_over = None;
+    for (ln, line) in text.lines().enumerate() {
+        let indent = line.len() - line.trim_start_matches(' ').len();
+        let rest = &line[indent..];
+        if rest.is_empty() || rest.starts_with('#') {
+            continue;
+        }
+        let is_entry = rest == "-" || rest.starts_with("- ");
+        if indent == 0 && !(is_entry && inside && entry_indent.is_none_or(|i| i == 0)) {
+            // A top-level key (or a document marker) opens or ends the sequence.
+            inside = rest
+                .strip_prefix(key)
+                .and_then(|r| r.strip_prefix(':'))
+                .is_some_and(|r| r.trim().is_empty() || r.trim_start().starts_with('#'));
+            entry_indent = None;
+            if !(inside && is_entry) {
+                continue;
+            }
+        }
+        if !inside || !is_entry {
+            continue;
+        }
+        if *entry_indent.get_or_insert(indent) == indent {
+            count += 1;
+            if count == limit + 1 {
+                first_over = Some((ln + 1, indent + 1));
+            }
+        }
+    }
+    first_over.map(|(line, column)| (count, line, column))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -198,5 +244,20 @@ name: \"x \\\" [[[[[[[\"
             too_deep(&text, MAX_YAML_DEPTH),
             Some((1, 7 + MAX_YAML_DEPTH))
         );
+    }
+    #[test]
+    fn entries_of_a_top_level_sequence_are_counted() {
+        // Three entries indented, one nested sequence entry not counted,
+        // then another top-level key ends the sequence.
+        let text = "title: x\nelements:\n  - name: a\n    nodes:\n      - p\n  - name: b\n  # c\n  - name: c\ntaps:\n  - t\n";
+        assert_eq!(entries_over(text, "elements", 3), None);
+        assert_eq!(entries_over(text, "elements", 2), Some((3, 8, 3)));
+        assert_eq!(entries_over(text, "elements", 0), Some((3, 3, 3)));
+        // Entries at column 0 under the key.
+        let flush = "elements:\n- a\n- b\nother: 1\n";
+        assert_eq!(entries_over(flush, "elements", 1), Some((2, 3, 1)));
+        // A flow sequence and another key's sequence are not counted.
+        assert_eq!(entries_over("elements: [a, b]\n", "elements", 0), None);
+        assert_eq!(entries_over("elementsx:\n  - a\n", "elements", 0), None);
     }
 }

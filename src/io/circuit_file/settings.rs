@@ -117,6 +117,7 @@ impl CircuitTemplate {
     /// project's bounds (the circuit itself is checked by
     /// [`CircuitTemplate::circuit`]).
     pub fn new(text: &str, file: &str) -> Result<Self, InputError> {
+        super::refuse_too_many_elements(text, file)?;
         let document: Value = crate::io::parse_yaml(text, file)?;
         Ok(CircuitTemplate {
             text: text.to_string(),
