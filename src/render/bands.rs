@@ -3,7 +3,7 @@
 
 use super::table::{Align, DIGITS, Quantity, Table, sig};
 use crate::io::quantity::Spread;
-use crate::results::bands::RippleBands;
+use crate::results::bands::{ResponseBands, RippleBands};
 use crate::uncertainty::bands::{BandsInfo, Method, OutputBand};
 use std::io::Write;
 
@@ -122,4 +122,38 @@ pub fn ripple_text(b: &RippleBands, out: &mut impl Write) -> std::io::Result<()>
         }
     }
     Ok(())
+}
+
+/// The bands of `response`: each resonance's frequency and peak level.
+///
+/// # Errors
+/// The writer's error.
+pub fn response_text(b: &ResponseBands, out: &mut impl Write) -> std::io::Result<()> {
+    writeln!(out)?;
+    info_text(&b.info, out)?;
+    let mut t = Table::new(&[
+        ("#", Align::Right),
+        ("frequency Hz", Align::Right),
+        ("band Hz", Align::Right),
+        ("peak level Pa·s/m³", Align::Right),
+        ("band Pa·s/m³", Align::Right),
+    ]);
+    let si = super::table::Unit {
+        symbol: "",
+        si: 1.0,
+    };
+    for (i, r) in b.resonances.iter().enumerate() {
+        t.row(vec![
+            format!("{}", i + 1),
+            sig(r.nominal_hz, DIGITS),
+            interval(&r.freq_hz, si),
+            if r.level_pa_per_m3_s.nominal.is_finite() {
+                sig(r.level_pa_per_m3_s.nominal, DIGITS)
+            } else {
+                "unbounded".into()
+            },
+            interval(&r.level_pa_per_m3_s, si),
+        ]);
+    }
+    t.write(out, "  ")
 }
