@@ -362,3 +362,73 @@ fn response_bands_of_a_circuit_with_nothing_uncertain_are_refused() {
     assert!(err.contains("tolerance"), "{err}");
     let _ = std::fs::remove_dir_all(dir);
 }
+
+/// `ripline sweep --bands` over 1500..2500 rpm on the quarter-wave line
+/// (laminar friction) with c = 1200 m/s ± 5 %: the ripple is worst where
+/// the first harmonic, 9 × speed, meets the resonance c/4L, at 60·c/(4L·9)
+/// = 2000 rpm for the nominal c (friction lowers it slightly); as the
+/// resonance is proportional to c, the 90 % band of the worst speed is its
+/// nominal value × (1 ∓ 0.045), as for the resonance above.
+#[test]
+fn sweep_bands_of_the_worst_speed_are_the_image_of_the_wave_speed() {
+    let dir = std::env::temp_dir().join(format!("ripline-bands-sweep-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let circuit = dir.join("quarter.yaml");
+    std::fs::write(&circuit, quarter_wave("1200 m/s ± 5 %", "laminar")).unwrap();
+    let json = dir.join("sweep.json");
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args([
+            "sweep",
+            circuit.to_str().unwrap(),
+            "--speed-range",
+            "1500..2500",
+        ])
+        .args(["--bands", "monte-carlo", "--draws", "1000"])
+        .args(["--json", json.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8(o.stdout).unwrap();
+    assert!(text.contains("worst speed rpm"), "{text}");
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(json).unwrap()).unwrap();
+    let p = &v["result"]["bands"]["points"][0];
+    let w = &p["worst_speed_rev_s"];
+    let nominal = w["nominal"].as_f64().unwrap() * 60.0;
+    assert!(nominal < 2000.0 && nominal > 0.98 * 2000.0, "{nominal}");
+    let lo = w["monte_carlo"]["low"].as_f64().unwrap() * 60.0;
+    let hi = w["monte_carlo"]["high"].as_f64().unwrap() * 60.0;
+    // the quantile's sampling sd with 1000 draws is 0.1·2000·√(0.0475/1000)
+    // = 1.4 rpm; allow 4 of them and 2 rpm for the refinement
+    let tol = 4.0 * 1.4 + 2.0;
+    assert!((lo - 0.955 * nominal).abs() < tol, "{lo} of {nominal}");
+    assert!((hi - 1.045 * nominal).abs() < tol, "{hi} of {nominal}");
+    assert_eq!(
+        p["rms_pa"].as_array().unwrap().len(),
+        v["result"]["speeds_rev_s"].as_array().unwrap().len()
+    );
+    let _ = std::fs::remove_dir_all(dir);
+}
+
+#[test]
+fn sweep_bands_of_a_circuit_with_nothing_uncertain_are_refused() {
+    let dir = std::env::temp_dir().join(format!("ripline-bands-snone-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let circuit = dir.join("certain.yaml");
+    std::fs::write(&circuit, quarter_wave("1200 m/s", "laminar")).unwrap();
+    let json = dir.join("out.json");
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args([
+            "sweep",
+            circuit.to_str().unwrap(),
+            "--speed-range",
+            "1500..2500",
+        ])
+        .args(["--bands", "first-order", "--json", json.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    assert!(o.stdout.is_empty());
+    assert!(!json.exists());
+    let _ = std::fs::remove_dir_all(dir);
+}

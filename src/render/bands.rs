@@ -3,7 +3,7 @@
 
 use super::table::{Align, DIGITS, Quantity, Table, sig};
 use crate::io::quantity::Spread;
-use crate::results::bands::{ResponseBands, RippleBands};
+use crate::results::bands::{ResponseBands, RippleBands, SweepBands};
 use crate::uncertainty::bands::{BandsInfo, Method, OutputBand};
 use std::io::Write;
 
@@ -153,6 +153,38 @@ pub fn response_text(b: &ResponseBands, out: &mut impl Write) -> std::io::Result
                 "unbounded".into()
             },
             interval(&r.level_pa_per_m3_s, si),
+        ]);
+    }
+    t.write(out, "  ")
+}
+
+/// The bands of `sweep`: each point's worst speed and the rms there (the
+/// rms at every speed is in the JSON).
+///
+/// # Errors
+/// The writer's error.
+pub fn sweep_text(b: &SweepBands, out: &mut impl Write) -> std::io::Result<()> {
+    writeln!(out)?;
+    info_text(&b.info, out)?;
+    let unit = Quantity::Pressure.unit_for_all(b.points.iter().map(|p| p.worst_rms_pa.nominal));
+    let rpm = super::table::Unit {
+        symbol: "rpm",
+        si: 1.0 / 60.0,
+    };
+    let mut t = Table::new(&[
+        ("point", Align::Left),
+        ("worst speed rpm", Align::Right),
+        ("band rpm", Align::Right),
+        (&format!("rms {}", unit.symbol), Align::Right),
+        (&format!("band {}", unit.symbol), Align::Right),
+    ]);
+    for p in &b.points {
+        t.row(vec![
+            p.point.clone(),
+            sig(rpm.of(p.worst_speed_rev_s.nominal), DIGITS),
+            interval(&p.worst_speed_rev_s, rpm),
+            sig(unit.of(p.worst_rms_pa.nominal), DIGITS),
+            interval(&p.worst_rms_pa, unit),
         ]);
     }
     t.write(out, "  ")

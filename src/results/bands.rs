@@ -5,12 +5,13 @@
 use super::Error;
 use super::response::{ResponseRequest, ResponseResult, override_circuit};
 use super::solve::{SolveRequest, SolveResult};
+use super::sweep::{SweepReport, SweepRequest};
 use crate::Circuit;
 use crate::envelope::OperatingPoint;
 use crate::io::CircuitTemplate;
 use crate::uncertainty::bands::{
     BandError, BandRequest, BandsInfo, OutputBand, Propagated, propagate, response_outputs,
-    ripple_outputs,
+    ripple_outputs, sweep_outputs,
 };
 use serde::Serialize;
 
@@ -209,5 +210,80 @@ pub fn response_bands(
     Ok(ResponseBands {
         info: p.info,
         resonances,
+    })
+}
+
+/// The bands of one point of `sweep`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SweepPointBands {
+    /// The point.
+    pub point: String,
+    /// The overall rms at each grid speed, Pa.
+    pub rms_pa: Vec<OutputBand>,
+    /// The true worst speed, rev/s.
+    pub worst_speed_rev_s: OutputBand,
+    /// The overall rms there, Pa.
+    pub worst_rms_pa: OutputBand,
+}
+
+/// The bands of a `sweep`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SweepBands {
+    /// How they were made.
+    pub info: BandsInfo,
+    /// Per point, in the order of `SweepReport::points`.
+    pub points: Vec<SweepPointBands>,
+}
+
+/// The bands of `nominal` (a `sweep` of `template`'s circuit at `point`
+/// with `request`) on its speed grid. `progress(done, planned)` counts
+/// Monte Carlo draws.
+///
+/// # Errors
+/// As [`ripple_bands`].
+pub fn sweep_bands(
+    template: &CircuitTemplate,
+    point: &OperatingPoint,
+    request: &SweepRequest,
+    bands: &BandRequest,
+    nominal: &SweepReport,
+    progress: &mut dyn FnMut(usize, usize),
+) -> Result<SweepBands, Error> {
+    let prepare = |c: &mut Circuit| {
+        if let Some(n) = request.harmonics {
+            c.harmonics = n;
+        }
+    };
+    let speeds = &nominal.speeds_rev_s;
+    let evaluate = |c: Circuit| sweep_outputs(c, &request.shaft, speeds, nominal.harmonics);
+    let p = propagate(template, point, &prepare, &evaluate, bands, progress)
+        .map_err(|e| band_error(e, "the sweep"))?;
+    // the layout of `sweep_outputs`: the rms per point and speed, then per
+    // point the worst speed and its rms
+    let np = nominal.points.len();
+    let ns = speeds.len();
+    if p.outputs.len() != np * (ns + 2) {
+        return Err(Error::Request(format!(
+            "the drawn circuits give {} outputs where the nominal one gives {}",
+            p.outputs.len(),
+            np * (ns + 2)
+        )));
+    }
+    let (levels, worst) = p.outputs.split_at(np * ns);
+    let points = nominal
+        .points
+        .iter()
+        .zip(levels.chunks_exact(ns))
+        .zip(worst.chunks_exact(2))
+        .map(|((name, rms), w)| SweepPointBands {
+            point: name.clone(),
+            rms_pa: rms.to_vec(),
+            worst_speed_rev_s: w[0],
+            worst_rms_pa: w[1],
+        })
+        .collect();
+    Ok(SweepBands {
+        info: p.info,
+        points,
     })
 }
