@@ -1,7 +1,7 @@
 //! `ripline response FILE`: frequency response, resonances, and which pump
 //! harmonics cross them over the operating speed range.
 
-use super::bands::{BandArgs, DrawProgress};
+use super::bands::{self, BandArgs};
 use super::common::{self, Outputs};
 use super::envelope::{self, PointArgs};
 use super::ranges::{self, Progress};
@@ -76,19 +76,14 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
         Ok(result)
     })?;
     progress.finish();
-    if let (Some(b), Some(t)) = (&band_request, &template) {
-        for ((point, result), request) in results.iter_mut().zip(&requests) {
-            let mut progress = DrawProgress::new();
-            let bands = response_bands(t, point, request, b, result, &mut |d, n| {
-                progress.update(d, n);
-            });
-            progress.finish();
-            result.uncertainty_bands = Some(bands.map_err(|e| {
-                anyhow::Error::new(e)
-                    .context(format!("bands at envelope point `{}`", point.label()))
-            })?);
-        }
-    }
+    bands::over_points(
+        &mut results,
+        &requests,
+        band_request.as_ref(),
+        template.as_ref(),
+        response_bands,
+        |r, b| r.uncertainty_bands = Some(b),
+    )?;
     envelope::print_warnings(&results, |r| &r.warnings);
 
     // the envelope columns follow `point`

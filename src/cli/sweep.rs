@@ -2,7 +2,7 @@
 //! ripple of a shaft's pumps over a speed range, and every resonance
 //! crossing.
 
-use super::bands::{BandArgs, DrawProgress};
+use super::bands::{self, BandArgs};
 use super::common::{self, Outputs, UsageError};
 use super::envelope::{self, PointArgs};
 use super::ranges::{self, Progress};
@@ -127,19 +127,14 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
         Ok(result)
     })?;
     bar.finish();
-    if let (Some(b), Some(t)) = (&band_request, &template) {
-        for ((point, result), request) in results.iter_mut().zip(&requests) {
-            let mut progress = DrawProgress::new();
-            let bands = sweep_bands(t, point, request, b, result, &mut |d, n| {
-                progress.update(d, n);
-            });
-            progress.finish();
-            result.bands = Some(bands.map_err(|e| {
-                anyhow::Error::new(e)
-                    .context(format!("bands at envelope point `{}`", point.label()))
-            })?);
-        }
-    }
+    bands::over_points(
+        &mut results,
+        &requests,
+        band_request.as_ref(),
+        template.as_ref(),
+        sweep_bands,
+        |r, b| r.bands = Some(b),
+    )?;
     envelope::print_warnings(&results, |r| &r.warnings);
 
     // the envelope columns follow `point,harmonic`; the grid's own speed
