@@ -49,6 +49,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             synthesis.sample_rate_hz,
             1e5,
             false,
+            None,
         )?;
         std::fs::write(path, text)?;
         println!("wrote {}", path.display());

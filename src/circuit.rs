@@ -90,19 +90,53 @@ impl Circuit {
             .count()
     }
 
+    /// How many elements touch each node, counting two-ports and shunts
+    /// (one pass over the elements; [`Circuit::degree`] for one node).
+    pub fn degrees(&self) -> Vec<usize> {
+        let mut degree = vec![0; self.nodes.len()];
+        for e in &self.elements {
+            match e.connection {
+                Connection::Series { a, b } => {
+                    degree[a] += 1;
+                    degree[b] += 1;
+                }
+                Connection::Shunt { at } => degree[at] += 1,
+            }
+        }
+        degree
+    }
+
+    /// Whether each node is held at zero ripple by a tank (one pass;
+    /// [`Circuit::is_tank`] for one node).
+    pub fn tank_nodes(&self) -> Vec<bool> {
+        let mut tank = vec![false; self.nodes.len()];
+        for e in &self.elements {
+            if let (ElementKind::Tank, Connection::Shunt { at }) = (&e.kind, e.connection) {
+                tank[at] = true;
+            }
+        }
+        tank
+    }
+
     /// Nodes that end a line with no element saying what the end is: a node
     /// touched by exactly one two-port and nothing else. ripline treats
     /// them as closed ends; `check` lists them so a user can confirm.
+    /// One pass over the elements and pumps.
     pub fn implicit_closed_ends(&self) -> Vec<NodeId> {
+        let degree = self.degrees();
+        let mut series = vec![false; self.nodes.len()];
+        for e in &self.elements {
+            if let Connection::Series { a, b } = e.connection {
+                series[a] = true;
+                series[b] = true;
+            }
+        }
+        let mut pumped = vec![false; self.nodes.len()];
+        for p in &self.pumps {
+            pumped[p.node] = true;
+        }
         (0..self.nodes.len())
-            .filter(|&id| {
-                self.degree(id) == 1
-                    && !self.pumps.iter().any(|p| p.node == id)
-                    && self
-                        .elements
-                        .iter()
-                        .any(|e| matches!(e.connection, Connection::Series { a, b } if a == id || b == id))
-            })
+            .filter(|&id| degree[id] == 1 && !pumped[id] && series[id])
             .collect()
     }
 }

@@ -39,6 +39,10 @@ pub enum Level {
     Warning,
     /// A safety caution (stored energy, pressure vessels).
     Caution,
+    /// A verdict met (every limit).
+    Pass,
+    /// A verdict not met (a limit exceeded).
+    Fail,
 }
 
 impl Level {
@@ -47,6 +51,8 @@ impl Level {
             Level::Info => "info",
             Level::Warning => "warning",
             Level::Caution => "caution",
+            Level::Pass => "pass",
+            Level::Fail => "fail",
         }
     }
     fn word(self) -> &'static str {
@@ -54,6 +60,8 @@ impl Level {
             Level::Info => "Note",
             Level::Warning => "Warning",
             Level::Caution => "Caution",
+            Level::Pass => "PASS",
+            Level::Fail => "FAIL",
         }
     }
 }
@@ -201,9 +209,9 @@ h1 { font-size: 18pt; margin: 0 0 0.2em 0; }
 h2 { font-size: 14pt; border-bottom: 1px solid #999; margin-top: 1.6em; break-after: avoid; }
 h3 { font-size: 12pt; break-after: avoid; }
 p.subtitle { font-size: 12pt; color: #444; margin-top: 0; }
-table { border-collapse: collapse; margin: 0.6em 0 1em 0; font-size: 10pt; }
+table { border-collapse: collapse; margin: 0.6em 0 1em 0; font-size: 9.5pt; max-width: 100%; }
 caption { text-align: left; font-weight: bold; padding-bottom: 0.3em; }
-th, td { border: 1px solid #bbb; padding: 0.2em 0.5em; vertical-align: top; }
+th, td { border: 1px solid #bbb; padding: 0.2em 0.4em; vertical-align: top; }
 th { background: #eee; text-align: left; }
 th .unit { font-weight: normal; color: #555; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
@@ -212,13 +220,15 @@ tr, figure, .notice { break-inside: avoid; page-break-inside: avoid; }
 figure { margin: 0.8em 0; }
 figure svg { max-width: 100%; height: auto; display: block; }
 figcaption { font-size: 9.5pt; color: #444; margin-top: 0.3em; }
-dl.kv { display: grid; grid-template-columns: max-content auto; gap: 0.15em 1.2em; }
+dl.kv { display: grid; grid-template-columns: fit-content(40%) minmax(0, 1fr); gap: 0.15em 1.2em; }
 dl.kv dt { font-weight: bold; }
-dl.kv dd { margin: 0; }
+dl.kv dd { margin: 0; overflow-wrap: anywhere; }
 .notice { border-left: 5px solid; padding: 0.4em 0.8em; margin: 0.6em 0; }
 .notice.info { border-color: #3a78c2; background: #eef4fb; }
 .notice.warning { border-color: #d08a00; background: #fff6e0; }
 .notice.caution { border-color: #c00000; background: #fdeaea; }
+.notice.pass { border-color: #2e7d32; background: #e8f5e9; font-size: 12pt; }
+.notice.fail { border-color: #c00000; background: #fdeaea; font-size: 12pt; }
 footer { margin-top: 2em; border-top: 1px solid #999; font-size: 9pt; color: #555; }
 @media print {
   body { max-width: none; margin: 0; padding: 0; }
@@ -242,14 +252,26 @@ fn anchor(id: &str) -> String {
     if a.is_empty() { "section".into() } else { a }
 }
 
+/// The SVG namespace declaration, which an `<svg>` element inside HTML
+/// does not need (the HTML parser puts it in that namespace, WHATWG HTML
+/// §13.2.6.5); dropped so that the document names no address at all.
+const SVG_XMLNS: &str = " xmlns=\"http://www.w3.org/2000/svg\"";
+
 /// An SVG document ready to be placed inside HTML: any XML declaration or
-/// doctype before the `<svg` element is dropped, and nothing after its end.
-fn inline_svg(svg: &str) -> &str {
+/// doctype before the `<svg` element is dropped, nothing after its end, and
+/// the root's namespace declaration ([`SVG_XMLNS`]).
+fn inline_svg(svg: &str) -> String {
     let start = svg.find("<svg").unwrap_or(svg.len());
     let end = svg
         .rfind("</svg>")
         .map_or(svg.len(), |i| i + "</svg>".len());
-    if start <= end { &svg[start..end] } else { "" }
+    if start > end {
+        return String::new();
+    }
+    let svg = &svg[start..end];
+    let tag_end = svg.find('>').unwrap_or(svg.len());
+    let (tag, rest) = svg.split_at(tag_end);
+    format!("{}{rest}", tag.replacen(SVG_XMLNS, "", 1))
 }
 
 impl Report {
@@ -521,6 +543,11 @@ mod tests {
             "external reference"
         );
         assert!(html.contains("@page { size: A4"));
+        // no address at all (the inline SVG needs no namespace declaration;
+        // the parser still puts it in the SVG namespace)
+        assert!(!html.contains("http"), "{html}");
+        let svg = doc.select(&sel("figure svg")).nth(1).unwrap();
+        assert_eq!(&*svg.value().name.ns, "http://www.w3.org/2000/svg");
     }
 
     #[test]

@@ -48,13 +48,17 @@ pub mod elements;
 pub mod envelope;
 pub mod estimate;
 pub mod fluid;
+#[doc(hidden)]
+pub mod generated;
 pub mod hose;
 pub mod html;
 pub mod io;
+pub mod limits;
 pub mod line;
 pub mod meanflow;
 pub mod network;
 pub mod oil;
+pub mod parallel;
 pub mod plot;
 pub mod render;
 pub mod results;

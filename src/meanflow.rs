@@ -28,7 +28,8 @@
 use crate::circuit::Circuit;
 use crate::elements::{CheckState, CheckValve, Connection, ElementKind};
 use crate::line::MeanFlow;
-use nalgebra::{DMatrix, DVector};
+use crate::network::sparse::{self, PivotedLu, Symbolic};
+use num_complex::Complex64 as C64;
 
 /// The mean flows of a circuit.
 #[derive(Debug, Clone, PartialEq)]
@@ -118,6 +119,75 @@ fn union(parent: &mut [usize], a: usize, b: usize) {
     }
 }
 
+/// Solves G·p = q for the node pressures of the grounded parts (`index`:
+/// each representative node's unknown), with the sparse LU of the network
+/// solve ([`crate::network::sparse`]): G is a conductance matrix, symmetric
+/// and positive definite on grounded parts, so the static order is safe and
+/// the time is in proportion to the circuit. `None` if it is singular.
+fn solve_conductances(
+    count: usize,
+    models: &[Dc],
+    index: &[Option<usize>],
+    rep: &[usize],
+    injection: &[f64],
+) -> Option<Vec<f64>> {
+    if count == 0 {
+        return Some(Vec::new());
+    }
+    // (row, column, value) of every conductance stamp
+    let mut stamps: Vec<(usize, usize, f64)> = Vec::new();
+    for m in models {
+        match *m {
+            Dc::Series { a, b, r } => {
+                let (ia, ib) = (index[rep[a]], index[rep[b]]);
+                let y = 1.0 / r;
+                if let Some(ia) = ia {
+                    stamps.push((ia, ia, y));
+                }
+                if let Some(ib) = ib {
+                    stamps.push((ib, ib, y));
+                }
+                if let (Some(ia), Some(ib)) = (ia, ib) {
+                    stamps.push((ia, ib, -y));
+                    stamps.push((ib, ia, -y));
+                }
+            }
+            Dc::ToTank { at, r } => {
+                if let Some(i) = index[rep[at]] {
+                    stamps.push((i, i, 1.0 / r));
+                }
+            }
+            _ => {}
+        }
+    }
+    let mut entries: Vec<(usize, usize)> = stamps.iter().map(|&(r, c, _)| (r, c)).collect();
+    entries.extend((0..count).map(|i| (i, i)));
+    let symbolic = Symbolic::new(count, &entries, &vec![0; count]).ok()?;
+    let mut vals = vec![C64::new(0.0, 0.0); symbolic.slots()];
+    for &(r, c, v) in &stamps {
+        vals[symbolic.slot(r, c) as usize] += v;
+    }
+    let mut rhs = vec![C64::new(0.0, 0.0); count];
+    for (i, &q) in injection.iter().enumerate() {
+        if let Some(k) = index[i] {
+            rhs[symbolic.position(k)] = C64::new(q, 0.0);
+        }
+    }
+    let assembled = vals.clone();
+    let mut mass = vec![0.0; vals.len()];
+    if sparse::factor_static(&symbolic, &mut vals, &mut mass).is_some() {
+        sparse::solve_static(&symbolic, &vals, &mut rhs, None);
+    } else {
+        let mut lu = PivotedLu::default();
+        let pivot_ratio = lu.factor(&symbolic, &assembled);
+        if pivot_ratio.is_nan() || pivot_ratio <= 0.0 {
+            return None;
+        }
+        lu.solve(&mut rhs);
+    }
+    Some((0..count).map(|k| rhs[symbolic.position(k)].re).collect())
+}
+
 /// Solves the mean-flow (DC) network of a circuit at its pumps' speeds.
 pub fn mean_flows(circuit: &Circuit) -> MeanFlows {
     let n = circuit.nodes.len();
@@ -192,42 +262,7 @@ pub fn mean_flows(circuit: &Circuit) -> MeanFlows {
             count += 1;
         }
     }
-    let mut g = DMatrix::<f64>::zeros(count, count);
-    let mut rhs = DVector::<f64>::zeros(count);
-    for m in &models {
-        match *m {
-            Dc::Series { a, b, r } => {
-                let (ia, ib) = (index[rep[a]], index[rep[b]]);
-                let y = 1.0 / r;
-                if let Some(ia) = ia {
-                    g[(ia, ia)] += y;
-                }
-                if let Some(ib) = ib {
-                    g[(ib, ib)] += y;
-                }
-                if let (Some(ia), Some(ib)) = (ia, ib) {
-                    g[(ia, ib)] -= y;
-                    g[(ib, ia)] -= y;
-                }
-            }
-            Dc::ToTank { at, r } => {
-                if let Some(i) = index[rep[at]] {
-                    g[(i, i)] += 1.0 / r;
-                }
-            }
-            _ => {}
-        }
-    }
-    for i in 0..n {
-        if let Some(k) = index[i] {
-            rhs[k] = injection[i];
-        }
-    }
-    let pressures = if count == 0 {
-        Some(DVector::zeros(0))
-    } else {
-        g.lu().solve(&rhs)
-    };
+    let pressures = solve_conductances(count, &models, &index, &rep, &injection);
     let Some(pressures) = pressures.filter(|p| p.iter().all(|v| v.is_finite())) else {
         return MeanFlows {
             trapped_pumps,

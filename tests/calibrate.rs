@@ -361,6 +361,7 @@ fn time_series_records_are_extracted_and_calibrated() {
             12_000.0,
             1e5,
             true,
+            None,
         )
         .unwrap();
         std::fs::write(run.data.path(), out).unwrap();

@@ -20,11 +20,11 @@ use ripline::estimate::bench::{
     ReferenceLine, SpeedOfSound, Synthesis, Termination, Transducer,
 };
 use ripline::estimate::decompose::decompose;
-use ripline::estimate::extract::{ConditionSpectra, ExtractRequest, TimeRecord, extract};
+use ripline::estimate::extract::ConditionSpectra;
 use ripline::estimate::rng::Rng;
 use ripline::estimate::synth::{self, Drive};
 use ripline::estimate::wavespeed::{self, FitStatus, Observation, SearchSettings};
-use ripline::estimate::{FitOptions, FitReport, Quiet, fit, two_systems};
+use ripline::estimate::{FitOptions, FitReport, Quiet, fit, selfcheck, two_systems};
 use ripline::fluid::Fluid;
 use ripline::line::LineModel;
 use ripline::source::{FlowHarmonic, FlowRipple, SourceImpedance};
@@ -50,9 +50,12 @@ fn condition(name: &str, kind: ConditionKind, r_load: f64) -> Condition {
             resistance_pa_s_m3: Some(r_load),
             volume_m3: None,
         }),
-        data: DataFile::Spectra {
+        data: DataFile::TimeSeries {
             path: "unused.csv".into(),
             unit_pa: 1.0,
+            sample_rate_hz: None,
+            time_column: None,
+            tacho_column: None,
             columns: vec![],
         },
     }
@@ -303,40 +306,7 @@ fn extracted(bench: &Bench, noise: f64, seed: u64, speed_error: f64) -> Vec<Cond
     let mut syn = bench.synthesis.clone().unwrap();
     syn.noise = noise;
     syn.speed_error = speed_error;
-    let mut rng = Rng::new(seed);
-    let fs = syn.sample_rate_hz.unwrap();
-    bench
-        .conditions
-        .iter()
-        .map(|cond| {
-            let lines = synth::condition_lines(bench, &syn, cond).unwrap();
-            let channels = synth::time_series(
-                &lines,
-                bench.transducers.len(),
-                fs,
-                syn.duration_s,
-                syn.mean_pressure_pa,
-                noise,
-                &mut rng,
-            );
-            let rec = TimeRecord {
-                file: cond.name.clone(),
-                sample_rate_hz: fs,
-                channels,
-            };
-            let req = ExtractRequest {
-                pump_fundamental_hz: bench.pump.pumping_frequency_hz(),
-                harmonics: bench.harmonics,
-                secondary_fundamental_hz: match cond.kind {
-                    ConditionKind::SecondarySource { fundamental_hz, .. } => Some(fundamental_hz),
-                    ConditionKind::Pump => None,
-                },
-                segments: bench.extraction.segments,
-                speed_tolerance: bench.extraction.speed_tolerance,
-            };
-            extract(&rec, &req, &mut Quiet).unwrap()
-        })
-        .collect()
+    selfcheck::synthetic_spectra(bench, &syn, &mut Rng::new(seed)).unwrap()
 }
 
 /// The true Qs and Zs at each reported harmonic (actual speed).
@@ -398,12 +368,14 @@ fn check_round_trip_on(
     let options = FitOptions {
         draws: 60,
         seed: 11,
+        ..FitOptions::default()
     };
     let exact = fit(bench, exact_data, &options, &mut Quiet).unwrap();
     assert_eq!(exact.harmonics.len(), bench.harmonics as usize);
     let (eq, ez) = max_rel_error(bench, &exact);
     assert!(eq < 1e-8 && ez < 1e-8, "noise-free errors {eq:e} {ez:e}");
     let noisy = fit(bench, noisy_data, &options, &mut Quiet).unwrap();
+    check_equivalent(bench, &exact, &noisy);
     let errs = normalised_errors(bench, &noisy);
     let mut sorted = errs.clone();
     sorted.sort_by(f64::total_cmp);
@@ -421,6 +393,36 @@ fn check_round_trip_on(
         }
     }
     (exact, noisy)
+}
+
+/// The equivalent internal volume and leakage (issue 14 item 4), where two
+/// or more harmonics are estimated without flags: the known source is
+/// Ys = 1/R + jωC with C = 6.25e-14 m³/Pa, R = 1.2e12 Pa·s/m³ (methods.md §5
+/// worked example, the §6d pump), so V = C·B exactly without noise and
+/// within three standard uncertainties with it. Returns whether it ran.
+fn check_equivalent(bench: &Bench, exact: &FitReport, noisy: &FitReport) -> bool {
+    let b = bench.fluid.bulk_modulus_pa;
+    let (Some(e), Some(n)) = (&exact.equivalent, &noisy.equivalent) else {
+        return false;
+    };
+    assert!(
+        (e.volume_m3.value / b / 6.25e-14 - 1.0).abs() < 1e-8,
+        "{e:?}"
+    );
+    assert!(
+        (e.leakage_conductance.value * 1.2e12 - 1.0).abs() < 1e-6,
+        "{e:?}"
+    );
+    let (v, g) = (n.volume_m3, n.leakage_conductance);
+    assert!(
+        (v.value - 6.25e-14 * b).abs() < 3.0 * v.uncertainty.unwrap(),
+        "{n:?}"
+    );
+    assert!(
+        (g.value - 1.0 / 1.2e12).abs() < 3.0 * g.uncertainty.unwrap(),
+        "{n:?}"
+    );
+    true
 }
 
 fn decomposition_flagged(report: &FitReport, order: u32) -> bool {
@@ -472,8 +474,8 @@ fn two_systems_with_three_transducers_and_speed_of_sound_in_situ() {
 fn secondary_source_round_trip() {
     // Eight harmonics (records at 4.5 kHz) keep the test quick. With the
     // Ys = G + jωC fit, which is the form of the known source, the round trip
-    // is exact; log-log interpolation between the secondary lines (139 Hz
-    // apart) cannot be exact for 1/(G + jωC) but stays within 0.1 %.
+    // is exact; so is interpolation of Ys linear in frequency between the
+    // secondary lines (139 Hz apart), and its extension beyond them.
     let mut b = bench_6d(
         8,
         Method::SecondarySource {
@@ -484,13 +486,26 @@ fn secondary_source_round_trip() {
     b.synthesis.as_mut().unwrap().sample_rate_hz = Some(4500.0);
     let exact = extracted(&b, 0.0, 1, 0.0);
     let noisy = extracted(&b, 0.01, 2, 0.0);
-    check_round_trip_on(&b, &exact, &noisy);
+    let (e, n) = check_round_trip_on(&b, &exact, &noisy);
+    assert!(
+        check_equivalent(&b, &e, &n),
+        "the equivalent volume was checked"
+    );
     b.method = Method::SecondarySource {
         impedance_fit: ImpedanceFit::Interpolate,
     };
-    let r = fit(&b, &exact, &FitOptions { draws: 0, seed: 1 }, &mut Quiet).unwrap();
+    let r = fit(
+        &b,
+        &exact,
+        &FitOptions {
+            draws: 0,
+            ..FitOptions::default()
+        },
+        &mut Quiet,
+    )
+    .unwrap();
     let (eq, ez) = max_rel_error(&b, &r);
-    assert!(eq < 1e-3 && ez < 1e-3, "{eq} {ez}");
+    assert!(eq < 1e-8 && ez < 1e-8, "{eq} {ez}");
 }
 
 #[test]
@@ -532,4 +547,128 @@ fn extraction_recovers_amplitudes_with_a_speed_error_of_0_3_percent() {
             }
         }
     }
+}
+
+#[test]
+fn a_secondary_harmonic_next_to_the_pumping_frequency_leaves_no_bias() {
+    // Issue 14's case (tests/data/stats/secondary_83hz.yaml, invented): the
+    // secondary source at 83 Hz puts its 4th harmonic at 333.0 Hz, 2 Hz from
+    // the actual pumping frequency 330.99 Hz (2200 rpm × 9, 0.3 % fast).
+    // Searched in the secondary run, the pump frequency was once found on
+    // the secondary's line (332.996 Hz) and Qs came out 6 % low, Zs 10 %
+    // high. Held from the pump run it is right, and over seeds the errors
+    // of |Qs| and |Zs| average out to well within one reported standard
+    // uncertainty (and three standard errors of the mean).
+    let bench = ripline::io::bench_file::load_bench(std::path::Path::new(
+        "tests/data/stats/secondary_83hz.yaml",
+    ))
+    .unwrap();
+    let syn = bench.synthesis.clone().unwrap();
+    let data = selfcheck::synthetic_spectra(&bench, &syn, &mut Rng::new(5)).unwrap();
+    let want = 2200.0 / 60.0 * 9.0 * 1.003;
+    for d in &data {
+        assert!(
+            (d.pump_fundamental_hz - want).abs() < 0.01,
+            "{}",
+            d.pump_fundamental_hz
+        );
+    }
+    assert_eq!(
+        data[1].reference[0].kind,
+        ripline::estimate::extract::ReferenceKind::HeldPumpFrequency
+    );
+    let fs = data[1].secondary_fundamental_hz.unwrap();
+    assert!((fs - 83.0 * 1.003).abs() < 0.01, "{fs}");
+    let r = selfcheck::run(
+        &bench,
+        &selfcheck::SelfCheckOptions {
+            seeds: 8,
+            first_seed: 40,
+            fit: FitOptions {
+                draws: 20,
+                ..FitOptions::default()
+            },
+        },
+        &mut Quiet,
+    )
+    .unwrap();
+    for h in &r.harmonics {
+        for (what, q) in [("|Qs|", h.flow_amplitude), ("|Zs|", h.impedance_amplitude)] {
+            // bias/σ = (bias/SE)·(spread/σ)/√n
+            let in_sigma = q.bias_standard_errors * q.spread_over_sigma / (q.samples as f64).sqrt();
+            assert!(
+                in_sigma.abs() < 1.0 && q.bias_standard_errors.abs() < 3.0,
+                "harmonic {} {what}: bias {:+.2e} = {in_sigma:.2} σ, {:.1} SE",
+                h.order,
+                q.bias,
+                q.bias_standard_errors
+            );
+        }
+    }
+}
+
+/// A bench file with the given fluid section and reference line.
+fn bench_text(fluid: &str, line: &str) -> String {
+    format!(
+        "fluid: {fluid}\n\
+         pump: {{speed: 1500 rpm, pumping_elements: 9}}\n\
+         reference_line: {line}\n\
+         speed_of_sound: from_fluid\n\
+         transducers: [{{name: p1, position: 0.25 m}}, {{name: p2, position: 0.58 m}}]\n\
+         method: two_systems\n\
+         records: {{unit: bar, sample_rate: 6 kHz}}\n\
+         conditions: [{{name: A, records: a.csv}}, {{name: B, records: b.csv}}]\n"
+    )
+}
+
+#[test]
+fn speed_of_sound_from_the_fluid_follows_the_wall_model_as_documented() {
+    // README (bench files, `speed_of_sound`): `from_fluid` is √(B_eff/ρ)
+    // with the reference line's wall model, thick-wall (Lamé) unless
+    // `wall_model: thin` (Korteweg). A 16 × 2 mm steel tube, B = 1.6 GPa,
+    // ρ = 870 (tests/oracles/stats_refs.py [4], mpmath): 1317.100824139556
+    // m/s thick, 1325.591153023871 m/s thin.
+    let fluid = "{density: 870 kg/m3, bulk_modulus: 1.6 GPa, viscosity: 32 cSt}";
+    for (model, want) in [
+        ("", 1317.100824139556),
+        (", wall_model: thick", 1317.100824139556),
+        (", wall_model: thin", 1325.591153023871),
+    ] {
+        let line = format!("{{bore: 12 mm, wall: 2 mm, material: steel{model}}}");
+        let b = ripline::io::bench_file::parse_bench(&bench_text(fluid, &line), "b.yaml").unwrap();
+        let c = b.nominal_speed_of_sound_m_s();
+        assert!((c - want).abs() < 1e-9 * want, "{model}: {c} vs {want}");
+    }
+}
+
+#[test]
+fn bench_files_take_an_oil_grade_at_a_temperature_as_circuit_files_do() {
+    // The same `fluid` section as a circuit file (ISO VG 46 at 50 °C and
+    // 150 bar): the bench's fluid is the circuit's, whose oil data are
+    // checked against their sources in tests/lines_and_fluids.rs.
+    let fluid = "{grade: VG 46, temperature: 50 degC, pressure: 150 bar}";
+    let b = ripline::io::bench_file::parse_bench(
+        &bench_text(fluid, "{bore: 10 mm, rigid: true}"),
+        "b.yaml",
+    )
+    .unwrap();
+    let circuit = ripline::io::parse_circuit(
+        &format!(
+            "fluid: {fluid}\npump: {{node: a, speed: 1500 rpm, pumping_elements: 9, flow_ripple: [{{harmonic: 1, amplitude: 1e-5}}], source_impedance: {{volume: 0.1 L}}}}\nelements:\n  - {{name: l, kind: tube, from: a, to: b, length: 1 m, bore: 10 mm, rigid: true}}\n  - {{name: v, kind: load_valve, at: b, resistance: 1e10}}\n"
+        ),
+        "c.yaml",
+    )
+    .unwrap();
+    assert_eq!(b.fluid, circuit.fluid);
+    // A grade without its temperature is refused where the key is.
+    let err = ripline::io::bench_file::parse_bench(
+        &bench_text("{grade: VG 46}", "{bore: 10 mm, rigid: true}"),
+        "b.yaml",
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(
+        err.starts_with("b.yaml:1:") && err.contains("temperature"),
+        "{err}"
+    );
 }

@@ -325,7 +325,10 @@ proptest! {
         }
         std::fs::write(dir.join("rec.csv"), &text).unwrap();
         let bench = ripline::io::bench_file::load_bench(&bench_path).unwrap();
-        match ripline::io::records::load_condition(&bench, &bench.conditions[0], &mut Quiet) {
+        let pump = ripline::estimate::extract::PumpFrequency::Search {
+            nominal_hz: bench.pump.pumping_frequency_hz(),
+        };
+        match ripline::io::records::load_condition(&bench, &bench.conditions[0], pump, &mut Quiet) {
             Err(e) => {
                 let msg = e.to_string();
                 prop_assert!(msg.contains("rec.csv"), "unlocated message: {msg}");

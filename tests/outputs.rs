@@ -707,6 +707,62 @@ fn fit_prints_values_and_uncertainties_in_one_unit() {
     std::fs::remove_dir_all(dir).unwrap();
 }
 
+/// `fit --self-check`: the JSON holds the keys docs/json.md lists and the
+/// CSV's statistics; `--include-flagged` moves the flagged harmonics into
+/// the overall levels (the demo bench's are flagged, so the levels rise).
+#[test]
+fn fit_self_check_writes_documented_json_and_csv() {
+    let dir = scratch("fit-check");
+    let (j, c) = (path(&dir, "s.json"), path(&dir, "s.csv"));
+    let bench = "networks/bench/demo_bench.yaml";
+    let text = ok(&[
+        "fit",
+        bench,
+        "--self-check",
+        "3",
+        "--draws",
+        "5",
+        "--json",
+        &j,
+        "--csv",
+        &c,
+    ]);
+    assert!(text.contains("3 seeds of synthetic data"), "{text}");
+    let r = json(&j, "fit --self-check");
+    let doc = std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("docs/json.md"))
+        .unwrap();
+    let keys: std::collections::BTreeSet<String> = r.as_object().unwrap().keys().cloned().collect();
+    assert_eq!(documented_keys(&doc, "fit --self-check"), keys);
+    let rows = csv_rows(&c);
+    let harmonics = r["harmonics"].as_array().unwrap();
+    assert_eq!(rows.len(), 4 * harmonics.len());
+    for (q, row) in harmonics
+        .iter()
+        .flat_map(|h| h["quantities"].as_array().unwrap())
+        .zip(&rows)
+    {
+        same(row[5].parse().unwrap(), num(&q["bias"]));
+        same(row[7].parse().unwrap(), num(&q["spread_over_sigma"]));
+    }
+    let rms = |extra: &[&str]| {
+        let f = path(&dir, "f.json");
+        let mut args = vec!["fit", bench, "--draws", "0", "--json", &f];
+        args.extend(extra);
+        ok(&args);
+        let r = json(&f, "fit");
+        (
+            num(&r["anechoic_rms_pa"]["value"]),
+            r["rms_orders"].as_array().unwrap().len(),
+            r["harmonics"].as_array().unwrap().len(),
+        )
+    };
+    let (without, n_without, n) = rms(&[]);
+    let (with, n_with, _) = rms(&["--include-flagged"]);
+    assert!(n_without < n && n_with == n, "{n_without} {n_with} {n}");
+    assert!(with > without, "{with} {without}");
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
 /// The long options `ripline CMD --help` lists (global ones, those of
 /// `ripline --help`, apart).
 fn help_options(args: &[&str]) -> std::collections::BTreeSet<String> {

@@ -258,6 +258,81 @@ fn viscous_factor_matches_mpmath_to_1e_12() {
     }
 }
 
+/// mpmath (tests/oracles/line_refs.py item 10): `mp.coth(g)`, `mp.csch(g)`
+/// at dps = 40 for Γl = g: an electrically short line, one near its
+/// quarter-wave resonance, a general one and a long lossy one.
+/// Columns: (Re Γl, Im Γl, Re coth, Im coth, Re csch, Im csch).
+// 1.5707963 is a test angle near π/2, not π/2 itself.
+#[allow(clippy::approx_constant)]
+const COTH_CSCH_REFS: [(f64, f64, f64, f64, f64, f64); 5] = [
+    (
+        1e-9,
+        1e-7,
+        9.999000099990034e4,
+        -9.999000099989968e6,
+        9.999000099989984e4,
+        -9.999000099990018e6,
+    ),
+    (
+        1e-4,
+        2e-2,
+        2.500270861563932e-1,
+        -4.999208318681134e1,
+        2.499770811561015e-1,
+        -5.000208352013300e1,
+    ),
+    (
+        3e-3,
+        1.5707963,
+        2.999991000032402e-3,
+        -2.679465546660867e-8,
+        8.038408697582990e-11,
+        -9.999955000168753e-1,
+    ),
+    (
+        0.5,
+        3.1,
+        2.150262264014399,
+        1.520284427758221e-1,
+        -1.905244005169553,
+        -1.715796101028177e-1,
+    ),
+    (
+        2.0,
+        40.0,
+        9.953060043739276e-1,
+        3.624867520789587e-2,
+        -1.764415016691509e-1,
+        -2.044786727822725e-1,
+    ),
+];
+
+/// The line's admittance two-port (1/Zc)[[coth Γl, −csch Γl], [−csch Γl,
+/// coth Γl]] (methods.md §2.1) against mpmath, with Zc = 1 and l = 1.
+#[test]
+fn line_admittance_matches_mpmath_coth_and_csch() {
+    let line = Line {
+        properties: line5(LineModel::Laminar),
+        length_m: 1.0,
+    };
+    for (gr, gi, cr, ci, sr, si) in COTH_CSCH_REFS {
+        let prop = ripline::line::Propagation {
+            gamma: C64::new(gr, gi),
+            zc: C64::new(1.0, 0.0),
+        };
+        let y = line.admittance(&prop).unwrap();
+        let (coth, csch) = (C64::new(cr, ci), C64::new(sr, si));
+        assert!(rel(y[0][0], coth) < 1e-13, "coth({gr}+j{gi}) = {}", y[0][0]);
+        assert!(rel(y[1][1], coth) < 1e-13);
+        assert!(
+            rel(-y[0][1], csch) < 1e-13,
+            "csch({gr}+j{gi}) = {}",
+            -y[0][1]
+        );
+        assert!(rel(-y[1][0], csch) < 1e-13);
+    }
+}
+
 // ---------------------------------------------------------------------------
 // Laminar line: Γ and Zc
 // ---------------------------------------------------------------------------

@@ -437,16 +437,16 @@ fn deeply_nested_or_huge_yaml_is_refused_before_the_parser() {
     refused(&o, &["flow.yaml:1:71:", "nested more than 64 levels"]);
     let o = ripline_in(&dir, &["check", "block.yaml"]);
     refused(&o, &["block.yaml:2:", "nested more than 64 levels"]);
-    // 100,000 tiny mappings (2.2 MB): three nodes each.
+    // 400,000 tiny mappings (3.6 MB): three nodes each.
     std::fs::write(
         dir.join("wide.yaml"),
-        "taps:\n".to_string() + &"- {a: 1}\n".repeat(100_000),
+        "taps:\n".to_string() + &"- {a: 1}\n".repeat(400_000),
     )
     .unwrap();
     let o = ripline_in(&dir, &["check", "wide.yaml"]);
     refused(
         &o,
-        &["wide.yaml:83335:3:", "more than 250000 keys and values"],
+        &["wide.yaml:333335:3:", "more than 1000000 keys and values"],
     );
     std::fs::remove_dir_all(dir).unwrap();
 }
@@ -609,5 +609,129 @@ fn long_values_are_cut_and_numbers_printed_readably() {
         ],
     );
     assert!(!stderr(&o).contains("constant"), "{}", stderr(&o));
+    std::fs::remove_dir_all(dir).unwrap();
+}
+
+/// The line (from 1) of the first line of `text` that contains `needle`.
+fn line_of(text: &str, needle: &str) -> usize {
+    text.lines().position(|l| l.contains(needle)).unwrap() + 1
+}
+
+/// Circuits over the size limits of `ripline::limits` (README, Limits and
+/// safeguards) are refused with exit 2 at the first element, node, pump or
+/// tap beyond the limit, and nothing is written; a response or a profile
+/// too large to hold is refused before it is computed.
+#[test]
+fn circuits_over_the_size_limits_are_refused_where_they_pass_it() {
+    use ripline::limits::{MAX_ELEMENTS, MAX_NODES, MAX_PUMPS, MAX_TAPS};
+    let dir = scratch("size");
+    let write = |name: &str, text: &str| std::fs::write(dir.join(name), text).unwrap();
+    // A chain of 50,000 tubes and a load valve: one element too many.
+    let chain = ripline::generated::chain_circuit(MAX_ELEMENTS);
+    write("chain.yaml", &chain);
+    let o = ripline_in(&dir, &["check", "chain.yaml", "--json", "c.json"]);
+    let at = format!("chain.yaml:{}:", line_of(&chain, "name: consumer"));
+    refused(
+        &o,
+        &[
+            &at,
+            "elements[50000]",
+            "the circuit has 50001 elements; ripline accepts at most 50000 elements",
+        ],
+    );
+    // 25,001 tubes that share no node name 50,002 nodes: tube 25,000
+    // (from 0) names nodes 50,001 and 50,002.
+    let mut apart = chain[..chain.find("\nelements:").unwrap()].to_string() + "\nelements:\n";
+    for i in 0..=MAX_NODES / 2 {
+        let from = if i == 0 {
+            "n0".to_string()
+        } else {
+            format!("a{i}")
+        };
+        apart += &format!(
+            "  - {{name: s{i}, kind: tube, from: {from}, to: b{i}, length: 1 m, bore: 16 mm, rigid: true}}\n"
+        );
+    }
+    write("apart.yaml", &apart);
+    let o = ripline_in(&dir, &["check", "apart.yaml"]);
+    let at = format!("apart.yaml:{}:", line_of(&apart, "name: s25000,"));
+    refused(
+        &o,
+        &[
+            &at,
+            "elements[25000]: with this element the circuit has 50002 nodes; ripline accepts at most 50000 nodes",
+        ],
+    );
+    // 1001 taps and 101 pumps on a short chain.
+    let short = ripline::generated::chain_circuit(3);
+    let mut taps = short.clone() + "taps:\n";
+    for i in 0..=MAX_TAPS {
+        taps += &format!("  - {{name: tap{i}, node: n1}}\n");
+    }
+    write("taps.yaml", &taps);
+    let o = ripline_in(&dir, &["check", "taps.yaml"]);
+    let at = format!("taps.yaml:{}:", line_of(&taps, "name: tap1000,"));
+    refused(&o, &[&at, "1001 taps; ripline accepts at most 1000 taps"]);
+    let pump_line = short.lines().find(|l| l.starts_with("pump:")).unwrap();
+    let mut pumps = short.replace(pump_line, "pumps:");
+    for i in 0..=MAX_PUMPS {
+        let one = pump_line.replacen("pump: {", &format!("  - {{name: p{i}, "), 1);
+        pumps = pumps.replacen("pumps:\n", &format!("pumps:\n{one}\n"), 1);
+    }
+    write("pumps.yaml", &pumps);
+    let o = ripline_in(&dir, &["check", "pumps.yaml"]);
+    let at = format!("pumps.yaml:{}:", line_of(&pumps, "name: p0,"));
+    refused(
+        &o,
+        &[
+            &at,
+            "pumps[100]",
+            "101 pumps; ripline accepts at most 100 pumps",
+        ],
+    );
+    // A response of 25 nodes at 200,000 frequencies: 5 million values.
+    write("b30.yaml", &ripline::generated::branched_circuit(30, 0));
+    let o = ripline_in(
+        &dir,
+        &[
+            "response", "b30.yaml", "--points", "200000", "--csv", "r.csv",
+        ],
+    );
+    refused(
+        &o,
+        &[
+            "b30.yaml: ",
+            "measurement points × 200000 frequencies",
+            "more than ripline's limit of 2000000",
+        ],
+    );
+    // A profile of 1000 lines over 90 m long at 2250 Hz: 4001 samples each.
+    let long = ripline::generated::chain_circuit(1000)
+        .replace("length: ", "length: 9")
+        .replace("{harmonic: 1,", "{harmonic: 10,");
+    write("long.yaml", &long);
+    let o = ripline_in(
+        &dir,
+        &["profile", "long.yaml", "--harmonic", "10", "--csv", "p.csv"],
+    );
+    refused(
+        &o,
+        &[
+            "long.yaml: ",
+            "samples 4001000 points",
+            "more than ripline's limit of 3000000",
+        ],
+    );
+    assert_eq!(
+        files_in(&dir),
+        [
+            "apart.yaml",
+            "b30.yaml",
+            "chain.yaml",
+            "long.yaml",
+            "pumps.yaml",
+            "taps.yaml"
+        ]
+    );
     std::fs::remove_dir_all(dir).unwrap();
 }

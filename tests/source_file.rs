@@ -4,6 +4,7 @@
 
 use ripline::C64;
 use ripline::analysis::ripple::harmonic_ripple;
+use ripline::estimate::fit::HarmonicStatus;
 use ripline::io::source_file::{PumpSource, SourceHarmonic, write_source_file};
 use ripline::network::Plan;
 
@@ -44,6 +45,7 @@ fn source_file_pump_matches_inline_pump() {
     let source = PumpSource {
         name: "test".into(),
         speed_rev_s: speed,
+        speed_uncertainty_rev_s: None,
         pumping_elements: z,
         harmonics: flows
             .iter()
@@ -56,6 +58,13 @@ fn source_file_pump_matches_inline_pump() {
                     impedance: C64::new(1.0 / r, omega * v / bulk).inv(),
                     flow_uncertainty: None,
                     impedance_uncertainty: None,
+                    // The third harmonic as a bench fit flags it.
+                    status: if k == 2 {
+                        HarmonicStatus::IllConditioned
+                    } else {
+                        HarmonicStatus::Estimated
+                    },
+                    note: (k == 2).then(|| "expected bias |Zs| +12 %".to_string()),
                 }
             })
             .collect(),
@@ -87,5 +96,15 @@ fn source_file_pump_matches_inline_pump() {
             );
         }
     }
+    // The flagged harmonic is used as written, with one warning that names
+    // it, its status and the fit's note.
+    let text = std::fs::read_to_string(&file_circuit).unwrap();
+    let notes = ripline::io::source_file_notes(&text, &file_circuit.display().to_string());
+    assert_eq!(notes.len(), 1, "{notes:?}");
+    let msg = notes[0].to_string();
+    assert!(
+        msg.contains("harmonic 3 is marked `ill_conditioned`") && msg.contains("+12 %"),
+        "{msg}"
+    );
     std::fs::remove_dir_all(dir).unwrap();
 }

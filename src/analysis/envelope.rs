@@ -348,21 +348,8 @@ pub fn assess(
                 continue; // cut off at this point: no ripple
             };
             for (ki, limit) in tap_limits.limits.iter().enumerate() {
-                let candidates: Vec<(WorstSpeed, Option<usize>)> = match limit.kind {
-                    LimitKind::Rms => vec![(swept.worst(tp).clone(), None)],
-                    LimitKind::PeakToPeak => vec![(
-                        worst_at_point(&plan, &shaft, &swept, tp, Measure::PeakToPeak)
-                            .map_err(at_point)?,
-                        None,
-                    )],
-                    LimitKind::Harmonic => (0..swept.orders.len())
-                        .map(|o| {
-                            worst_at_point(&plan, &shaft, &swept, tp, Measure::Order(o))
-                                .map(|w| (w, Some(o)))
-                        })
-                        .collect::<Result<_, _>>()
-                        .map_err(at_point)?,
-                };
+                let candidates =
+                    limited_worsts(&plan, &shaft, &swept, tp, limit.kind).map_err(at_point)?;
                 for (w, o) in candidates {
                     let slot = &mut limit_worst[li][ki];
                     if slot
@@ -444,6 +431,33 @@ pub fn assess(
     })
 }
 
+/// The true worst speeds of what a limit of `kind` bounds at point
+/// `tp` of a sweep: the overall rms, the peak-to-peak, or each harmonic
+/// (with its order index). `plan` and `shaft` must be the sweep's.
+///
+/// # Errors
+/// [`SweepError`] when a refinement solve fails.
+pub fn limited_worsts(
+    plan: &Plan<'_>,
+    shaft: &Shaft,
+    swept: &SweepResult,
+    tp: usize,
+    kind: LimitKind,
+) -> Result<Vec<(WorstSpeed, Option<usize>)>, SweepError> {
+    Ok(match kind {
+        LimitKind::Rms => vec![(swept.worst(tp).clone(), None)],
+        LimitKind::PeakToPeak => vec![(
+            worst_at_point(plan, shaft, swept, tp, Measure::PeakToPeak)?,
+            None,
+        )],
+        LimitKind::Harmonic => (0..swept.orders.len())
+            .map(|o| {
+                worst_at_point(plan, shaft, swept, tp, Measure::Order(o)).map(|w| (w, Some(o)))
+            })
+            .collect::<Result<_, _>>()?,
+    })
+}
+
 /// Adds warning `text` at the point `label` to `warnings`: to the warning
 /// that differs from it only in its numbers, if there is one.
 pub fn add_warning(warnings: &mut Vec<EnvelopeWarning>, text: String, label: &str) {
@@ -463,7 +477,7 @@ pub fn add_warning(warnings: &mut Vec<EnvelopeWarning>, text: String, label: &st
 
 /// A text with every digit replaced, to compare warnings whose numbers
 /// differ.
-fn without_numbers(text: &str) -> String {
+pub fn without_numbers(text: &str) -> String {
     text.chars()
         .map(|c| if c.is_ascii_digit() { '#' } else { c })
         .collect()

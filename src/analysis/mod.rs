@@ -29,5 +29,7 @@ pub mod search;
 pub mod silencer;
 pub mod sweep;
 pub mod tune;
+pub mod tune_limits;
+pub mod tune_rules;
 pub mod waveform;
 pub mod worst;

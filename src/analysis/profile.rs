@@ -117,9 +117,23 @@ pub fn sample_count(length_m: f64, gamma: C64) -> usize {
     }
 }
 
+/// The number of samples [`ripple_profile`] takes along all the circuit's
+/// tubes and hoses at `freq_hz` (at most [`MAX_POINTS`] a line), to check
+/// against [`crate::limits::MAX_PROFILE_SAMPLES`] before solving.
+pub fn sample_total(circuit: &Circuit, freq_hz: f64) -> usize {
+    let omega = 2.0 * std::f64::consts::PI * freq_hz;
+    circuit
+        .elements
+        .iter()
+        .filter_map(|e| e.kind.line())
+        .map(|line| sample_count(line.length_m, line.properties.propagation(omega).gamma))
+        .sum()
+}
+
 /// Shortest distance from `start` to every node along the circuit's
 /// two-ports: a tube or hose counts its length, any other two-port (orifice,
-/// inertance) zero (Dijkstra's algorithm; circuits are small).
+/// inertance) zero (Dijkstra's algorithm with a binary heap over adjacency
+/// lists: time in proportion to E log N).
 pub fn path_distances(circuit: &Circuit, start: NodeId) -> Vec<Option<f64>> {
     path_distances_from(circuit, &[start])
 }
@@ -128,31 +142,57 @@ pub fn path_distances(circuit: &Circuit, start: NodeId) -> Vec<Option<f64>> {
 /// [`path_distances`]; several pumps feed a circuit from several nodes).
 pub fn path_distances_from(circuit: &Circuit, starts: &[NodeId]) -> Vec<Option<f64>> {
     let n = circuit.nodes.len();
+    // adjacency in compressed form: (neighbour, step length)
+    let mut first = vec![0usize; n + 1];
+    for e in &circuit.elements {
+        if let Connection::Series { a, b } = e.connection {
+            first[a + 1] += 1;
+            first[b + 1] += 1;
+        }
+    }
+    for i in 0..n {
+        first[i + 1] += first[i];
+    }
+    let mut next = first.clone();
+    let mut adjacent = vec![(0 as NodeId, 0.0); first[n]];
+    for e in &circuit.elements {
+        if let Connection::Series { a, b } = e.connection {
+            let step = e.kind.line().map_or(0.0, |l| l.length_m);
+            adjacent[next[a]] = (b, step);
+            next[a] += 1;
+            adjacent[next[b]] = (a, step);
+            next[b] += 1;
+        }
+    }
+    /// A heap entry, nearest first, then lowest node.
+    #[derive(PartialEq)]
+    struct Reached(f64, NodeId);
+    impl Eq for Reached {}
+    impl PartialOrd for Reached {
+        fn partial_cmp(&self, other: &Self) -> Option<std::cmp::Ordering> {
+            Some(self.cmp(other))
+        }
+    }
+    impl Ord for Reached {
+        fn cmp(&self, other: &Self) -> std::cmp::Ordering {
+            other.0.total_cmp(&self.0).then(other.1.cmp(&self.1))
+        }
+    }
     let mut dist: Vec<Option<f64>> = vec![None; n];
     let mut done = vec![false; n];
+    let mut heap = std::collections::BinaryHeap::new();
     for &start in starts {
         dist[start] = Some(0.0);
+        heap.push(Reached(0.0, start));
     }
-    loop {
-        let next = (0..n)
-            .filter(|&i| !done[i])
-            .filter_map(|i| dist[i].map(|d| (i, d)))
-            .min_by(|a, b| a.1.total_cmp(&b.1));
-        let Some((node, d)) = next else { break };
-        done[node] = true;
-        for e in &circuit.elements {
-            if let Connection::Series { a, b } = e.connection {
-                let other = if a == node {
-                    b
-                } else if b == node {
-                    a
-                } else {
-                    continue;
-                };
-                let step = e.kind.line().map_or(0.0, |l| l.length_m);
-                if dist[other].is_none_or(|o| d + step < o) {
-                    dist[other] = Some(d + step);
-                }
+    while let Some(Reached(d, node)) = heap.pop() {
+        if std::mem::replace(&mut done[node], true) {
+            continue;
+        }
+        for &(other, step) in &adjacent[first[node]..first[node + 1]] {
+            if dist[other].is_none_or(|o| d + step < o) {
+                dist[other] = Some(d + step);
+                heap.push(Reached(d + step, other));
             }
         }
     }

@@ -144,33 +144,46 @@ pub fn frequency_response(
             values: Vec::with_capacity(freqs_hz.len()),
         })
         .collect();
-    let mut load_impedance = Vec::with_capacity(freqs_hz.len());
-    let mut ws = plan.workspace();
-    for (i, &f) in freqs_hz.iter().enumerate() {
-        let solution = solve_unit_nudged(plan, pump_index, f, &mut ws)?;
-        for point in &mut points {
-            let h = tap_pressure(circuit, &solution, point.location);
-            if !h.is_finite() {
+    // each frequency on its own (in parallel), collected in order
+    let columns = crate::parallel::ordered_map(
+        freqs_hz,
+        crate::parallel::pays(plan.unknowns(), freqs_hz.len()),
+        || plan.workspace(),
+        |ws, &f| {
+            let solution = solve_unit_nudged(plan, pump_index, f, ws)?;
+            let mut values = Vec::with_capacity(taps.len() + 1);
+            for tap in &taps {
+                let h = tap_pressure(circuit, &solution, tap.location);
+                if !h.is_finite() {
+                    return Err(ResponseError::NotFinite {
+                        what: format!("the response at `{}`", tap.name),
+                        freq_hz: f,
+                    });
+                }
+                values.push(h);
+            }
+            let p = solution.node_pressures[pump.node];
+            let ys = pump
+                .source_impedance
+                .admittance(2.0 * std::f64::consts::PI * f);
+            let z = p / (C64::new(1.0, 0.0) - ys * p);
+            if !z.is_finite() {
                 return Err(ResponseError::NotFinite {
-                    what: format!("the response at `{}`", point.name),
+                    what: format!("the impedance pump `{}` sees", pump.name),
                     freq_hz: f,
                 });
             }
+            values.push(z);
+            Ok(values)
+        },
+        progress,
+    )?;
+    let mut load_impedance = Vec::with_capacity(freqs_hz.len());
+    for column in columns {
+        for (point, &h) in points.iter_mut().zip(&column) {
             point.values.push(h);
         }
-        let p = solution.node_pressures[pump.node];
-        let ys = pump
-            .source_impedance
-            .admittance(2.0 * std::f64::consts::PI * f);
-        let z = p / (C64::new(1.0, 0.0) - ys * p);
-        if !z.is_finite() {
-            return Err(ResponseError::NotFinite {
-                what: format!("the impedance pump `{}` sees", pump.name),
-                freq_hz: f,
-            });
-        }
-        load_impedance.push(z);
-        progress(i + 1);
+        load_impedance.push(column[taps.len()]);
     }
     Ok(FrequencyResponse {
         pump: pump.name.clone(),
@@ -247,32 +260,50 @@ pub fn find_resonances(
     let circuit = plan.circuit();
     let f = &response.freqs_hz;
     let n = f.len();
-    let mut ws = plan.workspace();
-    let mut peaks: Vec<Peak> = Vec::new();
-    for (pi, point) in response.points.iter().enumerate() {
-        let mag: Vec<f64> = point.values.iter().map(|v| v.norm()).collect();
-        // |H| at a point, or +∞ at an undamped pole.
-        let mut eval = |freq: f64, ws: &mut Workspace| -> Result<f64, SolveError> {
-            match solve_unit(plan, pump_index, freq, ws) {
-                Ok(s) => Ok(tap_pressure(circuit, &s, point.location).norm()),
-                Err(SolveError::Singular { .. }) => Ok(f64::INFINITY),
-                Err(e) => Err(e),
-            }
-        };
+    let mags: Vec<Vec<f64>> = response
+        .points
+        .iter()
+        .map(|p| p.values.iter().map(|v| v.norm()).collect())
+        .collect();
+    // The grid peaks prominent enough to refine: (point, grid index, left
+    // and right valley).
+    let mut candidates: Vec<(usize, usize, usize, usize)> = Vec::new();
+    for (pi, mag) in mags.iter().enumerate() {
         for i in 1..n.saturating_sub(1) {
             if !(mag[i] > mag[i - 1] && mag[i] >= mag[i + 1]) {
                 continue;
             }
-            let (left_valley, left_min) = valley(&mag, i, -1);
-            let (right_valley, right_min) = valley(&mag, i, 1);
+            let (left_valley, left_min) = valley(mag, i, -1);
+            let (right_valley, right_min) = valley(mag, i, 1);
             let base = left_min.max(right_min);
             if base > 0.0 && 20.0 * (mag[i] / base).log10() < settings.min_prominence_db {
                 continue;
             }
+            candidates.push((pi, i, left_valley, right_valley));
+        }
+    }
+    // Each refinement is independent (its own solves), so they run in
+    // parallel and are collected in order: the same peaks on any number of
+    // threads. About 150 solves each.
+    let peaks = crate::parallel::ordered_map(
+        &candidates,
+        crate::parallel::pays(plan.unknowns(), 150 * candidates.len()),
+        || plan.workspace(),
+        |ws, &(pi, i, left_valley, right_valley)| {
+            let point = &response.points[pi];
+            let mag = &mags[pi];
+            // |H| at the point, or +∞ at an undamped pole.
+            let mut eval = |freq: f64, ws: &mut Workspace| -> Result<f64, SolveError> {
+                match solve_unit(plan, pump_index, freq, ws) {
+                    Ok(s) => Ok(tap_pressure(circuit, &s, point.location).norm()),
+                    Err(SolveError::Singular { .. }) => Ok(f64::INFINITY),
+                    Err(e) => Err(e),
+                }
+            };
             // Golden-section refinement between the grid neighbours.
             let mut failure = None;
             let (f0, top) = golden_section_max(
-                |x| match eval(x, &mut ws) {
+                |x| match eval(x, ws) {
                     Ok(v) => v,
                     Err(e) => {
                         failure = Some(e);
@@ -297,8 +328,8 @@ pub fn find_resonances(
                 None
             } else {
                 let target = level / std::f64::consts::SQRT_2;
-                let lower = half_power(&mut eval, &mut ws, f, &mag, i, left_valley, f0, target)?;
-                let upper = half_power(&mut eval, &mut ws, f, &mag, i, right_valley, f0, target)?;
+                let lower = half_power(&mut eval, ws, f, mag, i, left_valley, f0, target)?;
+                let upper = half_power(&mut eval, ws, f, mag, i, right_valley, f0, target)?;
                 match (lower, upper) {
                     (Some(a), Some(b)) => Some(f0 / (b - a)),
                     (Some(a), None) => Some(f0 / (2.0 * (f0 - a))),
@@ -307,15 +338,17 @@ pub fn find_resonances(
                 }
                 .filter(|q| q.is_finite() && *q > 0.0)
             };
-            peaks.push(Peak {
+            Ok(Peak {
                 point: pi,
                 freq_hz: f0,
                 level,
                 quality,
                 unbounded,
-            });
-        }
-    }
+            })
+        },
+        &mut |_| {},
+    )?;
+    let mut peaks = peaks;
     // Merge: the highest peaks first, so each resonance is reported where it
     // is highest.
     peaks.sort_by(|a, b| {

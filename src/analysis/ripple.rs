@@ -169,12 +169,22 @@ pub fn shaft_ripple(
             harmonics: Vec::with_capacity(orders.len()),
         })
         .collect();
+    // each order on its own (in parallel when the circuit is large),
+    // collected in order
+    let solved = crate::parallel::ordered_map(
+        &orders,
+        crate::parallel::pays(plan.unknowns(), orders.len()),
+        || OrderSolver::new(plan, shaft, harmonics),
+        |solver, &order| {
+            let freq_hz = solver.solve(order, speed_rev_s)?;
+            Ok((freq_hz, solver.pressures.clone(), solver.warning.take()))
+        },
+        &mut |_| {},
+    )?;
     let mut warnings = Vec::new();
-    let mut solver = OrderSolver::new(plan, shaft, harmonics);
-    for &order in &orders {
-        let freq_hz = solver.solve(order, speed_rev_s)?;
-        warnings.extend(solver.warning.take());
-        for (tap, &pressure) in taps.iter_mut().zip(&solver.pressures) {
+    for (&order, (freq_hz, pressures, warning)) in orders.iter().zip(solved) {
+        warnings.extend(warning);
+        for (tap, pressure) in taps.iter_mut().zip(pressures) {
             tap.harmonics.push(HarmonicPressure {
                 order,
                 freq_hz,

@@ -20,7 +20,7 @@
 //!   point, unlike TL.
 
 use crate::circuit::{Circuit, Node, Tap, TapLocation};
-use crate::elements::{Behaviour, Connection, Element, ElementKind, NodeId, Tube};
+use crate::elements::{Behaviour, Connection, Element, ElementKind, NodeId};
 use crate::line::Transfer2;
 use crate::network::{NetworkError, Plan, SolveError, Workspace};
 use num_complex::Complex64 as C64;
@@ -55,7 +55,7 @@ pub enum SilencerError {
     Repeated(String),
     /// No pipe to take a reference impedance from.
     #[error(
-        "no tube meets the {side} end of the chain (node `{node}`), so there is no reference pipe for the transmission loss: name one with --reference TUBE"
+        "no tube or hose meets the {side} end of the chain (node `{node}`), so there is no reference line for the transmission loss: name one with --reference LINE"
     )]
     NoReferencePipe {
         /// "upstream" or "downstream".
@@ -250,13 +250,13 @@ impl Chain {
         self.parts.iter().any(|&(j, _)| j == i)
     }
 
-    /// The reference pipes either side: a tube (not in the chain) at the
-    /// entrance, preferring the one that leads towards the first pump, and
-    /// a tube at the exit other than that one (the same one when the chain
-    /// sits at a single node met by one tube).
+    /// The reference lines either side: a tube or hose (not in the chain)
+    /// at the entrance, preferring the one that leads towards the first
+    /// pump, and one at the exit other than that one (the same one when the
+    /// chain sits at a single node met by one line).
     ///
     /// # Errors
-    /// [`SilencerError::NoReferencePipe`] when no tube meets an end.
+    /// [`SilencerError::NoReferencePipe`] when no tube or hose meets an end.
     pub fn reference_pipes(&self, circuit: &Circuit) -> Result<(usize, usize), SilencerError> {
         let tubes_at = |node: NodeId| -> Vec<usize> {
             circuit
@@ -265,7 +265,7 @@ impl Chain {
                 .enumerate()
                 .filter(|(i, e)| {
                     !self.contains(*i)
-                        && matches!(e.kind, ElementKind::Tube(_))
+                        && e.kind.line().is_some()
                         && matches!(e.connection, Connection::Series { a, b } if a == node || b == node)
                 })
                 .map(|(i, _)| i)
@@ -352,8 +352,9 @@ impl WithoutReference {
 }
 
 /// The circuit with the chain taken out: shunts removed, two-ports replaced
-/// as `reference` says (`pipe` is the tube whose properties a replacement
-/// pipe takes).
+/// as `reference` says (`pipe` is the tube or hose whose properties a
+/// replacement pipe takes: a hose is replaced by the same hose, its wall
+/// included).
 ///
 /// # Errors
 /// [`SilencerError`] when a two-port has no length for a pipe reference or
@@ -362,7 +363,7 @@ pub fn circuit_without(
     circuit: &Circuit,
     chain: &Chain,
     reference: WithoutReference,
-    pipe: Option<&Tube>,
+    pipe: Option<&ElementKind>,
 ) -> Result<Circuit, SilencerError> {
     let two_port = chain.has_two_port(circuit);
     let merge = two_port && reference == WithoutReference::ZeroLength;
@@ -411,6 +412,7 @@ pub fn circuit_without(
             match (&e.kind, e.connection) {
                 (_, Connection::Shunt { .. }) => {}
                 (ElementKind::Tube(t), _) => length += t.line.length_m,
+                (ElementKind::Hose(h), _) => length += h.line.length_m,
                 (ElementKind::ExpansionChamber(c), _) => {
                     length += c.tube.line.length_m + c.ports.map_or(0.0, |p| 2.0 * p.length_m)
                 }
@@ -418,11 +420,15 @@ pub fn circuit_without(
                 _ => return Err(SilencerError::NoLength(e.name.clone())),
             }
         }
-        let mut tube = *pipe.expect("a pipe reference needs the upstream pipe");
-        tube.line.length_m = length;
+        let mut kind = pipe
+            .expect("a pipe reference needs the upstream pipe")
+            .clone();
+        kind.line_mut()
+            .expect("the reference pipe is a tube or a hose")
+            .length_m = length;
         elements.push(Element {
             name: "reference pipe (in place of the silencer)".into(),
-            kind: ElementKind::Tube(tube),
+            kind,
             connection: Connection::Series {
                 a: node_map[chain.entrance],
                 b: node_map[chain.exit],

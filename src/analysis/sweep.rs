@@ -393,29 +393,35 @@ pub fn sweep(
         )?),
         None => None,
     };
-    for (si, &speed) in speeds.iter().enumerate() {
-        let amps = &mut phasors[si * np * no..(si + 1) * np * no];
-        let others = &mut other[si * np..(si + 1) * np];
-        at.with(speed, |solver| {
-            for (oi, &order) in orders.iter().enumerate() {
-                solver.solve(order, speed).map_err(at_speed(speed))?;
-                warnings.extend(solver.warning.take());
-                for (pi, p) in solver.pressures.iter().enumerate() {
-                    amps[pi * no + oi] = *p;
+    // each speed on its own (in parallel when it pays), collected in order
+    let per_speed = crate::parallel::ordered_map(
+        speeds,
+        crate::parallel::pays(plan.unknowns(), speeds.len() * no),
+        || AtSpeed::new(plan, shaft, settings.harmonics),
+        |at, &speed| {
+            at.with(speed, |solver| {
+                let mut amps = vec![C64::new(0.0, 0.0); np * no];
+                let mut found = Vec::new();
+                for (oi, &order) in orders.iter().enumerate() {
+                    solver.solve(order, speed).map_err(at_speed(speed))?;
+                    found.extend(solver.warning.take());
+                    for (pi, p) in solver.pressures.iter().enumerate() {
+                        amps[pi * no + oi] = *p;
+                    }
                 }
-            }
-            match &fixed_other {
-                Some(ms) => others.copy_from_slice(ms),
-                None => others.copy_from_slice(&other_shafts(
-                    solver.plan(),
-                    shaft,
-                    settings.harmonics,
-                    &mut warnings,
-                )?),
-            }
-            Ok(())
-        })?;
-        progress(si + 1);
+                let others = match &fixed_other {
+                    Some(ms) => ms.clone(),
+                    None => other_shafts(solver.plan(), shaft, settings.harmonics, &mut found)?,
+                };
+                Ok((amps, others, found))
+            })
+        },
+        progress,
+    )?;
+    for (si, (amps, others, found)) in per_speed.into_iter().enumerate() {
+        phasors[si * np * no..(si + 1) * np * no].copy_from_slice(&amps);
+        other[si * np..(si + 1) * np].copy_from_slice(&others);
+        warnings.extend(found);
     }
 
     let mut result = SweepResult {

@@ -37,6 +37,8 @@
 
 use super::ripple::{report_points, tap_pressure};
 use super::search::{golden_section_max, halton, nelder_mead_in_box};
+use super::tune_limits::{LimitGoal, Tightest, tightest_limit};
+use super::tune_rules::{RuleCheck, RuleContext, Rules};
 use super::worst::{Measure, SpeedGrid, WorstSettings, worst_speed};
 use crate::circuit::{Circuit, TapLocation};
 use crate::elements::ElementKind;
@@ -625,6 +627,21 @@ pub enum TuneError {
     /// The design as given cannot be evaluated.
     #[error("the circuit as given cannot be evaluated: {0}")]
     Baseline(String),
+    /// The smallest-silencer objective on a kind without that size.
+    #[error(
+        "a `{kind}` has no {size} to minimise (length: side branches and expansion chambers; volume: those, resonators and dampers)"
+    )]
+    NoSize {
+        /// The element's kind.
+        kind: &'static str,
+        /// The size asked for.
+        size: &'static str,
+    },
+    /// The smallest-silencer objective without limits.
+    #[error(
+        "the smallest-silencer objective needs limits: give the circuit file a `limits` section"
+    )]
+    NoLimits,
     /// No candidate in the bounds could be evaluated.
     #[error("no design within the bounds gives a valid circuit: {0}")]
     NothingValid(String),
@@ -696,6 +713,47 @@ pub struct Steepness {
     pub plus_10_percent_db: Option<f64>,
 }
 
+/// One design the search evaluated.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Design {
+    /// The varied parameters' values (SI), in the order of the bounds.
+    pub values: Vec<f64>,
+    /// Its objective in Pa; `None` when the design is not valid (not
+    /// physical, not solvable, or breaking a hard rule), and with the
+    /// smallest-silencer objective (which looks at the limits instead).
+    pub objective_pa: Option<f64>,
+    /// Smallest-silencer objective: its size (SI, see
+    /// [`super::tune_limits::SizeMeasure`]).
+    pub size: Option<f64>,
+    /// Smallest-silencer objective: its margin to the tightest limit, dB.
+    pub margin_db: Option<f64>,
+    /// Whether it keeps every practical rule.
+    pub keeps_rules: bool,
+    /// The search stage: `global` or `local`.
+    pub stage: &'static str,
+}
+
+/// Two parameters the objective cannot separate near the optimum (or one
+/// it hardly depends on), from the local sensitivity of the ripple at
+/// every condition: with J_i = ∂ln P/∂ln x_i over the conditions (central
+/// differences at ±10 %), columns nearly parallel (|cos| ≥ 0.995) mean the
+/// ripple follows only the combination x_first·x_second^exponent.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Degeneracy {
+    /// The first parameter.
+    pub first: Parameter,
+    /// The second (`None`: the ripple hardly depends on `first` at all,
+    /// |J| under 1 % of the largest).
+    pub second: Option<Parameter>,
+    /// cos of the angle between their sensitivity columns.
+    pub correlation: f64,
+    /// a in x_first·x_second^a, a = J_first·J_second/|J_first|².
+    pub exponent: f64,
+}
+
+/// Parallel columns: |cos| at least this.
+const DEGENERATE_COS: f64 = 0.995;
+
 /// The outcome of a search.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TuneResult {
@@ -711,6 +769,29 @@ pub struct TuneResult {
     pub steepness: Vec<Steepness>,
     /// Number of ripple evaluations made.
     pub evaluations: usize,
+    /// Every design evaluated, in order.
+    pub designs: Vec<Design>,
+    /// The practical rules applied to the best design.
+    pub rule_checks: Vec<RuleCheck>,
+    /// The practical rules' context (lowest operating pressure, mean flow).
+    pub rule_context: RuleContext,
+    /// Parameters the objective cannot separate near the optimum.
+    pub degeneracies: Vec<Degeneracy>,
+    /// Smallest-silencer objective: the best design's tightest limit
+    /// (`None` without that objective, or when no limited point has
+    /// ripple); a negative margin means no design in the bounds meets the
+    /// limits and this is the nearest.
+    pub tightest: Option<Tightest>,
+    /// The same for the design as in the file.
+    pub tightest_before: Option<Tightest>,
+}
+
+/// What one design scored in the search.
+struct Score {
+    cost: f64,
+    objective_pa: Option<f64>,
+    size: Option<f64>,
+    margin_db: Option<f64>,
 }
 
 impl TuneProblem<'_> {
@@ -749,25 +830,63 @@ impl TuneProblem<'_> {
             if !(b.low > 0.0 && b.high > b.low && b.high.is_finite()) {
                 return Err(TuneError::BadBounds(b.parameter.name()));
             }
-            let vessel = match &e.kind {
-                ElementKind::Damper(d) => Some(d),
-                ElementKind::InlineDamper(d) => Some(&d.vessel),
-                _ => None,
-            };
-            if let (Parameter::Precharge, Some(d)) = (b.parameter, vessel)
-                && b.high > d.operating_pa
+            if let (Parameter::Precharge, Some(lowest)) = (b.parameter, self.lowest_operating_pa())
+                && b.high > lowest
             {
                 return Err(TuneError::PrechargeAboveOperating {
                     high_bar: b.high / 1e5,
-                    operating_bar: d.operating_pa / 1e5,
+                    operating_bar: lowest / 1e5,
                 });
             }
         }
         Ok(())
     }
 
-    /// The element of `circuit` with the given parameter values (built with
-    /// that circuit's fluid).
+    /// The lowest operating pressure (absolute, Pa) of the element's gas
+    /// over the states evaluated (a damper only).
+    pub fn lowest_operating_pa(&self) -> Option<f64> {
+        let name = &self.circuit.elements[self.element].name;
+        self.states()
+            .into_iter()
+            .filter_map(|c| {
+                let i = c.element_id(name)?;
+                match &c.elements[i].kind {
+                    ElementKind::Damper(d) => Some(d.operating_pa),
+                    ElementKind::InlineDamper(d) => Some(d.vessel.operating_pa),
+                    _ => None,
+                }
+            })
+            .reduce(f64::min)
+    }
+
+    /// What the practical rules need: the lowest operating pressure and the
+    /// largest mean flow through the element over the states, scaled from
+    /// the pump's speed to the top of the speed range (a displacement
+    /// pump's mean flow follows its speed).
+    pub fn rule_context(&self) -> RuleContext {
+        let name = &self.circuit.elements[self.element].name;
+        let top = self.evaluator.speeds_rev_s.last().copied().unwrap_or(0.0);
+        let scale = if self.evaluator.pump.speed_rev_s > 0.0 {
+            (top / self.evaluator.pump.speed_rev_s).max(1.0)
+        } else {
+            1.0
+        };
+        let mean_flow_m3_s = self
+            .states()
+            .into_iter()
+            .filter_map(|c| {
+                let i = c.element_id(name)?;
+                crate::meanflow::mean_flows(c).element_flows_m3_s[i]
+            })
+            .map(f64::abs)
+            .fold(0.0, f64::max)
+            * scale;
+        RuleContext {
+            lowest_operating_pa: self.lowest_operating_pa(),
+            mean_flow_m3_s,
+        }
+    }
+
     /// The element with the given parameter values.
     fn element_with(&self, values: &[f64]) -> Result<ElementKind, String> {
         let mut kind = self.circuit.elements[self.element].kind.clone();
@@ -824,21 +943,44 @@ impl TuneProblem<'_> {
         Ok(RippleSummary::combine(self.evaluator.objective, parts))
     }
 
+    /// `state` with the element rebuilt from `values` (unchanged when a
+    /// load case cut the element off).
+    fn variant(&self, state: &Circuit, values: &[f64]) -> Result<Circuit, String> {
+        let name = &self.circuit.elements[self.element].name;
+        let mut circuit = state.clone();
+        if let Some(i) = state.element_id(name) {
+            let mut kind = state.elements[i].kind.clone();
+            for (b, &v) in self.bounds.iter().zip(values) {
+                kind = b.parameter.apply(&kind, v, &state.fluid)?;
+            }
+            circuit.elements[i].kind = kind;
+        }
+        Ok(circuit)
+    }
+
     /// The ripple with the element rebuilt from `values` (in every state
     /// that has it: a load case may cut the element off).
     fn evaluate_values(&self, values: &[f64]) -> Result<RippleSummary, String> {
-        let name = &self.circuit.elements[self.element].name;
-        self.evaluate_states(|state| {
-            let mut circuit = state.clone();
-            if let Some(i) = state.element_id(name) {
-                let mut kind = state.elements[i].kind.clone();
-                for (b, &v) in self.bounds.iter().zip(values) {
-                    kind = b.parameter.apply(&kind, v, &state.fluid)?;
-                }
-                circuit.elements[i].kind = kind;
-            }
-            Ok(circuit)
-        })
+        self.evaluate_states(|state| self.variant(state, values))
+    }
+
+    /// The tightest limit of the design `values` (`None`: as in the file)
+    /// over every state.
+    fn tightest(
+        &self,
+        values: Option<&[f64]>,
+        goal: &LimitGoal,
+    ) -> Result<Option<Tightest>, String> {
+        let circuits = self
+            .states()
+            .into_iter()
+            .map(|s| match values {
+                Some(v) => self.variant(s, v),
+                None => Ok(s.clone()),
+            })
+            .collect::<Result<Vec<_>, _>>()?;
+        let refs: Vec<&Circuit> = circuits.iter().collect();
+        tightest_limit(&refs, goal, &self.evaluator.speeds_rev_s)
     }
 
     fn values_at(&self, u: &[f64]) -> Vec<f64> {
@@ -860,26 +1002,141 @@ impl TuneProblem<'_> {
         settings: SearchSettings,
         progress: &mut dyn FnMut(usize),
     ) -> Result<TuneResult, TuneError> {
+        self.solve_with_rules(settings, &Rules::default(), progress)
+    }
+
+    /// Runs the search with practical rules: each design is checked against
+    /// them; with hard rules a design that breaks one counts as invalid,
+    /// otherwise the best design's checks are reported.
+    ///
+    /// # Errors
+    /// As [`Self::solve`].
+    pub fn solve_with_rules(
+        &self,
+        settings: SearchSettings,
+        rules: &Rules,
+        progress: &mut dyn FnMut(usize),
+    ) -> Result<TuneResult, TuneError> {
+        self.run(settings, rules, None, progress)
+    }
+
+    /// Searches for the smallest design that meets every limit of `goal`
+    /// over the states ([`super::tune_limits`]); the result's `tightest`
+    /// says how near the best design is to its tightest limit (negative
+    /// margin: no design in the bounds meets them).
+    ///
+    /// # Errors
+    /// As [`Self::solve`], and [`TuneError::NoSize`] / [`TuneError::NoLimits`].
+    pub fn solve_smallest(
+        &self,
+        settings: SearchSettings,
+        rules: &Rules,
+        goal: &LimitGoal,
+        progress: &mut dyn FnMut(usize),
+    ) -> Result<TuneResult, TuneError> {
+        if goal.limits.iter().all(|t| t.limits.is_empty()) {
+            return Err(TuneError::NoLimits);
+        }
+        let kind = &self.circuit.elements[self.element].kind;
+        if goal.size.of(kind).is_none() {
+            return Err(TuneError::NoSize {
+                kind: kind.name(),
+                size: goal.size.name(),
+            });
+        }
+        self.run(settings, rules, Some(goal), progress)
+    }
+
+    fn run(
+        &self,
+        settings: SearchSettings,
+        rules: &Rules,
+        goal: Option<&LimitGoal>,
+        progress: &mut dyn FnMut(usize),
+    ) -> Result<TuneResult, TuneError> {
         self.validate()?;
+        // sizes are scaled by the largest at the bounds' corners
+        let scale = goal.map_or(1.0, |g| {
+            let ends = [
+                self.bounds.iter().map(|b| b.low).collect::<Vec<_>>(),
+                self.bounds.iter().map(|b| b.high).collect(),
+            ];
+            ends.iter()
+                .filter_map(|v| self.element_with(v).ok())
+                .filter_map(|k| g.size.of(&k))
+                .fold(0.0, f64::max)
+                .max(f64::MIN_POSITIVE)
+        });
+        let score = |values: &[f64]| -> Result<Score, String> {
+            match goal {
+                None => self.evaluate_values(values).map(|s| Score {
+                    cost: s.objective_pa,
+                    objective_pa: Some(s.objective_pa),
+                    size: None,
+                    margin_db: None,
+                }),
+                Some(g) => {
+                    let kind = self.element_with(values)?;
+                    let size = g.size.of(&kind).unwrap_or(f64::INFINITY);
+                    let t = self.tightest(Some(values), g)?;
+                    Ok(Score {
+                        cost: super::tune_limits::cost(size, scale, t.as_ref()),
+                        objective_pa: None,
+                        size: Some(size),
+                        margin_db: t.map(|t| t.margin_db),
+                    })
+                }
+            }
+        };
         let before = self
             .evaluate_states(|state| Ok(state.clone()))
             .map_err(TuneError::Baseline)?;
         let dims = self.bounds.len();
-        let mut count = 0usize;
-        let mut last_error = String::new();
-        let mut cost = |u: &[f64]| -> f64 {
-            count += 1;
-            progress(count);
-            match self.evaluate_values(&self.values_at(u)) {
-                Ok(s) => s.objective_pa,
-                Err(e) => {
-                    last_error = e;
-                    f64::INFINITY
+        let context = self.rule_context();
+        // One design scored, with nothing shared changed: the global stage
+        // runs it in parallel, the local stage one at a time.
+        let design_at = |u: &[f64], stage: &'static str| -> (Design, f64, Option<String>) {
+            let values = self.values_at(u);
+            let keeps_rules = self
+                .element_with(&values)
+                .map(|k| rules.check(&k, &context).iter().all(|c| c.pass))
+                .unwrap_or(true);
+            let (scored, error) = if rules.hard && !keeps_rules {
+                (
+                    None,
+                    Some("every design tried breaks a practical rule".to_string()),
+                )
+            } else {
+                match score(&values) {
+                    Ok(s) => (Some(s), None),
+                    Err(e) => (None, Some(e)),
                 }
+            };
+            let cost = scored.as_ref().map_or(f64::INFINITY, |s| s.cost);
+            let design = Design {
+                values,
+                objective_pa: scored.as_ref().and_then(|s| s.objective_pa),
+                size: scored.as_ref().and_then(|s| s.size),
+                margin_db: scored.as_ref().and_then(|s| s.margin_db),
+                keeps_rules,
+                stage,
+            };
+            (design, cost, error)
+        };
+        let mut last_error = String::new();
+        let mut designs: Vec<Design> = Vec::new();
+        let mut costs: Vec<f64> = Vec::new();
+        let mut record = |(design, cost, error): (Design, f64, Option<String>)| -> f64 {
+            if let Some(e) = error {
+                last_error = e;
             }
+            designs.push(design);
+            costs.push(cost);
+            cost
         };
 
-        // Global stage.
+        // Global stage: every candidate compiled and solved on its own, in
+        // parallel, collected in order.
         let samples: Vec<Vec<f64>> = if dims == 1 {
             let n = settings.global_points.max(3);
             (0..n).map(|i| vec![i as f64 / (n - 1) as f64]).collect()
@@ -888,7 +1145,22 @@ impl TuneProblem<'_> {
                 .map(|i| halton(i, dims))
                 .collect()
         };
-        let values: Vec<f64> = samples.iter().map(|u| cost(u)).collect();
+        let evaluated = crate::parallel::ordered_map(
+            &samples,
+            true,
+            || (),
+            |_, u| Ok::<_, std::convert::Infallible>(design_at(u, "global")),
+            progress,
+        )
+        .unwrap_or_else(|never| match never {});
+        let mut count = samples.len();
+        let values: Vec<f64> = evaluated.into_iter().map(&mut record).collect();
+        let stage = "local";
+        let mut cost = |u: &[f64], stage: &'static str| -> f64 {
+            count += 1;
+            progress(count);
+            record(design_at(u, stage))
+        };
 
         // Starts for the local stage.
         let mut order: Vec<usize> = (0..samples.len())
@@ -913,7 +1185,7 @@ impl TuneProblem<'_> {
                 let a = samples[i.saturating_sub(1)][0];
                 let b = samples[(i + 1).min(n - 1)][0];
                 let (u, neg) = golden_section_max(
-                    |u| -cost(&[u]),
+                    |u| -cost(&[u], stage),
                     a,
                     b,
                     settings.local_evaluations.saturating_sub(2),
@@ -943,7 +1215,7 @@ impl TuneProblem<'_> {
             let step = (1.0 / (settings.global_points as f64).powf(1.0 / dims as f64)).min(0.2);
             for i in starts {
                 let (u, v) = nelder_mead_in_box(
-                    &mut cost,
+                    &mut |u: &[f64]| cost(u, stage),
                     &samples[i],
                     step,
                     1e-7,
@@ -957,28 +1229,62 @@ impl TuneProblem<'_> {
         let Some((u, _)) = best_u else {
             return Err(TuneError::NothingValid(last_error));
         };
-        let best = self.values_at(&u);
+        let mut best = self.values_at(&u);
+        // the limits objective: the best design evaluated (the search's
+        // last step may sit just across the edge of the region that meets
+        // the limits)
+        if goal.is_some()
+            && let Some(i) = (0..costs.len())
+                .filter(|&i| costs[i].is_finite())
+                .min_by(|&a, &b| costs[a].total_cmp(&costs[b]))
+        {
+            best = designs[i].values.clone();
+        }
+        let tightest = goal
+            .map(|g| self.tightest(Some(&best), g))
+            .transpose()
+            .map_err(TuneError::NothingValid)?
+            .flatten();
+        let tightest_before = goal
+            .map(|g| self.tightest(None, g))
+            .transpose()
+            .map_err(TuneError::Baseline)?
+            .flatten();
         let after = self
             .evaluate_values(&best)
             .map_err(TuneError::NothingValid)?;
         let element = self.element_with(&best).map_err(TuneError::NothingValid)?;
-        let steepness = (0..dims)
+        // each parameter 10 % off: the steepness, and the sensitivity of
+        // the ripple at every condition for the degeneracy check
+        let off: Vec<(Option<RippleSummary>, Option<RippleSummary>)> = (0..dims)
             .map(|i| {
-                let loss = |factor: f64| {
+                let at = |factor: f64| {
                     let mut v = best.clone();
                     v[i] *= factor;
-                    self.evaluate_values(&v)
-                        .ok()
-                        .map(|s| 20.0 * (s.objective_pa / after.objective_pa).log10())
-                        .filter(|db| db.is_finite())
+                    self.evaluate_values(&v).ok()
                 };
-                Steepness {
-                    parameter: self.bounds[i].parameter,
-                    minus_10_percent_db: loss(0.9),
-                    plus_10_percent_db: loss(1.1),
-                }
+                (at(0.9), at(1.1))
             })
             .collect();
+        let loss = |s: &Option<RippleSummary>| {
+            s.as_ref()
+                .map(|s| 20.0 * (s.objective_pa / after.objective_pa).log10())
+                .filter(|db| db.is_finite())
+        };
+        let steepness = off
+            .iter()
+            .enumerate()
+            .map(|(i, (minus, plus))| Steepness {
+                parameter: self.bounds[i].parameter,
+                minus_10_percent_db: loss(minus),
+                plus_10_percent_db: loss(plus),
+            })
+            .collect();
+        let degeneracies = degeneracies(
+            &self.bounds.iter().map(|b| b.parameter).collect::<Vec<_>>(),
+            &off,
+        );
+        let rule_checks = rules.check(&element, &context);
         Ok(TuneResult {
             best,
             element,
@@ -986,13 +1292,130 @@ impl TuneProblem<'_> {
             after,
             steepness,
             evaluations: count,
+            designs,
+            rule_checks,
+            rule_context: context,
+            degeneracies,
+            tightest,
+            tightest_before,
         })
     }
+}
+
+/// The sensitivity columns J_i = ∂ln P/∂ln x_i at every condition, by
+/// central differences between 0.9 and 1.1 × the best value, and the pairs
+/// (or single parameters) the ripple cannot separate ([`Degeneracy`]).
+/// Conditions without ripple on either side are left out.
+fn degeneracies(
+    parameters: &[Parameter],
+    off: &[(Option<RippleSummary>, Option<RippleSummary>)],
+) -> Vec<Degeneracy> {
+    if parameters.len() < 2 {
+        return Vec::new();
+    }
+    let step = (1.1f64 / 0.9).ln();
+    let columns: Vec<Option<Vec<f64>>> = off
+        .iter()
+        .map(|pair| match pair {
+            (Some(m), Some(p)) => Some(
+                m.per_condition_pa
+                    .iter()
+                    .zip(&p.per_condition_pa)
+                    .map(|(&a, &b)| {
+                        if a > 0.0 && b > 0.0 {
+                            (b / a).ln() / step
+                        } else {
+                            0.0
+                        }
+                    })
+                    .collect(),
+            ),
+            _ => None,
+        })
+        .collect();
+    let norm = |v: &[f64]| v.iter().map(|x| x * x).sum::<f64>().sqrt();
+    let largest = columns
+        .iter()
+        .flatten()
+        .map(|c| norm(c))
+        .fold(0.0, f64::max);
+    if largest <= 0.0 {
+        return Vec::new();
+    }
+    let mut out = Vec::new();
+    for (i, ci) in columns.iter().enumerate() {
+        let Some(ci) = ci else { continue };
+        let ni = norm(ci);
+        if ni < 0.01 * largest {
+            out.push(Degeneracy {
+                first: parameters[i],
+                second: None,
+                correlation: 0.0,
+                exponent: 0.0,
+            });
+            continue;
+        }
+        for (j, cj) in columns.iter().enumerate().skip(i + 1) {
+            let Some(cj) = cj else { continue };
+            let nj = norm(cj);
+            if nj < 0.01 * largest {
+                continue;
+            }
+            let dot: f64 = ci.iter().zip(cj).map(|(a, b)| a * b).sum();
+            let cos = dot / (ni * nj);
+            if cos.abs() >= DEGENERATE_COS {
+                out.push(Degeneracy {
+                    first: parameters[i],
+                    second: Some(parameters[j]),
+                    correlation: cos,
+                    exponent: dot / (ni * ni),
+                });
+            }
+        }
+    }
+    out
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    fn summary(per_condition_pa: Vec<f64>) -> Option<RippleSummary> {
+        Some(RippleSummary {
+            objective_pa: per_condition_pa.iter().copied().fold(0.0, f64::max),
+            per_condition_pa,
+            worst: None,
+        })
+    }
+
+    #[test]
+    fn a_product_of_two_parameters_is_degenerate_and_an_unused_one_named() {
+        // P = (a·b)^-2 at three conditions of different weights; c unused
+        let p = |a: f64, b: f64, k: f64| k * (a * b).powi(-2);
+        let at = |a: f64, b: f64| summary(vec![p(a, b, 1.0), p(a, b, 2.0), p(a, b, 3.0)]);
+        let off = vec![
+            (at(0.9, 1.0), at(1.1, 1.0)),
+            (at(1.0, 0.9), at(1.0, 1.1)),
+            (at(1.0, 1.0), at(1.0, 1.0)),
+        ];
+        let d = degeneracies(
+            &[
+                Parameter::GasVolume,
+                Parameter::Precharge,
+                Parameter::NeckLength,
+            ],
+            &off,
+        );
+        assert_eq!(d.len(), 2, "{d:?}");
+        assert_eq!(d[0].second, Some(Parameter::Precharge));
+        assert!((d[0].correlation - 1.0).abs() < 1e-12);
+        assert!((d[0].exponent - 1.0).abs() < 1e-12);
+        assert_eq!((d[1].first, d[1].second), (Parameter::NeckLength, None));
+        // independent parameters (different shapes over the conditions)
+        let q = |a: f64, b: f64| summary(vec![a, b, a * b]);
+        let off = vec![(q(0.9, 1.0), q(1.1, 1.0)), (q(1.0, 0.9), q(1.0, 1.1))];
+        assert!(degeneracies(&[Parameter::GasVolume, Parameter::NeckLength], &off).is_empty());
+    }
 
     #[test]
     fn parameter_names_round_trip() {

@@ -26,7 +26,8 @@
 //! says so.
 //!
 //! **Weights estimated from the data.** A record's uncertainties are Type A
-//! estimates s² with ν_s = 2(S − 1) degrees of freedom (S segments), so a
+//! estimates s² with ν_s degrees of freedom (two per residual periodogram bin
+//! averaged), so a
 //! weighted part r/s is Student-t distributed, not normal: each squared
 //! part has mean a = ν_s/(ν_s − 2) (E[σ²/s²] for s² ~ σ²χ²(ν_s)/ν_s) and
 //! variance 2ν_s²(ν_s − 1)/((ν_s − 2)²(ν_s − 4)) (that of F(1, ν_s)), or,

@@ -4,7 +4,7 @@
 //! harmonics extracted as `fit` extracts them (`estimate::extract`): the
 //! shaft fundamental is refined from the record within the speed tolerance,
 //! the phasors of its orders fitted by least squares, their standard
-//! uncertainty taken from the spread over segments (GUM Type A). A spectra
+//! uncertainty taken from the residual's level near each line (GUM Type A). A spectra
 //! file gives the phasors (and uncertainties, where it has `_u` columns)
 //! directly. The prediction solves the circuit at the run's envelope point
 //! and at the measured speed, with the phases against the same shaft-angle
@@ -47,9 +47,9 @@ pub struct MeasuredRun {
     /// The compared orders, in increasing order.
     pub harmonics: Vec<MeasuredHarmonic>,
     /// Degrees of freedom of the uncertainties when they are estimated
-    /// from the data (Type A over S segments: the real and imaginary parts
-    /// each give S − 1, so 2(S − 1)); `None` when a spectra file states
-    /// them.
+    /// from the data (Type A from the residual's periodogram near each
+    /// line: two per bin averaged, see `noise_dof`); `None` when a spectra
+    /// file states them.
     pub uncertainty_dof: Option<f64>,
 }
 
@@ -114,6 +114,7 @@ fn read_run(
             sample_rate_hz,
             time_column,
             columns,
+            ..
         } => {
             let record: TimeRecord = read_time_record(
                 path,
@@ -127,7 +128,8 @@ fn read_run(
                     EstimateError::Data { file, message } => file_err(&file, message),
                     other => file_err(&record.file, other.to_string()),
                 })?;
-            (spectra.0, spectra.1, Some(2.0 * (segments() as f64 - 1.0)))
+            let dof = noise_dof(&record, spectra.0);
+            (spectra.0, spectra.1, Some(dof))
         }
         DataFile::Spectra {
             path,
@@ -195,9 +197,16 @@ fn order_list(orders: &[u32]) -> String {
         .join(", ")
 }
 
-/// Segments of a record's extraction (as `fit`'s default).
-fn segments() -> usize {
-    crate::estimate::bench::Extraction::default().segments
+/// Degrees of freedom of a phasor's Type A uncertainty from the
+/// whole-record fit `fit` uses: its noise level is the mean of the
+/// residual's periodogram over the bins within ±f/2 of the line (at least 8
+/// each side; `estimate::lines::local_noise`), each bin a χ² with 2 degrees
+/// of freedom (real and imaginary parts), less the five bins left out about
+/// the line.
+fn noise_dof(record: &TimeRecord, fundamental_hz: f64) -> f64 {
+    let n = record.channels.first().map_or(0, Vec::len) as f64;
+    let bins = (fundamental_hz * n / record.sample_rate_hz).floor() - 5.0;
+    2.0 * bins.max(16.0)
 }
 
 /// The fundamental (refined) and the phasors of harmonics 1..=`top` of a
@@ -210,11 +219,11 @@ fn extract_record(
     observer: &mut dyn Observer,
 ) -> Result<(f64, Vec<extract::Phasors>), EstimateError> {
     let request = ExtractRequest {
-        pump_fundamental_hz: nominal_hz,
+        pump: extract::PumpFrequency::Search { nominal_hz },
         harmonics: top,
         secondary_fundamental_hz: None,
-        segments: segments(),
         speed_tolerance,
+        origin: None,
     };
     let spectra = extract::extract(record, &request, observer)?;
     Ok((spectra.pump_fundamental_hz, spectra.pump))

@@ -19,10 +19,19 @@ pub struct LoadedCircuit {
 /// Loads FILE, or the built-in demo when none is given.
 pub fn load_circuit(file: Option<&Path>) -> anyhow::Result<LoadedCircuit> {
     match file {
-        Some(path) => Ok(LoadedCircuit {
-            circuit: ripline::io::load_circuit(path)?,
-            source: path.display().to_string(),
-        }),
+        Some(path) => {
+            let circuit = ripline::io::load_circuit(path)?;
+            // Harmonics of pump source files that a bench fit flagged.
+            if let Ok(text) = ripline::io::read_text(path) {
+                for w in ripline::io::source_file_notes(&text, &path.display().to_string()) {
+                    eprintln!("warning: {w}");
+                }
+            }
+            Ok(LoadedCircuit {
+                circuit,
+                source: path.display().to_string(),
+            })
+        }
         None => Ok(LoadedCircuit {
             circuit: ripline::io::parse_circuit(demo::DEMO_CIRCUIT, demo::DEMO_NAME)?,
             source: demo::DEMO_NAME.to_string(),

@@ -10,6 +10,7 @@ use ripline::plot;
 use ripline::render::fit as render;
 use ripline::results::Origin;
 use ripline::results::fit::fit;
+use ripline::results::fit_check::self_check as run_self_check;
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 
@@ -38,6 +39,16 @@ pub struct FitArgs {
     /// Write the result as JSON (schema in docs/json.md).
     #[arg(long, value_name = "FILE")]
     json: Option<PathBuf>,
+    /// Include ill-conditioned, extrapolated and unstable harmonics in the
+    /// overall levels.
+    #[arg(long)]
+    include_flagged: bool,
+    /// Instead of fitting the records: fit N sets of synthetic data made
+    /// from the bench file's `synthesis` section at its noise (seeds from
+    /// --seed on) and report per harmonic the bias, the spread over the
+    /// reported uncertainty and the coverage (--csv and --json write that).
+    #[arg(long, value_name = "N", conflicts_with_all = ["source_out", "plot"])]
+    self_check: Option<usize>,
 }
 
 /// Most Monte Carlo draws: the relative standard error of a standard
@@ -45,6 +56,10 @@ pub struct FitArgs {
 /// this M, far below what the uncertainties are needed to; each draw costs
 /// about a millisecond.
 pub const MAX_DRAWS: usize = 20_000;
+
+/// Most seeds × Monte Carlo draws a self-check may run (each draw is a
+/// fit's worth of work: about a millisecond).
+pub const MAX_SELF_CHECK_WORK: usize = 1_000_000;
 
 /// A progress bar on standard error when it is a terminal; silent otherwise.
 struct Progress(Option<ProgressBar>);
@@ -103,6 +118,15 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
         }
         None => Origin::File,
     };
+    let options = FitOptions {
+        draws: args.draws,
+        seed: args.seed,
+        include_flagged: args.include_flagged,
+    };
+    let file = args.file.display().to_string();
+    if let Some(seeds) = args.self_check {
+        return self_check(&bench, &file, seeds, options, harmonics_origin, csv, json);
+    }
     let records: Vec<&Path> = bench.conditions.iter().map(|c| c.data.path()).collect();
     let mut outputs = Outputs(common::plan_outputs(
         &records,
@@ -115,19 +139,7 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
         false,
     )?);
     let mut progress = Progress(None);
-    let mut data = Vec::with_capacity(bench.conditions.len());
-    for cond in &bench.conditions {
-        data.push(ripline::io::records::load_condition(
-            &bench,
-            cond,
-            &mut progress,
-        )?);
-    }
-    let options = FitOptions {
-        draws: args.draws,
-        seed: args.seed,
-    };
-    let file = args.file.display().to_string();
+    let data = ripline::io::records::load_conditions(&bench, &mut progress)?;
     let result = fit(
         &bench,
         &data,
@@ -147,8 +159,13 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
             &result.pump_source(),
             &mut bytes,
             &format!(
-                "estimated by ripline fit from {file} ({} method); uncertainties are standard uncertainties of the amplitudes",
-                result.method
+                "estimated by ripline fit from {file} ({} method); uncertainties are standard uncertainties of the amplitudes{}",
+                result.method,
+                result
+                    .equivalent
+                    .as_ref()
+                    .map(|e| format!("\n{}", render::equivalent_text(e)))
+                    .unwrap_or_default()
             ),
         )?;
         outputs.bytes(path, &bytes)?;
@@ -157,4 +174,49 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
         plot::stacked_line_charts(tmp, &render::charts(&result))
     })?;
     outputs.finish(json.as_deref(), "fit", &result, render::text)
+}
+
+/// `fit --self-check N`: the bench's synthetic data over N seeds.
+fn self_check(
+    bench: &ripline::estimate::bench::Bench,
+    file: &str,
+    seeds: usize,
+    options: FitOptions,
+    harmonics_origin: Origin,
+    csv: Option<PathBuf>,
+    json: Option<PathBuf>,
+) -> anyhow::Result<()> {
+    use ripline::estimate::selfcheck::MAX_SEEDS;
+    if !(1..=MAX_SEEDS).contains(&seeds) {
+        return Err(UsageError(format!(
+            "--self-check must be between 1 and {MAX_SEEDS} seeds, found {seeds}"
+        ))
+        .into());
+    }
+    let work = seeds * options.draws.max(1);
+    if work > MAX_SELF_CHECK_WORK {
+        return Err(UsageError(format!(
+            "--self-check {seeds} with --draws {} is {work} fits' worth of Monte Carlo draws; at most {MAX_SELF_CHECK_WORK} (lower one of them)",
+            options.draws
+        ))
+        .into());
+    }
+    let mut outputs = Outputs(common::plan_outputs(
+        &[Path::new(file)],
+        &[("--csv", csv.as_deref()), ("--json", json.as_deref())],
+        false,
+    )?);
+    let mut progress = Progress(None);
+    let result = run_self_check(bench, file, seeds, options, harmonics_origin, &mut progress);
+    progress.finish();
+    let result = result?;
+    outputs.csv_to(csv.as_deref(), |buf| {
+        ripline::render::fit_check::csv(&result, buf)
+    })?;
+    outputs.finish(
+        json.as_deref(),
+        "fit --self-check",
+        &result,
+        ripline::render::fit_check::text,
+    )
 }

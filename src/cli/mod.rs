@@ -16,6 +16,7 @@ mod envelope;
 mod fit;
 mod profile;
 mod ranges;
+mod report;
 mod response;
 mod silencer;
 mod solve;
@@ -33,6 +34,10 @@ use std::process::ExitCode;
 struct Cli {
     #[command(subcommand)]
     command: Command,
+    /// Worker threads for the frequency, speed and design loops (default:
+    /// all cores, or RAYON_NUM_THREADS); results are the same for any number
+    #[arg(long, global = true, value_name = "N", value_parser = clap::value_parser!(u16).range(1..=1024))]
+    threads: Option<u16>,
 }
 
 #[derive(Debug, Subcommand)]
@@ -67,6 +72,10 @@ enum Command {
     /// The circuit over its operating envelope: each limit's verdict
     /// (exit code 3 when one is exceeded) and the findings ranked by level.
     Assess(assess::AssessArgs),
+    /// One self-contained HTML report of a circuit: the verdict against its
+    /// limits, the schematic, inputs, worst ripple, resonances, silencers,
+    /// warnings and cautions (exit code 3 when a limit is exceeded).
+    Report(report::ReportArgs),
 }
 
 /// Exit code for invalid input or usage.
@@ -89,6 +98,13 @@ pub fn main() -> ExitCode {
             };
         }
     };
+    if let Some(n) = cli.threads {
+        // The first and only pool of the process; if a pool exists already
+        // (it cannot here), its size stands.
+        let _ = rayon::ThreadPoolBuilder::new()
+            .num_threads(usize::from(n))
+            .build_global();
+    }
     common::remove_outputs_on_signal();
     let result = match cli.command {
         Command::Solve(args) => solve::run(args),
@@ -101,6 +117,7 @@ pub fn main() -> ExitCode {
         Command::Tune(args) => tune::run(args),
         Command::Sweep(args) => sweep::run(args),
         Command::Assess(args) => assess::run(args),
+        Command::Report(args) => report::run(args),
         Command::Compare(args) => compare::run(args),
         Command::Calibrate(args) => calibrate::run(args),
     };

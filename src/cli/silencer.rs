@@ -8,7 +8,6 @@ use super::envelope::{self, PointArgs};
 use super::ranges::{self, Progress};
 use clap::{Args, ValueEnum};
 use ripline::analysis::silencer::WithoutReference;
-use ripline::elements::ElementKind;
 use ripline::plot;
 use ripline::render::silencer as render;
 use ripline::results::silencer::{SilencerRequest, SilencerResult, silencer};
@@ -44,9 +43,10 @@ pub struct SilencerArgs {
     /// are simply removed).
     #[arg(long, value_enum, default_value = "pipe")]
     without: Without,
-    /// The tube whose characteristic impedance is the reference on both sides
-    /// for the transmission loss (default: the pipes met at each end).
-    #[arg(long, value_name = "TUBE")]
+    /// The tube or hose whose characteristic impedance is the reference on
+    /// both sides for the transmission loss (default: the lines met at each
+    /// end).
+    #[arg(long, value_name = "LINE")]
     reference: Option<String>,
     /// Write TL and IL versus frequency as CSV
     /// (frequency_hz,transmission_loss_db,insertion_loss_db).
@@ -130,10 +130,11 @@ fn request(args: &SilencerArgs, circuit: &ripline::Circuit) -> anyhow::Result<Si
     let reference_tube = match &args.reference {
         Some(name) => {
             let i = ranges::element(circuit, name)?;
-            if !matches!(circuit.elements[i].kind, ElementKind::Tube(_)) {
-                return Err(
-                    UsageError(format!("--reference {name}: `{name}` is not a tube")).into(),
-                );
+            if circuit.elements[i].kind.line().is_none() {
+                return Err(UsageError(format!(
+                    "--reference {name}: `{name}` is not a tube or a hose"
+                ))
+                .into());
             }
             Some(i)
         }

@@ -5,9 +5,8 @@ use super::common::{self, UsageError};
 use anyhow::Context;
 use clap::Args;
 use ripline::estimate::bench::{DataFile, Synthesis};
-use ripline::estimate::extract::Phasors;
 use ripline::estimate::rng::Rng;
-use ripline::estimate::synth;
+use ripline::estimate::synth::{self, SyntheticData};
 use ripline::io::InputError;
 use ripline::io::locate::KeyPath;
 use ripline::io::records::{write_spectra, write_time_record};
@@ -89,82 +88,50 @@ pub fn run(args: SynthArgs) -> anyhow::Result<()> {
     let mut rng = Rng::new(syn.seed);
     let mut written = Vec::new();
     let comment = format!(
-        "synthetic record written by ripline synth from {} (an invented scenario)\nnoise {} of the rms ripple, seed {}, speed error {}",
+        "synthetic record written by ripline synth from {}\nnoise {} of the rms ripple, seed {}, speed error {}",
         args.file.display(),
         syn.noise,
         syn.seed,
         syn.speed_error
     );
     for (cond, target) in bench.conditions.iter().zip(&targets) {
-        let lines = synth::condition_lines(&bench, &syn, cond)
+        let data = synth::condition_data(&bench, &syn, cond, &mut rng)
             .map_err(|e| UsageError(format!("{}: {e}", args.file.display())))?;
         let mut bytes = Vec::new();
-        match &cond.data {
-            DataFile::TimeSeries {
-                unit_pa,
-                sample_rate_hz,
-                time_column,
-                columns,
-                ..
-            } => {
-                let fs = sample_rate_hz.or(syn.sample_rate_hz).ok_or_else(|| {
-                    UsageError(format!(
-                        "{}: condition `{}` states no sample rate: give `synthesis.sample_rate`",
-                        args.file.display(),
-                        cond.name
-                    ))
-                })?;
-                let channels = synth::time_series(
-                    &lines,
-                    bench.transducers.len(),
-                    fs,
-                    syn.duration_s,
-                    syn.mean_pressure_pa,
-                    syn.noise,
-                    &mut rng,
-                );
-                let exact = syn.noise == 0.0;
+        match (&cond.data, data) {
+            (
+                DataFile::TimeSeries {
+                    unit_pa,
+                    time_column,
+                    tacho_column,
+                    columns,
+                    ..
+                },
+                SyntheticData::TimeSeries {
+                    sample_rate_hz,
+                    channels,
+                    tacho,
+                },
+            ) => {
                 write_time_record(
                     &mut bytes,
                     &comment,
                     time_column.as_deref(),
                     columns,
                     &channels,
-                    fs,
+                    sample_rate_hz,
                     *unit_pa,
-                    exact,
+                    syn.noise == 0.0,
+                    tacho_column.as_deref().zip(tacho.as_deref()),
                 )?;
             }
-            DataFile::Spectra {
-                unit_pa, columns, ..
-            } => {
-                // Noise on the phasors: circular Gaussian, E|δP|² = (noise·|P|)².
-                let phasors: Vec<Phasors> = lines
-                    .iter()
-                    .map(|l| Phasors {
-                        order: l.order,
-                        freq_hz: l.freq_hz,
-                        pressures: l
-                            .pressures
-                            .iter()
-                            .map(|p| p + rng.complex_normal() * (syn.noise * p.norm()))
-                            .collect(),
-                        uncertainty: l
-                            .pressures
-                            .iter()
-                            .map(|p| Some(syn.noise * p.norm()))
-                            .collect(),
-                    })
-                    .filter(|p| match cond.kind {
-                        ripline::estimate::bench::ConditionKind::Pump => true,
-                        _ => !lines
-                            .iter()
-                            .take(bench.harmonics as usize)
-                            .any(|h| h.order == p.order && h.freq_hz == p.freq_hz),
-                    })
-                    .collect();
-                write_spectra(&mut bytes, &comment, columns, &phasors, *unit_pa)?;
-            }
+            (
+                DataFile::Spectra {
+                    unit_pa, columns, ..
+                },
+                SyntheticData::Spectra(phasors),
+            ) => write_spectra(&mut bytes, &comment, columns, &phasors, *unit_pa)?,
+            _ => unreachable!("synth::condition_data follows the condition's data file"),
         }
         outputs
             .stage_bytes(target, &bytes)

@@ -7,6 +7,8 @@ use super::ranges::{self, Progress};
 use anyhow::Context;
 use clap::{Args, ValueEnum};
 use ripline::analysis::tune::{Bound, Objective, Parameter};
+use ripline::analysis::tune_limits::{LimitGoal, SizeMeasure};
+use ripline::analysis::tune_rules::Rules;
 use ripline::io::gas_pressure::parse_gas_pressure;
 use ripline::plot;
 use ripline::render::tune as render;
@@ -21,6 +23,17 @@ enum ObjectiveArg {
     Worst,
     /// The rms over the speeds of the overall rms ripple.
     Rms,
+    /// The smallest silencer (see --size) meeting every limit of the file's
+    /// `limits` section.
+    Smallest,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum SizeArg {
+    /// Bore area × length, cavity or gas volume.
+    Volume,
+    /// Length of a side branch or chamber.
+    Length,
 }
 
 #[derive(Debug, Args)]
@@ -42,6 +55,9 @@ pub struct TuneArgs {
     /// How the ripple over the speeds becomes one number.
     #[arg(long, value_enum, default_value = "worst")]
     objective: ObjectiveArg,
+    /// What `--objective smallest` minimises.
+    #[arg(long, value_enum, default_value = "volume")]
+    size: SizeArg,
     /// The pump (or a shaft: its first pump); default: the first pump.
     #[arg(long, value_name = "NAME")]
     pump: Option<String>,
@@ -76,6 +92,29 @@ pub struct TuneArgs {
         alias = "temperature-steps"
     )]
     temperature_points: usize,
+    /// Evaluate the ripple at every point of the file's `envelope` (mean
+    /// pressures, oil temperatures, load cases), each at every speed.
+    #[arg(long, conflicts_with = "temperatures")]
+    envelope: bool,
+    /// Allowed band of a damper's precharge as a fraction of the lowest
+    /// operating pressure it meets (absolute pressures; common practice
+    /// 0.6..0.9).
+    #[arg(long, value_name = "LOW..HIGH", default_value = "0.6..0.9")]
+    precharge_band: String,
+    /// Largest gas volume of a damper or cavity of a resonator, e.g. `1L`.
+    #[arg(long, value_name = "VOLUME")]
+    max_volume: Option<String>,
+    /// Largest length of a side branch or expansion chamber, e.g. `1.2m`.
+    #[arg(long, value_name = "LENGTH")]
+    max_length: Option<String>,
+    /// Largest mean-flow velocity in an in-line silencer's neck or ports at
+    /// the top speed, in m/s (default 6).
+    #[arg(long, value_name = "M/S")]
+    max_neck_velocity: Option<String>,
+    /// Make the practical rules hard: designs breaking one are not
+    /// considered (default: flagged only).
+    #[arg(long)]
+    hard_rules: bool,
     /// Reference pressure for levels in dB (rms), e.g. "1 bar" (default 1 Pa).
     #[arg(long, value_name = "PRESSURE")]
     db_ref: Option<String>,
@@ -87,6 +126,16 @@ pub struct TuneArgs {
     /// Plot the overall ripple against speed for the three designs (.svg or .png).
     #[arg(long, value_name = "FILE")]
     plot: Option<PathBuf>,
+    /// Write every evaluated design with its objective as CSV
+    /// (evaluation,stage,objective_pa,objective_db,keeps_rules, then the
+    /// parameters in SI).
+    #[arg(long, value_name = "FILE")]
+    designs_csv: Option<PathBuf>,
+    /// Plot the objective over the parameters (one: a curve; two or three:
+    /// a map of the first two) with the optimum and the rules' bounds
+    /// (.svg or .png).
+    #[arg(long, value_name = "FILE")]
+    designs_plot: Option<PathBuf>,
     /// Write the result as JSON (schema in docs/json.md).
     #[arg(long, value_name = "FILE")]
     json: Option<PathBuf>,
@@ -138,7 +187,14 @@ fn parse_vary(text: &str) -> anyhow::Result<Bound> {
 pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     let (csv, plot) = common::csv_and_plot_paths(args.csv.as_deref(), args.plot.as_deref())?;
     let json = common::json_path(args.json.as_deref())?;
+    let designs_csv = ranges::csv_output("--designs-csv", args.designs_csv.as_deref())?;
+    let designs_plot = args
+        .designs_plot
+        .as_deref()
+        .map(|p| common::check_output("--designs-plot", p, &["svg", "png"]))
+        .transpose()?;
     let db_ref = common::db_ref_option(args.db_ref.as_deref())?;
+    let rules = rules(&args)?;
     let bounds = args
         .vary
         .iter()
@@ -162,18 +218,59 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
         );
     }
     let loaded = common::load_circuit(Some(&args.file))?;
+    let smallest = args.objective == ObjectiveArg::Smallest;
+    let file = if args.envelope || smallest {
+        Some(ripline::io::load_circuit_file(&args.file)?)
+    } else {
+        None
+    };
+    let envelope = if let (true, Some(file)) = (args.envelope, &file) {
+        if file.envelope.is_none() {
+            return Err(UsageError(format!(
+                "--envelope: {} has no `envelope` section",
+                args.file.display()
+            ))
+            .into());
+        }
+        file.circuits(&file.points())?
+    } else {
+        Vec::new()
+    };
     let mut outputs = Outputs::plan(&[
         ("--csv", csv.as_deref()),
         ("--plot", plot.as_deref()),
+        ("--designs-csv", designs_csv.as_deref()),
+        ("--designs-plot", designs_plot.as_deref()),
         ("--json", json.as_deref()),
     ])?;
     let circuit = &loaded.circuit;
     let (fluid_states, notes) = fluid_states(&args)?;
+    let pump_index = ranges::pump_index(circuit, args.pump.as_deref())?;
+    let goal = match &file {
+        Some(f) if smallest => {
+            if f.limits.is_empty() {
+                return Err(UsageError(format!(
+                    "--objective smallest: {} has no `limits` section to meet",
+                    args.file.display()
+                ))
+                .into());
+            }
+            Some(LimitGoal {
+                limits: f.limits.clone(),
+                shaft: Some(circuit.pumps[pump_index].name.clone()),
+                size: match args.size {
+                    SizeArg::Volume => SizeMeasure::Volume,
+                    SizeArg::Length => SizeMeasure::Length,
+                },
+            })
+        }
+        _ => None,
+    };
     let request = TuneRequest {
         element: ranges::element(circuit, &args.element)?,
         bounds,
         tap: ranges::point(circuit, args.tap.as_deref())?,
-        pump_index: ranges::pump_index(circuit, args.pump.as_deref())?,
+        pump_index,
         speed_rev_s: args
             .speed
             .as_deref()
@@ -187,12 +284,15 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
         speed_points,
         harmonics: common::harmonics_option(args.harmonics)?,
         objective: match args.objective {
-            ObjectiveArg::Worst => Objective::Worst,
+            ObjectiveArg::Worst | ObjectiveArg::Smallest => Objective::Worst,
             ObjectiveArg::Rms => Objective::Rms,
         },
         samples: args.samples,
         db_ref_pa: db_ref,
         fluid_states,
+        envelope,
+        rules,
+        goal,
         notes,
     };
     let progress = Progress::new(0, "searching");
@@ -209,7 +309,86 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     outputs.plot_to(plot.as_deref(), |tmp| {
         plot::line_chart(tmp, &render::chart(&result))
     })?;
-    outputs.finish(json.as_deref(), "tune", &result, render::text)
+    outputs.csv_to(designs_csv.as_deref(), |buf| {
+        render::designs_csv(&result, buf)
+    })?;
+    outputs.plot_to(designs_plot.as_deref(), |tmp| {
+        match render::designs_chart(&result) {
+            render::DesignsChart::Line(c) => plot::line_chart(tmp, &c),
+            render::DesignsChart::Map(m) => plot::heat_map(tmp, &m),
+        }
+    })?;
+    outputs.finish(json.as_deref(), "tune", &result, render::text)?;
+    match &result.smallest {
+        Some(s) if !s.met => Err(common::LimitsExceeded(
+            "no design within the bounds meets every limit (the nearest is reported)".into(),
+        )
+        .into()),
+        _ => Ok(()),
+    }
+}
+
+/// The practical rules from the options.
+fn rules(args: &TuneArgs) -> anyhow::Result<Rules> {
+    let band = &args.precharge_band;
+    let fraction = |t: &str| -> anyhow::Result<f64> {
+        match t.trim().parse::<f64>() {
+            Ok(v) if v > 0.0 && v <= 1.0 => Ok(v),
+            _ => Err(UsageError(format!(
+                "--precharge-band {band}: write two fractions of the lowest operating pressure, 0 < LOW < HIGH ≤ 1, e.g. 0.6..0.9"
+            ))
+            .into()),
+        }
+    };
+    let Some((lo, hi)) = band.split_once("..") else {
+        return Err(UsageError(format!(
+            "--precharge-band {band}: write LOW..HIGH, e.g. 0.6..0.9"
+        ))
+        .into());
+    };
+    let (lo, hi) = (fraction(lo)?, fraction(hi)?);
+    if lo >= hi {
+        return Err(UsageError(format!("--precharge-band {band}: LOW must be below HIGH")).into());
+    }
+    let quantity = |option: &str, text: &Option<String>, dim: Dimension, unit: &str| {
+        text.as_deref()
+            .map(|t| common::cli_quantity(option, t, dim, unit))
+            .transpose()
+    };
+    let velocity = match &args.max_neck_velocity {
+        None => 6.0,
+        Some(t) => {
+            let number = t.trim().strip_suffix("m/s").unwrap_or(t.trim()).trim();
+            match number.parse::<f64>() {
+                Ok(v) if v.is_finite() && v > 0.0 => v,
+                _ => {
+                    return Err(UsageError(format!(
+                        "--max-neck-velocity {t}: write a positive velocity in m/s, e.g. 6"
+                    ))
+                    .into());
+                }
+            }
+        }
+    };
+    let positive = |option: &str, v: Option<f64>| match v {
+        Some(x) if !(x.is_finite() && x > 0.0) => {
+            Err(UsageError(format!("{option} must be positive")))
+        }
+        _ => Ok(v),
+    };
+    Ok(Rules {
+        precharge_fraction: (lo, hi),
+        max_volume_m3: positive(
+            "--max-volume",
+            quantity("--max-volume", &args.max_volume, Dimension::Volume, "m3")?,
+        )?,
+        max_length_m: positive(
+            "--max-length",
+            quantity("--max-length", &args.max_length, Dimension::Length, "m")?,
+        )?,
+        max_neck_velocity_m_s: velocity,
+        hard: args.hard_rules,
+    })
 }
 
 /// The circuit at each temperature (K) of a range.

@@ -29,8 +29,8 @@ pub use inline::{ChamberPorts, InlineDamper, Rung, cascade, ladder_admittance, s
 pub use lumped::{Inertance, LoadValve, Orifice, Volume, orifice_resistance};
 pub use silencers::{
     ExpansionChamber, FLANGED_END_CORRECTION, HelmholtzResonator, PRESSURE_VESSEL_CAUTION,
-    PulsationDamper, STANDARD_ATMOSPHERE_PA, SideBranch, loaded_line_admittance, rigid_neck,
-    tanh_gamma_l,
+    PulsationDamper, STANDARD_ATMOSPHERE_PA, STORED_ENERGY_CAUTION, SideBranch,
+    loaded_line_admittance, rigid_neck, tanh_gamma_l,
 };
 pub use tube::{Tube, line_behaviour};
 pub use valves::{

@@ -306,6 +306,12 @@ impl PulsationDamper {
 /// damper.
 pub const PRESSURE_VESSEL_CAUTION: &str = "CAUTION: a gas-charged pulsation damper is a pressure vessel and stores energy in its gas even when the circuit is at rest. Choose a vessel rated above the circuit's highest pressure, precharge it with dry nitrogen only (never air or oxygen) and only as its maker instructs, relieve the fluid pressure before any work, and follow the local pressure-equipment codes and licensed professional practice. ripline's sizing is a small-signal estimate, not a design approval.";
 
+/// The safety caution of every report about a whole circuit (the README's
+/// "Safety" section in one paragraph): hydraulic systems store dangerous
+/// energy, ripline's model is small-signal, and the decisions belong to
+/// qualified people under local codes and licensed practice.
+pub const STORED_ENERGY_CAUTION: &str = "CAUTION: hydraulic systems store dangerous energy: fluid under pressure, raised loads and gas-charged accumulators, which are pressure vessels. A fine jet of oil can penetrate skin. Never work on a pressurised circuit; relieve stored pressure and energy first. ripline predicts small-signal pressure ripple from a linear model; it does not predict mean pressures, pressure peaks from transients, fatigue life or burst margins, and its results are only as good as the data given to it. Decisions about the safe design, installation, operation and maintenance of hydraulic equipment and pressure vessels belong to qualified people following the component makers' instructions, the applicable local codes and standards, and licensed professional practice.";
+
 #[cfg(test)]
 mod tests {
     use super::*;

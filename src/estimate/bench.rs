@@ -132,6 +132,9 @@ pub enum DataFile {
         sample_rate_hz: Option<f64>,
         /// Name of the time column in s, if any.
         time_column: Option<String>,
+        /// Name of a tacho column (one pulse per revolution, its rising edge
+        /// at the shaft-angle reference), if any.
+        tacho_column: Option<String>,
         /// Column name per transducer, in the bench's transducer order.
         columns: Vec<String>,
     },
@@ -174,8 +177,6 @@ pub struct Condition {
 /// Settings of the harmonic extraction from time series.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Extraction {
-    /// Number of segments averaged (≥ 2).
-    pub segments: usize,
     /// Largest relative deviation of the actual speed from the stated one
     /// searched for (e.g. 0.05).
     pub speed_tolerance: f64,
@@ -184,7 +185,6 @@ pub struct Extraction {
 impl Default for Extraction {
     fn default() -> Self {
         Extraction {
-            segments: 8,
             speed_tolerance: 0.05,
         }
     }

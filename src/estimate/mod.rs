@@ -11,12 +11,14 @@
 //! bench file ─ io::bench_file ─→ Bench            (model of the bench, SI)
 //! records    ─ io::records ─────→ TimeRecord / spectra lines
 //!            ─ extract ─────────→ phasors per condition, line and transducer
-//!                                 (speed refined, windowed LS fit per segment,
-//!                                  uncertainty and SNR from the segment spread)
+//!                                 (speed refined or held, whole-record LS fit of
+//!                                  every line, uncertainty from the residual,
+//!                                  sensitivity to the frequency/time reference)
 //!            ─ wavespeed ───────→ c0 in situ (or fixed)
 //!            ─ decompose ───────→ P0, Q0 at the pump outlet per condition
 //!            ─ two_systems / secondary ─→ Qs, Zs per harmonic
-//!            ─ uncertainty ─────→ seeded Monte Carlo over the phasor noise
+//!            ─ uncertainty ─────→ seeded Monte Carlo over the phasor noise and
+//!                                 the reference errors (correlated per condition)
 //!            = FitReport (status, warnings, per-harmonic estimates)
 //! ```
 //!
@@ -28,9 +30,12 @@ pub mod bench;
 pub mod decompose;
 pub mod extract;
 pub mod fit;
+pub(crate) mod lines;
 pub mod rng;
 pub mod secondary;
+pub mod selfcheck;
 pub mod synth;
+pub mod tacho;
 pub mod two_systems;
 pub mod uncertainty;
 pub mod wavespeed;

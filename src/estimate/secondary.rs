@@ -10,12 +10,17 @@
 //! R_s = F/G,      Zs = Zc (1 + R_s)/(1 − R_s) = −P0/Q0
 //! ```
 //!
-//! Zs is carried to the pump harmonics by interpolation (log amplitude and
-//! unwrapped phase, linear in log frequency, so that a capacitive impedance
-//! ∝ 1/f is interpolated exactly) or by a least-squares fit of a
-//! physical form, Ys = G + jωC (internal volume with leakage, methods.md
-//! §5 form b); fitting a physical form is the more repeatable of the two
-//! (Johnston & Drew). Then, at each pump harmonic, from the pump's own run:
+//! Zs is carried to the pump harmonics by interpolation (the admittance
+//! Ys = 1/Zs, real and imaginary parts linear in frequency between the
+//! secondary lines, which is exact for an internal volume with leakage,
+//! Ys = G + jωC; beyond the end lines the end segment is extended, and the
+//! harmonic is reported as extrapolated) or by a weighted
+//! least-squares fit of a physical form, Ys = G + jωC (internal volume with
+//! leakage, methods.md §5 form b), each line weighted by the inverse
+//! variance of its Ys (generalised least squares: the noisy lines do not
+//! dominate the fit); fitting a physical form is the more repeatable of the
+//! two (Johnston & Drew). Then, at each pump harmonic, from the pump's own
+//! run:
 //!
 //! ```text
 //! Qs = Q0 + P0/Zs
@@ -33,8 +38,8 @@ pub fn impedance_point(p0: C64, q0: C64) -> C64 {
 /// measured at the secondary-source frequencies.
 #[derive(Debug, Clone, PartialEq)]
 pub enum ImpedanceModel {
-    /// Interpolated between the points: (frequency Hz, ln |Zs|, unwrapped phase).
-    Table(Vec<(f64, f64, f64)>),
+    /// Interpolated between the points: (frequency Hz, Ys = 1/Zs).
+    Table(Vec<(f64, C64)>),
     /// Ys = G + jωC.
     CapacitanceLeakage {
         /// Conductance G in m³/(Pa·s).
@@ -45,84 +50,80 @@ pub enum ImpedanceModel {
 }
 
 impl ImpedanceModel {
-    /// Builds the model from (frequency Hz, Zs) points; points at the same
-    /// frequency (several secondary runs) are averaged first.
+    /// Builds the model from points (frequency Hz, Zs, variance of
+    /// Ys = 1/Zs, E|δYs|²; zero or less where unknown); points at the same
+    /// frequency (several secondary runs) are averaged first, weighted by
+    /// their inverse variances.
     ///
     /// # Errors
     /// A message when there are no usable points.
-    pub fn build(points: &[(f64, C64)], fit: ImpedanceFit) -> Result<Self, String> {
-        let mut pts: Vec<(f64, C64)> = points
+    pub fn build(points: &[(f64, C64, f64)], fit: ImpedanceFit) -> Result<Self, String> {
+        let mut pts: Vec<(f64, C64, f64)> = points
             .iter()
             .copied()
-            .filter(|(f, z)| f.is_finite() && *f > 0.0 && z.is_finite() && z.norm() > 0.0)
+            .filter(|(f, z, _)| f.is_finite() && *f > 0.0 && z.is_finite() && z.norm() > 0.0)
             .collect();
         if pts.is_empty() {
             return Err("no secondary-source frequency gave a usable impedance".into());
         }
+        // Weights 1/var(Ys); all equal when any variance is unknown.
+        let known = pts.iter().all(|p| p.2 > 0.0 && p.2.is_finite());
+        for p in &mut pts {
+            p.2 = if known { 1.0 / p.2 } else { 1.0 };
+        }
         pts.sort_by(|a, b| a.0.total_cmp(&b.0));
-        let mut merged: Vec<(f64, C64, usize)> = Vec::new();
-        for (f, z) in pts {
+        // (frequency, Σ w·Ys, Σ w)
+        let mut merged: Vec<(f64, C64, f64)> = Vec::new();
+        for (f, z, w) in pts {
             match merged.last_mut() {
                 Some(last) if (f - last.0).abs() <= 1e-9 * f => {
-                    last.1 += z;
-                    last.2 += 1;
+                    last.1 += z.inv() * w;
+                    last.2 += w;
                 }
-                _ => merged.push((f, z, 1)),
+                _ => merged.push((f, z.inv() * w, w)),
             }
         }
-        let pts: Vec<(f64, C64)> = merged
+        let pts: Vec<(f64, C64, f64)> = merged
             .into_iter()
-            .map(|(f, z, n)| (f, z / n as f64))
+            .map(|(f, yw, w)| (f, (yw / w).inv(), w))
             .collect();
         match fit {
-            ImpedanceFit::Interpolate => {
-                let mut table: Vec<(f64, f64, f64)> = Vec::with_capacity(pts.len());
-                for (f, z) in pts {
-                    let mut phase = z.arg();
-                    if let Some(&(_, _, last)) = table.last() {
-                        phase += std::f64::consts::TAU
-                            * ((last - phase) / std::f64::consts::TAU).round();
-                    }
-                    table.push((f, z.norm().ln(), phase));
-                }
-                Ok(ImpedanceModel::Table(table))
-            }
+            ImpedanceFit::Interpolate => Ok(ImpedanceModel::Table(
+                pts.into_iter().map(|(f, z, _)| (f, z.inv())).collect(),
+            )),
             ImpedanceFit::CapacitanceLeakage => {
-                // Least squares on Ys = G + jωC: G = mean Re Ys,
-                // C = Σ ω Im Ys / Σ ω².
-                let n = pts.len() as f64;
-                let (mut g, mut num, mut den) = (0.0, 0.0, 0.0);
-                for &(f, z) in &pts {
+                // Weighted least squares on Ys = G + jωC (weights w_i):
+                // G = Σ w Re Ys / Σ w, C = Σ w ω Im Ys / Σ w ω².
+                let (mut g, mut wsum, mut num, mut den) = (0.0, 0.0, 0.0, 0.0);
+                for &(f, z, wt) in &pts {
                     let ys = z.inv();
                     let w = std::f64::consts::TAU * f;
-                    g += ys.re / n;
-                    num += w * ys.im;
-                    den += w * w;
+                    g += wt * ys.re;
+                    wsum += wt;
+                    num += wt * w * ys.im;
+                    den += wt * w * w;
                 }
                 Ok(ImpedanceModel::CapacitanceLeakage {
-                    conductance: g,
+                    conductance: g / wsum,
                     capacitance: num / den,
                 })
             }
         }
     }
 
-    /// Zs at `freq_hz`.
+    /// Zs at `freq_hz` (outside the points of a table: the end segment
+    /// extended, or the single point held).
     pub fn at(&self, freq_hz: f64) -> C64 {
         match self {
             ImpedanceModel::Table(t) => {
-                let i = t.partition_point(|p| p.0 < freq_hz);
-                let (ln_amp, phase) = if i == 0 {
-                    (t[0].1, t[0].2)
-                } else if i == t.len() {
-                    (t[i - 1].1, t[i - 1].2)
-                } else {
-                    let (f0, a0, p0) = t[i - 1];
-                    let (f1, a1, p1) = t[i];
-                    let x = (freq_hz / f0).ln() / (f1 / f0).ln();
-                    (a0 + x * (a1 - a0), p0 + x * (p1 - p0))
-                };
-                C64::from_polar(ln_amp.exp(), phase)
+                if t.len() == 1 {
+                    return t[0].1.inv();
+                }
+                let i = t.partition_point(|p| p.0 < freq_hz).clamp(1, t.len() - 1);
+                let (f0, y0) = t[i - 1];
+                let (f1, y1) = t[i];
+                let x = (freq_hz - f0) / (f1 - f0);
+                (y0 + (y1 - y0) * x).inv()
             }
             ImpedanceModel::CapacitanceLeakage {
                 conductance,
@@ -155,7 +156,8 @@ mod tests {
         // worked example); at 225 Hz Zs = 1.067322e8 − j1.131668e10 (numpy, ibid.).
         let (g, c) = (1.0 / 1.2e12, 6.25e-14);
         let z = |f: f64| C64::new(g, std::f64::consts::TAU * f * c).inv();
-        let pts: Vec<(f64, C64)> = [90.0, 180.0, 330.0, 410.0].map(|f| (f, z(f))).to_vec();
+        let pts: Vec<(f64, C64, f64)> =
+            [90.0, 180.0, 330.0, 410.0].map(|f| (f, z(f), 0.0)).to_vec();
         let m = ImpedanceModel::build(&pts, ImpedanceFit::CapacitanceLeakage).unwrap();
         let z225 = m.at(225.0);
         assert!((z225 - z(225.0)).norm() < 1e-12 * z225.norm());
@@ -164,10 +166,35 @@ mod tests {
         let t = ImpedanceModel::build(&pts, ImpedanceFit::Interpolate).unwrap();
         assert_eq!(t.range_hz(), Some((90.0, 410.0)));
         assert!((t.at(180.0) - z(180.0)).norm() < 1e-14 * z(180.0).norm());
-        // A pure capacitance (∝ 1/f) is interpolated exactly in log-log.
-        let cap = |f: f64| C64::new(0.0, std::f64::consts::TAU * f * c).inv();
-        let pts: Vec<(f64, C64)> = [90.0, 410.0].map(|f| (f, cap(f))).to_vec();
-        let t = ImpedanceModel::build(&pts, ImpedanceFit::Interpolate).unwrap();
-        assert!((t.at(225.0) - cap(225.0)).norm() < 1e-13 * cap(225.0).norm());
+        // The same form is interpolated exactly between the lines (Ys linear
+        // in f), and extrapolated exactly beyond the end lines.
+        for f in [225.0, 500.0, 60.0] {
+            assert!((t.at(f) - z(f)).norm() < 1e-12 * z(f).norm(), "{f}");
+        }
+    }
+
+    #[test]
+    fn weighted_fit_follows_the_precise_points() {
+        // Two points of Ys = jωC: one exact with a small variance, one 10 %
+        // off with a variance 10⁴ times larger. Weighted least squares
+        // (generalised least squares, Aitken 1935) gives
+        // C = Σ w ω Im Y / Σ w ω², which the exact point dominates:
+        // C·(1 + 0.1·w2ω2²/(w1ω1² + w2ω2²)) with w2/w1 = 1e-4, ω2/ω1 = 4:
+        // relative error 0.1·16e-4/(1 + 16e-4) = 1.597e-4 (worked by hand).
+        let c = 6.25e-14;
+        let y = |f: f64| C64::new(0.0, std::f64::consts::TAU * f * c);
+        let pts = vec![
+            (100.0, y(100.0).inv(), 1e-30),
+            (400.0, (y(400.0) * 1.1).inv(), 1e-26),
+        ];
+        let m = ImpedanceModel::build(&pts, ImpedanceFit::CapacitanceLeakage).unwrap();
+        let ImpedanceModel::CapacitanceLeakage { capacitance, .. } = m else {
+            panic!("a capacitance")
+        };
+        let want = c * (1.0 + 0.1 * 16e-4 / (1.0 + 16e-4));
+        assert!(
+            (capacitance - want).abs() < 1e-9 * c,
+            "{capacitance} vs {want}"
+        );
     }
 }

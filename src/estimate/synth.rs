@@ -14,7 +14,8 @@
 //!
 //! At a secondary-source frequency the pump is passive (Qs = 0).
 
-use super::bench::{Bench, Condition, ConditionKind, Synthesis, Termination};
+use super::bench::{Bench, Condition, ConditionKind, DataFile, Synthesis, Termination};
+use super::extract::Phasors;
 use super::rng::Rng;
 use crate::C64;
 use crate::line::Propagation;
@@ -269,15 +270,18 @@ pub fn condition_lines(
     Ok(lines)
 }
 
-/// Time series of every transducer: `mean + Σ Re{P e^{jωt}}` sampled at
-/// `sample_rate_hz` for `duration_s`, plus white Gaussian noise of standard
-/// deviation `noise` × the channel's rms ripple √(Σ|P|²/2), from `rng`.
-/// Returns one vector of samples per transducer.
+/// Time series of every transducer: `mean + Σ Re{P e^{jω(t + start)}}`
+/// sampled at `sample_rate_hz` for `duration_s` (t from 0; `start_s` is the
+/// time of the first sample after the shaft-angle reference), plus white
+/// Gaussian noise of standard deviation `noise` × the channel's rms ripple
+/// √(Σ|P|²/2), from `rng`. Returns one vector of samples per transducer.
+#[allow(clippy::too_many_arguments)]
 pub fn time_series(
     lines: &[ToneLine],
     channels: usize,
     sample_rate_hz: f64,
     duration_s: f64,
+    start_s: f64,
     mean_pa: f64,
     noise: f64,
     rng: &mut Rng,
@@ -288,7 +292,7 @@ pub fn time_series(
         .collect();
     let mut out = vec![vec![mean_pa; n]; channels];
     for i in 0..n {
-        let t = i as f64 / sample_rate_hz;
+        let t = i as f64 / sample_rate_hz + start_s;
         for l in lines {
             let e = C64::from_polar(1.0, std::f64::consts::TAU * l.freq_hz * t);
             for (c, ch) in out.iter_mut().enumerate() {
@@ -302,4 +306,109 @@ pub fn time_series(
         }
     }
     out
+}
+
+/// Synthetic data of one condition, as its data file would hold it.
+#[derive(Debug, Clone, PartialEq)]
+pub enum SyntheticData {
+    /// Time series (Pa) per transducer, and a tacho channel if the bench
+    /// names one.
+    TimeSeries {
+        /// Sample rate in Hz.
+        sample_rate_hz: f64,
+        /// Samples per transducer in Pa.
+        channels: Vec<Vec<f64>>,
+        /// Tacho samples ([`super::tacho::synthetic_pulse`]), if any.
+        tacho: Option<Vec<f64>>,
+    },
+    /// Spectral lines with noise on each phasor.
+    Spectra(Vec<Phasors>),
+}
+
+/// The synthetic data of a condition with the noise of `synthesis`, from
+/// `rng`. Time series start at the shaft-angle reference, except when the
+/// bench names a tacho column: then they start at a random shaft angle
+/// (from `rng`) and the tacho gives the reference. Spectra carry circular
+/// Gaussian noise of standard deviation `noise`·|P| on each phasor (and
+/// that as their uncertainty); a secondary-source condition's spectra hold
+/// only the secondary lines.
+///
+/// # Errors
+/// [`SynthError`] as [`condition_lines`], or a time series with no sample
+/// rate.
+pub fn condition_data(
+    bench: &Bench,
+    synthesis: &Synthesis,
+    condition: &Condition,
+    rng: &mut Rng,
+) -> Result<SyntheticData, SynthError> {
+    let lines = condition_lines(bench, synthesis, condition)?;
+    match &condition.data {
+        DataFile::TimeSeries {
+            sample_rate_hz,
+            tacho_column,
+            ..
+        } => {
+            let fs = sample_rate_hz.or(synthesis.sample_rate_hz).ok_or_else(|| {
+                SynthError::Condition {
+                    condition: condition.name.clone(),
+                    message: "the condition states no sample rate: give `synthesis.sample_rate`"
+                        .into(),
+                }
+            })?;
+            let speed = bench.pump.speed_rev_s * (1.0 + synthesis.speed_error);
+            let start_rev = if tacho_column.is_some() {
+                rng.uniform()
+            } else {
+                0.0
+            };
+            let channels = time_series(
+                &lines,
+                bench.transducers.len(),
+                fs,
+                synthesis.duration_s,
+                start_rev / speed,
+                synthesis.mean_pressure_pa,
+                synthesis.noise,
+                rng,
+            );
+            let n = channels.first().map_or(0, Vec::len);
+            let tacho = tacho_column.as_ref().map(|_| {
+                (0..n)
+                    .map(|i| super::tacho::synthetic_pulse(start_rev + speed * i as f64 / fs))
+                    .collect()
+            });
+            Ok(SyntheticData::TimeSeries {
+                sample_rate_hz: fs,
+                channels,
+                tacho,
+            })
+        }
+        DataFile::Spectra { .. } => {
+            let secondary = !matches!(condition.kind, ConditionKind::Pump);
+            let pump_lines = bench.harmonics as usize;
+            Ok(SyntheticData::Spectra(
+                lines
+                    .iter()
+                    .enumerate()
+                    .filter(|(i, _)| !secondary || *i >= pump_lines)
+                    .map(|(_, l)| Phasors {
+                        order: l.order,
+                        freq_hz: l.freq_hz,
+                        pressures: l
+                            .pressures
+                            .iter()
+                            .map(|p| p + rng.complex_normal() * (synthesis.noise * p.norm()))
+                            .collect(),
+                        uncertainty: l
+                            .pressures
+                            .iter()
+                            .map(|p| Some(synthesis.noise * p.norm()))
+                            .collect(),
+                        sensitivity: Vec::new(),
+                    })
+                    .collect(),
+            ))
+        }
+    }
 }

@@ -31,7 +31,7 @@ use std::path::{Path, PathBuf};
 )]
 struct RawBench {
     title: Option<String>,
-    fluid: RawFluid,
+    fluid: super::circuit_file::RawFluid,
     pump: RawPump,
     harmonics: Option<u32>,
     reference_line: RawLine,
@@ -44,17 +44,6 @@ struct RawBench {
     records: Option<RawRecords>,
     conditions: Vec<RawCondition>,
     synthesis: Option<RawSynthesis>,
-}
-
-#[derive(Debug, Deserialize)]
-#[serde(
-    deny_unknown_fields,
-    expecting = "a mapping with density, bulk_modulus and viscosity"
-)]
-struct RawFluid {
-    density: Q<q::Density>,
-    bulk_modulus: Q<q::Modulus>,
-    viscosity: Q<q::KinematicViscosity>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -123,24 +112,21 @@ enum RawImpedanceFit {
 }
 
 #[derive(Debug, Deserialize)]
-#[serde(
-    deny_unknown_fields,
-    expecting = "a mapping with segments and speed_tolerance"
-)]
+#[serde(deny_unknown_fields, expecting = "a mapping with speed_tolerance")]
 struct RawExtraction {
-    segments: Option<usize>,
     speed_tolerance: Option<Q<q::Ratio>>,
 }
 
 #[derive(Debug, Deserialize)]
 #[serde(
     deny_unknown_fields,
-    expecting = "a mapping with unit, sample_rate and time_column"
+    expecting = "a mapping with unit, sample_rate, time_column and tacho_column"
 )]
 struct RawRecords {
     unit: Option<String>,
     sample_rate: Option<Q<q::Frequency>>,
     time_column: Option<String>,
+    tacho_column: Option<String>,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
@@ -166,6 +152,7 @@ struct RawCondition {
     unit: Option<String>,
     sample_rate: Option<Q<q::Frequency>>,
     time_column: Option<String>,
+    tacho_column: Option<String>,
     columns: Option<BTreeMap<String, String>>,
 }
 
@@ -272,30 +259,9 @@ impl Checker<'_> {
 
     fn bench(&self, raw: RawBench) -> Res<Bench> {
         let root = KeyPath::root();
-        let fp = root.key("fluid");
-        let fluid = Fluid {
-            density_kg_m3: self.in_range(
-                &fp.key("density"),
-                raw.fluid.density.si,
-                100.0,
-                3000.0,
-                "kg/m³",
-            )?,
-            bulk_modulus_pa: self.in_range(
-                &fp.key("bulk_modulus"),
-                raw.fluid.bulk_modulus.si,
-                1e6,
-                1e11,
-                "Pa",
-            )?,
-            kinematic_viscosity_m2_s: self.in_range(
-                &fp.key("viscosity"),
-                raw.fluid.viscosity.si,
-                1e-8,
-                1e-1,
-                "m²/s",
-            )?,
-        };
+        // The same fluid section as circuit files: explicit values, or an
+        // oil grade at a temperature (and mean pressure, free air).
+        let fluid = super::circuit_file::check_fluid(self.0, &root.key("fluid"), &raw.fluid)?;
         let pp = root.key("pump");
         let pump = BenchPump {
             name: raw.pump.name.clone().unwrap_or_else(|| "pump".into()),
@@ -376,16 +342,11 @@ impl Checker<'_> {
             None => Extraction::default(),
             Some(e) => {
                 let ep = root.key("extraction");
-                let segments = e.segments.unwrap_or(8);
-                if !(2..=256).contains(&segments) {
-                    return Err(self.err(&ep.key("segments"), format!("must be between 2 and 256 (the spread of the segments gives the noise), found {segments}")));
-                }
                 let tol = match e.speed_tolerance {
                     None => 0.05,
                     Some(t) => self.in_range(&ep.key("speed_tolerance"), t.si, 1e-4, 0.2, "")?,
                 };
                 Extraction {
-                    segments,
                     speed_tolerance: tol,
                 }
             }
@@ -628,11 +589,26 @@ impl Checker<'_> {
                 if sample_rate_hz.is_none() && time_column.is_none() {
                     return Err(self.err(cp, "time-series records need `sample_rate` or `time_column` (here or under `records`)"));
                 }
+                let tacho_column = c
+                    .tacho_column
+                    .clone()
+                    .or(defaults.and_then(|d| d.tacho_column.clone()));
+                if let Some(tc) = &tacho_column
+                    && (columns.contains(tc) || time_column.as_ref() == Some(tc))
+                {
+                    return Err(self.err(
+                        &cp.key("tacho_column"),
+                        format!(
+                            "the tacho column `{tc}` is also a transducer's or the time column"
+                        ),
+                    ));
+                }
                 DataFile::TimeSeries {
                     path: base.join(f),
                     unit_pa,
                     sample_rate_hz,
                     time_column,
+                    tacho_column,
                     columns,
                 }
             }

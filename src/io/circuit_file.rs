@@ -9,6 +9,7 @@
 
 mod components;
 mod envelope;
+mod given;
 mod pumps;
 mod settings;
 
@@ -27,12 +28,13 @@ use crate::hose::{
     HoseConstruction, MAX_RETARDATION_TERMS, RetardationTerm, TYPICAL_REFERENCE_FREQUENCY_HZ,
     ViscoelasticWall,
 };
+use crate::limits;
 use crate::line::{Line, LineModel, LineProperties, MeanFlow};
 use crate::oil::{self, Grade, OilData, Walther};
 use crate::source::{FlowHarmonic, FlowRipple, KinematicRipple, Pump};
 use pumps::{RawGear, RawPiston, RawSourceImpedance};
 use serde::Deserialize;
-use std::collections::HashSet;
+use std::collections::{HashMap, HashSet};
 use std::path::Path;
 
 /// Default number of harmonics solved and reported.
@@ -63,7 +65,7 @@ struct RawCircuit {
     deny_unknown_fields,
     expecting = "a fluid section: a mapping with density, bulk_modulus and viscosity, or a grade with temperature"
 )]
-struct RawFluid {
+pub(crate) struct RawFluid {
     grade: Option<String>,
     temperature: Option<Q<q::Temperature>>,
     pressure: Option<Q<q::Pressure>>,
@@ -79,7 +81,7 @@ struct RawFluid {
     deny_unknown_fields,
     expecting = "a viscosity point: a mapping with temperature and viscosity"
 )]
-struct RawViscosityPoint {
+pub(crate) struct RawViscosityPoint {
     temperature: Q<q::Temperature>,
     viscosity: Q<q::KinematicViscosity>,
 }
@@ -254,75 +256,7 @@ struct RawElement {
 impl RawElement {
     /// The optional keys that are present, by name.
     fn present_keys(&self) -> Vec<&'static str> {
-        let mut keys = Vec::new();
-        let mut add = |name: &'static str, present: bool| {
-            if present {
-                keys.push(name);
-            }
-        };
-        add("from", self.from.is_some());
-        add("to", self.to.is_some());
-        add("at", self.at.is_some());
-        add("length", self.length.is_some());
-        add("bore", self.bore.is_some());
-        add("wall", self.wall.is_some());
-        add("material", self.material.is_some());
-        add("youngs_modulus", self.youngs_modulus.is_some());
-        add("rigid", self.rigid.is_some());
-        add("model", self.model.is_some());
-        add("volume", self.volume.is_some());
-        add("resistance", self.resistance.is_some());
-        add("mean_flow", self.mean_flow.is_some());
-        add("pressure_drop", self.pressure_drop.is_some());
-        add("inertance", self.inertance.is_some());
-        add("line", self.line.is_some());
-        add("wall_model", self.wall_model.is_some());
-        add("poisson_ratio", self.poisson_ratio.is_some());
-        add("construction", self.construction.is_some());
-        add("wave_speed", self.wave_speed.is_some());
-        add("loss_factor", self.loss_factor.is_some());
-        add("reference_frequency", self.reference_frequency.is_some());
-        add("kelvin_voigt", self.kelvin_voigt.is_some());
-        add("neck_length", self.neck_length.is_some());
-        add("neck_bore", self.neck_bore.is_some());
-        add("end_correction", self.end_correction.is_some());
-        add("gas_volume", self.gas_volume.is_some());
-        add("precharge", self.precharge.is_some());
-        add("operating_pressure", self.operating_pressure.is_some());
-        add("polytropic_index", self.polytropic_index.is_some());
-        add("cracking_pressure", self.cracking_pressure.is_some());
-        add("full_open_pressure", self.full_open_pressure.is_some());
-        add("mass", self.mass.is_some());
-        add("spring_rate", self.spring_rate.is_some());
-        add("damping", self.damping.is_some());
-        add("damping_area", self.damping_area.is_some());
-        add("damping_resistance", self.damping_resistance.is_some());
-        add("feedback_area", self.feedback_area.is_some());
-        add("jet_angle", self.jet_angle.is_some());
-        add("flow_gain", self.flow_gain.is_some());
-        add(
-            "flow_pressure_coefficient",
-            self.flow_pressure_coefficient.is_some(),
-        );
-        add("rod_diameter", self.rod_diameter.is_some());
-        add("stroke", self.stroke.is_some());
-        add("position", self.position.is_some());
-        add("dead_volume", self.dead_volume.is_some());
-        add("load_mass", self.load_mass.is_some());
-        add("load_stiffness", self.load_stiffness.is_some());
-        add("load_damping", self.load_damping.is_some());
-        add("friction", self.friction.is_some());
-        add("port", self.port.is_some());
-        add("oil_volume", self.oil_volume.is_some());
-        add("port_length", self.port_length.is_some());
-        add("port_bore", self.port_bore.is_some());
-        add("inlet_extension", self.inlet_extension.is_some());
-        add("outlet_extension", self.outlet_extension.is_some());
-        add("wave_speeds", self.wave_speeds.is_some());
-        add("ports", self.ports.is_some());
-        add("galleries", self.galleries.is_some());
-        add("cavities", self.cavities.is_some());
-        keys
+        self.given().into_iter().map(|(key, _)| key).collect()
     }
 
     /// Whether it connects `from` one node `to` another: two-port kinds,
@@ -556,6 +490,8 @@ fn parse_raw(text: &str, file: &str) -> Result<RawCircuit, InputError> {
     super::quantity::allowing_tolerances(|| super::parse_yaml(text, file))
 }
 
+pub use given::{Given, GivenInputs, GivenKeys, given_inputs};
+
 pub use envelope::{
     CircuitFile, MAX_CASES, MAX_LEVELS, MAX_POINTS, load_circuit_file, parse_circuit_at,
     parse_circuit_file,
@@ -601,6 +537,48 @@ pub fn fixed_fluid_keys(text: &str, file: &str) -> Result<Vec<&'static str>, Inp
     .collect())
 }
 
+/// Warnings about the pump source files a circuit text reads: each harmonic
+/// a bench fit marked other than `estimated` (ill-conditioned, extrapolated,
+/// unstable) among the harmonics the circuit solves, with the fit's note.
+/// The values are used as written; the warning says they may be biased.
+/// A text that does not parse, or a source file that cannot be read, gives
+/// no warning here (loading the circuit reports those).
+pub fn source_file_notes(text: &str, file: &str) -> Vec<crate::diagnostics::Warning> {
+    let Ok(raw) = super::parse_yaml::<RawCircuit>(text, file) else {
+        return Vec::new();
+    };
+    let solved = raw.harmonics.unwrap_or(DEFAULT_HARMONICS);
+    let base = Path::new(file).parent().unwrap_or(Path::new(""));
+    let mut out = Vec::new();
+    for p in raw.pump.iter().chain(raw.pumps.iter().flatten()) {
+        let Some(name) = &p.source_file else { continue };
+        let Ok(src) = super::source_file::load_source_file(&base.join(name)) else {
+            continue;
+        };
+        for h in src.harmonics.iter().filter(|h| {
+            h.order <= solved && h.status != crate::estimate::fit::HarmonicStatus::Estimated
+        }) {
+            out.push(crate::diagnostics::Warning {
+                subject: format!("pump `{}`", p.name.as_deref().unwrap_or("pump")),
+                message: format!(
+                    "{name}: harmonic {} is marked `{}` by the bench fit{}; its values are used as written and may be biased",
+                    h.order,
+                    h.status.key(),
+                    h.note.as_deref().map(|n| format!(" ({n})")).unwrap_or_default()
+                ),
+            });
+        }
+    }
+    out
+}
+
+/// The fluid of a `fluid` section as circuit files have it (explicit
+/// values, or an oil grade at a temperature and pressure), for other files
+/// with the same section (bench files).
+pub(crate) fn check_fluid(check: FileCheck<'_>, path: &KeyPath, raw: &RawFluid) -> Res<Fluid> {
+    Checker(check).fluid(path, raw)
+}
+
 /// Validates raw values; every error is located in the file (the shared
 /// checks of [`FileCheck`] through `Deref`).
 struct Checker<'a>(FileCheck<'a>);
@@ -636,29 +614,55 @@ impl Checker<'_> {
         // Valve blocks become their galleries and cavities; `element_paths` locates
         // each element in the file.
         let mean_pressure = raw.fluid.pressure.map(|p| p.si);
+        // A count over a limit of `limits`, located at the first item beyond it.
+        let over = |path: &KeyPath, count: String, max: usize, what: &str| {
+            self.err(
+                path,
+                format!(
+                    "{count}; ripline accepts at most {max} {what} (README, Limits and safeguards)"
+                ),
+            )
+        };
+        if raw.elements.len() > limits::MAX_ELEMENTS {
+            return Err(over(
+                &root.key("elements").index(limits::MAX_ELEMENTS),
+                format!("the circuit has {} elements", raw.elements.len()),
+                limits::MAX_ELEMENTS,
+                "elements",
+            ));
+        }
         let (raws, element_paths) = self.expand_valve_blocks(&root, &raw.elements)?;
+        if raws.len() > limits::MAX_ELEMENTS {
+            return Err(over(
+                &element_paths[limits::MAX_ELEMENTS],
+                format!(
+                    "the circuit has {} elements once its valve blocks are expanded into their parts",
+                    raws.len()
+                ),
+                limits::MAX_ELEMENTS,
+                "elements",
+            ));
+        }
 
         // Nodes, in order of first mention by an element.
         let mut nodes: Vec<Node> = Vec::new();
+        let mut node_ids: HashMap<String, usize> = HashMap::new();
         let mut node_id = |name: &str| -> usize {
-            match nodes.iter().position(|n| n.name == name) {
-                Some(i) => i,
-                None => {
-                    nodes.push(Node {
-                        name: name.to_string(),
-                    });
-                    nodes.len() - 1
-                }
-            }
+            *node_ids.entry(name.to_string()).or_insert_with(|| {
+                nodes.push(Node {
+                    name: name.to_string(),
+                });
+                nodes.len() - 1
+            })
         };
 
-        let mut names = HashSet::new();
+        let mut names: HashMap<&str, usize> = HashMap::with_capacity(raws.len());
         let mut connections = Vec::with_capacity(raws.len());
-        for (e, path) in raws.iter().zip(&element_paths) {
+        for (i, (e, path)) in raws.iter().zip(&element_paths).enumerate() {
             if e.name.trim().is_empty() {
                 return Err(self.err(&path.key("name"), "an element name must not be empty"));
             }
-            if !names.insert(e.name.as_str()) {
+            if names.insert(e.name.as_str(), i).is_some() {
                 return Err(self.err(
                     &path.key("name"),
                     format!("duplicate element name `{}`: names must be unique", e.name),
@@ -694,7 +698,19 @@ impl Checker<'_> {
                 let at = self.node_name(path, "at", e.at.as_deref(), e.kind)?;
                 Connection::Shunt { at: node_id(at) }
             };
+            let newest = match connection {
+                Connection::Series { a, b } => a.max(b),
+                Connection::Shunt { at } => at,
+            };
             connections.push(connection);
+            if newest >= limits::MAX_NODES {
+                return Err(over(
+                    path,
+                    format!("with this element the circuit has {} nodes", newest + 1),
+                    limits::MAX_NODES,
+                    "nodes",
+                ));
+            }
         }
 
         // Element models; anechoic ends match a tube, so they are built last.
@@ -768,9 +784,25 @@ impl Checker<'_> {
                 RawKind::AnechoicEnd => None,
             });
         }
+        // the tubes and hoses at each node, for the anechoic ends
+        let mut lines_at: HashMap<&str, Vec<usize>> = HashMap::new();
+        if kinds.iter().any(Option::is_none) {
+            for (i, r) in raws.iter().enumerate() {
+                if matches!(r.kind, RawKind::Tube | RawKind::Hose) {
+                    for end in [&r.from, &r.to].into_iter().flatten() {
+                        lines_at.entry(end.as_str()).or_default().push(i);
+                    }
+                }
+            }
+        }
         for i in 0..raws.len() {
             if kinds[i].is_none() {
-                let line = self.anechoic_line(&element_paths[i], &raws[i], &raws, &kinds)?;
+                let line = self.anechoic_line(
+                    &element_paths[i],
+                    &raws[i],
+                    (&raws, &kinds),
+                    (&names, &lines_at),
+                )?;
                 kinds[i] = Some(ElementKind::Anechoic(Anechoic { line }));
             }
         }
@@ -818,8 +850,16 @@ impl Checker<'_> {
                 ));
             }
         };
+        if let Some((path, _)) = raw_pumps.get(limits::MAX_PUMPS) {
+            return Err(over(
+                path,
+                format!("the circuit has {} pumps", raw_pumps.len()),
+                limits::MAX_PUMPS,
+                "pumps (and so shafts)",
+            ));
+        }
         for (i, (path, raw_pump)) in raw_pumps.iter().enumerate() {
-            let mut pump = self.pump(path, raw_pump, &circuit)?;
+            let mut pump = self.pump(path, raw_pump, &circuit, &node_ids)?;
             if raw.pumps.is_some() && raw_pump.name.is_none() {
                 pump.name = format!("pump {}", i + 1);
             }
@@ -827,6 +867,14 @@ impl Checker<'_> {
         }
         let paths: Vec<KeyPath> = raw_pumps.into_iter().map(|(p, _)| p).collect();
         self.check_pumps(&paths, &circuit.pumps)?;
+        if raw.taps.len() > limits::MAX_TAPS {
+            return Err(over(
+                &root.key("taps").index(limits::MAX_TAPS),
+                format!("the circuit has {} taps", raw.taps.len()),
+                limits::MAX_TAPS,
+                "taps",
+            ));
+        }
         let mut tap_names = HashSet::new();
         for (i, t) in raw.taps.iter().enumerate() {
             let path = root.key("taps").index(i);
@@ -836,7 +884,7 @@ impl Checker<'_> {
                     format!("duplicate tap name `{}`: names must be unique", t.name),
                 ));
             }
-            let tap = self.tap(&path, t, &circuit)?;
+            let tap = self.tap(&path, t, &circuit, (&node_ids, &names))?;
             circuit.taps.push(tap);
         }
         crate::meanflow::resolve_line_mean_flows(&mut circuit);
@@ -1459,26 +1507,22 @@ impl Checker<'_> {
         &self,
         path: &KeyPath,
         e: &RawElement,
-        raws: &[RawElement],
-        kinds: &[Option<ElementKind>],
+        (raws, kinds): (&[RawElement], &[Option<ElementKind>]),
+        (names, lines_at): (&HashMap<&str, usize>, &HashMap<&str, Vec<usize>>),
     ) -> Res<LineProperties> {
         let candidates: Vec<usize> = match &e.line {
             Some(name) => {
-                let i = raws.iter().position(|r| &r.name == name).ok_or_else(|| {
+                let i = *names.get(name.as_str()).ok_or_else(|| {
                     self.err(&path.key("line"), format!("no element is called `{name}`"))
                 })?;
                 vec![i]
             }
-            None => raws
-                .iter()
-                .enumerate()
-                .filter(|(_, r)| {
-                    matches!(r.kind, RawKind::Tube | RawKind::Hose)
-                        && (r.from.as_deref() == e.at.as_deref()
-                            || r.to.as_deref() == e.at.as_deref())
-                })
-                .map(|(i, _)| i)
-                .collect(),
+            None => {
+                e.at.as_deref()
+                    .and_then(|at| lines_at.get(at))
+                    .cloned()
+                    .unwrap_or_default()
+            }
         };
         match candidates.as_slice() {
             [i] => match kinds[*i].as_ref().and_then(|k| k.line()) {
@@ -1506,12 +1550,34 @@ impl Checker<'_> {
         connections: &[Connection],
         nodes: &[Node],
     ) -> Res<()> {
+        // one pass over the elements: what sits at each node, which nodes a
+        // two-port reaches
+        let mut reached = vec![false; nodes.len()];
+        let mut first_shunt: Vec<Option<usize>> = vec![None; nodes.len()];
+        let mut tank: Vec<Option<usize>> = vec![None; nodes.len()];
+        let mut closed: Vec<Option<usize>> = vec![None; nodes.len()];
+        for (i, c) in connections.iter().enumerate() {
+            match *c {
+                Connection::Series { a, b } => {
+                    reached[a] = true;
+                    reached[b] = true;
+                }
+                Connection::Shunt { at } => {
+                    first_shunt[at].get_or_insert(i);
+                    match raws[i].kind {
+                        RawKind::Tank => {
+                            tank[at].get_or_insert(i);
+                        }
+                        RawKind::ClosedEnd => {
+                            closed[at].get_or_insert(i);
+                        }
+                        _ => {}
+                    }
+                }
+            }
+        }
         for (id, node) in nodes.iter().enumerate() {
-            let at_node: Vec<usize> = (0..raws.len())
-                .filter(|&i| connections[i] == Connection::Shunt { at: id })
-                .collect();
-            let has = |k: RawKind| at_node.iter().find(|&&i| raws[i].kind == k).copied();
-            if let (Some(_), Some(i)) = (has(RawKind::Tank), has(RawKind::ClosedEnd)) {
+            if let (Some(_), Some(i)) = (tank[id], closed[id]) {
                 return Err(self.err(
                     &paths[i],
                     format!(
@@ -1520,11 +1586,8 @@ impl Checker<'_> {
                     ),
                 ));
             }
-            let reached_by_two_port = connections
-                .iter()
-                .any(|c| matches!(c, Connection::Series { a, b } if *a == id || *b == id));
-            if !reached_by_two_port {
-                let i = at_node[0];
+            if !reached[id] {
+                let i = first_shunt[id].expect("a node is named by an element");
                 return Err(self.err(
                     &paths[i].key("at"),
                     format!(
@@ -1538,8 +1601,14 @@ impl Checker<'_> {
         Ok(())
     }
 
-    fn pump(&self, path: &KeyPath, raw: &RawPump, circuit: &Circuit) -> Res<Pump> {
-        let node = circuit.node_id(&raw.node).ok_or_else(|| {
+    fn pump(
+        &self,
+        path: &KeyPath,
+        raw: &RawPump,
+        circuit: &Circuit,
+        node_ids: &HashMap<String, usize>,
+    ) -> Res<Pump> {
+        let node = node_ids.get(raw.node.as_str()).copied().ok_or_else(|| {
             self.err(
                 &path.key("node"),
                 format!(
@@ -1752,10 +1821,16 @@ impl Checker<'_> {
         })
     }
 
-    fn tap(&self, path: &KeyPath, raw: &RawTap, circuit: &Circuit) -> Res<Tap> {
+    fn tap(
+        &self,
+        path: &KeyPath,
+        raw: &RawTap,
+        circuit: &Circuit,
+        (node_ids, element_ids): (&HashMap<String, usize>, &HashMap<&str, usize>),
+    ) -> Res<Tap> {
         let location = match (&raw.node, &raw.element, raw.distance) {
             (Some(node), None, None) => {
-                TapLocation::Node(circuit.node_id(node).ok_or_else(|| {
+                TapLocation::Node(node_ids.get(node.as_str()).copied().ok_or_else(|| {
                     self.err(
                         &path.key("node"),
                         format!("no element reaches node `{node}`"),
@@ -1763,7 +1838,7 @@ impl Checker<'_> {
                 })?)
             }
             (None, Some(name), Some(distance)) => {
-                let element = circuit.element_id(name).ok_or_else(|| {
+                let element = element_ids.get(name.as_str()).copied().ok_or_else(|| {
                     self.err(
                         &path.key("element"),
                         format!("no element is called `{name}`"),

@@ -383,6 +383,7 @@ fn run(
                 unit_pa,
                 sample_rate_hz,
                 time_column,
+                tacho_column: None,
                 columns,
             }
         }

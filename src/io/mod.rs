@@ -20,6 +20,7 @@ pub mod yaml_limits;
 pub use circuit_file::{
     CircuitFile, CircuitTemplate, Setting, Target, Uncertain, load_circuit, load_circuit_file,
     parse_circuit, parse_circuit_at, parse_circuit_at_temperature, parse_circuit_file,
+    source_file_notes,
 };
 
 use locate::KeyPath;

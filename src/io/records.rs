@@ -13,7 +13,8 @@
 use super::{InputError, Located};
 use crate::C64;
 use crate::estimate::bench::{Bench, Condition, ConditionKind, DataFile};
-use crate::estimate::extract::{self, ConditionSpectra, ExtractRequest, Phasors, TimeRecord};
+use crate::estimate::extract::{self, ConditionSpectra, Phasors, PumpFrequency, TimeRecord};
+use crate::estimate::tacho::{self, TachoError};
 use crate::estimate::{EstimateError, Observer};
 use std::io::Write;
 use std::path::Path;
@@ -168,6 +169,17 @@ impl Table {
     }
 }
 
+/// A tacho channel read with a record: its samples and the CSV line of each.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TachoChannel {
+    /// The column's name.
+    pub column: String,
+    /// The samples (in the file's own unit).
+    pub samples: Vec<f64>,
+    /// The line of the file each sample is on.
+    pub lines: Vec<u64>,
+}
+
 /// Largest pressure a record may hold, Pa (10 kbar): beyond any hydraulic
 /// system, and small enough that sums of squares of a long record stay
 /// finite.
@@ -187,6 +199,22 @@ pub fn read_time_record(
     time_column: Option<&str>,
     columns: &[String],
 ) -> Result<TimeRecord, InputError> {
+    read_record_and_tacho(path, unit_pa, sample_rate_hz, time_column, columns, None).map(|r| r.0)
+}
+
+/// Reads a time-series record and, if `tacho_column` is named, that column
+/// as a tacho channel (see [`read_time_record`]).
+///
+/// # Errors
+/// As [`read_time_record`], and a missing or non-numeric tacho column.
+pub fn read_record_and_tacho(
+    path: &Path,
+    unit_pa: f64,
+    sample_rate_hz: Option<f64>,
+    time_column: Option<&str>,
+    columns: &[String],
+    tacho_column: Option<&str>,
+) -> Result<(TimeRecord, Option<TachoChannel>), InputError> {
     let t = Table::read(path)?;
     let idx: Vec<usize> = columns
         .iter()
@@ -260,11 +288,25 @@ pub fn read_time_record(
             rate
         }
     };
-    Ok(TimeRecord {
-        file: t.file,
-        sample_rate_hz: rate,
-        channels,
-    })
+    let tacho = match tacho_column {
+        None => None,
+        Some(name) => {
+            let c = t.column(name)?;
+            Some(TachoChannel {
+                column: name.to_string(),
+                samples: (0..n).map(|r| t.number(r, c)).collect::<Result<_, _>>()?,
+                lines: t.rows.iter().map(|r| r.0).collect(),
+            })
+        }
+    };
+    Ok((
+        TimeRecord {
+            file: t.file,
+            sample_rate_hz: rate,
+            channels,
+        },
+        tacho,
+    ))
 }
 
 /// Reads a spectra file: one [`Phasors`] per row, in Pa.
@@ -351,52 +393,94 @@ pub fn read_spectra(
             freq_hz: freq,
             pressures,
             uncertainty,
+            sensitivity: Vec::new(),
         });
     }
     Ok(out)
 }
 
-/// Reads a condition's data file and extracts its phasors.
+/// Reads every condition's data file and extracts its phasors, in the
+/// bench's condition order; the pumping frequency found in the pump
+/// conditions is held in the secondary-source conditions
+/// ([`extract::extract_conditions`]).
 ///
 /// # Errors
-/// [`InputError`] for a fault in the file or data that cannot be analysed
-/// (too short, too low a sample rate, a missing harmonic).
+/// [`InputError`] for a fault in a file or data that cannot be analysed
+/// (too short, too low a sample rate, a missing harmonic, a secondary line
+/// on a pump harmonic, a tacho channel without regular pulses).
+pub fn load_conditions(
+    bench: &Bench,
+    observer: &mut dyn Observer,
+) -> Result<Vec<ConditionSpectra>, InputError> {
+    extract::extract_conditions(bench, |i, pump| {
+        load_condition(bench, &bench.conditions[i], pump, observer)
+    })
+}
+
+/// Reads a condition's data file and extracts its phasors, with the pumping
+/// frequency searched or held.
+///
+/// # Errors
+/// [`InputError`] for a fault in the file or data that cannot be analysed.
 pub fn load_condition(
     bench: &Bench,
     condition: &Condition,
+    pump: PumpFrequency,
     observer: &mut dyn Observer,
 ) -> Result<ConditionSpectra, InputError> {
     let fp = bench.pump.pumping_frequency_hz();
-    let secondary = match condition.kind {
-        ConditionKind::SecondarySource { fundamental_hz, .. } => Some(fundamental_hz),
-        ConditionKind::Pump => None,
-    };
     match &condition.data {
         DataFile::TimeSeries {
             path,
             unit_pa,
             sample_rate_hz,
             time_column,
+            tacho_column,
             columns,
         } => {
-            let rec = read_time_record(
+            let (rec, tacho) = read_record_and_tacho(
                 path,
                 *unit_pa,
                 *sample_rate_hz,
                 time_column.as_deref(),
                 columns,
+                tacho_column.as_deref(),
             )?;
-            let req = ExtractRequest {
-                pump_fundamental_hz: fp,
-                harmonics: bench.harmonics,
-                secondary_fundamental_hz: secondary,
-                segments: bench.extraction.segments,
-                speed_tolerance: bench.extraction.speed_tolerance,
+            let at_column = |t: &TachoChannel, line: Option<u64>, message: String| {
+                located(
+                    &rec.file,
+                    line,
+                    &format!("column `{}`", t.column),
+                    format!("condition `{}`: {message}", condition.name),
+                )
             };
-            extract::extract(&rec, &req, observer).map_err(|e| match e {
-                EstimateError::Data { file, message } => located(&file, None, "", message),
+            let shaft = match &tacho {
+                None => None,
+                Some(t) => Some(
+                    tacho::shaft_reference(&t.samples, rec.sample_rate_hz).map_err(|e| {
+                        let line = match e {
+                            TachoError::Irregular { sample, .. } => t.lines.get(sample).copied(),
+                            _ => None,
+                        };
+                        at_column(t, line, e.to_string())
+                    })?,
+                ),
+            };
+            let req = extract::request_for(bench, condition, pump, shaft.as_ref());
+            let spectra = extract::extract(&rec, &req, observer).map_err(|e| match e {
+                EstimateError::Data { file, message } => located(
+                    &file,
+                    None,
+                    "",
+                    format!("condition `{}`: {message}", condition.name),
+                ),
                 other => located(&rec.file, None, "", other.to_string()),
-            })
+            })?;
+            if let (Some(s), Some(t)) = (shaft, &tacho) {
+                tacho::check_speed(&s, bench.pump.pumping_elements, spectra.pump_fundamental_hz)
+                    .map_err(|m| at_column(t, None, m))?;
+            }
+            Ok(spectra)
         }
         DataFile::Spectra {
             path,
@@ -405,60 +489,45 @@ pub fn load_condition(
         } => {
             let lines = read_spectra(path, *unit_pa, columns)?;
             let file = path.display().to_string();
-            let fundamental = |ls: &[Phasors]| {
-                ls.iter()
-                    .map(|p| p.freq_hz / f64::from(p.order))
-                    .sum::<f64>()
-                    / ls.len() as f64
-            };
-            match secondary {
-                None => {
-                    for k in 1..=bench.harmonics {
-                        if !lines.iter().any(|p| p.order == k) {
-                            return Err(located(
-                                &file,
-                                None,
-                                "",
-                                format!(
-                                    "harmonic {k} is missing: the bench analyses harmonics 1 to {}",
-                                    bench.harmonics
-                                ),
-                            ));
-                        }
-                    }
-                    let f = fundamental(&lines);
-                    if (f - fp).abs() > bench.extraction.speed_tolerance * fp {
+            if condition.kind == ConditionKind::Pump {
+                for k in 1..=bench.harmonics {
+                    if !lines.iter().any(|p| p.order == k) {
                         return Err(located(
                             &file,
                             None,
                             "",
                             format!(
-                                "the rows give a pumping frequency of {f:.3} Hz, more than the speed tolerance away from the bench's {fp:.3} Hz"
+                                "harmonic {k} is missing: the bench analyses harmonics 1 to {}",
+                                bench.harmonics
                             ),
                         ));
                     }
-                    Ok(ConditionSpectra {
-                        pump_fundamental_hz: f,
-                        pump: lines,
-                        secondary_fundamental_hz: None,
-                        secondary: Vec::new(),
-                    })
                 }
-                Some(_) => Ok(ConditionSpectra {
-                    pump_fundamental_hz: fp,
-                    pump: Vec::new(),
-                    secondary_fundamental_hz: Some(fundamental(&lines)),
-                    secondary: lines,
-                }),
             }
+            let spectra = extract::spectra_condition(condition, lines, pump);
+            let f = spectra.pump_fundamental_hz;
+            if condition.kind == ConditionKind::Pump
+                && (f - fp).abs() > bench.extraction.speed_tolerance * fp
+            {
+                return Err(located(
+                    &file,
+                    None,
+                    "",
+                    format!(
+                        "the rows give a pumping frequency of {f:.3} Hz, more than the speed tolerance away from the bench's {fp:.3} Hz"
+                    ),
+                ));
+            }
+            Ok(spectra)
         }
     }
 }
 
 /// Writes a time-series record: an optional time column, then one column per
-/// transducer in the unit `unit_pa` (Pa per unit). With `exact`, values are
-/// written with all the digits a double needs to read back unchanged;
-/// otherwise with 7 significant digits.
+/// transducer in the unit `unit_pa` (Pa per unit), then an optional tacho
+/// column (its own values). With `exact`, values are written with all the
+/// digits a double needs to read back unchanged; otherwise with 7
+/// significant digits.
 ///
 /// # Errors
 /// The writer's error.
@@ -472,6 +541,7 @@ pub fn write_time_record<W: Write>(
     sample_rate_hz: f64,
     unit_pa: f64,
     exact: bool,
+    tacho: Option<(&str, &[f64])>,
 ) -> std::io::Result<()> {
     for line in comment.lines() {
         writeln!(out, "# {line}")?;
@@ -479,6 +549,7 @@ pub fn write_time_record<W: Write>(
     let mut w = csv::Writer::from_writer(&mut out);
     let mut header: Vec<String> = time_column.map(str::to_string).into_iter().collect();
     header.extend(columns.iter().cloned());
+    header.extend(tacho.map(|t| t.0.to_string()));
     w.write_record(&header)?;
     let fmt = |v: f64| {
         if exact {
@@ -494,6 +565,9 @@ pub fn write_time_record<W: Write>(
             row.push(fmt(i as f64 / sample_rate_hz));
         }
         row.extend(channels.iter().map(|c| fmt(c[i] / unit_pa)));
+        if let Some((_, t)) = tacho {
+            row.push(fmt(t[i]));
+        }
         w.write_record(&row)?;
     }
     w.flush()?;

@@ -15,7 +15,13 @@
 //!     impedance_phase: -87.0 deg
 //!     flow_uncertainty: 2e-7        # optional, m³/s
 //!     impedance_uncertainty: 3e8    # optional, Pa·s/m³
+//!     status: ill_conditioned       # optional: estimated (default), extrapolated,
+//!                                   # ill_conditioned, unstable
+//!     note: "…"                     # optional: why, and the bias to expect
 //! ```
+//!
+//! A harmonic whose status is not `estimated` is still used by circuits,
+//! with a warning (see [`source_file_notes`](super::circuit_file::source_file_notes)).
 //!
 //! The flow ripple becomes a harmonic table at the measured speed (scaled in
 //! proportion to speed elsewhere) and the impedance a table against
@@ -25,13 +31,14 @@ use super::InputError;
 use super::locate::KeyPath;
 use super::quantity::{self as q, Q};
 use crate::C64;
+use crate::estimate::fit::HarmonicStatus;
 use crate::source::{FlowHarmonic, FlowRipple, ImpedanceTable, SourceImpedance};
 use serde::Deserialize;
 use std::io::Write;
 use std::path::Path;
 
 /// One harmonic of a pump source.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct SourceHarmonic {
     /// Harmonic order k of the pumping frequency.
     pub order: u32,
@@ -43,6 +50,10 @@ pub struct SourceHarmonic {
     pub flow_uncertainty: Option<f64>,
     /// Standard uncertainty of |Zs| in Pa·s/m³, if known.
     pub impedance_uncertainty: Option<f64>,
+    /// How far the estimate can be trusted (from the bench fit).
+    pub status: HarmonicStatus,
+    /// Why, and the bias to expect, if the status is not `estimated`.
+    pub note: Option<String>,
 }
 
 /// A pump's Norton parameters per harmonic at one speed.
@@ -52,6 +63,9 @@ pub struct PumpSource {
     pub name: String,
     /// Shaft speed of the data in rev/s.
     pub speed_rev_s: f64,
+    /// Its standard uncertainty in rev/s, if known (written as a comment,
+    /// and setting the digits the speed is written with).
+    pub speed_uncertainty_rev_s: Option<f64>,
     /// Number of pumping elements (teeth or pistons).
     pub pumping_elements: u32,
     /// The harmonics, in increasing order.
@@ -120,6 +134,8 @@ struct RawSourceHarmonic {
     impedance_phase: Q<q::Angle>,
     flow_uncertainty: Option<Q<q::Flow>>,
     impedance_uncertainty: Option<Q<q::Resistance>>,
+    status: Option<String>,
+    note: Option<String>,
 }
 
 /// Reads and validates a pump source file.
@@ -197,13 +213,25 @@ pub fn parse_source(text: &str, file: &str) -> Result<PumpSource, InputError> {
                 ),
             ));
         }
-        let nonneg = |v: Option<Q<q::Flow>>| v.map(|q| q.si);
+        let status = match h.status.as_deref() {
+            None => HarmonicStatus::Estimated,
+            Some(s) => HarmonicStatus::from_key(s).ok_or_else(|| {
+                err(
+                    &hp.key("status"),
+                    format!(
+                        "unknown status `{s}`: write estimated, extrapolated, ill_conditioned or unstable"
+                    ),
+                )
+            })?,
+        };
         harmonics.push(SourceHarmonic {
             order: h.harmonic,
             flow: C64::from_polar(h.flow_amplitude.si, h.flow_phase.si),
             impedance: C64::from_polar(h.impedance_amplitude.si, h.impedance_phase.si),
-            flow_uncertainty: nonneg(h.flow_uncertainty),
+            flow_uncertainty: h.flow_uncertainty.map(|q| q.si),
             impedance_uncertainty: h.impedance_uncertainty.map(|q| q.si),
+            status,
+            note: h.note.clone(),
         });
     }
     for (i, h) in harmonics.iter().enumerate() {
@@ -218,13 +246,19 @@ pub fn parse_source(text: &str, file: &str) -> Result<PumpSource, InputError> {
     Ok(PumpSource {
         name: raw.pump.unwrap_or_else(|| "pump".into()),
         speed_rev_s: speed,
+        speed_uncertainty_rev_s: None,
         pumping_elements: raw.pumping_elements,
         harmonics,
     })
 }
 
-/// Writes a pump source file that [`load_source_file`] reads back exactly
-/// (values in SI with full precision, phases in degrees).
+/// Writes a pump source file that [`load_source_file`] reads back: each
+/// value with the digits its standard uncertainty supports (JCGM 100:2008
+/// §7.2.6; [`crate::estimate::uncertainty::scientific`]), and with all of a
+/// double's digits where no uncertainty is known, so that such values read
+/// back exactly. Phases take the digits of the amplitude's relative
+/// uncertainty (for circular noise σ_φ = σ_A/|X| rad); the speed is written
+/// in rpm.
 ///
 /// # Errors
 /// The writer's I/O error.
@@ -233,33 +267,60 @@ pub fn write_source_file<W: Write>(
     mut out: W,
     comment: &str,
 ) -> std::io::Result<()> {
+    use crate::estimate::uncertainty::{fixed, scientific};
     writeln!(out, "# ripline pump source")?;
     for line in comment.lines() {
         writeln!(out, "# {line}")?;
     }
     writeln!(out, "pump: {}", yaml_string(&source.name))?;
-    writeln!(out, "speed: {} rev/s", source.speed_rev_s)?;
+    let rpm_u = source.speed_uncertainty_rev_s.map(|u| 60.0 * u);
+    write!(
+        out,
+        "speed: {} rpm",
+        fixed(60.0 * source.speed_rev_s, rpm_u)
+    )?;
+    match rpm_u {
+        Some(u) => writeln!(out, "   # ± {u:.1e} rpm (standard uncertainty)")?,
+        None => writeln!(out)?,
+    }
     writeln!(out, "pumping_elements: {}", source.pumping_elements)?;
     writeln!(out, "harmonics:")?;
+    // Amplitude and phase of a phasor; the phase's uncertainty is the
+    // amplitude's over |X| (circular noise).
+    let polar = |out: &mut W, name: &str, x: C64, u: Option<f64>, unit: &str| {
+        writeln!(
+            out,
+            "    {name}_amplitude: {} {unit}",
+            scientific(x.norm(), u)
+        )?;
+        let u_deg = u.map(|u| (u / x.norm()).to_degrees());
+        writeln!(
+            out,
+            "    {name}_phase: {} deg",
+            fixed(x.arg().to_degrees(), u_deg)
+        )
+    };
     for h in &source.harmonics {
         writeln!(out, "  - harmonic: {}", h.order)?;
-        writeln!(out, "    flow_amplitude: {:e} m3/s", h.flow.norm())?;
-        writeln!(out, "    flow_phase: {:?} deg", h.flow.arg().to_degrees())?;
-        writeln!(
-            out,
-            "    impedance_amplitude: {:e} Pa.s/m3",
-            h.impedance.norm()
-        )?;
-        writeln!(
-            out,
-            "    impedance_phase: {:?} deg",
-            h.impedance.arg().to_degrees()
+        polar(&mut out, "flow", h.flow, h.flow_uncertainty, "m3/s")?;
+        polar(
+            &mut out,
+            "impedance",
+            h.impedance,
+            h.impedance_uncertainty,
+            "Pa.s/m3",
         )?;
         if let Some(u) = h.flow_uncertainty {
-            writeln!(out, "    flow_uncertainty: {u:e} m3/s")?;
+            writeln!(out, "    flow_uncertainty: {u:.1e} m3/s")?;
         }
         if let Some(u) = h.impedance_uncertainty {
-            writeln!(out, "    impedance_uncertainty: {u:e} Pa.s/m3")?;
+            writeln!(out, "    impedance_uncertainty: {u:.1e} Pa.s/m3")?;
+        }
+        if h.status != HarmonicStatus::Estimated {
+            writeln!(out, "    status: {}", h.status.key())?;
+        }
+        if let Some(n) = &h.note {
+            writeln!(out, "    note: {}", yaml_string(n))?;
         }
     }
     Ok(())
@@ -285,10 +346,11 @@ mod tests {
     use super::*;
 
     #[test]
-    fn written_files_read_back_exactly() {
+    fn written_files_read_back_to_the_digits_their_uncertainty_supports() {
         let src = PumpSource {
             name: "bench \"A\"".into(),
             speed_rev_s: 25.0,
+            speed_uncertainty_rev_s: None,
             pumping_elements: 9,
             harmonics: vec![
                 SourceHarmonic {
@@ -297,6 +359,8 @@ mod tests {
                     impedance: C64::new(1.0e8, -1.13e10),
                     flow_uncertainty: Some(1e-7),
                     impedance_uncertainty: None,
+                    status: HarmonicStatus::Estimated,
+                    note: None,
                 },
                 SourceHarmonic {
                     order: 2,
@@ -304,6 +368,8 @@ mod tests {
                     impedance: C64::new(5e7, -5.6e9),
                     flow_uncertainty: None,
                     impedance_uncertainty: Some(2e8),
+                    status: HarmonicStatus::IllConditioned,
+                    note: Some("cond = 14 \"high\"".into()),
                 },
             ],
         };
@@ -313,18 +379,41 @@ mod tests {
         let back = parse_source(&text, "t.yaml").unwrap();
         assert_eq!(back.name, src.name);
         assert_eq!(back.speed_rev_s, src.speed_rev_s);
+        // Without an uncertainty a value reads back exactly; with one, to
+        // its rounding: at most 0.05 u in amplitude and 0.05 u/|X| rad in
+        // phase (the uncertainty's second significant digit, JCGM 100:2008
+        // §7.2.6), so within 0.1 u.
+        let tol = |x: C64, u: Option<f64>| u.map_or(1e-15 * x.norm(), |u| 0.1 * u);
         for (a, b) in back.harmonics.iter().zip(&src.harmonics) {
-            assert!((a.flow - b.flow).norm() < 1e-15 * b.flow.norm());
-            assert!((a.impedance - b.impedance).norm() < 1e-15 * b.impedance.norm());
+            assert!((a.flow - b.flow).norm() <= tol(b.flow, b.flow_uncertainty));
+            assert!(
+                (a.impedance - b.impedance).norm() <= tol(b.impedance, b.impedance_uncertainty)
+            );
             assert_eq!(a.flow_uncertainty, b.flow_uncertainty);
             assert_eq!(a.impedance_uncertainty, b.impedance_uncertainty);
+            assert_eq!((a.status, &a.note), (b.status, &b.note));
         }
+        assert!(text.contains("flow_amplitude: 1.247e-5 m3/s"), "{text}");
+        // A measured speed: 25.0500342 ± 1.23e-5 rev/s is 1503.002052 ±
+        // 7.4e-4 rpm, written to 1e-5 rpm.
+        let measured = PumpSource {
+            speed_rev_s: 25.050_034_2,
+            speed_uncertainty_rev_s: Some(1.23e-5),
+            ..src.clone()
+        };
+        let mut buf = Vec::new();
+        write_source_file(&measured, &mut buf, "test").unwrap();
+        let text = String::from_utf8(buf).unwrap();
+        assert!(
+            text.contains("speed: 1503.00205 rpm   # ± 7.4e-4 rpm (standard uncertainty)"),
+            "{text}"
+        );
         // The impedance table holds the values at k·f_p.
         let SourceImpedance::Table(t) = back.source_impedance().unwrap() else {
             panic!("a table")
         };
         assert_eq!(t.range_hz(), (225.0, 450.0));
-        assert!((t.at(450.0) - src.harmonics[1].impedance).norm() < 1e-6);
+        assert!((t.at(450.0) - src.harmonics[1].impedance).norm() < 0.1 * 2e8);
     }
 
     #[test]

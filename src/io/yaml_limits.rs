@@ -15,8 +15,9 @@
 pub const MAX_YAML_DEPTH: usize = 64;
 
 /// Most nodes (keys, values, collections) accepted in a YAML input file:
-/// some 15,000 elements of a circuit, and under 50 MB for the parser.
-pub const MAX_YAML_NODES: usize = 250_000;
+/// a circuit at `limits::MAX_ELEMENTS` (some 17 to 20 nodes an element),
+/// and about 160 MB for the parser at most.
+pub const MAX_YAML_NODES: usize = 1_000_000;
 
 /// Which bound a text exceeds.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

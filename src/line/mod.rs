@@ -31,7 +31,6 @@ use crate::hose::ViscoelasticWall;
 use num_complex::Complex64 as C64;
 
 const J: C64 = C64 { re: 0.0, im: 1.0 };
-const ONE: C64 = C64 { re: 1.0, im: 0.0 };
 
 /// How the series impedance of a line is modelled at each frequency.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
@@ -214,19 +213,23 @@ impl LineProperties {
     /// Γ = √(Z'Y') (Re Γ ≥ 0), Zc = Z'/Γ, with Z' = jωρ/(A(1 − F)) + ΔR' and
     /// Y' = jωA/B*(ω).
     pub fn propagation(&self, omega: f64) -> Propagation {
+        let factor = (self.model != LineModel::Lossless)
+            .then(|| viscous::one_minus_viscous_factor(self.shear_number(omega)));
+        self.propagation_with(omega, factor)
+    }
+
+    /// [`LineProperties::propagation`] with the viscous factor 1 − F already
+    /// evaluated at this frequency for this line's bore and fluid (`None`
+    /// for the lossless model): lines of one bore in one fluid share it.
+    pub fn propagation_with(&self, omega: f64, one_minus_f: Option<C64>) -> Propagation {
         let extra_r = self.turbulent_resistance_per_m();
         if self.viscoelastic_wall.is_some() || extra_r != 0.0 {
-            return self.general_propagation(omega, extra_r);
+            return self.general_propagation(omega, extra_r, one_minus_f);
         }
         let c0 = self.wave_speed_m_s();
         let area = self.area_m2();
-        match self.model {
-            LineModel::Lossless => Propagation {
-                gamma: J * (omega / c0),
-                zc: C64::new(self.density_kg_m3 * c0 / area, 0.0),
-            },
-            LineModel::Laminar | LineModel::Turbulent => {
-                let g = viscous::one_minus_viscous_factor(self.shear_number(omega));
+        match (self.model, one_minus_f) {
+            (LineModel::Laminar | LineModel::Turbulent, Some(g)) => {
                 let series = J * (omega * self.density_kg_m3 / area) / g; // Z'
                 let mut gamma = J * (omega / c0) / sqrt(g);
                 if gamma.re < 0.0 {
@@ -237,20 +240,27 @@ impl LineProperties {
                     zc: series / gamma,
                 }
             }
+            _ => Propagation {
+                gamma: J * (omega / c0),
+                zc: C64::new(self.density_kg_m3 * c0 / area, 0.0),
+            },
         }
     }
 
     /// Γ = √(Z'Y') with Re Γ ≥ 0 (and Im Γ ≥ 0 when Re Γ = 0, the wave
     /// travelling towards +x), Zc = Z'/Γ, for any series resistance added to
     /// the friction model and any wall compliance.
-    fn general_propagation(&self, omega: f64, extra_r: f64) -> Propagation {
+    fn general_propagation(
+        &self,
+        omega: f64,
+        extra_r: f64,
+        one_minus_f: Option<C64>,
+    ) -> Propagation {
         let area = self.area_m2();
         let inertia = J * (omega * self.density_kg_m3 / area);
-        let series = match self.model {
-            LineModel::Lossless => inertia,
-            LineModel::Laminar | LineModel::Turbulent => {
-                inertia / viscous::one_minus_viscous_factor(self.shear_number(omega)) + extra_r
-            }
+        let series = match (self.model, one_minus_f) {
+            (LineModel::Laminar | LineModel::Turbulent, Some(g)) => inertia / g + extra_r,
+            _ => inertia,
         };
         let shunt = J * (omega * area) * self.compliance(omega);
         let mut gamma = sqrt(series * shunt);
@@ -282,16 +292,6 @@ fn sqrt(z: C64) -> C64 {
     }
 }
 
-/// e^z − 1 without cancellation near z = 0:
-/// e^{x+jy} − 1 = (expm1(x) cos y − 2 sin²(y/2)) + j e^x sin y.
-fn exp_m1(z: C64) -> C64 {
-    let (sin_half, sin_y, cos_y) = ((0.5 * z.im).sin(), z.im.sin(), z.im.cos());
-    C64::new(
-        z.re.exp_m1() * cos_y - 2.0 * sin_half * sin_half,
-        z.re.exp() * sin_y,
-    )
-}
-
 /// A uniform line: its properties and its length.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Line {
@@ -310,25 +310,39 @@ pub type Transfer2 = [[C64; 2]; 2];
 impl Line {
     /// The admittance two-port at Γ, Zc, in the stable e^{−Γl} form.
     ///
+    /// With Γl = x + jy (x ≥ 0), E = e^{−Γl} = a(cos y − j sin y), a = e^{−x},
+    /// and m = 1 − a² = −expm1(−2x) ≥ 0, the identities cos 2y = 1 − 2 sin²y
+    /// = 2 cos²y − 1 give
+    ///
+    /// ```text
+    /// 1 − E² = m + 2a² sin²y + j 2a² sin y cos y
+    /// 1 + E² = m + 2a² cos²y − j 2a² sin y cos y
+    /// ```
+    ///
+    /// whose real parts are sums of non-negative terms: no cancellation for
+    /// electrically short lines or near quarter-wave resonances, and only
+    /// one exponential, one sine and one cosine per line.
+    ///
     /// Returns `None` when 1 − E² is exactly zero (Γl = 0, or a lossless
     /// line exactly at a half-wave resonance), where no admittance form exists.
     pub fn admittance(&self, prop: &Propagation) -> Option<Admittance2> {
         let gl = prop.gamma * self.length_m;
-        let e = (-gl).exp();
-        let e2 = e * e;
-        // 1 − E², without cancellation for electrically short lines.
-        let den = if gl.norm_sqr() < 0.25 {
-            -exp_m1(-2.0 * gl)
-        } else {
-            ONE - e2
-        };
+        let (x, y) = (gl.re, gl.im);
+        let em = (-x).exp_m1(); // e^{−x} − 1, exact near x = 0
+        let a = 1.0 + em;
+        let m = -em * (1.0 + a); // 1 − a² without cancellation
+        let a2 = a * a;
+        let (s, c) = y.sin_cos();
+        let cross = 2.0 * a2 * s * c;
+        let den = C64::new(m + 2.0 * a2 * s * s, cross);
         if den == C64::new(0.0, 0.0) || !den.is_finite() {
             return None;
         }
-        let coth = (ONE + e2) / den;
-        let csch = 2.0 * e / den;
-        let yc = prop.zc.inv();
-        Some([[coth * yc, -csch * yc], [-csch * yc, coth * yc]])
+        let num = C64::new(m + 2.0 * a2 * c * c, -cross);
+        let e2 = C64::new(2.0 * a * c, -2.0 * a * s);
+        let scale = prop.zc.inv() / den;
+        let (coth, csch) = (num * scale, e2 * scale);
+        Some([[coth, -csch], [-csch, coth]])
     }
 
     /// The transfer matrix T = [[cosh Γl, Zc sinh Γl], [sinh Γl / Zc, cosh Γl]].
@@ -362,6 +376,8 @@ impl Line {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    const ONE: C64 = C64 { re: 1.0, im: 0.0 };
 
     fn oil_line(model: LineModel) -> LineProperties {
         // methods.md §2.3 check case: r = 5 mm, ν = 32e-6, ρ = 870, c0 = 1350.

@@ -1,24 +1,26 @@
-//! Assembly of Y·P = J at one frequency and its LU solve.
+//! Assembly of Y·P = J at one frequency and its sparse LU solve.
 //!
-//! Only this file talks to the linear-algebra crate. The matrix lives in a
-//! reusable nalgebra buffer and is factorised in place by LU with partial
-//! pivoting ([`lu_factor_in_place`]): nalgebra's `LU` takes its matrix by
-//! value and cannot solve with the adjoint, which the condition estimate
-//! needs, and it would cost allocations per frequency in a loop that runs
-//! millions of times in a sweep. Unit tests check the in-place solves against
-//! nalgebra's `LU` and the condition estimate against nalgebra's inverse.
-//! Every solve estimates the condition number of the (non-dimensionalised)
-//! matrix; above [`SINGULAR_CONDITION`], or with a non-finite solution, the
-//! frequency is reported as singular, because a lossless circuit exactly at a
-//! resonance has no solution.
+//! Per frequency: the viscous factor of each distinct (bore, fluid), the
+//! propagation of each distinct line, every element's behaviour; the
+//! behaviours are scattered straight into the factor storage of the plan's
+//! symbolic analysis ([`super::sparse`]), factorised in the static order
+//! (or, where that order is unsafe at this frequency, by the pivoted
+//! fallback), and solved. Every solve estimates the condition number of the
+//! (non-dimensionalised) matrix; above [`SINGULAR_CONDITION`], or with a
+//! non-finite solution, the frequency is reported as singular, because a
+//! lossless circuit exactly at a resonance has no solution.
 
-use super::{Plan, Slot};
+use super::condition::{Solves, abs, inverse_norm1_estimate};
+use super::dense::DenseWorkspace;
+use super::sparse::{self, PivotedLu, Symbolic};
+use super::{NO_SLOT, Plan, Slot, Stamp};
 use crate::elements::{Behaviour, Connection, NodeId};
 use crate::line::Propagation;
-use nalgebra::{DMatrix, DVector};
+use crate::line::viscous::one_minus_viscous_factor;
 use num_complex::Complex64 as C64;
 
 const ZERO: C64 = C64 { re: 0.0, im: 0.0 };
+const ONE: C64 = C64 { re: 1.0, im: 0.0 };
 
 /// Condition number (1-norm estimate) above which a frequency is treated as
 /// singular: fewer than about 3 significant digits would survive (ε·κ > 1e-3).
@@ -27,7 +29,7 @@ pub const SINGULAR_CONDITION: f64 = 1e-3 / f64::EPSILON;
 /// Smallest/largest LU pivot magnitude below which the condition number is
 /// estimated in full (Hager–Higham); above it the matrix is well conditioned
 /// and 1/ratio is reported.
-const CONDITION_SCREEN: f64 = 1e-4;
+pub(super) const CONDITION_SCREEN: f64 = 1e-4;
 
 /// Condition number above which a solution is reported as ill-conditioned:
 /// fewer than about 8 significant digits survive.
@@ -63,34 +65,51 @@ pub enum SolveError {
     },
 }
 
-/// Scratch space reused across frequencies.
+/// Scratch space reused across frequencies: memory in proportion to the
+/// circuit. Results never depend on what a workspace solved before, so any
+/// workspace made for a plan gives the same bits for the same frequency.
 #[derive(Debug, Clone)]
 pub struct Workspace {
-    matrix: DMatrix<C64>,
-    rhs: DVector<C64>,
-    swaps: Vec<usize>,
-    scratch: DVector<C64>,
-    behaviours: Vec<Behaviour>,
+    pub(super) behaviours: Vec<Behaviour>,
     propagations: Vec<Propagation>,
-    unknowns: usize,
+    viscous: Vec<C64>,
+    /// Factor storage (the plan's slots), the matrix as assembled (for the
+    /// fallback and the norm), growth sums.
+    vals: Vec<C64>,
+    assembled: Vec<C64>,
+    mass: Vec<f64>,
+    rhs: Vec<C64>,
+    scratch: Vec<C64>,
+    scratch2: Vec<C64>,
+    pivoted: PivotedLu,
+    pub(super) dense: Option<Box<DenseWorkspace>>,
+    /// (unknowns, slots, elements, lines, bores) of the plan it was made for.
+    shape: [usize; 5],
 }
 
 impl Workspace {
-    pub(super) fn new(unknowns: usize, elements: usize, lines: usize) -> Self {
+    pub(super) fn new(plan: &Plan<'_>) -> Self {
+        let n = plan.unknowns;
+        let slots = plan.symbolic.slots();
         Workspace {
-            matrix: DMatrix::zeros(unknowns, unknowns),
-            rhs: DVector::zeros(unknowns),
-            swaps: vec![0; unknowns],
-            scratch: DVector::zeros(unknowns),
-            behaviours: vec![Behaviour::Nothing; elements],
+            behaviours: vec![Behaviour::Nothing; plan.slots.len()],
             propagations: vec![
                 Propagation {
                     gamma: ZERO,
                     zc: ZERO,
                 };
-                lines
+                plan.lines.len()
             ],
-            unknowns,
+            viscous: vec![ZERO; plan.bores.len()],
+            vals: vec![ZERO; slots],
+            assembled: vec![ZERO; slots],
+            mass: vec![0.0; slots],
+            rhs: vec![ZERO; n],
+            scratch: vec![ZERO; n],
+            scratch2: vec![ZERO; n],
+            pivoted: PivotedLu::default(),
+            dense: None,
+            shape: plan.shape(),
         }
     }
 }
@@ -132,7 +151,66 @@ impl Solution {
     }
 }
 
+/// Which factorisation holds the factors.
+#[derive(Clone, Copy, PartialEq)]
+enum Factored {
+    Static,
+    Pivoted,
+}
+
+/// The factors of one solve, with the plan's order, seen in the original
+/// (compile-order) numbering, so that the condition estimate runs exactly
+/// as on the dense matrix.
+struct SparseFactors<'a> {
+    symbolic: &'a Symbolic,
+    which: Factored,
+    vals: &'a [C64],
+    pivoted: &'a mut PivotedLu,
+    permuted: &'a mut [C64],
+}
+
+impl SparseFactors<'_> {
+    fn apply(&mut self, x: &mut [C64], adjoint: bool) {
+        for (i, &v) in x.iter().enumerate() {
+            self.permuted[self.symbolic.position(i)] = v;
+        }
+        match (self.which, adjoint) {
+            (Factored::Static, false) => {
+                sparse::solve_static(self.symbolic, self.vals, self.permuted, None);
+            }
+            (Factored::Static, true) => {
+                sparse::solve_static_adjoint(self.symbolic, self.vals, self.permuted);
+            }
+            (Factored::Pivoted, false) => self.pivoted.solve(self.permuted),
+            (Factored::Pivoted, true) => self.pivoted.solve_adjoint(self.permuted),
+        }
+        for (i, v) in x.iter_mut().enumerate() {
+            *v = self.permuted[self.symbolic.position(i)];
+        }
+    }
+}
+
+impl Solves for SparseFactors<'_> {
+    fn solve(&mut self, x: &mut [C64]) {
+        self.apply(x, false);
+    }
+    fn solve_adjoint(&mut self, x: &mut [C64]) {
+        self.apply(x, true);
+    }
+}
+
 impl Plan<'_> {
+    /// (unknowns, slots, elements, lines, bores): what a workspace must fit.
+    fn shape(&self) -> [usize; 5] {
+        [
+            self.unknowns,
+            self.symbolic.slots(),
+            self.slots.len(),
+            self.lines.len(),
+            self.bores.len(),
+        ]
+    }
+
     /// Solves the circuit at `freq_hz` with the given flow injections
     /// (node, complex flow in m³/s) in addition to every pump's source
     /// impedance, which is always part of the network.
@@ -146,81 +224,135 @@ impl Plan<'_> {
         injections: &[(NodeId, C64)],
         ws: &mut Workspace,
     ) -> Result<Solution, SolveError> {
+        let omega = self.evaluate(freq_hz, ws)?;
+        let sym = &self.symbolic;
+        ws.vals.fill(ZERO);
+        self.assemble(omega, &ws.behaviours, &mut ws.vals);
+        ws.rhs.fill(ZERO);
+        let zr = self.z_ref;
+        for &(node, q) in injections {
+            if let Some(at) = self.node_index[node] {
+                ws.rhs[sym.position(at)] += q * zr;
+            }
+        }
+        let singular = |condition: f64| SolveError::Singular { freq_hz, condition };
+        let mut assembled = false;
+        let (pivot_ratio, which) = match sparse::factor_static(sym, &mut ws.vals, &mut ws.mass) {
+            Some(ratio) => (ratio, Factored::Static),
+            None => {
+                ws.assembled.fill(ZERO);
+                self.assemble(omega, &ws.behaviours, &mut ws.assembled);
+                assembled = true;
+                (ws.pivoted.factor(sym, &ws.assembled), Factored::Pivoted)
+            }
+        };
+        if pivot_ratio.is_nan() || pivot_ratio <= 0.0 {
+            return Err(singular(f64::INFINITY));
+        }
+        let mut factors = SparseFactors {
+            symbolic: sym,
+            which,
+            vals: &ws.vals,
+            pivoted: &mut ws.pivoted,
+            permuted: &mut ws.scratch2,
+        };
+        // Screen: the Hager–Higham estimate costs several triangular solves,
+        // so it runs only when the pivots hint at trouble; otherwise the
+        // pivot ratio's reciprocal stands in (then well below ILL_CONDITIONED).
+        let condition = if pivot_ratio < CONDITION_SCREEN {
+            if !assembled {
+                ws.assembled.fill(ZERO);
+                self.assemble(omega, &ws.behaviours, &mut ws.assembled);
+            }
+            let a_norm = norm1(sym, &ws.assembled, &mut ws.scratch);
+            if !a_norm.is_finite() {
+                return Err(singular(f64::INFINITY));
+            }
+            a_norm * inverse_norm1_estimate(&mut ws.scratch, &mut factors)
+        } else {
+            1.0 / pivot_ratio
+        };
+        // NaN-safe: a NaN condition is not <= the limit.
+        let solvable = condition <= SINGULAR_CONDITION;
+        let clean = match which {
+            Factored::Static => sparse::solve_static(
+                sym,
+                &ws.vals,
+                &mut ws.rhs,
+                Some(&mut ws.mass[..self.unknowns]),
+            ),
+            Factored::Pivoted => {
+                ws.pivoted.solve(&mut ws.rhs);
+                false
+            }
+        };
+        if !clean && solvable {
+            // One step of iterative refinement (sparse module docs): the
+            // residual of the assembled matrix, solved with the same factors.
+            if !assembled {
+                ws.assembled.fill(ZERO);
+                self.assemble(omega, &ws.behaviours, &mut ws.assembled);
+            }
+            let r = &mut ws.scratch;
+            r.fill(ZERO);
+            for &(node, q) in injections {
+                if let Some(at) = self.node_index[node] {
+                    r[sym.position(at)] += q * zr;
+                }
+            }
+            let x = &ws.rhs;
+            sym.for_each_entry(|slot, row, col| r[row] -= ws.assembled[slot] * x[col]);
+            match which {
+                Factored::Static => {
+                    sparse::solve_static(sym, &ws.vals, r, None);
+                }
+                Factored::Pivoted => ws.pivoted.solve(r),
+            }
+            for (x, d) in ws.rhs.iter_mut().zip(r.iter()) {
+                *x += d;
+            }
+        }
+        if !solvable || !ws.rhs.iter().all(|v| v.is_finite()) {
+            return Err(singular(condition));
+        }
+        let x = &ws.rhs;
+        Ok(self.solution(freq_hz, x, &ws.behaviours, condition))
+    }
+
+    /// Checks the frequency and fills the workspace's behaviours: the
+    /// viscous factor once per distinct bore, the propagation once per
+    /// distinct line, then every element. Returns ω.
+    pub(super) fn evaluate(&self, freq_hz: f64, ws: &mut Workspace) -> Result<f64, SolveError> {
         if !(freq_hz.is_finite() && freq_hz > 0.0) {
             return Err(SolveError::BadFrequency { freq_hz });
         }
-        if ws.unknowns != self.unknowns
-            || ws.behaviours.len() != self.slots.len()
-            || ws.propagations.len() != self.lines.len()
-        {
+        if ws.shape != self.shape() {
             *ws = self.workspace(); // a workspace made for another plan
         }
         let omega = 2.0 * std::f64::consts::PI * freq_hz;
-        let zr = self.z_ref;
-        ws.matrix.fill(ZERO);
-        ws.rhs.fill(ZERO);
-        let y = &mut ws.matrix;
-
-        for (prop, line) in ws.propagations.iter_mut().zip(&self.lines) {
-            *prop = line.propagation(omega);
+        for (g, &(radius_m, nu)) in ws.viscous.iter_mut().zip(&self.bores) {
+            // the shear number as `LineProperties::shear_number` forms it
+            *g = one_minus_viscous_factor(radius_m * (omega / nu).sqrt());
+        }
+        for ((prop, line), bore) in ws
+            .propagations
+            .iter_mut()
+            .zip(&self.lines)
+            .zip(&self.bore_of)
+        {
+            *prop = line.propagation_with(omega, bore.map(|b| ws.viscous[b]));
         }
         for (i, (element, slot)) in self.circuit.elements.iter().zip(&self.slots).enumerate() {
             let prop = self.line_of[i].map(|l| &ws.propagations[l]);
             let behaviour = element.kind.behaviour_with(omega, prop);
             ws.behaviours[i] = behaviour;
-            let not_finite = || SolveError::ElementNotFinite {
-                element: element.name.clone(),
-                freq_hz,
-            };
-            match (*slot, behaviour) {
-                (Slot::Admittance { a, b }, Behaviour::Admittance(m)) => {
-                    if !m.iter().flatten().all(|v| v.is_finite()) {
-                        return Err(not_finite());
-                    }
-                    let ends = [a, b];
-                    for (r, row) in ends.iter().enumerate() {
-                        for (c, col) in ends.iter().enumerate() {
-                            if let (Some(row), Some(col)) = (row, col) {
-                                y[(*row, *col)] += m[r][c] * zr;
-                            }
-                        }
-                    }
+            let finite = match (*slot, behaviour) {
+                (Slot::Admittance { .. }, Behaviour::Admittance(m))
+                | (Slot::Transfer { .. }, Behaviour::Transfer(m)) => {
+                    m.iter().flatten().all(|v| v.is_finite())
                 }
-                (Slot::Transfer { a, b, qa, qb }, Behaviour::Transfer(t)) => {
-                    if !t.iter().flatten().all(|v| v.is_finite()) {
-                        return Err(not_finite());
-                    }
-                    // KCL: flow qa leaves node a into the element, qb enters node b.
-                    if let Some(a) = a {
-                        y[(a, qa)] += C64::new(1.0, 0.0);
-                    }
-                    if let Some(b) = b {
-                        y[(b, qb)] -= C64::new(1.0, 0.0);
-                    }
-                    // Row qa: Pa − T11 Pb − T12 Qb = 0 (Qb carried as Z_ref·Qb).
-                    if let Some(a) = a {
-                        y[(qa, a)] += C64::new(1.0, 0.0);
-                    }
-                    if let Some(b) = b {
-                        y[(qa, b)] -= t[0][0];
-                    }
-                    y[(qa, qb)] -= t[0][1] / zr;
-                    // Row qb: Qa − T21 Pb − T22 Qb = 0, times Z_ref.
-                    y[(qb, qa)] += C64::new(1.0, 0.0);
-                    if let Some(b) = b {
-                        y[(qb, b)] -= t[1][0] * zr;
-                    }
-                    y[(qb, qb)] -= t[1][1];
-                }
-                (Slot::Shunt { at }, Behaviour::Shunt(ysh)) => {
-                    if !ysh.is_finite() {
-                        return Err(not_finite());
-                    }
-                    if let Some(at) = at {
-                        y[(at, at)] += ysh * zr;
-                    }
-                }
-                (Slot::Empty, _) | (Slot::Shunt { at: None }, _) => {}
+                (Slot::Shunt { .. }, Behaviour::Shunt(y)) => y.is_finite(),
+                (Slot::Empty, _) | (Slot::Shunt { at: None }, _) => true,
                 _ => {
                     // A two-port whose model has no admittance form here.
                     return Err(SolveError::Singular {
@@ -228,324 +360,117 @@ impl Plan<'_> {
                         condition: f64::INFINITY,
                     });
                 }
+            };
+            if !finite {
+                return Err(SolveError::ElementNotFinite {
+                    element: element.name.clone(),
+                    freq_hz,
+                });
             }
         }
-        for pump in &self.circuit.pumps {
-            if let Some(at) = self.node_index[pump.node] {
-                y[(at, at)] += pump.source_impedance.admittance(omega) * zr;
-            }
-        }
-        for &(node, q) in injections {
-            if let Some(at) = self.node_index[node] {
-                ws.rhs[at] += q * zr;
-            }
-        }
+        Ok(omega)
+    }
 
-        let a_norm = norm1(&ws.matrix);
-        let singular = |condition: f64| SolveError::Singular { freq_hz, condition };
-        let pivot_ratio = lu_factor_in_place(&mut ws.matrix, &mut ws.swaps);
-        if !a_norm.is_finite() || pivot_ratio.is_nan() || pivot_ratio <= 0.0 {
-            return Err(singular(f64::INFINITY));
-        }
-        // Screen: the Hager–Higham estimate costs several triangular solves,
-        // so it runs only when the pivots hint at trouble; otherwise the
-        // pivot ratio's reciprocal stands in (then well below ILL_CONDITIONED).
-        let condition = if pivot_ratio < CONDITION_SCREEN {
-            a_norm * inverse_norm1_estimate(&ws.matrix, &ws.swaps, &mut ws.scratch)
-        } else {
-            1.0 / pivot_ratio
+    /// Adds every element's behaviour and the pumps' source admittances
+    /// into `vals` (the plan's slots), scaled by Z_ref (module docs). A
+    /// transfer two-port's flow row comes first in the order (its pivot is
+    /// 1), its pressure row second.
+    fn assemble(&self, omega: f64, behaviours: &[Behaviour], vals: &mut [C64]) {
+        let zr = self.z_ref;
+        let mut add = |slot: u32, v: C64| {
+            if slot != NO_SLOT {
+                vals[slot as usize] += v;
+            }
         };
-        // NaN-safe: a NaN condition is not <= the limit.
-        let solvable = condition <= SINGULAR_CONDITION;
-        lu_solve(&ws.matrix, &ws.swaps, &mut ws.rhs);
-        if !solvable || !ws.rhs.iter().all(|v| v.is_finite()) {
-            return Err(singular(condition));
+        for (stamp, behaviour) in self.stamps.iter().zip(behaviours) {
+            match (*stamp, *behaviour) {
+                (Stamp::Admittance(s), Behaviour::Admittance(m)) => {
+                    add(s[0], m[0][0] * zr);
+                    add(s[1], m[0][1] * zr);
+                    add(s[2], m[1][0] * zr);
+                    add(s[3], m[1][1] * zr);
+                }
+                (Stamp::Transfer(s, _), Behaviour::Transfer(t)) => {
+                    // KCL: flow qa leaves node a into the element, qb enters node b.
+                    add(s[0], ONE);
+                    add(s[1], -ONE);
+                    // Flow row: Qa − T21 Pb − T22 Qb = 0, times Z_ref.
+                    add(s[2], ONE);
+                    add(s[3], -(t[1][0] * zr));
+                    add(s[4], -t[1][1]);
+                    // Pressure row: Pa − T11 Pb − T12 Qb = 0 (Qb carried as Z_ref·Qb).
+                    add(s[5], ONE);
+                    add(s[6], -t[0][0]);
+                    add(s[7], -(t[0][1] / zr));
+                }
+                (Stamp::Shunt(s), Behaviour::Shunt(y)) => add(s, y * zr),
+                _ => {}
+            }
         }
-        let x = &ws.rhs;
+        for (pump, &slot) in self.circuit.pumps.iter().zip(&self.pump_slots) {
+            if slot != NO_SLOT {
+                add(slot, pump.source_impedance.admittance(omega) * zr);
+            }
+        }
+    }
 
+    /// The solution from the unknowns `x` (in the sparse order) and the
+    /// elements' behaviours.
+    pub(super) fn solution(
+        &self,
+        freq_hz: f64,
+        x: &[C64],
+        behaviours: &[Behaviour],
+        condition: f64,
+    ) -> Solution {
+        let zr = self.z_ref;
         let node_pressures: Vec<C64> = self
-            .node_index
+            .node_pos
             .iter()
-            .map(|i| i.map_or(ZERO, |i| x[i]))
+            .map(|&p| if p == NO_SLOT { ZERO } else { x[p as usize] })
             .collect();
         let end_flows = self
             .circuit
             .elements
             .iter()
-            .zip(&self.slots)
-            .zip(&ws.behaviours)
-            .map(|((element, slot), behaviour)| match (*slot, behaviour) {
-                (Slot::Admittance { .. }, Behaviour::Admittance(m)) => {
-                    let Connection::Series { a, b } = element.connection else {
-                        return None;
-                    };
-                    let (pa, pb) = (node_pressures[a], node_pressures[b]);
-                    let qa_in = m[0][0] * pa + m[0][1] * pb;
-                    let qb_in = m[1][0] * pa + m[1][1] * pb;
-                    Some((qa_in, -qb_in))
-                }
-                (Slot::Transfer { qa, qb, .. }, _) => Some((x[qa] / zr, x[qb] / zr)),
-                (Slot::Shunt { .. }, Behaviour::Shunt(y)) => {
-                    let Connection::Shunt { at } = element.connection else {
-                        return None;
-                    };
-                    let q = y * node_pressures[at];
-                    Some((q, q))
-                }
-                _ => None,
-            })
+            .zip(&self.stamps)
+            .zip(behaviours)
+            .map(
+                |((element, stamp), behaviour)| match (stamp, behaviour, element.connection) {
+                    (
+                        Stamp::Admittance(_),
+                        Behaviour::Admittance(m),
+                        Connection::Series { a, b },
+                    ) => {
+                        let (pa, pb) = (node_pressures[a], node_pressures[b]);
+                        let qa_in = m[0][0] * pa + m[0][1] * pb;
+                        let qb_in = m[1][0] * pa + m[1][1] * pb;
+                        Some((qa_in, -qb_in))
+                    }
+                    (Stamp::Transfer(_, [qa, qb]), _, _) => {
+                        Some((x[*qa as usize] / zr, x[*qb as usize] / zr))
+                    }
+                    (Stamp::Shunt(_), Behaviour::Shunt(y), Connection::Shunt { at }) => {
+                        let q = y * node_pressures[at];
+                        Some((q, q))
+                    }
+                    _ => None,
+                },
+            )
             .collect();
-        Ok(Solution {
+        Solution {
             freq_hz,
             node_pressures,
             end_flows,
             condition,
-        })
-    }
-}
-
-/// Factorises A in place by Gaussian elimination with partial pivoting (the
-/// row with the largest |pivot| is swapped up at each step, as in nalgebra's
-/// `LU` and LAPACK's `zgetrf`): afterwards `a` holds U on and above the
-/// diagonal and the unit-lower L below it, and `swaps[k]` is the row swapped
-/// with row k at step k.
-///
-/// Returns the smallest over the largest pivot magnitude, 0 when a pivot is
-/// exactly zero (then the factors are incomplete).
-fn lu_factor_in_place(a: &mut DMatrix<C64>, swaps: &mut [usize]) -> f64 {
-    let n = a.nrows();
-    let (mut lo, mut hi) = (f64::INFINITY, 0.0_f64);
-    for k in 0..n {
-        // pivot search on |.|² (no hypot in the hot loop)
-        let mut p = k;
-        let mut best = a[(k, k)].norm_sqr();
-        for i in k + 1..n {
-            let v = a[(i, k)].norm_sqr();
-            if v > best {
-                (p, best) = (i, v);
-            }
-        }
-        swaps[k] = p;
-        lo = lo.min(best);
-        hi = hi.max(best);
-        if best == 0.0 {
-            return 0.0;
-        }
-        if p != k {
-            a.swap_rows(k, p);
-        }
-        let inv = a[(k, k)].inv();
-        for i in k + 1..n {
-            let factor = a[(i, k)] * inv;
-            a[(i, k)] = factor;
-            if factor == ZERO {
-                continue;
-            }
-            for j in k + 1..n {
-                let u = a[(k, j)];
-                a[(i, j)] -= factor * u;
-            }
-        }
-    }
-    (lo / hi).sqrt()
-}
-
-/// Solves A·x = b with the factors of [`lu_factor_in_place`]; b becomes x.
-fn lu_solve(lu: &DMatrix<C64>, swaps: &[usize], b: &mut DVector<C64>) {
-    let n = lu.nrows();
-    let a = lu.as_slice(); // column-major: a[i + j·n] = A[i, j]
-    let x = b.as_mut_slice();
-    for (k, &p) in swaps.iter().enumerate() {
-        x.swap(k, p);
-    }
-    for j in 0..n {
-        // forward substitution with the unit lower factor, column by column
-        let xj = x[j];
-        if xj != ZERO {
-            let col = &a[j * n..(j + 1) * n];
-            for i in j + 1..n {
-                x[i] -= col[i] * xj;
-            }
-        }
-    }
-    for j in (0..n).rev() {
-        let col = &a[j * n..(j + 1) * n];
-        x[j] /= col[j];
-        let xj = x[j];
-        if xj != ZERO {
-            for i in 0..j {
-                x[i] -= col[i] * xj;
-            }
         }
     }
 }
 
-/// Solves Aᴴ·x = b with the factors of [`lu_factor_in_place`]
-/// (Aᴴ = Uᴴ Lᴴ P); b becomes x.
-fn lu_solve_adjoint(lu: &DMatrix<C64>, swaps: &[usize], b: &mut DVector<C64>) {
-    let n = lu.nrows();
-    let a = lu.as_slice();
-    let x = b.as_mut_slice();
-    for i in 0..n {
-        // row i of Uᴴ is the conjugate of column i of U
-        let col = &a[i * n..(i + 1) * n];
-        let mut sum = x[i];
-        for j in 0..i {
-            sum -= col[j].conj() * x[j];
-        }
-        x[i] = sum / col[i].conj();
-    }
-    for i in (0..n).rev() {
-        let col = &a[i * n..(i + 1) * n];
-        let mut sum = x[i];
-        for j in i + 1..n {
-            sum -= col[j].conj() * x[j];
-        }
-        x[i] = sum;
-    }
-    for (k, &p) in swaps.iter().enumerate().rev() {
-        x.swap(k, p);
-    }
-}
-
-/// |z| as √(re² + im²): faster than `hypot` in the estimator's loops, and
-/// safe here because the non-dimensionalised entries are far from overflow
-/// (an overflow gives inf, which is reported as singular).
-fn abs(z: C64) -> f64 {
-    z.norm_sqr().sqrt()
-}
-
-/// Σ|x_i|.
-fn sum_abs(x: &DVector<C64>) -> f64 {
-    x.iter().map(|&v| abs(v)).sum()
-}
-
-/// The 1-norm ‖A‖₁ = max over columns of Σ|a_ij|.
-fn norm1(a: &DMatrix<C64>) -> f64 {
-    a.column_iter()
-        .map(|c| c.iter().map(|&v| abs(v)).sum::<f64>())
-        .fold(0.0, f64::max)
-}
-
-/// Estimates ‖A⁻¹‖₁ from the LU factors by Hager's method as refined by
-/// Higham (N. J. Higham, "FORTRAN codes for estimating the one-norm of a real
-/// or complex matrix", ACM TOMS 14(4), 1988; the algorithm of LAPACK's
-/// `zlacon`, here with at most two iterations): a few solves with A and Aᴴ,
-/// never forming A⁻¹. The estimate is a lower bound, usually within a factor
-/// of 3 of the true norm.
-fn inverse_norm1_estimate(lu: &DMatrix<C64>, swaps: &[usize], x: &mut DVector<C64>) -> f64 {
-    let n = lu.nrows();
-    x.fill(C64::new(1.0 / n as f64, 0.0));
-    lu_solve(lu, swaps, x);
-    let mut estimate = sum_abs(x);
-    let mut last_j = usize::MAX;
-    // Higham (1988) reports convergence within two iterations in almost all
-    // cases; two keep the per-frequency cost low in sweeps.
-    for _ in 0..2 {
-        // ξ = sign(x), z = A⁻ᴴ ξ
-        for v in x.iter_mut() {
-            let m = abs(*v);
-            *v = if m > 0.0 { *v / m } else { C64::new(1.0, 0.0) };
-        }
-        lu_solve_adjoint(lu, swaps, x);
-        let (j, _) =
-            x.iter().enumerate().fold(
-                (0, -1.0),
-                |(bj, bv), (i, v)| if v.re > bv { (i, v.re) } else { (bj, bv) },
-            );
-        if j == last_j {
-            break;
-        }
-        last_j = j;
-        x.fill(ZERO);
-        x[j] = C64::new(1.0, 0.0);
-        lu_solve(lu, swaps, x);
-        let next = sum_abs(x);
-        if next <= estimate {
-            break;
-        }
-        estimate = next;
-    }
-    // Higham's extra test vector x_i = (−1)^i (1 + i/(n−1)) guards against
-    // the rare matrices where the iteration stops too early.
-    if n > 1 {
-        for (i, v) in x.iter_mut().enumerate() {
-            let sign = if i % 2 == 0 { 1.0 } else { -1.0 };
-            *v = C64::new(sign * (1.0 + i as f64 / (n - 1) as f64), 0.0);
-        }
-        lu_solve(lu, swaps, x);
-        let alt = 2.0 * sum_abs(x) / (3.0 * n as f64);
-        estimate = estimate.max(alt);
-    }
-    estimate
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    fn random_matrix(n: usize, seed: &mut u64) -> DMatrix<C64> {
-        let mut rand = || {
-            *seed ^= *seed << 13;
-            *seed ^= *seed >> 7;
-            *seed ^= *seed << 17;
-            (*seed >> 11) as f64 / (1u64 << 53) as f64 - 0.5
-        };
-        DMatrix::<C64>::from_fn(n, n, |_, _| C64::new(rand(), rand()))
-    }
-
-    /// The in-place solves agree with nalgebra's LU (the reference
-    /// implementation) on random complex systems, pivoting included, for A
-    /// and for its adjoint.
-    #[test]
-    fn in_place_lu_agrees_with_nalgebra() {
-        let mut seed = 0x2545_f491_4f6c_dd1d_u64;
-        for n in [1, 2, 3, 5, 8, 13] {
-            let a = random_matrix(n, &mut seed);
-            let b = random_matrix(n, &mut seed).column(0).into_owned();
-            let want = a.clone().lu().solve(&b).unwrap();
-            let want_adj = a.adjoint().lu().solve(&b).unwrap();
-            let mut lu = a.clone();
-            let mut swaps = vec![0; n];
-            assert!(lu_factor_in_place(&mut lu, &mut swaps) > 0.0);
-            let mut x = b.clone();
-            lu_solve(&lu, &swaps, &mut x);
-            assert!((&x - &want).norm() < 1e-12 * want.norm(), "n = {n}");
-            let mut y = b.clone();
-            lu_solve_adjoint(&lu, &swaps, &mut y);
-            assert!(
-                (&y - &want_adj).norm() < 1e-12 * want_adj.norm(),
-                "adjoint, n = {n}"
-            );
-        }
-    }
-
-    /// Hager–Higham estimate against the exact ‖A⁻¹‖₁ from nalgebra's
-    /// inverse: a lower bound, within a factor 3 (Higham 1988 reports it
-    /// exact in most cases).
-    #[test]
-    fn condition_estimate_brackets_the_exact_value() {
-        let mut seed = 0x9e37_79b9_7f4a_7c15_u64;
-        for n in [2, 4, 7, 12] {
-            for _ in 0..5 {
-                let a = random_matrix(n, &mut seed);
-                let exact = norm1(&a.clone().try_inverse().unwrap());
-                let mut lu = a.clone();
-                let mut swaps = vec![0; n];
-                assert!(lu_factor_in_place(&mut lu, &mut swaps) > 0.0);
-                let mut x = DVector::zeros(n);
-                let est = inverse_norm1_estimate(&lu, &swaps, &mut x);
-                assert!(
-                    est <= exact * (1.0 + 1e-12) && est >= exact / 3.0,
-                    "{est} vs {exact}"
-                );
-            }
-        }
-    }
-
-    #[test]
-    fn a_zero_pivot_is_reported() {
-        let mut a = DMatrix::<C64>::from_element(2, 2, C64::new(1.0, 0.0));
-        assert_eq!(lu_factor_in_place(&mut a, &mut [0, 0]), 0.0);
-    }
+/// ‖A‖₁ = max over columns of Σ|a_ij| from the slots (`colsum`: n scratch).
+fn norm1(sym: &Symbolic, vals: &[C64], colsum: &mut [C64]) -> f64 {
+    // sums kept in the real parts of the scratch vector
+    colsum.fill(ZERO);
+    sym.for_each_entry(|slot, _, col| colsum[col].re += abs(vals[slot]));
+    colsum.iter().map(|c| c.re).fold(0.0, f64::max)
 }

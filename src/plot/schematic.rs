@@ -272,8 +272,25 @@ fn line(out: &mut String, pts: &[(f64, f64)], stroke: &str, width: f64) {
 }
 
 /// Draws the symbol of a series element centred at (x, y) on a horizontal
-/// line; returns nothing, draws over the line.
-fn series_symbol(out: &mut String, kind: &str, x: f64, y: f64) {
+/// line, in a group of class `symbol KIND`; `forward` says the element's
+/// file `from` end is on the left (for a check valve's direction).
+fn series_symbol(out: &mut String, kind: &str, x: f64, y: f64, forward: bool) {
+    let _ = writeln!(out, r#"<g class="symbol {kind}">"#);
+    series_shape(out, kind, x, y, forward);
+    out.push_str("</g>\n");
+}
+
+/// Height of a series symbol above its line, px (its name goes above it).
+fn series_height(kind: &str) -> f64 {
+    match kind {
+        "relief_valve" => 26.0,
+        "cylinder" => 26.0,
+        "inline_pulsation_damper" => 28.0,
+        _ => 14.0,
+    }
+}
+
+fn series_shape(out: &mut String, kind: &str, x: f64, y: f64, forward: bool) {
     match kind {
         "tube" => {
             // a pipe: two parallel walls
@@ -318,8 +335,115 @@ fn series_symbol(out: &mut String, kind: &str, x: f64, y: f64) {
         "expansion_chamber" => {
             rect(out, x - 22.0, y - 13.0, 44.0, 26.0, 3.0, "white", 2.0);
         }
+        "check_valve" => {
+            // a ball held against its seat; flow lifts it off (seat upstream)
+            let d = if forward { 1.0 } else { -1.0 };
+            rect(out, x - 14.0, y - 11.0, 28.0, 22.0, 0.0, "white", 0.0);
+            path(
+                out,
+                &format!(
+                    "M{:.1},{:.1} L{:.1},{y:.1} L{:.1},{:.1}",
+                    x - 3.0 * d,
+                    y - 10.0,
+                    x - 11.0 * d,
+                    x - 3.0 * d,
+                    y + 10.0
+                ),
+                "none",
+                2.0,
+            );
+            circle(out, x + 3.0 * d, y, 6.5, "white");
+        }
+        "relief_valve" => {
+            // a valve envelope with its flow path offset (closed until it
+            // cracks) and the spring that sets the cracking pressure
+            rect(out, x - 12.0, y - 12.0, 24.0, 24.0, 0.0, "white", 1.5);
+            arrow(out, (x - 8.0, y + 5.0), (x + 8.0, y + 5.0));
+            spring(out, (x, y - 12.0), (x, y - 26.0));
+        }
+        "cylinder" => {
+            // the barrel above the line, fed at the cap port and the rod port
+            // (the line is broken between them), the rod out on the right
+            rect(out, x - 16.0, y - 3.0, 30.0, 6.0, 0.0, "white", 0.0);
+            line(out, &[(x - 16.0, y), (x - 16.0, y - 8.0)], INK, 2.0);
+            line(out, &[(x + 14.0, y), (x + 14.0, y - 8.0)], INK, 2.0);
+            rect(out, x - 22.0, y - 26.0, 44.0, 18.0, 0.0, "white", 2.0);
+            line(out, &[(x - 4.0, y - 25.0), (x - 4.0, y - 9.0)], INK, 3.0);
+            line(out, &[(x - 4.0, y - 17.0), (x + 34.0, y - 17.0)], INK, 3.0);
+        }
+        "inline_pulsation_damper" => {
+            // a gas-charged vessel the flow passes through at its bottom
+            vessel(out, x, y + 12.0);
+        }
         _ => generic_box(out, kind, x, y),
     }
+}
+
+fn path(out: &mut String, d: &str, fill: &str, width: f64) {
+    let _ = writeln!(
+        out,
+        r#"<path d="{d}" fill="{fill}" stroke="{INK}" stroke-width="{width}" stroke-linejoin="round"/>"#
+    );
+}
+
+fn circle(out: &mut String, x: f64, y: f64, r: f64, fill: &str) {
+    let _ = writeln!(
+        out,
+        r#"<circle cx="{x:.1}" cy="{y:.1}" r="{r:.1}" fill="{fill}" stroke="{INK}" stroke-width="2"/>"#
+    );
+}
+
+/// A straight arrow from `a` to `b` with a filled head at `b`.
+fn arrow(out: &mut String, a: (f64, f64), b: (f64, f64)) {
+    let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+    let len = (dx * dx + dy * dy).sqrt().max(1e-9);
+    let (ux, uy) = (dx / len, dy / len);
+    let base = (b.0 - 6.0 * ux, b.1 - 6.0 * uy);
+    line(out, &[a, base], INK, 1.5);
+    path(
+        out,
+        &format!(
+            "M{:.1},{:.1} L{:.1},{:.1} L{:.1},{:.1} Z",
+            b.0,
+            b.1,
+            base.0 - 3.5 * uy,
+            base.1 + 3.5 * ux,
+            base.0 + 3.5 * uy,
+            base.1 - 3.5 * ux
+        ),
+        INK,
+        1.0,
+    );
+}
+
+/// A zigzag spring from `a` to `b` (six strokes).
+fn spring(out: &mut String, a: (f64, f64), b: (f64, f64)) {
+    let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+    let len = (dx * dx + dy * dy).sqrt().max(1e-9);
+    let (nx, ny) = (-dy / len * 4.5, dx / len * 4.5);
+    let mut pts = vec![a];
+    for i in 1..6 {
+        let t = f64::from(i) / 6.0;
+        let side = if i % 2 == 1 { 1.0 } else { -1.0 };
+        pts.push((a.0 + t * dx + side * nx, a.1 + t * dy + side * ny));
+    }
+    pts.push(b);
+    line(out, &pts, INK, 1.5);
+}
+
+/// A gas-charged vessel: a capsule with its separating membrane, standing
+/// on (x, bottom).
+fn vessel(out: &mut String, x: f64, bottom: f64) {
+    let _ = writeln!(
+        out,
+        r#"<rect x="{:.1}" y="{:.1}" width="24" height="40" rx="12" fill="white" stroke="{INK}" stroke-width="2"/><line x1="{:.1}" y1="{:.1}" x2="{:.1}" y2="{:.1}" stroke="{INK}" stroke-width="1.5"/>"#,
+        x - 12.0,
+        bottom - 40.0,
+        x - 12.0,
+        bottom - 22.0,
+        x + 12.0,
+        bottom - 22.0
+    );
 }
 
 fn generic_box(out: &mut String, kind: &str, x: f64, y: f64) {
@@ -328,26 +452,38 @@ fn generic_box(out: &mut String, kind: &str, x: f64, y: f64) {
     text(out, x, y + 4.0, kind, 10.0, INK, "middle");
 }
 
-/// Draws the symbol of something hanging above a node; (x, y) is the point
-/// where its stub meets the symbol (the symbol lies above it).
+/// Draws the symbol of something hanging above a node, in a group of
+/// class `symbol KIND`; (x, y) is the point where its stub meets the symbol
+/// (the symbol lies above it).
 fn hanging_symbol(out: &mut String, kind: &str, x: f64, y: f64) {
+    let _ = writeln!(out, r#"<g class="symbol {kind}">"#);
+    hanging_shape(out, kind, x, y);
+    out.push_str("</g>\n");
+}
+
+fn hanging_shape(out: &mut String, kind: &str, x: f64, y: f64) {
     match kind {
         "pump" => pump_symbol(out, x, y - 15.0, true),
         "volume" => {
             rect(out, x - 15.0, y - 26.0, 30.0, 26.0, 0.0, "white", 2.0);
         }
-        "pulsation_damper" => {
-            // a gas-charged vessel: a capsule with the separating membrane
-            let _ = writeln!(
-                out,
-                r#"<rect x="{:.1}" y="{:.1}" width="24" height="40" rx="12" fill="white" stroke="{INK}" stroke-width="2"/><line x1="{:.1}" y1="{:.1}" x2="{:.1}" y2="{:.1}" stroke="{INK}" stroke-width="1.5"/>"#,
-                x - 12.0,
-                y - 40.0,
-                x - 12.0,
-                y - 22.0,
-                x + 12.0,
-                y - 22.0
-            );
+        // a gas-charged vessel: a capsule with the separating membrane
+        "pulsation_damper" | "inline_pulsation_damper" => vessel(out, x, y),
+        "relief_valve" => {
+            // to tank: the valve envelope with its offset flow path and
+            // spring, draining to a tank above it
+            rect(out, x - 12.0, y - 24.0, 24.0, 24.0, 0.0, "white", 1.5);
+            arrow(out, (x - 5.0, y - 4.0), (x - 5.0, y - 20.0));
+            spring(out, (x + 12.0, y - 12.0), (x + 26.0, y - 12.0));
+            line(out, &[(x, y - 24.0), (x, y - 30.0)], INK, 1.5);
+            tank_symbol(out, x, y - 30.0);
+        }
+        "cylinder" => {
+            // the barrel fed from below, its piston and rod carrying the load
+            rect(out, x - 11.0, y - 40.0, 22.0, 40.0, 0.0, "white", 2.0);
+            line(out, &[(x - 10.0, y - 22.0), (x + 10.0, y - 22.0)], INK, 3.0);
+            line(out, &[(x, y - 22.0), (x, y - 52.0)], INK, 3.0);
+            rect(out, x - 9.0, y - 62.0, 18.0, 10.0, 0.0, LIGHT, 1.5);
         }
         "helmholtz_resonator" => {
             // a bottle: neck and cavity
@@ -417,7 +553,9 @@ fn symbol_height(kind: &str) -> f64 {
     match kind {
         "pump" => 30.0,
         "volume" => 26.0,
-        "pulsation_damper" | "side_branch" => 40.0,
+        "pulsation_damper" | "inline_pulsation_damper" | "side_branch" => 40.0,
+        "relief_valve" => 52.0,
+        "cylinder" => 62.0,
         "helmholtz_resonator" => 38.0,
         "tank" => 22.0,
         "load_valve" => 48.0,
@@ -529,12 +667,29 @@ fn picture_size(c: &Circuit, l: &Layout) -> (f64, f64) {
     (w.max(title_w).max(legend_w).max(420.0), h)
 }
 
-/// Draws a series element: its path, its symbol at `mid` and its name above.
-fn connection(out: &mut String, c: &Circuit, element: usize, pts: &[(f64, f64)], mid: (f64, f64)) {
+/// Draws a series element: its path, its symbol at `mid` and its name above;
+/// `forward`: the element's file `from` end is drawn on the left of `mid`.
+fn connection(
+    out: &mut String,
+    c: &Circuit,
+    element: usize,
+    pts: &[(f64, f64)],
+    mid: (f64, f64),
+    forward: bool,
+) {
     line(out, pts, INK, 2.0);
-    series_symbol(out, kind_of(c, element), mid.0, mid.1);
+    let kind = kind_of(c, element);
+    series_symbol(out, kind, mid.0, mid.1, forward);
     let name = &c.elements[element].name;
-    text(out, mid.0, mid.1 - 20.0, name, 12.0, INK, "middle");
+    text(
+        out,
+        mid.0,
+        mid.1 - series_height(kind) - 6.0,
+        name,
+        12.0,
+        INK,
+        "middle",
+    );
 }
 
 /// Draws `circuit` as a schematic and returns the SVG document.
@@ -568,16 +723,23 @@ pub fn schematic_svg(circuit: &Circuit) -> String {
         } else {
             vec![(x0, y0), (x0, y1), (x1, y1)]
         };
+        // drawn from the parent (left) to the child: forward when the
+        // file's "from" end is the parent
+        let from_first = matches!(
+            c.elements[e.element].connection,
+            Connection::Series { a, .. } if a == e.from
+        );
         connection(
             &mut out,
             c,
             e.element,
             &pts,
             ((pts[pts.len() - 2].0 + x1) / 2.0, y1),
+            from_first,
         );
         // the file's "from" end first
         let mut p = pts;
-        if matches!(c.elements[e.element].connection, Connection::Series { a, .. } if a != e.from) {
+        if !from_first {
             p.reverse();
         }
         paths[e.element] = p;
@@ -603,12 +765,14 @@ pub fn schematic_svg(circuit: &Circuit) -> String {
             (x_end, y1 + off),
             (x1, y1),
         ];
+        // the lane runs from the file's "from" node: forward when it runs right
         connection(
             &mut out,
             c,
             e.element,
             &pts,
             ((x0 - off + x_end) / 2.0, lane),
+            x_end >= x0 - off,
         );
         paths[e.element] = pts;
     }
@@ -750,7 +914,7 @@ fn legend(out: &mut String, c: &Circuit, y: f64) {
             _ if shunt => hanging_symbol(out, k, x, y + 4.0),
             _ => {
                 line(out, &[(x - 30.0, y - 6.0), (x + 30.0, y - 6.0)], INK, 2.0);
-                series_symbol(out, k, x, y - 6.0);
+                series_symbol(out, k, x, y - 6.0, true);
             }
         }
         let label = k.replace('_', " ");
@@ -783,7 +947,8 @@ mod tests {
 
     /// Every shipped circuit: the schematic is well-formed SVG (parsed by
     /// roxmltree and by usvg), every element, pump, tap and node name
-    /// appears as text, no two nodes share a position (they are at least a
+    /// appears as text, every element has its symbol group, no two nodes
+    /// share a position (they are at least a
     /// column or a row apart), and drawing twice gives the same text.
     #[test]
     fn schematics_of_every_shipped_circuit() {
@@ -805,6 +970,16 @@ mod tests {
                 .chain(c.nodes.iter().map(|n| &n.name));
             for name in names {
                 assert!(texts.contains(&name.as_str()), "{file}: '{name}' not drawn");
+            }
+            // every element kind drawn by its own symbol group (the
+            // newer kinds too: relief valve, cylinder, ...)
+            for e in &c.elements {
+                let class = format!("symbol {}", e.kind.name());
+                assert!(
+                    doc.descendants()
+                        .any(|n| n.has_tag_name("g") && n.attribute("class") == Some(&class)),
+                    "{file}: no '{class}' group"
+                );
             }
             resvg::usvg::Tree::from_str(&svg, &resvg::usvg::Options::default())
                 .unwrap_or_else(|e| panic!("{file}: {e}"));

@@ -133,7 +133,7 @@ pub fn plot_path(base: &Path, tap: &str, several: bool) -> PathBuf {
 }
 
 /// `1734 rpm, 200 bar, 80 °C, open`.
-fn where_text(speed_rev_s: f64, point: &OperatingPoint) -> String {
+pub fn where_text(speed_rev_s: f64, point: &OperatingPoint) -> String {
     let label = point.label();
     if label == "as written" {
         format!("{:.0} rpm", speed_rev_s * 60.0)
@@ -142,7 +142,8 @@ fn where_text(speed_rev_s: f64, point: &OperatingPoint) -> String {
     }
 }
 
-fn limit_text(v: &Verdict) -> String {
+/// `rms ≤ 0.1 bar`: what a limit bounds and its value as written.
+pub fn limit_text(v: &Verdict) -> String {
     let what = match v.limit.kind {
         LimitKind::Rms => "rms",
         LimitKind::PeakToPeak => "peak-to-peak",
@@ -166,30 +167,7 @@ fn signed_pressure(pa: f64) -> String {
 pub fn text(r: &AssessReport, out: &mut impl Write) -> std::io::Result<()> {
     let a = &r.assessment;
     heading(out, "assess", &r.subject)?;
-    let join = |v: Vec<String>| v.join(", ");
-    let mut spans = Vec::new();
-    if let Some(e) = &r.envelope {
-        if !e.pressures_pa.is_empty() {
-            let v = e
-                .pressures_pa
-                .iter()
-                .map(|p| format!("{}", p / 1e5))
-                .collect();
-            spans.push(format!("mean pressures {} bar", join(v)));
-        }
-        if !e.temperatures_k.is_empty() {
-            let v = e
-                .temperatures_k
-                .iter()
-                .map(|t| format!("{:.1}", t - crate::oil::ZERO_CELSIUS_K))
-                .collect();
-            spans.push(format!("oil temperatures {} °C", join(v)));
-        }
-        if !e.cases.is_empty() {
-            let v = e.cases.iter().map(|c| format!("`{}`", c.name)).collect();
-            spans.push(format!("load cases {}", join(v)));
-        }
-    }
+    let spans = envelope_spans(r);
     writeln!(
         out,
         "envelope: shaft `{}` over {:.0}–{:.0} rpm; {} point{}{}",
@@ -313,6 +291,37 @@ pub fn text(r: &AssessReport, out: &mut impl Write) -> std::io::Result<()> {
         writeln!(out, "{c}")?;
     }
     Ok(())
+}
+
+/// What the envelope spans: "mean pressures 30, 200 bar", "oil
+/// temperatures 20.0, 80.0 °C", "load cases `open`, `closed`" (those it
+/// has; none without an envelope).
+pub fn envelope_spans(r: &AssessReport) -> Vec<String> {
+    let join = |v: Vec<String>| v.join(", ");
+    let mut spans = Vec::new();
+    if let Some(e) = &r.envelope {
+        if !e.pressures_pa.is_empty() {
+            let v = e
+                .pressures_pa
+                .iter()
+                .map(|p| format!("{}", p / 1e5))
+                .collect();
+            spans.push(format!("mean pressures {} bar", join(v)));
+        }
+        if !e.temperatures_k.is_empty() {
+            let v = e
+                .temperatures_k
+                .iter()
+                .map(|t| format!("{:.1}", t - crate::oil::ZERO_CELSIUS_K))
+                .collect();
+            spans.push(format!("oil temperatures {} °C", join(v)));
+        }
+        if !e.cases.is_empty() {
+            let v = e.cases.iter().map(|c| format!("`{}`", c.name)).collect();
+            spans.push(format!("load cases {}", join(v)));
+        }
+    }
+    spans
 }
 
 /// One measurement point's chart: a panel per (load case, pressure), the

@@ -3,8 +3,9 @@
 //! the estimates and the amplitude/phase charts with error bars.
 
 use super::table::{Align, Quantity, Table, Unit, pm, with_uncertainty};
+use crate::estimate::fit::HarmonicStatus;
 use crate::plot;
-use crate::results::fit::{EstimateResult, FitResult, HarmonicFit};
+use crate::results::fit::{EquivalentResult, EstimateResult, FitResult, HarmonicFit};
 use std::io::Write;
 
 /// Header of the estimates table (`fit --csv`): SI, peak amplitudes,
@@ -36,11 +37,14 @@ pub fn text(r: &FitResult, out: &mut impl Write) -> std::io::Result<()> {
     if let Some(t) = &r.subject.title {
         writeln!(out, "bench: {t}")?;
     }
+    let measured = match r.speed_uncertainty_rev_s {
+        Some(u) => pm(60.0 * r.speed_rev_s, Some(60.0 * u)),
+        None => format!("{:.1}", 60.0 * r.speed_rev_s),
+    };
     writeln!(
         out,
-        "pump `{}`: {:.1} rpm measured ({:.1} rpm stated) × {} pumping elements = pumping frequency {:.2} Hz",
+        "pump `{}`: {measured} rpm measured ({:.1} rpm stated) × {} pumping elements = pumping frequency {:.2} Hz",
         r.pump,
-        r.speed_rev_s * 60.0,
         r.stated_speed_rev_s * 60.0,
         r.pumping_elements,
         r.pumping_frequency_hz
@@ -55,7 +59,11 @@ pub fn text(r: &FitResult, out: &mut impl Write) -> std::io::Result<()> {
     let source = match r.speed_of_sound_source {
         "in_situ" => "estimated in situ",
         "stated" => "as stated",
-        _ => "from the fluid and the wall",
+        _ => match r.wall_model {
+            "rigid" => "from the fluid, rigid wall",
+            "thin" => "from the fluid and the wall, thin-wall (Korteweg)",
+            _ => "from the fluid and the wall, thick-wall (Lamé)",
+        },
     };
     let c = &r.speed_of_sound_m_s;
     writeln!(
@@ -66,9 +74,18 @@ pub fn text(r: &FitResult, out: &mut impl Write) -> std::io::Result<()> {
     for ci in &r.conditions {
         write!(
             out,
-            "condition `{}`: pumping frequency {:.3} Hz",
-            ci.name, ci.pumping_frequency_hz
+            "condition `{}`: pumping frequency {:.3} Hz{}",
+            ci.name,
+            ci.pumping_frequency_hz,
+            if ci.pumping_frequency_held {
+                " (held from the pump runs)"
+            } else {
+                ""
+            }
         )?;
+        if ci.tacho {
+            write!(out, ", shaft reference from the tacho")?;
+        }
         if let Some(f) = ci.secondary_fundamental_hz {
             write!(out, ", secondary source {f:.3} Hz")?;
         }
@@ -116,8 +133,10 @@ pub fn text(r: &FitResult, out: &mut impl Write) -> std::io::Result<()> {
             amp(&h.anechoic_pa, an),
             amp(&h.blocked_pa, bl),
         ];
-        if !h.flags.is_empty() {
-            row.push("*".into());
+        match (h.status, h.flags.is_empty()) {
+            (HarmonicStatus::Estimated, true) => {}
+            (HarmonicStatus::Estimated, false) => row.push("*".into()),
+            (status, _) => row.push(format!("* {}", status.key())),
         }
         t.row(row);
     }
@@ -126,11 +145,58 @@ pub fn text(r: &FitResult, out: &mut impl Write) -> std::io::Result<()> {
         with_uncertainty(s.value, s.uncertainty, Quantity::Pressure.unit_for(s.value))
     };
     writeln!(out)?;
+    let left_out: Vec<String> = hs
+        .iter()
+        .filter(|h| !r.rms_orders.contains(&h.order))
+        .map(|h| h.order.to_string())
+        .collect();
     writeln!(
         out,
-        "overall rms: anechoic {}, blocked {} (reference line Zc at the estimated speed of sound)",
+        "overall rms: anechoic {}, blocked {} (reference line Zc at the estimated speed of sound{})",
         rms(&r.anechoic_rms_pa),
-        rms(&r.blocked_rms_pa)
+        rms(&r.blocked_rms_pa),
+        if left_out.is_empty() {
+            String::new()
+        } else {
+            format!(
+                "; flagged harmonics {} left out, --include-flagged to include them",
+                left_out.join(", ")
+            )
+        }
+    )?;
+    if let Some(e) = &r.equivalent {
+        writeln!(out, "{}", equivalent_text(e))?;
+    }
+    Ok(())
+}
+
+/// The source impedance as a volume with leakage, in a line.
+pub fn equivalent_text(e: &EquivalentResult) -> String {
+    let orders: Vec<String> = e.orders.iter().map(u32::to_string).collect();
+    let v = &e.volume_m3;
+    let volume = with_uncertainty(v.value, v.uncertainty, Quantity::Volume.unit_for(v.value));
+    let g = &e.leakage_conductance_m3_pa_s;
+    let leakage = match g.uncertainty {
+        Some(u) if g.value > 2.0 * u => {
+            let r = 1.0 / g.value;
+            format!(
+                "leakage resistance {} Pa·s/m³",
+                pm(r, Some(u / (g.value * g.value)))
+            )
+        }
+        Some(u) => format!(
+            "leakage not resolved (conductance {} m³/(Pa·s); resistance above {:.1e} Pa·s/m³)",
+            pm(g.value, Some(u)),
+            1.0 / (g.value.max(0.0) + 2.0 * u)
+        ),
+        None if g.value > 0.0 => format!("leakage resistance {:.4e} Pa·s/m³", 1.0 / g.value),
+        None => format!("leakage conductance {:.2e} m³/(Pa·s)", g.value),
+    };
+    format!(
+        "source impedance as a volume with leakage (Ys = G + jωV/B, B = {:.4} GPa; harmonics {}; rms misfit {:.2} %): volume {volume}, {leakage}",
+        e.bulk_modulus_pa / 1e9,
+        orders.join(", "),
+        100.0 * e.misfit
     )
 }
 

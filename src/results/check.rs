@@ -229,16 +229,21 @@ pub fn check(
             )));
         }
     }
-    let implicit = c.implicit_closed_ends();
+    // one pass each over the elements, not one per node
+    let mut implicit = vec![false; c.nodes.len()];
+    for id in c.implicit_closed_ends() {
+        implicit[id] = true;
+    }
+    let (tank, degree) = (c.tank_nodes(), c.degrees());
     let nodes = c
         .nodes
         .iter()
         .enumerate()
         .map(|(id, n)| NodeCheck {
             name: n.name.clone(),
-            tank: c.is_tank(id),
-            implicit_closed_end: implicit.contains(&id),
-            elements: c.degree(id),
+            tank: tank[id],
+            implicit_closed_end: implicit[id],
+            elements: degree[id],
         })
         .collect();
     let elements = c

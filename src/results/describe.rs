@@ -5,7 +5,7 @@
 use crate::Circuit;
 use crate::diagnostics::plane_wave_limit_hz;
 use crate::elements::STANDARD_ATMOSPHERE_PA;
-use crate::elements::{CheckState, Connection, CylinderPorts, Element, ElementKind, Poppet, Tube};
+use crate::elements::{CheckState, Connection, CylinderPorts, Element, ElementKind, Poppet};
 use crate::render::table::{Quantity, sig};
 
 /// A gas pressure (absolute, Pa) as written in circuit files, gauge first:
@@ -32,7 +32,7 @@ pub fn place(circuit: &Circuit, e: &Element) -> String {
 /// What a silencer element is and its characteristic frequencies, one
 /// sentence per entry. `pipe`, if known, is the pipe it sits on (for an
 /// expansion chamber's area ratio). Empty for other kinds.
-pub fn silencer(e: &Element, pipe: Option<&Tube>) -> Vec<String> {
+pub fn silencer(e: &Element, pipe: Option<&crate::line::Line>) -> Vec<String> {
     let len = |m: f64| Quantity::Length.show(m);
     let vol = |m3: f64| Quantity::Volume.show(m3);
     match &e.kind {
@@ -69,7 +69,7 @@ pub fn silencer(e: &Element, pipe: Option<&Tube>) -> Vec<String> {
                 ));
             }
             if let Some(p) = pipe {
-                let m = c.tube.line.properties.area_m2() / p.line.properties.area_m2();
+                let m = c.tube.line.properties.area_m2() / p.properties.area_m2();
                 v.push(format!(
                     "area ratio m = {m:.3} against the upstream pipe: lossless TL maximum 20·log10((m + 1/m)/2) = {:.2} dB (Davis et al. 1954)",
                     20.0 * ((m + 1.0 / m) / 2.0).log10()
@@ -150,8 +150,8 @@ pub fn silencer(e: &Element, pipe: Option<&Tube>) -> Vec<String> {
             if let Some(p) = pipe.filter(|_| d.compliance() > 0.0) {
                 v.push(format!(
                     "against the upstream pipe (Z0 = {:.4e} Pa·s/m³) its transmission loss passes 3 dB at 1/(πCZ0) = {:.2} Hz (short ports) and rises 6 dB per octave above",
-                    p.line.properties.z0(),
-                    d.corner_frequency_hz(p.line.properties.z0())
+                    p.properties.z0(),
+                    d.corner_frequency_hz(p.properties.z0())
                 ));
             }
             v

@@ -5,7 +5,7 @@
 use super::{Error, Input, Notice, Origin, Phasor, Subject, notices};
 use crate::estimate::bench::{Bench, SpeedOfSound};
 use crate::estimate::extract::ConditionSpectra;
-use crate::estimate::fit::{Estimate, FitReport, Scalar};
+use crate::estimate::fit::{Estimate, FitReport, HarmonicStatus, Scalar};
 use crate::estimate::{FitOptions, Observer, fit as run_fit};
 use crate::io::source_file::{PumpSource, SourceHarmonic};
 use serde::Serialize;
@@ -68,8 +68,54 @@ pub struct HarmonicFit {
     pub blocked_pa: EstimateResult,
     /// Largest condition number met.
     pub condition_number: f64,
-    /// Why the harmonic is flagged (empty: well-conditioned).
+    /// How far the estimate can be trusted: `estimated`, or
+    /// `ill_conditioned`, `extrapolated`, `unstable` (left out of the
+    /// overall levels unless asked).
+    pub status: HarmonicStatus,
+    /// For a flagged harmonic: the bias to expect, relative, of |Qs| and
+    /// |Zs| (median of the Monte Carlo draws over the estimate, less one).
+    pub expected_bias: Option<ExpectedBiasResult>,
+    /// Why the harmonic is flagged (empty: nothing to say).
     pub flags: Vec<String>,
+}
+
+/// The bias to expect from the conditioning, relative.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct ExpectedBiasResult {
+    /// Of |Qs|.
+    pub flow: f64,
+    /// Of |Zs|.
+    pub impedance: f64,
+}
+
+/// The source impedance read as a volume with leakage, Ys = G + jωV/B.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct EquivalentResult {
+    /// Equivalent internal volume, m³.
+    pub volume_m3: ScalarResult,
+    /// Leakage conductance G = 1/R_leak, m³/(Pa·s).
+    pub leakage_conductance_m3_pa_s: ScalarResult,
+    /// The bulk modulus B of the bench fluid, Pa.
+    pub bulk_modulus_pa: f64,
+    /// The harmonics fitted.
+    pub orders: Vec<u32>,
+    /// RMS of |Ys − model|/|Ys| over them.
+    pub misfit: f64,
+    /// Σ w|Ys − model|² over its expectation, with uncertainties.
+    pub reduced_chi_square: Option<f64>,
+}
+
+/// The χ² check of the over-determined wave fits.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct ResidualCheckResult {
+    /// χ² of the wave fits.
+    pub chi_square: f64,
+    /// Its degrees of freedom.
+    pub dof: f64,
+    /// √(χ²/ν).
+    pub factor: f64,
+    /// Whether the phasor uncertainties were scaled by it.
+    pub applied: bool,
 }
 
 /// What was found in one condition's data.
@@ -77,8 +123,14 @@ pub struct HarmonicFit {
 pub struct ConditionResult {
     /// The condition's name.
     pub name: String,
-    /// Pumping frequency found, Hz.
+    /// Pumping frequency found (or held), Hz.
     pub pumping_frequency_hz: f64,
+    /// Its standard uncertainty, Hz, when known.
+    pub pumping_frequency_uncertainty_hz: Option<f64>,
+    /// Whether it was held from the pump-run conditions.
+    pub pumping_frequency_held: bool,
+    /// Whether a tacho channel gave the shaft-angle reference.
+    pub tacho: bool,
     /// Secondary-source fundamental found, Hz.
     pub secondary_fundamental_hz: Option<f64>,
     /// The lowest signal-to-noise ratio over the transducers and harmonics, dB.
@@ -98,6 +150,8 @@ pub struct FitResult {
     pub pumping_elements: u32,
     /// The measured speed, rev/s (mean over the pump conditions).
     pub speed_rev_s: f64,
+    /// Its standard uncertainty, rev/s, when known.
+    pub speed_uncertainty_rev_s: Option<f64>,
     /// The speed stated in the bench file, rev/s.
     pub stated_speed_rev_s: f64,
     /// The pumping frequency at the measured speed, Hz.
@@ -112,12 +166,22 @@ pub struct FitResult {
     pub speed_of_sound_m_s: ScalarResult,
     /// Where it came from: `in_situ`, `stated` or `from_fluid`.
     pub speed_of_sound_source: &'static str,
+    /// The reference line's wall: `rigid`, `thick` (Lamé) or `thin`
+    /// (Korteweg), which `from_fluid` follows.
+    pub wall_model: &'static str,
     /// One entry per harmonic that could be estimated.
     pub harmonics: Vec<HarmonicFit>,
     /// Overall rms anechoic ripple, Pa.
     pub anechoic_rms_pa: ScalarResult,
     /// Overall rms blocked ripple, Pa.
     pub blocked_rms_pa: ScalarResult,
+    /// The harmonics the overall levels include.
+    pub rms_orders: Vec<u32>,
+    /// The source impedance as a volume with leakage (two or more
+    /// harmonics of status `estimated`).
+    pub equivalent: Option<EquivalentResult>,
+    /// The χ² check of the wave fits, where they are over-determined.
+    pub residual_check: Option<ResidualCheckResult>,
     /// Monte Carlo draws behind the uncertainties (0: none).
     pub draws: usize,
     /// Conditioning and other warnings.
@@ -134,6 +198,7 @@ impl FitResult {
         PumpSource {
             name: r.pump.clone(),
             speed_rev_s: r.speed_rev_s,
+            speed_uncertainty_rev_s: r.speed_uncertainty_rev_s,
             pumping_elements: r.pumping_elements,
             harmonics: r
                 .harmonics
@@ -144,6 +209,8 @@ impl FitResult {
                     impedance: h.impedance.value,
                     flow_uncertainty: h.flow.uncertainty.map(|u| u.amplitude),
                     impedance_uncertainty: h.impedance.uncertainty.map(|u| u.amplitude),
+                    status: h.status,
+                    note: (h.status != HarmonicStatus::Estimated).then(|| h.flags.join("; ")),
                 })
                 .collect(),
         }
@@ -192,6 +259,14 @@ pub fn fit(
             }
         }
     }
+    if let Some(e) = &report.equivalent {
+        let finite = |s: &Scalar| s.value.is_finite() && s.uncertainty.is_none_or(f64::is_finite);
+        if !(finite(&e.volume_m3) && finite(&e.leakage_conductance) && e.misfit.is_finite()) {
+            return Err(Error::NotFinite(
+                "the equivalent internal volume or leakage is not a finite number".into(),
+            ));
+        }
+    }
     let c = &report.speed_of_sound;
     Ok(FitResult {
         subject: Subject {
@@ -202,10 +277,16 @@ pub fn fit(
             Input::number("harmonics", bench.harmonics.into(), "1", harmonics_origin),
             Input::number("draws", options.draws as f64, "1", Origin::Request),
             Input::number("seed", options.seed as f64, "1", Origin::Request),
+            Input::text(
+                "include_flagged",
+                if options.include_flagged { "yes" } else { "no" },
+                Origin::Request,
+            ),
         ],
         pump: report.pump.clone(),
         pumping_elements: report.pumping_elements,
         speed_rev_s: report.speed_rev_s,
+        speed_uncertainty_rev_s: report.speed_uncertainty_rev_s,
         stated_speed_rev_s: bench.pump.speed_rev_s,
         pumping_frequency_hz: report.pumping_frequency_hz(),
         method: report.method.name(),
@@ -216,6 +297,9 @@ pub fn fit(
             .map(|ci| ConditionResult {
                 name: ci.name.clone(),
                 pumping_frequency_hz: ci.pumping_frequency_hz,
+                pumping_frequency_uncertainty_hz: ci.pumping_frequency_uncertainty_hz,
+                pumping_frequency_held: ci.pumping_frequency_held,
+                tacho: ci.tacho,
                 secondary_fundamental_hz: ci.secondary_fundamental_hz,
                 lowest_snr_db: ci.snr_db.iter().flatten().copied().reduce(f64::min),
             })
@@ -225,6 +309,11 @@ pub fn fit(
             SpeedOfSound::InSitu => "in_situ",
             SpeedOfSound::Fixed(_) => "stated",
             SpeedOfSound::FromFluid => "from_fluid",
+        },
+        wall_model: match bench.line.wall {
+            crate::wall::Wall::Rigid => "rigid",
+            crate::wall::Wall::ThickElastic { .. } => "thick",
+            crate::wall::Wall::Elastic { .. } => "thin",
         },
         harmonics: report
             .harmonics
@@ -237,11 +326,31 @@ pub fn fit(
                 anechoic_pa: (&h.anechoic).into(),
                 blocked_pa: (&h.blocked).into(),
                 condition_number: h.condition_number,
+                status: h.status,
+                expected_bias: h.expected_bias.map(|b| ExpectedBiasResult {
+                    flow: b.flow,
+                    impedance: b.impedance,
+                }),
                 flags: h.flags.clone(),
             })
             .collect(),
         anechoic_rms_pa: (&report.anechoic_rms_pa).into(),
         blocked_rms_pa: (&report.blocked_rms_pa).into(),
+        rms_orders: report.rms_orders.clone(),
+        equivalent: report.equivalent.as_ref().map(|e| EquivalentResult {
+            volume_m3: (&e.volume_m3).into(),
+            leakage_conductance_m3_pa_s: (&e.leakage_conductance).into(),
+            bulk_modulus_pa: bench.fluid.bulk_modulus_pa,
+            orders: e.orders.clone(),
+            misfit: e.misfit,
+            reduced_chi_square: e.reduced_chi_square,
+        }),
+        residual_check: report.residual_check.map(|c| ResidualCheckResult {
+            chi_square: c.chi_square,
+            dof: c.dof,
+            factor: c.factor,
+            applied: c.applied,
+        }),
         draws: report.draws,
         warnings,
         report,

@@ -2,7 +2,7 @@
 //! output needs.
 //!
 //! Each module here runs one analysis the way a command does (`solve`,
-//! `check`, `profile`, `response`, `silencer`, `tune`, `sweep`, `fit`) from
+//! `check`, `profile`, `response`, `silencer`, `tune`, `sweep`, `fit`, `fit --self-check`) from
 //! a validated circuit or bench and a resolved request (SI values, indices
 //! and locations, never option text), and returns one `#[derive(Serialize)]`
 //! result: the inputs echoed with their units and where they came from, the
@@ -18,8 +18,11 @@ pub mod check;
 pub mod compare;
 pub mod describe;
 pub mod fit;
+pub mod fit_check;
+pub mod inputs;
 pub mod over_envelope;
 pub mod profile;
+pub mod report;
 pub mod response;
 pub mod setup;
 pub mod silencer;

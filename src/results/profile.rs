@@ -167,6 +167,14 @@ pub fn profile(
     }
     let freq = f64::from(request.harmonic) * pump.pumping_frequency_hz();
     let warnings = notices(&crate::diagnostics::circuit_warnings(&circuit, freq));
+    let samples = crate::analysis::profile::sample_total(&circuit, freq);
+    if samples > crate::limits::MAX_PROFILE_SAMPLES {
+        return Err(Error::Request(format!(
+            "{file}: a profile of harmonic {} samples {samples} points along the circuit's lines, more than ripline's limit of {}: choose a lower --harmonic",
+            request.harmonic,
+            crate::limits::MAX_PROFILE_SAMPLES
+        )));
+    }
     let plan = Plan::compile(&circuit).map_err(|e| Error::Request(format!("{file}: {e}")))?;
     let p = shaft_profile(&plan, &shaft, request.pump_index, request.harmonic)
         .map_err(|e| Error::failed(format!("solving {file}"), e))?;
@@ -219,6 +227,11 @@ pub fn profile(
             pressure_pa: p.node_pressures[id].into(),
         })
         .collect();
+    // the profiled line of each element, for the taps along lines
+    let mut line_of = vec![None; circuit.elements.len()];
+    for l in &p.lines {
+        line_of[l.element] = Some(l);
+    }
     let taps = circuit
         .taps
         .iter()
@@ -230,11 +243,7 @@ pub fn profile(
                 TapLocation::AlongTube {
                     element,
                     distance_m,
-                } => p
-                    .lines
-                    .iter()
-                    .find(|l| l.element == element)
-                    .map(|l| l.path_position(distance_m)),
+                } => line_of[element].map(|l| l.path_position(distance_m)),
             },
             pressure_pa: (*pressure).into(),
         })

@@ -317,6 +317,9 @@ pub fn response(
     ));
     let plan = Plan::compile(&circuit).map_err(|e| Error::Request(format!("{file}: {e}")))?;
     let freqs = log_grid(grid.low_hz, grid.high_hz, grid.points);
+    let measured = crate::analysis::ripple::report_points(&circuit).len();
+    crate::limits::check_response_values(measured, freqs.len())
+        .map_err(|e| Error::Request(format!("{file}: {e}")))?;
     let total = freqs.len();
     let response = frequency_response(&plan, pump_index, &freqs, &mut |i| progress(i, total))
         .map_err(|e| Error::failed(format!("solving {file}"), e))?;

@@ -14,7 +14,7 @@ use crate::analysis::silencer::{
 };
 use crate::analysis::tune::speed_conditions;
 use crate::circuit::TapLocation;
-use crate::elements::{ElementKind, PRESSURE_VESSEL_CAUTION, Tube};
+use crate::elements::PRESSURE_VESSEL_CAUTION;
 use crate::network::Plan;
 use crate::{C64, Circuit};
 use serde::Serialize;
@@ -197,17 +197,20 @@ pub fn silencer(
         Some(i) => (i, i),
         None => chain.reference_pipes(circuit).map_err(request_error)?,
     };
-    let tube_of = |i: usize| match &circuit.elements[i].kind {
-        ElementKind::Tube(t) => Ok(*t),
-        _ => Err(Error::Request(format!(
-            "`{}` is not a tube",
-            circuit.elements[i].name
-        ))),
+    let line_of = |i: usize| {
+        let kind = &circuit.elements[i].kind;
+        kind.line()
+            .map(|l| (kind, l.properties.z0()))
+            .ok_or_else(|| {
+                Error::Request(format!(
+                    "`{}` is not a tube or a hose",
+                    circuit.elements[i].name
+                ))
+            })
     };
-    let (up_tube, down_tube): (Tube, Tube) = (tube_of(up)?, tube_of(down)?);
-    let (z1, z2) = (up_tube.line.properties.z0(), down_tube.line.properties.z0());
+    let ((up_kind, z1), (_, z2)) = (line_of(up)?, line_of(down)?);
     let without =
-        circuit_without(circuit, &chain, request.without, Some(&up_tube)).map_err(request_error)?;
+        circuit_without(circuit, &chain, request.without, Some(up_kind)).map_err(request_error)?;
     let (tap_name, tap_with) = (&request.tap.0, request.tap.1);
     let tap_without = report_points(&without)
         .into_iter()
@@ -329,7 +332,7 @@ pub fn silencer(
                 name: e.name.clone(),
                 kind: e.kind.name(),
                 place: describe::place(circuit, e),
-                description: describe::silencer(e, Some(&up_tube)),
+                description: describe::silencer(e, up_kind.line()),
             }
         })
         .collect();

@@ -9,6 +9,7 @@ use crate::analysis::waveform;
 use crate::network::Plan;
 use crate::source::{Shaft, shafts};
 use num_complex::Complex64 as C64;
+use rayon::prelude::*;
 use serde::Serialize;
 
 /// What to solve, resolved against the circuit.
@@ -329,9 +330,11 @@ fn source(
         fundamental_elements: shaft.fundamental_elements,
         order_basis: OrderBasis::of(circuit, shaft),
         silent_orders: report.silent_orders.clone(),
+        // each point's peak-to-peak (a waveform search) on its own, in
+        // parallel; rayon's indexed collect keeps the order
         points: report
             .taps
-            .iter()
+            .par_iter()
             .map(|tap| PointRipple {
                 point: tap.name.clone(),
                 harmonics: tap

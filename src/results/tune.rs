@@ -14,8 +14,11 @@ use crate::analysis::tune::{
     Bound, Objective, Parameter, RippleEvaluator, RippleSummary, SearchSettings, TuneProblem,
     speed_conditions,
 };
+use crate::analysis::tune_limits::{LimitGoal, Tightest};
+use crate::analysis::tune_rules::{RuleCheck, Rules};
 use crate::circuit::TapLocation;
-use crate::elements::{Element, ElementKind, PRESSURE_VESSEL_CAUTION, STANDARD_ATMOSPHERE_PA};
+use crate::elements::{Element, PRESSURE_VESSEL_CAUTION, STANDARD_ATMOSPHERE_PA};
+use crate::envelope::OperatingPoint;
 use crate::units::Dimension;
 use serde::Serialize;
 
@@ -47,8 +50,108 @@ pub struct TuneRequest {
     /// The circuit with the oil at each temperature (K) of a range
     /// (empty: the circuit's own fluid only).
     pub fluid_states: Vec<(f64, Circuit)>,
+    /// The circuit at each envelope point (empty: the circuit as written,
+    /// or `fluid_states`); the two are not given together.
+    pub envelope: Vec<(OperatingPoint, Circuit)>,
+    /// The practical rules (flagged, or hard).
+    pub rules: Rules,
+    /// The smallest-silencer objective: the limits to meet and the size to
+    /// minimise (`None`: minimise `objective`).
+    pub goal: Option<LimitGoal>,
     /// Remarks about the inputs to pass on as warnings.
     pub notes: Vec<Notice>,
+}
+
+/// Two parameters the objective cannot separate near the optimum (or one it
+/// hardly depends on): hold one of them.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct DegeneracyResult {
+    /// The first parameter.
+    pub first: &'static str,
+    /// The second; `None`: the ripple hardly depends on `first`.
+    pub second: Option<&'static str>,
+    /// cos of the angle between their sensitivity columns (±1: the
+    /// objective sees only their combination).
+    pub correlation: f64,
+    /// a in first·second^a, the combination the ripple follows.
+    pub exponent: f64,
+}
+
+/// One design the search evaluated (for `--designs-csv` and the plot; not
+/// in the JSON).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct DesignRow {
+    /// The parameters' values (SI), in the order of `parameters`.
+    pub values: Vec<f64>,
+    /// Its objective in Pa; `None`: not valid.
+    pub objective_pa: Option<f64>,
+    /// Whether it keeps every practical rule.
+    pub keeps_rules: bool,
+    /// `global` or `local`.
+    pub stage: &'static str,
+    /// Smallest-silencer objective: its size (SI).
+    pub size: Option<f64>,
+    /// Smallest-silencer objective: its margin to the tightest limit, dB.
+    pub margin_db: Option<f64>,
+}
+
+/// A design's tightest limit (smallest-silencer objective).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TightestResult {
+    /// The measurement point.
+    pub tap: String,
+    /// The limit as written in the file.
+    pub limit: String,
+    /// The limit's value, Pa.
+    pub limit_pa: f64,
+    /// Where: the envelope point's label or the temperature (`None`: the
+    /// circuit as written).
+    pub point: Option<String>,
+    /// Shaft speed, rev/s.
+    pub speed_rev_s: f64,
+    /// The limited quantity there, Pa.
+    pub value_pa: f64,
+    /// 20·log10(limit/value), dB (negative: exceeded).
+    pub margin_db: f64,
+}
+
+/// The smallest-silencer objective's outcome.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SmallestResult {
+    /// What is minimised: `volume` or `length`.
+    pub size: &'static str,
+    /// Its SI unit.
+    pub unit: &'static str,
+    /// The tuned design's size.
+    pub tuned_size: f64,
+    /// The file's design's size.
+    pub in_file_size: Option<f64>,
+    /// Whether the tuned design meets every limit (when not, no design in
+    /// the bounds was found that does, and the tuned one is the nearest).
+    pub met: bool,
+    /// The tuned design's tightest limit.
+    pub tightest: Option<TightestResult>,
+    /// The file's design's tightest limit.
+    pub tightest_in_file: Option<TightestResult>,
+}
+
+/// The practical rules and the tuned design against them.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RulesResult {
+    /// Whether a design breaking a rule was refused in the search (hard)
+    /// or only flagged.
+    pub hard: bool,
+    /// The allowed band of precharge over the lowest operating pressure.
+    pub precharge_fraction: (f64, f64),
+    /// The lowest operating pressure of the damper's gas over the states,
+    /// Pa absolute (dampers only).
+    pub lowest_operating_pa: Option<f64>,
+    /// The largest mean flow through the element at the top speed, m³/s.
+    pub mean_flow_m3_s: f64,
+    /// The tuned design against each rule that applies to it.
+    pub tuned: Vec<RuleCheck>,
+    /// The file's design against them.
+    pub as_in_file: Vec<RuleCheck>,
 }
 
 /// A varied parameter: its value in the file, its best value and bounds.
@@ -107,6 +210,8 @@ pub struct WorstCondition {
     pub speed_rev_s: f64,
     /// Fluid temperature, K (with a temperature range only).
     pub temperature_k: Option<f64>,
+    /// The envelope point's label (with `--envelope` only).
+    pub point: Option<String>,
     /// The overall rms ripple there, Pa.
     pub rms_pa: f64,
     /// Its level in dB re the reference.
@@ -166,6 +271,9 @@ pub struct TuneResult {
     pub speeds_rev_s: Vec<f64>,
     /// The fluid temperatures evaluated, K (empty: the file's fluid).
     pub temperatures_k: Vec<f64>,
+    /// The envelope points evaluated, by label (empty: the circuit as
+    /// written or the temperatures).
+    pub points: Vec<String>,
     /// The search.
     pub search: Search,
     /// The varied parameters.
@@ -183,6 +291,16 @@ pub struct TuneResult {
     pub worst: Option<WorstCondition>,
     /// The steepness of the optimum.
     pub steepness: Vec<SteepnessResult>,
+    /// Parameters the objective cannot separate near the optimum.
+    pub degeneracies: Vec<DegeneracyResult>,
+    /// The practical rules.
+    pub rules: RulesResult,
+    /// The smallest-silencer objective's outcome (`None` for `worst` or
+    /// `rms`).
+    pub smallest: Option<SmallestResult>,
+    /// Every design evaluated, in order (in `--designs-csv`, not in JSON).
+    #[serde(skip)]
+    pub designs: Vec<DesignRow>,
     /// The tuned element in words.
     pub tuned_description: Vec<String>,
     /// Safety cautions (a gas-charged damper is a pressure vessel).
@@ -202,15 +320,24 @@ impl TuneResult {
         ratio_db(self.without.as_ref()?.objective_pa, self.tuned.objective_pa)
     }
 
-    /// The (speed, temperature) of each condition, in the order of
-    /// `per_condition_pa`.
-    pub fn conditions(&self) -> Vec<(f64, Option<f64>)> {
-        if self.temperatures_k.is_empty() {
-            self.speeds_rev_s.iter().map(|&s| (s, None)).collect()
+    /// The (speed, temperature, envelope point) of each condition, in the
+    /// order of `per_condition_pa`.
+    pub fn conditions(&self) -> Vec<(f64, Option<f64>, Option<&str>)> {
+        if !self.points.is_empty() {
+            self.points
+                .iter()
+                .flat_map(|p| {
+                    self.speeds_rev_s
+                        .iter()
+                        .map(move |&s| (s, None, Some(p.as_str())))
+                })
+                .collect()
+        } else if self.temperatures_k.is_empty() {
+            self.speeds_rev_s.iter().map(|&s| (s, None, None)).collect()
         } else {
             self.temperatures_k
                 .iter()
-                .flat_map(|&t| self.speeds_rev_s.iter().map(move |&s| (s, Some(t))))
+                .flat_map(|&t| self.speeds_rev_s.iter().map(move |&s| (s, Some(t), None)))
                 .collect()
         }
     }
@@ -250,7 +377,9 @@ pub fn tune(
     let states: Vec<Circuit> = request
         .fluid_states
         .iter()
-        .map(|(_, c)| {
+        .map(|(_, c)| c)
+        .chain(request.envelope.iter().map(|(_, c)| c))
+        .map(|c| {
             adjusted(
                 c.clone(),
                 pump_index,
@@ -261,6 +390,8 @@ pub fn tune(
         })
         .collect();
     let temperatures_k: Vec<f64> = request.fluid_states.iter().map(|(t, _)| *t).collect();
+    let points: Vec<String> = request.envelope.iter().map(|(p, _)| p.label()).collect();
+    let state_count = temperatures_k.len().max(points.len()).max(1);
     let (p_ref, ref_origin) = request.db_ref_pa;
     inputs.push(Input::text("tap", &request.tap.0, Origin::Request));
     inputs.push(Input::number(
@@ -302,46 +433,48 @@ pub fn tune(
     let mut warnings = request.notes.clone();
     warnings.extend(notices(&crate::diagnostics::circuit_warnings(circuit, top)));
     let budget = settings.budget();
-    let work = budget * conditions.len() * temperatures_k.len().max(1);
+    let work = budget * conditions.len() * state_count;
     if work > MAX_TUNE_WORK {
         return Err(Error::Request(format!(
-            "{budget} evaluations × {} speeds × {} temperatures is {work} ripple evaluations, more than {MAX_TUNE_WORK}: use fewer --samples, --speed-points or --temperature-points",
+            "{budget} evaluations × {} speeds × {state_count} temperatures or envelope points is {work} ripple evaluations, more than {MAX_TUNE_WORK}: use fewer --samples, --speed-points, --temperature-points or envelope points",
             conditions.len(),
-            temperatures_k.len().max(1)
         )));
     }
-    let found = problem
-        .solve(settings, &mut |n| progress(n, budget))
-        .map_err(|e| {
-            Error::failed(
-                format!(
-                    "tuning `{}` in {file}",
-                    circuit.elements[request.element].name
-                ),
-                e,
-            )
-        })?;
+    let found = match &request.goal {
+        None => problem.solve_with_rules(settings, &request.rules, &mut |n| progress(n, budget)),
+        Some(goal) => {
+            problem.solve_smallest(settings, &request.rules, goal, &mut |n| progress(n, budget))
+        }
+    }
+    .map_err(|e| match e {
+        crate::analysis::tune::TuneError::NoSize { .. }
+        | crate::analysis::tune::TuneError::NoLimits => Error::Request(e.to_string()),
+        e => Error::failed(
+            format!(
+                "tuning `{}` in {file}",
+                circuit.elements[request.element].name
+            ),
+            e,
+        ),
+    })?;
 
     // The ripple with the silencer taken out, for scale (over the same
     // fluid states as the search).
-    let without_in =
-        |state: &Circuit| -> Option<RippleSummary> {
-            let chain = Chain::new(state, &[request.element]).ok()?;
-            let pipe = chain.reference_pipes(state).ok().and_then(|(up, _)| {
-                match &state.elements[up].kind {
-                    ElementKind::Tube(t) => Some(*t),
-                    _ => None,
-                }
-            });
-            let c = circuit_without(state, &chain, WithoutReference::Pipe, pipe.as_ref()).ok()?;
-            let t = report_points(&c)
-                .into_iter()
-                .find(|p| p.name == request.tap.0)?
-                .location;
-            RippleEvaluator::new(&c, pump_index, t, &conditions, objective)
-                .evaluate(&c)
-                .ok()
-        };
+    let without_in = |state: &Circuit| -> Option<RippleSummary> {
+        let chain = Chain::new(state, &[request.element]).ok()?;
+        let pipe = chain
+            .reference_pipes(state)
+            .ok()
+            .map(|(up, _)| &state.elements[up].kind);
+        let c = circuit_without(state, &chain, WithoutReference::Pipe, pipe).ok()?;
+        let t = report_points(&c)
+            .into_iter()
+            .find(|p| p.name == request.tap.0)?
+            .location;
+        RippleEvaluator::new(&c, pump_index, t, &conditions, objective)
+            .evaluate(&c)
+            .ok()
+    };
     let without = if problem.fluid_states.is_empty() {
         without_in(circuit)
     } else {
@@ -384,10 +517,11 @@ pub fn tune(
     let worst = found
         .after
         .worst
-        .filter(|_| !speeds.is_single() || !temperatures_k.is_empty())
+        .filter(|_| !speeds.is_single() || state_count > 1)
         .map(|(state, speed)| WorstCondition {
             speed_rev_s: speed,
             temperature_k: temperatures_k.get(state).copied(),
+            point: points.get(state).cloned(),
             rms_pa: found.after.objective_pa,
             level_db: level_db(found.after.objective_pa, p_ref),
         });
@@ -398,12 +532,40 @@ pub fn tune(
     };
     inputs.push(Input::text(
         "objective",
-        match objective {
-            Objective::Worst => "worst",
-            Objective::Rms => "rms",
+        match (&request.goal, objective) {
+            (Some(_), _) => "smallest",
+            (None, Objective::Worst) => "worst",
+            (None, Objective::Rms) => "rms",
         },
         Origin::Request,
     ));
+    let smallest = request.goal.as_ref().map(|g| {
+        let state_label = |i: usize| {
+            points.get(i).cloned().or_else(|| {
+                temperatures_k
+                    .get(i)
+                    .map(|t| format!("{:.1} °C", t - crate::oil::ZERO_CELSIUS_K))
+            })
+        };
+        let tightest = |t: &Tightest| TightestResult {
+            tap: t.tap.clone(),
+            limit: t.limit.clone(),
+            limit_pa: t.limit_pa,
+            point: state_label(t.state),
+            speed_rev_s: t.speed_rev_s,
+            value_pa: t.value_pa,
+            margin_db: t.margin_db,
+        };
+        SmallestResult {
+            size: g.size.name(),
+            unit: g.size.unit(),
+            tuned_size: g.size.of(&found.element).unwrap_or(0.0),
+            in_file_size: g.size.of(&e.kind),
+            met: found.tightest.as_ref().is_none_or(|t| t.margin_db >= 0.0),
+            tightest: found.tightest.as_ref().map(tightest),
+            tightest_in_file: found.tightest_before.as_ref().map(tightest),
+        }
+    });
     Ok(TuneResult {
         subject: Subject {
             file: file.to_string(),
@@ -414,13 +576,24 @@ pub fn tune(
         kind: e.kind.name(),
         place: describe::place(circuit, e),
         tap: request.tap.0.clone(),
-        objective: objective.describe(),
+        objective: match &request.goal {
+            Some(g) => match g.size {
+                crate::analysis::tune_limits::SizeMeasure::Volume => {
+                    "smallest volume meeting every limit of the file"
+                }
+                crate::analysis::tune_limits::SizeMeasure::Length => {
+                    "smallest length meeting every limit of the file"
+                }
+            },
+            None => objective.describe(),
+        },
         refined_worst: objective == Objective::Worst && conditions.len() > 1,
         pump: PumpRef::of(circuit, pump_index),
         harmonics: circuit.harmonics,
         speed_range: speeds,
         speeds_rev_s,
         temperatures_k,
+        points,
         search: Search {
             global_points: settings.global_points,
             evaluations: found.evaluations,
@@ -441,6 +614,37 @@ pub fn tune(
                 plus_10_percent_db: s.plus_10_percent_db,
             })
             .collect(),
+        degeneracies: found
+            .degeneracies
+            .iter()
+            .map(|d| DegeneracyResult {
+                first: d.first.name(),
+                second: d.second.map(Parameter::name),
+                correlation: d.correlation,
+                exponent: d.exponent,
+            })
+            .collect(),
+        rules: RulesResult {
+            hard: request.rules.hard,
+            precharge_fraction: request.rules.precharge_fraction,
+            lowest_operating_pa: found.rule_context.lowest_operating_pa,
+            mean_flow_m3_s: found.rule_context.mean_flow_m3_s,
+            tuned: found.rule_checks.clone(),
+            as_in_file: request.rules.check(&e.kind, &found.rule_context),
+        },
+        designs: found
+            .designs
+            .iter()
+            .map(|d| DesignRow {
+                values: d.values.clone(),
+                objective_pa: d.objective_pa,
+                keeps_rules: d.keeps_rules,
+                stage: d.stage,
+                size: d.size,
+                margin_db: d.margin_db,
+            })
+            .collect(),
+        smallest,
         tuned_description: describe::silencer(&tuned, None),
         cautions,
         warnings,

@@ -486,6 +486,14 @@ def main():
     print("// numpy f64: T(0.7)@T(1.3) vs T(2.0) max elementwise rel %.2e; |det T(2.0) - 1| = %.2e"
           % (np.max(np.abs(Pn - T2n) / np.abs(T2n)), abs(np.linalg.det(T2n) - 1)))
 
+    # ================================================================ 10
+    header("[10] line admittance factors coth(GL) and csch(GL) at given GL (short, near quarter-wave, general, long)")
+    print("// mpmath: mp.coth(g), mp.csch(g) at dps=40; columns: (Re GL, Im GL, Re coth, Im coth, Re csch, Im csch)")
+    for g in ("1e-9 1e-7", "1e-4 0.02", "0.003 1.5707963", "0.5 3.1", "2 40"):
+        re, im = g.split()
+        gl = mp.mpc(re, im)
+        print("(%s, %s, %s, %s)," % (fr(mpf(re)), fr(mpf(im)), fc(mp.coth(gl)), fc(mp.csch(gl))))
+
 
 if __name__ == "__main__":
     main()
