@@ -338,31 +338,6 @@ fn response_bands_of_the_quarter_wave_line_are_the_image_of_the_wave_speed() {
     let _ = std::fs::remove_dir_all(dir);
 }
 
-#[test]
-fn response_bands_of_a_circuit_with_nothing_uncertain_are_refused() {
-    let dir = std::env::temp_dir().join(format!("ripline-bands-none-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let circuit = dir.join("certain.yaml");
-    std::fs::write(&circuit, quarter_wave("1200 m/s", "lossless")).unwrap();
-    let json = dir.join("out.json");
-    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
-        .args([
-            "response",
-            circuit.to_str().unwrap(),
-            "--bands",
-            "monte-carlo",
-        ])
-        .args(["--json", json.to_str().unwrap()])
-        .output()
-        .unwrap();
-    assert_eq!(o.status.code(), Some(2));
-    assert!(o.stdout.is_empty());
-    assert!(!json.exists());
-    let err = String::from_utf8_lossy(&o.stderr);
-    assert!(err.contains("tolerance"), "{err}");
-    let _ = std::fs::remove_dir_all(dir);
-}
-
 /// `ripline sweep --bands` over 1500..2500 rpm on the quarter-wave line
 /// (laminar friction) with c = 1200 m/s ± 5 %: the ripple is worst where
 /// the first harmonic, 9 × speed, meets the resonance c/4L, at 60·c/(4L·9)
@@ -410,25 +385,36 @@ fn sweep_bands_of_the_worst_speed_are_the_image_of_the_wave_speed() {
     let _ = std::fs::remove_dir_all(dir);
 }
 
+/// `response --bands` and `sweep --bands` on a circuit with nothing
+/// uncertain: exit 2, nothing written, the error says how to add a
+/// tolerance.
 #[test]
-fn sweep_bands_of_a_circuit_with_nothing_uncertain_are_refused() {
-    let dir = std::env::temp_dir().join(format!("ripline-bands-snone-{}", std::process::id()));
+fn response_and_sweep_bands_of_a_circuit_with_nothing_uncertain_are_refused() {
+    let dir = std::env::temp_dir().join(format!("ripline-bands-none-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     let circuit = dir.join("certain.yaml");
     std::fs::write(&circuit, quarter_wave("1200 m/s", "laminar")).unwrap();
     let json = dir.join("out.json");
-    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
-        .args([
+    for args in [
+        ["response", "--band", "100..1000", "--bands", "monte-carlo"],
+        [
             "sweep",
-            circuit.to_str().unwrap(),
             "--speed-range",
             "1500..2500",
-        ])
-        .args(["--bands", "first-order", "--json", json.to_str().unwrap()])
-        .output()
-        .unwrap();
-    assert_eq!(o.status.code(), Some(2));
-    assert!(o.stdout.is_empty());
-    assert!(!json.exists());
+            "--bands",
+            "first-order",
+        ],
+    ] {
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+            .args(args)
+            .args([circuit.to_str().unwrap(), "--json", json.to_str().unwrap()])
+            .output()
+            .unwrap();
+        assert_eq!(o.status.code(), Some(2), "{args:?}");
+        assert!(o.stdout.is_empty(), "{args:?}");
+        assert!(!json.exists(), "{args:?}");
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert!(err.contains("tolerance"), "{args:?}: {err}");
+    }
     let _ = std::fs::remove_dir_all(dir);
 }
