@@ -273,3 +273,148 @@ fn bands_of_a_circuit_with_nothing_uncertain_are_refused() {
         assert!(o.stdout.is_empty(), "{args:?}");
     }
 }
+
+/// `ripline response --bands` on the quarter-wave line with c = 1200 m/s ±
+/// 5 % (limits): the resonances (2m − 1)·c/4L lie uniformly within ±5 % of
+/// 300 and 900 Hz, so their 90 % intervals are 300·(1 ∓ 0.045) = 286.5 ..
+/// 313.5 Hz and 859.5 .. 940.5 Hz (the closed–open pipe, as above); the
+/// first-order bands are f ± k·f·0.05/√3, k = 1.6449 (scipy
+/// `norm.ppf(0.95)`): 285.75 .. 314.25 Hz and 857.26 .. 942.73 Hz.
+#[test]
+fn response_bands_of_the_quarter_wave_line_are_the_image_of_the_wave_speed() {
+    let dir = std::env::temp_dir().join(format!("ripline-bands-resp-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let circuit = dir.join("quarter.yaml");
+    std::fs::write(&circuit, quarter_wave("1200 m/s ± 5 %", "lossless")).unwrap();
+    let run = |method: &str| {
+        let json = dir.join(format!("{method}.json"));
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+            .args(["response", circuit.to_str().unwrap(), "--band", "100..1000"])
+            .args(["--bands", method, "--json", json.to_str().unwrap()])
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        let text = String::from_utf8(o.stdout).unwrap();
+        assert!(
+            text.contains("uncertainty bands: 90.0 % coverage"),
+            "{text}"
+        );
+        let v: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(json).unwrap()).unwrap();
+        v["result"]["uncertainty_bands"]["resonances"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|r| {
+                let f = &r["freq_hz"];
+                let band = if f["monte_carlo"].is_null() {
+                    &f["linear"]
+                } else {
+                    &f["monte_carlo"]
+                };
+                (
+                    r["nominal_hz"].as_f64().unwrap(),
+                    band["low"].as_f64().unwrap(),
+                    band["high"].as_f64().unwrap(),
+                )
+            })
+            .collect::<Vec<_>>()
+    };
+    let mc = run("monte-carlo");
+    let lin = run("first-order");
+    assert_eq!(mc.len(), 2);
+    assert_eq!(lin.len(), 2);
+    for ((f0, lo, hi), (_, llo, lhi)) in mc.into_iter().zip(lin) {
+        assert!((f0 / 300.0 - 1.0).abs() < 1e-6 || (f0 / 900.0 - 1.0).abs() < 1e-6);
+        // 4 sampling standard deviations of the quantile of a uniform
+        // density over ±5 % with the adaptive procedure's ≥ 1000 draws
+        let sd = 0.1 * f0 * (0.05f64 * 0.95 / 1000.0).sqrt();
+        assert!((lo - 0.955 * f0).abs() < 4.0 * sd, "{lo} of {f0}");
+        assert!((hi - 1.045 * f0).abs() < 4.0 * sd, "{hi} of {f0}");
+        let k_u = 1.644_853_626_951_472_2 * f0 * 0.05 / 3f64.sqrt();
+        assert!((llo - (f0 - k_u)).abs() < 1e-6 * f0, "{llo} of {f0}");
+        assert!((lhi - (f0 + k_u)).abs() < 1e-6 * f0, "{lhi} of {f0}");
+    }
+    let _ = std::fs::remove_dir_all(dir);
+}
+
+/// `ripline sweep --bands` over 1500..2500 rpm on the quarter-wave line
+/// (laminar friction) with c = 1200 m/s ± 5 %: the ripple is worst where
+/// the first harmonic, 9 × speed, meets the resonance c/4L, at 60·c/(4L·9)
+/// = 2000 rpm for the nominal c (friction lowers it slightly); as the
+/// resonance is proportional to c, the 90 % band of the worst speed is its
+/// nominal value × (1 ∓ 0.045), as for the resonance above.
+#[test]
+fn sweep_bands_of_the_worst_speed_are_the_image_of_the_wave_speed() {
+    let dir = std::env::temp_dir().join(format!("ripline-bands-sweep-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let circuit = dir.join("quarter.yaml");
+    std::fs::write(&circuit, quarter_wave("1200 m/s ± 5 %", "laminar")).unwrap();
+    let json = dir.join("sweep.json");
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args([
+            "sweep",
+            circuit.to_str().unwrap(),
+            "--speed-range",
+            "1500..2500",
+        ])
+        .args(["--bands", "monte-carlo", "--draws", "1000"])
+        .args(["--json", json.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8(o.stdout).unwrap();
+    assert!(text.contains("worst speed rpm"), "{text}");
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(json).unwrap()).unwrap();
+    let p = &v["result"]["bands"]["points"][0];
+    let w = &p["worst_speed_rev_s"];
+    let nominal = w["nominal"].as_f64().unwrap() * 60.0;
+    assert!(nominal < 2000.0 && nominal > 0.98 * 2000.0, "{nominal}");
+    let lo = w["monte_carlo"]["low"].as_f64().unwrap() * 60.0;
+    let hi = w["monte_carlo"]["high"].as_f64().unwrap() * 60.0;
+    // the quantile's sampling sd with 1000 draws is 0.1·2000·√(0.0475/1000)
+    // = 1.4 rpm; allow 4 of them and 2 rpm for the refinement
+    let tol = 4.0 * 1.4 + 2.0;
+    assert!((lo - 0.955 * nominal).abs() < tol, "{lo} of {nominal}");
+    assert!((hi - 1.045 * nominal).abs() < tol, "{hi} of {nominal}");
+    assert_eq!(
+        p["rms_pa"].as_array().unwrap().len(),
+        v["result"]["speeds_rev_s"].as_array().unwrap().len()
+    );
+    let _ = std::fs::remove_dir_all(dir);
+}
+
+/// `response --bands` and `sweep --bands` on a circuit with nothing
+/// uncertain: exit 2, nothing written, the error says how to add a
+/// tolerance.
+#[test]
+fn response_and_sweep_bands_of_a_circuit_with_nothing_uncertain_are_refused() {
+    let dir = std::env::temp_dir().join(format!("ripline-bands-none-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let circuit = dir.join("certain.yaml");
+    std::fs::write(&circuit, quarter_wave("1200 m/s", "laminar")).unwrap();
+    let json = dir.join("out.json");
+    for args in [
+        ["response", "--band", "100..1000", "--bands", "monte-carlo"],
+        [
+            "sweep",
+            "--speed-range",
+            "1500..2500",
+            "--bands",
+            "first-order",
+        ],
+    ] {
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+            .args(args)
+            .args([circuit.to_str().unwrap(), "--json", json.to_str().unwrap()])
+            .output()
+            .unwrap();
+        assert_eq!(o.status.code(), Some(2), "{args:?}");
+        assert!(o.stdout.is_empty(), "{args:?}");
+        assert!(!json.exists(), "{args:?}");
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert!(err.contains("tolerance"), "{args:?}: {err}");
+    }
+    let _ = std::fs::remove_dir_all(dir);
+}

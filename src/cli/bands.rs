@@ -4,6 +4,8 @@
 use super::common::UsageError;
 use super::ranges::Progress;
 use clap::{Args, ValueEnum};
+use ripline::envelope::OperatingPoint;
+use ripline::io::CircuitTemplate;
 use ripline::uncertainty::bands::{BandRequest, Method};
 use ripline::uncertainty::monte_carlo::{MAX_DRAWS, Options};
 
@@ -101,4 +103,42 @@ impl DrawProgress {
             p.finish();
         }
     }
+}
+
+/// Computes the bands of every envelope point's result with `compute`
+/// (template, point, request, bands, nominal, progress) and stores them
+/// with `store`; nothing without `--bands`.
+///
+/// # Errors
+/// The first point whose bands fail, named.
+pub fn over_points<R, Q, B>(
+    results: &mut [(OperatingPoint, R)],
+    requests: &[Q],
+    band_request: Option<&BandRequest>,
+    template: Option<&CircuitTemplate>,
+    compute: impl Fn(
+        &CircuitTemplate,
+        &OperatingPoint,
+        &Q,
+        &BandRequest,
+        &R,
+        &mut dyn FnMut(usize, usize),
+    ) -> Result<B, ripline::results::Error>,
+    store: impl Fn(&mut R, B),
+) -> anyhow::Result<()> {
+    let (Some(b), Some(t)) = (band_request, template) else {
+        return Ok(());
+    };
+    for ((point, result), request) in results.iter_mut().zip(requests) {
+        let mut progress = DrawProgress::new();
+        let bands = compute(t, point, request, b, result, &mut |d, n| {
+            progress.update(d, n);
+        });
+        progress.finish();
+        let bands = bands.map_err(|e| {
+            anyhow::Error::new(e).context(format!("bands at envelope point `{}`", point.label()))
+        })?;
+        store(result, bands);
+    }
+    Ok(())
 }

@@ -1,6 +1,7 @@
 //! `ripline response FILE`: frequency response, resonances, and which pump
 //! harmonics cross them over the operating speed range.
 
+use super::bands::{self, BandArgs};
 use super::common::{self, Outputs};
 use super::envelope::{self, PointArgs};
 use super::ranges::{self, Progress};
@@ -8,6 +9,7 @@ use clap::Args;
 use ripline::plot;
 use ripline::render::response as render;
 use ripline::results::Origin;
+use ripline::results::bands::response_bands;
 use ripline::results::response::{ResponseRequest, response};
 use std::path::PathBuf;
 
@@ -36,6 +38,8 @@ pub struct ResponseArgs {
     /// Write the result as JSON (schema in docs/json.md).
     #[arg(long, value_name = "FILE")]
     json: Option<PathBuf>,
+    #[command(flatten)]
+    bands: BandArgs,
 }
 
 pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
@@ -46,24 +50,40 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
         None => (0.1, Origin::Default),
     };
     let ranking = common::ranking_options(args.at.top, args.floor.as_deref())?;
+    let band_request = args.bands.request()?;
     let mut at = args.at.load(args.file.as_deref(), false)?;
+    let template = band_request
+        .is_some()
+        .then(|| common::load_template(args.file.as_deref()))
+        .transpose()?;
     let plots = envelope::point_paths(plot.as_deref(), &at);
     let mut targets = vec![("--csv", csv.as_deref()), ("--json", json.as_deref())];
     targets.extend(plots.iter().map(|p| ("--plot", Some(p.as_path()))));
     let mut outputs = Outputs::plan(&targets)?;
     let progress = Progress::new(0, "frequency response");
-    let results = at.run(|circuit, source| {
+    let mut requests = Vec::new();
+    let mut results = at.run(|circuit, source| {
         let sweep = args.sweep.resolve(&circuit)?;
         let request = ResponseRequest {
             sweep,
             margin,
             ranking,
         };
-        Ok(response(circuit, source, &request, &mut |done, total| {
+        let result = response(circuit, source, &request, &mut |done, total| {
             progress.set_of(done, total)
-        })?)
+        })?;
+        requests.push(request);
+        Ok(result)
     })?;
     progress.finish();
+    bands::over_points(
+        &mut results,
+        &requests,
+        band_request.as_ref(),
+        template.as_ref(),
+        response_bands,
+        |r, b| r.uncertainty_bands = Some(b),
+    )?;
     envelope::print_warnings(&results, |r| &r.warnings);
 
     // the envelope columns follow `point`

@@ -1,6 +1,6 @@
 //! `ripline solve [FILE]`: the pressure ripple at every measurement point.
 
-use super::bands::{BandArgs, DrawProgress};
+use super::bands::{self, BandArgs};
 use super::common::{self, Outputs, check_output};
 use super::envelope::{self, PointArgs};
 use clap::Args;
@@ -103,19 +103,14 @@ pub fn run(args: SolveArgs) -> anyhow::Result<()> {
         requests.push(request);
         Ok(result)
     })?;
-    if let (Some(b), Some(t)) = (&band_request, &template) {
-        for ((point, result), request) in results.iter_mut().zip(&requests) {
-            let mut progress = DrawProgress::new();
-            let bands = ripple_bands(t, point, request, b, result, &mut |d, n| {
-                progress.update(d, n);
-            });
-            progress.finish();
-            result.bands = Some(bands.map_err(|e| {
-                anyhow::Error::new(e)
-                    .context(format!("bands at envelope point `{}`", point.label()))
-            })?);
-        }
-    }
+    bands::over_points(
+        &mut results,
+        &requests,
+        band_request.as_ref(),
+        template.as_ref(),
+        ripple_bands,
+        |r, b| r.bands = Some(b),
+    )?;
     envelope::print_warnings(&results, |r| &r.warnings);
 
     // Every output is prepared before anything is shown or renamed into place.

@@ -2,6 +2,7 @@
 //! ripple of a shaft's pumps over a speed range, and every resonance
 //! crossing.
 
+use super::bands::{self, BandArgs};
 use super::common::{self, Outputs, UsageError};
 use super::envelope::{self, PointArgs};
 use super::ranges::{self, Progress};
@@ -9,6 +10,7 @@ use clap::Args;
 use ripline::plot;
 use ripline::render::sweep as render;
 use ripline::results::Origin;
+use ripline::results::bands::sweep_bands;
 use ripline::results::sweep::{SweepRequest, sweep};
 use std::path::PathBuf;
 
@@ -59,6 +61,8 @@ pub struct SweepArgs {
     /// Write the result as JSON (schema in docs/json.md; the full grid is in the CSV).
     #[arg(long, value_name = "FILE")]
     json: Option<PathBuf>,
+    #[command(flatten)]
+    bands: BandArgs,
 }
 
 pub fn run(args: SweepArgs) -> anyhow::Result<()> {
@@ -77,7 +81,12 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
     let (csv, plot) = common::csv_and_plot_paths(args.csv.as_deref(), args.plot.as_deref())?;
     let json = common::json_path(args.json.as_deref())?;
     let harmonics = common::harmonics_option(args.harmonics)?;
+    let band_request = args.bands.request()?;
     let mut at = args.at.load(args.file.as_deref(), false)?;
+    let template = band_request
+        .is_some()
+        .then(|| common::load_template(args.file.as_deref()))
+        .transpose()?;
     let maps = envelope::point_paths(plot.as_deref(), &at);
     let levels: Vec<PathBuf> = maps.iter().map(|p| render::levels_path(p)).collect();
     let mut targets = vec![("--csv", csv.as_deref()), ("--json", json.as_deref())];
@@ -99,7 +108,8 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
         .transpose()?;
     let shaft = args.pump.clone().or_else(|| at.shaft.clone());
     let bar = Progress::new(0, "sweeping speeds");
-    let results = at.run(|circuit, source| {
+    let mut requests = Vec::new();
+    let mut results = at.run(|circuit, source| {
         let request = SweepRequest {
             shaft: common::pick_shaft(&circuit, shaft.as_deref())?,
             speed_range,
@@ -110,11 +120,21 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
             map_point: args.tap.clone(),
             ranking,
         };
-        Ok(sweep(circuit, source, &request, &mut |done, total| {
+        let result = sweep(circuit, source, &request, &mut |done, total| {
             bar.set_of(done, total)
-        })?)
+        })?;
+        requests.push(request);
+        Ok(result)
     })?;
     bar.finish();
+    bands::over_points(
+        &mut results,
+        &requests,
+        band_request.as_ref(),
+        template.as_ref(),
+        sweep_bands,
+        |r, b| r.bands = Some(b),
+    )?;
     envelope::print_warnings(&results, |r| &r.warnings);
 
     // the envelope columns follow `point,harmonic`; the grid's own speed

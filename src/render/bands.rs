@@ -3,7 +3,7 @@
 
 use super::table::{Align, DIGITS, Quantity, Table, sig};
 use crate::io::quantity::Spread;
-use crate::results::bands::RippleBands;
+use crate::results::bands::{ResponseBands, RippleBands, SweepBands};
 use crate::uncertainty::bands::{BandsInfo, Method, OutputBand};
 use std::io::Write;
 
@@ -122,4 +122,70 @@ pub fn ripple_text(b: &RippleBands, out: &mut impl Write) -> std::io::Result<()>
         }
     }
     Ok(())
+}
+
+/// The bands of `response`: each resonance's frequency and peak level.
+///
+/// # Errors
+/// The writer's error.
+pub fn response_text(b: &ResponseBands, out: &mut impl Write) -> std::io::Result<()> {
+    writeln!(out)?;
+    info_text(&b.info, out)?;
+    let mut t = Table::new(&[
+        ("#", Align::Right),
+        ("frequency Hz", Align::Right),
+        ("band Hz", Align::Right),
+        ("peak level Pa·s/m³", Align::Right),
+        ("band Pa·s/m³", Align::Right),
+    ]);
+    let si = super::table::Unit {
+        symbol: "",
+        si: 1.0,
+    };
+    for (i, r) in b.resonances.iter().enumerate() {
+        t.row(vec![
+            format!("{}", i + 1),
+            sig(r.nominal_hz, DIGITS),
+            interval(&r.freq_hz, si),
+            if r.level_pa_per_m3_s.nominal.is_finite() {
+                sig(r.level_pa_per_m3_s.nominal, DIGITS)
+            } else {
+                "unbounded".into()
+            },
+            interval(&r.level_pa_per_m3_s, si),
+        ]);
+    }
+    t.write(out, "  ")
+}
+
+/// The bands of `sweep`: each point's worst speed and the rms there (the
+/// rms at every speed is in the JSON).
+///
+/// # Errors
+/// The writer's error.
+pub fn sweep_text(b: &SweepBands, out: &mut impl Write) -> std::io::Result<()> {
+    writeln!(out)?;
+    info_text(&b.info, out)?;
+    let unit = Quantity::Pressure.unit_for_all(b.points.iter().map(|p| p.worst_rms_pa.nominal));
+    let rpm = super::table::Unit {
+        symbol: "rpm",
+        si: 1.0 / 60.0,
+    };
+    let mut t = Table::new(&[
+        ("point", Align::Left),
+        ("worst speed rpm", Align::Right),
+        ("band rpm", Align::Right),
+        (&format!("rms {}", unit.symbol), Align::Right),
+        (&format!("band {}", unit.symbol), Align::Right),
+    ]);
+    for p in &b.points {
+        t.row(vec![
+            p.point.clone(),
+            sig(rpm.of(p.worst_speed_rev_s.nominal), DIGITS),
+            interval(&p.worst_speed_rev_s, rpm),
+            sig(unit.of(p.worst_rms_pa.nominal), DIGITS),
+            interval(&p.worst_rms_pa, unit),
+        ]);
+    }
+    t.write(out, "  ")
 }

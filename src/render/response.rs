@@ -52,6 +52,9 @@ pub fn text(r: &ResponseResult, out: &mut impl Write) -> std::io::Result<()> {
     )?;
     writeln!(out)?;
     resonances(out, &r.resonances)?;
+    if let Some(b) = &r.uncertainty_bands {
+        super::bands::response_text(b, out)?;
+    }
     writeln!(out)?;
     bands(out, r)?;
     writeln!(out)?;

@@ -108,6 +108,9 @@ pub fn text(r: &SweepReport, out: &mut impl Write) -> std::io::Result<()> {
         ]);
     }
     t.write(out, "  ")?;
+    if let Some(b) = &r.bands {
+        super::bands::sweep_text(b, out)?;
+    }
     writeln!(out)?;
     if r.crossings.is_empty() {
         return writeln!(

@@ -219,6 +219,30 @@ pub struct ResponseResult {
     pub load_impedance_pa_s_m3: Vec<Phasor>,
     /// Model-validity warnings up to the top of the band.
     pub warnings: Vec<Notice>,
+    /// Uncertainty bands of the resonances (`response --bands`), set
+    /// from outside.
+    pub uncertainty_bands: Option<super::bands::ResponseBands>,
+}
+
+/// Applies the request's overrides to `circuit`: harmonics, and the speed
+/// of the pump's shaft (mean flows split again).
+pub(crate) fn override_circuit(
+    circuit: &mut Circuit,
+    pump_index: usize,
+    harmonics: Option<u32>,
+    speed_rev_s: Option<f64>,
+) {
+    if let Some(n) = harmonics {
+        circuit.harmonics = n;
+    }
+    if let Some(rev_s) = speed_rev_s
+        && let Some(shaft) = shafts(&circuit.pumps)
+            .into_iter()
+            .find(|s| s.pumps.contains(&pump_index))
+    {
+        shaft.set_speed(&mut circuit.pumps, rev_s);
+        crate::meanflow::resolve_line_mean_flows(circuit);
+    }
 }
 
 /// The circuit with the request's overrides applied: harmonics, and the
@@ -235,20 +259,10 @@ pub(crate) fn adjusted(
         Origin::Request,
     )];
     inputs.push(match harmonics {
-        Some(n) => {
-            circuit.harmonics = n;
-            Input::number("harmonics", n.into(), "1", Origin::Request)
-        }
+        Some(n) => Input::number("harmonics", n.into(), "1", Origin::Request),
         None => Input::number("harmonics", circuit.harmonics.into(), "1", Origin::File),
     });
-    if let Some(rev_s) = speed_rev_s
-        && let Some(shaft) = shafts(&circuit.pumps)
-            .into_iter()
-            .find(|s| s.pumps.contains(&pump_index))
-    {
-        shaft.set_speed(&mut circuit.pumps, rev_s);
-        crate::meanflow::resolve_line_mean_flows(&mut circuit);
-    }
+    override_circuit(&mut circuit, pump_index, harmonics, speed_rev_s);
     inputs.push(Input::number(
         "speed",
         circuit.pumps[pump_index].speed_rev_s,
@@ -374,6 +388,7 @@ pub fn response(
             .map(|z| Phasor::from(*z))
             .collect(),
         warnings,
+        uncertainty_bands: None,
     })
 }
 

@@ -138,6 +138,8 @@ pub struct SweepReport {
     /// and the map; not in the JSON document (the CSV holds it).
     #[serde(skip)]
     pub grid: SweepResult,
+    /// Uncertainty bands (`sweep --bands`), set from outside.
+    pub bands: Option<super::bands::SweepBands>,
 }
 
 /// Sweeps `circuit` as `sweep` does; `progress(done, total)` follows the
@@ -359,6 +361,7 @@ pub fn sweep(
         map_point,
         warnings,
         grid,
+        bands: None,
     })
 }
 

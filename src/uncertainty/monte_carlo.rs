@@ -199,10 +199,10 @@ pub fn propagate<E>(
             let (mean, u, low, high, missing) = summary_with_missing(&values[o], options.coverage);
             Band {
                 nominal: nominal[o],
-                mean,
-                u,
-                low,
-                high,
+                mean: f32_digits(mean),
+                u: f32_digits(u),
+                low: f32_digits(low),
+                high: f32_digits(high),
                 missing,
             }
         })
@@ -248,6 +248,15 @@ fn stable_output(per_batch: &[Vec<[f64; 4]>], o: usize, u: f64, digits: u32) -> 
     })
 }
 
+/// `x` to the digits its 32-bit samples carry: the shortest decimal that
+/// reads back as the same `f32` (286.34705, not 286.3470458984375).
+fn f32_digits(x: f64) -> f64 {
+    if !x.is_finite() {
+        return x;
+    }
+    format!("{}", x as f32).parse().unwrap_or(x)
+}
+
 /// (mean, u, low, high) of samples, NaNs left out.
 fn summary(samples: &[f32], coverage: f64) -> (f64, f64, f64, f64) {
     let s = summary_with_missing(samples, coverage);
@@ -280,6 +289,14 @@ fn summary_with_missing(samples: &[f32], coverage: f64) -> (f64, f64, f64, f64, 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    // the expected values are numpy's shortest repr of `np.float32(x)`
+    fn band_ends_keep_the_digits_of_their_samples() {
+        assert_eq!(f32_digits(286.347_045_898_437_5), 286.347_05);
+        assert_eq!(f32_digits(34_104.331_445_312_5), 34_104.332);
+        assert!(f32_digits(f64::NAN).is_nan());
+    }
 
     // y = x with x uniform on [-1, 1]: u = 1/√3, and the 90 % interval is
     // [-0.9, 0.9] (the rectangular distribution's quantiles, by hand). The
