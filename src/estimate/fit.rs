@@ -642,10 +642,12 @@ pub fn fit(
                 }
             });
         if let Some(b) = expected_bias {
+            // In percent to one decimal; `+ 0.0` turns a rounded −0 into +0.
+            let percent = |x: f64| (1000.0 * x).round() / 10.0 + 0.0;
             flags.push(format!(
                 "expected bias from the conditioning: |Qs| {:+.1} %, |Zs| {:+.1} % (median of the Monte Carlo draws against the estimate)",
-                100.0 * b.flow,
-                100.0 * b.impedance,
+                percent(b.flow),
+                percent(b.impedance),
             ));
         }
         for f in &flags {
