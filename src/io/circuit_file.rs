@@ -507,11 +507,19 @@ pub(crate) fn refuse_too_many_elements(text: &str, file: &str) -> Result<(), Inp
             line: Some(line),
             column: Some(column),
             path: format!("elements[{max}]"),
-            message: format!(
-                "the circuit has {count} elements; ripline accepts at most {max} elements (README, Limits and safeguards)"
+            message: over_limit(
+                &format!("the circuit has {count} elements"),
+                max,
+                "elements",
             ),
         })),
     }
+}
+
+/// The message for a count over one of the limits of [`limits`]: `count`
+/// says what the file has, `max` and `what` the limit.
+fn over_limit(count: &str, max: usize, what: &str) -> String {
+    format!("{count}; ripline accepts at most {max} {what} (README, Limits and safeguards)")
 }
 
 pub use given::{Given, GivenInputs, GivenKeys, given_inputs};
@@ -640,12 +648,7 @@ impl Checker<'_> {
         let mean_pressure = raw.fluid.pressure.map(|p| p.si);
         // A count over a limit of `limits`, located at the first item beyond it.
         let over = |path: &KeyPath, count: String, max: usize, what: &str| {
-            self.err(
-                path,
-                format!(
-                    "{count}; ripline accepts at most {max} {what} (README, Limits and safeguards)"
-                ),
-            )
+            self.err(path, over_limit(&count, max, what))
         };
         if raw.elements.len() > limits::MAX_ELEMENTS {
             return Err(over(
