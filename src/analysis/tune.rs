@@ -1155,11 +1155,11 @@ impl TuneProblem<'_> {
         .unwrap_or_else(|never| match never {});
         let mut count = samples.len();
         let values: Vec<f64> = evaluated.into_iter().map(&mut record).collect();
-        let stage = "local";
-        let mut cost = |u: &[f64], stage: &'static str| -> f64 {
+        // Local stage: one design at a time.
+        let mut cost = |u: &[f64]| -> f64 {
             count += 1;
             progress(count);
-            record(design_at(u, stage))
+            record(design_at(u, "local"))
         };
 
         // Starts for the local stage.
@@ -1185,7 +1185,7 @@ impl TuneProblem<'_> {
                 let a = samples[i.saturating_sub(1)][0];
                 let b = samples[(i + 1).min(n - 1)][0];
                 let (u, neg) = golden_section_max(
-                    |u| -cost(&[u], stage),
+                    |u| -cost(&[u]),
                     a,
                     b,
                     settings.local_evaluations.saturating_sub(2),
@@ -1215,7 +1215,7 @@ impl TuneProblem<'_> {
             let step = (1.0 / (settings.global_points as f64).powf(1.0 / dims as f64)).min(0.2);
             for i in starts {
                 let (u, v) = nelder_mead_in_box(
-                    &mut |u: &[f64]| cost(u, stage),
+                    &mut cost,
                     &samples[i],
                     step,
                     1e-7,
