@@ -258,27 +258,28 @@ pub fn minimise<P: Problem + ?Sized>(
         evaluations: count,
         at_bound: held,
     };
+    // A stop with the values that lie on a bound marked.
+    let finish_at = |x: Vec<f64>, r: Vec<f64>, stop, iterations, count| {
+        let held = at_bounds(&x, bounds);
+        finish(x, r, stop, iterations, count, held)
+    };
     loop {
         if fnorm == 0.0 {
-            let held = at_bounds(&x, bounds);
-            return Ok(finish(
+            return Ok(finish_at(
                 x,
                 r,
                 Stop::ZeroResidual,
                 iterations,
                 problem.count,
-                held,
             ));
         }
         if problem.count >= options.max_evaluations {
-            let held = at_bounds(&x, bounds);
-            return Ok(finish(
+            return Ok(finish_at(
                 x,
                 r,
                 Stop::MaxEvaluations,
                 iterations,
                 problem.count,
-                held,
             ));
         }
         let jac = problem.jacobian(&x, &r, bounds, scales)?;
@@ -376,48 +377,28 @@ pub fn minimise<P: Problem + ?Sized>(
             }
             let small_step = (0..n).all(|j| p[j].abs() <= options.xtol * scales[j]);
             if actred.abs() <= options.ftol && prered <= options.ftol && 0.5 * ratio <= 1.0 {
-                let held = at_bounds(&x, bounds);
-                return Ok(finish(
+                return Ok(finish_at(
                     x,
                     r,
                     Stop::SmallReduction,
                     iterations,
                     problem.count,
-                    held,
                 ));
             }
             if small_step && accepted {
-                let held = at_bounds(&x, bounds);
-                return Ok(finish(
-                    x,
-                    r,
-                    Stop::SmallStep,
-                    iterations,
-                    problem.count,
-                    held,
-                ));
+                return Ok(finish_at(x, r, Stop::SmallStep, iterations, problem.count));
             }
             let xnorm = norm(&x.iter().zip(&d).map(|(a, b)| a * b).collect::<Vec<_>>());
             if delta <= f64::EPSILON * xnorm.max(f64::MIN_POSITIVE) || pnorm == 0.0 {
-                let held = at_bounds(&x, bounds);
-                return Ok(finish(
-                    x,
-                    r,
-                    Stop::Precision,
-                    iterations,
-                    problem.count,
-                    held,
-                ));
+                return Ok(finish_at(x, r, Stop::Precision, iterations, problem.count));
             }
             if problem.count >= options.max_evaluations {
-                let held = at_bounds(&x, bounds);
-                return Ok(finish(
+                return Ok(finish_at(
                     x,
                     r,
                     Stop::MaxEvaluations,
                     iterations,
                     problem.count,
-                    held,
                 ));
             }
             if accepted {
