@@ -613,15 +613,16 @@ pub enum TuneError {
     /// Bounds not positive or not increasing.
     #[error("the bounds of `{0}` must be positive and increasing (low < high)")]
     BadBounds(&'static str),
-    /// A damper's precharge range reaches above its operating pressure
-    /// (the gas would not be compressed: no valid damper).
+    /// A damper's precharge range reaches above its lowest operating
+    /// pressure over the states tuned (the gas would not be compressed there:
+    /// no valid damper).
     #[error(
-        "the precharge bounds reach {high_bar:.3} bar abs, above the damper's operating pressure of {operating_bar:.3} bar abs: a precharge must stay below the operating pressure"
+        "the precharge bounds reach {high_bar:.3} bar abs, above the damper's lowest operating pressure of {operating_bar:.3} bar abs: a precharge must stay below the lowest operating pressure"
     )]
     PrechargeAboveOperating {
         /// The upper bound, bar absolute.
         high_bar: f64,
-        /// The operating pressure, bar absolute.
+        /// The lowest operating pressure, bar absolute.
         operating_bar: f64,
     },
     /// The design as given cannot be evaluated.
