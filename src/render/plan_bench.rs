@@ -124,8 +124,8 @@ pub fn text(r: &PlanBenchResult, out: &mut impl Write) -> std::io::Result<()> {
     )?;
     writeln!(
         out,
-        "{:>4} {:>9} {:>5} {:>6} {:>6} {:>10} {:>6}  {}",
-        "rank", "worst", "at k", "rpm", "cells>", "spacing", "ratio", "line / volume / valve"
+        "{:>4} {:>9} {:>5} {:>6} {:>6} {:>10} {:>6}  line / volume / valve",
+        "rank", "worst", "at k", "rpm", "cells>", "spacing", "ratio"
     )?;
     for d in &r.ranking {
         let lv = [
