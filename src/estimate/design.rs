@@ -31,9 +31,9 @@
 //!
 //! **Guidance used.** A transducer pair resolves the two waves best when
 //! kΔx stays away from 0 and from multiples of π (the two-microphone method,
-//! Seybert & Ross 1977; Chung & Blaser 1980, who recommend keeping the
-//! pair's phase spacing within a usable band; a band of 0.1π..0.8π is
-//! common practice, and ISO 15086-2 and ISO 10767-1 build their
+//! Seybert & Ross 1977; Chung & Blaser 1980: the pair is singular at
+//! kΔx = nπ and loses accuracy as kΔx → 0; the usable band 0.1π..0.8π
+//! is common practice, quoted from memory), and ISO 15086-2 and ISO 10767-1 build their
 //! transducer layouts on the same plane-wave model, with three unequally
 //! spaced transducers so that no pair is at a half wavelength at the same
 //! frequency as another). The default spacing range follows that band:
