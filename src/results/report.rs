@@ -362,19 +362,7 @@ fn over_envelope(
         top: TOP_FINDINGS,
         floor_db: FINDINGS_FLOOR_DB,
     };
-    let result = assess(
-        AssessFile {
-            file: &file.file,
-            circuit: &file.circuit,
-            envelope,
-            limits: &file.limits,
-            pressure_pa: file.pressure_pa,
-            temperature_k: file.temperature_k,
-        },
-        points,
-        &request,
-        progress,
-    );
+    let result = assess(AssessFile::of(file), points, &request, progress);
     match result {
         Ok(a) => Ok((Some(a), None)),
         Err(Error::Request(reason)) if envelope.is_none() && file.limits.is_empty() => {
