@@ -78,6 +78,7 @@ fn bands_of(
         &OperatingPoint::default(),
         &|_| {},
         &evaluate,
+        None,
         &request,
         &mut |_, _| {},
     )

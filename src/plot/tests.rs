@@ -51,10 +51,12 @@ fn bar_chart() -> BarChart {
             Series {
                 name: "outlet".into(),
                 values: vec![3.0, 1.2, 0.6, 0.3, 0.15, 0.0],
+                bands: None,
             },
             Series {
                 name: "inlet".into(),
                 values: vec![1.0, 0.5, 0.2, 0.1, 0.05, 0.02],
+                bands: None,
             },
         ],
         log_y: false,
@@ -79,6 +81,7 @@ fn line_chart_data() -> LineChart {
             name: "model".into(),
             points: pts,
             error_bars: Some(bars),
+            band: None,
             style: SeriesStyle::LineAndPoints,
             color: None,
         }],
