@@ -145,15 +145,51 @@ pub fn propagate(
     request: &BandRequest,
     progress: &mut dyn FnMut(usize, usize),
 ) -> Result<Propagated, BandError> {
+    let at_points = |mut circuits: Vec<Circuit>| {
+        let mut c = circuits.pop().expect("one point");
+        prepare(&mut c);
+        evaluate(c)
+    };
+    propagate_at_points(
+        template,
+        std::slice::from_ref(point),
+        &at_points,
+        judged,
+        request,
+        progress,
+    )
+}
+
+/// An analysis's outputs for the circuits at several envelope points (in
+/// the order given), all with the same values of the uncertain inputs.
+pub type EvaluatePoints<'a> = dyn Fn(Vec<Circuit>) -> Result<Vec<f64>, String> + Sync + 'a;
+
+/// As [`propagate`], for outputs of the circuit at several envelope points
+/// `points`: each draw (and each first-order evaluation) sets the same
+/// values of the uncertain inputs at every point, as one machine with one
+/// set of true values runs through its envelope.
+///
+/// # Errors
+/// [`BandError`].
+pub fn propagate_at_points(
+    template: &CircuitTemplate,
+    points: &[OperatingPoint],
+    evaluate: &EvaluatePoints<'_>,
+    judged: Option<std::ops::Range<usize>>,
+    request: &BandRequest,
+    progress: &mut dyn FnMut(usize, usize),
+) -> Result<Propagated, BandError> {
     let inputs = Inputs::of(template)?;
     if inputs.is_empty() {
         return Err(BandError::NothingUncertain);
     }
     let nominal_values = inputs.nominal();
     let run = |values: &[f64], why: &str| -> Result<Vec<f64>, BandError> {
-        let mut c = inputs.circuit(template, point, values, why)?;
-        prepare(&mut c);
-        evaluate(c).map_err(|e| BandError::Analysis(format!("{e} ({why})")))
+        let circuits = points
+            .iter()
+            .map(|point| inputs.circuit(template, point, values, why))
+            .collect::<Result<Vec<_>, _>>()?;
+        evaluate(circuits).map_err(|e| BandError::Analysis(format!("{e} ({why})")))
     };
     let f0 = run(&nominal_values, "the nominal values")?;
     // first order: each input at +u, then at −u
