@@ -23,10 +23,7 @@ use std::hint::black_box;
 
 fn sweep_bands(c: &mut Criterion) {
     let text = ripline::generated::branched_circuit(30, 1)
-        .replace(
-            "bulk_modulus: 1.6 GPa",
-            "bulk_modulus: \"1.6 GPa ± 5 %\"",
-        )
+        .replace("bulk_modulus: 1.6 GPa", "bulk_modulus: \"1.6 GPa ± 5 %\"")
         .replace("gas_volume: 0.3 L", "gas_volume: \"0.3 L ± 10 %\"")
         .replace(
             "{harmonic: 1, amplitude: 2.0000 L/min,",
@@ -64,9 +61,12 @@ fn sweep_bands(c: &mut Criterion) {
     assert_eq!(run().info.inputs.len(), 3);
     let mut group = c.benchmark_group("bands");
     group.sample_size(10);
-    group.bench_function("sweep bands, 30 elements, 10 harmonics, 100 speeds, 1000 draws", |b| {
-        b.iter(|| black_box(run().info.draws));
-    });
+    group.bench_function(
+        "sweep bands, 30 elements, 10 harmonics, 100 speeds, 1000 draws",
+        |b| {
+            b.iter(|| black_box(run().info.draws));
+        },
+    );
     group.finish();
 }
 

@@ -468,6 +468,9 @@ taps:
     )
 }
 
+/// A row of the verdicts CSV: status, worst, band low and high ends.
+type VerdictRow = (String, f64, f64, f64);
+
 /// Runs `assess` with `args` on `text`; the exit code and the rows of the
 /// verdicts CSV (status, worst, low, high).
 fn assess_verdicts(
@@ -475,7 +478,7 @@ fn assess_verdicts(
     name: &str,
     text: &str,
     args: &[&str],
-) -> (Option<i32>, Vec<(String, f64, f64, f64)>) {
+) -> (Option<i32>, Vec<VerdictRow>) {
     let circuit = dir.join(format!("{name}.yaml"));
     std::fs::write(&circuit, text).unwrap();
     let csv = dir.join(format!("{name}.csv"));
@@ -521,7 +524,10 @@ fn verdicts_with_bands_pass_fail_or_are_uncertain() {
     let words: Vec<&str> = rows.iter().map(|r| r.0.as_str()).collect();
     assert_eq!(words, ["pass", "uncertain", "fail", "fail"]);
     for (_, worst, lo, hi) in &rows {
-        assert!((worst / p_rms - 1.0).abs() < 1e-6, "{worst} against {p_rms}");
+        assert!(
+            (worst / p_rms - 1.0).abs() < 1e-6,
+            "{worst} against {p_rms}"
+        );
         // sampling error of the 5 % quantile with ≥ 2000 draws, as above
         assert!((lo / worst - 0.91).abs() < 0.004, "{lo} of {worst}");
         assert!((hi / worst - 1.09).abs() < 0.004, "{hi} of {worst}");
@@ -585,7 +591,14 @@ fn csv_band_columns_agree_with_the_json_and_the_plots_shade_them() {
     let num = |s: &str| s.parse::<f64>().unwrap();
 
     run(&[
-        "response", "--band", "100..1000", "--csv", "r.csv", "--json", "r.json", "--plot",
+        "response",
+        "--band",
+        "100..1000",
+        "--csv",
+        "r.csv",
+        "--json",
+        "r.json",
+        "--plot",
         "r.svg",
     ]);
     let table = read("r.csv");
@@ -595,7 +608,9 @@ fn csv_band_columns_agree_with_the_json_and_the_plots_shade_them() {
         "point,frequency_hz,amplitude_pa_per_m3s,phase_deg,amplitude_low_pa_per_m3s,amplitude_high_pa_per_m3s"
     );
     let v = json("r.json");
-    let curves = v["result"]["uncertainty_bands"]["curves"].as_array().unwrap();
+    let curves = v["result"]["uncertainty_bands"]["curves"]
+        .as_array()
+        .unwrap();
     assert_eq!(curves.len(), 2); // the pump outlet and the impedance it sees
     let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
     let n = rows.len() / 2;

@@ -229,10 +229,7 @@ impl Figure for BarFigure<'_> {
                 };
                 let u_lo = self.scale.axis(lo).unwrap_or(y.lo);
                 let u0 = ci as f64 + (1.0 - group) / 2.0 + si as f64 * bar_w;
-                let (xa, xb) = (
-                    frame.px_x(u0 + 0.25 * bar_w),
-                    frame.px_x(u0 + 0.75 * bar_w),
-                );
+                let (xa, xb) = (frame.px_x(u0 + 0.25 * bar_w), frame.px_x(u0 + 0.75 * bar_w));
                 let xm = frame.px_x(u0 + 0.5 * bar_w);
                 let py_hi = frame.px((0.0, y.frac(u_hi).clamp(0.0, 1.0))).1;
                 let py_lo = frame.px((0.0, y.frac(u_lo).clamp(0.0, 1.0))).1;

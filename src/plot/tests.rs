@@ -527,7 +527,9 @@ fn y_floor_keeps_amplitudes_non_negative() {
 // end, is refused.
 #[test]
 fn a_curve_band_is_a_filled_polygon() {
-    let points: Vec<(f64, f64)> = (1..=20).map(|i| (f64::from(i), f64::from(i).sqrt())).collect();
+    let points: Vec<(f64, f64)> = (1..=20)
+        .map(|i| (f64::from(i), f64::from(i).sqrt()))
+        .collect();
     let band: Vec<(f64, f64)> = points.iter().map(|p| (0.9 * p.1, 1.1 * p.1)).collect();
     let mut chart = LineChart {
         series: vec![XySeries {
@@ -555,9 +557,15 @@ fn a_curve_band_is_a_filled_polygon() {
     chart.series[0].band = None;
     assert!(!line_chart_svg(&chart).unwrap().contains("<polygon"));
     chart.series[0].band = Some(band[1..].to_vec());
-    assert!(matches!(line_chart_svg(&chart), Err(PlotError::InvalidData(_))));
+    assert!(matches!(
+        line_chart_svg(&chart),
+        Err(PlotError::InvalidData(_))
+    ));
     chart.series[0].band = Some(band.iter().map(|&(lo, hi)| (hi, lo)).collect());
-    assert!(matches!(line_chart_svg(&chart), Err(PlotError::InvalidData(_))));
+    assert!(matches!(
+        line_chart_svg(&chart),
+        Err(PlotError::InvalidData(_))
+    ));
 }
 
 // Bands over bars add a box and three lines per bar (on a log axis too).
@@ -584,8 +592,13 @@ fn bar_bands_are_boxes_with_whiskers() {
     chart.series[0].bands = Some(vec![(2.5, 3.5), (0.8, 1.3)]);
     let banded = grouped_bar_chart_svg(&chart).unwrap();
     assert_eq!(count(&banded, "rect"), count(&plain, "rect") + 2);
-    assert_eq!(count(&banded, "polyline") + count(&banded, "path") + count(&banded, "line"),
-        count(&plain, "polyline") + count(&plain, "path") + count(&plain, "line") + 6);
+    assert_eq!(
+        count(&banded, "polyline") + count(&banded, "path") + count(&banded, "line"),
+        count(&plain, "polyline") + count(&plain, "path") + count(&plain, "line") + 6
+    );
     chart.series[0].bands = Some(vec![(2.5, 3.5)]);
-    assert!(matches!(grouped_bar_chart_svg(&chart), Err(PlotError::InvalidData(_))));
+    assert!(matches!(
+        grouped_bar_chart_svg(&chart),
+        Err(PlotError::InvalidData(_))
+    ));
 }

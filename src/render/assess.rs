@@ -114,7 +114,10 @@ pub fn findings_csv<W: Write>(r: &AssessReport, out: W) -> Result<(), csv::Error
 /// The CSV writer's error.
 pub fn verdicts_csv<W: Write>(r: &AssessReport, out: W) -> Result<(), csv::Error> {
     let own = own(r);
-    let number = |x: Option<f64>| x.filter(|v| v.is_finite()).map_or(String::new(), |v| format!("{v}"));
+    let number = |x: Option<f64>| {
+        x.filter(|v| v.is_finite())
+            .map_or(String::new(), |v| format!("{v}"))
+    };
     let mut w = csv::Writer::from_writer(out);
     w.write_record(VERDICTS_HEADER)?;
     for (i, v) in r.assessment.verdicts.iter().enumerate() {
@@ -276,12 +279,7 @@ pub fn text(r: &AssessReport, out: &mut impl Write) -> std::io::Result<()> {
             "verdicts (each limit against the worst of the envelope):"
         )?;
         for (i, v) in a.verdicts.iter().enumerate() {
-            let head = format!(
-                "  {}  `{}`: {}",
-                r.status(i).word(),
-                v.tap,
-                limit_text(v)
-            );
+            let head = format!("  {}  `{}`: {}", r.status(i).word(), v.tap, limit_text(v));
             match (&v.worst, v.margin_db) {
                 (Some(w), Some(margin)) => writeln!(
                     out,

@@ -7,11 +7,11 @@ use crate::analysis::envelope::{
     AssessError, AssessSettings, Assessment, LimitedQuantity, Verdict, assess as run_assess,
     limited_worst_values,
 };
+use crate::elements::PRESSURE_VESSEL_CAUTION;
 use crate::envelope::LimitKind;
+use crate::envelope::{Envelope, OperatingPoint, TapLimits};
 use crate::io::CircuitTemplate;
 use crate::uncertainty::bands::{BandRequest, BandsInfo, OutputBand, propagate_at_points};
-use crate::elements::PRESSURE_VESSEL_CAUTION;
-use crate::envelope::{Envelope, OperatingPoint, TapLimits};
 use serde::Serialize;
 
 /// What to assess, resolved.
@@ -273,13 +273,14 @@ pub fn verdict_bands(
         }
         Ok(out)
     };
-    let p = propagate_at_points(template, &points, &evaluate, None, bands, progress).map_err(
-        |e| match e {
-            crate::uncertainty::bands::BandError::NothingUncertain
-            | crate::uncertainty::bands::BandError::Input(_) => Error::Request(e.to_string()),
-            other => Error::failed("uncertainty bands of the verdicts".to_string(), other),
-        },
-    )?;
+    let p =
+        propagate_at_points(template, &points, &evaluate, None, bands, progress).map_err(|e| {
+            match e {
+                crate::uncertainty::bands::BandError::NothingUncertain
+                | crate::uncertainty::bands::BandError::Input(_) => Error::Request(e.to_string()),
+                other => Error::failed("uncertainty bands of the verdicts".to_string(), other),
+            }
+        })?;
     let verdicts = a
         .verdicts
         .iter()

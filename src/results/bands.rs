@@ -10,8 +10,8 @@ use crate::Circuit;
 use crate::envelope::OperatingPoint;
 use crate::io::CircuitTemplate;
 use crate::uncertainty::bands::{
-    BandError, BandRequest, BandsInfo, Method, OutputBand, Propagated, propagate,
-    response_outputs, ripple_outputs, sweep_outputs,
+    BandError, BandRequest, BandsInfo, Method, OutputBand, Propagated, propagate, response_outputs,
+    ripple_outputs, sweep_outputs,
 };
 use crate::uncertainty::monte_carlo::MAX_STORED;
 use serde::Serialize;
@@ -288,9 +288,9 @@ pub fn response_bands(
         .points
         .iter()
         .map(|p| p.name.clone())
-        .chain(std::iter::once(crate::render::response::load_impedance_point(
-            &nominal.pump.name,
-        )));
+        .chain(std::iter::once(
+            crate::render::response::load_impedance_point(&nominal.pump.name),
+        ));
     let curves = if with_curves {
         names
             .zip(p.outputs[..curve_outputs].chunks_exact(nf.max(1)))

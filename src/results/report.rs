@@ -171,18 +171,18 @@ pub fn report(
     let (mut assessment, no_assessment) = over_envelope(file, &envelope_points, &mut |i, n| {
         progress(done + i * STEP / n.max(1), total);
     })?;
-    if let (Some(bands), Some((a, assess_request))) = (&request.bands, assessment.as_mut()) {
-        if a.assessment.verdicts.iter().any(|v| v.worst.is_some()) {
-            let template = crate::io::CircuitTemplate::new(&file.text, &file.file)
-                .map_err(|e| Error::Request(e.to_string()))?;
-            a.verdict_bands = Some(super::assess::verdict_bands(
-                &template,
-                a,
-                assess_request,
-                bands,
-                &mut |_, _| {},
-            )?);
-        }
+    if let (Some(bands), Some((a, assess_request))) = (&request.bands, assessment.as_mut())
+        && a.assessment.verdicts.iter().any(|v| v.worst.is_some())
+    {
+        let template = crate::io::CircuitTemplate::new(&file.text, &file.file)
+            .map_err(|e| Error::Request(e.to_string()))?;
+        a.verdict_bands = Some(super::assess::verdict_bands(
+            &template,
+            a,
+            assess_request,
+            bands,
+            &mut |_, _| {},
+        )?);
     }
     let assessment = assessment.map(|(a, _)| a);
     part(&mut done, progress);
@@ -348,6 +348,10 @@ pub const TOP_FINDINGS: usize = 10;
 /// `assess`'s default `--floor`).
 pub const FINDINGS_FLOOR_DB: f64 = 20.0;
 
+/// An assessment with the request that made it, or the reason there is
+/// none.
+type Assessed = (Option<(AssessReport, AssessRequest)>, Option<String>);
+
 /// `assess` with its defaults over the file's envelope points (`points`,
 /// resolved); when it cannot run for want of a speed range and the file
 /// has neither `envelope` nor `limits`, no assessment and the reason.
@@ -359,7 +363,7 @@ fn over_envelope(
     file: &CircuitFile,
     points: &[(OperatingPoint, crate::Circuit)],
     progress: &mut dyn FnMut(usize, usize),
-) -> Result<(Option<(AssessReport, AssessRequest)>, Option<String>), Error> {
+) -> Result<Assessed, Error> {
     let envelope = file.envelope.as_ref();
     let settings = AssessSettings::default();
     let request = AssessRequest {

@@ -371,8 +371,15 @@ mod tests {
         };
         let all = propagate(&[0.0, 0.0], &eval, &options, None, |_| (), &mut |_, _| {}).unwrap();
         assert_eq!((all.draws, all.stable), (8000, Some(false)));
-        let judged =
-            propagate(&[0.0, 0.0], &eval, &options, Some(0..1), |_| (), &mut |_, _| {}).unwrap();
+        let judged = propagate(
+            &[0.0, 0.0],
+            &eval,
+            &options,
+            Some(0..1),
+            |_| (),
+            &mut |_, _| {},
+        )
+        .unwrap();
         assert_eq!(judged.stable, Some(true));
         assert!(judged.draws < 8000, "{}", judged.draws);
         // the same draws: the judged run's bands are those of its first draws
