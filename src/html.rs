@@ -437,6 +437,7 @@ mod tests {
             series: vec![crate::plot::Series {
                 name: "gauge".into(),
                 values: vec![1.0, 0.1],
+                bands: None,
             }],
             ..Default::default()
         };

@@ -78,6 +78,7 @@ fn bands_of(
         &OperatingPoint::default(),
         &|_| {},
         &evaluate,
+        None,
         &request,
         &mut |_, _| {},
     )
@@ -416,5 +417,247 @@ fn response_and_sweep_bands_of_a_circuit_with_nothing_uncertain_are_refused() {
         let err = String::from_utf8_lossy(&o.stderr);
         assert!(err.contains("tolerance"), "{args:?}: {err}");
     }
+    let _ = std::fs::remove_dir_all(dir);
+}
+
+/// A pump that is an ideal flow source (no source volume) feeding a volume
+/// V of oil of bulk modulus B in parallel with a resistance R to tank (an
+/// orifice): the volume's hydraulic capacitance is C = V/B (the lumped
+/// compliance, e.g. Merritt, *Hydraulic Control Systems*, §3.3), so each
+/// harmonic's pressure is |P| = |Q|·R/√(1 + (ωRC)²), the parallel RC
+/// impedance. One harmonic of amplitude Q ± 10 % (limits) at the pump's
+/// 1500 rpm; a flow table scales with speed (Q·n/1500 rpm), so |P| grows
+/// with speed (ωRC ≫ 1 here: |P| → Q·n/(1500 rpm·ωC), a constant, from
+/// below) and the worst rms is at the top speed, n = 2500 rpm, ω = 2π·z·n.
+/// It is proportional to Q: its 90 % band is P_rms × [0.91, 1.09] (the
+/// 5th..95th percentiles of the rectangular distribution, as above).
+fn compliance_case(ratios: &[f64]) -> (String, f64) {
+    let (b, v, r, z, n) = (1.6e9, 1e-3, 1e10, 9.0, 2500.0 / 60.0);
+    let q = 1.0 / 60_000.0 * 2500.0 / 1500.0;
+    let omega = 2.0 * std::f64::consts::PI * z * n;
+    let p_rms = q * r / (2f64.sqrt() * (1.0 + (omega * r * v / b).powi(2)).sqrt());
+    let taps: String = (0..ratios.len())
+        .map(|i| format!("  - {{name: tap{i}, node: a}}\n"))
+        .collect();
+    let limits: String = ratios
+        .iter()
+        .enumerate()
+        .map(|(i, r)| format!("  - {{tap: tap{i}, rms: {:.6} Pa}}\n", r * p_rms))
+        .collect();
+    (
+        format!(
+            "\
+title: pump into a volume and an orifice (invented verdict test)
+fluid: {{density: 870 kg/m3, bulk_modulus: 1.6 GPa, viscosity: 32 cSt}}
+pump:
+  node: a
+  speed: 1500 rpm
+  speed_range: [1500 rpm, 2500 rpm]
+  pumping_elements: 9
+  flow_ripple: [{{harmonic: 1, amplitude: \"1 L/min ± 10 %\"}}]
+  source_impedance: {{volume: 0 L}}
+elements:
+  - {{name: chamber, kind: volume, at: a, volume: 1 L}}
+  - {{name: restrictor, kind: orifice, from: a, to: b, resistance: 1e10}}
+  - {{name: tank, kind: tank, at: b}}
+taps:
+{taps}limits:
+{limits}"
+        ),
+        p_rms,
+    )
+}
+
+/// A row of the verdicts CSV: status, worst, band low and high ends.
+type VerdictRow = (String, f64, f64, f64);
+
+/// Runs `assess` with `args` on `text`; the exit code and the rows of the
+/// verdicts CSV (status, worst, low, high).
+fn assess_verdicts(
+    dir: &std::path::Path,
+    name: &str,
+    text: &str,
+    args: &[&str],
+) -> (Option<i32>, Vec<VerdictRow>) {
+    let circuit = dir.join(format!("{name}.yaml"));
+    std::fs::write(&circuit, text).unwrap();
+    let csv = dir.join(format!("{name}.csv"));
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(["assess", circuit.to_str().unwrap()])
+        .args(["--verdicts-csv", csv.to_str().unwrap()])
+        .args(args)
+        .output()
+        .unwrap();
+    let table = std::fs::read_to_string(&csv)
+        .unwrap_or_else(|_| panic!("{}", String::from_utf8_lossy(&o.stderr)));
+    let mut lines = table.lines();
+    assert_eq!(
+        lines.next().unwrap(),
+        "point,limit,limit_pa,verdict,harmonic,speed_rpm,pressure_pa,temperature_c,case,frequency_hz,worst_pa,margin_db,worst_low_pa,worst_high_pa,band_margin_db,coverage"
+    );
+    let rows = lines
+        .map(|l| {
+            let c: Vec<&str> = l.split(',').collect();
+            let num = |i: usize| c[i].parse::<f64>().unwrap_or(f64::NAN);
+            (c[3].to_string(), num(10), num(12), num(13))
+        })
+        .collect();
+    (o.status.code(), rows)
+}
+
+/// `assess --bands`: limits at 1.15, 1.05, 0.95 and 0.85 × the nominal
+/// worst of the compliance case. Its band is nominal × [0.91, 1.09], so
+/// the first is PASS (the whole band within), the second UNCERTAIN (the
+/// limit inside the band, above the nominal), the third FAIL with the band
+/// reaching below the limit (the conservative reading: the nominal is over)
+/// and the fourth FAIL with the whole band over. Without `--bands` the
+/// first two pass. The exit code is 3 with a FAIL, 4 with an UNCERTAIN and
+/// no FAIL, 0 when all pass.
+#[test]
+fn verdicts_with_bands_pass_fail_or_are_uncertain() {
+    let dir = std::env::temp_dir().join(format!("ripline-bands-assess-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let (text, p_rms) = compliance_case(&[1.15, 1.05, 0.95, 0.85]);
+    let bands = ["--bands", "monte-carlo", "--speeds", "21"];
+    let (code, rows) = assess_verdicts(&dir, "all", &text, &bands);
+    assert_eq!(code, Some(3));
+    let words: Vec<&str> = rows.iter().map(|r| r.0.as_str()).collect();
+    assert_eq!(words, ["pass", "uncertain", "fail", "fail"]);
+    for (_, worst, lo, hi) in &rows {
+        assert!(
+            (worst / p_rms - 1.0).abs() < 1e-6,
+            "{worst} against {p_rms}"
+        );
+        // sampling error of the 5 % quantile with ≥ 2000 draws, as above
+        assert!((lo / worst - 0.91).abs() < 0.004, "{lo} of {worst}");
+        assert!((hi / worst - 1.09).abs() < 0.004, "{hi} of {worst}");
+    }
+    // without --bands: by the nominal worst
+    let (code, rows) = assess_verdicts(&dir, "nominal", &text, &["--speeds", "21"]);
+    assert_eq!(code, Some(3));
+    let words: Vec<&str> = rows.iter().map(|r| r.0.as_str()).collect();
+    assert_eq!(words, ["pass", "pass", "fail", "fail"]);
+    assert!(rows.iter().all(|r| r.2.is_nan() && r.3.is_nan()));
+    // an UNCERTAIN and no FAIL: exit code 4; moved clear of the band: 0
+    let (text, _) = compliance_case(&[1.15, 1.05]);
+    let (code, _) = assess_verdicts(&dir, "uncertain", &text, &bands);
+    assert_eq!(code, Some(4));
+    let (text, _) = compliance_case(&[1.15, 1.12]);
+    let (code, rows) = assess_verdicts(&dir, "pass", &text, &bands);
+    assert_eq!(code, Some(0));
+    assert!(rows.iter().all(|r| r.0 == "pass"));
+    // first order: nominal × (1 ± k·0.1/√3), k = 1.6449 (scipy
+    // `norm.ppf(0.95)`): 1.05 is inside, 1.12 outside
+    let (text, _) = compliance_case(&[1.12, 1.05]);
+    let (code, rows) = assess_verdicts(
+        &dir,
+        "first",
+        &text,
+        &["--bands", "first-order", "--speeds", "21"],
+    );
+    assert_eq!(code, Some(4));
+    let k_u = 1.644_853_626_951_472_2 * 0.1 / 3f64.sqrt();
+    for (_, worst, lo, hi) in &rows {
+        assert!((lo / worst - (1.0 - k_u)).abs() < 1e-6, "{lo} of {worst}");
+        assert!((hi / worst - (1.0 + k_u)).abs() < 1e-6, "{hi} of {worst}");
+    }
+    assert_eq!(rows[0].0, "pass");
+    assert_eq!(rows[1].0, "uncertain");
+    let _ = std::fs::remove_dir_all(dir);
+}
+
+/// `response --bands` and `sweep --bands` write the ends of each
+/// amplitude's band as CSV columns (the headers pinned here), the same
+/// numbers as the JSON's bands; their plots carry the shaded bands (a
+/// filled polygon in the SVG).
+#[test]
+fn csv_band_columns_agree_with_the_json_and_the_plots_shade_them() {
+    let dir = std::env::temp_dir().join(format!("ripline-bands-csv-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let circuit = dir.join("quarter.yaml");
+    std::fs::write(&circuit, quarter_wave("1200 m/s ± 5 %", "laminar")).unwrap();
+    let run = |args: &[&str]| {
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+            .args(args)
+            .args([circuit.to_str().unwrap()])
+            .args(["--bands", "monte-carlo", "--draws", "200"])
+            .current_dir(&dir)
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    };
+    let read = |name: &str| std::fs::read_to_string(dir.join(name)).unwrap();
+    let json = |name: &str| -> serde_json::Value { serde_json::from_str(&read(name)).unwrap() };
+    let num = |s: &str| s.parse::<f64>().unwrap();
+
+    run(&[
+        "response",
+        "--band",
+        "100..1000",
+        "--csv",
+        "r.csv",
+        "--json",
+        "r.json",
+        "--plot",
+        "r.svg",
+    ]);
+    let table = read("r.csv");
+    let mut lines = table.lines();
+    assert_eq!(
+        lines.next().unwrap(),
+        "point,frequency_hz,amplitude_pa_per_m3s,phase_deg,amplitude_low_pa_per_m3s,amplitude_high_pa_per_m3s"
+    );
+    let v = json("r.json");
+    let curves = v["result"]["uncertainty_bands"]["curves"]
+        .as_array()
+        .unwrap();
+    assert_eq!(curves.len(), 2); // the pump outlet and the impedance it sees
+    let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
+    let n = rows.len() / 2;
+    for (i, row) in rows.iter().enumerate() {
+        let c = &curves[i / n];
+        assert_eq!(row[0], c["name"].as_str().unwrap());
+        assert_eq!(num(row[4]), c["low"][i % n].as_f64().unwrap());
+        assert_eq!(num(row[5]), c["high"][i % n].as_f64().unwrap());
+        assert!(num(row[4]) <= num(row[5]));
+    }
+    assert!(read("r.svg").contains("<polygon"));
+
+    run(&[
+        "sweep",
+        "--speed-range",
+        "1500..2500",
+        "--csv",
+        "s.csv",
+        "--json",
+        "s.json",
+        "--plot",
+        "s.svg",
+    ]);
+    let table = read("s.csv");
+    let mut lines = table.lines();
+    assert_eq!(
+        lines.next().unwrap(),
+        "speed_rpm,point,harmonic,frequency_hz,amplitude_pa,amplitude_low_pa,amplitude_high_pa"
+    );
+    let v = json("s.json");
+    let p = &v["result"]["bands"]["points"][0];
+    let rms = p["rms_pa"].as_array().unwrap();
+    let amps = &p["amplitudes"][0];
+    let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
+    assert_eq!(rows.len(), rms.len()); // one harmonic, one point
+    for (si, row) in rows.iter().enumerate() {
+        let (lo, hi) = (num(row[5]), num(row[6]));
+        assert_eq!(lo, amps["low_pa"][si].as_f64().unwrap());
+        assert_eq!(hi, amps["high_pa"][si].as_f64().unwrap());
+        // with one harmonic the rms is |P|/√2 in every draw, so its band
+        // is the amplitude's band over √2 (to the 32-bit samples' digits)
+        let r = &rms[si]["monte_carlo"];
+        let s2 = 2f64.sqrt();
+        assert!((r["low"].as_f64().unwrap() * s2 / lo - 1.0).abs() < 1e-6);
+        assert!((r["high"].as_f64().unwrap() * s2 / hi - 1.0).abs() < 1e-6);
+    }
+    assert!(read("s-levels.svg").contains("<polygon"));
+    assert!(!read("s.svg").contains("<polygon"));
     let _ = std::fs::remove_dir_all(dir);
 }

@@ -458,6 +458,70 @@ pub fn limited_worsts(
     })
 }
 
+/// A limited quantity at a measurement point: what a verdict's uncertainty
+/// band follows.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LimitedQuantity {
+    /// The measurement point.
+    pub tap: String,
+    /// What is limited.
+    pub kind: LimitKind,
+    /// For a per-harmonic limit, the harmonic (order of the shaft
+    /// fundamental) whose worst decided the verdict.
+    pub order: Option<u32>,
+}
+
+/// The true worst over the speeds `speeds_rev_s` of each of `quantities`
+/// for `circuit` swept on shaft `shaft` (as [`assess`] finds it at one
+/// envelope point: the grid, then every crossing refined), in Pa; 0 for a
+/// measurement point the circuit does not have or a harmonic it does not
+/// excite.
+///
+/// # Errors
+/// A message when the network cannot be compiled or swept.
+pub fn limited_worst_values(
+    circuit: &Circuit,
+    shaft: Option<&str>,
+    speeds_rev_s: &[f64],
+    quantities: &[LimitedQuantity],
+) -> Result<Vec<f64>, String> {
+    let shaft = pick_shaft(circuit, shaft).ok_or("the swept shaft is missing")?;
+    let plan = Plan::compile(circuit).map_err(|e| e.to_string())?;
+    let swept = sweep(
+        &plan,
+        &shaft,
+        &SweepSettings {
+            speeds_rev_s: speeds_rev_s.to_vec(),
+            harmonics: circuit.harmonics,
+            min_rise_db: f64::INFINITY,
+        },
+        &mut |_| {},
+    )
+    .map_err(|e| e.to_string())?;
+    quantities
+        .iter()
+        .map(|q| {
+            let Some(tp) = swept.points.iter().position(|p| *p == q.tap) else {
+                return Ok(0.0);
+            };
+            let measure = match q.kind {
+                LimitKind::Rms => return Ok(swept.worst(tp).value_pa),
+                LimitKind::PeakToPeak => Measure::PeakToPeak,
+                LimitKind::Harmonic => {
+                    let order = q.order.unwrap_or(1);
+                    let Some(oi) = swept.orders.iter().position(|&o| o == order) else {
+                        return Ok(0.0);
+                    };
+                    Measure::Order(oi)
+                }
+            };
+            worst_at_point(&plan, &shaft, &swept, tp, measure)
+                .map(|w| w.value_pa)
+                .map_err(|e| e.to_string())
+        })
+        .collect()
+}
+
 /// Adds warning `text` at the point `label` to `warnings`: to the warning
 /// that differs from it only in its numbers, if there is one.
 pub fn add_warning(warnings: &mut Vec<EnvelopeWarning>, text: String, label: &str) {

@@ -1,14 +1,16 @@
 //! `ripline assess FILE`: the circuit over its operating envelope, each
 //! limit's verdict and the findings ranked by severity. Exit code 3 when a
-//! limit is exceeded.
+//! limit is exceeded; with `--bands`, 4 when none is but a verdict is
+//! UNCERTAIN.
 
-use super::common::{self, LimitsExceeded, Outputs, UsageError};
+use super::bands::{BandArgs, DrawProgress};
+use super::common::{self, LimitsExceeded, LimitsUncertain, Outputs, UsageError};
 use super::ranges::{self, Progress};
 use clap::Args;
 use ripline::plot;
 use ripline::render::assess as render;
 use ripline::results::Origin;
-use ripline::results::assess::{AssessFile, AssessRequest, assess};
+use ripline::results::assess::{AssessFile, AssessRequest, Outcome, assess, verdict_bands};
 use std::path::PathBuf;
 
 /// Most speeds of the grid.
@@ -46,6 +48,10 @@ pub struct AssessArgs {
     /// Write the swept grid of every envelope point as CSV.
     #[arg(long, value_name = "FILE")]
     grid_csv: Option<PathBuf>,
+    /// Write the verdicts as CSV (with --bands, each with its band and
+    /// PASS, UNCERTAIN or FAIL).
+    #[arg(long, value_name = "FILE")]
+    verdicts_csv: Option<PathBuf>,
     /// Plot each measurement point's ripple over the envelope against its
     /// limit (.svg or .png; FILE-<point> for each point when there are
     /// several).
@@ -55,6 +61,8 @@ pub struct AssessArgs {
     /// --grid-csv).
     #[arg(long, value_name = "FILE")]
     json: Option<PathBuf>,
+    #[command(flatten)]
+    bands: BandArgs,
 }
 
 pub fn run(args: AssessArgs) -> anyhow::Result<()> {
@@ -81,9 +89,15 @@ pub fn run(args: AssessArgs) -> anyhow::Result<()> {
     };
     let csv = ranges::csv_output("--csv", args.csv.as_deref())?;
     let grid = ranges::csv_output("--grid-csv", args.grid_csv.as_deref())?;
+    let verdicts_csv = ranges::csv_output("--verdicts-csv", args.verdicts_csv.as_deref())?;
+    let band_request = args.bands.request()?;
     let (_, plot_base) = common::csv_and_plot_paths(None, args.plot.as_deref())?;
     let json = common::json_path(args.json.as_deref())?;
     let file = ripline::io::load_circuit_file(&args.file)?;
+    let template = band_request
+        .is_some()
+        .then(|| common::load_template(Some(&args.file)))
+        .transpose()?;
     let taps: Vec<String> = ripline::analysis::ripple::report_points(&file.circuit)
         .into_iter()
         .map(|t| t.name)
@@ -98,6 +112,7 @@ pub fn run(args: AssessArgs) -> anyhow::Result<()> {
     let mut targets = vec![
         ("--csv", csv.as_deref()),
         ("--grid-csv", grid.as_deref()),
+        ("--verdicts-csv", verdicts_csv.as_deref()),
         ("--json", json.as_deref()),
     ];
     targets.extend(plots.iter().map(|p| ("--plot", Some(p.as_path()))));
@@ -130,13 +145,19 @@ pub fn run(args: AssessArgs) -> anyhow::Result<()> {
         floor_db,
     };
     let bar = Progress::new(points.len(), "assessing the envelope");
-    let result = assess(
+    let mut result = assess(
         AssessFile::of(&file),
         &points,
         &request,
         &mut |done, total| bar.set_of(done, total),
     )?;
     bar.finish();
+    if let (Some(b), Some(t)) = (&band_request, &template) {
+        let mut progress = DrawProgress::new();
+        let bands = verdict_bands(t, &result, &request, b, &mut |d, n| progress.update(d, n));
+        progress.finish();
+        result.verdict_bands = Some(bands?);
+    }
     super::envelope::print_grouped_warnings(
         &result.assessment.warnings,
         result.assessment.points.len(),
@@ -144,20 +165,28 @@ pub fn run(args: AssessArgs) -> anyhow::Result<()> {
 
     outputs.csv_to(csv.as_deref(), |buf| render::findings_csv(&result, buf))?;
     outputs.csv_to(grid.as_deref(), |buf| render::grid_csv(&result, buf))?;
+    outputs.csv_to(verdicts_csv.as_deref(), |buf| {
+        render::verdicts_csv(&result, buf)
+    })?;
     for (ti, path) in plots.iter().enumerate() {
         outputs.plot(path, |tmp| {
             plot::stacked_line_charts(tmp, &render::charts(&result, ti))
         })?;
     }
     outputs.finish(json.as_deref(), "assess", &result, render::text)?;
-    if !result.passed() {
-        let verdicts = &result.assessment.verdicts;
-        let failed = verdicts.iter().filter(|v| !v.pass).count();
-        return Err(LimitsExceeded(format!(
-            "{failed} of {} limits exceeded (see the verdicts above)",
-            verdicts.len()
+    let n = result.assessment.verdicts.len();
+    let count = |s| (0..n).filter(|&i| result.status(i) == s).count();
+    match result.outcome() {
+        Outcome::Pass => Ok(()),
+        Outcome::Fail => Err(LimitsExceeded(format!(
+            "{} of {n} limits exceeded (see the verdicts above)",
+            count(ripline::results::assess::Status::Fail)
         ))
-        .into());
+        .into()),
+        Outcome::Uncertain => Err(LimitsUncertain(format!(
+            "{} of {n} verdicts UNCERTAIN: the band of the worst value reaches over the limit (see the verdicts above)",
+            count(ripline::results::assess::Status::Uncertain)
+        ))
+        .into()),
     }
-    Ok(())
 }

@@ -1,6 +1,6 @@
 //! Helpers shared by the commands: loading circuits, exit codes, output files.
 
-use super::{EXIT_COMPUTE, EXIT_INPUT, EXIT_LIMITS};
+use super::{EXIT_COMPUTE, EXIT_INPUT, EXIT_LIMITS, EXIT_UNCERTAIN};
 use anyhow::Context;
 use ripline::io::InputError;
 use ripline::io::output::{OutputError, StagedOutputs};
@@ -78,11 +78,20 @@ pub fn cli_quantity(
 #[error("{0}")]
 pub struct LimitsExceeded(pub String);
 
+/// No limit exceeded, but a verdict with uncertainty bands is UNCERTAIN
+/// (exit code 4); the outputs are complete.
+#[derive(Debug, thiserror::Error)]
+#[error("{0}")]
+pub struct LimitsUncertain(pub String);
+
 /// Exit code for an error: 2 for input and usage errors, 3 for exceeded
 /// limits, 1 otherwise.
 pub fn exit_code(err: &anyhow::Error) -> u8 {
     if err.chain().any(|c| c.is::<LimitsExceeded>()) {
         return EXIT_LIMITS;
+    }
+    if err.chain().any(|c| c.is::<LimitsUncertain>()) {
+        return EXIT_UNCERTAIN;
     }
     let input = err.chain().any(|c| {
         c.is::<InputError>()

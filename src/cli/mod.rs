@@ -4,7 +4,8 @@
 //! overrides applied, outputs chosen) before any library call; no clap type
 //! reaches the library. Exit codes: 0 success, 1 a computation failed (for
 //! example a singular network), 2 invalid input or usage, 3 a limit of
-//! `assess` exceeded.
+//! `assess` exceeded, 4 with `assess --bands` no limit exceeded but a
+//! verdict UNCERTAIN (a band reaches over its limit).
 
 mod assess;
 mod bands;
@@ -90,6 +91,10 @@ pub const EXIT_COMPUTE: u8 = 1;
 /// Exit code of `assess` when a limit is exceeded (everything was computed
 /// and written; 0 means every limit is met).
 pub const EXIT_LIMITS: u8 = 3;
+/// Exit code of `assess --bands` (and `report --bands`) when no limit is
+/// exceeded but a verdict is UNCERTAIN: the band of a worst value reaches
+/// over its limit (everything was computed and written).
+pub const EXIT_UNCERTAIN: u8 = 4;
 
 pub fn main() -> ExitCode {
     let cli = match Cli::try_parse() {

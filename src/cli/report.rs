@@ -27,6 +27,8 @@ pub struct ReportArgs {
     /// How close to a harmonic band a resonance counts as "near" (default 10%).
     #[arg(long, value_name = "PERCENT")]
     margin: Option<String>,
+    #[command(flatten)]
+    bands: super::bands::BandArgs,
 }
 
 pub fn run(args: ReportArgs) -> anyhow::Result<()> {
@@ -46,6 +48,7 @@ pub fn run(args: ReportArgs) -> anyhow::Result<()> {
         harmonics,
         db_ref_pa,
         margin,
+        bands: args.bands.request()?,
     };
     let progress = Progress::new(0, "report");
     let result = report(&file, &request, &mut |done, total| {
@@ -70,13 +73,33 @@ pub fn run(args: ReportArgs) -> anyhow::Result<()> {
             result.input_sha256
         )
     })?;
-    // as `assess`: the report is complete, the exit code says a limit failed
-    if let Some(a) = result.assessment.as_ref().filter(|a| !a.passed()) {
-        let v = &a.assessment.verdicts;
+    // as `assess`: the report is complete, the exit code says a limit
+    // failed (3) or, with --bands, a verdict is uncertain (4)
+    if let Some(a) = result
+        .assessment
+        .as_ref()
+        .filter(|a| a.outcome() == ripline::results::assess::Outcome::Uncertain)
+    {
+        let n = a.assessment.verdicts.len();
+        return Err(common::LimitsUncertain(format!(
+            "{} of {n} verdicts UNCERTAIN (see the report's conclusion)",
+            (0..n)
+                .filter(|&i| a.status(i) == ripline::results::assess::Status::Uncertain)
+                .count()
+        ))
+        .into());
+    }
+    if let Some(a) = result
+        .assessment
+        .as_ref()
+        .filter(|a| a.outcome() == ripline::results::assess::Outcome::Fail)
+    {
+        let n = a.assessment.verdicts.len();
         return Err(LimitsExceeded(format!(
-            "{} of {} limits exceeded (see the report's conclusion)",
-            v.iter().filter(|v| !v.pass).count(),
-            v.len()
+            "{} of {n} limits exceeded (see the report's conclusion)",
+            (0..n)
+                .filter(|&i| a.status(i) == ripline::results::assess::Status::Fail)
+                .count()
         ))
         .into());
     }

@@ -22,6 +22,10 @@ pub(super) struct BarFigure<'a> {
     scale: Scale,
 }
 
+/// Ink of the uncertainty bands over bars (near black, so they read over
+/// any bar colour).
+const BAND_INK: RGBColor = RGBColor(30, 30, 30);
+
 /// How values map to the value axis.
 #[derive(Clone, Copy)]
 enum Scale {
@@ -77,6 +81,27 @@ impl<'a> BarFigure<'a> {
                 check_finite(v, &name, i, "value")?;
                 if let Some(u) = scale.axis(v) {
                     ext.add(u);
+                }
+            }
+            if let Some(bands) = &s.bands {
+                if bands.len() != s.values.len() {
+                    return Err(PlotError::InvalidData(format!(
+                        "series '{name}' has {} values but {} bands",
+                        s.values.len(),
+                        bands.len()
+                    )));
+                }
+                for (i, &(lo, hi)) in bands.iter().enumerate() {
+                    check_finite(lo, &name, i, "band low end")?;
+                    check_finite(hi, &name, i, "band high end")?;
+                    if lo > hi {
+                        return Err(PlotError::InvalidData(format!(
+                            "band {i} of series '{name}' has its low end {lo} above its high end {hi}"
+                        )));
+                    }
+                    if let Some(u) = scale.axis(hi) {
+                        ext.add(u);
+                    }
                 }
             }
         }
@@ -190,6 +215,39 @@ impl Figure for BarFigure<'_> {
                 root.draw(&Rectangle::new(
                     [(x0, py.min(py_base)), (x1, py.max(py_base))],
                     color.filled(),
+                ))
+                .map_err(be)?;
+            }
+        }
+        // bands over the bars: a shaded box from the low to the high end
+        // across the middle half of the bar, with a whisker line
+        for (si, s) in c.series.iter().enumerate() {
+            let Some(bands) = &s.bands else { continue };
+            for (ci, &(lo, hi)) in bands.iter().enumerate() {
+                let Some(u_hi) = self.scale.axis(hi) else {
+                    continue;
+                };
+                let u_lo = self.scale.axis(lo).unwrap_or(y.lo);
+                let u0 = ci as f64 + (1.0 - group) / 2.0 + si as f64 * bar_w;
+                let (xa, xb) = (frame.px_x(u0 + 0.25 * bar_w), frame.px_x(u0 + 0.75 * bar_w));
+                let xm = frame.px_x(u0 + 0.5 * bar_w);
+                let py_hi = frame.px((0.0, y.frac(u_hi).clamp(0.0, 1.0))).1;
+                let py_lo = frame.px((0.0, y.frac(u_lo).clamp(0.0, 1.0))).1;
+                root.draw(&Rectangle::new(
+                    [(xa, py_hi), (xb.max(xa + 1), py_lo)],
+                    BAND_INK.mix(0.35).filled(),
+                ))
+                .map_err(be)?;
+                for py in [py_hi, py_lo] {
+                    root.draw(&PathElement::new(
+                        vec![(xa, py), (xb, py)],
+                        BAND_INK.stroke_width(1),
+                    ))
+                    .map_err(be)?;
+                }
+                root.draw(&PathElement::new(
+                    vec![(xm, py_hi), (xm, py_lo)],
+                    BAND_INK.stroke_width(1),
                 ))
                 .map_err(be)?;
             }

@@ -2,7 +2,7 @@
 
 use plotters::coord::Shift;
 use plotters::drawing::DrawingArea;
-use plotters::element::{Circle, PathElement, Rectangle};
+use plotters::element::{Circle, PathElement, Polygon, Rectangle};
 use plotters::prelude::DrawingBackend;
 use plotters::style::{Color, RGBColor};
 
@@ -80,6 +80,37 @@ fn validate_line_chart(c: &LineChart) -> Result<(Extent, Extent), PlotError> {
             }
         }
     }
+    for (si, s) in c.series.iter().enumerate() {
+        let Some(band) = &s.band else { continue };
+        let name = display_name(&s.name, si);
+        if band.len() != s.points.len() {
+            return Err(PlotError::InvalidData(format!(
+                "series '{name}' has {} points but a band of {}",
+                s.points.len(),
+                band.len()
+            )));
+        }
+        for (i, &(lo, hi)) in band.iter().enumerate() {
+            check_finite(lo, &name, i, "band low end")?;
+            check_finite(hi, &name, i, "band high end")?;
+            if lo > hi {
+                return Err(PlotError::InvalidData(format!(
+                    "band {i} of series '{name}' has its low end {lo} above its high end {hi}"
+                )));
+            }
+            check_log(hi, c.log_y, &name, i, "y")?;
+            let lo = c.y_floor.map_or(lo, |f| lo.max(f));
+            if c.log_y {
+                if lo > 0.0 {
+                    ye.add(lo.log10());
+                }
+                ye.add(hi.log10());
+            } else {
+                ye.add(lo);
+                ye.add(hi);
+            }
+        }
+    }
     if let Some(f) = c.y_floor {
         check_finite(f, "y floor", 0, "value")?;
         for (si, s) in c.series.iter().enumerate() {
@@ -123,6 +154,12 @@ fn validate_line_chart(c: &LineChart) -> Result<(Extent, Extent), PlotError> {
         check_finite(b.to, &name, i, "end")?;
     }
     for (si, s) in c.series.iter().enumerate() {
+        if s.points.is_empty() && s.band.as_ref().is_some_and(|b| !b.is_empty()) {
+            return Err(PlotError::InvalidData(format!(
+                "series '{}' has a band but no points",
+                display_name(&s.name, si)
+            )));
+        }
         if s.points.is_empty() && s.error_bars.as_ref().is_some_and(|b| !b.is_empty()) {
             return Err(PlotError::InvalidData(format!(
                 "series '{}' has error bars but no points",
@@ -372,6 +409,32 @@ fn draw_line_panel<DB: DrawingBackend>(
             boxed_text(root, &b.label, NOTE_PX, (lx, ly), (bw, bh))?;
             occupied.add((lx, ly, lx + bw, ly + bh));
         }
+    }
+
+    // Bands around curves, behind the curves: a polygon along the high ends
+    // and back along the low ends, clamped to the plot.
+    for (si, s) in c.series.iter().enumerate() {
+        let Some(band) = &s.band else { continue };
+        if band.len() < 2 {
+            continue;
+        }
+        let color = s
+            .color
+            .map(|[r, g, b]| RGBColor(r, g, b))
+            .unwrap_or_else(|| palette(si));
+        let clamp = |n: (f64, f64)| frame.px((n.0.clamp(0.0, 1.0), n.1.clamp(0.0, 1.0)));
+        let mut outline: Vec<(i32, i32)> = s
+            .points
+            .iter()
+            .zip(band)
+            .map(|(&(px, _), &(_, hi))| clamp(frame.norm(x.unit(px), y.unit_or_below(hi))))
+            .collect();
+        outline.extend(s.points.iter().zip(band).rev().map(|(&(px, _), &(lo, _))| {
+            let lo = c.y_floor.map_or(lo, |f| lo.max(f));
+            clamp(frame.norm(x.unit(px), y.unit_or_below(lo)))
+        }));
+        root.draw(&Polygon::new(outline, color.mix(0.22).filled()))
+            .map_err(be)?;
     }
 
     // Series.

@@ -6,8 +6,8 @@
 //! * [`grouped_bar_chart`]: one group of bars per category (e.g. per harmonic),
 //!   one bar per series inside each group;
 //! * [`line_chart`] and [`stacked_line_charts`]: x/y curves with optional
-//!   logarithmic axes, vertical marker lines, labelled points, shaded bands and
-//!   error bars;
+//!   logarithmic axes, vertical marker lines, labelled points, shaded x bands,
+//!   shaded y bands around a curve (a filled polygon) and error bars;
 //! * [`heat_map`]: a value on a regular x/y grid shown as colour, with a colour
 //!   bar, overlaid polylines and horizontal marker lines.
 //!
@@ -142,6 +142,11 @@ pub struct Series {
     pub name: String,
     /// One value per category, in the order of [`BarChart::categories`].
     pub values: Vec<f64>,
+    /// Optional uncertainty band of each bar: one (low, high) pair per
+    /// category, drawn as a shaded box with a whisker across the bar (on a
+    /// logarithmic or decibel axis a low end at or below zero reaches the
+    /// bottom of the plot).
+    pub bands: Option<Vec<(f64, f64)>>,
 }
 
 /// A grouped bar chart: for every category one bar per series, side by side.
@@ -216,6 +221,11 @@ pub struct XySeries {
     /// On a logarithmic y axis a low end at or below zero is drawn down to the
     /// bottom of the plot.
     pub error_bars: Option<Vec<(f64, f64)>>,
+    /// Optional shaded band around the curve (e.g. an uncertainty band): one
+    /// (low, high) pair of y values per point, filled between the two in the
+    /// series' colour, translucent, behind the curves. On a logarithmic y
+    /// axis a low end at or below zero reaches the bottom of the plot.
+    pub band: Option<Vec<(f64, f64)>>,
     /// Line or point style.
     pub style: SeriesStyle,
     /// Colour as red, green, blue; `None` takes the next colour of the palette.

@@ -51,10 +51,12 @@ fn bar_chart() -> BarChart {
             Series {
                 name: "outlet".into(),
                 values: vec![3.0, 1.2, 0.6, 0.3, 0.15, 0.0],
+                bands: None,
             },
             Series {
                 name: "inlet".into(),
                 values: vec![1.0, 0.5, 0.2, 0.1, 0.05, 0.02],
+                bands: None,
             },
         ],
         log_y: false,
@@ -79,6 +81,7 @@ fn line_chart_data() -> LineChart {
             name: "model".into(),
             points: pts,
             error_bars: Some(bars),
+            band: None,
             style: SeriesStyle::LineAndPoints,
             color: None,
         }],
@@ -515,6 +518,87 @@ fn y_floor_keeps_amplitudes_non_negative() {
     c.series[0].points[0].1 = -0.01;
     assert!(matches!(
         line_chart(&dir.path("b.svg"), &c),
+        Err(PlotError::InvalidData(_))
+    ));
+}
+
+// A band around a curve is drawn as one filled polygon behind it; a band
+// whose length differs from the points, or whose low end is above its high
+// end, is refused.
+#[test]
+fn a_curve_band_is_a_filled_polygon() {
+    let points: Vec<(f64, f64)> = (1..=20)
+        .map(|i| (f64::from(i), f64::from(i).sqrt()))
+        .collect();
+    let band: Vec<(f64, f64)> = points.iter().map(|p| (0.9 * p.1, 1.1 * p.1)).collect();
+    let mut chart = LineChart {
+        series: vec![XySeries {
+            name: "rms".into(),
+            points: points.clone(),
+            band: Some(band.clone()),
+            ..XySeries::default()
+        }],
+        ..LineChart::default()
+    };
+    let svg = line_chart_svg(&chart).unwrap();
+    let doc = roxmltree::Document::parse(&svg).unwrap();
+    let polygons: Vec<_> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("polygon"))
+        .collect();
+    assert_eq!(polygons.len(), 1, "{svg}");
+    // one vertex per end of every band value
+    let vertices = polygons[0]
+        .attribute("points")
+        .unwrap()
+        .split_whitespace()
+        .count();
+    assert_eq!(vertices, 2 * points.len());
+    chart.series[0].band = None;
+    assert!(!line_chart_svg(&chart).unwrap().contains("<polygon"));
+    chart.series[0].band = Some(band[1..].to_vec());
+    assert!(matches!(
+        line_chart_svg(&chart),
+        Err(PlotError::InvalidData(_))
+    ));
+    chart.series[0].band = Some(band.iter().map(|&(lo, hi)| (hi, lo)).collect());
+    assert!(matches!(
+        line_chart_svg(&chart),
+        Err(PlotError::InvalidData(_))
+    ));
+}
+
+// Bands over bars add a box and three lines per bar (on a log axis too).
+#[test]
+fn bar_bands_are_boxes_with_whiskers() {
+    let mut chart = BarChart {
+        categories: vec!["1".into(), "2".into()],
+        series: vec![Series {
+            name: "outlet".into(),
+            values: vec![3.0, 1.0],
+            bands: None,
+        }],
+        log_y: true,
+        ..BarChart::default()
+    };
+    let count = |svg: &str, tag: &str| {
+        roxmltree::Document::parse(svg)
+            .unwrap()
+            .descendants()
+            .filter(|n| n.has_tag_name(tag))
+            .count()
+    };
+    let plain = grouped_bar_chart_svg(&chart).unwrap();
+    chart.series[0].bands = Some(vec![(2.5, 3.5), (0.8, 1.3)]);
+    let banded = grouped_bar_chart_svg(&chart).unwrap();
+    assert_eq!(count(&banded, "rect"), count(&plain, "rect") + 2);
+    assert_eq!(
+        count(&banded, "polyline") + count(&banded, "path") + count(&banded, "line"),
+        count(&plain, "polyline") + count(&plain, "path") + count(&plain, "line") + 6
+    );
+    chart.series[0].bands = Some(vec![(2.5, 3.5)]);
+    assert!(matches!(
+        grouped_bar_chart_svg(&chart),
         Err(PlotError::InvalidData(_))
     ));
 }

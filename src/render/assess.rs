@@ -44,6 +44,29 @@ pub const GRID_HEADER: [&str; 8] = [
     "amplitude_pa",
 ];
 
+/// Header of the verdicts table (`assess --verdicts-csv`): per limit the
+/// verdict (`pass`, `fail`, with `--bands` also `uncertain`), the worst
+/// point and value, and with `--bands` the ends of the worst value's band
+/// and the margin of its high end (empty without bands or ripple).
+pub const VERDICTS_HEADER: [&str; 16] = [
+    "point",
+    "limit",
+    "limit_pa",
+    "verdict",
+    "harmonic",
+    "speed_rpm",
+    "pressure_pa",
+    "temperature_c",
+    "case",
+    "frequency_hz",
+    "worst_pa",
+    "margin_db",
+    "worst_low_pa",
+    "worst_high_pa",
+    "band_margin_db",
+    "coverage",
+];
+
 /// Most panels (pressure × load case) in one measurement point's chart.
 const MAX_PANELS: usize = 12;
 
@@ -78,6 +101,53 @@ pub fn findings_csv<W: Write>(r: &AssessReport, out: W) -> Result<(), csv::Error
             f.rise_db.map_or(String::new(), |r| format!("{r}")),
             f.resonance_hz.map_or(String::new(), |r| format!("{r}")),
         ]);
+        w.write_record(row)?;
+    }
+    w.flush()?;
+    Ok(())
+}
+
+/// Writes one row per limit: its verdict and worst point, and with bands
+/// the band of the worst value ([`VERDICTS_HEADER`]).
+///
+/// # Errors
+/// The CSV writer's error.
+pub fn verdicts_csv<W: Write>(r: &AssessReport, out: W) -> Result<(), csv::Error> {
+    let own = own(r);
+    let number = |x: Option<f64>| {
+        x.filter(|v| v.is_finite())
+            .map_or(String::new(), |v| format!("{v}"))
+    };
+    let mut w = csv::Writer::from_writer(out);
+    w.write_record(VERDICTS_HEADER)?;
+    for (i, v) in r.assessment.verdicts.iter().enumerate() {
+        let kind = match v.limit.kind {
+            LimitKind::Rms => "rms",
+            LimitKind::PeakToPeak => "peak_to_peak",
+            LimitKind::Harmonic => "harmonic",
+        };
+        let mut row = vec![
+            v.tap.clone(),
+            kind.to_string(),
+            format!("{}", v.limit.value_pa),
+            r.status(i).word().to_lowercase(),
+        ];
+        match &v.worst {
+            Some(wp) => {
+                row.push(wp.order.to_string());
+                row.extend(envelope_columns(wp.speed_rev_s, &wp.point, &own));
+                row.push(format!("{}", wp.frequency_hz));
+                row.push(format!("{}", wp.value_pa));
+            }
+            None => row.extend(std::iter::repeat_n(String::new(), 7)),
+        }
+        row.push(number(v.margin_db));
+        let band = r.verdict_bands.as_ref().and_then(|b| b.verdicts.get(i));
+        let interval = band.and_then(|b| b.worst_pa).and_then(|b| b.interval());
+        row.push(number(interval.map(|x| x.0)));
+        row.push(number(interval.map(|x| x.1)));
+        row.push(number(band.and_then(|b| b.margin_db)));
+        row.push(number(r.verdict_bands.as_ref().map(|b| b.info.coverage)));
         w.write_record(row)?;
     }
     w.flush()?;
@@ -196,17 +266,20 @@ pub fn text(r: &AssessReport, out: &mut impl Write) -> std::io::Result<()> {
             "verdicts: none (the file has no `limits` section; add one to get PASS/FAIL)"
         )?;
     } else {
+        if let Some(b) = &r.verdict_bands {
+            super::bands::info_text(&b.info, out)?;
+            writeln!(
+                out,
+                "band of each limit's worst value: its true worst over the speed range at the envelope point where it is worst nominally, over the uncertain inputs; PASS only when the whole band is within the limit, FAIL when the nominal worst is over it, UNCERTAIN when the nominal is within but the band reaches over"
+            )?;
+            writeln!(out)?;
+        }
         writeln!(
             out,
             "verdicts (each limit against the worst of the envelope):"
         )?;
-        for v in &a.verdicts {
-            let head = format!(
-                "  {}  `{}`: {}",
-                if v.pass { "PASS" } else { "FAIL" },
-                v.tap,
-                limit_text(v)
-            );
+        for (i, v) in a.verdicts.iter().enumerate() {
+            let head = format!("  {}  `{}`: {}", r.status(i).word(), v.tap, limit_text(v));
             match (&v.worst, v.margin_db) {
                 (Some(w), Some(margin)) => writeln!(
                     out,
@@ -219,16 +292,51 @@ pub fn text(r: &AssessReport, out: &mut impl Write) -> std::io::Result<()> {
                 )?,
                 _ => writeln!(out, "{head}; no ripple reaches it anywhere in the envelope")?,
             }
+            if let Some(b) = r.verdict_bands.as_ref().and_then(|b| b.verdicts.get(i)) {
+                match (b.worst_pa.and_then(|w| w.interval()), b.margin_db) {
+                    (Some((lo, hi)), margin) => writeln!(
+                        out,
+                        "         band of the worst {} .. {}{}{}",
+                        PressureDisplay(lo),
+                        PressureDisplay(hi),
+                        margin.map_or(String::new(), |m| format!(
+                            "; margin of its high end {m:+.2} dB"
+                        )),
+                        if b.wholly_above {
+                            "; the whole band is over the limit"
+                        } else if b.status == crate::results::assess::Status::Fail {
+                            "; the band reaches below the limit, but the nominal worst is over it"
+                        } else {
+                            ""
+                        }
+                    )?,
+                    (None, _) if v.worst.is_some() => writeln!(
+                        out,
+                        "         band of the worst unknown (a drawn circuit has no value there)"
+                    )?,
+                    _ => {}
+                }
+            }
         }
-        let failed = a.verdicts.iter().filter(|v| !v.pass).count();
         let n = a.verdicts.len();
+        let count = |s| (0..n).filter(|&i| r.status(i) == s).count();
+        let (failed, uncertain) = (
+            count(crate::results::assess::Status::Fail),
+            count(crate::results::assess::Status::Uncertain),
+        );
         writeln!(
             out,
             "result: {}",
-            if failed == 0 {
-                format!("every limit met ({n} of {n})")
-            } else {
+            if failed > 0 {
                 format!("{failed} of {n} limits exceeded (exit code 3)")
+            } else if uncertain > 0 {
+                format!(
+                    "{uncertain} of {n} verdicts UNCERTAIN: the prediction cannot promise those limits are met (exit code 4)"
+                )
+            } else if r.verdict_bands.is_some() {
+                format!("every limit met with its whole band ({n} of {n})")
+            } else {
+                format!("every limit met ({n} of {n})")
             }
         )?;
     }

@@ -20,9 +20,15 @@ pub fn info_text(i: &BandsInfo, out: &mut impl Write) -> std::io::Result<()> {
             i.draws,
             i.seed,
             match i.stable {
-                Some(true) => ", stable (JCGM 101 §7.9)",
-                Some(false) => ", NOT stable at the cap of draws: the ends are uncertain",
-                None => "",
+                Some(true) if i.judged < i.outputs => format!(
+                    ", stable (JCGM 101 §7.9, judged on the {} bands the report concludes on)",
+                    i.judged
+                ),
+                Some(true) => ", stable (JCGM 101 §7.9)".to_string(),
+                Some(false) => {
+                    ", NOT stable at the cap of draws: the ends are uncertain".to_string()
+                }
+                None => String::new(),
             }
         )?,
         Method::Linear => writeln!(

@@ -159,6 +159,7 @@ pub fn chart(r: &CheckResult) -> plot::BarChart {
                     .iter()
                     .map(|h| unit.of(h.flow_m3_s.amplitude))
                     .collect(),
+                bands: None,
             })
             .collect(),
         // a log axis keeps the higher harmonics (tens of dB down) visible

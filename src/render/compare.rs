@@ -245,6 +245,7 @@ pub fn charts(title: &str, predictions: &[Prediction<'_>]) -> Vec<plot::LineChar
                             })
                             .collect()
                     }),
+                    band: None,
                     style: plot::SeriesStyle::Points,
                     color,
                 });

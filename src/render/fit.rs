@@ -248,6 +248,7 @@ fn series(
                 .map(|p| (p.1 - p.2.unwrap_or(0.0), p.1 + p.2.unwrap_or(0.0)))
                 .collect()
         }),
+        band: None,
         style: plot::SeriesStyle::LineAndPoints,
         color: None,
     }

@@ -19,6 +19,7 @@ use crate::analysis::envelope::{FindingKind, Verdict};
 use crate::analysis::response::Coverage;
 use crate::html::{Block, Cell, Column, Level, Report, Table};
 use crate::plot::{self, PlotError};
+use crate::results::assess::{AssessReport, Status};
 use crate::results::describe::gas_pressure;
 use crate::results::inputs::PartInputs;
 use crate::results::report::ReportResult;
@@ -323,13 +324,51 @@ fn summary(r: &ReportResult) -> Block {
     match &r.assessment {
         Some(a) if !a.assessment.verdicts.is_empty() => {
             let v = &a.assessment.verdicts;
-            let failed: Vec<_> = v.iter().filter(|v| !v.pass).collect();
+            let with = |s: Status| -> Vec<&Verdict> {
+                v.iter()
+                    .enumerate()
+                    .filter(|&(i, _)| a.status(i) == s)
+                    .map(|(_, v)| v)
+                    .collect()
+            };
+            let failed = with(Status::Fail);
+            let uncertain = with(Status::Uncertain);
+            let list = |vs: &[&Verdict]| {
+                vs.iter()
+                    .map(|v| format!("{} at {}", limit_text(v), v.tap))
+                    .collect::<Vec<_>>()
+                    .join("; ")
+            };
             let over = if a.envelope.is_some() {
                 "over the operating envelope"
             } else {
                 "over the speed range"
             };
-            blocks.push(if failed.is_empty() {
+            if let Some(b) = &a.verdict_bands {
+                blocks.push(Block::Notice(
+                    Level::Info,
+                    format!(
+                        "Verdicts with uncertainty: {} % bands of each worst value over the uncertain inputs ({}). PASS only when the whole band is within the limit; FAIL when the nominal worst is over it; UNCERTAIN when the nominal worst is within the limit but its band reaches over it.",
+                        crate::html::format_number(b.info.coverage * 100.0, 1),
+                        match b.info.method {
+                            crate::uncertainty::bands::Method::MonteCarlo =>
+                                format!("Monte Carlo, {} draws, seed {}", b.info.draws, b.info.seed),
+                            crate::uncertainty::bands::Method::Linear => "first order".to_string(),
+                        }
+                    ),
+                ));
+            }
+            blocks.push(if failed.is_empty() && !uncertain.is_empty() {
+                Block::Notice(
+                    Level::Warning,
+                    format!(
+                        "UNCERTAIN: no limit exceeded {over} by the nominal prediction, but the band of {} of {} reaches over it: {}.",
+                        uncertain.len(),
+                        v.len(),
+                        list(&uncertain)
+                    ),
+                )
+            } else if failed.is_empty() {
                 Block::Notice(
                     Level::Pass,
                     format!("every limit met {over} ({n} of {n}).", n = v.len()),
@@ -349,10 +388,10 @@ fn summary(r: &ReportResult) -> Block {
                     ),
                 )
             });
-            for v in v {
+            for (i, v) in v.iter().enumerate() {
                 kv.push((
                     format!("{} at {}", limit_text(v), v.tap),
-                    verdict_text(v),
+                    verdict_text(a, i),
                 ));
             }
         }
@@ -472,9 +511,23 @@ fn summary(r: &ReportResult) -> Block {
 
 /// "PASS: worst 0.1326 bar at 1800 rpm, 120 bar (harmonic 2, 540.0 Hz);
 /// margin +1.23 dB (0.0123 bar to spare)".
-fn verdict_text(v: &Verdict) -> String {
-    let word = if v.pass { "PASS" } else { "FAIL" };
-    match (&v.worst, v.margin_db) {
+fn verdict_text(a: &AssessReport, i: usize) -> String {
+    let v = &a.assessment.verdicts[i];
+    let word = a.status(i).word();
+    let band = a
+        .verdict_bands
+        .as_ref()
+        .and_then(|b| b.verdicts.get(i))
+        .and_then(|b| b.worst_pa)
+        .and_then(|b| b.interval())
+        .map_or(String::new(), |(lo, hi)| {
+            format!(
+                "; band {} .. {}",
+                Quantity::Pressure.show(lo),
+                Quantity::Pressure.show(hi)
+            )
+        });
+    let text = match (&v.worst, v.margin_db) {
         (Some(w), Some(margin)) => format!(
             "{word}: worst {} at {} (harmonic {}, {} Hz); margin {} dB ({} {})",
             Quantity::Pressure.show(w.value_pa),
@@ -490,7 +543,8 @@ fn verdict_text(v: &Verdict) -> String {
             }
         ),
         _ => format!("{word}: no ripple reaches it anywhere"),
-    }
+    };
+    format!("{text}{band}")
 }
 
 /// `+1.23` or `−0.45` with `decimals` decimals.
@@ -569,11 +623,12 @@ fn envelope(r: &ReportResult) -> Result<Block, PlotError> {
         let rows = x
             .verdicts
             .iter()
-            .map(|v| {
+            .enumerate()
+            .map(|(i, v)| {
                 let mut row = vec![
                     Cell::text(&v.tap),
                     Cell::text(limit_text(v)),
-                    Cell::text(if v.pass { "PASS" } else { "FAIL" }),
+                    Cell::text(a.status(i).word()),
                 ];
                 match (&v.worst, v.margin_db) {
                     (Some(w), Some(m)) => row.extend([
@@ -587,25 +642,47 @@ fn envelope(r: &ReportResult) -> Result<Block, PlotError> {
                     ]),
                     _ => row.push(Cell::text("no ripple reaches it")),
                 }
+                if let Some(b) = a.verdict_bands.as_ref().and_then(|b| b.verdicts.get(i))
+                    && v.worst.is_some()
+                {
+                    let (lo, hi) = b
+                        .worst_pa
+                        .and_then(|w| w.interval())
+                        .unwrap_or((f64::NAN, f64::NAN));
+                    row.extend([
+                        in_unit(lo, worst_unit),
+                        in_unit(hi, worst_unit),
+                        Cell::num(b.margin_db.unwrap_or(f64::NAN), 2),
+                    ]);
+                }
                 row
             })
             .collect();
+        let mut columns = vec![
+            Column::text("point"),
+            Column::text("limit"),
+            Column::text("verdict"),
+            worst_col.clone(),
+            Column::quantity("at speed", "rpm"),
+            Column::text("envelope point"),
+            Column::text("harmonic"),
+            Column::quantity("frequency", "Hz"),
+            Column::quantity("margin", "dB"),
+            margin_col,
+        ];
+        if a.verdict_bands.is_some() {
+            let unit = worst_col.unit.clone().unwrap_or_default();
+            columns.extend([
+                Column::quantity("band low", unit.clone()),
+                Column::quantity("band high", unit),
+                Column::quantity("margin of band high", "dB"),
+            ]);
+        }
         blocks.push(Block::Table(Table {
             caption:
                 "Each limit against the worst of the envelope (margin: positive below the limit)"
                     .into(),
-            columns: vec![
-                Column::text("point"),
-                Column::text("limit"),
-                Column::text("verdict"),
-                worst_col,
-                Column::quantity("at speed", "rpm"),
-                Column::text("envelope point"),
-                Column::text("harmonic"),
-                Column::quantity("frequency", "Hz"),
-                Column::quantity("margin", "dB"),
-                margin_col,
-            ],
+            columns,
             rows,
         }));
     }

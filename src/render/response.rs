@@ -16,6 +16,19 @@ pub const BAR_PER_LPM: f64 = 1e5 * 60_000.0;
 pub const RESPONSE_HEADER: [&str; 4] =
     ["point", "frequency_hz", "amplitude_pa_per_m3s", "phase_deg"];
 
+/// Header of the frequency-response table with uncertainty bands
+/// (`response --bands --csv`): the ends of each amplitude's coverage
+/// interval (empty when unknown, or when the bands of the curves did not
+/// fit in memory).
+pub const RESPONSE_BANDS_HEADER: [&str; 6] = [
+    "point",
+    "frequency_hz",
+    "amplitude_pa_per_m3s",
+    "phase_deg",
+    "amplitude_low_pa_per_m3s",
+    "amplitude_high_pa_per_m3s",
+];
+
 /// The name under which the impedance the pump sees appears in the
 /// response table (its unit, Pa·s/m³, is also Pa per m³/s).
 pub fn load_impedance_point(pump: &str) -> String {
@@ -261,21 +274,38 @@ fn load(out: &mut impl Write, r: &ResponseResult) -> std::io::Result<()> {
 /// The CSV writer's error.
 pub fn csv(r: &ResponseResult, out: impl Write) -> Result<(), csv::Error> {
     let mut w = csv::Writer::from_writer(out);
-    w.write_record(RESPONSE_HEADER)?;
+    let bands = r.uncertainty_bands.as_ref();
+    match bands {
+        Some(_) => w.write_record(RESPONSE_BANDS_HEADER)?,
+        None => w.write_record(RESPONSE_HEADER)?,
+    }
     let load = load_impedance_point(&r.pump.name);
     let curves = r
         .points
         .iter()
         .map(|p| (p.name.as_str(), &p.values_pa_per_m3_s))
         .chain(std::iter::once((load.as_str(), &r.load_impedance_pa_s_m3)));
-    for (name, values) in curves {
-        for (f, v) in r.freqs_hz.iter().zip(values) {
-            w.write_record([
+    let number = |x: f64| {
+        if x.is_finite() {
+            format!("{x}")
+        } else {
+            String::new()
+        }
+    };
+    for (ci, (name, values)) in curves.enumerate() {
+        let band = bands.and_then(|b| b.curves.get(ci));
+        for (fi, (f, v)) in r.freqs_hz.iter().zip(values).enumerate() {
+            let mut row = vec![
                 name.to_string(),
                 format!("{f}"),
                 format!("{}", v.amplitude),
                 format!("{}", v.phase_deg),
-            ])?;
+            ];
+            if bands.is_some() {
+                row.push(band.map_or(String::new(), |c| number(c.low[fi])));
+                row.push(band.map_or(String::new(), |c| number(c.high[fi])));
+            }
+            w.write_record(row)?;
         }
     }
     w.flush()?;
@@ -321,11 +351,24 @@ pub fn charts(r: &ResponseResult) -> Vec<plot::LineChart> {
             }),
     );
     // A point held at zero ripple (a tank) has nothing to draw on a log axis.
+    let curve_bands = r.uncertainty_bands.as_ref().map(|b| &b.curves);
+    let band = |ci: usize, scale: f64| {
+        let c = curve_bands?.get(ci)?;
+        c.low
+            .iter()
+            .zip(&c.high)
+            .map(|(&lo, &hi)| {
+                (lo.is_finite() && hi.is_finite() && hi > 0.0)
+                    .then(|| (lo / scale, (hi / scale).max(1e-300)))
+            })
+            .collect::<Option<Vec<_>>>()
+    };
     let series = r
         .points
         .iter()
-        .filter(|p| p.values_pa_per_m3_s.iter().any(|v| v.amplitude > 0.0))
-        .map(|p| plot::XySeries {
+        .enumerate()
+        .filter(|(_, p)| p.values_pa_per_m3_s.iter().any(|v| v.amplitude > 0.0))
+        .map(|(ci, p)| plot::XySeries {
             name: p.name.clone(),
             points: r
                 .freqs_hz
@@ -333,6 +376,7 @@ pub fn charts(r: &ResponseResult) -> Vec<plot::LineChart> {
                 .zip(&p.values_pa_per_m3_s)
                 .map(|(f, v)| (*f, (v.amplitude / BAR_PER_LPM).max(1e-300)))
                 .collect(),
+            band: band(ci, BAR_PER_LPM),
             ..Default::default()
         })
         .collect();
@@ -346,8 +390,15 @@ pub fn charts(r: &ResponseResult) -> Vec<plot::LineChart> {
         })
         .collect();
     let name = r.subject.title.as_deref().unwrap_or(&r.pump.name);
+    let shaded = match &r.uncertainty_bands {
+        Some(b) if !b.curves.is_empty() => format!(
+            "; shaded: {} % uncertainty bands",
+            super::table::sig(b.info.coverage * 100.0, 3)
+        ),
+        _ => String::new(),
+    };
     let top = plot::LineChart {
-        title: format!("Response per unit source flow — {name}"),
+        title: format!("Response per unit source flow — {name}{shaded}"),
         x_label: "frequency (Hz)".into(),
         y_label: "pressure per source flow (bar per L/min)".into(),
         series,
@@ -373,6 +424,7 @@ pub fn charts(r: &ResponseResult) -> Vec<plot::LineChart> {
                 .zip(&r.load_impedance_pa_s_m3)
                 .map(|(f, z)| (*f, z.amplitude.max(1e-300)))
                 .collect(),
+            band: band(r.points.len(), 1.0),
             ..Default::default()
         }],
         log_x: true,

@@ -276,6 +276,13 @@ pub fn chart(r: &SolveResult) -> plot::BarChart {
             .flat_map(|s| &s.points)
             .flat_map(|p| p.harmonics.iter().map(|h| h.pressure_pa.amplitude)),
     );
+    let title = match &r.bands {
+        Some(b) => format!(
+            "{title}; boxes: {} % uncertainty bands",
+            super::table::sig(b.info.coverage * 100.0, 3)
+        ),
+        None => title,
+    };
     plot::BarChart {
         title,
         x_label,
@@ -293,6 +300,26 @@ pub fn chart(r: &SolveResult) -> plot::BarChart {
                     .flat_map(|s| s.points[i].harmonics.iter())
                     .map(|h| unit.of(h.pressure_pa.amplitude))
                     .collect(),
+                bands: r.bands.as_ref().and_then(|b| {
+                    // every harmonic's band of this point, in the order of
+                    // the bars; none when one is unknown
+                    r.sources
+                        .iter()
+                        .map(|s| {
+                            let sb = b.sources.iter().find(|x| x.name == s.name)?;
+                            let pb = sb.points.get(i)?;
+                            (pb.harmonics.len() == s.points[i].harmonics.len()).then_some(pb)
+                        })
+                        .collect::<Option<Vec<_>>>()?
+                        .into_iter()
+                        .flat_map(|pb| pb.harmonics.iter())
+                        .map(|h| {
+                            h.amplitude_pa
+                                .interval()
+                                .map(|(lo, hi)| (unit.of(lo), unit.of(hi)))
+                        })
+                        .collect::<Option<Vec<_>>>()
+                }),
             })
             .collect(),
         // a log axis keeps the higher harmonics (tens of dB down) visible

@@ -19,6 +19,19 @@ pub const SWEEP_HEADER: [&str; 5] = [
     "amplitude_pa",
 ];
 
+/// Header of the speed-sweep grid with uncertainty bands (`sweep --bands
+/// --csv`): the ends of each amplitude's coverage interval (empty when
+/// unknown).
+pub const SWEEP_BANDS_HEADER: [&str; 7] = [
+    "speed_rpm",
+    "point",
+    "harmonic",
+    "frequency_hz",
+    "amplitude_pa",
+    "amplitude_low_pa",
+    "amplitude_high_pa",
+];
+
 /// Rows of the frequency axis of the map.
 const MAP_ROWS: usize = 300;
 /// Rows added either side of an order line on the map, so its colour shows
@@ -154,24 +167,41 @@ pub fn text(r: &SweepReport, out: &mut impl Write) -> std::io::Result<()> {
 }
 
 /// Writes one row per speed, point and order of the swept shaft (peak
-/// amplitude in Pa).
+/// amplitude in Pa); with bands, the ends of each amplitude's band
+/// ([`SWEEP_BANDS_HEADER`]).
 ///
 /// # Errors
 /// The CSV writer's error.
 pub fn csv(r: &SweepReport, out: impl Write) -> Result<(), csv::Error> {
     let result = &r.grid;
     let mut w = csv::Writer::from_writer(out);
-    w.write_record(SWEEP_HEADER)?;
+    match r.bands {
+        Some(_) => w.write_record(SWEEP_BANDS_HEADER)?,
+        None => w.write_record(SWEEP_HEADER)?,
+    }
+    let number = |x: f64| {
+        if x.is_finite() {
+            format!("{x}")
+        } else {
+            String::new()
+        }
+    };
     for (si, speed) in result.speeds_rev_s.iter().enumerate() {
         for (pi, point) in result.points.iter().enumerate() {
             for (oi, order) in result.orders.iter().enumerate() {
-                w.write_record([
+                let mut row = vec![
                     format!("{}", twelve_digits(speed * 60.0)),
                     point.clone(),
                     order.to_string(),
                     format!("{}", twelve_digits(result.frequency_hz(si, oi))),
                     format!("{}", result.amplitude_pa(si, pi, oi)),
-                ])?;
+                ];
+                if let Some(b) = &r.bands {
+                    let band = b.points.get(pi).and_then(|p| p.amplitudes.get(oi));
+                    row.push(band.map_or(String::new(), |a| number(a.low_pa[si])));
+                    row.push(band.map_or(String::new(), |a| number(a.high_pa[si])));
+                }
+                w.write_record(row)?;
             }
         }
     }
@@ -302,9 +332,13 @@ pub fn level_chart(r: &SweepReport) -> plot::LineChart {
     }
     plot::LineChart {
         title: format!(
-            "Overall ripple level against speed — {} (shaft `{}`)",
+            "Overall ripple level against speed — {} (shaft `{}`){}",
             title.unwrap_or("circuit"),
-            result.shaft.name
+            result.shaft.name,
+            r.bands.as_ref().map_or(String::new(), |b| format!(
+                "; shaded: {} % uncertainty bands",
+                sig(b.info.coverage * 100.0, 3)
+            ))
         ),
         x_label: "shaft speed (rpm)".into(),
         y_label: format!("overall level, dB re {} (rms)", reference_text(p_ref)),
@@ -312,18 +346,31 @@ pub fn level_chart(r: &SweepReport) -> plot::LineChart {
             .points
             .iter()
             .enumerate()
-            .map(|(pi, name)| plot::XySeries {
-                name: name.clone(),
-                points: result
-                    .speeds_rev_s
-                    .iter()
-                    .enumerate()
-                    .filter_map(|(si, s)| {
-                        let rms = result.rms_pa(si, pi);
-                        (rms > 0.0).then(|| (s * 60.0, 20.0 * (rms.log10() - p_ref.log10())))
-                    })
-                    .collect(),
-                ..Default::default()
+            .map(|(pi, name)| {
+                let kept: Vec<usize> = (0..result.speeds_rev_s.len())
+                    .filter(|&si| result.rms_pa(si, pi) > 0.0)
+                    .collect();
+                let db = |v: f64| 20.0 * (v.log10() - p_ref.log10());
+                // the band of the rms in dB, where every end is known and
+                // above zero
+                let band = r.bands.as_ref().and_then(|b| {
+                    let rms = &b.points.get(pi)?.rms_pa;
+                    kept.iter()
+                        .map(|&si| {
+                            let (lo, hi) = rms.get(si)?.interval()?;
+                            (lo > 0.0 && hi >= lo).then(|| (db(lo), db(hi)))
+                        })
+                        .collect::<Option<Vec<_>>>()
+                });
+                plot::XySeries {
+                    name: name.clone(),
+                    points: kept
+                        .iter()
+                        .map(|&si| (result.speeds_rev_s[si] * 60.0, db(result.rms_pa(si, pi))))
+                        .collect(),
+                    band,
+                    ..Default::default()
+                }
             })
             .collect(),
         x_markers: markers

@@ -3,9 +3,15 @@
 
 use super::{Error, Input, Origin, Subject};
 use crate::Circuit;
-use crate::analysis::envelope::{AssessError, AssessSettings, Assessment, assess as run_assess};
+use crate::analysis::envelope::{
+    AssessError, AssessSettings, Assessment, LimitedQuantity, Verdict, assess as run_assess,
+    limited_worst_values,
+};
 use crate::elements::PRESSURE_VESSEL_CAUTION;
+use crate::envelope::LimitKind;
 use crate::envelope::{Envelope, OperatingPoint, TapLimits};
+use crate::io::CircuitTemplate;
+use crate::uncertainty::bands::{BandRequest, BandsInfo, OutputBand, propagate_at_points};
 use serde::Serialize;
 
 /// What to assess, resolved.
@@ -55,13 +61,236 @@ pub struct AssessReport {
     pub assessment: Assessment,
     /// Safety cautions (a gas-charged damper is a pressure vessel).
     pub cautions: Vec<String>,
+    /// The verdicts with uncertainty (`--bands`), one per verdict.
+    pub verdict_bands: Option<VerdictBands>,
+}
+
+/// A verdict that takes the uncertainty of the prediction into account.
+///
+/// With the band [low, high] of the worst value at the limit's worst point
+/// (the coverage interval of the quantity's true worst over the speed
+/// range there, over the uncertain inputs):
+/// * **PASS** when the whole band lies within the limit (high ≤ limit);
+///   the margin is that of the band's high end;
+/// * **FAIL** when the nominal worst exceeds the limit, whether or not the
+///   band reaches below it: the conservative reading (a predicted
+///   exceedance is not softened by the chance that the true values are
+///   kinder); [`VerdictBand::wholly_above`] says when even the low end is
+///   over;
+/// * **UNCERTAIN** otherwise: the nominal worst is within the limit but the
+///   band reaches over it (or the band is unknown), so the prediction
+///   cannot promise the limit is met.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Status {
+    /// The whole band within the limit.
+    Pass,
+    /// The limit inside the band above the nominal worst.
+    Uncertain,
+    /// The nominal worst over the limit.
+    Fail,
+}
+
+impl Status {
+    /// How reports print it.
+    pub fn word(self) -> &'static str {
+        match self {
+            Status::Pass => "PASS",
+            Status::Uncertain => "UNCERTAIN",
+            Status::Fail => "FAIL",
+        }
+    }
+
+    /// The status of a nominal worst `nominal_pa` with band `band` against
+    /// the limit `limit_pa` (see [`Status`]).
+    pub fn of(nominal_pa: f64, band: Option<(f64, f64)>, limit_pa: f64) -> Status {
+        if nominal_pa > limit_pa {
+            Status::Fail
+        } else {
+            match band {
+                Some((_, high)) if high <= limit_pa => Status::Pass,
+                _ => Status::Uncertain,
+            }
+        }
+    }
+}
+
+/// One verdict with the band of its worst value.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct VerdictBand {
+    /// The measurement point.
+    pub tap: String,
+    /// PASS, UNCERTAIN or FAIL (see [`Status`]).
+    pub status: Status,
+    /// The band of the worst value at the worst envelope point, Pa; `None`
+    /// when no ripple reaches the point (PASS).
+    pub worst_pa: Option<OutputBand>,
+    /// 20·log10(limit/high) in dB: the margin of the band's high end
+    /// (positive: the whole band within the limit); `None` without a band.
+    pub margin_db: Option<f64>,
+    /// Whether even the band's low end exceeds the limit.
+    pub wholly_above: bool,
+}
+
+/// The verdicts with uncertainty of an assessment.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct VerdictBands {
+    /// How the bands were made.
+    pub info: BandsInfo,
+    /// One per verdict, in the order of the verdicts.
+    pub verdicts: Vec<VerdictBand>,
+}
+
+/// What an assessment concludes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Outcome {
+    /// Every limit met (with bands: every band within its limit).
+    Pass,
+    /// No limit exceeded, but at least one band reaches over its limit.
+    Uncertain,
+    /// At least one limit exceeded.
+    Fail,
 }
 
 impl AssessReport {
-    /// Whether every limit is met.
+    /// Whether every limit is met (by the nominal worst values).
     pub fn passed(&self) -> bool {
         self.assessment.passed()
     }
+
+    /// What the assessment concludes: FAIL when a nominal worst exceeds its
+    /// limit, else UNCERTAIN when a verdict with bands is, else PASS.
+    pub fn outcome(&self) -> Outcome {
+        if !self.passed() {
+            return Outcome::Fail;
+        }
+        match &self.verdict_bands {
+            Some(b) if b.verdicts.iter().any(|v| v.status == Status::Fail) => Outcome::Fail,
+            Some(b) if b.verdicts.iter().any(|v| v.status == Status::Uncertain) => {
+                Outcome::Uncertain
+            }
+            _ => Outcome::Pass,
+        }
+    }
+
+    /// The status of verdict `i`: with bands its [`Status`], else PASS or
+    /// FAIL by the nominal worst.
+    pub fn status(&self, i: usize) -> Status {
+        match self.verdict_bands.as_ref().and_then(|b| b.verdicts.get(i)) {
+            Some(b) => b.status,
+            None if self.assessment.verdicts[i].pass => Status::Pass,
+            None => Status::Fail,
+        }
+    }
+}
+
+/// The verdicts of `report` (assessed from `template`'s circuit file with
+/// `request`) with the uncertainty of their worst values: for each limit,
+/// the band of the quantity's true worst over the speed range at the
+/// envelope point where it is worst nominally (the whole speed grid is
+/// swept in every draw, since the worst speed moves with the inputs, e.g. a
+/// resonance with an uncertain wave speed; the other envelope points are
+/// not, which keeps the cost to one sweep per distinct worst point and
+/// draw). Every draw sets the same input values at every point.
+/// `progress(done, planned)` counts draws.
+///
+/// # Errors
+/// [`Error::Request`] when nothing is uncertain or a drawn value makes the
+/// circuit invalid; [`Error::Failed`] when a drawn circuit cannot be swept.
+pub fn verdict_bands(
+    template: &CircuitTemplate,
+    report: &AssessReport,
+    request: &AssessRequest,
+    bands: &BandRequest,
+    progress: &mut dyn FnMut(usize, usize),
+) -> Result<VerdictBands, Error> {
+    let a = &report.assessment;
+    let speeds: Vec<f64> = a
+        .sweeps
+        .first()
+        .map(|s| s.sweep.speeds_rev_s.clone())
+        .unwrap_or_default();
+    // the distinct worst points, and per point the quantities evaluated there
+    let mut points: Vec<OperatingPoint> = Vec::new();
+    let mut quantities: Vec<Vec<LimitedQuantity>> = Vec::new();
+    // per verdict: (point index, quantity index) of its band
+    let mut slots: Vec<Option<(usize, usize)>> = Vec::new();
+    for v in &a.verdicts {
+        let Some(w) = &v.worst else {
+            slots.push(None);
+            continue;
+        };
+        let pi = match points.iter().position(|p| *p == w.point) {
+            Some(i) => i,
+            None => {
+                points.push(w.point.clone());
+                quantities.push(Vec::new());
+                points.len() - 1
+            }
+        };
+        quantities[pi].push(LimitedQuantity {
+            tap: v.tap.clone(),
+            kind: v.limit.kind,
+            order: (v.limit.kind == LimitKind::Harmonic).then_some(w.order),
+        });
+        slots.push(Some((pi, quantities[pi].len() - 1)));
+    }
+    let offsets: Vec<usize> = quantities
+        .iter()
+        .scan(0, |at, q| {
+            let here = *at;
+            *at += q.len();
+            Some(here)
+        })
+        .collect();
+    let shaft = request.shaft.as_ref().map(|s| s.0.as_str());
+    let verdict = |v: &Verdict, band: Option<OutputBand>| {
+        let interval = band.and_then(|b| b.interval());
+        let nominal = v.worst.as_ref().map_or(0.0, |w| w.value_pa);
+        VerdictBand {
+            tap: v.tap.clone(),
+            status: match band {
+                None => Status::of(nominal, Some((nominal, nominal)), v.limit.value_pa),
+                Some(_) => Status::of(nominal, interval, v.limit.value_pa),
+            },
+            worst_pa: band,
+            margin_db: interval
+                .filter(|(_, hi)| *hi > 0.0)
+                .map(|(_, hi)| 20.0 * (v.limit.value_pa / hi).log10()),
+            wholly_above: interval.is_some_and(|(lo, _)| lo > v.limit.value_pa),
+        }
+    };
+    if points.is_empty() {
+        return Err(Error::Request(format!(
+            "{}: no limit has a worst value to give an uncertainty band of (no `limits`, or no ripple reaches them)",
+            report.subject.file
+        )));
+    }
+    let evaluate = |circuits: Vec<crate::Circuit>| -> Result<Vec<f64>, String> {
+        let mut out = Vec::new();
+        for (circuit, q) in circuits.iter().zip(&quantities) {
+            out.extend(limited_worst_values(circuit, shaft, &speeds, q)?);
+        }
+        Ok(out)
+    };
+    let p =
+        propagate_at_points(template, &points, &evaluate, None, bands, progress).map_err(|e| {
+            match e {
+                crate::uncertainty::bands::BandError::NothingUncertain
+                | crate::uncertainty::bands::BandError::Input(_) => Error::Request(e.to_string()),
+                other => Error::failed("uncertainty bands of the verdicts".to_string(), other),
+            }
+        })?;
+    let verdicts = a
+        .verdicts
+        .iter()
+        .zip(&slots)
+        .map(|(v, slot)| verdict(v, slot.map(|(pi, qi)| p.outputs[offsets[pi] + qi])))
+        .collect();
+    Ok(VerdictBands {
+        info: p.info,
+        verdicts,
+    })
 }
 
 /// The file an assessment reads: the circuit as written, its envelope and
@@ -194,5 +423,6 @@ pub fn assess(
         floor_db: request.floor_db,
         assessment,
         cautions,
+        verdict_bands: None,
     })
 }

@@ -10,9 +10,10 @@ use crate::Circuit;
 use crate::envelope::OperatingPoint;
 use crate::io::CircuitTemplate;
 use crate::uncertainty::bands::{
-    BandError, BandRequest, BandsInfo, OutputBand, Propagated, propagate, response_outputs,
+    BandError, BandRequest, BandsInfo, Method, OutputBand, Propagated, propagate, response_outputs,
     ripple_outputs, sweep_outputs,
 };
+use crate::uncertainty::monte_carlo::MAX_STORED;
 use serde::Serialize;
 
 /// The bands of one harmonic's amplitude (Pa, peak).
@@ -79,8 +80,16 @@ pub fn ripple_bands(
             crate::meanflow::resolve_line_mean_flows(c);
         }
     };
-    let p = propagate(template, point, &prepare, &ripple_outputs, bands, progress)
-        .map_err(|e| band_error(e, "the ripple"))?;
+    let p = propagate(
+        template,
+        point,
+        &prepare,
+        &ripple_outputs,
+        None,
+        bands,
+        progress,
+    )
+    .map_err(|e| band_error(e, "the ripple"))?;
     // the layout of `ripple_outputs`: every amplitude (source, point,
     // order), then each point's rms and peak-to-peak
     let amplitudes: usize = nominal
@@ -135,6 +144,37 @@ pub fn ripple_bands(
     })
 }
 
+/// The band of a curve: the ends of each value's coverage interval (the
+/// Monte Carlo one, else the first-order one; NaN, `null` in JSON, where a
+/// band is unknown).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CurveBand {
+    /// The curve: a measurement point, or the impedance seen by the pump.
+    pub name: String,
+    /// The low ends, one per grid value.
+    pub low: Vec<f64>,
+    /// The high ends.
+    pub high: Vec<f64>,
+}
+
+/// The band of one harmonic's amplitude over a sweep's speeds.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct OrderCurveBand {
+    /// The harmonic (order).
+    pub order: u32,
+    /// The low ends of its peak amplitude's band per grid speed, Pa.
+    pub low_pa: Vec<f64>,
+    /// The high ends, Pa.
+    pub high_pa: Vec<f64>,
+}
+
+/// The ends of each band's interval (NaN where it is unknown).
+fn ends<'a>(bands: impl Iterator<Item = &'a OutputBand>) -> (Vec<f64>, Vec<f64>) {
+    bands
+        .map(|b| b.interval().unwrap_or((f64::NAN, f64::NAN)))
+        .unzip()
+}
+
 /// A propagation's error as an analysis error about `what`.
 fn band_error(e: BandError, what: &str) -> Error {
     match e {
@@ -162,6 +202,11 @@ pub struct ResponseBands {
     pub info: BandsInfo,
     /// Per nominal resonance, in the order of `ResponseResult::resonances`.
     pub resonances: Vec<ResonanceBand>,
+    /// The bands of |P/Qs| (Pa·s/m³) per measurement point on the grid, in
+    /// the order of `ResponseResult::points`, then that of the impedance
+    /// the pump sees (Pa·s/m³); empty when they would not fit in memory
+    /// ([`crate::uncertainty::monte_carlo::MAX_STORED`]).
+    pub curves: Vec<CurveBand>,
 }
 
 /// The bands of the resonances of `nominal` (a `response` of `template`'s
@@ -191,25 +236,76 @@ pub fn response_bands(
             nominal.subject.file
         )));
     }
-    // only the resonances' outputs: the last two per nominal resonance
+    // the curves too when their draws fit in memory; the resonances decide
+    // when the draws stop
+    let np = nominal.points.len();
+    let nf = nominal.freqs_hz.len();
+    let curve_outputs = (np + 1) * nf;
+    let planned = match bands.method {
+        Method::Linear => 0,
+        Method::MonteCarlo => bands
+            .monte_carlo
+            .draws
+            .unwrap_or(2 * bands.monte_carlo.batch()),
+    };
+    let with_curves = (curve_outputs + 2 * f0.len()).saturating_mul(planned) <= MAX_STORED;
     let evaluate = |c: Circuit| {
         let out = response_outputs(c, s.pump_index, &nominal.freqs_hz, &f0)?;
-        Ok(out[out.len() - 2 * f0.len()..].to_vec())
+        if out.len() != curve_outputs + 2 * f0.len() {
+            return Err(format!(
+                "a drawn circuit gives {} response values where the nominal one gives {}",
+                out.len(),
+                curve_outputs + 2 * f0.len()
+            ));
+        }
+        Ok(if with_curves {
+            out
+        } else {
+            out[curve_outputs..].to_vec()
+        })
     };
-    let p: Propagated = propagate(template, point, &prepare, &evaluate, bands, progress)
-        .map_err(|e| band_error(e, "the resonances"))?;
+    let first = if with_curves { curve_outputs } else { 0 };
+    let p: Propagated = propagate(
+        template,
+        point,
+        &prepare,
+        &evaluate,
+        Some(first..first + 2 * f0.len()),
+        bands,
+        progress,
+    )
+    .map_err(|e| band_error(e, "the resonances"))?;
     let resonances = f0
         .iter()
-        .zip(p.outputs.chunks_exact(2))
+        .zip(p.outputs[first..].chunks_exact(2))
         .map(|(&nominal_hz, b)| ResonanceBand {
             nominal_hz,
             freq_hz: b[0],
             level_pa_per_m3_s: b[1],
         })
         .collect();
+    let names = nominal
+        .points
+        .iter()
+        .map(|p| p.name.clone())
+        .chain(std::iter::once(
+            crate::render::response::load_impedance_point(&nominal.pump.name),
+        ));
+    let curves = if with_curves {
+        names
+            .zip(p.outputs[..curve_outputs].chunks_exact(nf.max(1)))
+            .map(|(name, b)| {
+                let (low, high) = ends(b.iter());
+                CurveBand { name, low, high }
+            })
+            .collect()
+    } else {
+        Vec::new()
+    };
     Ok(ResponseBands {
         info: p.info,
         resonances,
+        curves,
     })
 }
 
@@ -220,6 +316,9 @@ pub struct SweepPointBands {
     pub point: String,
     /// The overall rms at each grid speed, Pa.
     pub rms_pa: Vec<OutputBand>,
+    /// Each harmonic's peak amplitude at each grid speed, in the order of
+    /// `SweepReport::orders`.
+    pub amplitudes: Vec<OrderCurveBand>,
     /// The true worst speed, rev/s.
     pub worst_speed_rev_s: OutputBand,
     /// The overall rms there, Pa.
@@ -256,28 +355,55 @@ pub fn sweep_bands(
     };
     let speeds = &nominal.speeds_rev_s;
     let evaluate = |c: Circuit| sweep_outputs(c, &request.shaft, speeds, nominal.harmonics);
-    let p = propagate(template, point, &prepare, &evaluate, bands, progress)
-        .map_err(|e| band_error(e, "the sweep"))?;
     // the layout of `sweep_outputs`: the rms per point and speed, then per
-    // point the worst speed and its rms
+    // point the worst speed and its rms (which decide when the draws
+    // stop), then every amplitude (speed, point, order)
     let np = nominal.points.len();
     let ns = speeds.len();
-    if p.outputs.len() != np * (ns + 2) {
+    let no = nominal.orders.len();
+    let judged = np * ns..np * (ns + 2);
+    let p = propagate(
+        template,
+        point,
+        &prepare,
+        &evaluate,
+        Some(judged),
+        bands,
+        progress,
+    )
+    .map_err(|e| band_error(e, "the sweep"))?;
+    let expected = np * (ns + 2) + ns * np * no;
+    if p.outputs.len() != expected {
         return Err(Error::Request(format!(
-            "the drawn circuits give {} outputs where the nominal one gives {}",
+            "the drawn circuits give {} outputs where the nominal one gives {expected}",
             p.outputs.len(),
-            np * (ns + 2)
         )));
     }
-    let (levels, worst) = p.outputs.split_at(np * ns);
+    let (levels, rest) = p.outputs.split_at(np * ns);
+    let (worst, amplitudes) = rest.split_at(2 * np);
     let points = nominal
         .points
         .iter()
+        .enumerate()
         .zip(levels.chunks_exact(ns))
         .zip(worst.chunks_exact(2))
-        .map(|((name, rms), w)| SweepPointBands {
+        .map(|(((pi, name), rms), w)| SweepPointBands {
             point: name.clone(),
             rms_pa: rms.to_vec(),
+            amplitudes: nominal
+                .orders
+                .iter()
+                .enumerate()
+                .map(|(oi, &order)| {
+                    let (low_pa, high_pa) =
+                        ends((0..ns).map(|si| &amplitudes[(si * np + pi) * no + oi]));
+                    OrderCurveBand {
+                        order,
+                        low_pa,
+                        high_pa,
+                    }
+                })
+                .collect(),
             worst_speed_rev_s: w[0],
             worst_rms_pa: w[1],
         })

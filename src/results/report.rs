@@ -38,6 +38,8 @@ pub struct ReportRequest {
     /// How close (a fraction of f0) a band edge counts as near a
     /// resonance, and where the value came from.
     pub margin: (f64, Origin),
+    /// Verdicts with uncertainty bands (as `assess --bands`), or `None`.
+    pub bands: Option<crate::uncertainty::bands::BandRequest>,
 }
 
 /// A silencer analysis that could not be made at one point, and why.
@@ -166,9 +168,23 @@ pub fn report(
         },
     )?;
     part(&mut done, progress);
-    let (assessment, no_assessment) = over_envelope(file, &envelope_points, &mut |i, n| {
+    let (mut assessment, no_assessment) = over_envelope(file, &envelope_points, &mut |i, n| {
         progress(done + i * STEP / n.max(1), total);
     })?;
+    if let (Some(bands), Some((a, assess_request))) = (&request.bands, assessment.as_mut())
+        && a.assessment.verdicts.iter().any(|v| v.worst.is_some())
+    {
+        let template = crate::io::CircuitTemplate::new(&file.text, &file.file)
+            .map_err(|e| Error::Request(e.to_string()))?;
+        a.verdict_bands = Some(super::assess::verdict_bands(
+            &template,
+            a,
+            assess_request,
+            bands,
+            &mut |_, _| {},
+        )?);
+    }
+    let assessment = assessment.map(|(a, _)| a);
     part(&mut done, progress);
     let ripple = solve(
         circuit.clone(),
@@ -336,6 +352,10 @@ pub const TOP_FINDINGS: usize = 10;
 /// `assess`'s default `--floor`).
 pub const FINDINGS_FLOOR_DB: f64 = 20.0;
 
+/// An assessment with the request that made it, or the reason there is
+/// none.
+type Assessed = (Option<(AssessReport, AssessRequest)>, Option<String>);
+
 /// `assess` with its defaults over the file's envelope points (`points`,
 /// resolved); when it cannot run for want of a speed range and the file
 /// has neither `envelope` nor `limits`, no assessment and the reason.
@@ -347,7 +367,7 @@ fn over_envelope(
     file: &CircuitFile,
     points: &[(OperatingPoint, crate::Circuit)],
     progress: &mut dyn FnMut(usize, usize),
-) -> Result<(Option<AssessReport>, Option<String>), Error> {
+) -> Result<Assessed, Error> {
     let envelope = file.envelope.as_ref();
     let settings = AssessSettings::default();
     let request = AssessRequest {
@@ -364,7 +384,7 @@ fn over_envelope(
     };
     let result = assess(AssessFile::of(file), points, &request, progress);
     match result {
-        Ok(a) => Ok((Some(a), None)),
+        Ok(a) => Ok((Some((a, request)), None)),
         Err(Error::Request(reason)) if envelope.is_none() && file.limits.is_empty() => {
             Ok((None, Some(reason)))
         }

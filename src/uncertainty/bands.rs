@@ -81,9 +81,12 @@ pub struct BandsInfo {
     pub seed: u64,
     /// Monte Carlo draws made (0 for the first-order method).
     pub draws: usize,
-    /// Whether the adaptive procedure found every band stable (`None`:
-    /// first-order, or a fixed number of draws).
+    /// Whether the adaptive procedure found every judged band stable
+    /// (`None`: first-order, or a fixed number of draws).
     pub stable: Option<bool>,
+    /// Outputs whose stability decides the number of draws (the command's
+    /// conclusions: see `monte_carlo`, "Which outputs decide").
+    pub judged: usize,
     /// Outputs whose first-order band is good (nonlinearity index ≤ 0.1).
     pub linear_good: usize,
     /// Outputs in all.
@@ -127,7 +130,9 @@ pub type Evaluate<'a> = dyn Fn(Circuit) -> Result<Vec<f64>, String> + Sync + 'a;
 
 /// Bands of `evaluate`'s outputs over the uncertain inputs of the circuit
 /// at `point`; `prepare` applies what the command changes in every circuit
-/// (a speed, a harmonic count). `progress(done, planned)` counts draws.
+/// (a speed, a harmonic count); the outputs in `judged` (all when `None`)
+/// decide when the adaptive Monte Carlo stops. `progress(done, planned)`
+/// counts draws. The evaluations run in parallel.
 ///
 /// # Errors
 /// [`BandError`].
@@ -136,6 +141,41 @@ pub fn propagate(
     point: &OperatingPoint,
     prepare: &(dyn Fn(&mut Circuit) + Sync),
     evaluate: &Evaluate<'_>,
+    judged: Option<std::ops::Range<usize>>,
+    request: &BandRequest,
+    progress: &mut dyn FnMut(usize, usize),
+) -> Result<Propagated, BandError> {
+    let at_points = |mut circuits: Vec<Circuit>| {
+        let mut c = circuits.pop().expect("one point");
+        prepare(&mut c);
+        evaluate(c)
+    };
+    propagate_at_points(
+        template,
+        std::slice::from_ref(point),
+        &at_points,
+        judged,
+        request,
+        progress,
+    )
+}
+
+/// An analysis's outputs for the circuits at several envelope points (in
+/// the order given), all with the same values of the uncertain inputs.
+pub type EvaluatePoints<'a> = dyn Fn(Vec<Circuit>) -> Result<Vec<f64>, String> + Sync + 'a;
+
+/// As [`propagate`], for outputs of the circuit at several envelope points
+/// `points`: each draw (and each first-order evaluation) sets the same
+/// values of the uncertain inputs at every point, as one machine with one
+/// set of true values runs through its envelope.
+///
+/// # Errors
+/// [`BandError`].
+pub fn propagate_at_points(
+    template: &CircuitTemplate,
+    points: &[OperatingPoint],
+    evaluate: &EvaluatePoints<'_>,
+    judged: Option<std::ops::Range<usize>>,
     request: &BandRequest,
     progress: &mut dyn FnMut(usize, usize),
 ) -> Result<Propagated, BandError> {
@@ -145,27 +185,37 @@ pub fn propagate(
     }
     let nominal_values = inputs.nominal();
     let run = |values: &[f64], why: &str| -> Result<Vec<f64>, BandError> {
-        let mut c = inputs.circuit(template, point, values, why)?;
-        prepare(&mut c);
-        evaluate(c).map_err(|e| BandError::Analysis(format!("{e} ({why})")))
+        let circuits = points
+            .iter()
+            .map(|point| inputs.circuit(template, point, values, why))
+            .collect::<Result<Vec<_>, _>>()?;
+        evaluate(circuits).map_err(|e| BandError::Analysis(format!("{e} ({why})")))
     };
     let f0 = run(&nominal_values, "the nominal values")?;
-    // first order: each input at ±u
-    let mut plus = Vec::with_capacity(inputs.inputs.len());
-    let mut minus = Vec::with_capacity(inputs.inputs.len());
-    for (i, input) in inputs.inputs.iter().enumerate() {
-        let u = input.standard_uncertainty();
-        for (sign, out) in [(1.0, &mut plus), (-1.0, &mut minus)] {
+    // first order: each input at +u, then at −u
+    let shifted: Vec<(usize, f64)> = (0..inputs.inputs.len())
+        .map(|i| (i, 1.0))
+        .chain((0..inputs.inputs.len()).map(|i| (i, -1.0)))
+        .collect();
+    let mut moved = crate::parallel::ordered_map(
+        &shifted,
+        true,
+        || (),
+        |_, &(i, sign)| {
+            let input = &inputs.inputs[i];
             let mut v = nominal_values.clone();
-            v[i] += sign * u;
+            v[i] += sign * input.standard_uncertainty();
             let why = format!(
                 "`{}` at its value {} u",
                 input.name,
                 if sign > 0.0 { "+" } else { "−" }
             );
-            out.push(run(&v, &why)?);
-        }
-    }
+            run(&v, &why)
+        },
+        &mut |_| {},
+    )?;
+    let minus = moved.split_off(inputs.inputs.len());
+    let plus = moved;
     let coverage = request.monte_carlo.coverage;
     let lin = linear::bands(&f0, &plus, &minus, coverage);
     let (mc, draws, stable) = match request.method {
@@ -184,6 +234,7 @@ pub fn propagate(
                 &f0,
                 &eval,
                 &request.monte_carlo,
+                judged.clone(),
                 BandError::Limit,
                 progress,
             )?;
@@ -210,6 +261,7 @@ pub fn propagate(
             seed: request.monte_carlo.seed,
             draws,
             stable,
+            judged: judged.map_or(f0.len(), |r| r.end.min(f0.len()) - r.start.min(f0.len())),
             linear_good: lin.iter().filter(|l| l.good).count(),
             outputs: outputs.len(),
             linear_disagrees: outputs
@@ -245,9 +297,10 @@ pub fn ripple_outputs(circuit: Circuit) -> Result<Vec<f64>, String> {
 }
 
 /// The outputs of `response` for pump `pump` on `freqs_hz`: |P/Qs| at every
-/// measurement point and frequency (point-major), then for each of the
-/// nominal resonances `nominal_hz` the frequency and level of the nearest
-/// resonance within a factor 1.5 (NaN when a draw has none there).
+/// measurement point and frequency (point-major), then the magnitude of the
+/// impedance the pump sees at every frequency (Pa·s/m³), then for each of
+/// the nominal resonances `nominal_hz` the frequency and level of the
+/// nearest resonance within a factor 1.5 (NaN when a draw has none there).
 ///
 /// # Errors
 /// A message when the network cannot be solved.
@@ -264,6 +317,7 @@ pub fn response_outputs(
         .points
         .iter()
         .flat_map(|p| p.values.iter().map(|v| v.norm()))
+        .chain(r.load_impedance.iter().map(|z| z.norm()))
         .collect();
     if !nominal_hz.is_empty() {
         let found =
@@ -292,7 +346,8 @@ pub fn response_outputs(
 
 /// The outputs of `sweep` of `shaft` over `speeds_rev_s`: the overall rms
 /// at every point and speed (point-major, Pa), then per point the true
-/// worst speed (rev/s) and the rms there (Pa).
+/// worst speed (rev/s) and the rms there (Pa), then the peak amplitude of
+/// every harmonic (speed, point, order: the order of the CSV grid, Pa).
 ///
 /// # Errors
 /// A message when the network cannot be solved at a speed.
@@ -309,15 +364,20 @@ pub fn sweep_outputs(
         min_rise_db: f64::INFINITY,
     };
     let r = sweep(&plan, shaft, &settings, &mut |_| {}).map_err(|e| e.to_string())?;
-    let np = r.points.len();
-    let mut out = Vec::with_capacity(np * (speeds_rev_s.len() + 2));
+    let (np, ns, no) = (r.points.len(), speeds_rev_s.len(), r.orders.len());
+    let mut out = Vec::with_capacity(np * (ns + 2) + ns * np * no);
     for pi in 0..np {
-        out.extend((0..speeds_rev_s.len()).map(|si| r.rms_pa(si, pi)));
+        out.extend((0..ns).map(|si| r.rms_pa(si, pi)));
     }
     for pi in 0..np {
         let w = r.worst(pi);
         out.push(w.speed_rev_s);
         out.push(w.value_pa);
+    }
+    for si in 0..ns {
+        for pi in 0..np {
+            out.extend((0..no).map(|oi| r.amplitude_pa(si, pi, oi)));
+        }
     }
     Ok(out)
 }

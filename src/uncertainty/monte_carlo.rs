@@ -19,6 +19,19 @@
 //! `digits` significant digits as c·10^l, δ = ½·10^l. Until then another
 //! batch is drawn, up to a cap; a result stopped at the cap says it is not
 //! stable.
+//!
+//! **Which outputs decide.** JCGM 101 §7.9 stabilises the output
+//! quantities of the measurement model. A command computes many more
+//! values than it concludes on (a sweep's rms at every grid speed, a
+//! response at every frequency): near a resonance the band at one grid
+//! speed is wide and bimodal (the resonance passes that speed in some
+//! draws and not in others) and needs far more draws to settle than the
+//! conclusions do. So the caller names the *judged* outputs (a sweep's worst
+//! speed and worst level per point, a response's resonances): only they
+//! decide when to stop; the others are reported from the same draws.
+//!
+//! Draws are evaluated in parallel on rayon's pool; each has its own
+//! generator, so the bands are the same on any number of threads.
 
 use super::stats::quantile_sorted;
 use crate::estimate::rng::Rng;
@@ -122,20 +135,23 @@ pub enum LimitError {
 }
 
 /// Runs the propagation: `eval(i)` gives the outputs of draw i (NaN for a
-/// quantity a draw does not have). `progress(done, planned)` is called
-/// after each batch.
+/// quantity a draw does not have). The outputs in `judged` (all when
+/// `None`) decide when the adaptive procedure stops. `progress(done,
+/// planned)` is called after each batch.
 ///
 /// # Errors
-/// The first error of `eval` (draws are made in order), or a
-/// [`LimitError`] wrapped by `limit` when the outputs do not fit in memory.
-pub fn propagate<E>(
+/// The first error of `eval` in draw order, or a [`LimitError`] wrapped by
+/// `limit` when the outputs do not fit in memory.
+pub fn propagate<E: Send>(
     nominal: &[f64],
     eval: &(dyn Fn(usize) -> Result<Vec<f64>, E> + Sync),
     options: &Options,
+    judged: Option<std::ops::Range<usize>>,
     limit: impl Fn(LimitError) -> E,
     progress: &mut dyn FnMut(usize, usize),
 ) -> Result<Bands, E> {
     let outputs = nominal.len();
+    let judged = judged.map_or(0..outputs, |r| r.start.min(outputs)..r.end.min(outputs));
     let batch = options.draws.unwrap_or_else(|| options.batch()).max(2);
     let cap = match options.draws {
         Some(n) => n,
@@ -175,7 +191,8 @@ pub fn propagate<E>(
             continue;
         }
         per_batch.push(
-            (0..outputs)
+            judged
+                .clone()
                 .map(|o| {
                     let s = summary(&values[o][start..], options.coverage);
                     [s.0, s.1, s.2, s.3]
@@ -185,9 +202,9 @@ pub fn propagate<E>(
         if per_batch.len() < 2 {
             continue;
         }
-        let ok = (0..outputs).all(|o| {
+        let ok = judged.clone().enumerate().all(|(j, o)| {
             let all = summary(&values[o], options.coverage);
-            stable_output(&per_batch, o, all.1, options.digits)
+            stable_output(&per_batch, j, all.1, options.digits)
         });
         stable = Some(ok);
         if ok {
@@ -216,16 +233,19 @@ pub fn propagate<E>(
     })
 }
 
-/// The outputs of draws `start .. start + n`, in order.
-fn evaluate<E>(
+/// The outputs of draws `start .. start + n`, in order (evaluated on
+/// rayon's pool; the first error in draw order).
+fn evaluate<E: Send>(
     start: usize,
     n: usize,
     eval: &(dyn Fn(usize) -> Result<Vec<f64>, E> + Sync),
 ) -> Result<Vec<Vec<f64>>, E> {
-    (start..start + n).map(eval).collect()
+    let draws: Vec<usize> = (start..start + n).collect();
+    crate::parallel::ordered_map(&draws, true, || (), |_, &i| eval(i), &mut |_| {})
 }
 
-/// Whether output `o` is stable over the batches (JCGM 101 §7.9.4).
+/// Whether the `j`-th judged output is stable over the batches (JCGM 101
+/// §7.9.4).
 fn stable_output(per_batch: &[Vec<[f64; 4]>], o: usize, u: f64, digits: u32) -> bool {
     if !(u.is_finite() && u > 0.0) {
         return true; // no spread: nothing to stabilise
@@ -309,7 +329,7 @@ mod tests {
             Ok(vec![x, 3.0 * x + 1.0])
         };
         let options = Options::default();
-        let bands = propagate(&[0.0, 1.0], &eval, &options, |_| (), &mut |_, _| {}).unwrap();
+        let bands = propagate(&[0.0, 1.0], &eval, &options, None, |_| (), &mut |_, _| {}).unwrap();
         assert_eq!(bands.stable, Some(true));
         assert!(
             bands.draws >= 2000 && bands.draws % 1000 == 0,
@@ -333,6 +353,40 @@ mod tests {
         assert!((b2.low - (1.0 - 2.7)).abs() < 3.0 * end && (b2.high - 3.7).abs() < 3.0 * end);
     }
 
+    // Output 1 is Cauchy distributed (the ratio of two independent normals;
+    // no variance, so its standard deviation never settles, JCGM 101 §7.9
+    // cannot stabilise it), output 0 uniform. Judged on output 0 alone the
+    // procedure stops when output 0 is stable; judged on both it runs to
+    // the cap and says it is not stable.
+    #[test]
+    fn only_the_judged_outputs_decide_when_to_stop() {
+        let eval = |i: usize| -> Result<Vec<f64>, ()> {
+            let mut rng = draw_rng(11, i);
+            let x = 2.0 * rng.uniform() - 1.0;
+            Ok(vec![x, rng.normal() / rng.normal()])
+        };
+        let options = Options {
+            max_draws: 8000,
+            ..Options::default()
+        };
+        let all = propagate(&[0.0, 0.0], &eval, &options, None, |_| (), &mut |_, _| {}).unwrap();
+        assert_eq!((all.draws, all.stable), (8000, Some(false)));
+        let judged = propagate(
+            &[0.0, 0.0],
+            &eval,
+            &options,
+            Some(0..1),
+            |_| (),
+            &mut |_, _| {},
+        )
+        .unwrap();
+        assert_eq!(judged.stable, Some(true));
+        assert!(judged.draws < 8000, "{}", judged.draws);
+        // the same draws: the judged run's bands are those of its first draws
+        assert_eq!(judged.bands.len(), 2);
+        assert!(judged.bands[1].u.is_finite());
+    }
+
     #[test]
     fn a_fixed_number_of_draws_and_missing_values() {
         let eval = |i: usize| -> Result<Vec<f64>, ()> {
@@ -346,7 +400,7 @@ mod tests {
             draws: Some(100),
             ..Options::default()
         };
-        let bands = propagate(&[0.0], &eval, &options, |_| (), &mut |_, _| {}).unwrap();
+        let bands = propagate(&[0.0], &eval, &options, None, |_| (), &mut |_, _| {}).unwrap();
         assert_eq!(
             (bands.draws, bands.stable, bands.bands[0].missing),
             (100, None, 25)
@@ -364,6 +418,7 @@ mod tests {
             &nominal,
             &eval,
             &Options::default(),
+            None,
             |e| e.to_string(),
             &mut |_, _| {},
         )
