@@ -2,7 +2,7 @@
 //! and the stacked response and impedance charts.
 
 use super::heading;
-use super::table::{Align, DIGITS, Quantity, Table, phase, sig};
+use super::table::{Align, DIGITS, Quantity, Table, phase, push_float, sig};
 use crate::analysis::response::{Coverage, HarmonicBand, Resonance};
 use crate::plot;
 use crate::results::response::VerdictRef;
@@ -85,7 +85,7 @@ fn resonances(out: &mut impl Write, list: &[ResonanceVerdict]) -> std::io::Resul
     }
     writeln!(
         out,
-        "resonances (peaks with at least 3 dB prominence, refined by golden-section search; Q from the half-power points):"
+        "resonances (peaks with at least 3 dB prominence, each refined once where it is highest; Q from the half-power points):"
     )?;
     let mut t = Table::new(&[
         ("#", Align::Right),
@@ -268,14 +268,25 @@ pub fn csv(r: &ResponseResult, out: impl Write) -> Result<(), csv::Error> {
         .iter()
         .map(|p| (p.name.as_str(), &p.values_pa_per_m3_s))
         .chain(std::iter::once((load.as_str(), &r.load_impedance_pa_s_m3)));
+    // the frequencies formatted once for every curve, the values into
+    // reused buffers: no allocation per row
+    let freqs: Vec<String> = r
+        .freqs_hz
+        .iter()
+        .map(|&f| {
+            let mut s = String::new();
+            push_float(&mut s, f);
+            s
+        })
+        .collect();
+    let (mut amplitude, mut phase_text) = (String::new(), String::new());
     for (name, values) in curves {
-        for (f, v) in r.freqs_hz.iter().zip(values) {
-            w.write_record([
-                name.to_string(),
-                format!("{f}"),
-                format!("{}", v.amplitude),
-                format!("{}", v.phase_deg),
-            ])?;
+        for (f, v) in freqs.iter().zip(values) {
+            amplitude.clear();
+            phase_text.clear();
+            push_float(&mut amplitude, v.amplitude);
+            push_float(&mut phase_text, v.phase_deg);
+            w.write_record([name, f.as_str(), amplitude.as_str(), phase_text.as_str()])?;
         }
     }
     w.flush()?;

@@ -329,3 +329,56 @@ mod tests {
         );
     }
 }
+
+/// Appends `x` to `out` exactly as `format!("{x}")` writes it (the shortest
+/// text that reads back to the same value, never an exponent), through the
+/// ryu algorithm (Adams 2018), several times faster than the standard
+/// formatter: for large CSV tables. Where ryu would write an exponent, or
+/// for a value that is not finite, the standard formatter writes it.
+pub fn push_float(out: &mut String, x: f64) {
+    use std::fmt::Write as _;
+    if x.is_finite() {
+        let mut buffer = ryu::Buffer::new();
+        let text = buffer.format_finite(x);
+        if !text.contains('e') {
+            // ryu writes integers as "1.0", the standard formatter as "1"
+            out.push_str(text.strip_suffix(".0").unwrap_or(text));
+            return;
+        }
+    }
+    // writing into a String cannot fail
+    let _ = write!(out, "{x}");
+}
+
+#[cfg(test)]
+mod float_text_tests {
+    use super::push_float;
+
+    /// The same text as the standard formatter over magnitudes from 1e-320
+    /// to 1e300, integers, signed zeros and values at the exponent
+    /// switch-overs.
+    #[test]
+    fn push_float_writes_what_format_writes() {
+        let mut seed = 0x2545_f491_4f6c_dd1d_u64;
+        let mut values = vec![0.0, -0.0, 1.0, -1.0, 10.0, 1e15, 1e16, 1e-5, 1e-6, 0.1, 123456789.0];
+        for _ in 0..100_000 {
+            seed ^= seed << 13;
+            seed ^= seed >> 7;
+            seed ^= seed << 17;
+            let bits = seed;
+            let x = f64::from_bits(bits);
+            if x.is_finite() {
+                values.push(x);
+            }
+            let m = (seed >> 11) as f64 / (1u64 << 53) as f64;
+            values.push(m * 10f64.powi((seed % 40) as i32 - 20));
+            values.push((seed % 100_000) as f64);
+        }
+        let mut out = String::new();
+        for x in values {
+            out.clear();
+            push_float(&mut out, x);
+            assert_eq!(out, format!("{x}"), "{x:e}");
+        }
+    }
+}
