@@ -10,14 +10,14 @@
 //! * **Resonances** are peaks of |H| at any point, found on a logarithmic
 //!   frequency grid, kept when their prominence (the drop to the higher of
 //!   the two valleys that separate them from higher ground) is at least a
-//!   threshold. Peaks of several points within a relative tolerance of each
-//!   other are one resonance, refined once at the point where its grid peak
-//!   is highest (methods.md §7.2 refines near peaks by golden-section; here
-//!   a safeguarded parabolic search on 1/|H|², which lands on a Lorentzian
-//!   peak in a step or two, to a relative 1e-9 in frequency) between the
-//!   grid neighbours, and given a quality factor Q = f0/(f2 − f1) from the
-//!   half-power points |H(f1,2)| = |H(f0)|/√2 (Illinois root search, to a
-//!   relative 1e-10).
+//!   threshold, refined between the grid neighbours (methods.md §7.2 refines
+//!   near peaks by golden-section; here a safeguarded parabolic search on
+//!   1/|H|², which lands on a Lorentzian peak in a step or two, to a
+//!   relative 1e-9 in frequency), and given a quality factor
+//!   Q = f0/(f2 − f1) from the half-power points |H(f1,2)| = |H(f0)|/√2
+//!   (Illinois root search, to a relative 1e-10). Peaks of several points
+//!   within a relative tolerance of each other are one resonance, reported
+//!   at the point where it is highest.
 //! * **Harmonic bands.** Over a speed range n_lo..n_hi, harmonic k of the
 //!   pumping frequency sweeps k·z·n_lo .. k·z·n_hi (z pumping elements). A
 //!   resonance inside a band is crossed at speed n = f0/(k z); one within a
@@ -259,13 +259,11 @@ struct Peak {
 
 /// Finds the resonances in a computed response (see the module docs).
 ///
-/// One refinement per resonance: the grid peaks of every point are grouped
-/// first (highest grid level first, a peak within the merge tolerance of a
-/// higher one joins it), and only the highest of each group is refined and
-/// given its Q; the others are named in `seen_at`. Each refinement (a
-/// safeguarded parabolic search on 1/|H|², `worst::refine`, to
-/// [`PEAK_TOLERANCE`]; the half-power points by the Illinois method to
-/// [`HALF_POWER_TOLERANCE`]) takes some 20–30 solves.
+/// Each point's grid peaks are refined (a safeguarded parabolic search on
+/// 1/|H|², `worst::refine`, to [`PEAK_TOLERANCE`]; the half-power points by
+/// the Illinois method to [`HALF_POWER_TOLERANCE`]): some 20–30 solves
+/// each, where 60-step golden-section and bisection searches took about
+/// 180.
 ///
 /// # Errors
 /// [`SolveError`] from the refining solves (other than a singular matrix at
@@ -301,38 +299,7 @@ pub fn find_resonances(
             candidates.push((pi, i, left_valley, right_valley));
         }
     }
-    // Group them: highest grid level first (ties in candidate order). A
-    // refined peak lies between its grid neighbours, so a peak joins the
-    // first group whose head it may merge with only when it merges with it
-    // wherever both land; otherwise it is refined too.
-    let mut by_level: Vec<usize> = (0..candidates.len()).collect();
-    let grid_level = |c: usize| mags[candidates[c].0][candidates[c].1];
-    by_level.sort_by(|&a, &b| grid_level(b).total_cmp(&grid_level(a)).then(a.cmp(&b)));
-    let span = |c: usize| (f[candidates[c].1 - 1], f[candidates[c].1 + 1]);
-    let tol = settings.merge_tolerance;
-    let mut heads: Vec<usize> = Vec::new();
-    let mut members: Vec<Vec<usize>> = Vec::new();
-    for c in by_level {
-        let (lo, hi) = span(c);
-        let joined = heads.iter().position(|&h| {
-            let (h_lo, h_hi) = span(h);
-            let nearest = (lo - h_hi).max(h_lo - hi).max(0.0);
-            nearest <= tol * h_hi
-        });
-        match joined {
-            Some(g) if {
-                let (h_lo, h_hi) = span(heads[g]);
-                (hi - h_lo).max(h_hi - lo) <= tol * h_lo
-            } =>
-            {
-                members[g].push(candidates[c].0);
-            }
-            _ => {
-                heads.push(c);
-                members.push(vec![candidates[c].0]);
-            }
-        }
-    }
+    let heads: Vec<usize> = (0..candidates.len()).collect();
     // Each refinement is independent (its own solves), so they run in
     // parallel and are collected in order: the same peaks on any number of
     // threads. About 25 solves each.
@@ -399,44 +366,34 @@ pub fn find_resonances(
         },
         &mut |_| {},
     )?;
-    // Merge the refined peaks (a refined peak may come within the tolerance
-    // of another group's): the highest first, so each resonance is reported
-    // where it is highest; every point of a group is named where its head
-    // goes.
-    let mut order: Vec<usize> = (0..peaks.len()).collect();
-    order.sort_by(|&a, &b| {
-        let (a, b) = (&peaks[a], &peaks[b]);
+    // Merge: the highest peaks first, so each resonance is reported where it
+    // is highest.
+    let mut peaks = peaks;
+    peaks.sort_by(|a, b| {
         (b.unbounded, b.level)
             .partial_cmp(&(a.unbounded, a.level))
             .unwrap_or(std::cmp::Ordering::Equal)
     });
     let mut resonances: Vec<Resonance> = Vec::new();
-    for g in order {
-        let p = &peaks[g];
-        let index = match resonances
-            .iter()
-            .position(|r| (r.freq_hz - p.freq_hz).abs() <= settings.merge_tolerance * r.freq_hz)
+    for p in peaks {
+        let name = &response.points[p.point].name;
+        match resonances
+            .iter_mut()
+            .find(|r| (r.freq_hz - p.freq_hz).abs() <= settings.merge_tolerance * r.freq_hz)
         {
-            Some(r) => r,
-            None => {
-                let name = &response.points[p.point].name;
-                resonances.push(Resonance {
-                    freq_hz: p.freq_hz,
-                    point: name.clone(),
-                    level: p.level,
-                    quality: p.quality,
-                    unbounded: p.unbounded,
-                    seen_at: Vec::new(),
-                });
-                resonances.len() - 1
+            Some(r) => {
+                if !r.seen_at.contains(name) {
+                    r.seen_at.push(name.clone());
+                }
             }
-        };
-        let r = &mut resonances[index];
-        for &pi in &members[g] {
-            let name = &response.points[pi].name;
-            if !r.seen_at.contains(name) {
-                r.seen_at.push(name.clone());
-            }
+            None => resonances.push(Resonance {
+                freq_hz: p.freq_hz,
+                point: name.clone(),
+                level: p.level,
+                quality: p.quality,
+                unbounded: p.unbounded,
+                seen_at: vec![name.clone()],
+            }),
         }
     }
     resonances.sort_by(|a, b| a.freq_hz.total_cmp(&b.freq_hz));

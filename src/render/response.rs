@@ -2,11 +2,12 @@
 //! and the stacked response and impedance charts.
 
 use super::heading;
-use super::table::{Align, DIGITS, Quantity, Table, phase, push_float, sig};
+use super::table::{Align, DIGITS, Quantity, Table, phase, sig};
 use crate::analysis::response::{Coverage, HarmonicBand, Resonance};
 use crate::plot;
 use crate::results::response::VerdictRef;
 use crate::results::response::{ResonanceVerdict, ResponseResult};
+use std::fmt::Write as _;
 use std::io::Write;
 
 /// Pa per m³/s in one bar per L/min.
@@ -270,22 +271,15 @@ pub fn csv(r: &ResponseResult, out: impl Write) -> Result<(), csv::Error> {
         .chain(std::iter::once((load.as_str(), &r.load_impedance_pa_s_m3)));
     // the frequencies formatted once for every curve, the values into
     // reused buffers: no allocation per row
-    let freqs: Vec<String> = r
-        .freqs_hz
-        .iter()
-        .map(|&f| {
-            let mut s = String::new();
-            push_float(&mut s, f);
-            s
-        })
-        .collect();
+    let freqs: Vec<String> = r.freqs_hz.iter().map(|f| format!("{f}")).collect();
     let (mut amplitude, mut phase_text) = (String::new(), String::new());
     for (name, values) in curves {
         for (f, v) in freqs.iter().zip(values) {
             amplitude.clear();
             phase_text.clear();
-            push_float(&mut amplitude, v.amplitude);
-            push_float(&mut phase_text, v.phase_deg);
+            // writing into a String cannot fail
+            let _ = write!(amplitude, "{}", v.amplitude);
+            let _ = write!(phase_text, "{}", v.phase_deg);
             w.write_record([name, f.as_str(), amplitude.as_str(), phase_text.as_str()])?;
         }
     }
