@@ -155,8 +155,11 @@ fn solve_peak_to_peak_is_the_plain_scan_bit_for_bit() {
     assert_eq!(points.len(), report.taps.len());
     assert!(points.len() > 100);
     for (p, tap) in points.iter().zip(&report.taps) {
-        let h: Vec<(u32, ripline::C64)> =
-            tap.harmonics.iter().map(|h| (h.order, h.pressure)).collect();
+        let h: Vec<(u32, ripline::C64)> = tap
+            .harmonics
+            .iter()
+            .map(|h| (h.order, h.pressure))
+            .collect();
         let e = ripline::analysis::waveform::extremes_by_scan(&h);
         assert_eq!(
             p.peak_to_peak_pa.to_bits(),

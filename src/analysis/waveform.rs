@@ -146,7 +146,11 @@ impl Period {
     /// The samples and their factors for waveforms of `orders`.
     pub fn new(orders: &[u32]) -> Self {
         let max_order = orders.iter().copied().max().unwrap_or(0);
-        let n = if max_order == 0 { 0 } else { samples(max_order) };
+        let n = if max_order == 0 {
+            0
+        } else {
+            samples(max_order)
+        };
         let step = if n == 0 {
             0.0
         } else {
@@ -433,10 +437,19 @@ mod tests {
                 let amplitude = match case % 4 {
                     0 => 1.0 / f64::from(k),
                     1 => rand(),
-                    2 => if j + 1 == count { 5.0 } else { 0.1 * rand() },
+                    2 => {
+                        if j + 1 == count {
+                            5.0
+                        } else {
+                            0.1 * rand()
+                        }
+                    }
                     _ => 1e5 * rand() / f64::from(k * k),
                 };
-                h.push((k, C64::from_polar(amplitude, std::f64::consts::TAU * rand())));
+                h.push((
+                    k,
+                    C64::from_polar(amplitude, std::f64::consts::TAU * rand()),
+                ));
             }
             cases.push(h);
         }
