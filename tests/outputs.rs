@@ -709,7 +709,8 @@ fn fit_prints_values_and_uncertainties_in_one_unit() {
 
 /// `fit --self-check`: the JSON holds the keys docs/json.md lists and the
 /// CSV's statistics; `--include-flagged` moves the flagged harmonics into
-/// the overall levels (the demo bench's are flagged, so the levels rise).
+/// the overall levels (the demo bench as first designed has flagged
+/// harmonics, so the levels rise).
 #[test]
 fn fit_self_check_writes_documented_json_and_csv() {
     let dir = scratch("fit-check");
@@ -744,9 +745,20 @@ fn fit_self_check_writes_documented_json_and_csv() {
         same(row[5].parse().unwrap(), num(&q["bias"]));
         same(row[7].parse().unwrap(), num(&q["spread_over_sigma"]));
     }
+    // A bench with flagged harmonics: the demo as first designed (a 10 mm
+    // line and its first two systems), synthesised into the scratch folder.
+    let flagged = path(&dir, "flagged.yaml");
+    let demo = std::fs::read_to_string(bench).unwrap();
+    let (cut, end) = (
+        demo.find("  - name: long line, open valve").unwrap(),
+        demo.find("synthesis:").unwrap(),
+    );
+    let old = format!("{}{}", &demo[..cut], &demo[end..]).replace("bore: 25 mm", "bore: 10 mm");
+    std::fs::write(&flagged, old).unwrap();
+    ok(&["synth", &flagged]);
     let rms = |extra: &[&str]| {
         let f = path(&dir, "f.json");
-        let mut args = vec!["fit", bench, "--draws", "0", "--json", &f];
+        let mut args = vec!["fit", &flagged, "--draws", "0", "--json", &f];
         args.extend(extra);
         ok(&args);
         let r = json(&f, "fit");
@@ -883,7 +895,7 @@ fn the_json_schema_document_lists_every_key() {
         .unwrap();
     let dir = scratch("json-doc");
     let damper = "networks/drill_rig_feed_damper.yaml";
-    let runs: [(&str, Vec<&str>); 11] = [
+    let runs: [(&str, Vec<&str>); 12] = [
         ("solve", vec![]),
         ("check", vec![]),
         ("profile", vec![]),
@@ -923,6 +935,16 @@ fn the_json_schema_document_lists_every_key() {
         (
             "fit",
             vec!["networks/bench/demo_bench.yaml", "--draws", "5"],
+        ),
+        (
+            "plan-bench",
+            vec![
+                "networks/bench/demo_bench.yaml",
+                "--draws",
+                "5",
+                "--points",
+                "2",
+            ],
         ),
         (
             "assess",

@@ -65,7 +65,11 @@ fn refused(o: &Output, fragments: &[&str]) {
 /// A copy of the demo bench (file and records) in `dir`.
 fn demo_bench(dir: &Path) -> PathBuf {
     std::fs::create_dir_all(dir.join("data")).unwrap();
-    for f in ["data/system_a.csv", "data/system_b.csv"] {
+    for f in [
+        "data/system_a.csv",
+        "data/system_b.csv",
+        "data/system_c.csv",
+    ] {
         std::fs::copy(repo(&format!("networks/bench/{f}")), dir.join(f)).unwrap();
     }
     let bench = dir.join("bench.yaml");
@@ -398,7 +402,7 @@ fn synth_writes_only_inside_its_folder() {
         refused(
             &o,
             &[
-                "b/bench.yaml:29:",
+                "b/bench.yaml:37:",
                 "conditions[1].records",
                 fragment,
                 "inside the --out-dir folder out",
@@ -413,7 +417,7 @@ fn synth_writes_only_inside_its_folder() {
     assert!(o.status.success(), "{}", stderr(&o));
     assert_eq!(
         files_in(&dir.join("out/data")),
-        ["system_a.csv", "system_b.csv"]
+        ["system_a.csv", "system_b.csv", "system_c.csv"]
     );
     std::fs::remove_dir_all(dir).unwrap();
 }

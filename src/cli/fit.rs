@@ -122,6 +122,7 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
         draws: args.draws,
         seed: args.seed,
         include_flagged: args.include_flagged,
+        stated_uncertainties: false,
     };
     let file = args.file.display().to_string();
     if let Some(seeds) = args.self_check {

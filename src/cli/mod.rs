@@ -14,6 +14,7 @@ mod common;
 mod compare;
 mod envelope;
 mod fit;
+mod plan_bench;
 mod profile;
 mod ranges;
 mod report;
@@ -51,6 +52,10 @@ enum Command {
     Fit(fit::FitArgs),
     /// Write synthetic bench records from a known source (for demos and tests).
     Synth(synth::SynthArgs),
+    /// Plan a bench before building it: conditioning and predicted
+    /// uncertainties per harmonic over a speed range, and the transducer
+    /// spacing and second system that keep every harmonic well conditioned.
+    PlanBench(plan_bench::PlanBenchArgs),
     /// Ripple amplitude along every tube and hose for one harmonic (the
     /// standing-wave pattern), as a table, CSV and a plot.
     Profile(profile::ProfileArgs),
@@ -111,6 +116,7 @@ pub fn main() -> ExitCode {
         Command::Check(args) => check::run(args),
         Command::Fit(args) => fit::run(args),
         Command::Synth(args) => synth::run(args),
+        Command::PlanBench(args) => plan_bench::run(args),
         Command::Profile(args) => profile::run(args),
         Command::Response(args) => response::run(args),
         Command::Silencer(args) => silencer::run(args),

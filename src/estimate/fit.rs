@@ -51,6 +51,10 @@ pub struct FitOptions {
     /// Include ill-conditioned, extrapolated and unstable harmonics in the
     /// overall levels.
     pub include_flagged: bool,
+    /// Take the phasor uncertainties as stated, without the χ² check of the
+    /// wave fits (for predicted, noise-free phasors that carry the
+    /// uncertainty of records not yet taken: `plan-bench`).
+    pub stated_uncertainties: bool,
 }
 
 impl Default for FitOptions {
@@ -59,6 +63,7 @@ impl Default for FitOptions {
             draws: 200,
             seed: 1,
             include_flagged: false,
+            stated_uncertainties: false,
         }
     }
 }
@@ -465,7 +470,11 @@ pub fn fit(
     // Perturbation sizes for the Monte Carlo: the phasor uncertainties
     // (scaled when the χ² check fails), or, where none is known, the
     // residual of the line's own over-determined wave fit.
-    let check = residual_check(&lines, &nominal.decomps, in_situ);
+    let check = if options.stated_uncertainties {
+        None
+    } else {
+        residual_check(&lines, &nominal.decomps, in_situ)
+    };
     let scale = check.filter(|c| c.applied).map_or(1.0, |c| c.factor);
     let dof = n_t.saturating_sub(2) as f64;
     let perturb: Vec<Option<Vec<f64>>> = lines

@@ -28,6 +28,7 @@
 
 pub mod bench;
 pub mod decompose;
+pub mod design;
 pub mod extract;
 pub mod fit;
 pub(crate) mod lines;

@@ -17,6 +17,7 @@ pub mod fit;
 pub mod fit_check;
 pub mod json;
 pub mod over_envelope;
+pub mod plan_bench;
 pub mod profile;
 pub mod report;
 pub mod response;

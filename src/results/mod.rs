@@ -21,6 +21,7 @@ pub mod fit;
 pub mod fit_check;
 pub mod inputs;
 pub mod over_envelope;
+pub mod plan_bench;
 pub mod profile;
 pub mod report;
 pub mod response;
