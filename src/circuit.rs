@@ -58,6 +58,42 @@ pub struct Circuit {
 }
 
 impl Circuit {
+    /// The nodes joined by each two-port (an element connected in series),
+    /// in compressed form: node i's neighbours are
+    /// `adjacent[first[i]..first[i + 1]]`, each with `weight` of the element
+    /// that joins them; both directions of every two-port, in element
+    /// order. Time and memory in proportion to the circuit (the connectivity
+    /// check of `network::Plan::compile` and the path distances of
+    /// `analysis::profile` share it).
+    pub fn two_port_adjacency<T: Copy + Default>(
+        &self,
+        weight: impl Fn(&Element) -> T,
+    ) -> (Vec<usize>, Vec<(NodeId, T)>) {
+        let n = self.nodes.len();
+        let mut first = vec![0usize; n + 1];
+        for e in &self.elements {
+            if let Connection::Series { a, b } = e.connection {
+                first[a + 1] += 1;
+                first[b + 1] += 1;
+            }
+        }
+        for i in 0..n {
+            first[i + 1] += first[i];
+        }
+        let mut next = first.clone();
+        let mut adjacent = vec![(0 as NodeId, T::default()); first[n]];
+        for e in &self.elements {
+            if let Connection::Series { a, b } = e.connection {
+                let w = weight(e);
+                adjacent[next[a]] = (b, w);
+                next[a] += 1;
+                adjacent[next[b]] = (a, w);
+                next[b] += 1;
+            }
+        }
+        (first, adjacent)
+    }
+
     /// The index of the node called `name`.
     pub fn node_id(&self, name: &str) -> Option<NodeId> {
         self.nodes.iter().position(|n| n.name == name)

@@ -132,3 +132,40 @@ fn commands_print_the_same_bytes_on_one_and_three_threads() {
     );
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+/// `solve` reports every point's peak-to-peak from the shared-table search
+/// (`waveform::Period`); it is the plain scan's value bit for bit
+/// (`waveform::extremes_by_scan`, the search as it was) at every node of a
+/// generated circuit without taps, here for 20 harmonics.
+#[test]
+fn solve_peak_to_peak_is_the_plain_scan_bit_for_bit() {
+    let mut circuit = generated(300, 4);
+    circuit.harmonics = 20;
+    let plan = Plan::compile(&circuit).unwrap();
+    let report = harmonic_ripple(&plan, 0, 20).unwrap();
+    let request = ripline::results::solve::SolveRequest {
+        harmonics: None,
+        speed: None,
+        db_ref_pa: (1e-6, ripline::results::Origin::Default),
+        waveform: false,
+    };
+    let result =
+        ripline::results::solve::solve(circuit.clone(), "generated.yaml", &request).unwrap();
+    let points = &result.sources[0].points;
+    assert_eq!(points.len(), report.taps.len());
+    assert!(points.len() > 100);
+    for (p, tap) in points.iter().zip(&report.taps) {
+        let h: Vec<(u32, ripline::C64)> = tap
+            .harmonics
+            .iter()
+            .map(|h| (h.order, h.pressure))
+            .collect();
+        let e = ripline::analysis::waveform::extremes_by_scan(&h);
+        assert_eq!(
+            p.peak_to_peak_pa.to_bits(),
+            (e.max.1 - e.min.1).to_bits(),
+            "{}",
+            p.point
+        );
+    }
+}

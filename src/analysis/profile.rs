@@ -142,28 +142,9 @@ pub fn path_distances(circuit: &Circuit, start: NodeId) -> Vec<Option<f64>> {
 /// [`path_distances`]; several pumps feed a circuit from several nodes).
 pub fn path_distances_from(circuit: &Circuit, starts: &[NodeId]) -> Vec<Option<f64>> {
     let n = circuit.nodes.len();
-    // adjacency in compressed form: (neighbour, step length)
-    let mut first = vec![0usize; n + 1];
-    for e in &circuit.elements {
-        if let Connection::Series { a, b } = e.connection {
-            first[a + 1] += 1;
-            first[b + 1] += 1;
-        }
-    }
-    for i in 0..n {
-        first[i + 1] += first[i];
-    }
-    let mut next = first.clone();
-    let mut adjacent = vec![(0 as NodeId, 0.0); first[n]];
-    for e in &circuit.elements {
-        if let Connection::Series { a, b } = e.connection {
-            let step = e.kind.line().map_or(0.0, |l| l.length_m);
-            adjacent[next[a]] = (b, step);
-            next[a] += 1;
-            adjacent[next[b]] = (a, step);
-            next[b] += 1;
-        }
-    }
+    // (neighbour, step length) of every two-port
+    let (first, adjacent) =
+        circuit.two_port_adjacency(|e| e.kind.line().map_or(0.0, |l| l.length_m));
     /// A heap entry, nearest first, then lowest node.
     #[derive(PartialEq)]
     struct Reached(f64, NodeId);

@@ -10,12 +10,14 @@
 //! * **Resonances** are peaks of |H| at any point, found on a logarithmic
 //!   frequency grid, kept when their prominence (the drop to the higher of
 //!   the two valleys that separate them from higher ground) is at least a
-//!   threshold, refined by golden-section search on |H| between the grid
-//!   neighbours (methods.md §7.2), and given a quality factor
+//!   threshold, refined between the grid neighbours (methods.md §7.2 refines
+//!   near peaks by golden-section; here a safeguarded parabolic search on
+//!   1/|H|², which lands on a Lorentzian peak in a step or two, to a
+//!   relative 1e-9 in frequency), and given a quality factor
 //!   Q = f0/(f2 − f1) from the half-power points |H(f1,2)| = |H(f0)|/√2
-//!   (found by bisection). Peaks of several points within a relative
-//!   tolerance of each other are one resonance, reported at the point where
-//!   it is highest.
+//!   (Illinois root search, to a relative 1e-10). Peaks of several points
+//!   within a relative tolerance of each other are one resonance, reported
+//!   at the point where it is highest.
 //! * **Harmonic bands.** Over a speed range n_lo..n_hi, harmonic k of the
 //!   pumping frequency sweeps k·z·n_lo .. k·z·n_hi (z pumping elements). A
 //!   resonance inside a band is crossed at speed n = f0/(k z); one within a
@@ -23,7 +25,6 @@
 //!   10–20 % away from a resonance).
 
 use super::ripple::{report_points, tap_pressure};
-use super::search::golden_section_max;
 use crate::circuit::TapLocation;
 use crate::network::{Plan, Solution, SolveError, Workspace};
 use num_complex::Complex64 as C64;
@@ -237,7 +238,17 @@ pub struct Resonance {
     pub seen_at: Vec<String>,
 }
 
-/// One point's peak before merging.
+/// Relative tolerance of a refined peak frequency: the search stops when
+/// the bracket around the best point is narrower than this fraction of the
+/// frequency.
+pub const PEAK_TOLERANCE: f64 = 1e-9;
+
+/// Relative tolerance of a half-power frequency (the bracket's width at the
+/// end, its midpoint returned): Q = f0/(f2 − f1) is then good to about
+/// 2e-10·Q relative.
+pub const HALF_POWER_TOLERANCE: f64 = 1e-10;
+
+/// One refined peak before merging.
 struct Peak {
     point: usize,
     freq_hz: f64,
@@ -247,6 +258,12 @@ struct Peak {
 }
 
 /// Finds the resonances in a computed response (see the module docs).
+///
+/// Each point's grid peaks are refined (a safeguarded parabolic search on
+/// 1/|H|², `worst::refine`, to [`PEAK_TOLERANCE`]; the half-power points by
+/// the Illinois method to [`HALF_POWER_TOLERANCE`]): some 20–30 solves
+/// each, where 60-step golden-section and bisection searches took about
+/// 180.
 ///
 /// # Errors
 /// [`SolveError`] from the refining solves (other than a singular matrix at
@@ -282,14 +299,22 @@ pub fn find_resonances(
             candidates.push((pi, i, left_valley, right_valley));
         }
     }
+    let heads: Vec<usize> = (0..candidates.len()).collect();
     // Each refinement is independent (its own solves), so they run in
     // parallel and are collected in order: the same peaks on any number of
-    // threads. About 150 solves each.
+    // threads. About 25 solves each.
+    let refine_settings = super::worst::WorstSettings {
+        tolerance_db: 0.0,
+        min_bracket: 0.0,
+        speed_tolerance: PEAK_TOLERANCE,
+        max_steps: 100,
+    };
     let peaks = crate::parallel::ordered_map(
-        &candidates,
-        crate::parallel::pays(plan.unknowns(), 150 * candidates.len()),
+        &heads,
+        crate::parallel::pays(plan.unknowns(), 25 * heads.len()),
         || plan.workspace(),
-        |ws, &(pi, i, left_valley, right_valley)| {
+        |ws, &c| {
+            let (pi, i, left_valley, right_valley) = candidates[c];
             let point = &response.points[pi];
             let mag = &mags[pi];
             // |H| at the point, or +∞ at an undamped pole.
@@ -300,23 +325,15 @@ pub fn find_resonances(
                     Err(e) => Err(e),
                 }
             };
-            // Golden-section refinement between the grid neighbours.
-            let mut failure = None;
-            let (f0, top) = golden_section_max(
-                |x| match eval(x, ws) {
-                    Ok(v) => v,
-                    Err(e) => {
-                        failure = Some(e);
-                        f64::NEG_INFINITY
-                    }
-                },
-                f[i - 1],
-                f[i + 1],
-                60,
-            );
-            if let Some(e) = failure {
-                return Err(e);
-            }
+            // The peak between the grid neighbours.
+            let (f0, top) = super::worst::refine(
+                |x| eval(x, ws),
+                (f[i - 1], mag[i - 1]),
+                (f[i + 1], mag[i + 1]),
+                Some((f[i], mag[i])),
+                &refine_settings,
+            )
+            .map_err(|(_, e)| e)?;
             let (f0, level, unbounded) = if top.is_finite() && top >= mag[i] {
                 (f0, top, false)
             } else if top.is_finite() {
@@ -328,8 +345,9 @@ pub fn find_resonances(
                 None
             } else {
                 let target = level / std::f64::consts::SQRT_2;
-                let lower = half_power(&mut eval, ws, f, mag, i, left_valley, f0, target)?;
-                let upper = half_power(&mut eval, ws, f, mag, i, right_valley, f0, target)?;
+                let peak = (f0, level);
+                let lower = half_power(&mut eval, ws, f, mag, i, left_valley, peak, target)?;
+                let upper = half_power(&mut eval, ws, f, mag, i, right_valley, peak, target)?;
                 match (lower, upper) {
                     (Some(a), Some(b)) => Some(f0 / (b - a)),
                     (Some(a), None) => Some(f0 / (2.0 * (f0 - a))),
@@ -348,9 +366,9 @@ pub fn find_resonances(
         },
         &mut |_| {},
     )?;
-    let mut peaks = peaks;
     // Merge: the highest peaks first, so each resonance is reported where it
     // is highest.
+    let mut peaks = peaks;
     peaks.sort_by(|a, b| {
         (b.unbounded, b.level)
             .partial_cmp(&(a.unbounded, a.level))
@@ -397,8 +415,8 @@ pub(crate) fn valley(mag: &[f64], i: usize, dir: isize) -> (usize, f64) {
     (best_i, best)
 }
 
-/// The frequency between the peak and its valley where |H| falls to
-/// `target`, by bisection between the last grid sample above it and the
+/// The frequency between the peak (f0, |H(f0)|) and its valley where |H|
+/// falls to `target`, bracketed by the last grid sample above it and the
 /// first below; `None` when the valley stays above it.
 #[allow(clippy::too_many_arguments)]
 fn half_power(
@@ -408,7 +426,7 @@ fn half_power(
     mag: &[f64],
     peak: usize,
     valley: usize,
-    f0: f64,
+    (f0, level): (f64, f64),
     target: f64,
 ) -> Result<Option<f64>, SolveError> {
     let (step, steps): (isize, usize) = if valley < peak {
@@ -416,30 +434,70 @@ fn half_power(
     } else {
         (1, valley - peak)
     };
-    let mut inside = f0; // |H| above target
+    let mut inside = (f0, level); // |H| above target
     for s in 1..=steps {
         let k = (peak as isize + step * s as isize) as usize;
         if mag[k] < target {
-            let mut outside = f[k];
             // The grid neighbour of the peak may lie on the far side of f0.
-            if (outside - f0) * step as f64 <= 0.0 {
+            if (f[k] - f0) * step as f64 <= 0.0 {
                 return Ok(None);
             }
-            for _ in 0..60 {
-                let mid = 0.5 * (inside + outside);
-                if eval(mid, ws)? >= target {
-                    inside = mid;
-                } else {
-                    outside = mid;
-                }
-            }
-            return Ok(Some(0.5 * (inside + outside)));
+            let found = crossing(|x| eval(x, ws), inside, (f[k], mag[k]), target)?;
+            return Ok(Some(found));
         }
         if (f[k] - f0) * step as f64 > 0.0 {
-            inside = f[k];
+            inside = (f[k], mag[k]);
         }
     }
     Ok(None)
+}
+
+/// Where |H| falls to `target` between `inside` (x, |H| ≥ target) and
+/// `outside` (|H| < target): the root of g = 1/|H|² − 1/target² (nearly a
+/// parabola in f near a resonance, Lorentzian) by the Illinois variant of
+/// regula falsi (Dowell & Jarratt 1971, BIT 11), which keeps the root
+/// bracketed and converges superlinearly, with a bisection step whenever
+/// two steps have not halved the bracket. Stops when the bracket is
+/// narrower than [`HALF_POWER_TOLERANCE`] of the frequency; returns its
+/// midpoint.
+fn crossing(
+    mut eval: impl FnMut(f64) -> Result<f64, SolveError>,
+    inside: (f64, f64),
+    outside: (f64, f64),
+    target: f64,
+) -> Result<f64, SolveError> {
+    let g = |v: f64| 1.0 / (v * v) - 1.0 / (target * target);
+    let ((mut a, mut ga), (mut b, mut gb)) = ((inside.0, g(inside.1)), (outside.0, g(outside.1)));
+    // which end the last step replaced: -1 inside, +1 outside
+    let mut last = 0;
+    let mut widths = [f64::INFINITY; 2];
+    for _ in 0..200 {
+        let width = (b - a).abs();
+        if width <= HALF_POWER_TOLERANCE * a.abs().max(b.abs()) {
+            break;
+        }
+        let (lo, hi) = (a.min(b), a.max(b));
+        let mut x = (a * gb - b * ga) / (gb - ga);
+        if width > 0.5 * widths[0] || !(x > lo && x < hi) {
+            x = 0.5 * (a + b);
+        }
+        widths = [widths[1], width];
+        let gx = g(eval(x)?);
+        if gx <= 0.0 {
+            (a, ga) = (x, gx);
+            if last == -1 {
+                gb *= 0.5;
+            }
+            last = -1;
+        } else {
+            (b, gb) = (x, gx);
+            if last == 1 {
+                ga *= 0.5;
+            }
+            last = 1;
+        }
+    }
+    Ok(0.5 * (a + b))
 }
 
 /// The frequency band a pump harmonic sweeps over the operating speed range.

@@ -61,6 +61,23 @@ impl TapRipple {
             .collect();
         waveform::peak_to_peak(&h)
     }
+
+    /// The same from a [`waveform::Period`] shared by the points (built for
+    /// this point's orders; the plain search otherwise): the same bits.
+    pub fn peak_to_peak_pa_with(&self, period: &waveform::Period) -> f64 {
+        let phasors: Vec<C64> = self.harmonics.iter().map(|h| h.pressure).collect();
+        if period.orders().len() != phasors.len()
+            || period
+                .orders()
+                .iter()
+                .zip(&self.harmonics)
+                .any(|(&k, h)| k != h.order)
+        {
+            return self.peak_to_peak_pa();
+        }
+        let e = period.extremes(&phasors);
+        e.max.1 - e.min.1
+    }
 }
 
 /// The ripple of one pump at every measurement point.

@@ -557,7 +557,7 @@ fn refine_worst(
 /// of its pumps, the resonances of the frequency response to that pump's
 /// source flow (`response::find_resonances`: peaks of |P/Qs| at any
 /// measurement point rising at least `min_rise_db` above the valleys either
-/// side, refined by golden-section search), on a logarithmic grid of 0.2 %
+/// side, each refined once where it is highest), on a logarithmic grid of 0.2 %
 /// steps from `f_lo_hz` to `f_hi_hz`; resonances of different pumps within
 /// 2 % of each other are one. Increasing in frequency.
 ///

@@ -246,8 +246,9 @@ fn lorentzian_peak(p: [(f64, f64); 3]) -> Option<(f64, f64)> {
 /// point, or two steps have not halved the bracket. The bracket is always
 /// the best point's two neighbours among the points evaluated. It stops by
 /// the rule of the module documentation. Returns the best point (x, f(x)),
-/// ends included.
-fn refine<E>(
+/// ends included. `response` refines its resonance peaks with it too
+/// (`super::response::find_resonances`, on |H| against frequency).
+pub(crate) fn refine<E>(
     mut f: impl FnMut(f64) -> Result<f64, E>,
     a: (f64, f64),
     b: (f64, f64),

@@ -437,27 +437,7 @@ fn reference_impedance(circuit: &Circuit) -> f64 {
 /// (a search over the node–two-port graph, linear in its size).
 fn check_connected(circuit: &Circuit) -> Result<(), NetworkError> {
     let n = circuit.nodes.len();
-    // adjacency of the two-ports in compressed form
-    let mut start = vec![0usize; n + 1];
-    for e in &circuit.elements {
-        if let Connection::Series { a, b } = e.connection {
-            start[a + 1] += 1;
-            start[b + 1] += 1;
-        }
-    }
-    for i in 0..n {
-        start[i + 1] += start[i];
-    }
-    let mut fill = start.clone();
-    let mut neighbours = vec![0 as NodeId; start[n]];
-    for e in &circuit.elements {
-        if let Connection::Series { a, b } = e.connection {
-            neighbours[fill[a]] = b;
-            fill[a] += 1;
-            neighbours[fill[b]] = a;
-            fill[b] += 1;
-        }
-    }
+    let (start, neighbours) = circuit.two_port_adjacency(|_| ());
     let mut reached = vec![false; n];
     let mut stack: Vec<NodeId> = circuit.pumps.iter().map(|p| p.node).collect();
     while let Some(node) = stack.pop() {
@@ -467,7 +447,8 @@ fn check_connected(circuit: &Circuit) -> Result<(), NetworkError> {
         stack.extend(
             neighbours[start[node]..start[node + 1]]
                 .iter()
-                .filter(|&&m| !reached[m]),
+                .map(|&(m, ())| m)
+                .filter(|&m| !reached[m]),
         );
     }
     for e in &circuit.elements {

@@ -218,6 +218,7 @@ pub fn charts(r: &PlanBenchResult) -> Vec<LineChart> {
                 .filter_map(|h| pick(h).filter(|v| *v > 0.0).map(|v| (h.freq_hz, v)))
                 .collect(),
             error_bars: None,
+            band: None,
             style: SeriesStyle::Points,
             color: None,
         };

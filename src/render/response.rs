@@ -7,6 +7,7 @@ use crate::analysis::response::{Coverage, HarmonicBand, Resonance};
 use crate::plot;
 use crate::results::response::VerdictRef;
 use crate::results::response::{ResonanceVerdict, ResponseResult};
+use std::fmt::Write as _;
 use std::io::Write;
 
 /// Pa per m³/s in one bar per L/min.
@@ -98,7 +99,7 @@ fn resonances(out: &mut impl Write, list: &[ResonanceVerdict]) -> std::io::Resul
     }
     writeln!(
         out,
-        "resonances (peaks with at least 3 dB prominence, refined by golden-section search; Q from the half-power points):"
+        "resonances (peaks with at least 3 dB prominence, each refined once where it is highest; Q from the half-power points):"
     )?;
     let mut t = Table::new(&[
         ("#", Align::Right),
@@ -285,27 +286,39 @@ pub fn csv(r: &ResponseResult, out: impl Write) -> Result<(), csv::Error> {
         .iter()
         .map(|p| (p.name.as_str(), &p.values_pa_per_m3_s))
         .chain(std::iter::once((load.as_str(), &r.load_impedance_pa_s_m3)));
-    let number = |x: f64| {
+    let number = |x: f64, out: &mut String| {
+        out.clear();
         if x.is_finite() {
-            format!("{x}")
-        } else {
-            String::new()
+            // writing into a String cannot fail
+            let _ = write!(out, "{x}");
         }
     };
+    // the frequencies formatted once for every curve, the values into
+    // reused buffers: no allocation per row
+    let freqs: Vec<String> = r.freqs_hz.iter().map(|f| format!("{f}")).collect();
+    let (mut amplitude, mut phase_text) = (String::new(), String::new());
+    let (mut low, mut high) = (String::new(), String::new());
     for (ci, (name, values)) in curves.enumerate() {
         let band = bands.and_then(|b| b.curves.get(ci));
-        for (fi, (f, v)) in r.freqs_hz.iter().zip(values).enumerate() {
-            let mut row = vec![
-                name.to_string(),
-                format!("{f}"),
-                format!("{}", v.amplitude),
-                format!("{}", v.phase_deg),
-            ];
+        for (fi, (f, v)) in freqs.iter().zip(values).enumerate() {
+            amplitude.clear();
+            phase_text.clear();
+            let _ = write!(amplitude, "{}", v.amplitude);
+            let _ = write!(phase_text, "{}", v.phase_deg);
             if bands.is_some() {
-                row.push(band.map_or(String::new(), |c| number(c.low[fi])));
-                row.push(band.map_or(String::new(), |c| number(c.high[fi])));
+                number(band.map_or(f64::NAN, |c| c.low[fi]), &mut low);
+                number(band.map_or(f64::NAN, |c| c.high[fi]), &mut high);
+                w.write_record([
+                    name,
+                    f.as_str(),
+                    amplitude.as_str(),
+                    phase_text.as_str(),
+                    low.as_str(),
+                    high.as_str(),
+                ])?;
+            } else {
+                w.write_record([name, f.as_str(), amplitude.as_str(), phase_text.as_str()])?;
             }
-            w.write_record(row)?;
         }
     }
     w.flush()?;

@@ -318,6 +318,11 @@ fn source(
     p_ref: f64,
     with_waveform: bool,
 ) -> SourceRipple {
+    let orders: Vec<u32> = report
+        .taps
+        .first()
+        .map_or_else(Vec::new, |t| t.harmonics.iter().map(|h| h.order).collect());
+    let period = waveform::Period::new(&orders);
     SourceRipple {
         name: report.pump.clone(),
         pumps: shaft
@@ -330,8 +335,9 @@ fn source(
         fundamental_elements: shaft.fundamental_elements,
         order_basis: OrderBasis::of(circuit, shaft),
         silent_orders: report.silent_orders.clone(),
-        // each point's peak-to-peak (a waveform search) on its own, in
-        // parallel; rayon's indexed collect keeps the order
+        // each point's peak-to-peak (a waveform search, its sample factors
+        // shared) on its own, in parallel; rayon's indexed collect keeps
+        // the order
         points: report
             .taps
             .par_iter()
@@ -348,7 +354,7 @@ fn source(
                     .collect(),
                 rms_pa: tap.rms_pa(),
                 level_db: level_db(tap.rms_pa(), p_ref),
-                peak_to_peak_pa: tap.peak_to_peak_pa(),
+                peak_to_peak_pa: tap.peak_to_peak_pa_with(&period),
                 waveform: with_waveform
                     .then(|| tap_waveform(tap, shaft.fundamental_elements, report.speed_rev_s)),
             })
