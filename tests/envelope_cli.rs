@@ -505,3 +505,90 @@ fn sweep_over_the_envelope_agrees_with_assess() {
         "{out}"
     );
 }
+
+// The envelope's `speed` is the machine's operating range: `response`,
+// `silencer`-style sweeps and `tune` read it before the pump's own
+// `speed_range` (here 1000–2000 rpm), as `assess` does, and say where the
+// range came from; `--speed-range` still overrides it. The harmonic bands
+// follow: the lowest pumping frequency is 1200 rpm × 9 pistons / 60 = 180 Hz
+// (f = n·z, the definition of the pumping frequency).
+#[test]
+fn the_envelope_speed_range_is_the_operating_range() {
+    let dir = scratch("envelope-speed");
+    let file = write(
+        &dir,
+        "speed.yaml",
+        &ENVELOPE.replace("envelope:\n", "envelope:\n  speed: [1200 rpm, 1800 rpm]\n"),
+    );
+    let read = |name: &str| -> serde_json::Value {
+        serde_json::from_str(&std::fs::read_to_string(dir.join(name)).unwrap()).unwrap()
+    };
+    let json = dir.join("response.json");
+    let o = ripline(&[
+        "response",
+        &file,
+        "--at",
+        "30 bar, 40 °C, open",
+        "--points",
+        "200",
+        "--json",
+        json.to_str().unwrap(),
+    ]);
+    let out = text(&o.stdout);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    assert!(
+        out.contains("1200–1800 rpm (the envelope's `speed`)"),
+        "{out}"
+    );
+    let doc = read("response.json");
+    let r = &doc["result"]["envelope_points"][0]["result"];
+    assert_eq!(r["speed_range"]["origin"], "envelope");
+    assert!((r["speed_range"]["low_rev_s"].as_f64().unwrap() - 20.0).abs() < 1e-12);
+    assert!((r["speed_range"]["high_rev_s"].as_f64().unwrap() - 30.0).abs() < 1e-12);
+    let band = &r["bands"][0];
+    assert!(
+        (band["low_hz"].as_f64().unwrap() - 180.0).abs() < 1e-9,
+        "{band}"
+    );
+    assert!(
+        (band["high_hz"].as_f64().unwrap() - 270.0).abs() < 1e-9,
+        "{band}"
+    );
+
+    let o = ripline(&[
+        "response",
+        &file,
+        "--at",
+        "30 bar, 40 °C, open",
+        "--points",
+        "200",
+        "--speed-range",
+        "1000..1100",
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stdout).contains("1000–1100 rpm (from --speed-range)"),
+        "{}",
+        text(&o.stdout)
+    );
+
+    let json = dir.join("sweep.json");
+    let o = ripline(&[
+        "sweep",
+        &file,
+        "--at",
+        "30 bar, 40 °C, open",
+        "--json",
+        json.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let inputs = read("sweep.json")["result"]["envelope_points"][0]["result"]["inputs"].clone();
+    let range = inputs
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|i| i["name"] == "speed_range")
+        .unwrap_or_else(|| panic!("{inputs}"))
+        .clone();
+    assert_eq!(range["origin"], "file", "{range}");
+}

@@ -131,14 +131,7 @@ pub fn run(args: AssessArgs) -> anyhow::Result<()> {
     };
     let bar = Progress::new(points.len(), "assessing the envelope");
     let result = assess(
-        AssessFile {
-            file: &file.file,
-            circuit: &file.circuit,
-            envelope,
-            limits: &file.limits,
-            pressure_pa: file.pressure_pa,
-            temperature_k: file.temperature_k,
-        },
+        AssessFile::of(&file),
         &points,
         &request,
         &mut |done, total| bar.set_of(done, total),

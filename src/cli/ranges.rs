@@ -176,7 +176,7 @@ pub struct SweepArgs {
     #[arg(long, value_name = "N")]
     points: Option<usize>,
     /// Operating speed range LOW..HIGH, in rpm unless a unit is given
-    /// (overrides the pump's `speed_range`).
+    /// (overrides the envelope's `speed` and the pump's `speed_range`).
     #[arg(long, value_name = "LOW..HIGH")]
     speed_range: Option<String>,
     /// The pump whose source flow drives the circuit (or a shaft: its
@@ -210,8 +210,14 @@ pub fn band_option(text: &str) -> anyhow::Result<(f64, f64)> {
 }
 
 impl SweepArgs {
-    /// Checks the options and looks the pump up in `circuit`.
-    pub fn resolve(&self, circuit: &Circuit) -> anyhow::Result<FrequencySweep> {
+    /// Checks the options and looks the pump up in `circuit`;
+    /// `envelope_speed_range` is the file's envelope `speed` (rev/s), used
+    /// when `--speed-range` is not given.
+    pub fn resolve(
+        &self,
+        circuit: &Circuit,
+        envelope_speed_range: Option<(f64, f64)>,
+    ) -> anyhow::Result<FrequencySweep> {
         let points = match self.points {
             Some(n) if !(10..=200_000).contains(&n) => {
                 return Err(UsageError(format!(
@@ -233,6 +239,7 @@ impl SweepArgs {
                 .as_deref()
                 .map(speed_range_option)
                 .transpose()?,
+            envelope_speed_range,
             band: self.band.as_deref().map(band_option).transpose()?,
             points,
             harmonics: super::common::harmonics_option(self.harmonics)?,

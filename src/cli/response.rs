@@ -62,8 +62,9 @@ pub fn run(args: ResponseArgs) -> anyhow::Result<()> {
     let mut outputs = Outputs::plan(&targets)?;
     let progress = Progress::new(0, "frequency response");
     let mut requests = Vec::new();
+    let envelope_speeds = at.speed_range_rev_s;
     let mut results = at.run(|circuit, source| {
-        let sweep = args.sweep.resolve(&circuit)?;
+        let sweep = args.sweep.resolve(&circuit, envelope_speeds)?;
         let request = ResponseRequest {
             sweep,
             margin,

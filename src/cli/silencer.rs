@@ -77,8 +77,9 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
     targets.extend(plots.iter().map(|p| ("--plot", Some(p.as_path()))));
     let mut outputs = Outputs::plan(&targets)?;
     let progress = Progress::new(0, "transmission and insertion loss");
+    let envelope_speeds = at.speed_range_rev_s;
     let results = at.run(|circuit, source| {
-        let request = request(&args, &circuit)?;
+        let request = request(&args, &circuit, envelope_speeds)?;
         Ok(silencer(circuit, source, &request, &mut |done, total| {
             progress.set_of(done, total)
         })?)
@@ -121,7 +122,11 @@ pub fn run(args: SilencerArgs) -> anyhow::Result<()> {
 
 /// The request at one envelope point: the elements and the measurement
 /// point looked up in its circuit.
-fn request(args: &SilencerArgs, circuit: &ripline::Circuit) -> anyhow::Result<SilencerRequest> {
+fn request(
+    args: &SilencerArgs,
+    circuit: &ripline::Circuit,
+    envelope_speeds: Option<(f64, f64)>,
+) -> anyhow::Result<SilencerRequest> {
     let elements = args
         .element
         .iter()
@@ -148,6 +153,6 @@ fn request(args: &SilencerArgs, circuit: &ripline::Circuit) -> anyhow::Result<Si
             Without::ZeroLength => WithoutReference::ZeroLength,
         },
         tap: ranges::point(circuit, args.tap.as_deref())?,
-        sweep: args.sweep.resolve(circuit)?,
+        sweep: args.sweep.resolve(circuit, envelope_speeds)?,
     })
 }

@@ -98,8 +98,8 @@ pub fn run(args: SweepArgs) -> anyhow::Result<()> {
     );
     let mut outputs = Outputs::plan(&targets)?;
     let speed_range = match args.speed_range.as_deref() {
-        Some(text) => Some(ranges::speed_range_option(text)?),
-        None => at.speed_range_rev_s,
+        Some(text) => Some((ranges::speed_range_option(text)?, Origin::Request)),
+        None => at.speed_range_rev_s.map(|r| (r, Origin::File)),
     };
     let step_rev_s = args
         .speed_step

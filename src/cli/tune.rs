@@ -219,12 +219,11 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     }
     let loaded = common::load_circuit(Some(&args.file))?;
     let smallest = args.objective == ObjectiveArg::Smallest;
-    let file = if args.envelope || smallest {
-        Some(ripline::io::load_circuit_file(&args.file)?)
-    } else {
-        None
-    };
-    let envelope = if let (true, Some(file)) = (args.envelope, &file) {
+    // The file with its envelope and limits: the envelope's `speed` is the
+    // operating speed range unless --speed-range is given.
+    let file = ripline::io::load_circuit_file(&args.file)?;
+    let envelope_speeds = file.envelope.as_ref().and_then(|e| e.speed_range_rev_s);
+    let envelope = if args.envelope {
         if file.envelope.is_none() {
             return Err(UsageError(format!(
                 "--envelope: {} has no `envelope` section",
@@ -246,25 +245,24 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
     let circuit = &loaded.circuit;
     let (fluid_states, notes) = fluid_states(&args)?;
     let pump_index = ranges::pump_index(circuit, args.pump.as_deref())?;
-    let goal = match &file {
-        Some(f) if smallest => {
-            if f.limits.is_empty() {
-                return Err(UsageError(format!(
-                    "--objective smallest: {} has no `limits` section to meet",
-                    args.file.display()
-                ))
-                .into());
-            }
-            Some(LimitGoal {
-                limits: f.limits.clone(),
-                shaft: Some(circuit.pumps[pump_index].name.clone()),
-                size: match args.size {
-                    SizeArg::Volume => SizeMeasure::Volume,
-                    SizeArg::Length => SizeMeasure::Length,
-                },
-            })
+    let goal = if smallest {
+        if file.limits.is_empty() {
+            return Err(UsageError(format!(
+                "--objective smallest: {} has no `limits` section to meet",
+                args.file.display()
+            ))
+            .into());
         }
-        _ => None,
+        Some(LimitGoal {
+            limits: file.limits.clone(),
+            shaft: Some(circuit.pumps[pump_index].name.clone()),
+            size: match args.size {
+                SizeArg::Volume => SizeMeasure::Volume,
+                SizeArg::Length => SizeMeasure::Length,
+            },
+        })
+    } else {
+        None
     };
     let request = TuneRequest {
         element: ranges::element(circuit, &args.element)?,
@@ -281,6 +279,7 @@ pub fn run(args: TuneArgs) -> anyhow::Result<()> {
             .as_deref()
             .map(ranges::speed_range_option)
             .transpose()?,
+        envelope_speed_range: envelope_speeds,
         speed_points,
         harmonics: common::harmonics_option(args.harmonics)?,
         objective: match args.objective {

@@ -82,6 +82,20 @@ pub struct AssessFile<'a> {
     pub temperature_k: Option<f64>,
 }
 
+impl<'a> AssessFile<'a> {
+    /// The parts of a read circuit file that an assessment uses.
+    pub fn of(file: &'a crate::io::CircuitFile) -> Self {
+        AssessFile {
+            file: &file.file,
+            circuit: &file.circuit,
+            envelope: file.envelope.as_ref(),
+            limits: &file.limits,
+            pressure_pa: file.pressure_pa,
+            temperature_k: file.temperature_k,
+        }
+    }
+}
+
 /// Assesses the circuits of the envelope's points (each resolved at its
 /// point, in the envelope's order); `progress(done, total)` follows the
 /// points.

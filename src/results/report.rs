@@ -181,6 +181,8 @@ pub fn report(
         },
     )?;
     part(&mut done, progress);
+    // the operating range `assess` uses: the envelope's `speed` first
+    let envelope_speed_range = file.envelope.as_ref().and_then(|e| e.speed_range_rev_s);
     let mut resonances = Vec::with_capacity(circuit.pumps.len());
     for pump_index in 0..circuit.pumps.len() {
         let base = done;
@@ -191,6 +193,7 @@ pub fn report(
                 sweep: FrequencySweep {
                     pump_index,
                     harmonics: request.harmonics,
+                    envelope_speed_range,
                     ..FrequencySweep::default()
                 },
                 margin: request.margin,
@@ -221,6 +224,7 @@ pub fn report(
                     tap: (tap.name.clone(), tap.location),
                     sweep: FrequencySweep {
                         harmonics: request.harmonics,
+                        envelope_speed_range,
                         ..FrequencySweep::default()
                     },
                 },
@@ -358,19 +362,7 @@ fn over_envelope(
         top: TOP_FINDINGS,
         floor_db: FINDINGS_FLOOR_DB,
     };
-    let result = assess(
-        AssessFile {
-            file: &file.file,
-            circuit: &file.circuit,
-            envelope,
-            limits: &file.limits,
-            pressure_pa: file.pressure_pa,
-            temperature_k: file.temperature_k,
-        },
-        points,
-        &request,
-        progress,
-    );
+    let result = assess(AssessFile::of(file), points, &request, progress);
     match result {
         Ok(a) => Ok((Some(a), None)),
         Err(Error::Request(reason)) if envelope.is_none() && file.limits.is_empty() => {

@@ -303,7 +303,12 @@ pub fn response(
     ));
     let (ranking, ranking_origin) = request.ranking;
     inputs.extend(ranking.inputs(ranking_origin));
-    let speeds = speed_range(&circuit, pump_index, request.sweep.speed_range);
+    let speeds = speed_range(
+        &circuit,
+        pump_index,
+        request.sweep.speed_range,
+        request.sweep.envelope_speed_range,
+    );
     let grid = grid(
         &circuit,
         pump_index,

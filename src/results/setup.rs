@@ -18,6 +18,8 @@ pub struct FrequencySweep {
     pub speed_rev_s: Option<f64>,
     /// The operating speed range (rev/s) instead of the file's.
     pub speed_range: Option<(f64, f64)>,
+    /// The `speed` range of the file's `envelope` (rev/s), if it has one.
+    pub envelope_speed_range: Option<(f64, f64)>,
     /// Harmonics per pump, overriding the circuit's.
     pub harmonics: Option<u32>,
     /// The band in Hz.
@@ -32,6 +34,8 @@ pub struct FrequencySweep {
 pub enum RangeOrigin {
     /// Given on the command line (`--speed-range`).
     Request,
+    /// The `speed` range of the circuit file's `envelope`.
+    Envelope,
     /// The pump's own `speed_range`.
     Pump,
     /// The `speed_range` of another pump on the same shaft.
@@ -82,6 +86,7 @@ impl SpeedRange {
     pub fn describe_origin(&self) -> String {
         match self.origin {
             RangeOrigin::Request => format!("{} (from --speed-range)", self.describe()),
+            RangeOrigin::Envelope => format!("{} (the envelope's `speed`)", self.describe()),
             RangeOrigin::Pump => format!("{} (the pump's `speed_range`)", self.describe()),
             RangeOrigin::Shaft => format!(
                 "{} (the `speed_range` of shaft `{}`)",
@@ -96,9 +101,11 @@ impl SpeedRange {
     }
 }
 
-/// The speed range of pump `pump_index`: `requested` (rev/s), else its
-/// own `speed_range`, else that of another pump on its shaft, else its
-/// speed alone.
+/// The speed range of pump `pump_index`: `requested` (rev/s), else the
+/// `speed` range of the file's envelope (`envelope`, rev/s: the machine's
+/// operating range, as `assess` reads it), else the pump's own
+/// `speed_range`, else that of another pump on its shaft, else its speed
+/// alone.
 ///
 /// # Panics
 /// If `pump_index` is out of range.
@@ -106,16 +113,18 @@ pub fn speed_range(
     circuit: &Circuit,
     pump_index: usize,
     requested: Option<(f64, f64)>,
+    envelope: Option<(f64, f64)>,
 ) -> SpeedRange {
     let pump = &circuit.pumps[pump_index];
     let shaft = shafts(&circuit.pumps)
         .into_iter()
         .find(|s| s.pumps.contains(&pump_index))
         .expect("every pump is on a shaft");
-    let (range, origin) = match (requested, pump.speed_range_rev_s) {
-        (Some(r), _) => (r, RangeOrigin::Request),
-        (None, Some(r)) => (r, RangeOrigin::Pump),
-        (None, None) => match shaft.speed_range_rev_s(&circuit.pumps) {
+    let (range, origin) = match (requested, envelope, pump.speed_range_rev_s) {
+        (Some(r), _, _) => (r, RangeOrigin::Request),
+        (None, Some(r), _) => (r, RangeOrigin::Envelope),
+        (None, None, Some(r)) => (r, RangeOrigin::Pump),
+        (None, None, None) => match shaft.speed_range_rev_s(&circuit.pumps) {
             Some(r) => (r, RangeOrigin::Shaft),
             None => ((pump.speed_rev_s, pump.speed_rev_s), RangeOrigin::PumpSpeed),
         },

@@ -222,7 +222,12 @@ pub fn silencer(
         })?
         .location;
     inputs.push(Input::text("tap", tap_name, Origin::Request));
-    let speeds = speed_range(circuit, pump_index, request.sweep.speed_range);
+    let speeds = speed_range(
+        circuit,
+        pump_index,
+        request.sweep.speed_range,
+        request.sweep.envelope_speed_range,
+    );
     let grid = grid(
         circuit,
         pump_index,

@@ -27,8 +27,9 @@ const SHOWN_WARNINGS: usize = 10;
 pub struct SweepRequest {
     /// The shaft swept.
     pub shaft: Shaft,
-    /// The speed range (rev/s); `None`: the shaft's `speed_range`.
-    pub speed_range: Option<(f64, f64)>,
+    /// The speed range (rev/s) and where it came from (the command line or
+    /// the file's envelope); `None`: the shaft's `speed_range`.
+    pub speed_range: Option<((f64, f64), Origin)>,
     /// The speed step (rev/s); `None`: the range / [`DEFAULT_STEPS`].
     pub step_rev_s: Option<f64>,
     /// Harmonics per pump, overriding the circuit's.
@@ -165,7 +166,7 @@ pub fn sweep(
         None => Input::number("harmonics", circuit.harmonics.into(), "1", Origin::File),
     });
     let ((low, high), range_origin) = match request.speed_range {
-        Some(r) => (r, Origin::Request),
+        Some(r) => r,
         None => (
             shaft.speed_range_rev_s(&circuit.pumps).ok_or_else(|| {
                 Error::Request(format!(

@@ -37,6 +37,8 @@ pub struct TuneRequest {
     pub speed_rev_s: Option<f64>,
     /// The operating speed range (rev/s) instead of the file's.
     pub speed_range: Option<(f64, f64)>,
+    /// The `speed` range of the file's `envelope` (rev/s), if it was read.
+    pub envelope_speed_range: Option<(f64, f64)>,
     /// Number of speeds across the range, and where it came from.
     pub speed_points: (usize, Origin),
     /// Harmonics per pump, overriding the circuit's.
@@ -401,7 +403,12 @@ pub fn tune(
         request.speed_points.1,
     ));
     inputs.push(Input::number("db_ref", p_ref, "Pa", ref_origin));
-    let speeds = speed_range(circuit, pump_index, request.speed_range);
+    let speeds = speed_range(
+        circuit,
+        pump_index,
+        request.speed_range,
+        request.envelope_speed_range,
+    );
     let conditions = speed_conditions(
         speeds.rev_s(),
         if speeds.is_single() {
