@@ -115,7 +115,10 @@ fn solve(d: &Path, file: &str, rpm: f64, bar: f64) -> (Vec<C64>, Vec<String>) {
 }
 
 fn close(a: &[C64], b: &[C64], rel: f64) -> bool {
-    a.len() == b.len() && a.iter().zip(b).all(|(x, y)| (x - y).norm() <= rel * y.norm())
+    a.len() == b.len()
+        && a.iter()
+            .zip(b)
+            .all(|(x, y)| (x - y).norm() <= rel * y.norm())
 }
 
 #[test]
@@ -140,7 +143,11 @@ fn a_map_is_exact_at_its_points_and_linear_between() {
     let g = grid();
     let mid = |a: &PumpSource, b: &PumpSource, t: f64| -> PumpSource {
         let mut c = a.clone();
-        for (h, (ha, hb)) in c.harmonics.iter_mut().zip(a.harmonics.iter().zip(&b.harmonics)) {
+        for (h, (ha, hb)) in c
+            .harmonics
+            .iter_mut()
+            .zip(a.harmonics.iter().zip(&b.harmonics))
+        {
             h.flow = lerp_polar(ha.flow, hb.flow, t);
             h.impedance = lerp_polar(ha.impedance, hb.impedance, t);
         }
@@ -171,7 +178,10 @@ fn outside_the_map_the_edge_is_held_with_a_warning() {
     // 2600 rpm and 250 bar: the 2000 rpm, 200 bar condition held (its flow
     // not scaled with speed), with a warning naming the point and range.
     let (map, w) = solve(&d, "map.yaml", 2600.0, 250.0);
-    let msg = w.iter().find(|w| w.contains("outside its source map")).expect("a warning");
+    let msg = w
+        .iter()
+        .find(|w| w.contains("outside its source map"))
+        .expect("a warning");
     assert!(
         msg.contains("2600 rpm at 250 bar") && msg.contains("1000 .. 2000 rpm, 100 .. 200 bar"),
         "{msg}"
@@ -192,8 +202,9 @@ fn one_speed_scales_in_proportion_and_says_so() {
     write_single(&d.join("one.yaml"), &grid()[0]);
     let (at_2000, w) = solve(&d, "one.yaml", 2000.0, 100.0);
     assert!(
-        w.iter().any(|w| w.contains("holds one speed (1000 rpm)")
-            && w.contains("in proportion to speed")),
+        w.iter()
+            .any(|w| w.contains("holds one speed (1000 rpm)")
+                && w.contains("in proportion to speed")),
         "{w:?}"
     );
     // At 2000 rpm: the flow twice the written one (in proportion to
@@ -244,9 +255,17 @@ fn conditions_are_added_one_at_a_time_and_read_back() {
     // it repeats and its line.
     let again = condition(1005.0, 200.5, [1e-5, 1e-6], 0.0, [1e10, 1e10]);
     let msg = add_condition(&path, again).unwrap_err().to_string();
-    let line3 = text.lines().enumerate().filter(|(_, l)| l.contains("- speed:")).nth(2).unwrap().0 + 1;
+    let line3 = text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| l.contains("- speed:"))
+        .nth(2)
+        .unwrap()
+        .0
+        + 1;
     assert!(
-        msg.contains(&format!("map.yaml:{line3}:")) && msg.contains("repeats condition 3 of the file (1000 rpm, 200 bar)"),
+        msg.contains(&format!("map.yaml:{line3}:"))
+            && msg.contains("repeats condition 3 of the file (1000 rpm, 200 bar)"),
         "{msg}"
     );
     // Other harmonics are refused.
@@ -268,7 +287,8 @@ fn bad_maps_are_refused_with_file_and_line_and_exit_2() {
     let cond = |rpm: u32, bar: Option<u32>, n: usize| -> String {
         format!(
             "  - speed: {rpm} rpm\n{}    harmonics:\n{}",
-            bar.map(|b| format!("    pressure: {b} bar\n")).unwrap_or_default(),
+            bar.map(|b| format!("    pressure: {b} bar\n"))
+                .unwrap_or_default(),
             harmonics(n)
         )
     };
@@ -276,7 +296,11 @@ fn bad_maps_are_refused_with_file_and_line_and_exit_2() {
     let cases: Vec<(String, &str, &str)> = vec![
         // a duplicate point (within 1 % and 1 bar): located at the second
         (
-            format!("{head}{}{}", cond(1000, Some(100), 2), cond(1005, Some(100), 2)),
+            format!(
+                "{head}{}{}",
+                cond(1000, Some(100), 2),
+                cond(1005, Some(100), 2)
+            ),
             ":9:",
             "repeats condition 1 (1000 rpm, 100 bar, line 4)",
         ),
@@ -299,7 +323,11 @@ fn bad_maps_are_refused_with_file_and_line_and_exit_2() {
         ),
         // mixed harmonic counts
         (
-            format!("{head}{}{}", cond(1000, Some(100), 2), cond(2000, Some(100), 1)),
+            format!(
+                "{head}{}{}",
+                cond(1000, Some(100), 2),
+                cond(2000, Some(100), 1)
+            ),
             ":11:",
             "condition 2 lists harmonics 1 where condition 1 lists 1 .. 2",
         ),
@@ -308,7 +336,10 @@ fn bad_maps_are_refused_with_file_and_line_and_exit_2() {
         let map = d.join(format!("bad{i}.yaml"));
         std::fs::write(&map, text).unwrap();
         let msg = parse_source(text, "bad.yaml").unwrap_err().to_string();
-        assert!(msg.starts_with(&format!("bad.yaml{at}")) && msg.contains(what), "case {i}: {msg}");
+        assert!(
+            msg.starts_with(&format!("bad.yaml{at}")) && msg.contains(what),
+            "case {i}: {msg}"
+        );
         // Through the CLI: exit 2, the source file and line named, nothing
         // written.
         let circuit = d.join(format!("circuit{i}.yaml"));
@@ -322,12 +353,20 @@ fn bad_maps_are_refused_with_file_and_line_and_exit_2() {
         .unwrap();
         let csv = d.join(format!("out{i}.csv"));
         let out = Command::new(env!("CARGO_BIN_EXE_ripline"))
-            .args(["solve", circuit.to_str().unwrap(), "--csv", csv.to_str().unwrap()])
+            .args([
+                "solve",
+                circuit.to_str().unwrap(),
+                "--csv",
+                csv.to_str().unwrap(),
+            ])
             .output()
             .unwrap();
         let err = String::from_utf8_lossy(&out.stderr);
         assert_eq!(out.status.code(), Some(2), "case {i}: {err}");
-        assert!(err.contains(&format!("bad{i}.yaml{at}")) && err.contains(what), "case {i}: {err}");
+        assert!(
+            err.contains(&format!("bad{i}.yaml{at}")) && err.contains(what),
+            "case {i}: {err}"
+        );
         assert!(!csv.exists());
     }
     // A map of several pressures in a circuit without a mean pressure.
@@ -342,7 +381,10 @@ fn bad_maps_are_refused_with_file_and_line_and_exit_2() {
     )
     .unwrap();
     let msg = ripline::io::load_circuit(&circuit).unwrap_err().to_string();
-    assert!(msg.contains(":5:") && msg.contains("give the fluid's mean `pressure`"), "{msg}");
+    assert!(
+        msg.contains(":5:") && msg.contains("give the fluid's mean `pressure`"),
+        "{msg}"
+    );
     std::fs::remove_dir_all(d).unwrap();
 }
 
@@ -354,17 +396,21 @@ fn bad_maps_are_refused_with_file_and_line_and_exit_2() {
 fn fit_adds_conditions_and_refuses_a_repeat() {
     let d = dir("fit");
     let here = std::env::current_dir().unwrap();
-    let bench_text = std::fs::read_to_string("networks/bench/demo_bench.yaml").unwrap().replace(
-        "records: data/",
-        &format!("records: {}/networks/bench/data/", here.display()),
-    );
+    let bench_text = std::fs::read_to_string("networks/bench/demo_bench.yaml")
+        .unwrap()
+        .replace(
+            "records: data/",
+            &format!("records: {}/networks/bench/data/", here.display()),
+        );
     let bench = |bar: u32| {
         let p = d.join(format!("bench{bar}.yaml"));
         std::fs::write(
             &p,
             bench_text.replace(
                 "viscosity: 32 cSt}",
-                &format!("viscosity: 32 cSt, pressure: {bar} bar, grade: VG46, temperature: 45 degC}}"),
+                &format!(
+                    "viscosity: 32 cSt, pressure: {bar} bar, grade: VG46, temperature: 45 degC}}"
+                ),
             ),
         )
         .unwrap();
@@ -373,7 +419,13 @@ fn fit_adds_conditions_and_refuses_a_repeat() {
     let map = d.join("map.yaml");
     let fit = |bench: &Path| {
         Command::new(env!("CARGO_BIN_EXE_ripline"))
-            .args(["fit", bench.to_str().unwrap(), "--draws", "0", "--source-out"])
+            .args([
+                "fit",
+                bench.to_str().unwrap(),
+                "--draws",
+                "0",
+                "--source-out",
+            ])
             .arg(&map)
             .arg("--add-condition")
             .output()
@@ -382,11 +434,19 @@ fn fit_adds_conditions_and_refuses_a_repeat() {
     let o = fit(&bench(150));
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let one = std::fs::read_to_string(&map).unwrap();
-    assert!(one.contains("pressure: 150 bar") && one.contains("oil: \"VG46\"") && one.contains("temperature: 45 degC"), "{one}");
+    assert!(
+        one.contains("pressure: 150 bar")
+            && one.contains("oil: \"VG46\"")
+            && one.contains("temperature: 45 degC"),
+        "{one}"
+    );
     let o = fit(&bench(150));
     let err = String::from_utf8_lossy(&o.stderr);
     assert_eq!(o.status.code(), Some(2), "{err}");
-    assert!(err.contains("map.yaml:") && err.contains("repeats condition 1 of the file"), "{err}");
+    assert!(
+        err.contains("map.yaml:") && err.contains("repeats condition 1 of the file"),
+        "{err}"
+    );
     assert_eq!(std::fs::read_to_string(&map).unwrap(), one);
     let o = fit(&bench(250));
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
@@ -409,8 +469,15 @@ fn fit_adds_conditions_and_refuses_a_repeat() {
         .args(["solve", circuit.to_str().unwrap()])
         .output()
         .unwrap();
-    let all = format!("{}{}", String::from_utf8_lossy(&o.stdout), String::from_utf8_lossy(&o.stderr));
+    let all = format!(
+        "{}{}",
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    );
     assert!(o.status.success(), "{all}");
-    assert!(all.contains("holds one speed") && all.contains("several mean pressures"), "{all}");
+    assert!(
+        all.contains("holds one speed") && all.contains("several mean pressures"),
+        "{all}"
+    );
     std::fs::remove_dir_all(d).unwrap();
 }

@@ -216,7 +216,11 @@ impl SourceFile {
                 orders_text(&self.conditions[0].orders())
             ));
         }
-        if let Some(i) = self.conditions.iter().position(|c| c.test.pressure_pa.is_none()) {
+        if let Some(i) = self
+            .conditions
+            .iter()
+            .position(|c| c.test.pressure_pa.is_none())
+        {
             return Err(format!(
                 "condition {} of the file ({}) states no mean `pressure`: every condition of a map states one (add it to the file)",
                 i + 1,
@@ -228,7 +232,11 @@ impl SourceFile {
                 "this condition has no mean pressure: give the bench file's fluid a `pressure` (the mean outlet pressure)".into(),
             );
         }
-        if let Some(i) = self.conditions.iter().position(|c| same_point(c, &condition)) {
+        if let Some(i) = self
+            .conditions
+            .iter()
+            .position(|c| same_point(c, &condition))
+        {
             return Err(format!(
                 "this condition ({}) repeats condition {} of the file ({}): speeds within {:.0} % and mean pressures within {:.0} bar or {:.0} % are one point of the map",
                 condition.describe(),
@@ -261,7 +269,11 @@ fn orders_text(orders: &[u32]) -> String {
         [first, .., last] if orders.windows(2).all(|w| w[1] == w[0] + 1) => {
             format!("{first} .. {last}")
         }
-        _ => orders.iter().map(u32::to_string).collect::<Vec<_>>().join(", "),
+        _ => orders
+            .iter()
+            .map(u32::to_string)
+            .collect::<Vec<_>>()
+            .join(", "),
     }
 }
 
@@ -344,8 +356,14 @@ pub fn add_condition(path: &Path, condition: PumpSource) -> Result<SourceFile, I
             root.key("speed")
         }
     };
-    let repeated = source.conditions.iter().position(|c| same_point(c, &condition));
-    let missing = source.conditions.iter().position(|c| c.test.pressure_pa.is_none());
+    let repeated = source
+        .conditions
+        .iter()
+        .position(|c| same_point(c, &condition));
+    let missing = source
+        .conditions
+        .iter()
+        .position(|c| c.test.pressure_pa.is_none());
     source.with_condition(condition).map_err(|m| {
         let path = match (repeated, missing) {
             (Some(i), _) | (None, Some(i)) => at(i),
@@ -401,7 +419,10 @@ fn parse(text: &str, file: &str, full_grid: bool) -> Result<SourceFile, InputErr
                 ));
             }
             if list.is_empty() {
-                return Err(err(&root.key("conditions"), "no condition is listed".into()));
+                return Err(err(
+                    &root.key("conditions"),
+                    "no condition is listed".into(),
+                ));
             }
             list.into_iter()
                 .enumerate()
@@ -430,7 +451,10 @@ fn parse(text: &str, file: &str, full_grid: bool) -> Result<SourceFile, InputErr
             String::new()
         };
         let Some(speed) = c.speed.map(|s| s.si) else {
-            return Err(err(cp, format!("{which}has no `speed` (e.g. `speed: 1500 rpm`)")));
+            return Err(err(
+                cp,
+                format!("{which}has no `speed` (e.g. `speed: 1500 rpm`)"),
+            ));
         };
         if !(0.1..=1000.0).contains(&speed) {
             return Err(err(
@@ -457,9 +481,9 @@ fn parse(text: &str, file: &str, full_grid: bool) -> Result<SourceFile, InputErr
             ));
         }
         let temperature = c.temperature.map(|t| t.si);
-        if let Some(t) = temperature.filter(|t| {
-            !(crate::oil::celsius(-40.0)..=crate::oil::celsius(150.0)).contains(t)
-        }) {
+        if let Some(t) = temperature
+            .filter(|t| !(crate::oil::celsius(-40.0)..=crate::oil::celsius(150.0)).contains(t))
+        {
             return Err(err(
                 &cp.key("temperature"),
                 format!(

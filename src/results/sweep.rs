@@ -232,7 +232,10 @@ pub fn sweep(
     let mut warnings = notices(&crate::diagnostics::circuit_warnings(&circuit, top_hz));
     for w in crate::diagnostics::source_map_warnings(&circuit, Some((low, high))) {
         let n = Notice::from(&w);
-        if !warnings.iter().any(|o| o.subject == n.subject && o.message.contains("outside its source map")) {
+        if !warnings
+            .iter()
+            .any(|o| o.subject == n.subject && o.message.contains("outside its source map"))
+        {
             warnings.push(n);
         }
     }

@@ -231,7 +231,8 @@ impl SourceMap {
             }
             column_of[i] = column_first.len() - 1;
         }
-        let mut cell: Vec<Vec<Option<usize>>> = vec![vec![None; column_first.len()]; level_first.len()];
+        let mut cell: Vec<Vec<Option<usize>>> =
+            vec![vec![None; column_first.len()]; level_first.len()];
         for i in 0..points.len() {
             let slot = &mut cell[level_of[i]][column_of[i]];
             if let Some(j) = *slot {
@@ -272,7 +273,12 @@ impl SourceMap {
         }
         let levels: Vec<Vec<MapPoint>> = cell
             .into_iter()
-            .map(|row| row.into_iter().flatten().map(|i| points[i].clone()).collect())
+            .map(|row| {
+                row.into_iter()
+                    .flatten()
+                    .map(|i| points[i].clone())
+                    .collect()
+            })
             .collect();
         let n = orders.len();
         Ok(SourceMap {
@@ -319,9 +325,15 @@ impl SourceMap {
 
     /// Whether harmonic `order` has source flow at any condition.
     pub fn lists_flow(&self, order: u32) -> bool {
-        self.orders.iter().position(|&k| k == order).is_some_and(|j| {
-            self.levels.iter().flatten().any(|p| p.flow[j] != C64::new(0.0, 0.0))
-        })
+        self.orders
+            .iter()
+            .position(|&k| k == order)
+            .is_some_and(|j| {
+                self.levels
+                    .iter()
+                    .flatten()
+                    .any(|p| p.flow[j] != C64::new(0.0, 0.0))
+            })
     }
 
     /// The harmonic orders the map lists.
@@ -339,7 +351,12 @@ impl SourceMap {
     /// The lowest and highest mean pressure of the map in Pa, if it states
     /// them.
     pub fn pressure_range_pa(&self) -> Option<(f64, f64)> {
-        let all: Vec<f64> = self.levels.iter().flatten().filter_map(|p| p.pressure_pa).collect();
+        let all: Vec<f64> = self
+            .levels
+            .iter()
+            .flatten()
+            .filter_map(|p| p.pressure_pa)
+            .collect();
         (!all.is_empty()).then(|| {
             (
                 all.iter().copied().fold(f64::INFINITY, f64::min),
@@ -450,7 +467,11 @@ impl SourceMap {
             return speed_rev_s;
         }
         let n = |(l, a, b, t): (usize, usize, usize, f64)| {
-            lerp(self.levels[l][a].speed_rev_s, self.levels[l][b].speed_rev_s, t)
+            lerp(
+                self.levels[l][a].speed_rev_s,
+                self.levels[l][b].speed_rev_s,
+                t,
+            )
         };
         lerp(n(st.sides[0]), n(st.sides[1]), st.s)
     }
@@ -565,7 +586,12 @@ mod tests {
     fn exact_at_the_points_and_bilinear_between() {
         // Exact at every condition: the same bits as written.
         let src = grid();
-        for (rpm, bar) in [(1000.0, 100.0), (2000.0, 100.0), (1000.0, 200.0), (2000.0, 200.0)] {
+        for (rpm, bar) in [
+            (1000.0, 100.0),
+            (2000.0, 100.0),
+            (1000.0, 200.0),
+            (2000.0, 200.0),
+        ] {
             let m = src.clone().at_pressure(Some(bar * 1e5));
             let want = src.levels[usize::from(bar > 150.0)][usize::from(rpm > 1500.0)].flow[0];
             assert_eq!(m.flow(1, rpm / 60.0), want);
@@ -585,7 +611,11 @@ mod tests {
         // Phase: along 100 bar from 170° the shorter way (+20°) to 190°:
         // 175°; along 200 bar 10° → 30°: 15°; then 175° → 15° by the
         // shorter way (−160°) at v = 0.6: 175 − 96 = 79°.
-        assert!((got.arg().to_degrees() - 79.0).abs() < 1e-9, "{}", got.arg().to_degrees());
+        assert!(
+            (got.arg().to_degrees() - 79.0).abs() < 1e-9,
+            "{}",
+            got.arg().to_degrees()
+        );
         // Linear along a level: at 100 bar halfway, |Q| = 2e-5 at 180°.
         let m = src.clone().at_pressure(Some(100e5));
         let got = m.flow(1, 1500.0 / 60.0);
@@ -660,7 +690,11 @@ mod tests {
         )
         .unwrap_err();
         assert_eq!(err.condition, Some(2));
-        assert!(err.message.contains("repeats condition 1"), "{}", err.message);
+        assert!(
+            err.message.contains("repeats condition 1"),
+            "{}",
+            err.message
+        );
         let err = SourceMap::new(
             9,
             vec![1],
@@ -676,12 +710,7 @@ mod tests {
             "{}",
             err.message
         );
-        let err = SourceMap::new(
-            9,
-            vec![1, 2],
-            vec![point(1000.0, 100.0, &one, &z)],
-        )
-        .unwrap_err();
+        let err = SourceMap::new(9, vec![1, 2], vec![point(1000.0, 100.0, &one, &z)]).unwrap_err();
         assert!(err.message.contains("same harmonics"), "{}", err.message);
     }
 }

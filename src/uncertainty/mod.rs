@@ -147,44 +147,60 @@ impl Inputs {
             // (conservative where the conditions differ). An amplitude of
             // zero has no relative uncertainty and is left.
             let single = src.conditions.len() == 1;
-            let orders: Vec<u32> = src.conditions[0].harmonics.iter().map(|h| h.order).collect();
+            let orders: Vec<u32> = src.conditions[0]
+                .harmonics
+                .iter()
+                .map(|h| h.order)
+                .collect();
             for (j, &order) in orders.iter().enumerate() {
-                let mut add = |what: &str, unit: &str, values: Vec<(f64, Option<f64>)>, flow: bool| {
-                    let acts = if flow {
-                        Acts::SourceFlow { pump, order }
-                    } else {
-                        Acts::SourceImpedance { pump, order }
+                let mut add =
+                    |what: &str, unit: &str, values: Vec<(f64, Option<f64>)>, flow: bool| {
+                        let acts = if flow {
+                            Acts::SourceFlow { pump, order }
+                        } else {
+                            Acts::SourceImpedance { pump, order }
+                        };
+                        let relative = values
+                            .iter()
+                            .filter(|(x, _)| *x > 0.0)
+                            .filter_map(|(x, u)| u.filter(|u| *u > 0.0).map(|u| u / x))
+                            .fold(None, |m: Option<f64>, r| Some(m.map_or(r, |m| m.max(r))));
+                        let Some(relative) = relative else { return };
+                        inputs.push(if single {
+                            Input {
+                                name: format!("{name} {what} harmonic {order}"),
+                                unit: unit.into(),
+                                nominal: values[0].0,
+                                spread: Spread::Standard,
+                                amount: values[0].1.unwrap_or(0.0),
+                                acts,
+                            }
+                        } else {
+                            Input {
+                                name: format!(
+                                    "{name} {what} harmonic {order} (factor over the source map)"
+                                ),
+                                unit: String::new(),
+                                nominal: 1.0,
+                                spread: Spread::Standard,
+                                amount: relative,
+                                acts,
+                            }
+                        });
                     };
-                    let relative = values
-                        .iter()
-                        .filter(|(x, _)| *x > 0.0)
-                        .filter_map(|(x, u)| u.filter(|u| *u > 0.0).map(|u| u / x))
-                        .fold(None, |m: Option<f64>, r| Some(m.map_or(r, |m| m.max(r))));
-                    let Some(relative) = relative else { return };
-                    inputs.push(if single {
-                        Input {
-                            name: format!("{name} {what} harmonic {order}"),
-                            unit: unit.into(),
-                            nominal: values[0].0,
-                            spread: Spread::Standard,
-                            amount: values[0].1.unwrap_or(0.0),
-                            acts,
-                        }
-                    } else {
-                        Input {
-                            name: format!("{name} {what} harmonic {order} (factor over the source map)"),
-                            unit: String::new(),
-                            nominal: 1.0,
-                            spread: Spread::Standard,
-                            amount: relative,
-                            acts,
-                        }
-                    });
-                };
-                let of = |f: &dyn Fn(&crate::io::source_file::SourceHarmonic) -> (f64, Option<f64>)| {
-                    src.conditions.iter().map(|c| f(&c.harmonics[j])).collect::<Vec<_>>()
-                };
-                add("|Qs|", "m³/s", of(&|h| (h.flow.norm(), h.flow_uncertainty)), true);
+                let of =
+                    |f: &dyn Fn(&crate::io::source_file::SourceHarmonic) -> (f64, Option<f64>)| {
+                        src.conditions
+                            .iter()
+                            .map(|c| f(&c.harmonics[j]))
+                            .collect::<Vec<_>>()
+                    };
+                add(
+                    "|Qs|",
+                    "m³/s",
+                    of(&|h| (h.flow.norm(), h.flow_uncertainty)),
+                    true,
+                );
                 add(
                     "|Zs|",
                     "Pa·s/m³",
