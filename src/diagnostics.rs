@@ -62,6 +62,62 @@ pub fn circuit_warnings(circuit: &Circuit, max_freq_hz: f64) -> Vec<Warning> {
     }
     out.extend(mean_flow_warnings(circuit));
     out.extend(component_warnings(circuit));
+    out.extend(source_map_warnings(circuit, None));
+    out
+}
+
+/// Notices about pumps whose source comes from a source file
+/// ([`crate::source::map`]): a file of one speed has its flow ripple scaled
+/// in proportion to speed (said, not silent); an operating point outside a
+/// map (beyond its grid tolerances) has the map's edge values held. The
+/// speeds checked are each pump's speed and speed range, or `speeds`
+/// (lowest, highest in rev/s) for the pumps of a sweep, when given.
+pub fn source_map_warnings(circuit: &Circuit, speeds: Option<(f64, f64)>) -> Vec<Warning> {
+    use crate::source::FlowRipple;
+    use crate::source::map::{bar, describe_point};
+    let mut out = Vec::new();
+    for p in &circuit.pumps {
+        let FlowRipple::Map(m) = &p.flow_ripple else {
+            continue;
+        };
+        let subject = format!("pump `{}`", p.name);
+        if m.single_speed() && speeds.is_none() {
+            let (n, _) = m.speed_range_rev_s();
+            out.push(Warning {
+                subject: subject.clone(),
+                message: format!(
+                    "its source file holds one speed ({:.0} rpm{}): at other speeds its source flow ripple is scaled in proportion to speed and its source impedance kept against frequency (common practice; a source map of several speeds is interpolated instead)",
+                    n * 60.0,
+                    if m.conditions() > 1 { ", several mean pressures" } else { "" }
+                ),
+            });
+        }
+        let (lo, hi) = speeds
+            .or(p.speed_range_rev_s)
+            .map_or((p.speed_rev_s, p.speed_rev_s), |(a, b)| {
+                (a.min(p.speed_rev_s), b.max(p.speed_rev_s))
+            });
+        let (at_lo, at_hi) = (m.outside(lo), m.outside(hi));
+        if !(at_lo.speed || at_hi.speed || at_lo.pressure) {
+            continue;
+        }
+        let speed_text = if speeds.is_some() || p.speed_range_rev_s.is_some() {
+            format!("speeds {:.0} .. {:.0} rpm", lo * 60.0, hi * 60.0)
+        } else {
+            describe_point(p.speed_rev_s, None)
+        };
+        let point = match m.pressure_pa() {
+            Some(pa) => format!("{speed_text} at {}", bar(pa)),
+            None => format!("{speed_text} with no mean pressure given"),
+        };
+        out.push(Warning {
+            subject,
+            message: format!(
+                "the operating point ({point}) lies outside its source map ({}): the values at the map's edge are held there",
+                m.describe_range()
+            ),
+        });
+    }
     out
 }
 

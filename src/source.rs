@@ -15,6 +15,7 @@
 
 pub mod gear;
 pub mod kinematic;
+pub mod map;
 pub mod piston;
 pub mod shaft;
 
@@ -22,6 +23,7 @@ use crate::elements::NodeId;
 use num_complex::Complex64 as C64;
 
 pub use kinematic::{KinematicRipple, PumpGeometry};
+pub use map::SourceMap;
 pub use shaft::{Shaft, shafts};
 
 /// One harmonic of a source flow ripple table.
@@ -54,6 +56,10 @@ pub enum FlowRipple {
     /// The kinematic ripple computed from the pump's geometry (harmonics up
     /// to [`kinematic::MAX_ORDER`], in proportion to speed).
     Kinematic(KinematicRipple),
+    /// A pump source file's map of conditions, evaluated at the operating
+    /// speed and the circuit's mean pressure ([`map`]; a map of one speed
+    /// scales in proportion to speed).
+    Map(Box<SourceMap>),
 }
 
 impl FlowRipple {
@@ -75,6 +81,7 @@ impl FlowRipple {
                     )
                 }),
             FlowRipple::Kinematic(k) => k.harmonic(order, speed_rev_s),
+            FlowRipple::Map(m) => m.flow(order, speed_rev_s),
         }
     }
 
@@ -97,6 +104,7 @@ impl FlowRipple {
                     .collect(),
             },
             FlowRipple::Kinematic(k) => FlowRipple::Kinematic(k.rotated(angle_rad)),
+            FlowRipple::Map(m) => FlowRipple::Map(Box::new(m.rotated(angle_rad))),
         }
     }
 }
@@ -131,12 +139,32 @@ pub enum SourceImpedance {
         /// Passage inertance L_p in kg/m⁴ (Pa·s²/m³).
         passage_inertance_kg_m4: f64,
     },
+    /// A pump source file's map of conditions: Zs against frequency at the
+    /// operating speed and the circuit's mean pressure ([`map`]). It
+    /// depends on the speed: see [`SourceImpedance::admittance_at`].
+    Map(Box<SourceMap>),
 }
 
 impl SourceImpedance {
-    /// Source admittance Ys = 1/Zs at ω.
+    /// Source admittance Ys = 1/Zs at ω with the shaft at `speed_rev_s`
+    /// (only a map depends on the speed).
+    pub fn admittance_at(&self, omega: f64, speed_rev_s: f64) -> C64 {
+        match self {
+            SourceImpedance::Map(m) => m
+                .impedance(omega / std::f64::consts::TAU, speed_rev_s)
+                .inv(),
+            other => other.admittance(omega),
+        }
+    }
+
+    /// Source admittance Ys = 1/Zs at ω; a map is taken at its lowest
+    /// speed here: use [`SourceImpedance::admittance_at`] (or
+    /// [`Pump::source_admittance`]) where a map may occur.
     pub fn admittance(&self, omega: f64) -> C64 {
         match self {
+            SourceImpedance::Map(m) => m
+                .impedance(omega / std::f64::consts::TAU, m.speed_range_rev_s().0)
+                .inv(),
             SourceImpedance::Volume {
                 capacitance_m3_pa,
                 leakage_resistance_pa_s_m3,
@@ -285,6 +313,7 @@ impl Pump {
                 harmonics.iter().map(|h| h.order).max().unwrap_or(0)
             }
             FlowRipple::Kinematic(_) => kinematic::MAX_ORDER,
+            FlowRipple::Map(m) => m.orders().iter().copied().max().unwrap_or(0),
         }
     }
 
@@ -292,7 +321,15 @@ impl Pump {
     /// a non-zero amplitude, or the kinematics give it). Harmonics without
     /// source flow excite nothing: reports, plots and tables leave them out.
     pub fn has_source_flow(&self, order: u32) -> bool {
-        self.flow_ripple_at(order, 1.0) != C64::new(0.0, 0.0)
+        match &self.flow_ripple {
+            FlowRipple::Map(m) => m.lists_flow(order),
+            _ => self.flow_ripple_at(order, 1.0) != C64::new(0.0, 0.0),
+        }
+    }
+
+    /// Source admittance Ys = 1/Zs at ω and the pump's speed.
+    pub fn source_admittance(&self, omega: f64) -> C64 {
+        self.source_impedance.admittance_at(omega, self.speed_rev_s)
     }
 
     /// Complex source flow ripple Qs of harmonic `order` at the pump's speed

@@ -68,6 +68,7 @@ fn source_file_pump_matches_inline_pump() {
                 }
             })
             .collect(),
+        test: Default::default(),
     };
     let dir = std::env::temp_dir().join(format!("ripline-srcfile-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();

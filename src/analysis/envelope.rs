@@ -339,6 +339,10 @@ pub fn assess(
                 .unwrap_or_default();
         for w in crate::diagnostics::circuit_warnings(circuit, band.1)
             .into_iter()
+            .chain(crate::diagnostics::source_map_warnings(
+                circuit,
+                Some((lo, hi)),
+            ))
             .chain(swept.warnings.iter().cloned())
         {
             add_warning(&mut warnings, w.to_string(), &label);

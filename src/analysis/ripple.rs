@@ -259,6 +259,9 @@ impl<'p, 'c> OrderSolver<'p, 'c> {
     pub(crate) fn solve(&mut self, order: u32, speed_rev_s: f64) -> Result<f64, SolveError> {
         let circuit = self.plan.circuit();
         let freq_hz = f64::from(order) * self.shaft.fundamental_hz(speed_rev_s);
+        for &i in &self.shaft.pumps {
+            self.workspace.set_pump_speed(i, speed_rev_s);
+        }
         self.shaft.injections(
             &circuit.pumps,
             order,

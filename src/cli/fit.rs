@@ -5,7 +5,7 @@ use super::common::{self, Outputs, UsageError};
 use clap::Args;
 use indicatif::{ProgressBar, ProgressStyle};
 use ripline::estimate::{FitOptions, Observer};
-use ripline::io::source_file::write_source_file;
+use ripline::io::source_file::{SourceFile, write_source_map};
 use ripline::plot;
 use ripline::render::fit as render;
 use ripline::results::Origin;
@@ -33,6 +33,12 @@ pub struct FitArgs {
     /// Write a pump source file that circuits read through `pump.source_file`.
     #[arg(long, value_name = "FILE")]
     source_out: Option<PathBuf>,
+    /// With --source-out: add this fit's condition (speed, the bench fluid's
+    /// mean pressure, oil and temperature) to the source file if it exists,
+    /// making or extending a source map, and refuse a condition it already
+    /// holds.
+    #[arg(long, requires = "source_out")]
+    add_condition: bool,
     /// Plot amplitude and phase of Qs and Zs against frequency (.svg or .png).
     #[arg(long, value_name = "FILE")]
     plot: Option<PathBuf>,
@@ -47,7 +53,7 @@ pub struct FitArgs {
     /// from the bench file's `synthesis` section at its noise (seeds from
     /// --seed on) and report per harmonic the bias, the spread over the
     /// reported uncertainty and the coverage (--csv and --json write that).
-    #[arg(long, value_name = "N", conflicts_with_all = ["source_out", "plot"])]
+    #[arg(long, value_name = "N", conflicts_with_all = ["source_out", "plot", "add_condition"])]
     self_check: Option<usize>,
 }
 
@@ -155,20 +161,42 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
 
     outputs.csv_to(csv.as_deref(), |buf| render::csv(&result, buf))?;
     if let Some(path) = &source_path {
+        let mut condition = result.pump_source();
+        condition.test = ripline::io::bench_file::test_conditions(&args.file)?;
+        let comment = format!(
+            "estimated by ripline fit from {file} ({} method); uncertainties are standard uncertainties of the amplitudes{}",
+            result.method,
+            result
+                .equivalent
+                .as_ref()
+                .map(|e| format!("\n{}", render::equivalent_text(e)))
+                .unwrap_or_default()
+        );
+        let source = if args.add_condition && path.exists() {
+            condition.test.origin = Some(format!("ripline fit {file}"));
+            ripline::io::source_file::add_condition(path, condition)?
+        } else {
+            SourceFile::single(condition)
+        };
+        let comment = if source.conditions.len() > 1 {
+            format!(
+                "a source map of {} conditions, the last added by ripline fit from {file}",
+                source.conditions.len()
+            )
+        } else {
+            comment
+        };
+        if source.conditions.len() > 1
+            && let Err(e) = source.map()
+        {
+            eprintln!(
+                "note: {}: {} (circuits read the map once it is complete)",
+                path.display(),
+                e.message
+            );
+        }
         let mut bytes = Vec::new();
-        write_source_file(
-            &result.pump_source(),
-            &mut bytes,
-            &format!(
-                "estimated by ripline fit from {file} ({} method); uncertainties are standard uncertainties of the amplitudes{}",
-                result.method,
-                result
-                    .equivalent
-                    .as_ref()
-                    .map(|e| format!("\n{}", render::equivalent_text(e)))
-                    .unwrap_or_default()
-            ),
-        )?;
+        write_source_map(&source, &mut bytes, &comment)?;
         outputs.bytes(path, &bytes)?;
     }
     outputs.plot_to(plot.as_deref(), |tmp| {

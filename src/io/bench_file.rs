@@ -223,6 +223,24 @@ pub fn load_bench(path: &Path) -> Result<Bench, InputError> {
     parse_bench(&text, &path.display().to_string())
 }
 
+/// The test conditions a bench file's `fluid` section states (oil grade,
+/// temperature, mean pressure), for the source file a fit writes. The file
+/// is read again; [`load_bench`] has validated it.
+///
+/// # Errors
+/// [`InputError`] when the file cannot be read or parsed.
+pub fn test_conditions(path: &Path) -> Result<super::source_file::TestConditions, InputError> {
+    let text = super::read_text(path)?;
+    let raw: RawBench = super::parse_yaml(&text, &path.display().to_string())?;
+    let (oil, temperature_k, pressure_pa) = raw.fluid.test_conditions();
+    Ok(super::source_file::TestConditions {
+        pressure_pa,
+        oil,
+        temperature_k,
+        origin: None,
+    })
+}
+
 /// Parses and validates bench text; `file` names it in messages and its
 /// folder is the base of record paths.
 ///
@@ -687,7 +705,16 @@ impl Checker<'_> {
                 )
             }
             (None, None, Some(f)) => {
-                let src = super::source_file::load_source_file(&self.base().join(f))?;
+                let file = super::source_file::load_source_file(&self.base().join(f))?;
+                let Some(src) = file.only() else {
+                    return Err(self.err(
+                        &sp.key("source_file"),
+                        format!(
+                            "{f} is a source map of {} conditions: synthesis needs the source at one condition (a file of one condition)",
+                            file.conditions.len()
+                        ),
+                    ));
+                };
                 let z = src
                     .source_impedance()
                     .map_err(|m| self.err(&sp.key("source_file"), m))?;

@@ -31,7 +31,7 @@ use crate::hose::{
 use crate::limits;
 use crate::line::{Line, LineModel, LineProperties, MeanFlow};
 use crate::oil::{self, Grade, OilData, Walther};
-use crate::source::{FlowHarmonic, FlowRipple, KinematicRipple, Pump};
+use crate::source::{FlowHarmonic, FlowRipple, KinematicRipple, Pump, SourceImpedance};
 use pumps::{RawGear, RawPiston, RawSourceImpedance};
 use serde::Deserialize;
 use std::collections::{HashMap, HashSet};
@@ -74,6 +74,18 @@ pub(crate) struct RawFluid {
     density: Option<Q<q::Density>>,
     bulk_modulus: Option<Q<q::Modulus>>,
     viscosity: Option<Q<q::KinematicViscosity>>,
+}
+
+impl RawFluid {
+    /// The oil grade, temperature (K) and mean pressure (gauge Pa) as
+    /// written, if given.
+    pub(crate) fn test_conditions(&self) -> (Option<String>, Option<f64>, Option<f64>) {
+        (
+            self.grade.clone(),
+            self.temperature.map(|t| t.si),
+            self.pressure.map(|p| p.si),
+        )
+    }
 }
 
 #[derive(Debug, Deserialize)]
@@ -587,18 +599,26 @@ pub fn source_file_notes(text: &str, file: &str) -> Vec<crate::diagnostics::Warn
         let Ok(src) = super::source_file::load_source_file(&base.join(name)) else {
             continue;
         };
-        for h in src.harmonics.iter().filter(|h| {
-            h.order <= solved && h.status != crate::estimate::fit::HarmonicStatus::Estimated
-        }) {
-            out.push(crate::diagnostics::Warning {
-                subject: format!("pump `{}`", p.name.as_deref().unwrap_or("pump")),
-                message: format!(
-                    "{name}: harmonic {} is marked `{}` by the bench fit{}; its values are used as written and may be biased",
-                    h.order,
-                    h.status.key(),
-                    h.note.as_deref().map(|n| format!(" ({n})")).unwrap_or_default()
-                ),
-            });
+        let several = src.conditions.len() > 1;
+        for c in &src.conditions {
+            let at = if several {
+                format!(" at {}", c.describe())
+            } else {
+                String::new()
+            };
+            for h in c.harmonics.iter().filter(|h| {
+                h.order <= solved && h.status != crate::estimate::fit::HarmonicStatus::Estimated
+            }) {
+                out.push(crate::diagnostics::Warning {
+                    subject: format!("pump `{}`", p.name.as_deref().unwrap_or("pump")),
+                    message: format!(
+                        "{name}: harmonic {}{at} is marked `{}` by the bench fit{}; its values are used as written and may be biased",
+                        h.order,
+                        h.status.key(),
+                        h.note.as_deref().map(|n| format!(" ({n})")).unwrap_or_default()
+                    ),
+                });
+            }
         }
     }
     out
@@ -886,7 +906,7 @@ impl Checker<'_> {
             ));
         }
         for (i, (path, raw_pump)) in raw_pumps.iter().enumerate() {
-            let mut pump = self.pump(path, raw_pump, &circuit, &node_ids)?;
+            let mut pump = self.pump(path, raw_pump, &circuit, &node_ids, mean_pressure)?;
             if raw.pumps.is_some() && raw_pump.name.is_none() {
                 pump.name = format!("pump {}", i + 1);
             }
@@ -1634,6 +1654,7 @@ impl Checker<'_> {
         raw: &RawPump,
         circuit: &Circuit,
         node_ids: &HashMap<String, usize>,
+        mean_pressure: Option<f64>,
     ) -> Res<Pump> {
         let node = node_ids.get(raw.node.as_str()).copied().ok_or_else(|| {
             self.err(
@@ -1676,9 +1697,37 @@ impl Checker<'_> {
                 })?)
             }
         };
-        let speed = match (raw.speed, &file_source) {
+        // A source file as a map at the circuit's mean pressure.
+        let file_map = match &file_source {
+            None => None,
+            Some(src) => {
+                let map = src
+                    .map()
+                    .map_err(|e| self.err(&path.key("source_file"), e.message))?;
+                if map.needs_pressure() && mean_pressure.is_none() {
+                    return Err(self.err(
+                        &path.key("source_file"),
+                        format!(
+                            "the source map holds several mean pressures ({}): give the fluid's mean `pressure` (the operating point at which the map is read)",
+                            map.describe_range()
+                        ),
+                    ));
+                }
+                Some(map.at_pressure(mean_pressure))
+            }
+        };
+        let speed = match (raw.speed, &file_map) {
             (Some(v), _) => self.in_range(&path.key("speed"), v.si, 0.1, 1000.0, "rev/s")?,
-            (None, Some(src)) => src.speed_rev_s,
+            (None, Some(map)) if map.single_speed() => map.speed_range_rev_s().0,
+            (None, Some(map)) => {
+                return Err(self.err(
+                    path,
+                    format!(
+                        "the source map holds several speeds ({}): give the pump's `speed` (e.g. `speed: 1500 rpm`)",
+                        map.describe_range()
+                    ),
+                ));
+            }
             (None, None) => {
                 return Err(self.err(path, "the pump needs `speed` (e.g. `speed: 1500 rpm`)"));
             }
@@ -1755,11 +1804,10 @@ impl Checker<'_> {
             s => s.clone(),
         };
         let shaft_angle = raw.shaft_angle.map_or(0.0, |a| a.si);
-        let (flow_ripple, source_impedance) = match file_source {
-            Some(src) => (
-                src.flow_ripple(),
-                src.source_impedance()
-                    .map_err(|m| self.err(&path.key("source_file"), m))?,
+        let (flow_ripple, source_impedance) = match file_map {
+            Some(map) => (
+                FlowRipple::Map(Box::new(map.clone())),
+                SourceImpedance::Map(Box::new(map)),
             ),
             None => {
                 let Some(zs) = &raw.source_impedance else {

@@ -1,11 +1,15 @@
 //! Pump source files: a pump's Norton parameters per harmonic, as estimated
 //! on a bench (`ripline fit --source-out`) or typed in from a datasheet, and
-//! read by circuit files through `pump.source_file`.
+//! read by circuit files through `pump.source_file`; at one operating
+//! condition, or a map of several (speeds × mean pressures).
 //!
 //! ```yaml
 //! # ripline pump source
 //! pump: bench pump A           # a name
 //! speed: 1500 rpm              # shaft speed of the measurement
+//! pressure: 100 bar            # optional: mean outlet pressure (gauge)
+//! oil: ISO VG 46               # optional test conditions: the oil,
+//! temperature: 50 degC         #   its temperature
 //! pumping_elements: 9
 //! harmonics:
 //!   - harmonic: 1
@@ -20,11 +24,18 @@
 //!     note: "…"                     # optional: why, and the bias to expect
 //! ```
 //!
+//! A map lists its conditions under `conditions`, each with `speed`,
+//! `pressure` (both required), the optional `oil`, `temperature` and
+//! `origin`, and its `harmonics` (the same orders in every condition).
+//! Conditions must form a full grid of speeds × mean pressures, no two at
+//! one point (within the tolerances of [`crate::source::map`]). Circuits
+//! evaluate a map at their operating point ([`crate::source::map`]).
+//!
 //! A harmonic whose status is not `estimated` is still used by circuits,
 //! with a warning (see [`source_file_notes`](super::circuit_file::source_file_notes)).
 //!
-//! The flow ripple becomes a harmonic table at the measured speed (scaled in
-//! proportion to speed elsewhere) and the impedance a table against
+//! A file of one condition (or of one speed) is used as before: the flow
+//! ripple scaled in proportion to speed, the impedance a table against
 //! frequency k·f_p at the measured speed, interpolated between harmonics.
 
 use super::InputError;
@@ -32,6 +43,7 @@ use super::locate::KeyPath;
 use super::quantity::{self as q, Q};
 use crate::C64;
 use crate::estimate::fit::HarmonicStatus;
+use crate::source::map::{self, MapError, MapPoint, SourceMap};
 use crate::source::{FlowHarmonic, FlowRipple, ImpedanceTable, SourceImpedance};
 use serde::Deserialize;
 use std::io::Write;
@@ -56,7 +68,20 @@ pub struct SourceHarmonic {
     pub note: Option<String>,
 }
 
-/// A pump's Norton parameters per harmonic at one speed.
+/// The test conditions of a measured condition, besides its speed.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct TestConditions {
+    /// Mean outlet pressure (gauge) in Pa.
+    pub pressure_pa: Option<f64>,
+    /// The oil (a grade or a name).
+    pub oil: Option<String>,
+    /// Oil temperature in K.
+    pub temperature_k: Option<f64>,
+    /// Where the data come from (e.g. the bench file a fit read).
+    pub origin: Option<String>,
+}
+
+/// A pump's Norton parameters per harmonic at one condition.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PumpSource {
     /// The pump's name.
@@ -70,6 +95,8 @@ pub struct PumpSource {
     pub pumping_elements: u32,
     /// The harmonics, in increasing order.
     pub harmonics: Vec<SourceHarmonic>,
+    /// Mean pressure, oil and temperature of the measurement.
+    pub test: TestConditions,
 }
 
 impl PumpSource {
@@ -107,18 +134,178 @@ impl PumpSource {
             .collect();
         ImpedanceTable::new(&points).map(SourceImpedance::Table)
     }
+
+    /// "1500 rpm" or "1500 rpm, 100 bar".
+    pub fn describe(&self) -> String {
+        map::describe_point(self.speed_rev_s, self.test.pressure_pa)
+    }
+
+    fn orders(&self) -> Vec<u32> {
+        self.harmonics.iter().map(|h| h.order).collect()
+    }
+}
+
+/// A pump source file: one condition, or a map of several.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SourceFile {
+    /// The pump's name.
+    pub name: String,
+    /// Number of pumping elements.
+    pub pumping_elements: u32,
+    /// The conditions, in file order (each with the name and number of
+    /// pumping elements above).
+    pub conditions: Vec<PumpSource>,
+}
+
+impl SourceFile {
+    /// A file of the one condition `source`.
+    pub fn single(source: PumpSource) -> Self {
+        SourceFile {
+            name: source.name.clone(),
+            pumping_elements: source.pumping_elements,
+            conditions: vec![source],
+        }
+    }
+
+    /// The condition, if the file holds only one.
+    pub fn only(&self) -> Option<&PumpSource> {
+        match self.conditions.as_slice() {
+            [one] => Some(one),
+            _ => None,
+        }
+    }
+
+    /// The conditions as a [`SourceMap`] (not yet at a pressure).
+    ///
+    /// # Errors
+    /// [`MapError`] when the conditions do not form a map (see
+    /// [`SourceMap::new`]).
+    pub fn map(&self) -> Result<SourceMap, MapError> {
+        let orders = self.conditions[0].orders();
+        let points = self
+            .conditions
+            .iter()
+            .map(|c| MapPoint {
+                speed_rev_s: c.speed_rev_s,
+                pressure_pa: c.test.pressure_pa,
+                flow: c.harmonics.iter().map(|h| h.flow).collect(),
+                impedance: c.harmonics.iter().map(|h| h.impedance).collect(),
+            })
+            .collect();
+        SourceMap::new(self.pumping_elements, orders, points)
+    }
+
+    /// The file with `condition` added.
+    ///
+    /// # Errors
+    /// A message when the condition is of a pump with another number of
+    /// pumping elements, lists other harmonics, has no mean pressure, or
+    /// repeats a condition of the file (within the map's tolerances; the
+    /// message names the condition it repeats).
+    pub fn with_condition(mut self, condition: PumpSource) -> Result<Self, String> {
+        if condition.pumping_elements != self.pumping_elements {
+            return Err(format!(
+                "the file is of a pump with {} pumping elements; this condition's pump has {}",
+                self.pumping_elements, condition.pumping_elements
+            ));
+        }
+        if condition.orders() != self.conditions[0].orders() {
+            return Err(format!(
+                "this condition lists harmonics {} where the file's conditions list {}: every condition of a map lists the same harmonics (give the fit the same --harmonics)",
+                orders_text(&condition.orders()),
+                orders_text(&self.conditions[0].orders())
+            ));
+        }
+        if let Some(i) = self
+            .conditions
+            .iter()
+            .position(|c| c.test.pressure_pa.is_none())
+        {
+            return Err(format!(
+                "condition {} of the file ({}) states no mean `pressure`: every condition of a map states one (add it to the file)",
+                i + 1,
+                self.conditions[i].describe()
+            ));
+        }
+        if condition.test.pressure_pa.is_none() {
+            return Err(
+                "this condition has no mean pressure: give the bench file's fluid a `pressure` (the mean outlet pressure)".into(),
+            );
+        }
+        if let Some(i) = self
+            .conditions
+            .iter()
+            .position(|c| same_point(c, &condition))
+        {
+            return Err(format!(
+                "this condition ({}) repeats condition {} of the file ({}): speeds within {:.0} % and mean pressures within {:.0} bar or {:.0} % are one point of the map",
+                condition.describe(),
+                i + 1,
+                self.conditions[i].describe(),
+                map::SPEED_TOLERANCE * 100.0,
+                map::PRESSURE_TOLERANCE_PA / 1e5,
+                map::PRESSURE_TOLERANCE * 100.0
+            ));
+        }
+        self.conditions.push(condition);
+        Ok(self)
+    }
+}
+
+/// Whether two conditions are one point of a map.
+fn same_point(a: &PumpSource, b: &PumpSource) -> bool {
+    map::same_speed(a.speed_rev_s, b.speed_rev_s)
+        && match (a.test.pressure_pa, b.test.pressure_pa) {
+            (Some(x), Some(y)) => map::same_pressure(x, y),
+            (None, None) => true,
+            _ => false,
+        }
+}
+
+/// "1, 2, 3" or "1 .. 10" for consecutive orders.
+fn orders_text(orders: &[u32]) -> String {
+    match orders {
+        [] => "none".into(),
+        [first, .., last] if orders.windows(2).all(|w| w[1] == w[0] + 1) => {
+            format!("{first} .. {last}")
+        }
+        _ => orders
+            .iter()
+            .map(u32::to_string)
+            .collect::<Vec<_>>()
+            .join(", "),
+    }
 }
 
 #[derive(Debug, Deserialize)]
 #[serde(
     deny_unknown_fields,
-    expecting = "a pump source: a mapping with pump, speed, pumping_elements and harmonics"
+    expecting = "a pump source: a mapping with pump, pumping_elements, and speed with harmonics (or conditions)"
 )]
 struct RawSource {
     pump: Option<String>,
-    speed: Q<q::ShaftSpeed>,
     pumping_elements: u32,
-    harmonics: Vec<RawSourceHarmonic>,
+    speed: Option<Q<q::ShaftSpeed>>,
+    pressure: Option<Q<q::Pressure>>,
+    oil: Option<String>,
+    temperature: Option<Q<q::Temperature>>,
+    origin: Option<String>,
+    harmonics: Option<Vec<RawSourceHarmonic>>,
+    conditions: Option<Vec<RawCondition>>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(
+    deny_unknown_fields,
+    expecting = "a condition: a mapping with speed, pressure and harmonics (and optionally oil, temperature, origin)"
+)]
+struct RawCondition {
+    speed: Option<Q<q::ShaftSpeed>>,
+    pressure: Option<Q<q::Pressure>>,
+    oil: Option<String>,
+    temperature: Option<Q<q::Temperature>>,
+    origin: Option<String>,
+    harmonics: Option<Vec<RawSourceHarmonic>>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -138,45 +325,249 @@ struct RawSourceHarmonic {
     note: Option<String>,
 }
 
-/// Reads and validates a pump source file.
+/// Reads and validates a pump source file: one condition, or a map whose
+/// conditions form a full grid.
 ///
 /// # Errors
 /// [`InputError`] naming the file, line and key at fault.
-pub fn load_source_file(path: &Path) -> Result<PumpSource, InputError> {
+pub fn load_source_file(path: &Path) -> Result<SourceFile, InputError> {
     let text = super::read_text(path)?;
     parse_source(&text, &path.display().to_string())
+}
+
+/// The source file at `path` with `condition` added (see
+/// [`SourceFile::with_condition`]); a map that is not yet a full grid is
+/// accepted (conditions are added one fit at a time).
+///
+/// # Errors
+/// [`InputError`] naming the file, line and key at fault: in the file as
+/// [`load_source_file`], or the condition the new one repeats (or the
+/// file's harmonics or pumping elements it does not match).
+pub fn add_condition(path: &Path, condition: PumpSource) -> Result<SourceFile, InputError> {
+    let text = super::read_text(path)?;
+    let file = path.display().to_string();
+    let source = parse(&text, &file, false)?;
+    let root = KeyPath::root();
+    let several = source.conditions.len() > 1;
+    let at = |i: usize| {
+        if several {
+            root.key("conditions").index(i)
+        } else {
+            root.key("speed")
+        }
+    };
+    let repeated = source
+        .conditions
+        .iter()
+        .position(|c| same_point(c, &condition));
+    let missing = source
+        .conditions
+        .iter()
+        .position(|c| c.test.pressure_pa.is_none());
+    source.with_condition(condition).map_err(|m| {
+        let path = match (repeated, missing) {
+            (Some(i), _) | (None, Some(i)) => at(i),
+            (None, None) if m.contains("harmonics") => root.key(if text.contains("conditions:") {
+                "conditions"
+            } else {
+                "harmonics"
+            }),
+            (None, None) => root.key("pumping_elements"),
+        };
+        InputError::located(&file, &text, &path, m)
+    })
 }
 
 /// Parses and validates pump source text; `file` names it in messages.
 ///
 /// # Errors
 /// [`InputError`] naming the file, line and key at fault.
-pub fn parse_source(text: &str, file: &str) -> Result<PumpSource, InputError> {
+pub fn parse_source(text: &str, file: &str) -> Result<SourceFile, InputError> {
+    parse(text, file, true)
+}
+
+/// The raw conditions and the key path of each: the file's own (one
+/// condition) or `conditions[i]`.
+type Conditions = Vec<(KeyPath, RawCondition)>;
+
+fn parse(text: &str, file: &str, full_grid: bool) -> Result<SourceFile, InputError> {
     let raw: RawSource = super::parse_yaml(text, file)?;
     let root = KeyPath::root();
     let err = |path: &KeyPath, msg: String| InputError::located(file, text, path, msg);
-    let speed = raw.speed.si;
-    if !(0.1..=1000.0).contains(&speed) {
-        return Err(err(
-            &root.key("speed"),
-            format!("speed {:.1} rpm is outside 6 .. 60000 rpm", speed * 60.0),
-        ));
-    }
     if !(1..=99).contains(&raw.pumping_elements) {
         return Err(err(
             &root.key("pumping_elements"),
             format!("must be between 1 and 99, found {}", raw.pumping_elements),
         ));
     }
-    if raw.harmonics.is_empty() {
-        return Err(err(
-            &root.key("harmonics"),
-            "no harmonics are listed".into(),
-        ));
+    let conditions: Conditions = match raw.conditions {
+        Some(list) => {
+            let top = [
+                ("speed", raw.speed.is_some()),
+                ("pressure", raw.pressure.is_some()),
+                ("oil", raw.oil.is_some()),
+                ("temperature", raw.temperature.is_some()),
+                ("origin", raw.origin.is_some()),
+                ("harmonics", raw.harmonics.is_some()),
+            ];
+            if let Some((key, _)) = top.iter().find(|(_, given)| *given) {
+                return Err(err(
+                    &root.key(key),
+                    format!(
+                        "a file with `conditions` gives `{key}` in each condition, not at the top"
+                    ),
+                ));
+            }
+            if list.is_empty() {
+                return Err(err(
+                    &root.key("conditions"),
+                    "no condition is listed".into(),
+                ));
+            }
+            list.into_iter()
+                .enumerate()
+                .map(|(i, c)| (root.key("conditions").index(i), c))
+                .collect()
+        }
+        None => vec![(
+            root.clone(),
+            RawCondition {
+                speed: raw.speed,
+                pressure: raw.pressure,
+                oil: raw.oil,
+                temperature: raw.temperature,
+                origin: raw.origin,
+                harmonics: raw.harmonics,
+            },
+        )],
+    };
+    let several = conditions.len() > 1;
+    let name = raw.pump.unwrap_or_else(|| "pump".into());
+    let mut out: Vec<PumpSource> = Vec::with_capacity(conditions.len());
+    for (i, (cp, c)) in conditions.iter().enumerate() {
+        let which = if several {
+            format!("condition {} ", i + 1)
+        } else {
+            String::new()
+        };
+        let Some(speed) = c.speed.map(|s| s.si) else {
+            return Err(err(
+                cp,
+                format!("{which}has no `speed` (e.g. `speed: 1500 rpm`)"),
+            ));
+        };
+        if !(0.1..=1000.0).contains(&speed) {
+            return Err(err(
+                &cp.key("speed"),
+                format!("speed {:.1} rpm is outside 6 .. 60000 rpm", speed * 60.0),
+            ));
+        }
+        let pressure = c.pressure.map(|p| p.si);
+        if several && pressure.is_none() {
+            return Err(err(
+                cp,
+                format!(
+                    "{which}has no mean `pressure` (e.g. `pressure: 100 bar`): every condition of a map states its speed and mean pressure"
+                ),
+            ));
+        }
+        if let Some(p) = pressure.filter(|p| !(-0.9e5..=1e8).contains(p)) {
+            return Err(err(
+                &cp.key("pressure"),
+                format!(
+                    "mean pressure {:.3} bar (gauge) is outside -0.9 .. 1000 bar: check the unit (a bare number is Pa)",
+                    p / 1e5
+                ),
+            ));
+        }
+        let temperature = c.temperature.map(|t| t.si);
+        if let Some(t) = temperature
+            .filter(|t| !(crate::oil::celsius(-40.0)..=crate::oil::celsius(150.0)).contains(t))
+        {
+            return Err(err(
+                &cp.key("temperature"),
+                format!(
+                    "{:.2} °C is outside -40 .. 150 °C: check the unit (a bare number is in K; write e.g. `50 degC`)",
+                    t - crate::oil::ZERO_CELSIUS_K
+                ),
+            ));
+        }
+        if c.oil.as_deref().is_some_and(|o| o.trim().is_empty()) {
+            return Err(err(&cp.key("oil"), "an oil name must not be empty".into()));
+        }
+        let Some(raw_harmonics) = &c.harmonics else {
+            return Err(err(cp, format!("{which}has no `harmonics`")));
+        };
+        let harmonics = parse_harmonics(raw_harmonics, &cp.key("harmonics"), &err)?;
+        let condition = PumpSource {
+            name: name.clone(),
+            speed_rev_s: speed,
+            speed_uncertainty_rev_s: None,
+            pumping_elements: raw.pumping_elements,
+            harmonics,
+            test: TestConditions {
+                pressure_pa: pressure,
+                oil: c.oil.clone(),
+                temperature_k: temperature,
+                origin: c.origin.clone(),
+            },
+        };
+        if let Some(first) = out.first().filter(|f| f.orders() != condition.orders()) {
+            return Err(err(
+                &cp.key("harmonics"),
+                format!(
+                    "{which}lists harmonics {} where condition 1 lists {}: every condition of a map lists the same harmonics",
+                    orders_text(&condition.orders()),
+                    orders_text(&first.orders())
+                ),
+            ));
+        }
+        if let Some(j) = out.iter().position(|o| same_point(o, &condition)) {
+            let line = super::locate::locate(text, &conditions[j].0)
+                .map(|(l, _)| format!(", line {l}"))
+                .unwrap_or_default();
+            return Err(err(
+                cp,
+                format!(
+                    "{which}({}) repeats condition {} ({}{line}): speeds within {:.0} % and mean pressures within {:.0} bar or {:.0} % are one point of the map",
+                    condition.describe(),
+                    j + 1,
+                    out[j].describe(),
+                    map::SPEED_TOLERANCE * 100.0,
+                    map::PRESSURE_TOLERANCE_PA / 1e5,
+                    map::PRESSURE_TOLERANCE * 100.0
+                ),
+            ));
+        }
+        out.push(condition);
     }
-    let mut harmonics: Vec<SourceHarmonic> = Vec::with_capacity(raw.harmonics.len());
-    for (i, h) in raw.harmonics.iter().enumerate() {
-        let hp = root.key("harmonics").index(i);
+    let source = SourceFile {
+        name,
+        pumping_elements: raw.pumping_elements,
+        conditions: out,
+    };
+    if full_grid && let Err(e) = source.map() {
+        let path = match e.condition {
+            Some(i) => conditions[i].0.clone(),
+            None => root.key("conditions"),
+        };
+        return Err(err(&path, e.message));
+    }
+    Ok(source)
+}
+
+/// The harmonics of one condition, checked.
+fn parse_harmonics(
+    raw: &[RawSourceHarmonic],
+    path: &KeyPath,
+    err: &impl Fn(&KeyPath, String) -> InputError,
+) -> Result<Vec<SourceHarmonic>, InputError> {
+    if raw.is_empty() {
+        return Err(err(path, "no harmonics are listed".into()));
+    }
+    let mut harmonics: Vec<SourceHarmonic> = Vec::with_capacity(raw.len());
+    for (i, h) in raw.iter().enumerate() {
+        let hp = path.index(i);
         if let Some(prev) = harmonics.last().filter(|p| h.harmonic <= p.order) {
             return Err(err(
                 &hp.key("harmonic"),
@@ -224,6 +615,10 @@ pub fn parse_source(text: &str, file: &str) -> Result<PumpSource, InputError> {
                 )
             })?,
         };
+        let bad = |v: &Option<Q<q::Flow>>| v.is_some_and(|u| u.si < 0.0);
+        if bad(&h.flow_uncertainty) || h.impedance_uncertainty.is_some_and(|u| u.si < 0.0) {
+            return Err(err(&hp, "uncertainties must not be negative".into()));
+        }
         harmonics.push(SourceHarmonic {
             order: h.harmonic,
             flow: C64::from_polar(h.flow_amplitude.si, h.flow_phase.si),
@@ -234,93 +629,129 @@ pub fn parse_source(text: &str, file: &str) -> Result<PumpSource, InputError> {
             note: h.note.clone(),
         });
     }
-    for (i, h) in harmonics.iter().enumerate() {
-        let bad = |v: Option<f64>| v.is_some_and(|u| u < 0.0);
-        if bad(h.flow_uncertainty) || bad(h.impedance_uncertainty) {
-            return Err(err(
-                &root.key("harmonics").index(i),
-                "uncertainties must not be negative".into(),
-            ));
-        }
-    }
-    Ok(PumpSource {
-        name: raw.pump.unwrap_or_else(|| "pump".into()),
-        speed_rev_s: speed,
-        speed_uncertainty_rev_s: None,
-        pumping_elements: raw.pumping_elements,
-        harmonics,
-    })
+    Ok(harmonics)
 }
 
-/// Writes a pump source file that [`load_source_file`] reads back: each
-/// value with the digits its standard uncertainty supports (JCGM 100:2008
-/// §7.2.6; [`crate::estimate::uncertainty::scientific`]), and with all of a
-/// double's digits where no uncertainty is known, so that such values read
-/// back exactly. Phases take the digits of the amplitude's relative
-/// uncertainty (for circular noise σ_φ = σ_A/|X| rad); the speed is written
-/// in rpm.
+/// Writes a pump source file of one condition that [`load_source_file`]
+/// reads back: see [`write_source_map`].
 ///
 /// # Errors
 /// The writer's I/O error.
 pub fn write_source_file<W: Write>(
     source: &PumpSource,
+    out: W,
+    comment: &str,
+) -> std::io::Result<()> {
+    write_source_map(&SourceFile::single(source.clone()), out, comment)
+}
+
+/// Writes a pump source file that [`load_source_file`] reads back (one
+/// condition as before; several under `conditions`): each value with the
+/// digits its standard uncertainty supports (JCGM 100:2008 §7.2.6;
+/// [`crate::estimate::uncertainty::scientific`]), and with all of a
+/// double's digits where no uncertainty is known, so that such values read
+/// back exactly. Phases take the digits of the amplitude's relative
+/// uncertainty (for circular noise σ_φ = σ_A/|X| rad); the speed is written
+/// in rpm, the mean pressure in bar, the temperature in °C.
+///
+/// # Errors
+/// The writer's I/O error.
+pub fn write_source_map<W: Write>(
+    source: &SourceFile,
     mut out: W,
     comment: &str,
 ) -> std::io::Result<()> {
-    use crate::estimate::uncertainty::{fixed, scientific};
     writeln!(out, "# ripline pump source")?;
     for line in comment.lines() {
         writeln!(out, "# {line}")?;
     }
     writeln!(out, "pump: {}", yaml_string(&source.name))?;
-    let rpm_u = source.speed_uncertainty_rev_s.map(|u| 60.0 * u);
+    match source.only() {
+        Some(one) => write_condition(&mut out, one, "", "", Some(source.pumping_elements)),
+        None => {
+            writeln!(out, "pumping_elements: {}", source.pumping_elements)?;
+            writeln!(out, "conditions:")?;
+            for c in &source.conditions {
+                write_condition(&mut out, c, "  - ", "    ", None)?;
+            }
+            Ok(())
+        }
+    }
+}
+
+/// One condition: its first line starts with `first`, the others with
+/// `indent`; `elements` is written after the speed (the one-condition form).
+fn write_condition<W: Write>(
+    out: &mut W,
+    c: &PumpSource,
+    first: &str,
+    indent: &str,
+    elements: Option<u32>,
+) -> std::io::Result<()> {
+    use crate::estimate::uncertainty::{fixed, scientific};
+    let rpm_u = c.speed_uncertainty_rev_s.map(|u| 60.0 * u);
     write!(
         out,
-        "speed: {} rpm",
-        fixed(60.0 * source.speed_rev_s, rpm_u)
+        "{first}speed: {} rpm",
+        fixed(60.0 * c.speed_rev_s, rpm_u)
     )?;
     match rpm_u {
         Some(u) => writeln!(out, "   # ± {u:.1e} rpm (standard uncertainty)")?,
         None => writeln!(out)?,
     }
-    writeln!(out, "pumping_elements: {}", source.pumping_elements)?;
-    writeln!(out, "harmonics:")?;
+    if let Some(p) = c.test.pressure_pa {
+        writeln!(out, "{indent}pressure: {} bar", p / 1e5)?;
+    }
+    if let Some(o) = &c.test.oil {
+        writeln!(out, "{indent}oil: {}", yaml_string(o))?;
+    }
+    if let Some(t) = c.test.temperature_k {
+        let celsius = ((t - crate::oil::ZERO_CELSIUS_K) * 1e9).round() / 1e9;
+        writeln!(out, "{indent}temperature: {celsius} degC")?;
+    }
+    if let Some(o) = &c.test.origin {
+        writeln!(out, "{indent}origin: {}", yaml_string(o))?;
+    }
+    if let Some(z) = elements {
+        writeln!(out, "{indent}pumping_elements: {z}")?;
+    }
+    writeln!(out, "{indent}harmonics:")?;
     // Amplitude and phase of a phasor; the phase's uncertainty is the
     // amplitude's over |X| (circular noise).
     let polar = |out: &mut W, name: &str, x: C64, u: Option<f64>, unit: &str| {
         writeln!(
             out,
-            "    {name}_amplitude: {} {unit}",
+            "{indent}    {name}_amplitude: {} {unit}",
             scientific(x.norm(), u)
         )?;
         let u_deg = u.map(|u| (u / x.norm()).to_degrees());
         writeln!(
             out,
-            "    {name}_phase: {} deg",
+            "{indent}    {name}_phase: {} deg",
             fixed(x.arg().to_degrees(), u_deg)
         )
     };
-    for h in &source.harmonics {
-        writeln!(out, "  - harmonic: {}", h.order)?;
-        polar(&mut out, "flow", h.flow, h.flow_uncertainty, "m3/s")?;
+    for h in &c.harmonics {
+        writeln!(out, "{indent}  - harmonic: {}", h.order)?;
+        polar(out, "flow", h.flow, h.flow_uncertainty, "m3/s")?;
         polar(
-            &mut out,
+            out,
             "impedance",
             h.impedance,
             h.impedance_uncertainty,
             "Pa.s/m3",
         )?;
         if let Some(u) = h.flow_uncertainty {
-            writeln!(out, "    flow_uncertainty: {u:.1e} m3/s")?;
+            writeln!(out, "{indent}    flow_uncertainty: {u:.1e} m3/s")?;
         }
         if let Some(u) = h.impedance_uncertainty {
-            writeln!(out, "    impedance_uncertainty: {u:.1e} Pa.s/m3")?;
+            writeln!(out, "{indent}    impedance_uncertainty: {u:.1e} Pa.s/m3")?;
         }
         if h.status != HarmonicStatus::Estimated {
-            writeln!(out, "    status: {}", h.status.key())?;
+            writeln!(out, "{indent}    status: {}", h.status.key())?;
         }
         if let Some(n) = &h.note {
-            writeln!(out, "    note: {}", yaml_string(n))?;
+            writeln!(out, "{indent}    note: {}", yaml_string(n))?;
         }
     }
     Ok(())
@@ -372,11 +803,12 @@ mod tests {
                     note: Some("cond = 14 \"high\"".into()),
                 },
             ],
+            test: TestConditions::default(),
         };
         let mut buf = Vec::new();
         write_source_file(&src, &mut buf, "test").unwrap();
         let text = String::from_utf8(buf).unwrap();
-        let back = parse_source(&text, "t.yaml").unwrap();
+        let back = parse_source(&text, "t.yaml").unwrap().conditions[0].clone();
         assert_eq!(back.name, src.name);
         assert_eq!(back.speed_rev_s, src.speed_rev_s);
         // Without an uncertainty a value reads back exactly; with one, to

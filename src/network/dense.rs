@@ -105,9 +105,9 @@ impl Plan<'_> {
                 _ => {}
             }
         }
-        for pump in &self.circuit.pumps {
+        for (pump, &speed) in self.circuit.pumps.iter().zip(&ws.pump_speeds) {
             if let Some(at) = self.node_index[pump.node] {
-                y[(at, at)] += pump.source_impedance.admittance(omega) * zr;
+                y[(at, at)] += pump.source_impedance.admittance_at(omega, speed) * zr;
             }
         }
         for &(node, q) in injections {

@@ -83,11 +83,24 @@ pub struct Workspace {
     scratch2: Vec<C64>,
     pivoted: PivotedLu,
     pub(super) dense: Option<Box<DenseWorkspace>>,
+    /// The shaft speed (rev/s) each pump's source impedance is taken at:
+    /// the circuit's, or the speed a sweep solves at (a source map's
+    /// impedance depends on the speed; see [`Workspace::set_pump_speed`]).
+    pub(super) pump_speeds: Vec<f64>,
     /// (unknowns, slots, elements, lines, bores) of the plan it was made for.
     shape: [usize; 5],
 }
 
 impl Workspace {
+    /// Takes pump `pump`'s source impedance at shaft speed `speed_rev_s` in
+    /// the solves with this workspace (a sweep solving at speeds other than
+    /// the circuit's; only a source map depends on it).
+    pub fn set_pump_speed(&mut self, pump: usize, speed_rev_s: f64) {
+        if let Some(s) = self.pump_speeds.get_mut(pump) {
+            *s = speed_rev_s;
+        }
+    }
+
     pub(super) fn new(plan: &Plan<'_>) -> Self {
         let n = plan.unknowns;
         let slots = plan.symbolic.slots();
@@ -109,6 +122,7 @@ impl Workspace {
             scratch2: vec![ZERO; n],
             pivoted: PivotedLu::default(),
             dense: None,
+            pump_speeds: plan.circuit.pumps.iter().map(|p| p.speed_rev_s).collect(),
             shape: plan.shape(),
         }
     }
@@ -227,7 +241,7 @@ impl Plan<'_> {
         let omega = self.evaluate(freq_hz, ws)?;
         let sym = &self.symbolic;
         ws.vals.fill(ZERO);
-        self.assemble(omega, &ws.behaviours, &mut ws.vals);
+        self.assemble(omega, &ws.behaviours, &ws.pump_speeds, &mut ws.vals);
         ws.rhs.fill(ZERO);
         let zr = self.z_ref;
         for &(node, q) in injections {
@@ -241,7 +255,7 @@ impl Plan<'_> {
             Some(ratio) => (ratio, Factored::Static),
             None => {
                 ws.assembled.fill(ZERO);
-                self.assemble(omega, &ws.behaviours, &mut ws.assembled);
+                self.assemble(omega, &ws.behaviours, &ws.pump_speeds, &mut ws.assembled);
                 assembled = true;
                 (ws.pivoted.factor(sym, &ws.assembled), Factored::Pivoted)
             }
@@ -262,7 +276,7 @@ impl Plan<'_> {
         let condition = if pivot_ratio < CONDITION_SCREEN {
             if !assembled {
                 ws.assembled.fill(ZERO);
-                self.assemble(omega, &ws.behaviours, &mut ws.assembled);
+                self.assemble(omega, &ws.behaviours, &ws.pump_speeds, &mut ws.assembled);
             }
             let a_norm = norm1(sym, &ws.assembled, &mut ws.scratch);
             if !a_norm.is_finite() {
@@ -291,7 +305,7 @@ impl Plan<'_> {
             // residual of the assembled matrix, solved with the same factors.
             if !assembled {
                 ws.assembled.fill(ZERO);
-                self.assemble(omega, &ws.behaviours, &mut ws.assembled);
+                self.assemble(omega, &ws.behaviours, &ws.pump_speeds, &mut ws.assembled);
             }
             let r = &mut ws.scratch;
             r.fill(ZERO);
@@ -375,7 +389,7 @@ impl Plan<'_> {
     /// into `vals` (the plan's slots), scaled by Z_ref (module docs). A
     /// transfer two-port's flow row comes first in the order (its pivot is
     /// 1), its pressure row second.
-    fn assemble(&self, omega: f64, behaviours: &[Behaviour], vals: &mut [C64]) {
+    fn assemble(&self, omega: f64, behaviours: &[Behaviour], speeds: &[f64], vals: &mut [C64]) {
         let zr = self.z_ref;
         let mut add = |slot: u32, v: C64| {
             if slot != NO_SLOT {
@@ -407,9 +421,9 @@ impl Plan<'_> {
                 _ => {}
             }
         }
-        for (pump, &slot) in self.circuit.pumps.iter().zip(&self.pump_slots) {
+        for ((pump, &slot), &speed) in self.circuit.pumps.iter().zip(&self.pump_slots).zip(speeds) {
             if slot != NO_SLOT {
-                add(slot, pump.source_impedance.admittance(omega) * zr);
+                add(slot, pump.source_impedance.admittance_at(omega, speed) * zr);
             }
         }
     }

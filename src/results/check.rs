@@ -197,6 +197,20 @@ pub fn check(
                         ),
                         Some(k.non_uniformity()),
                     ),
+                    FlowRipple::Map(m) if m.conditions() > 1 => (
+                        format!(
+                            "a source map of {} conditions ({}) of {} harmonics{}",
+                            m.conditions(),
+                            m.describe_range(),
+                            m.orders().len(),
+                            if m.single_speed() {
+                                ", in proportion to speed"
+                            } else {
+                                ", interpolated at the operating point"
+                            }
+                        ),
+                        None,
+                    ),
                     _ => (format!("a table of {} harmonics", p.max_order()), None),
                 };
                 PumpCheck {
@@ -345,6 +359,15 @@ fn source_impedance(z: &SourceImpedance, bulk_modulus_pa: f64) -> String {
             let (lo, hi) = t.range_hz();
             format!("a table from {lo:.2} to {hi:.2} Hz (end values held outside)")
         }
+        SourceImpedance::Map(m) if m.conditions() == 1 => format!(
+            "a table against frequency at the source file's {:.0} rpm (end values held outside)",
+            m.speed_range_rev_s().0 * 60.0
+        ),
+        SourceImpedance::Map(m) => format!(
+            "a source map of {} conditions ({}), per harmonic against frequency (end values held outside)",
+            m.conditions(),
+            m.describe_range()
+        ),
     }
 }
 

@@ -213,6 +213,7 @@ impl FitResult {
                     note: (h.status != HarmonicStatus::Estimated).then(|| h.flags.join("; ")),
                 })
                 .collect(),
+            test: crate::io::source_file::TestConditions::default(),
         }
     }
 }

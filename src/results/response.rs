@@ -411,9 +411,7 @@ fn load_at_harmonics(plan: &Plan<'_>, pump_index: usize) -> Result<Vec<LoadAtHar
         let z = match plan.solve(f, &[(pump.node, one)], &mut ws) {
             Ok(s) => {
                 let p = s.node_pressures[pump.node];
-                let ys = pump
-                    .source_impedance
-                    .admittance(2.0 * std::f64::consts::PI * f);
+                let ys = pump.source_admittance(2.0 * std::f64::consts::PI * f);
                 Some(p / (one - ys * p)).filter(|z| z.is_finite())
             }
             Err(SolveError::Singular { .. }) => None,

@@ -230,6 +230,15 @@ pub fn sweep(
         .last()
         .map_or(0.0, |&j| f64::from(j) * shaft.fundamental_hz(high));
     let mut warnings = notices(&crate::diagnostics::circuit_warnings(&circuit, top_hz));
+    for w in crate::diagnostics::source_map_warnings(&circuit, Some((low, high))) {
+        let n = Notice::from(&w);
+        if !warnings
+            .iter()
+            .any(|o| o.subject == n.subject && o.message.contains("outside its source map"))
+        {
+            warnings.push(n);
+        }
+    }
     let plan = Plan::compile(&circuit).map_err(|e| Error::Request(format!("{file}: {e}")))?;
     let settings = SweepSettings {
         speeds_rev_s: speeds,

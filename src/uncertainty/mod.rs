@@ -27,9 +27,8 @@ use crate::Circuit;
 use crate::envelope::OperatingPoint;
 use crate::estimate::rng::Rng;
 use crate::io::quantity::Spread;
-use crate::io::source_file::PumpSource;
 use crate::io::{CircuitTemplate, InputError, Setting, Target};
-use crate::source::FlowRipple;
+use crate::source::{FlowRipple, SourceImpedance};
 use serde::Serialize;
 
 /// Where an uncertain input acts.
@@ -111,8 +110,6 @@ pub struct InputSummary {
 pub struct Inputs {
     /// The inputs.
     pub inputs: Vec<Input>,
-    /// The source files of the pumps that have one: (pump, its data).
-    sources: Vec<(usize, PumpSource)>,
 }
 
 /// Most uncertain inputs.
@@ -142,38 +139,75 @@ impl Inputs {
                 })
             })
             .collect();
-        let mut sources = Vec::new();
         for (pump, name, path) in template.source_files() {
             let src = crate::io::source_file::load_source_file(&path)?;
-            for h in &src.harmonics {
-                if let Some(u) = h.flow_uncertainty.filter(|u| *u > 0.0) {
-                    inputs.push(Input {
-                        name: format!("{name} |Qs| harmonic {}", h.order),
-                        unit: "m³/s".into(),
-                        nominal: h.flow.norm(),
-                        spread: Spread::Standard,
-                        amount: u,
-                        acts: Acts::SourceFlow {
-                            pump,
-                            order: h.order,
-                        },
-                    });
-                }
-                if let Some(u) = h.impedance_uncertainty.filter(|u| *u > 0.0) {
-                    inputs.push(Input {
-                        name: format!("{name} |Zs| harmonic {}", h.order),
-                        unit: "Pa·s/m³".into(),
-                        nominal: h.impedance.norm(),
-                        spread: Spread::Standard,
-                        amount: u,
-                        acts: Acts::SourceImpedance {
-                            pump,
-                            order: h.order,
-                        },
-                    });
-                }
+            // One condition: |Qs| and |Zs| as written. A map: a factor on
+            // each harmonic's |Qs| (|Zs|) over the whole map, nominal 1,
+            // with the largest relative uncertainty of its conditions
+            // (conservative where the conditions differ). An amplitude of
+            // zero has no relative uncertainty and is left.
+            let single = src.conditions.len() == 1;
+            let orders: Vec<u32> = src.conditions[0]
+                .harmonics
+                .iter()
+                .map(|h| h.order)
+                .collect();
+            for (j, &order) in orders.iter().enumerate() {
+                let mut add =
+                    |what: &str, unit: &str, values: Vec<(f64, Option<f64>)>, flow: bool| {
+                        let acts = if flow {
+                            Acts::SourceFlow { pump, order }
+                        } else {
+                            Acts::SourceImpedance { pump, order }
+                        };
+                        let relative = values
+                            .iter()
+                            .filter(|(x, _)| *x > 0.0)
+                            .filter_map(|(x, u)| u.filter(|u| *u > 0.0).map(|u| u / x))
+                            .fold(None, |m: Option<f64>, r| Some(m.map_or(r, |m| m.max(r))));
+                        let Some(relative) = relative else { return };
+                        inputs.push(if single {
+                            Input {
+                                name: format!("{name} {what} harmonic {order}"),
+                                unit: unit.into(),
+                                nominal: values[0].0,
+                                spread: Spread::Standard,
+                                amount: values[0].1.unwrap_or(0.0),
+                                acts,
+                            }
+                        } else {
+                            Input {
+                                name: format!(
+                                    "{name} {what} harmonic {order} (factor over the source map)"
+                                ),
+                                unit: String::new(),
+                                nominal: 1.0,
+                                spread: Spread::Standard,
+                                amount: relative,
+                                acts,
+                            }
+                        });
+                    };
+                let of =
+                    |f: &dyn Fn(&crate::io::source_file::SourceHarmonic) -> (f64, Option<f64>)| {
+                        src.conditions
+                            .iter()
+                            .map(|c| f(&c.harmonics[j]))
+                            .collect::<Vec<_>>()
+                    };
+                add(
+                    "|Qs|",
+                    "m³/s",
+                    of(&|h| (h.flow.norm(), h.flow_uncertainty)),
+                    true,
+                );
+                add(
+                    "|Zs|",
+                    "Pa·s/m³",
+                    of(&|h| (h.impedance.norm(), h.impedance_uncertainty)),
+                    false,
+                );
             }
-            sources.push((pump, src));
         }
         if inputs.len() > MAX_INPUTS {
             return Err(InputError::located(
@@ -186,7 +220,7 @@ impl Inputs {
                 ),
             ));
         }
-        Ok(Inputs { inputs, sources })
+        Ok(Inputs { inputs })
     }
 
     /// Whether there is nothing uncertain.
@@ -238,44 +272,25 @@ impl Inputs {
             })
             .collect();
         let mut circuit = template.circuit(point, &settings)?;
-        for (pump, src) in &self.sources {
-            let mut changed = src.clone();
-            let mut any = false;
-            for (input, &v) in self.inputs.iter().zip(values) {
-                match input.acts {
-                    Acts::SourceFlow { pump: p, order } if p == *pump && v != input.nominal => {
-                        if let FlowRipple::Table { harmonics, .. } =
-                            &mut circuit.pumps[p].flow_ripple
-                            && let Some(h) = harmonics.iter_mut().find(|h| h.order == order)
-                        {
-                            // a negative draw of an amplitude is its reflection
-                            h.amplitude_m3_s = v.abs();
-                        }
-                    }
-                    Acts::SourceImpedance { pump: p, order }
-                        if p == *pump && v != input.nominal =>
-                    {
-                        if let Some(h) = changed.harmonics.iter_mut().find(|h| h.order == order) {
-                            h.impedance = crate::C64::from_polar(
-                                v.abs().max(f64::MIN_POSITIVE),
-                                h.impedance.arg(),
-                            );
-                            any = true;
-                        }
-                    }
-                    _ => {}
-                }
+        // Source-file values: a factor on the map's |Qs| or |Zs| of the
+        // harmonic (a negative draw of an amplitude is its reflection).
+        for (input, &v) in self.inputs.iter().zip(values) {
+            if v == input.nominal || input.nominal == 0.0 {
+                continue;
             }
-            if any {
-                circuit.pumps[*pump].source_impedance =
-                    changed.source_impedance().map_err(|m| {
-                        InputError::located(
-                            template.file(),
-                            template.text(),
-                            &crate::io::locate::KeyPath::root(),
-                            format!("the source impedance with drawn values ({why}): {m}"),
-                        )
-                    })?;
+            let factor = v.abs() / input.nominal;
+            match input.acts {
+                Acts::SourceFlow { pump, order } => {
+                    if let FlowRipple::Map(m) = &mut circuit.pumps[pump].flow_ripple {
+                        m.scale_flow(order, factor);
+                    }
+                }
+                Acts::SourceImpedance { pump, order } => {
+                    if let SourceImpedance::Map(m) = &mut circuit.pumps[pump].source_impedance {
+                        m.scale_impedance(order, factor.max(1e-300));
+                    }
+                }
+                Acts::Value(_) => {}
             }
         }
         Ok(circuit)
