@@ -2,8 +2,8 @@
 //! impedance from bench records, with uncertainties and warnings.
 
 use super::common::{self, Outputs, UsageError};
+use super::ranges::StageBars;
 use clap::Args;
-use indicatif::{ProgressBar, ProgressStyle};
 use ripline::estimate::{FitOptions, Observer};
 use ripline::io::source_file::{SourceFile, write_source_map};
 use ripline::plot;
@@ -11,7 +11,6 @@ use ripline::render::fit as render;
 use ripline::results::Origin;
 use ripline::results::fit::fit;
 use ripline::results::fit_check::self_check as run_self_check;
-use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 
 #[derive(Debug, Args)]
@@ -67,35 +66,6 @@ pub const MAX_DRAWS: usize = 20_000;
 /// fit's worth of work: about a millisecond).
 pub const MAX_SELF_CHECK_WORK: usize = 1_000_000;
 
-/// A progress bar on standard error when it is a terminal; silent otherwise.
-struct Progress(Option<ProgressBar>);
-
-impl Observer for Progress {
-    fn stage(&mut self, label: &str, total: u64) {
-        if let Some(old) = self.0.take() {
-            old.finish_and_clear();
-        }
-        if std::io::stderr().is_terminal() {
-            let bar = ProgressBar::new(total);
-            if let Ok(style) = ProgressStyle::with_template("{msg} [{bar:30}] {pos}/{len}") {
-                bar.set_style(style.progress_chars("=> "));
-            }
-            bar.set_message(label.to_string());
-            self.0 = Some(bar);
-        }
-    }
-    fn advance(&mut self, steps: u64) {
-        if let Some(b) = &self.0 {
-            b.inc(steps);
-        }
-    }
-    fn finish(&mut self) {
-        if let Some(b) = self.0.take() {
-            b.finish_and_clear();
-        }
-    }
-}
-
 pub fn run(args: FitArgs) -> anyhow::Result<()> {
     if args.draws > MAX_DRAWS {
         return Err(UsageError(format!(
@@ -145,7 +115,7 @@ pub fn run(args: FitArgs) -> anyhow::Result<()> {
         ],
         false,
     )?);
-    let mut progress = Progress(None);
+    let mut progress = StageBars::default();
     let data = ripline::io::records::load_conditions(&bench, &mut progress)?;
     let result = fit(
         &bench,
@@ -235,7 +205,7 @@ fn self_check(
         &[("--csv", csv.as_deref()), ("--json", json.as_deref())],
         false,
     )?);
-    let mut progress = Progress(None);
+    let mut progress = StageBars::default();
     let result = run_self_check(bench, file, seeds, options, harmonics_origin, &mut progress);
     progress.finish();
     let result = result?;

@@ -4,9 +4,8 @@
 //! the design that keeps every harmonic well conditioned.
 
 use super::common::{self, Outputs, UsageError};
-use super::ranges::{parse_fraction, parse_range, speed_range_option};
+use super::ranges::{StageBars, parse_fraction, parse_range, speed_range_option};
 use clap::Args;
-use indicatif::{ProgressBar, ProgressStyle};
 use ripline::estimate::Observer;
 use ripline::estimate::bench::Method;
 use ripline::estimate::design::{self, DesignSpace, PlanOptions};
@@ -15,7 +14,6 @@ use ripline::render::plan_bench as render;
 use ripline::results::Origin;
 use ripline::results::plan_bench::{PlanBenchRequest, plan_bench};
 use ripline::units::Dimension;
-use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 
 #[derive(Debug, Args)]
@@ -80,36 +78,6 @@ pub struct PlanBenchArgs {
     /// Write the result as JSON (schema in docs/json.md).
     #[arg(long, value_name = "FILE")]
     json: Option<PathBuf>,
-}
-
-/// A progress bar on standard error when it is a terminal; silent otherwise.
-struct Progress(Option<ProgressBar>);
-
-impl Observer for Progress {
-    fn stage(&mut self, label: &str, total: u64) {
-        if let Some(old) = self.0.take() {
-            old.finish_and_clear();
-        }
-        if std::io::stderr().is_terminal() {
-            let bar = ProgressBar::new(total);
-            if let Ok(style) = ProgressStyle::with_template("{msg} [{bar:30}] {pos}/{len} ({eta})")
-            {
-                bar.set_style(style.progress_chars("=> "));
-            }
-            bar.set_message(label.to_string());
-            self.0 = Some(bar);
-        }
-    }
-    fn advance(&mut self, steps: u64) {
-        if let Some(b) = &self.0 {
-            b.inc(steps);
-        }
-    }
-    fn finish(&mut self) {
-        if let Some(b) = self.0.take() {
-            b.finish_and_clear();
-        }
-    }
 }
 
 fn usage(message: String) -> anyhow::Error {
@@ -312,7 +280,7 @@ pub fn run(args: PlanBenchArgs) -> anyhow::Result<()> {
         ],
         false,
     )?);
-    let mut progress = Progress(None);
+    let mut progress = StageBars::default();
     let result = plan_bench(&bench, &file, &request, &mut progress);
     progress.finish();
     let result = result?;

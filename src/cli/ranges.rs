@@ -158,6 +158,38 @@ impl Progress {
     }
 }
 
+/// A bar per stage of a bench estimation or plan (`estimate::Observer`) on
+/// standard error when it is a terminal; silent otherwise.
+#[derive(Default)]
+pub struct StageBars(Option<ProgressBar>);
+
+impl ripline::estimate::Observer for StageBars {
+    fn stage(&mut self, label: &str, total: u64) {
+        if let Some(old) = self.0.take() {
+            old.finish_and_clear();
+        }
+        if std::io::stderr().is_terminal() {
+            let bar = ProgressBar::new(total);
+            if let Ok(style) = ProgressStyle::with_template("{msg} [{bar:30}] {pos}/{len} ({eta})")
+            {
+                bar.set_style(style.progress_chars("=> "));
+            }
+            bar.set_message(label.to_string());
+            self.0 = Some(bar);
+        }
+    }
+    fn advance(&mut self, steps: u64) {
+        if let Some(b) = &self.0 {
+            b.inc(steps);
+        }
+    }
+    fn finish(&mut self) {
+        if let Some(b) = self.0.take() {
+            b.finish_and_clear();
+        }
+    }
+}
+
 /// Checks an optional CSV output path before any work.
 pub fn csv_output(option: &str, path: Option<&Path>) -> anyhow::Result<Option<PathBuf>> {
     path.map(|p| check_output(option, p, &["csv"])).transpose()
