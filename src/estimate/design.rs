@@ -462,6 +462,15 @@ pub fn predicted_spectra(
                 .collect()
         };
         let zero = |l: &ToneLine| vec![C64::new(0.0, 0.0); l.pressures.len()];
+        // a line's phasors with the noise u and their sensitivities to the
+        // reference parameters of the condition
+        let phasors = |l: &ToneLine, sensitivity: Vec<Vec<C64>>| Phasors {
+            order: l.order,
+            freq_hz: l.freq_hz,
+            pressures: l.pressures.clone(),
+            uncertainty: u.clone(),
+            sensitivity,
+        };
         let mut reference = Vec::new();
         let (pump_ph, sec_ph);
         if secondary {
@@ -482,13 +491,7 @@ pub fn predicted_spectra(
             pump_ph = Vec::new();
             sec_ph = sec_lines
                 .iter()
-                .map(|l| Phasors {
-                    order: l.order,
-                    freq_hz: l.freq_hz,
-                    pressures: l.pressures.clone(),
-                    uncertainty: u.clone(),
-                    sensitivity: vec![zero(l), sens(l)],
-                })
+                .map(|l| phasors(l, vec![zero(l), sens(l)]))
                 .collect();
         } else {
             let var = fundamental_variance(&pump_lines.iter().collect::<Vec<_>>(), &sigma2, n, t);
@@ -500,13 +503,7 @@ pub fn predicted_spectra(
             });
             pump_ph = pump_lines
                 .iter()
-                .map(|l| Phasors {
-                    order: l.order,
-                    freq_hz: l.freq_hz,
-                    pressures: l.pressures.clone(),
-                    uncertainty: u.clone(),
-                    sensitivity: vec![sens(l)],
-                })
+                .map(|l| phasors(l, vec![sens(l)]))
                 .collect();
             sec_ph = Vec::new();
         }
