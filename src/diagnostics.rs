@@ -7,7 +7,7 @@ use crate::circuit::Circuit;
 use crate::elements::ElementKind;
 use crate::line::LineModel;
 use crate::line::turbulence::{BLASIUS_MAX_REYNOLDS, TRANSITION_REYNOLDS};
-use crate::network::{ILL_CONDITIONED, Solution};
+use crate::network::ILL_CONDITIONED;
 use std::fmt;
 
 /// A warning about a circuit or a result.
@@ -300,15 +300,15 @@ pub fn mean_flow_warnings(circuit: &Circuit) -> Vec<Warning> {
     out
 }
 
-/// A warning when a solution lies so close to an undamped resonance that
-/// round-off may have cost more than 8 significant digits.
-pub fn conditioning_warning(solution: &Solution) -> Option<Warning> {
-    (solution.condition > ILL_CONDITIONED).then(|| Warning {
-        subject: format!("{:.3} Hz", solution.freq_hz),
+/// A warning when a solution at `freq_hz` with condition number
+/// `condition` ([`crate::network::Solution::condition`]) lies so close to an undamped
+/// resonance that round-off may have cost more than 8 significant digits.
+pub fn conditioning_warning(freq_hz: f64, condition: f64) -> Option<Warning> {
+    (condition > ILL_CONDITIONED).then(|| Warning {
+        subject: format!("{freq_hz:.3} Hz"),
         message: format!(
-            "the network is nearly singular here (condition number {:.1e}): an undamped or lightly damped resonance lies at or very near this frequency; about {:.0} significant digits are lost to round-off",
-            solution.condition,
-            solution.condition.log10()
+            "the network is nearly singular here (condition number {condition:.1e}): an undamped or lightly damped resonance lies at or very near this frequency; about {:.0} significant digits are lost to round-off",
+            condition.log10()
         ),
     })
 }

@@ -123,23 +123,60 @@ pub fn tap_pressure(circuit: &Circuit, solution: &Solution, location: TapLocatio
         TapLocation::AlongTube {
             element,
             distance_m,
-        } => {
-            let e = &circuit.elements[element];
-            let (Some(line), Connection::Series { a, b }) = (e.kind.line(), e.connection) else {
-                unreachable!("taps along elements are validated to be on tubes or hoses");
-            };
-            let (qa, qb) = solution.end_flows[element].expect("a line is a two-port");
-            let omega = 2.0 * std::f64::consts::PI * solution.freq_hz;
-            let prop = line.properties.propagation(omega);
-            let (p, _) = line.state_at(
-                &prop,
-                distance_m,
-                (solution.node_pressures[a], qa),
-                (solution.node_pressures[b], qb),
-            );
-            p
-        }
+        } => along_tube(
+            circuit,
+            solution.freq_hz,
+            element,
+            distance_m,
+            |n| solution.node_pressures[n],
+            solution.end_flows[element],
+        ),
     }
+}
+
+/// [`tap_pressure`] in the state a [`Plan::solve_in_place`] at `freq_hz`
+/// left in `ws`.
+pub(crate) fn solved_pressure(
+    plan: &Plan<'_>,
+    ws: &Workspace,
+    freq_hz: f64,
+    location: TapLocation,
+) -> C64 {
+    match location {
+        TapLocation::Node(id) => plan.node_pressure(ws, id),
+        TapLocation::AlongTube {
+            element,
+            distance_m,
+        } => along_tube(
+            plan.circuit(),
+            freq_hz,
+            element,
+            distance_m,
+            |n| plan.node_pressure(ws, n),
+            plan.end_flows(ws, element),
+        ),
+    }
+}
+
+/// The pressure `distance_m` from the "from" end of tube or hose `element`
+/// from its end pressures and end flows.
+fn along_tube(
+    circuit: &Circuit,
+    freq_hz: f64,
+    element: usize,
+    distance_m: f64,
+    pressure: impl Fn(usize) -> C64,
+    end_flows: Option<(C64, C64)>,
+) -> C64 {
+    let e = &circuit.elements[element];
+    let (Some(line), Connection::Series { a, b }) = (e.kind.line(), e.connection) else {
+        unreachable!("taps along elements are validated to be on tubes or hoses");
+    };
+    let (qa, qb) = end_flows.expect("a line is a two-port");
+    let omega = 2.0 * std::f64::consts::PI * freq_hz;
+    let prop = line.properties.propagation(omega);
+    let (p, _) = line.state_at(&prop, distance_m, (pressure(a), qa), (pressure(b), qb));
+    p
 }
 
 /// Solves harmonics 1..=`harmonics` of pump `pump_index` and reads every
@@ -269,13 +306,13 @@ impl<'p, 'c> OrderSolver<'p, 'c> {
             speed_rev_s,
             &mut self.injections,
         );
-        let solution = self
+        let condition = self
             .plan
-            .solve(freq_hz, &self.injections, &mut self.workspace)?;
+            .solve_in_place(freq_hz, &self.injections, &mut self.workspace)?;
         for (p, point) in self.pressures.iter_mut().zip(&self.points) {
-            *p = tap_pressure(circuit, &solution, point.location);
+            *p = solved_pressure(self.plan, &self.workspace, freq_hz, point.location);
         }
-        self.warning = conditioning_warning(&solution);
+        self.warning = conditioning_warning(freq_hz, condition);
         Ok(freq_hz)
     }
 }

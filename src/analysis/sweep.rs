@@ -47,7 +47,7 @@ use super::response::{
 };
 use super::ripple::{OrderSolver, report_points, shaft_ripple};
 use super::search::golden_section_max;
-use super::worst::{Measure, SpeedGrid, WorstSettings, WorstSpeed, worst_speed};
+use super::worst::{Measure, SpeedGrid, WorstSettings, WorstSpeed, worst_speeds};
 use crate::circuit::Circuit;
 use crate::diagnostics::Warning;
 use crate::line::{LineModel, MeanFlow};
@@ -438,7 +438,8 @@ pub fn sweep(
     };
     let top_db = level_db(result.phasors.iter().map(|p| p.norm()).fold(0.0, f64::max));
     let mut crossings = Vec::new();
-    for pi in 0..np {
+    // (no rise is large enough for an infinite threshold)
+    for pi in (0..np).filter(|_| settings.min_rise_db.is_finite()) {
         for oi in 0..no {
             let levels: Vec<f64> = (0..speeds.len())
                 .map(|si| level_db(result.amplitude_pa(si, pi, oi)).max(top_db - NEGLIGIBLE_DB))
@@ -498,10 +499,8 @@ pub fn sweep(
             .then(a.point.cmp(&b.point))
     });
     result.crossings = crossings;
-    for pi in 0..np {
-        let worst = refine_worst(&mut at, &result, pi, Measure::Rms)?;
-        result.worst_speeds.push(worst);
-    }
+    result.worst_speeds =
+        refine_worst(&mut at, &result, &(0..np).collect::<Vec<_>>(), Measure::Rms)?;
     Ok(result)
 }
 
@@ -521,31 +520,41 @@ pub fn worst_at_point(
     measure: Measure,
 ) -> Result<WorstSpeed, SweepError> {
     let mut at = AtSpeed::new(plan, shaft, result.harmonics);
-    refine_worst(&mut at, result, point_i, measure)
+    Ok(refine_worst(&mut at, result, &[point_i], measure)?.remove(0))
 }
 
+/// The true worst speeds of `measure` at `points` (indices into the
+/// sweep's points), in that order; one search of them all shares its solves
+/// ([`super::worst::worst_speeds`]).
 fn refine_worst(
     at: &mut AtSpeed<'_, '_>,
     result: &SweepResult,
-    pi: usize,
+    points: &[usize],
     measure: Measure,
-) -> Result<WorstSpeed, SweepError> {
-    let phasors = result.point_phasors(pi);
-    let other_ms = result.point_other_ms_pa2(pi);
-    let grid = SpeedGrid {
-        speeds_rev_s: &result.speeds_rev_s,
-        orders: &result.orders,
-        phasors: &phasors,
-        other_ms_pa2: &other_ms,
-    };
+) -> Result<Vec<WorstSpeed>, SweepError> {
+    let phasors: Vec<Vec<C64>> = points.iter().map(|&pi| result.point_phasors(pi)).collect();
+    let other_ms: Vec<Vec<f64>> = points
+        .iter()
+        .map(|&pi| result.point_other_ms_pa2(pi))
+        .collect();
+    let grids: Vec<SpeedGrid<'_>> = phasors
+        .iter()
+        .zip(&other_ms)
+        .map(|(phasors, other_ms)| SpeedGrid {
+            speeds_rev_s: &result.speeds_rev_s,
+            orders: &result.orders,
+            phasors,
+            other_ms_pa2: other_ms,
+        })
+        .collect();
     let orders = &result.orders;
-    worst_speed(
-        grid,
+    worst_speeds(
+        &grids,
         measure,
         &mut |oi, n| {
             at.with(n, |solver| {
                 solver.solve(orders[oi], n).map_err(at_speed(n))?;
-                Ok(solver.pressures[pi])
+                Ok(points.iter().map(|&pi| solver.pressures[pi]).collect())
             })
         },
         &WorstSettings::default(),

@@ -13,8 +13,8 @@
 //!    harmonic), ends of the range included;
 //! 2. predicts each crossing's peak from its three grid samples (a
 //!    resonance is Lorentzian, so 1/|P|² is a parabola in speed) and skips
-//!    those predicted far below the best found so far
-//!    ([`PREDICTION_SCREEN_DB`]);
+//!    those that could not reach the best found so far even with their peak
+//!    far above the prediction ([`PREDICTION_SCREEN_DB`]);
 //! 3. refines each other crossing on that order's amplitude alone (one
 //!    network solve per step) between the neighbouring grid speeds, then
 //!    evaluates the measure there with every order solved (unless its
@@ -37,6 +37,8 @@
 
 use super::waveform;
 use num_complex::Complex64 as C64;
+use std::collections::BTreeMap;
+use std::ops::Bound::Excluded;
 
 /// Crossings whose estimated measure (their refined amplitude with the
 /// other orders interpolated from the grid) lies more than this many dB
@@ -44,15 +46,26 @@ use num_complex::Complex64 as C64;
 /// orders vary slowly across a crossing, so the estimate is close.
 pub const SCREEN_DB: f64 = 0.5;
 
-/// Crossings whose measure predicted from the grid (a Lorentzian peak
-/// through the three grid samples around it, [`lorentzian_peak`]) lies
-/// more than this many dB below the best measure found so far are not
-/// refined. The prediction is exact for a single Lorentzian resonance, but
-/// between coarse grid speeds the skirts of neighbouring resonances and
-/// anti-resonances skew it: on the drilling-rig demo it fell 4.7 dB short
-/// of a peak between 41 log-spaced speeds. 20 dB leaves a wide margin and
-/// still spares most of the refinements.
+/// A crossing is not refined when, even with its peak this many dB above
+/// the one predicted from the grid (a Lorentzian peak through the three
+/// grid samples around it, [`lorentzian_peak`]) and the other orders at
+/// their largest on the grid around it, the measure would stay below the
+/// best found so far. The prediction is exact for a single Lorentzian
+/// resonance, but between coarse grid speeds the skirts of neighbouring
+/// resonances and anti-resonances skew it: on the drilling-rig demo it fell
+/// 4.7 dB short of a peak between 41 log-spaced speeds. 20 dB leaves a wide
+/// margin and still spares most of the refinements.
 pub const PREDICTION_SCREEN_DB: f64 = 20.0;
+
+/// A crossing that passes the first screen ([`PREDICTION_SCREEN_DB`]) is
+/// solved once at its predicted peak (unless a speed near it is already
+/// solved, for another point) and the peak predicted again from the samples
+/// around the highest one; it is refined only when the measure could reach
+/// the best found so far with its peak this many dB above that closer
+/// prediction. The samples then lie within the peak's width, where the
+/// Lorentzian shape holds far better than between grid speeds. Checked
+/// against brute-force grids (tests/envelope.rs).
+pub const PROBE_SCREEN_DB: f64 = 6.0;
 
 /// What is maximised over the speed range.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
@@ -249,32 +262,43 @@ fn lorentzian_peak(p: [(f64, f64); 3]) -> Option<(f64, f64)> {
 /// ends included. `response` refines its resonance peaks with it too
 /// (`super::response::find_resonances`, on |H| against frequency).
 pub(crate) fn refine<E>(
-    mut f: impl FnMut(f64) -> Result<f64, E>,
+    f: impl FnMut(f64) -> Result<f64, E>,
     a: (f64, f64),
     b: (f64, f64),
     start: Option<(f64, f64)>,
     settings: &WorstSettings,
 ) -> Result<(f64, f64), (f64, E)> {
+    let mut pts = vec![a, b];
+    if let Some(s) = start.filter(|s| s.0 > a.0 && s.0 < b.0) {
+        pts.insert(1, s);
+    }
+    refine_among(f, pts, settings)
+}
+
+/// [`refine`] from known samples `pts` (increasing in x, the bracket's ends
+/// first and last, at least two): samples taken earlier inside the bracket
+/// (by another point's search of the same crossing) shorten the search.
+fn refine_among<E>(
+    mut f: impl FnMut(f64) -> Result<f64, E>,
+    mut pts: Vec<(f64, f64)>,
+    settings: &WorstSettings,
+) -> Result<(f64, f64), (f64, E)> {
     const GOLD: f64 = 0.381_966_011_250_105_1; // (3 − √5)/2
-    let mut pts: Vec<(f64, f64)> = vec![a, b];
+    let (a, b) = (pts[0], pts[pts.len() - 1]);
     let mut eval = |x: f64, pts: &mut Vec<(f64, f64)>| -> Result<(), (f64, E)> {
         let v = f(x).map_err(|e| (x, e))?;
         let i = pts.partition_point(|p| p.0 < x);
         pts.insert(i, (x, v));
         Ok(())
     };
-    // the first interior point: `start` if given, else golden from the
-    // better end
-    match start.filter(|s| s.0 > a.0 && s.0 < b.0) {
-        Some(s) => pts.insert(1, s),
-        None => eval(
-            if a.1 >= b.1 {
-                a.0 + GOLD * (b.0 - a.0)
-            } else {
-                b.0 - GOLD * (b.0 - a.0)
-            },
-            &mut pts,
-        )?,
+    // no interior point yet: golden from the better end
+    if pts.len() == 2 {
+        let x = if a.1 >= b.1 {
+            a.0 + GOLD * (b.0 - a.0)
+        } else {
+            b.0 - GOLD * (b.0 - a.0)
+        };
+        eval(x, &mut pts)?;
     }
     let mut widths: Vec<f64> = Vec::new();
     for _ in 0..settings.max_steps {
@@ -330,18 +354,41 @@ pub(crate) fn refine<E>(
     }))
 }
 
-/// The search state: the grid, the solver and the solves spent.
-struct Search<'g, 's, E> {
+/// Network solves shared by the searches of several points of one grid: a
+/// solve of an order at a speed gives every point's phasor and is kept, so
+/// that another point's search of the same crossing reuses it and starts
+/// from the samples already taken near its peak.
+struct SharedSolves<'s, E> {
+    solve: &'s mut dyn FnMut(usize, f64) -> Result<Vec<C64>, E>,
+    /// Per order: the speed's bits (increasing with a positive speed) →
+    /// every point's phasor.
+    cache: Vec<BTreeMap<u64, Vec<C64>>>,
+}
+
+impl<E> SharedSolves<'_, E> {
+    /// The speeds strictly between `lo` and `hi` where order `o` was solved,
+    /// with the phasors there.
+    fn solved_between(&self, o: usize, lo: f64, hi: f64) -> impl Iterator<Item = (f64, &[C64])> {
+        self.cache[o]
+            .range((Excluded(lo.to_bits()), Excluded(hi.to_bits())))
+            .map(|(k, v)| (f64::from_bits(*k), v.as_slice()))
+    }
+}
+
+/// The search state of one point: the grid, the shared solves and the
+/// solves this search spent.
+struct Search<'g, 's, 'f, E> {
     grid: SpeedGrid<'g>,
+    point: usize,
     measure: Measure,
     settings: &'s WorstSettings,
-    solve: &'s mut dyn FnMut(usize, f64) -> Result<C64, E>,
+    shared: &'s mut SharedSolves<'f, E>,
     /// The measure at each grid speed.
     values: Vec<f64>,
     solves: usize,
 }
 
-impl<E> Search<'_, '_, E> {
+impl<E> Search<'_, '_, '_, E> {
     fn phasors_at(&self, si: usize) -> &[C64] {
         let no = self.grid.orders.len();
         &self.grid.phasors[si * no..(si + 1) * no]
@@ -351,10 +398,17 @@ impl<E> Search<'_, '_, E> {
         interpolate(self.grid.speeds_rev_s, self.grid.other_ms_pa2, n)
     }
 
-    /// Order `o` at speed `n`.
+    /// Order `o` at speed `n` at this point (solved unless already solved).
     fn order(&mut self, o: usize, n: f64) -> Result<C64, E> {
+        let key = n.to_bits();
+        if let Some(v) = self.shared.cache[o].get(&key) {
+            return Ok(v[self.point]);
+        }
         self.solves += 1;
-        (self.solve)(o, n)
+        let v = (self.shared.solve)(o, n)?;
+        let p = v[self.point];
+        self.shared.cache[o].insert(key, v);
+        Ok(p)
     }
 
     /// Every order at speed `n` (the one in `known` reused) and the measure.
@@ -374,8 +428,38 @@ impl<E> Search<'_, '_, E> {
         })
     }
 
+    /// The most the measure can be between grid speeds `lo` and `hi` from
+    /// what is known there: every order at its largest amplitude on the
+    /// grid or at the speeds solved between (a crossing's peak once it is
+    /// probed or refined), the other sources at their largest (rms: the
+    /// square root of the sum of their squares over 2; peak-to-peak: twice
+    /// their sum).
+    fn combined_bound(&self, lo: usize, hi: usize) -> f64 {
+        let speeds = self.grid.speeds_rev_s;
+        let largest = |o: usize| {
+            (lo..=hi)
+                .map(|k| self.phasors_at(k)[o].norm())
+                .chain(
+                    self.shared
+                        .solved_between(o, speeds[lo], speeds[hi])
+                        .map(|(_, v)| v[self.point].norm()),
+                )
+                .fold(0.0, f64::max)
+        };
+        let orders = 0..self.grid.orders.len();
+        match self.measure {
+            Measure::Rms => {
+                let other = (lo..=hi).map(|k| self.other(speeds[k])).fold(0.0, f64::max);
+                (orders.map(|o| largest(o).powi(2)).sum::<f64>() / 2.0 + other).sqrt()
+            }
+            Measure::PeakToPeak => 2.0 * orders.map(largest).sum::<f64>(),
+            Measure::Order(o) => largest(o),
+        }
+    }
+
     /// Golden-section search of the measure itself between grid speeds
-    /// `lo` and `hi`; `best` takes any better point met.
+    /// `lo` and `hi`, from the speeds between them where every order is
+    /// already solved; `best` takes any better point met.
     fn refine_measure(
         &mut self,
         lo: usize,
@@ -384,9 +468,30 @@ impl<E> Search<'_, '_, E> {
         best: &mut WorstSpeed,
     ) -> Result<(), (f64, E)> {
         let speeds = self.grid.speeds_rev_s;
-        let ends = ((speeds[lo], self.values[lo]), (speeds[hi], self.values[hi]));
+        let no = self.grid.orders.len();
+        let known: Vec<f64> = self
+            .shared
+            .solved_between(0, speeds[lo], speeds[hi])
+            .map(|(n, _)| n)
+            .filter(|n| (1..no).all(|o| self.shared.cache[o].contains_key(&n.to_bits())))
+            .collect();
+        let mut pts = vec![(speeds[lo], self.values[lo])];
+        for n in known {
+            let at = self.full(n, None).map_err(|e| (n, e))?;
+            pts.push((n, at.value_pa));
+            if at.value_pa > best.value_pa {
+                *best = at;
+            }
+        }
+        if let Some(s) = start.filter(|s| s.0 > speeds[lo] && s.0 < speeds[hi]) {
+            let i = pts.partition_point(|p| p.0 < s.0);
+            if pts.get(i).is_none_or(|p| p.0 != s.0) {
+                pts.insert(i, s);
+            }
+        }
+        pts.push((speeds[hi], self.values[hi]));
         let settings = *self.settings;
-        refine(
+        refine_among(
             |n| {
                 let at = self.full(n, None)?;
                 let v = at.value_pa;
@@ -395,33 +500,75 @@ impl<E> Search<'_, '_, E> {
                 }
                 Ok(v)
             },
-            ends.0,
-            ends.1,
-            start,
+            pts,
             &settings,
         )
         .map(|_| ())
     }
 
+    /// Order `o` at this point at the grid speeds `lo`, `i` and `hi` and
+    /// the speeds between them where it is already solved, increasing.
+    fn order_samples(&self, o: usize, i: usize, (lo, hi): (usize, usize)) -> Vec<(f64, C64)> {
+        let speeds = self.grid.speeds_rev_s;
+        let point = self.point;
+        let mut known: Vec<(f64, C64)> = vec![(speeds[lo], self.phasors_at(lo)[o])];
+        known.extend(
+            self.shared
+                .solved_between(o, speeds[lo], speeds[hi])
+                .map(|(n, v)| (n, v[point])),
+        );
+        if lo < i && i < hi {
+            let at = known.partition_point(|p| p.0 < speeds[i]);
+            known.insert(at, (speeds[i], self.phasors_at(i)[o]));
+        }
+        known.push((speeds[hi], self.phasors_at(hi)[o]));
+        known
+    }
+
+    /// The peak amplitude of the crossing of order `o` whose grid peak is
+    /// at interior index `i`, predicted from a sample near it: where no
+    /// speed between the grid neighbours `lo` and `hi` is solved yet, one
+    /// solve at the peak the grid predicts (`grid_peak`); then a Lorentzian
+    /// through the highest sample and its neighbours ([`lorentzian_peak`]),
+    /// not below that sample.
+    fn probe(
+        &mut self,
+        o: usize,
+        i: usize,
+        (lo, hi): (usize, usize),
+        grid_peak: f64,
+    ) -> Result<f64, (f64, E)> {
+        let mut known = self.order_samples(o, i, (lo, hi));
+        if known.len() == 3 {
+            let p = self.order(o, grid_peak).map_err(|e| (grid_peak, e))?;
+            let at = known.partition_point(|k| k.0 < grid_peak);
+            known.insert(at, (grid_peak, p));
+        }
+        let v: Vec<(f64, f64)> = known.iter().map(|&(n, p)| (n, p.norm())).collect();
+        let ib = (0..v.len()).fold(0, |m, k| if v[k].1 > v[m].1 { k } else { m });
+        if ib == 0 || ib + 1 == v.len() {
+            return Ok(f64::INFINITY);
+        }
+        Ok(lorentzian_peak([v[ib - 1], v[ib], v[ib + 1]])
+            .map_or(f64::INFINITY, |(_, a)| a.max(v[ib].1)))
+    }
+
     /// The crossing of order `o` whose grid peak is at index `i`: refined
     /// on that order's amplitude alone between the grid speeds `lo` and
-    /// `hi`; its speed, amplitude and phasor.
+    /// `hi`, from the grid and the speeds between them where the order is
+    /// already solved; its speed, amplitude and phasor.
     fn refine_order(
         &mut self,
         o: usize,
         i: usize,
         (lo, hi): (usize, usize),
     ) -> Result<(f64, f64, C64), (f64, E)> {
-        let speeds = self.grid.speeds_rev_s;
-        let p_at = |si: usize| self.phasors_at(si)[o];
-        let (p_lo, p_i, p_hi) = (p_at(lo), p_at(i), p_at(hi));
-        let mut peak = [(speeds[lo], p_lo), (speeds[i], p_i), (speeds[hi], p_hi)]
-            .into_iter()
-            .fold((0.0, C64::new(0.0, 0.0)), |b, p| {
-                if p.1.norm() > b.1.norm() { p } else { b }
-            });
+        let known = self.order_samples(o, i, (lo, hi));
+        let mut peak = known.iter().fold((0.0, C64::new(0.0, 0.0)), |b, p| {
+            if p.1.norm() > b.1.norm() { *p } else { b }
+        });
         let settings = *self.settings;
-        let (n, amp) = refine(
+        let (n, amp) = refine_among(
             |n| {
                 let p = self.order(o, n)?;
                 if p.norm() > peak.1.norm() {
@@ -429,22 +576,43 @@ impl<E> Search<'_, '_, E> {
                 }
                 Ok(p.norm())
             },
-            (speeds[lo], p_lo.norm()),
-            (speeds[hi], p_hi.norm()),
-            Some((speeds[i], p_i.norm())),
+            known.iter().map(|&(n, p)| (n, p.norm())).collect(),
             &settings,
         )?;
         Ok((n, amp, peak.1))
     }
 }
 
-/// A place where the measure may peak: a grid index, the order whose
-/// crossing it is (`None`: a maximum of the measure itself) and the
-/// measure predicted at the peak.
+/// A resonance crossing where the measure may peak: a grid index, the
+/// order whose crossing it is, the measure predicted at the peak and the
+/// most it can be there (the crossing's own peak [`PREDICTION_SCREEN_DB`]
+/// above its prediction, the other orders at their largest on the grid
+/// around it).
 struct Candidate {
     index: usize,
-    order: Option<usize>,
+    order: usize,
+    /// The order's amplitude at the grid peak.
+    grid_amplitude: f64,
+    /// What the other orders add to the measure at most near the peak: the
+    /// largest mean square (Pa², overall rms) or peak-to-peak (Pa) on the
+    /// grid around it.
+    rest: f64,
+    /// The speed of the peak predicted from the grid, if it bounds one.
+    peak_speed: Option<f64>,
     predicted: f64,
+    bound: f64,
+}
+
+impl Candidate {
+    /// The measure with the crossing's order peaking at amplitude `p`.
+    fn with_peak(&self, measure: Measure, p: f64) -> f64 {
+        match measure {
+            Measure::Rms => (p * p / 2.0 + self.rest).sqrt(),
+            // p-p ≤ 2 Σ|P_k|: the rise of one order adds at most twice its own
+            Measure::PeakToPeak => self.rest + 2.0 * (p - self.grid_amplitude),
+            Measure::Order(_) => p,
+        }
+    }
 }
 
 /// The speed of the range covered by `grid` where `measure` is largest, to
@@ -462,20 +630,73 @@ pub fn worst_speed<E>(
     solve: &mut dyn FnMut(usize, f64) -> Result<C64, E>,
     settings: &WorstSettings,
 ) -> Result<WorstSpeed, Unbounded<E>> {
+    let mut one = |o: usize, n: f64| solve(o, n).map(|p| vec![p]);
+    let mut worst = worst_speeds(&[grid], measure, &mut one, settings)?;
+    Ok(worst.remove(0))
+}
+
+/// [`worst_speed`] at several points of one grid (the same speeds and
+/// orders; one [`SpeedGrid`] per point): `solve(i, n)` returns the phasors
+/// of order `grid.orders[i]` at speed `n` at every point, in the order of
+/// `grids`. A solve serves every point: each one is kept, and a point's
+/// search of a crossing starts from the samples the searches of the points
+/// before it took there (a resonance peaks at nearly the same speed at
+/// every point), so the points after the first cost a few solves each.
+/// Each [`WorstSpeed::solves`] counts the solves its own search added.
+///
+/// # Errors
+/// [`Unbounded`] when `solve` fails: the search met an undamped resonance.
+///
+/// # Panics
+/// If a grid is empty or its arrays do not match, or the grids' speeds or
+/// orders differ.
+pub fn worst_speeds<E>(
+    grids: &[SpeedGrid<'_>],
+    measure: Measure,
+    solve: &mut dyn FnMut(usize, f64) -> Result<Vec<C64>, E>,
+    settings: &WorstSettings,
+) -> Result<Vec<WorstSpeed>, Unbounded<E>> {
+    let Some(first) = grids.first() else {
+        return Ok(Vec::new());
+    };
+    assert!(
+        grids
+            .iter()
+            .all(|g| g.speeds_rev_s == first.speeds_rev_s && g.orders == first.orders),
+        "the points' grids differ"
+    );
+    let mut shared = SharedSolves {
+        solve,
+        cache: vec![BTreeMap::new(); first.orders.len()],
+    };
+    grids
+        .iter()
+        .enumerate()
+        .map(|(point, &grid)| {
+            let mut search = Search {
+                grid,
+                point,
+                measure,
+                settings,
+                shared: &mut shared,
+                values: Vec::new(),
+                solves: 0,
+            };
+            search_point(&mut search)
+        })
+        .collect()
+}
+
+/// One point's search (see the module documentation).
+fn search_point<E>(search: &mut Search<'_, '_, '_, E>) -> Result<WorstSpeed, Unbounded<E>> {
+    let grid = search.grid;
+    let measure = search.measure;
     let speeds = grid.speeds_rev_s;
     let (ns, no) = (speeds.len(), grid.orders.len());
     assert!(
         ns > 0 && grid.phasors.len() == ns * no,
         "grid arrays do not match"
     );
-    let mut search = Search {
-        grid,
-        measure,
-        settings,
-        solve,
-        values: Vec::new(),
-        solves: 0,
-    };
     search.values = (0..ns)
         .map(|si| {
             measure_value(
@@ -511,6 +732,8 @@ pub fn worst_speed<E>(
     let amps: Vec<Vec<f64>> = (0..no)
         .map(|o| (0..ns).map(|si| search.phasors_at(si)[o].norm()).collect())
         .collect();
+    let screen = 10f64.powf(PREDICTION_SCREEN_DB / 20.0);
+    let probe_screen = 10f64.powf(PROBE_SCREEN_DB / 20.0);
     let mut candidates: Vec<Candidate> = Vec::new();
     for &o in &considered {
         if amps[o].iter().all(|&a| a == 0.0) {
@@ -519,69 +742,71 @@ pub fn worst_speed<E>(
         for i in local_maxima(&amps[o]) {
             let (lo, hi) = bracket(i);
             let a_i = amps[o][i];
-            let peak = if lo < i && i < hi {
-                let sample = |k: usize| (speeds[k], amps[o][k]);
-                lorentzian_peak([sample(lo), sample(i), sample(hi)])
-                    .map_or(f64::INFINITY, |(_, a)| a.max(a_i))
-            } else {
-                a_i
+            let grid_peak = (lo < i && i < hi)
+                .then(|| {
+                    let sample = |k: usize| (speeds[k], amps[o][k]);
+                    lorentzian_peak([sample(lo), sample(i), sample(hi)])
+                })
+                .flatten();
+            let peak = match grid_peak {
+                Some((_, a)) => a.max(a_i),
+                None if lo < i && i < hi => f64::INFINITY,
+                None => a_i,
             };
-            let predicted = match measure {
-                Measure::Rms => {
-                    let others: f64 = (0..no)
-                        .filter(|&k| k != o)
-                        .map(|k| amps[k][i].powi(2))
-                        .sum();
-                    ((peak * peak + others) / 2.0 + search.other(speeds[i])).sqrt()
-                }
-                // p-p ≤ 2 Σ|P_k|: the rise of one order adds at most twice its own
-                Measure::PeakToPeak => values[i] + 2.0 * (peak - a_i),
-                Measure::Order(_) => peak,
+            // the other orders at their largest in the bracket
+            let rest = match measure {
+                Measure::Rms => (lo..=hi)
+                    .map(|k| {
+                        let sq: f64 = (0..no)
+                            .filter(|&j| j != o)
+                            .map(|j| amps[j][k].powi(2))
+                            .sum();
+                        sq / 2.0 + search.other(speeds[k])
+                    })
+                    .fold(0.0, f64::max),
+                Measure::PeakToPeak => values[lo..=hi].iter().copied().fold(0.0, f64::max),
+                Measure::Order(_) => 0.0,
             };
-            candidates.push(Candidate {
+            let mut c = Candidate {
                 index: i,
-                order: Some(o),
-                predicted,
-            });
-        }
-    }
-    if !matches!(measure, Measure::Order(_)) {
-        for i in local_maxima(&values) {
-            if !candidates
-                .iter()
-                .any(|c| c.order.is_some() && c.index.abs_diff(i) <= 1)
-            {
-                candidates.push(Candidate {
-                    index: i,
-                    order: None,
-                    predicted: values[i],
-                });
-            }
+                order: o,
+                grid_amplitude: a_i,
+                rest,
+                peak_speed: grid_peak.map(|(n, _)| n),
+                predicted: 0.0,
+                bound: 0.0,
+            };
+            c.predicted = c.with_peak(measure, peak);
+            c.bound = c.with_peak(measure, screen * peak);
+            candidates.push(c);
         }
     }
     candidates.sort_by(|a, b| b.predicted.total_cmp(&a.predicted));
 
+    // the other orders' squared amplitudes, interpolated at refined peaks
+    let squares: Vec<Vec<f64>> = amps
+        .iter()
+        .map(|a| a.iter().map(|a| a * a).collect())
+        .collect();
     let mut polish: Option<(usize, usize)> = None;
     for c in candidates {
-        if level_db(c.predicted) < level_db(best.value_pa) - PREDICTION_SCREEN_DB {
+        if c.bound < best.value_pa {
             continue;
         }
-        let i = c.index;
+        let (i, o) = (c.index, c.order);
         let (lo, hi) = bracket(i);
-        let Some(o) = c.order else {
-            search
-                .refine_measure(lo, hi, Some((speeds[i], values[i])), &mut best)
-                .map_err(unbounded)?;
-            continue;
-        };
+        // a closer look before the refinement, when the grid bounds a peak
+        if let Some(n) = c.peak_speed {
+            let peak = search.probe(o, i, (lo, hi), n).map_err(unbounded)?;
+            if c.with_peak(measure, probe_screen * peak) < best.value_pa {
+                continue;
+            }
+        }
         let (n, amp, phasor) = search.refine_order(o, i, (lo, hi)).map_err(unbounded)?;
         if measure == Measure::Rms {
             let others: f64 = (0..no)
                 .filter(|&k| k != o)
-                .map(|k| {
-                    let sq: Vec<f64> = amps[k].iter().map(|a| a * a).collect();
-                    interpolate(speeds, &sq, n)
-                })
+                .map(|k| interpolate(speeds, &squares[k], n))
                 .sum();
             let estimate = ((amp * amp + others) / 2.0 + search.other(n)).sqrt();
             if level_db(estimate) < level_db(best.value_pa) - SCREEN_DB {
@@ -596,13 +821,29 @@ pub fn worst_speed<E>(
             polish = Some((lo, hi));
         }
     }
+    if matches!(measure, Measure::Order(_)) {
+        best.solves = search.solves;
+        return Ok(best);
+    }
     // The measure peaks slightly off the crossing that set it.
-    if let Some((lo, hi)) = polish
-        && !matches!(measure, Measure::Order(_))
-    {
+    if let Some((lo, hi)) = polish {
         let start = Some((best.speed_rev_s, best.value_pa));
         search
             .refine_measure(lo, hi, start, &mut best)
+            .map_err(unbounded)?;
+    }
+    // Maxima of the measure itself (several orders rising together, or a
+    // crossing's skirt), highest first, where every order at its largest
+    // known amplitude around it could beat the best.
+    let mut maxima = local_maxima(&values);
+    maxima.sort_by(|&a, &b| values[b].total_cmp(&values[a]));
+    for i in maxima {
+        let (lo, hi) = bracket(i);
+        if search.combined_bound(lo, hi) < best.value_pa {
+            continue;
+        }
+        search
+            .refine_measure(lo, hi, Some((speeds[i], values[i])), &mut best)
             .map_err(unbounded)?;
     }
     best.solves = search.solves;

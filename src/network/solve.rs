@@ -238,6 +238,25 @@ impl Plan<'_> {
         injections: &[(NodeId, C64)],
         ws: &mut Workspace,
     ) -> Result<Solution, SolveError> {
+        let condition = self.solve_in_place(freq_hz, injections, ws)?;
+        Ok(self.solution(freq_hz, &ws.rhs, &ws.behaviours, condition))
+    }
+
+    /// [`Plan::solve`] without building its [`Solution`]: the solved state
+    /// stays in the workspace, to be read at the points wanted
+    /// ([`Plan::node_pressure`], [`Plan::end_flows`]) until the next solve;
+    /// returns the condition estimate ([`Solution::condition`]). The same
+    /// bits as [`Plan::solve`], without its two allocations and every
+    /// element's end flows.
+    ///
+    /// # Errors
+    /// As [`Plan::solve`].
+    pub fn solve_in_place(
+        &self,
+        freq_hz: f64,
+        injections: &[(NodeId, C64)],
+        ws: &mut Workspace,
+    ) -> Result<f64, SolveError> {
         let omega = self.evaluate(freq_hz, ws)?;
         let sym = &self.symbolic;
         ws.vals.fill(ZERO);
@@ -329,8 +348,56 @@ impl Plan<'_> {
         if !solvable || !ws.rhs.iter().all(|v| v.is_finite()) {
             return Err(singular(condition));
         }
-        let x = &ws.rhs;
-        Ok(self.solution(freq_hz, x, &ws.behaviours, condition))
+        Ok(condition)
+    }
+
+    /// The pressure (Pa) at node `node` in the state the last
+    /// [`Plan::solve_in_place`] with `ws` left; zero at a tank node.
+    pub fn node_pressure(&self, ws: &Workspace, node: NodeId) -> C64 {
+        match self.node_pos[node] {
+            NO_SLOT => ZERO,
+            p => ws.rhs[p as usize],
+        }
+    }
+
+    /// Element `element`'s end flows ([`Solution::end_flows`]) in the state
+    /// the last [`Plan::solve_in_place`] with `ws` left.
+    pub fn end_flows(&self, ws: &Workspace, element: usize) -> Option<(C64, C64)> {
+        self.end_flows_from(element, &ws.rhs, &ws.behaviours, |n| {
+            self.node_pressure(ws, n)
+        })
+    }
+
+    /// Element `i`'s end flows from the unknowns `x` (sparse order), the
+    /// behaviours and the node pressures.
+    fn end_flows_from(
+        &self,
+        i: usize,
+        x: &[C64],
+        behaviours: &[Behaviour],
+        pressure: impl Fn(NodeId) -> C64,
+    ) -> Option<(C64, C64)> {
+        let zr = self.z_ref;
+        match (
+            &self.stamps[i],
+            &behaviours[i],
+            self.circuit.elements[i].connection,
+        ) {
+            (Stamp::Admittance(_), Behaviour::Admittance(m), Connection::Series { a, b }) => {
+                let (pa, pb) = (pressure(a), pressure(b));
+                let qa_in = m[0][0] * pa + m[0][1] * pb;
+                let qb_in = m[1][0] * pa + m[1][1] * pb;
+                Some((qa_in, -qb_in))
+            }
+            (Stamp::Transfer(_, [qa, qb]), _, _) => {
+                Some((x[*qa as usize] / zr, x[*qb as usize] / zr))
+            }
+            (Stamp::Shunt(_), Behaviour::Shunt(y), Connection::Shunt { at }) => {
+                let q = y * pressure(at);
+                Some((q, q))
+            }
+            _ => None,
+        }
     }
 
     /// Checks the frequency and fills the workspace's behaviours: the
@@ -437,40 +504,13 @@ impl Plan<'_> {
         behaviours: &[Behaviour],
         condition: f64,
     ) -> Solution {
-        let zr = self.z_ref;
         let node_pressures: Vec<C64> = self
             .node_pos
             .iter()
             .map(|&p| if p == NO_SLOT { ZERO } else { x[p as usize] })
             .collect();
-        let end_flows = self
-            .circuit
-            .elements
-            .iter()
-            .zip(&self.stamps)
-            .zip(behaviours)
-            .map(
-                |((element, stamp), behaviour)| match (stamp, behaviour, element.connection) {
-                    (
-                        Stamp::Admittance(_),
-                        Behaviour::Admittance(m),
-                        Connection::Series { a, b },
-                    ) => {
-                        let (pa, pb) = (node_pressures[a], node_pressures[b]);
-                        let qa_in = m[0][0] * pa + m[0][1] * pb;
-                        let qb_in = m[1][0] * pa + m[1][1] * pb;
-                        Some((qa_in, -qb_in))
-                    }
-                    (Stamp::Transfer(_, [qa, qb]), _, _) => {
-                        Some((x[*qa as usize] / zr, x[*qb as usize] / zr))
-                    }
-                    (Stamp::Shunt(_), Behaviour::Shunt(y), Connection::Shunt { at }) => {
-                        let q = y * node_pressures[at];
-                        Some((q, q))
-                    }
-                    _ => None,
-                },
-            )
+        let end_flows = (0..self.circuit.elements.len())
+            .map(|i| self.end_flows_from(i, x, behaviours, |n| node_pressures[n]))
             .collect();
         Solution {
             freq_hz,
