@@ -24,7 +24,7 @@
 //!   margin of a band's edge is near (common practice keeps excitation some
 //!   10–20 % away from a resonance).
 
-use super::ripple::{report_points, tap_pressure};
+use super::ripple::{report_points, solved_pressure, tap_pressure};
 use crate::circuit::TapLocation;
 use crate::network::{Plan, Solution, SolveError, Workspace};
 use num_complex::Complex64 as C64;
@@ -319,8 +319,9 @@ pub fn find_resonances(
             let mag = &mags[pi];
             // |H| at the point, or +∞ at an undamped pole.
             let mut eval = |freq: f64, ws: &mut Workspace| -> Result<f64, SolveError> {
-                match solve_unit(plan, pump_index, freq, ws) {
-                    Ok(s) => Ok(tap_pressure(circuit, &s, point.location).norm()),
+                let node = circuit.pumps[pump_index].node;
+                match plan.solve_in_place(freq, &[(node, C64::new(1.0, 0.0))], ws) {
+                    Ok(_) => Ok(solved_pressure(plan, ws, freq, point.location).norm()),
                     Err(SolveError::Singular { .. }) => Ok(f64::INFINITY),
                     Err(e) => Err(e),
                 }

@@ -436,10 +436,15 @@ pub fn sweep(
         phasors,
         other_ms_pa2: other,
     };
-    let top_db = level_db(result.phasors.iter().map(|p| p.norm()).fold(0.0, f64::max));
     let mut crossings = Vec::new();
     // (no rise is large enough for an infinite threshold)
-    for pi in (0..np).filter(|_| settings.min_rise_db.is_finite()) {
+    let finite_rise = settings.min_rise_db.is_finite();
+    let top_db = if finite_rise {
+        level_db(result.phasors.iter().map(|p| p.norm()).fold(0.0, f64::max))
+    } else {
+        0.0
+    };
+    for pi in (0..np).filter(|_| finite_rise) {
         for oi in 0..no {
             let levels: Vec<f64> = (0..speeds.len())
                 .map(|si| level_db(result.amplitude_pa(si, pi, oi)).max(top_db - NEGLIGIBLE_DB))

@@ -172,6 +172,13 @@ pub fn measure_value(measure: Measure, orders: &[u32], phasors: &[C64], other_ms
     }
 }
 
+/// |p| as √(re² + im²): the searches compare many magnitudes, and this is
+/// several times cheaper than `norm` (hypot), whose care against overflow
+/// pressures in pascals do not need.
+fn magnitude(p: C64) -> f64 {
+    p.norm_sqr().sqrt()
+}
+
 fn level_db(v: f64) -> f64 {
     if v > 0.0 { 20.0 * v.log10() } else { -400.0 }
 }
@@ -438,11 +445,11 @@ impl<E> Search<'_, '_, '_, E> {
         let speeds = self.grid.speeds_rev_s;
         let largest = |o: usize| {
             (lo..=hi)
-                .map(|k| self.phasors_at(k)[o].norm())
+                .map(|k| magnitude(self.phasors_at(k)[o]))
                 .chain(
                     self.shared
                         .solved_between(o, speeds[lo], speeds[hi])
-                        .map(|(_, v)| v[self.point].norm()),
+                        .map(|(_, v)| magnitude(v[self.point])),
                 )
                 .fold(0.0, f64::max)
         };
@@ -544,7 +551,7 @@ impl<E> Search<'_, '_, '_, E> {
             let at = known.partition_point(|k| k.0 < grid_peak);
             known.insert(at, (grid_peak, p));
         }
-        let v: Vec<(f64, f64)> = known.iter().map(|&(n, p)| (n, p.norm())).collect();
+        let v: Vec<(f64, f64)> = known.iter().map(|&(n, p)| (n, magnitude(p))).collect();
         let ib = (0..v.len()).fold(0, |m, k| if v[k].1 > v[m].1 { k } else { m });
         if ib == 0 || ib + 1 == v.len() {
             return Ok(f64::INFINITY);
@@ -565,18 +572,22 @@ impl<E> Search<'_, '_, '_, E> {
     ) -> Result<(f64, f64, C64), (f64, E)> {
         let known = self.order_samples(o, i, (lo, hi));
         let mut peak = known.iter().fold((0.0, C64::new(0.0, 0.0)), |b, p| {
-            if p.1.norm() > b.1.norm() { *p } else { b }
+            if magnitude(p.1) > magnitude(b.1) {
+                *p
+            } else {
+                b
+            }
         });
         let settings = *self.settings;
         let (n, amp) = refine_among(
             |n| {
                 let p = self.order(o, n)?;
-                if p.norm() > peak.1.norm() {
+                if magnitude(p) > magnitude(peak.1) {
                     peak = (n, p);
                 }
-                Ok(p.norm())
+                Ok(magnitude(p))
             },
-            known.iter().map(|&(n, p)| (n, p.norm())).collect(),
+            known.iter().map(|&(n, p)| (n, magnitude(p))).collect(),
             &settings,
         )?;
         Ok((n, amp, peak.1))
@@ -730,7 +741,11 @@ fn search_point<E>(search: &mut Search<'_, '_, '_, E>) -> Result<WorstSpeed, Unb
         _ => (0..no).collect(),
     };
     let amps: Vec<Vec<f64>> = (0..no)
-        .map(|o| (0..ns).map(|si| search.phasors_at(si)[o].norm()).collect())
+        .map(|o| {
+            (0..ns)
+                .map(|si| magnitude(search.phasors_at(si)[o]))
+                .collect()
+        })
         .collect();
     let screen = 10f64.powf(PREDICTION_SCREEN_DB / 20.0);
     let probe_screen = 10f64.powf(PROBE_SCREEN_DB / 20.0);
