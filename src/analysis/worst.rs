@@ -15,12 +15,23 @@
 //!    resonance is Lorentzian, so 1/|P|² is a parabola in speed) and skips
 //!    those that could not reach the best found so far even with their peak
 //!    far above the prediction ([`PREDICTION_SCREEN_DB`]);
-//! 3. refines each other crossing on that order's amplitude alone (one
+//! 3. solves each other crossing once at its predicted peak and predicts
+//!    the peak again from the samples there, skipping it when even a peak
+//!    well above that could not win ([`PROBE_SCREEN_DB`]);
+//! 4. refines each remaining crossing on that order's amplitude alone (one
 //!    network solve per step) between the neighbouring grid speeds, then
 //!    evaluates the measure there with every order solved (unless its
 //!    estimate stays below the best, [`SCREEN_DB`]);
-//! 4. refines the best candidate once more on the measure itself (the other
-//!    orders move it slightly off the crossing).
+//! 5. refines the best candidate once more on the measure itself (the other
+//!    orders move it slightly off the crossing);
+//! 6. refines every maximum of the measure on the grid where every order at
+//!    its largest known amplitude around it could beat the best (several
+//!    orders rising together, or a crossing's skirt).
+//!
+//! [`worst_speeds`] does this for several points of one grid with one set
+//! of solves: a solve gives every point's phasor, so a point's search of a
+//! crossing starts from the samples the points before it took there (a
+//! resonance peaks at nearly the same speed at every point).
 //!
 //! A refinement is a safeguarded parabolic search on 1/v² (after Brent's
 //! method, with golden-section steps when a parabolic step would not make
@@ -173,8 +184,8 @@ pub fn measure_value(measure: Measure, orders: &[u32], phasors: &[C64], other_ms
 }
 
 /// |p| as √(re² + im²): the searches compare many magnitudes, and this is
-/// several times cheaper than `norm` (hypot), whose care against overflow
-/// pressures in pascals do not need.
+/// several times cheaper than `norm` (hypot), whose guard against overflow
+/// pressures in pascals never need.
 fn magnitude(p: C64) -> f64 {
     p.norm_sqr().sqrt()
 }
