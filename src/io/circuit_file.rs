@@ -588,6 +588,11 @@ pub fn fixed_fluid_keys(text: &str, file: &str) -> Result<Vec<&'static str>, Inp
 /// A text that does not parse, or a source file that cannot be read, gives
 /// no warning here (loading the circuit reports those).
 pub fn source_file_notes(text: &str, file: &str) -> Vec<crate::diagnostics::Warning> {
+    // A text with no `source_file` key reads no source file: no second parse
+    // (a third of loading a large circuit).
+    if !text.contains("source_file") {
+        return Vec::new();
+    }
     let Ok(raw) = super::parse_yaml::<RawCircuit>(text, file) else {
         return Vec::new();
     };
