@@ -26,6 +26,7 @@
 
 use super::ripple::{report_points, solved_pressure, tap_pressure};
 use crate::circuit::TapLocation;
+use crate::elements::NodeId;
 use crate::network::{Plan, Solution, SolveError, Workspace};
 use num_complex::Complex64 as C64;
 
@@ -78,8 +79,12 @@ fn solve_unit(
     freq_hz: f64,
     ws: &mut Workspace,
 ) -> Result<Solution, SolveError> {
-    let node = plan.circuit().pumps[pump_index].node;
-    plan.solve(freq_hz, &[(node, C64::new(1.0, 0.0))], ws)
+    plan.solve(freq_hz, &unit_injection(plan, pump_index), ws)
+}
+
+/// A unit flow (1 m³/s) into the network at pump `pump_index`'s node.
+fn unit_injection(plan: &Plan<'_>, pump_index: usize) -> [(NodeId, C64); 1] {
+    [(plan.circuit().pumps[pump_index].node, C64::new(1.0, 0.0))]
 }
 
 /// The same, but a grid frequency that lands exactly on an undamped
@@ -274,7 +279,6 @@ pub fn find_resonances(
     response: &FrequencyResponse,
     settings: PeakSettings,
 ) -> Result<Vec<Resonance>, SolveError> {
-    let circuit = plan.circuit();
     let f = &response.freqs_hz;
     let n = f.len();
     let mags: Vec<Vec<f64>> = response
@@ -318,9 +322,9 @@ pub fn find_resonances(
             let point = &response.points[pi];
             let mag = &mags[pi];
             // |H| at the point, or +∞ at an undamped pole.
+            let unit = unit_injection(plan, pump_index);
             let mut eval = |freq: f64, ws: &mut Workspace| -> Result<f64, SolveError> {
-                let node = circuit.pumps[pump_index].node;
-                match plan.solve_in_place(freq, &[(node, C64::new(1.0, 0.0))], ws) {
+                match plan.solve_in_place(freq, &unit, ws) {
                     Ok(_) => Ok(solved_pressure(plan, ws, freq, point.location).norm()),
                     Err(SolveError::Singular { .. }) => Ok(f64::INFINITY),
                     Err(e) => Err(e),

@@ -354,10 +354,14 @@ impl Plan<'_> {
     /// The pressure (Pa) at node `node` in the state the last
     /// [`Plan::solve_in_place`] with `ws` left; zero at a tank node.
     pub fn node_pressure(&self, ws: &Workspace, node: NodeId) -> C64 {
-        match self.node_pos[node] {
-            NO_SLOT => ZERO,
-            p => ws.rhs[p as usize],
-        }
+        unknown_at(&ws.rhs, self.node_pos[node])
+    }
+
+    /// The propagation of tube or hose `element`'s line at the frequency
+    /// of the last solve with `ws` (each distinct line's is evaluated once
+    /// per solve); `None` for an element that is not a line.
+    pub fn line_propagation(&self, ws: &Workspace, element: usize) -> Option<Propagation> {
+        self.line_of[element].map(|l| ws.propagations[l])
     }
 
     /// Element `element`'s end flows ([`Solution::end_flows`]) in the state
@@ -504,11 +508,7 @@ impl Plan<'_> {
         behaviours: &[Behaviour],
         condition: f64,
     ) -> Solution {
-        let node_pressures: Vec<C64> = self
-            .node_pos
-            .iter()
-            .map(|&p| if p == NO_SLOT { ZERO } else { x[p as usize] })
-            .collect();
+        let node_pressures: Vec<C64> = self.node_pos.iter().map(|&p| unknown_at(x, p)).collect();
         let end_flows = (0..self.circuit.elements.len())
             .map(|i| self.end_flows_from(i, x, behaviours, |n| node_pressures[n]))
             .collect();
@@ -518,6 +518,16 @@ impl Plan<'_> {
             end_flows,
             condition,
         }
+    }
+}
+
+/// The unknown at position `pos` of `x` (sparse order); zero for
+/// [`NO_SLOT`] (a tank node's pressure).
+fn unknown_at(x: &[C64], pos: u32) -> C64 {
+    if pos == NO_SLOT {
+        ZERO
+    } else {
+        x[pos as usize]
     }
 }
 
