@@ -436,21 +436,36 @@ pub fn sweep(
         phasors,
         other_ms_pa2: other,
     };
+    result.crossings = find_crossings(&mut at, &result, settings.min_rise_db);
+    result.worst_speeds =
+        refine_worst(&mut at, &result, &(0..np).collect::<Vec<_>>(), Measure::Rms)?;
+    Ok(result)
+}
+
+/// The resonance crossings of a swept grid: every peak along the speeds of
+/// every order's amplitude at every point rising at least `min_rise_db`
+/// above the valleys either side, refined by a golden-section search on the
+/// solved amplitude between the neighbouring grid speeds; by speed, order
+/// and point. None for an infinite `min_rise_db` (no rise is that large).
+fn find_crossings(
+    at: &mut AtSpeed<'_, '_>,
+    result: &SweepResult,
+    min_rise_db: f64,
+) -> Vec<Crossing> {
+    if !min_rise_db.is_finite() {
+        return Vec::new();
+    }
+    let speeds = &result.speeds_rev_s;
+    let shaft = &result.shaft;
+    let top_db = level_db(result.phasors.iter().map(|p| p.norm()).fold(0.0, f64::max));
     let mut crossings = Vec::new();
-    // (no rise is large enough for an infinite threshold)
-    let finite_rise = settings.min_rise_db.is_finite();
-    let top_db = if finite_rise {
-        level_db(result.phasors.iter().map(|p| p.norm()).fold(0.0, f64::max))
-    } else {
-        0.0
-    };
-    for pi in (0..np).filter(|_| finite_rise) {
-        for oi in 0..no {
+    for pi in 0..result.points.len() {
+        for oi in 0..result.orders.len() {
             let levels: Vec<f64> = (0..speeds.len())
                 .map(|si| level_db(result.amplitude_pa(si, pi, oi)).max(top_db - NEGLIGIBLE_DB))
                 .collect();
             for peak in peaks(&levels) {
-                if peak.rise < settings.min_rise_db {
+                if peak.rise < min_rise_db {
                     continue;
                 }
                 let si = peak.index;
@@ -503,10 +518,7 @@ pub fn sweep(
             .then(a.order.cmp(&b.order))
             .then(a.point.cmp(&b.point))
     });
-    result.crossings = crossings;
-    result.worst_speeds =
-        refine_worst(&mut at, &result, &(0..np).collect::<Vec<_>>(), Measure::Rms)?;
-    Ok(result)
+    crossings
 }
 
 /// The true worst speed of `measure` at point `point_i` of a sweep's

@@ -606,10 +606,10 @@ impl<E> Search<'_, '_, '_, E> {
 }
 
 /// A resonance crossing where the measure may peak: a grid index, the
-/// order whose crossing it is, the measure predicted at the peak and the
-/// most it can be there (the crossing's own peak [`PREDICTION_SCREEN_DB`]
-/// above its prediction, the other orders at their largest on the grid
-/// around it).
+/// order whose crossing it is, and what the grid says of its peak; the
+/// measure there follows from a peak amplitude ([`Candidate::with_peak`]:
+/// at the predicted peak for the order of the search, at the peak
+/// [`PREDICTION_SCREEN_DB`] above it for the screen).
 struct Candidate {
     index: usize,
     order: usize,
@@ -621,8 +621,9 @@ struct Candidate {
     rest: f64,
     /// The speed of the peak predicted from the grid, if it bounds one.
     peak_speed: Option<f64>,
-    predicted: f64,
-    bound: f64,
+    /// The order's peak amplitude predicted from the grid (+∞ when the
+    /// grid samples bound no peak).
+    peak: f64,
 }
 
 impl Candidate {
@@ -793,21 +794,21 @@ fn search_point<E>(search: &mut Search<'_, '_, '_, E>) -> Result<WorstSpeed, Unb
                 Measure::PeakToPeak => values[lo..=hi].iter().copied().fold(0.0, f64::max),
                 Measure::Order(_) => 0.0,
             };
-            let mut c = Candidate {
+            candidates.push(Candidate {
                 index: i,
                 order: o,
                 grid_amplitude: a_i,
                 rest,
                 peak_speed: grid_peak.map(|(n, _)| n),
-                predicted: 0.0,
-                bound: 0.0,
-            };
-            c.predicted = c.with_peak(measure, peak);
-            c.bound = c.with_peak(measure, screen * peak);
-            candidates.push(c);
+                peak,
+            });
         }
     }
-    candidates.sort_by(|a, b| b.predicted.total_cmp(&a.predicted));
+    // the highest predicted measure first
+    candidates.sort_by(|a, b| {
+        let predicted = |c: &Candidate| c.with_peak(measure, c.peak);
+        predicted(b).total_cmp(&predicted(a))
+    });
 
     // the other orders' squared amplitudes, interpolated at refined peaks
     let squares: Vec<Vec<f64>> = amps
@@ -816,7 +817,7 @@ fn search_point<E>(search: &mut Search<'_, '_, '_, E>) -> Result<WorstSpeed, Unb
         .collect();
     let mut polish: Option<(usize, usize)> = None;
     for c in candidates {
-        if c.bound < best.value_pa {
+        if c.with_peak(measure, screen * c.peak) < best.value_pa {
             continue;
         }
         let (i, o) = (c.index, c.order);
