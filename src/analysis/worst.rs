@@ -36,11 +36,15 @@
 //! A refinement is a safeguarded parabolic search on 1/v² (after Brent's
 //! method, with golden-section steps when a parabolic step would not make
 //! progress): on a Lorentzian peak its first parabolic step lands on the
-//! peak. It stops when the bracket is narrower than
-//! [`WorstSettings::min_bracket`] of the speed and the parabola through the
-//! best point and its neighbours predicts less than
-//! [`WorstSettings::tolerance_db`] more; or when the bracket is narrower
-//! than [`WorstSettings::speed_tolerance`] (a sharp or undamped peak). The
+//! peak. It stops when the parabola through the best point and its
+//! neighbours predicts less than [`WorstSettings::tolerance_db`] more and
+//! that parabola can be trusted: the bracket is narrower than
+//! [`WorstSettings::min_bracket`] of the speed, or the best point is the
+//! vertex of the last parabola and holds the value it predicted (to
+//! `tolerance_db`: the peak is Lorentzian and found), or, on one order's
+//! amplitude, the neighbours lie within the peak's half-power width; or it
+//! stops when the bracket is narrower than
+//! [`WorstSettings::speed_tolerance`] (a sharp or undamped peak). The
 //! measure is then within a few times `tolerance_db` of its true maximum;
 //! with the default 0.001 dB, within 0.01 dB. An undamped resonance (a
 //! network that cannot be solved) ends the search: the ripple is unbounded
@@ -78,6 +82,11 @@ pub const PREDICTION_SCREEN_DB: f64 = 20.0;
 /// against brute-force grids (tests/envelope.rs).
 pub const PROBE_SCREEN_DB: f64 = 6.0;
 
+/// A refinement's bracket resolves its peak when the best point's
+/// neighbours lie less than this many dB below it: within the half-power
+/// width, where a resonance is Lorentzian and its parabola on 1/v² exact.
+const HALF_POWER_DB: f64 = 3.0;
+
 /// What is maximised over the speed range.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 #[serde(rename_all = "snake_case")]
@@ -96,7 +105,8 @@ pub enum Measure {
 pub struct WorstSettings {
     /// A refinement stops when a parabola predicts less than this gain (dB).
     pub tolerance_db: f64,
-    /// ... and its bracket is narrower than this fraction of the speed.
+    /// ... and its bracket is narrower than this fraction of the speed (or
+    /// the parabola is trusted otherwise: module documentation).
     pub min_bracket: f64,
     /// A refinement always stops when its bracket is narrower than this
     /// fraction of the speed.
@@ -269,6 +279,16 @@ fn lorentzian_peak(p: [(f64, f64); 3]) -> Option<(f64, f64)> {
     (g > 0.0 && x > p[0].0 && x < p[2].0).then(|| (x, 1.0 / g.sqrt()))
 }
 
+/// What a refined function is near its maximum.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Shape {
+    /// One response's amplitude near a resonance peak: Lorentzian within
+    /// its half-power width ([`HALF_POWER_DB`]).
+    Resonance,
+    /// Anything else (a measure summing several orders).
+    Any,
+}
+
 /// The maximum of `f` on [a, b], whose end values are known: a safeguarded
 /// parabolic search (after Brent's method) on g = 1/f², which is a parabola
 /// near a resonance peak (see [`lorentzian_peak`]), so that a resonance is
@@ -290,7 +310,7 @@ pub(crate) fn refine<E>(
     if let Some(s) = start.filter(|s| s.0 > a.0 && s.0 < b.0) {
         pts.insert(1, s);
     }
-    refine_among(f, pts, settings)
+    refine_among(f, pts, Shape::Resonance, settings)
 }
 
 /// [`refine`] from known samples `pts` (increasing in x, the bracket's ends
@@ -299,6 +319,7 @@ pub(crate) fn refine<E>(
 fn refine_among<E>(
     mut f: impl FnMut(f64) -> Result<f64, E>,
     mut pts: Vec<(f64, f64)>,
+    shape: Shape,
     settings: &WorstSettings,
 ) -> Result<(f64, f64), (f64, E)> {
     const GOLD: f64 = 0.381_966_011_250_105_1; // (3 − √5)/2
@@ -319,6 +340,8 @@ fn refine_among<E>(
         eval(x, &mut pts)?;
     }
     let mut widths: Vec<f64> = Vec::new();
+    // the peak value the last parabolic step predicted, and at which x
+    let mut predicted: Option<(f64, f64)> = None;
     for _ in 0..settings.max_steps {
         let ib = (0..pts.len()).fold(0, |m, i| if pts[i].1 > pts[m].1 { i } else { m });
         let (xb, vb) = pts[ib];
@@ -334,7 +357,16 @@ fn refine_among<E>(
         } else {
             None
         };
-        if interior && width < settings.min_bracket {
+        // The parabola is trusted to predict the rest of the peak when the
+        // bracket is narrow, when its last vertex held the value it
+        // predicted (a Lorentzian peak, found), or when the best point's
+        // neighbours lie within its half-power width.
+        let confirmed = predicted.is_some_and(|(x, v)| {
+            x == xb && (level_db(vb) - level_db(v)).abs() < settings.tolerance_db
+        });
+        let resolved =
+            shape == Shape::Resonance && level_db(vb) - level_db(lo.1.min(hi.1)) < HALF_POWER_DB;
+        if interior && (width < settings.min_bracket || confirmed || resolved) {
             let gain = match vertex {
                 Some((_, g)) if g > 0.0 => level_db(1.0 / g.sqrt()) - level_db(vb),
                 Some(_) => f64::INFINITY,
@@ -348,13 +380,15 @@ fn refine_among<E>(
         let stalled =
             widths.len() >= 3 && widths[widths.len() - 1] > 0.5 * widths[widths.len() - 3];
         let min_gap = 1e-3 * (hi.0 - lo.0);
+        predicted = None;
         let x = match vertex {
-            Some((xv, _))
+            Some((xv, g))
                 if !stalled
                     && xv > lo.0 + min_gap
                     && xv < hi.0 - min_gap
                     && (xv - xb).abs() > min_gap =>
             {
+                predicted = (g > 0.0).then(|| (xv, 1.0 / g.sqrt()));
                 xv
             }
             _ if !interior && ib == 0 => xb + GOLD * (hi.0 - xb),
@@ -519,6 +553,7 @@ impl<E> Search<'_, '_, '_, E> {
                 Ok(v)
             },
             pts,
+            Shape::Any,
             &settings,
         )
         .map(|_| ())
@@ -599,6 +634,7 @@ impl<E> Search<'_, '_, '_, E> {
                 Ok(magnitude(p))
             },
             known.iter().map(|&(n, p)| (n, magnitude(p))).collect(),
+            Shape::Resonance,
             &settings,
         )?;
         Ok((n, amp, peak.1))
