@@ -9,6 +9,28 @@
 //! default, `RAYON_NUM_THREADS` or the command line's `--threads` to change it.
 
 use rayon::prelude::*;
+use std::cell::Cell;
+
+thread_local! {
+    /// Set while this thread evaluates an item of a parallel map.
+    static IN_PARALLEL_ITEM: Cell<bool> = const { Cell::new(false) };
+}
+
+/// Marks the current thread as evaluating a parallel map's item until
+/// dropped (restoring what was there: maps nest).
+struct ItemGuard(bool);
+
+impl ItemGuard {
+    fn enter() -> Self {
+        ItemGuard(IN_PARALLEL_ITEM.replace(true))
+    }
+}
+
+impl Drop for ItemGuard {
+    fn drop(&mut self) {
+        IN_PARALLEL_ITEM.set(self.0);
+    }
+}
 
 /// Number of chunks a long map is cut into: the progress callback runs after
 /// each, so a progress bar moves in steps of 1/`PROGRESS_STEPS`.
@@ -34,7 +56,10 @@ pub fn pays(unknowns: usize, solves: usize) -> bool {
 /// value (for work too small to pay for the threads). Items go in chunks of
 /// about 1/[`PROGRESS_STEPS`] of the whole; after each chunk, `progress` is
 /// called on the calling thread once per item of it, with the number of
-/// items done (1, 2, … as a serial loop would).
+/// items done (1, 2, … as a serial loop would). A map called from inside
+/// an item of a parallel map runs serially: the outer map already keeps
+/// every core busy, and splitting the inner one only adds synchronisation
+/// (the bands' draws each sweep 100 speeds).
 ///
 /// # Errors
 /// The first failure in input order, as a serial loop would stop at; the
@@ -56,7 +81,7 @@ where
         return Ok(out);
     }
     let chunk = items.len().div_ceil(PROGRESS_STEPS).max(1);
-    if !parallel || rayon::current_num_threads() < 2 {
+    if !parallel || rayon::current_num_threads() < 2 || IN_PARALLEL_ITEM.get() {
         let mut scratch = init();
         for item in items {
             out.push(f(&mut scratch, item)?);
@@ -67,7 +92,10 @@ where
     for part in items.chunks(chunk) {
         let results: Vec<Result<R, E>> = part
             .par_iter()
-            .map_init(&init, |scratch, item| f(scratch, item))
+            .map_init(&init, |scratch, item| {
+                let _item = ItemGuard::enter();
+                f(scratch, item)
+            })
             .collect();
         for r in results {
             out.push(r?);
@@ -113,5 +141,40 @@ mod tests {
             });
             assert_eq!(failed, Err(299));
         }
+    }
+
+    /// A map inside a parallel map's item runs on that item's thread, in
+    /// order; after the outer map the thread is no longer marked.
+    #[test]
+    fn a_nested_map_runs_serially() {
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(3)
+            .build()
+            .unwrap();
+        let outer: Vec<u32> = (0..12).collect();
+        let inner: Vec<u32> = (0..200).collect();
+        let ran = pool.install(|| {
+            ordered_map(
+                &outer,
+                true,
+                || (),
+                |_, _| {
+                    let me = rayon::current_thread_index();
+                    ordered_map(
+                        &inner,
+                        true,
+                        || (),
+                        |_, &x| Ok::<_, ()>((rayon::current_thread_index() == me, x)),
+                        &mut |_| {},
+                    )
+                },
+                &mut |_| {},
+            )
+        });
+        for items in ran.unwrap() {
+            assert!(items.iter().all(|(same, _)| *same));
+            assert!(items.iter().map(|(_, x)| *x).eq(inner.iter().copied()));
+        }
+        assert!(!IN_PARALLEL_ITEM.get());
     }
 }
