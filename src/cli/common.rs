@@ -334,7 +334,7 @@ impl Outputs {
         json: Option<&Path>,
         command: &str,
         result: &T,
-        text: impl FnOnce(&T, &mut std::io::StdoutLock<'static>) -> std::io::Result<()>,
+        text: impl FnOnce(&T, &mut Stdout) -> std::io::Result<()>,
     ) -> anyhow::Result<()> {
         if let Some(path) = json {
             self.json(path, command, result)?;
@@ -356,12 +356,15 @@ pub fn print_warnings(warnings: &[Notice]) {
     }
 }
 
+/// Standard output as the reports write it: buffered in blocks (standard
+/// output alone flushes every line, one system call per line of a report
+/// that may run to hundreds of thousands).
+pub type Stdout = std::io::BufWriter<std::io::StdoutLock<'static>>;
+
 /// Prints a report on standard output.
-pub fn print(
-    write: impl FnOnce(&mut std::io::StdoutLock<'static>) -> std::io::Result<()>,
-) -> anyhow::Result<()> {
+pub fn print(write: impl FnOnce(&mut Stdout) -> std::io::Result<()>) -> anyhow::Result<()> {
     use std::io::Write;
-    let mut out = std::io::stdout().lock();
+    let mut out = std::io::BufWriter::with_capacity(1 << 16, std::io::stdout().lock());
     write(&mut out)?;
     out.flush()?;
     Ok(())

@@ -307,7 +307,7 @@ pub fn finish_over<T: Serialize + WorstValues>(
     command: &str,
     args: &PointArgs,
     results: &[(OperatingPoint, T)],
-    text: impl Fn(&T, &mut std::io::StdoutLock<'static>) -> std::io::Result<()>,
+    text: impl Fn(&T, &mut common::Stdout) -> std::io::Result<()>,
 ) -> anyhow::Result<()> {
     let over = over_envelope(results);
     if results.len() == 1 && results[0].0 == OperatingPoint::default() {
