@@ -134,8 +134,10 @@ pub struct Period {
     orders: Vec<u32>,
     n: usize,
     step: f64,
-    /// e^{jk_jθ_i} at sample i, order j: `table[i * orders + j]` (empty
-    /// when it would exceed [`MAX_TABLE`]; computed as needed then).
+    /// e^{jk_jθ_i} at sample i, order j: `table[j * n + i]`, order by
+    /// order so that a waveform's samples add up order by order, many
+    /// samples at once (empty when it would exceed [`MAX_TABLE`]; computed
+    /// as needed then).
     table: Vec<C64>,
 }
 
@@ -158,13 +160,8 @@ impl Period {
         };
         let table = if n * orders.len() <= MAX_TABLE {
             let mut t = Vec::with_capacity(n * orders.len());
-            for i in 0..n {
-                let theta = i as f64 * step;
-                t.extend(
-                    orders
-                        .iter()
-                        .map(|&k| C64::from_polar(1.0, f64::from(k) * theta)),
-                );
+            for &k in orders {
+                t.extend((0..n).map(|i| C64::from_polar(1.0, f64::from(k) * (i as f64 * step))));
             }
             t
         } else {
@@ -183,23 +180,31 @@ impl Period {
         &self.orders
     }
 
-    /// p at sample i, exactly as [`evaluate`] computes it there.
-    fn sample(&self, phasors: &[C64], i: usize) -> f64 {
-        let h = self.orders.len();
+    /// p at every sample, exactly as [`evaluate`] computes it there: each
+    /// sample's terms added in the order of the orders, from the neutral
+    /// element of `f64`'s sum.
+    fn samples(&self, phasors: &[C64]) -> Vec<f64> {
+        let zero: f64 = std::iter::empty::<f64>().sum();
         if self.table.is_empty() {
-            let theta = i as f64 * self.step;
-            return self
-                .orders
-                .iter()
-                .zip(phasors)
-                .map(|(&k, &p)| (p * C64::from_polar(1.0, f64::from(k) * theta)).re)
-                .sum();
+            return (0..self.n)
+                .map(|i| {
+                    let theta = i as f64 * self.step;
+                    self.orders
+                        .iter()
+                        .zip(phasors)
+                        .map(|(&k, &p)| (p * C64::from_polar(1.0, f64::from(k) * theta)).re)
+                        .sum()
+                })
+                .collect();
         }
-        self.table[i * h..(i + 1) * h]
-            .iter()
-            .zip(phasors)
-            .map(|(&c, &p)| (p * c).re)
-            .sum()
+        let mut v = vec![zero; self.n];
+        for (factors, &p) in self.table.chunks_exact(self.n).zip(phasors) {
+            // (p·c).re as the complex product forms it
+            for (v, c) in v.iter_mut().zip(factors) {
+                *v += p.re * c.re - p.im * c.im;
+            }
+        }
+        v
     }
 
     /// The extremes of p(θ) = Σ Re{P_j e^{jk_jθ}} for `phasors` P_j in the
@@ -228,8 +233,7 @@ impl Period {
         // as the scan does
         let (mut i_max, mut i_min) = (0, 0);
         let (mut v_max, mut v_min) = (f64::NEG_INFINITY, f64::INFINITY);
-        for i in 0..self.n {
-            let v = self.sample(phasors, i);
+        for (i, v) in self.samples(phasors).into_iter().enumerate() {
             if v > v_max {
                 (v_max, i_max) = (v, i);
             }
@@ -263,7 +267,7 @@ impl Period {
             let factor = if self.table.is_empty() {
                 C64::from_polar(1.0, f64::from(k) * centre)
             } else {
-                self.table[i * self.orders.len() + j]
+                self.table[j * self.n + i]
             };
             let q = p * factor;
             let k = f64::from(k);
