@@ -33,8 +33,9 @@
 //! Draws are evaluated in parallel on rayon's pool; each has its own
 //! generator, so the bands are the same on any number of threads.
 
-use super::stats::quantile_sorted;
+use super::stats::quantile;
 use crate::estimate::rng::Rng;
+use rayon::prelude::*;
 use serde::Serialize;
 
 /// Most values kept in memory over all outputs and draws (as 32-bit
@@ -211,7 +212,9 @@ pub fn propagate<E: Send>(
             break;
         }
     }
+    // each output's summary on its own, in parallel (in order)
     let bands = (0..outputs)
+        .into_par_iter()
         .map(|o| {
             let (mean, u, low, high, missing) = summary_with_missing(&values[o], options.coverage);
             Band {
@@ -300,9 +303,8 @@ fn summary_with_missing(samples: &[f32], coverage: f64) -> (f64, f64, f64, f64, 
     } else {
         0.0
     };
-    v.sort_by(f64::total_cmp);
-    let low = quantile_sorted(&v, (1.0 - coverage) / 2.0);
-    let high = quantile_sorted(&v, (1.0 + coverage) / 2.0);
+    let low = quantile(&mut v, (1.0 - coverage) / 2.0);
+    let high = quantile(&mut v, (1.0 + coverage) / 2.0);
     (mean, u, low, high, missing)
 }
 

@@ -108,6 +108,32 @@ pub fn quantile_sorted(sorted: &[f64], p: f64) -> f64 {
     sorted[i - 1] + frac * (sorted[i] - sorted[i - 1])
 }
 
+/// [`quantile_sorted`] of `samples` in any order (no NaN), the same bits,
+/// by selection instead of a sort (linear time): the order statistic at
+/// the upper index is selected and the one below it is the largest of the
+/// part before it. Reorders `samples`.
+///
+/// # Panics
+/// If `samples` is empty.
+pub fn quantile(samples: &mut [f64], p: f64) -> f64 {
+    assert!(!samples.is_empty());
+    let m = samples.len();
+    let pos = (m as f64 + 1.0) * p; // 1-based
+    let min_by = |v: &[f64]| v.iter().copied().min_by(f64::total_cmp);
+    let max_by = |v: &[f64]| v.iter().copied().max_by(f64::total_cmp);
+    if pos <= 1.0 {
+        return min_by(samples).unwrap_or(f64::NAN);
+    }
+    if pos >= m as f64 {
+        return max_by(samples).unwrap_or(f64::NAN);
+    }
+    let i = pos.floor() as usize; // 1-based lower index
+    let frac = pos - i as f64;
+    let (below, &mut upper, _) = samples.select_nth_unstable_by(i, f64::total_cmp);
+    let lower = max_by(below).unwrap_or(upper);
+    lower + frac * (upper - lower)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -169,5 +195,35 @@ mod tests {
         assert_eq!(quantile_sorted(&s, 0.25), 2.5);
         assert_eq!(quantile_sorted(&s, 0.01), 1.0);
         assert_eq!(quantile_sorted(&s, 0.99), 9.0);
+    }
+
+    // Selection gives the sorted rule's bits, ties and signed zeros
+    // included, at every probability.
+    #[test]
+    fn selection_and_sorting_agree() {
+        let mut seed = 7_u64;
+        for m in [1, 2, 3, 10, 999, 1000] {
+            let v: Vec<f64> = (0..m)
+                .map(|k| {
+                    seed = seed.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+                    match k % 7 {
+                        0 => 0.0,
+                        1 => -0.0,
+                        2 => 1.5,
+                        _ => (seed >> 11) as f64 / (1u64 << 53) as f64 - 0.5,
+                    }
+                })
+                .collect();
+            let mut sorted = v.clone();
+            sorted.sort_by(f64::total_cmp);
+            for p in [0.0, 0.001, 0.025, 0.05, 0.3, 0.5, 0.95, 0.975, 0.999, 1.0] {
+                let mut work = v.clone();
+                assert_eq!(
+                    quantile(&mut work, p).to_bits(),
+                    quantile_sorted(&sorted, p).to_bits(),
+                    "m {m}, p {p}"
+                );
+            }
+        }
     }
 }
