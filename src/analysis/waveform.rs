@@ -138,11 +138,14 @@ pub struct Period {
     orders: Vec<u32>,
     n: usize,
     step: f64,
-    /// e^{jk_jθ_i} at sample i, order j: `table[j * n + i]`, order by
-    /// order so that a waveform's samples add up order by order, many
-    /// samples at once (empty when it would exceed [`MAX_TABLE`]; computed
-    /// as needed then).
-    table: Vec<C64>,
+    /// e^{jk_jθ_i} at sample i, order j: real parts `cos[j * n + i]`,
+    /// imaginary parts `sin[j * n + i]`, order by order so that a
+    /// waveform's samples add up order by order, many samples at once
+    /// (empty when they would exceed [`MAX_TABLE`]; computed as needed
+    /// then).
+    cos: Vec<f64>,
+    /// See `cos`.
+    sin: Vec<f64>,
 }
 
 /// Degree of the Taylor polynomial of the golden-section comparisons.
@@ -162,20 +165,22 @@ impl Period {
         } else {
             std::f64::consts::TAU / n as f64
         };
-        let table = if n * orders.len() <= MAX_TABLE {
-            let mut t = Vec::with_capacity(n * orders.len());
+        let (mut cos, mut sin) = (Vec::new(), Vec::new());
+        if n * orders.len() <= MAX_TABLE {
             for &k in orders {
-                t.extend((0..n).map(|i| C64::from_polar(1.0, f64::from(k) * (i as f64 * step))));
+                for i in 0..n {
+                    let c = C64::from_polar(1.0, f64::from(k) * (i as f64 * step));
+                    cos.push(c.re);
+                    sin.push(c.im);
+                }
             }
-            t
-        } else {
-            Vec::new()
-        };
+        }
         Period {
             orders: orders.to_vec(),
             n,
             step,
-            table,
+            cos,
+            sin,
         }
     }
 
@@ -189,7 +194,7 @@ impl Period {
     /// element of `f64`'s sum.
     fn samples(&self, phasors: &[C64]) -> Vec<f64> {
         let zero: f64 = std::iter::empty::<f64>().sum();
-        if self.table.is_empty() {
+        if self.cos.is_empty() {
             return (0..self.n)
                 .map(|i| {
                     let theta = i as f64 * self.step;
@@ -202,10 +207,14 @@ impl Period {
                 .collect();
         }
         let mut v = vec![zero; self.n];
-        for (factors, &p) in self.table.chunks_exact(self.n).zip(phasors) {
+        let factors = self
+            .cos
+            .chunks_exact(self.n)
+            .zip(self.sin.chunks_exact(self.n));
+        for ((cos, sin), &p) in factors.zip(phasors) {
             // (p·c).re as the complex product forms it
-            for (v, c) in v.iter_mut().zip(factors) {
-                *v += p.re * c.re - p.im * c.im;
+            for ((v, &c), &s) in v.iter_mut().zip(cos).zip(sin) {
+                *v += p.re * c - p.im * s;
             }
         }
         v
@@ -268,10 +277,10 @@ impl Period {
         // Q = P e^{jkθ_i} (the table's factor at the sample).
         let mut coeffs = [0.0; TAYLOR_DEGREE + 1];
         for (j, (&k, &p)) in self.orders.iter().zip(phasors).enumerate() {
-            let factor = if self.table.is_empty() {
+            let factor = if self.cos.is_empty() {
                 C64::from_polar(1.0, f64::from(k) * centre)
             } else {
-                self.table[j * self.n + i]
+                C64::new(self.cos[j * self.n + i], self.sin[j * self.n + i])
             };
             let q = p * factor;
             let k = f64::from(k);
