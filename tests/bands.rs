@@ -566,6 +566,35 @@ fn verdicts_with_bands_pass_fail_or_are_uncertain() {
     let _ = std::fs::remove_dir_all(dir);
 }
 
+/// `assess --bands --plot`: the chart of a point with an rms limit draws
+/// the band of its worst value as an error bar at the worst point, named
+/// by its coverage in the legend; without `--bands` there is none.
+#[test]
+fn the_assess_chart_draws_the_worst_values_band() {
+    let dir = std::env::temp_dir().join(format!("ripline-bands-chart-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let (text, _) = compliance_case(&[1.05]);
+    let circuit = dir.join("c.yaml");
+    std::fs::write(&circuit, text).unwrap();
+    let chart = |name: &str, bands: &[&str]| {
+        let svg = dir.join(name);
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+            .args(["assess", circuit.to_str().unwrap(), "--speeds", "21"])
+            .args(["--plot", svg.to_str().unwrap()])
+            .args(bands)
+            .output()
+            .unwrap();
+        assert!(svg.exists(), "{}", String::from_utf8_lossy(&o.stderr));
+        std::fs::read_to_string(svg).unwrap()
+    };
+    let with = chart("with.svg", &["--bands", "monte-carlo", "--coverage", "95"]);
+    assert!(roxmltree::Document::parse(&with).is_ok());
+    assert!(with.contains("worst, 95.0 % band"));
+    let without = chart("without.svg", &[]);
+    assert!(!without.contains("% band"));
+    let _ = std::fs::remove_dir_all(dir);
+}
+
 /// `response --bands` and `sweep --bands` write the ends of each
 /// amplitude's band as CSV columns (the headers pinned here), the same
 /// numbers as the JSON's bands; their plots carry the shaded bands (a

@@ -478,6 +478,16 @@ fn tap_charts(r: &AssessReport, ti: usize) -> Option<Vec<plot::LineChart>> {
     }
     let n_panels = panels.len();
     let limit_bar = limit.map(|l| l.value_pa / 1e5);
+    // with --bands: the rms verdict's worst point and the ends of its band
+    let rms_band = r.verdict_bands.as_ref().and_then(|b| {
+        let (v, band) = a
+            .verdicts
+            .iter()
+            .zip(&b.verdicts)
+            .find(|(v, _)| &v.tap == tap && v.limit.kind == LimitKind::Rms)?;
+        let (low, high) = band.worst_pa.as_ref()?.interval()?;
+        Some((v.worst.clone()?, low, high, b.info.coverage))
+    });
     let charts: Vec<plot::LineChart> = panels
         .iter()
         .enumerate()
@@ -518,6 +528,19 @@ fn tap_charts(r: &AssessReport, ti: usize) -> Option<Vec<plot::LineChart>> {
                     });
                 }
             }
+            if let Some((w, low, high, coverage)) = rms_band
+                .as_ref()
+                .filter(|b| b.0.point.case == *case && b.0.point.pressure_pa == *pressure)
+            {
+                series.push(plot::XySeries {
+                    name: format!("worst, {} % band", super::table::sig(100.0 * coverage, 3)),
+                    points: vec![(w.speed_rev_s * 60.0, w.value_pa / 1e5)],
+                    error_bars: Some(vec![(low / 1e5, high / 1e5)]),
+                    style: plot::SeriesStyle::Points,
+                    color: Some([0, 0, 0]),
+                    ..Default::default()
+                });
+            }
             let panel = OperatingPoint {
                 pressure_pa: *pressure,
                 temperature_k: None,
@@ -538,7 +561,10 @@ fn tap_charts(r: &AssessReport, ti: usize) -> Option<Vec<plot::LineChart>> {
             };
             let (lo, hi) = series
                 .iter()
-                .flat_map(|s| s.points.iter().map(|p| p.1))
+                .flat_map(|s| {
+                    let bars = s.error_bars.iter().flatten().flat_map(|b| [b.0, b.1]);
+                    s.points.iter().map(|p| p.1).chain(bars)
+                })
                 .chain(limit_bar)
                 .fold((f64::INFINITY, 0.0f64), |(lo, hi), v| {
                     (lo.min(v), hi.max(v))
