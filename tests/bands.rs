@@ -566,6 +566,58 @@ fn verdicts_with_bands_pass_fail_or_are_uncertain() {
     let _ = std::fs::remove_dir_all(dir);
 }
 
+/// `response --bands` over a band with no resonance (20–200 Hz below the
+/// quarter-wave line's first, c/4L = 300 Hz) gives the bands of the
+/// curves. The line is lossless, its end at the tank open and the pump an
+/// ideal flow source, so |P/Q| = (ρc/A)·tan(ωL/c), which falls as c rises
+/// (d/dc[c·tan(k/c)] = tan x − x·sec²x < 0 for 0 < x < π/2): the band's ends
+/// at frequency f are that value at the 95th and 5th percentiles of c,
+/// 1200·(1 ± 0.045) m/s (c rectangular over ±5 %, README). With 400 draws
+/// the percentiles of c carry a sampling error of about 0.11 % (√(p(1−p)/n)
+/// over the density), which moves |P/Q| at 100 Hz (sensitivity −0.21) by
+/// under 0.03 %; checked to 0.2 %.
+#[test]
+fn response_bands_without_a_resonance_band_the_curves() {
+    let dir = std::env::temp_dir().join(format!("ripline-bands-flat-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let circuit = dir.join("quarter.yaml");
+    std::fs::write(&circuit, quarter_wave("1200 m/s ± 5 %", "lossless")).unwrap();
+    let csv = dir.join("r.csv");
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(["response", circuit.to_str().unwrap(), "--band", "20..200"])
+        .args(["--bands", "monte-carlo", "--draws", "400"])
+        .args(["--csv", csv.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let report = String::from_utf8_lossy(&o.stdout);
+    assert!(report.contains("no resonance in the band: the bands of the curves are in the CSV"));
+    let table = std::fs::read_to_string(&csv).unwrap();
+    let (rho, area, length) = (870.0, std::f64::consts::PI * 0.0125f64.powi(2), 1.0);
+    let z = |f: f64, c: f64| rho * c / area * (2.0 * std::f64::consts::PI * f * length / c).tan();
+    let mut checked = 0;
+    for line in table.lines().skip(1) {
+        let c: Vec<&str> = line.split(',').collect();
+        let f: f64 = c[1].parse().unwrap();
+        if c[0] != "pump outlet" || !(90.0..110.0).contains(&f) {
+            continue;
+        }
+        let (low, high): (f64, f64) = (c[4].parse().unwrap(), c[5].parse().unwrap());
+        let (want_low, want_high) = (z(f, 1200.0 * 1.045), z(f, 1200.0 * 0.955));
+        assert!(
+            (low / want_low - 1.0).abs() < 2e-3,
+            "{f} Hz: {low} vs {want_low}"
+        );
+        assert!(
+            (high / want_high - 1.0).abs() < 2e-3,
+            "{f} Hz: {high} vs {want_high}"
+        );
+        checked += 1;
+    }
+    assert!(checked > 0);
+    let _ = std::fs::remove_dir_all(dir);
+}
+
 /// `assess --bands --plot`: the chart of a point with an rms limit draws
 /// the band of its worst value as an error bar at the worst point, named
 /// by its coverage in the legend; without `--bands` there is none.

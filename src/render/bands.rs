@@ -137,6 +137,12 @@ pub fn ripple_text(b: &RippleBands, out: &mut impl Write) -> std::io::Result<()>
 pub fn response_text(b: &ResponseBands, out: &mut impl Write) -> std::io::Result<()> {
     writeln!(out)?;
     info_text(&b.info, out)?;
+    if b.resonances.is_empty() {
+        return writeln!(
+            out,
+            "no resonance in the band: the bands of the curves are in the CSV, the JSON and the plot"
+        );
+    }
     let mut t = Table::new(&[
         ("#", Align::Right),
         ("frequency Hz", Align::Right),

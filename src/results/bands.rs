@@ -230,14 +230,8 @@ pub fn response_bands(
         .iter()
         .map(|r| r.resonance.freq_hz)
         .collect();
-    if f0.is_empty() {
-        return Err(Error::Request(format!(
-            "{}: no resonance in the band to give uncertainty bands of",
-            nominal.subject.file
-        )));
-    }
     // the curves too when their draws fit in memory; the resonances decide
-    // when the draws stop
+    // when the draws stop (the curves when the band holds no resonance)
     let np = nominal.points.len();
     let nf = nominal.freqs_hz.len();
     let curve_outputs = (np + 1) * nf;
@@ -249,6 +243,13 @@ pub fn response_bands(
             .unwrap_or(2 * bands.monte_carlo.batch()),
     };
     let with_curves = (curve_outputs + 2 * f0.len()).saturating_mul(planned) <= MAX_STORED;
+    if f0.is_empty() && !with_curves {
+        return Err(Error::Request(format!(
+            "{}: no resonance in the band, and the bands of the curves would not fit in memory \
+             ({} values per draw): give fewer --points or a narrower --band",
+            nominal.subject.file, curve_outputs
+        )));
+    }
     let evaluate = |c: Circuit| {
         let out = response_outputs(c, s.pump_index, &nominal.freqs_hz, &f0)?;
         if out.len() != curve_outputs + 2 * f0.len() {
@@ -265,16 +266,28 @@ pub fn response_bands(
         })
     };
     let first = if with_curves { curve_outputs } else { 0 };
+    let judged = if f0.is_empty() {
+        0..curve_outputs
+    } else {
+        first..first + 2 * f0.len()
+    };
     let p: Propagated = propagate(
         template,
         point,
         &prepare,
         &evaluate,
-        Some(first..first + 2 * f0.len()),
+        Some(judged),
         bands,
         progress,
     )
-    .map_err(|e| band_error(e, "the resonances"))?;
+    .map_err(|e| {
+        let what = if f0.is_empty() {
+            "the response curves"
+        } else {
+            "the resonances"
+        };
+        band_error(e, what)
+    })?;
     let resonances = f0
         .iter()
         .zip(p.outputs[first..].chunks_exact(2))
