@@ -562,7 +562,9 @@ fn tap_charts(r: &AssessReport, ti: usize) -> Option<Vec<plot::LineChart>> {
             let (lo, hi) = series
                 .iter()
                 .flat_map(|s| {
+                    // (a band reaching zero is drawn to the bottom of the log axis)
                     let bars = s.error_bars.iter().flatten().flat_map(|b| [b.0, b.1]);
+                    let bars = bars.filter(|v| *v > 0.0);
                     s.points.iter().map(|p| p.1).chain(bars)
                 })
                 .chain(limit_bar)
