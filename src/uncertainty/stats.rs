@@ -87,6 +87,33 @@ pub fn chi2_quantile(p: f64, nu: f64) -> f64 {
     (nu * (1.0 - a + z * a.sqrt()).powi(3)).max(0.0)
 }
 
+/// Where the p-quantile of m samples lies among their order statistics
+/// (the rule of JCGM 101:2008 §7.7: the value at (M+1)·p, interpolated).
+enum QuantileAt {
+    /// The smallest sample.
+    Lowest,
+    /// The largest sample.
+    Highest,
+    /// Between the order statistics of 0-based indices `k` and `k + 1`, at
+    /// `frac` of the way.
+    Between { k: usize, frac: f64 },
+}
+
+fn quantile_at(m: usize, p: f64) -> QuantileAt {
+    let pos = (m as f64 + 1.0) * p; // 1-based
+    if pos <= 1.0 {
+        return QuantileAt::Lowest;
+    }
+    if pos >= m as f64 {
+        return QuantileAt::Highest;
+    }
+    let i = pos.floor() as usize; // 1-based lower index
+    QuantileAt::Between {
+        k: i - 1,
+        frac: pos - i as f64,
+    }
+}
+
 /// The p-quantile of sorted samples by linear interpolation between order
 /// statistics (the rule of JCGM 101:2008 §7.7: the value at (M+1)·p,
 /// interpolated).
@@ -95,17 +122,11 @@ pub fn chi2_quantile(p: f64, nu: f64) -> f64 {
 /// If `sorted` is empty.
 pub fn quantile_sorted(sorted: &[f64], p: f64) -> f64 {
     assert!(!sorted.is_empty());
-    let m = sorted.len();
-    let pos = (m as f64 + 1.0) * p; // 1-based
-    if pos <= 1.0 {
-        return sorted[0];
+    match quantile_at(sorted.len(), p) {
+        QuantileAt::Lowest => sorted[0],
+        QuantileAt::Highest => sorted[sorted.len() - 1],
+        QuantileAt::Between { k, frac } => sorted[k] + frac * (sorted[k + 1] - sorted[k]),
     }
-    if pos >= m as f64 {
-        return sorted[m - 1];
-    }
-    let i = pos.floor() as usize; // 1-based lower index
-    let frac = pos - i as f64;
-    sorted[i - 1] + frac * (sorted[i] - sorted[i - 1])
 }
 
 /// [`quantile_sorted`] of `samples` in any order (no NaN), the same bits,
@@ -117,21 +138,20 @@ pub fn quantile_sorted(sorted: &[f64], p: f64) -> f64 {
 /// If `samples` is empty.
 pub fn quantile(samples: &mut [f64], p: f64) -> f64 {
     assert!(!samples.is_empty());
-    let m = samples.len();
-    let pos = (m as f64 + 1.0) * p; // 1-based
-    let min_by = |v: &[f64]| v.iter().copied().min_by(f64::total_cmp);
-    let max_by = |v: &[f64]| v.iter().copied().max_by(f64::total_cmp);
-    if pos <= 1.0 {
-        return min_by(samples).unwrap_or(f64::NAN);
+    let largest = |v: &[f64]| v.iter().copied().max_by(f64::total_cmp);
+    match quantile_at(samples.len(), p) {
+        QuantileAt::Lowest => samples
+            .iter()
+            .copied()
+            .min_by(f64::total_cmp)
+            .unwrap_or(f64::NAN),
+        QuantileAt::Highest => largest(samples).unwrap_or(f64::NAN),
+        QuantileAt::Between { k, frac } => {
+            let (below, &mut upper, _) = samples.select_nth_unstable_by(k + 1, f64::total_cmp);
+            let lower = largest(below).unwrap_or(upper);
+            lower + frac * (upper - lower)
+        }
     }
-    if pos >= m as f64 {
-        return max_by(samples).unwrap_or(f64::NAN);
-    }
-    let i = pos.floor() as usize; // 1-based lower index
-    let frac = pos - i as f64;
-    let (below, &mut upper, _) = samples.select_nth_unstable_by(i, f64::total_cmp);
-    let lower = max_by(below).unwrap_or(upper);
-    lower + frac * (upper - lower)
 }
 
 #[cfg(test)]
