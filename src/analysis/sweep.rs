@@ -242,9 +242,8 @@ impl SweepResult {
     /// Peak amplitude (Pa) of order `order_i` at point `point_i` and speed
     /// `speed_i` (indices into the grids).
     pub fn amplitude_pa(&self, speed_i: usize, point_i: usize, order_i: usize) -> f64 {
-        // √(re² + im²): hypot's guard against overflow is never needed for
-        // pressures, and a band's thousand draws read every amplitude
-        self.phasor(speed_i, point_i, order_i).norm_sqr().sqrt()
+        // as the worst-speed search forms it; a band's draws read them all
+        super::worst::magnitude(self.phasor(speed_i, point_i, order_i))
     }
 
     /// Pressure phasor (peak, Pa) of order `order_i` at point `point_i` and

@@ -196,7 +196,7 @@ pub fn measure_value(measure: Measure, orders: &[u32], phasors: &[C64], other_ms
 /// |p| as √(re² + im²): the searches compare many magnitudes, and this is
 /// several times cheaper than `norm` (hypot), whose guard against overflow
 /// pressures in pascals never need.
-fn magnitude(p: C64) -> f64 {
+pub(crate) fn magnitude(p: C64) -> f64 {
     p.norm_sqr().sqrt()
 }
 
