@@ -15,6 +15,7 @@ use ripline::io::quantity::Spread;
 use ripline::uncertainty::bands::{BandRequest, Method, propagate, response_outputs};
 use ripline::uncertainty::linear::coverage_factor;
 use ripline::uncertainty::monte_carlo::Options;
+use std::path::PathBuf;
 
 fn quarter_wave(wave_speed: &str, model: &str) -> String {
     format!(
@@ -35,6 +36,16 @@ taps:
   - {{name: pump outlet, node: a}}
 "
     )
+}
+
+/// A fresh scratch folder for one test (`tag`) holding the circuit `text`
+/// as `name`: the folder and the circuit's path.
+fn circuit_in_scratch(tag: &str, name: &str, text: &str) -> (PathBuf, PathBuf) {
+    let dir = std::env::temp_dir().join(format!("ripline-bands-{tag}-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let circuit = dir.join(name);
+    std::fs::write(&circuit, text).unwrap();
+    (dir, circuit)
 }
 
 /// Frequencies from `lo` to `hi` Hz in 0.25 % steps.
@@ -195,10 +206,7 @@ fn solve_bands_of_a_linear_input_are_the_image_of_its_limits() {
         )
         .replace("1.6 GPa ± 10 %", "1.6 GPa");
     assert_ne!(text, model);
-    let dir = std::env::temp_dir().join(format!("ripline-bands-cli-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let circuit = dir.join("linear.yaml");
-    std::fs::write(&circuit, text).unwrap();
+    let (dir, circuit) = circuit_in_scratch("cli", "linear.yaml", &text);
     let run = |method: &str, csv: &str| {
         let csv = dir.join(csv);
         let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
@@ -283,10 +291,11 @@ fn bands_of_a_circuit_with_nothing_uncertain_are_refused() {
 /// `norm.ppf(0.95)`): 285.75 .. 314.25 Hz and 857.26 .. 942.73 Hz.
 #[test]
 fn response_bands_of_the_quarter_wave_line_are_the_image_of_the_wave_speed() {
-    let dir = std::env::temp_dir().join(format!("ripline-bands-resp-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let circuit = dir.join("quarter.yaml");
-    std::fs::write(&circuit, quarter_wave("1200 m/s ± 5 %", "lossless")).unwrap();
+    let (dir, circuit) = circuit_in_scratch(
+        "resp",
+        "quarter.yaml",
+        &quarter_wave("1200 m/s ± 5 %", "lossless"),
+    );
     let run = |method: &str| {
         let json = dir.join(format!("{method}.json"));
         let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
@@ -347,10 +356,11 @@ fn response_bands_of_the_quarter_wave_line_are_the_image_of_the_wave_speed() {
 /// nominal value × (1 ∓ 0.045), as for the resonance above.
 #[test]
 fn sweep_bands_of_the_worst_speed_are_the_image_of_the_wave_speed() {
-    let dir = std::env::temp_dir().join(format!("ripline-bands-sweep-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let circuit = dir.join("quarter.yaml");
-    std::fs::write(&circuit, quarter_wave("1200 m/s ± 5 %", "laminar")).unwrap();
+    let (dir, circuit) = circuit_in_scratch(
+        "sweep",
+        "quarter.yaml",
+        &quarter_wave("1200 m/s ± 5 %", "laminar"),
+    );
     let json = dir.join("sweep.json");
     let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
         .args([
@@ -391,10 +401,8 @@ fn sweep_bands_of_the_worst_speed_are_the_image_of_the_wave_speed() {
 /// tolerance.
 #[test]
 fn response_and_sweep_bands_of_a_circuit_with_nothing_uncertain_are_refused() {
-    let dir = std::env::temp_dir().join(format!("ripline-bands-none-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let circuit = dir.join("certain.yaml");
-    std::fs::write(&circuit, quarter_wave("1200 m/s", "laminar")).unwrap();
+    let (dir, circuit) =
+        circuit_in_scratch("none", "certain.yaml", &quarter_wave("1200 m/s", "laminar"));
     let json = dir.join("out.json");
     for args in [
         ["response", "--band", "100..1000", "--bands", "monte-carlo"],
@@ -578,10 +586,11 @@ fn verdicts_with_bands_pass_fail_or_are_uncertain() {
 /// under 0.03 %; checked to 0.2 %.
 #[test]
 fn response_bands_without_a_resonance_band_the_curves() {
-    let dir = std::env::temp_dir().join(format!("ripline-bands-flat-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let circuit = dir.join("quarter.yaml");
-    std::fs::write(&circuit, quarter_wave("1200 m/s ± 5 %", "lossless")).unwrap();
+    let (dir, circuit) = circuit_in_scratch(
+        "flat",
+        "quarter.yaml",
+        &quarter_wave("1200 m/s ± 5 %", "lossless"),
+    );
     let csv = dir.join("r.csv");
     let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
         .args(["response", circuit.to_str().unwrap(), "--band", "20..200"])
@@ -623,11 +632,8 @@ fn response_bands_without_a_resonance_band_the_curves() {
 /// by its coverage in the legend; without `--bands` there is none.
 #[test]
 fn the_assess_chart_draws_the_worst_values_band() {
-    let dir = std::env::temp_dir().join(format!("ripline-bands-chart-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
     let (text, _) = compliance_case(&[1.05]);
-    let circuit = dir.join("c.yaml");
-    std::fs::write(&circuit, text).unwrap();
+    let (dir, circuit) = circuit_in_scratch("chart", "c.yaml", &text);
     let chart = |name: &str, bands: &[&str]| {
         let svg = dir.join(name);
         let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
@@ -653,10 +659,11 @@ fn the_assess_chart_draws_the_worst_values_band() {
 /// filled polygon in the SVG).
 #[test]
 fn csv_band_columns_agree_with_the_json_and_the_plots_shade_them() {
-    let dir = std::env::temp_dir().join(format!("ripline-bands-csv-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let circuit = dir.join("quarter.yaml");
-    std::fs::write(&circuit, quarter_wave("1200 m/s ± 5 %", "laminar")).unwrap();
+    let (dir, circuit) = circuit_in_scratch(
+        "csv",
+        "quarter.yaml",
+        &quarter_wave("1200 m/s ± 5 %", "laminar"),
+    );
     let run = |args: &[&str]| {
         let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
             .args(args)
