@@ -627,6 +627,84 @@ fn response_bands_without_a_resonance_band_the_curves() {
     let _ = std::fs::remove_dir_all(dir);
 }
 
+/// `assess --bands` over two load cases of the compliance case, with the
+/// bulk modulus B ± 20 % (rectangular) the only uncertain input: in case
+/// "open" (chamber 1 L, restrictor R₁ = 1e10) the rms ripple
+/// Q·R/√(2(1 + (ωRV/B)²)) is nearly proportional to B (ωR₁C ≈ 15); in case
+/// "throttled" (chamber 1 mL, R₂ = 6.6e8, ωR₂C ≈ 1e-3) it is Q·R₂/√2 and
+/// hardly moves, 0.3 dB below the open case's nominal. Both rise with B and
+/// with speed (worst at the top speed, as above), so a draw's worst over the
+/// two cases is the larger of the two at the drawn B and its percentiles
+/// are that larger value at B's percentiles, 1.6 GPa × (1 ± 0.18) (90 %:
+/// 5th and 95th of the rectangular distribution). The low end is then the
+/// throttled case's value, not the open case's at 0.82·B: the throttled
+/// case is the worst in the draws where B is low. With first-order bands,
+/// the highest low end and the highest high end of the two cases'.
+#[test]
+fn a_verdicts_band_covers_the_envelope_points_that_can_be_worst() {
+    let (b, v, r1, r2, z, n) = (1.6e9, 1e-3, 1e10, 6.6e8, 9.0, 2500.0 / 60.0);
+    let q = 1.0 / 60_000.0 * 2500.0 / 1500.0;
+    let omega = 2.0 * std::f64::consts::PI * z * n;
+    let rms =
+        |r: f64, v: f64, b: f64| q * r / (2f64.sqrt() * (1.0 + (omega * r * v / b).powi(2)).sqrt());
+    let open = |b: f64| rms(r1, v, b);
+    let throttled = |b: f64| rms(r2, 1e-6, b);
+    assert!(throttled(b) < open(b) && throttled(b) > 0.95 * open(b));
+    let (text, _) = compliance_case(&[1.5]);
+    let text = text
+        .replace("bulk_modulus: 1.6 GPa", "bulk_modulus: \"1.6 GPa ± 20 %\"")
+        .replace("amplitude: \"1 L/min ± 10 %\"", "amplitude: 1 L/min")
+        + "envelope:\n  cases:\n    - {name: open}\n    - name: throttled\n      set:\n        chamber: {volume: 1 mL}\n        restrictor: {resistance: 6.6e8}\n";
+    let dir = std::env::temp_dir().join(format!("ripline-bands-rivals-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let bands = ["--bands", "monte-carlo", "--speeds", "21"];
+    let (code, rows) = assess_verdicts(&dir, "mc", &text, &bands);
+    assert_eq!(code, Some(0), "{rows:?}");
+    let (_, worst, lo, hi) = rows[0].clone();
+    assert!(
+        (worst / open(b) - 1.0).abs() < 1e-6,
+        "{worst} against {}",
+        open(b)
+    );
+    let (b_lo, b_hi) = (b * 0.82, b * 1.18);
+    assert!(
+        (lo / throttled(b_lo) - 1.0).abs() < 1e-6,
+        "{lo} against {}",
+        throttled(b_lo)
+    );
+    assert!(
+        open(b_lo) < 0.9 * lo,
+        "the open case alone would give a lower end"
+    );
+    // sampling error of the 95 % quantile with ≥ 2000 draws, as above
+    assert!(
+        (hi / open(b_hi) - 1.0).abs() < 0.004,
+        "{hi} against {}",
+        open(b_hi)
+    );
+    let (code, rows) = assess_verdicts(
+        &dir,
+        "first",
+        &text,
+        &["--bands", "first-order", "--speeds", "21"],
+    );
+    assert_eq!(code, Some(0));
+    // first order: value ± k·|∂value/∂B|·u(B), u(B) = 0.2·B/√3, k = 1.6449
+    // (scipy `norm.ppf(0.95)`), the derivative by central differences here
+    let k_u = 1.644_853_626_951_472_2 * 0.2 * b / 3f64.sqrt();
+    let slope = |f: &dyn Fn(f64) -> f64| (f(b * 1.000_001) - f(b * 0.999_999)) / (2e-6 * b);
+    let (_, _, lo, hi) = rows[0].clone();
+    assert!(
+        (lo / (throttled(b) - k_u * slope(&throttled)) - 1.0).abs() < 1e-5,
+        "{lo}"
+    );
+    assert!(
+        (hi / (open(b) + k_u * slope(&open)) - 1.0).abs() < 1e-3,
+        "{hi}"
+    );
+    let _ = std::fs::remove_dir_all(dir);
+}
+
 /// `assess --bands --plot`: the chart of a point with an rms limit draws
 /// the band of its worst value as an error bar at the worst point, named
 /// by its coverage in the legend; without `--bands` there is none.

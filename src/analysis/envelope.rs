@@ -90,6 +90,11 @@ pub struct Verdict {
     pub margin_pa: f64,
     /// Whether the worst stays within the limit.
     pub pass: bool,
+    /// The worst at each envelope point (in the assessment's order; `None`
+    /// where no ripple reaches the tap): where another point comes close to
+    /// the worst, uncertain inputs may make it the worst.
+    #[serde(skip)]
+    pub at_points: Vec<Option<WorstPoint>>,
 }
 
 /// What a finding is.
@@ -302,10 +307,11 @@ pub fn assess(
 
     let mut sweeps = Vec::with_capacity(points.len());
     let mut warnings: Vec<EnvelopeWarning> = Vec::new();
-    // Per limit: the worst (point index, WorstSpeed, order index) so far.
-    type WorstSoFar = Option<(usize, WorstSpeed, Option<usize>)>;
-    let mut limit_worst: Vec<Vec<WorstSoFar>> =
-        limits.iter().map(|t| vec![None; t.limits.len()]).collect();
+    // Per limit: the worst at each envelope point.
+    let mut limit_worst: Vec<Vec<Vec<Option<WorstPoint>>>> = limits
+        .iter()
+        .map(|t| vec![Vec::with_capacity(points.len()); t.limits.len()])
+        .collect();
     for (pi, (point, circuit)) in points.iter().enumerate() {
         let label = point.label();
         let shaft = pick_shaft(circuit, shaft).unwrap_or_else(|| base_shaft.clone());
@@ -348,21 +354,22 @@ pub fn assess(
             add_warning(&mut warnings, w.to_string(), &label);
         }
         for (li, tap_limits) in limits.iter().enumerate() {
-            let Some(tp) = swept.points.iter().position(|p| *p == tap_limits.tap) else {
-                continue; // cut off at this point: no ripple
-            };
+            let tp = swept.points.iter().position(|p| *p == tap_limits.tap);
             for (ki, limit) in tap_limits.limits.iter().enumerate() {
-                let candidates =
-                    limited_worsts(&plan, &shaft, &swept, tp, limit.kind).map_err(at_point)?;
-                for (w, o) in candidates {
-                    let slot = &mut limit_worst[li][ki];
-                    if slot
-                        .as_ref()
-                        .is_none_or(|(_, b, _)| w.value_pa > b.value_pa)
-                    {
-                        *slot = Some((pi, w, o));
-                    }
-                }
+                // None: cut off at this point, no ripple
+                let here = match tp {
+                    Some(tp) => limited_worsts(&plan, &shaft, &swept, tp, limit.kind)
+                        .map_err(at_point)?
+                        .into_iter()
+                        .fold(None::<(WorstSpeed, Option<usize>)>, |b, (w, o)| match b {
+                            Some(b) if w.value_pa <= b.0.value_pa => Some(b),
+                            _ => Some((w, o)),
+                        })
+                        .filter(|(w, _)| w.value_pa > 0.0)
+                        .map(|(w, o)| worst_point(point, &swept, &w, o)),
+                    None => None,
+                };
+                limit_worst[li][ki].push(here);
             }
         }
         sweeps.push(PointSweep {
@@ -373,18 +380,6 @@ pub fn assess(
         progress(pi + 1);
     }
 
-    let worst_point = |pi: usize, w: &WorstSpeed, order_i: Option<usize>| {
-        let s = &sweeps[pi].sweep;
-        let oi = order_i.unwrap_or_else(|| w.dominant_order());
-        let order = s.orders.get(oi).copied().unwrap_or(1);
-        WorstPoint {
-            point: sweeps[pi].point.clone(),
-            speed_rev_s: w.speed_rev_s,
-            order,
-            frequency_hz: f64::from(order) * s.shaft.fundamental_hz(w.speed_rev_s),
-            value_pa: w.value_pa,
-        }
-    };
     let worst: Vec<Option<WorstPoint>> = taps
         .iter()
         .map(|tap| {
@@ -397,18 +392,23 @@ pub fn assess(
                 })
                 .max_by(|a, b| a.1.value_pa.total_cmp(&b.1.value_pa))
                 .filter(|(_, w)| w.value_pa > 0.0)
-                .map(|(pi, w)| worst_point(pi, w, None))
+                .map(|(pi, w)| worst_point(&sweeps[pi].point, &sweeps[pi].sweep, w, None))
         })
         .collect();
     let verdicts = limits
         .iter()
         .zip(&limit_worst)
         .flat_map(|(tl, slots)| {
-            tl.limits.iter().zip(slots).map(|(limit, slot)| {
-                let worst = slot
-                    .as_ref()
-                    .filter(|(_, w, _)| w.value_pa > 0.0)
-                    .map(|(pi, w, o)| worst_point(*pi, w, *o));
+            tl.limits.iter().zip(slots).map(|(limit, at_points)| {
+                // the first point of the highest value
+                let worst = at_points
+                    .iter()
+                    .flatten()
+                    .fold(None::<&WorstPoint>, |b, w| match b {
+                        Some(b) if w.value_pa <= b.value_pa => Some(b),
+                        _ => Some(w),
+                    })
+                    .cloned();
                 let value = worst.as_ref().map_or(0.0, |w| w.value_pa);
                 Verdict {
                     tap: tl.tap.clone(),
@@ -417,6 +417,7 @@ pub fn assess(
                     margin_pa: limit.value_pa - value,
                     pass: value <= limit.value_pa,
                     worst,
+                    at_points: at_points.clone(),
                 }
             })
         })
@@ -433,6 +434,25 @@ pub fn assess(
         warnings,
         sweeps,
     })
+}
+
+/// Where `w` of sweep `s` at envelope point `point` lies: its speed, its
+/// order (`order_i`, else the largest there) and value.
+fn worst_point(
+    point: &OperatingPoint,
+    s: &SweepResult,
+    w: &WorstSpeed,
+    order_i: Option<usize>,
+) -> WorstPoint {
+    let oi = order_i.unwrap_or_else(|| w.dominant_order());
+    let order = s.orders.get(oi).copied().unwrap_or(1);
+    WorstPoint {
+        point: point.clone(),
+        speed_rev_s: w.speed_rev_s,
+        order,
+        frequency_hz: f64::from(order) * s.shaft.fundamental_hz(w.speed_rev_s),
+        value_pa: w.value_pa,
+    }
 }
 
 /// The true worst speeds of what a limit of `kind` bounds at point

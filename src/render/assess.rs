@@ -270,7 +270,8 @@ pub fn text(r: &AssessReport, out: &mut impl Write) -> std::io::Result<()> {
             super::bands::info_text(&b.info, out)?;
             writeln!(
                 out,
-                "band of each limit's worst value: its true worst over the speed range at the envelope point where it is worst nominally, over the uncertain inputs; PASS only when the whole band is within the limit, FAIL when the nominal worst is over it, UNCERTAIN when the nominal is within but the band reaches over"
+                "band of each limit's worst value: its true worst over the speed range and over the envelope points that can be worst (the nominal worst and each point whose first-order band, widened two-fold, reaches it; at most {}), over the uncertain inputs; PASS only when the whole band is within the limit, FAIL when the nominal worst is over it, UNCERTAIN when the nominal is within but the band reaches over",
+                crate::results::assess::MAX_DRAWN_POINTS
             )?;
             writeln!(out)?;
         }
@@ -296,9 +297,16 @@ pub fn text(r: &AssessReport, out: &mut impl Write) -> std::io::Result<()> {
                 match (b.worst_pa.and_then(|w| w.interval()), b.margin_db) {
                     (Some((lo, hi)), margin) => writeln!(
                         out,
-                        "         band of the worst {} .. {}{}{}",
+                        "         band of the worst {} .. {}{}{}{}",
                         PressureDisplay(lo),
                         PressureDisplay(hi),
+                        match (b.points_drawn, b.points_left_out) {
+                            (n, 0) if n > 1 => format!(" over {n} envelope points"),
+                            (n, k) if k > 0 => format!(
+                                " over {n} envelope points ({k} more could be worst and were not drawn)"
+                            ),
+                            _ => String::new(),
+                        },
                         margin.map_or(String::new(), |m| format!(
                             "; margin of its high end {m:+.2} dB"
                         )),

@@ -122,14 +122,19 @@ pub struct VerdictBand {
     pub tap: String,
     /// PASS, UNCERTAIN or FAIL (see [`Status`]).
     pub status: Status,
-    /// The band of the worst value at the worst envelope point, Pa; `None`
-    /// when no ripple reaches the point (PASS).
+    /// The band of the worst value over the envelope points drawn, Pa;
+    /// `None` when no ripple reaches the point (PASS).
     pub worst_pa: Option<OutputBand>,
     /// 20·log10(limit/high) in dB: the margin of the band's high end
     /// (positive: the whole band within the limit); `None` without a band.
     pub margin_db: Option<f64>,
     /// Whether even the band's low end exceeds the limit.
     pub wholly_above: bool,
+    /// Envelope points whose worst was drawn (the nominal worst and its
+    /// rivals, [`verdict_bands`]); 0 without ripple.
+    pub points_drawn: usize,
+    /// Rival points beyond [`MAX_DRAWN_POINTS`], not drawn.
+    pub points_left_out: usize,
 }
 
 /// The verdicts with uncertainty of an assessment.
@@ -184,15 +189,89 @@ impl AssessReport {
     }
 }
 
+/// At most this many envelope points are drawn for one verdict: its
+/// nominal worst and the rivals whose first-order bands reach highest.
+pub const MAX_DRAWN_POINTS: usize = 4;
+
+/// The first-order bands that pick a verdict's rival envelope points are
+/// widened this many times about their nominal values: they are a
+/// linearisation, and the worst over the speeds is not linear in the inputs
+/// where a resonance crossing moves (the reason JCGM 101 §8 checks them).
+const RIVAL_WIDENING: f64 = 2.0;
+
+/// Limited quantities at several envelope points, evaluated together in
+/// each draw: the points (indices into the assessment's points) and, per
+/// point, its quantities.
+#[derive(Default)]
+struct Evaluations {
+    points: Vec<usize>,
+    quantities: Vec<Vec<LimitedQuantity>>,
+}
+
+impl Evaluations {
+    /// The output index of `q` at envelope point `pi`, added if new.
+    fn add(&mut self, pi: usize, q: LimitedQuantity) -> (usize, usize) {
+        let at = match self.points.iter().position(|&p| p == pi) {
+            Some(i) => i,
+            None => {
+                self.points.push(pi);
+                self.quantities.push(Vec::new());
+                self.points.len() - 1
+            }
+        };
+        let qi = match self.quantities[at].iter().position(|x| *x == q) {
+            Some(i) => i,
+            None => {
+                self.quantities[at].push(q);
+                self.quantities[at].len() - 1
+            }
+        };
+        (at, qi)
+    }
+
+    /// The flat index of (point slot, quantity) in the outputs.
+    fn flat(&self, (at, qi): (usize, usize)) -> usize {
+        self.quantities[..at].iter().map(Vec::len).sum::<usize>() + qi
+    }
+
+    /// Every quantity at every point for the circuits at the points.
+    fn values(
+        &self,
+        circuits: &[Circuit],
+        shaft: Option<&str>,
+        speeds: &[f64],
+    ) -> Result<Vec<f64>, String> {
+        let mut out = Vec::new();
+        for (circuit, q) in circuits.iter().zip(&self.quantities) {
+            out.extend(limited_worst_values(circuit, shaft, speeds, q)?);
+        }
+        Ok(out)
+    }
+}
+
+/// What a verdict's worst value is at envelope point `w`.
+fn quantity(v: &Verdict, w: &crate::analysis::envelope::WorstPoint) -> LimitedQuantity {
+    LimitedQuantity {
+        tap: v.tap.clone(),
+        kind: v.limit.kind,
+        order: (v.limit.kind == LimitKind::Harmonic).then_some(w.order),
+    }
+}
+
 /// The verdicts of `report` (assessed from `template`'s circuit file with
 /// `request`) with the uncertainty of their worst values: for each limit,
-/// the band of the quantity's true worst over the speed range at the
-/// envelope point where it is worst nominally (the whole speed grid is
-/// swept in every draw, since the worst speed moves with the inputs, e.g. a
-/// resonance with an uncertain wave speed; the other envelope points are
-/// not, which keeps the cost to one sweep per distinct worst point and
-/// draw). Every draw sets the same input values at every point.
-/// `progress(done, planned)` counts draws.
+/// the band of the quantity's true worst over the speed range and over the
+/// envelope points that can be worst (the whole speed grid is swept in
+/// every draw, since the worst speed moves with the inputs, e.g. a
+/// resonance with an uncertain wave speed). Every draw sets the same input
+/// values at every point, so a draw's worst is the largest of its values at
+/// those points. The points drawn for a limit are its nominal worst and its
+/// **rivals**: the points whose first-order band (widened
+/// [`RIVAL_WIDENING`] times) reaches the worst point's, highest first, at
+/// most [`MAX_DRAWN_POINTS`] in all (the others are counted in
+/// [`VerdictBand::points_left_out`]). With first-order bands only, a
+/// verdict's band runs from the highest low end to the highest high end of
+/// its points' bands. `progress(done, planned)` counts draws.
 ///
 /// # Errors
 /// [`Error::Request`] when nothing is uncertain or a drawn value makes the
@@ -204,93 +283,229 @@ pub fn verdict_bands(
     bands: &BandRequest,
     progress: &mut dyn FnMut(usize, usize),
 ) -> Result<VerdictBands, Error> {
+    use crate::uncertainty::bands::{BandError, Method, Propagated};
     let a = &report.assessment;
     let speeds: Vec<f64> = a
         .sweeps
         .first()
         .map(|s| s.sweep.speeds_rev_s.clone())
         .unwrap_or_default();
-    // the distinct worst points, and per point the quantities evaluated there
-    let mut points: Vec<OperatingPoint> = Vec::new();
-    let mut quantities: Vec<Vec<LimitedQuantity>> = Vec::new();
-    // per verdict: (point index, quantity index) of its band
-    let mut slots: Vec<Option<(usize, usize)>> = Vec::new();
-    for v in &a.verdicts {
-        let Some(w) = &v.worst else {
-            slots.push(None);
-            continue;
-        };
-        let pi = match points.iter().position(|p| *p == w.point) {
-            Some(i) => i,
-            None => {
-                points.push(w.point.clone());
-                quantities.push(Vec::new());
-                points.len() - 1
-            }
-        };
-        quantities[pi].push(LimitedQuantity {
-            tap: v.tap.clone(),
-            kind: v.limit.kind,
-            order: (v.limit.kind == LimitKind::Harmonic).then_some(w.order),
-        });
-        slots.push(Some((pi, quantities[pi].len() - 1)));
-    }
-    let offsets: Vec<usize> = quantities
+    let shaft = request.shaft.as_ref().map(|s| s.0.as_str());
+    // per verdict with a worst: its envelope points with ripple, highest first
+    let candidates: Vec<Vec<usize>> = a
+        .verdicts
         .iter()
-        .scan(0, |at, q| {
-            let here = *at;
-            *at += q.len();
-            Some(here)
+        .map(|v| {
+            let mut c: Vec<usize> = (0..v.at_points.len())
+                .filter(|&pi| v.at_points[pi].is_some())
+                .collect();
+            let value = |pi: usize| v.at_points[pi].as_ref().map_or(0.0, |w| w.value_pa);
+            c.sort_by(|&x, &y| value(y).total_cmp(&value(x)));
+            c
         })
         .collect();
-    let shaft = request.shaft.as_ref().map(|s| s.0.as_str());
-    let verdict = |v: &Verdict, band: Option<OutputBand>| {
-        let interval = band.and_then(|b| b.interval());
-        let nominal = v.worst.as_ref().map_or(0.0, |w| w.value_pa);
-        VerdictBand {
-            tap: v.tap.clone(),
-            status: match band {
-                None => Status::of(nominal, Some((nominal, nominal)), v.limit.value_pa),
-                Some(_) => Status::of(nominal, interval, v.limit.value_pa),
-            },
-            worst_pa: band,
-            margin_db: interval
-                .filter(|(_, hi)| *hi > 0.0)
-                .map(|(_, hi)| 20.0 * (v.limit.value_pa / hi).log10()),
-            wholly_above: interval.is_some_and(|(lo, _)| lo > v.limit.value_pa),
-        }
-    };
-    if points.is_empty() {
+    if candidates.iter().all(Vec::is_empty) {
         return Err(Error::Request(format!(
             "{}: no limit has a worst value to give an uncertainty band of (no `limits`, or no ripple reaches them)",
             report.subject.file
         )));
     }
-    let evaluate = |circuits: Vec<crate::Circuit>| -> Result<Vec<f64>, String> {
-        let mut out = Vec::new();
-        for (circuit, q) in circuits.iter().zip(&quantities) {
-            out.extend(limited_worst_values(circuit, shaft, &speeds, q)?);
-        }
-        Ok(out)
+    let failed = |e: BandError| match e {
+        BandError::NothingUncertain | BandError::Input(_) => Error::Request(e.to_string()),
+        other => Error::failed("uncertainty bands of the verdicts".to_string(), other),
     };
-    let p =
-        propagate_at_points(template, &points, &evaluate, None, bands, progress).map_err(|e| {
-            match e {
-                crate::uncertainty::bands::BandError::NothingUncertain
-                | crate::uncertainty::bands::BandError::Input(_) => Error::Request(e.to_string()),
-                other => Error::failed("uncertainty bands of the verdicts".to_string(), other),
+    let run = |evals: &Evaluations,
+               outputs: &(dyn Fn(&[f64]) -> Vec<f64> + Sync),
+               bands: &BandRequest,
+               progress: &mut dyn FnMut(usize, usize)|
+     -> Result<Propagated, Error> {
+        let points: Vec<OperatingPoint> = evals
+            .points
+            .iter()
+            .map(|&pi| a.points[pi].clone())
+            .collect();
+        let evaluate = |circuits: Vec<Circuit>| -> Result<Vec<f64>, String> {
+            Ok(outputs(&evals.values(&circuits, shaft, &speeds)?))
+        };
+        propagate_at_points(template, &points, &evaluate, None, bands, progress).map_err(failed)
+    };
+
+    // First order at every candidate point, when it picks rivals or is
+    // what was asked for.
+    let screen = bands.method == Method::Linear || candidates.iter().any(|c| c.len() > 1);
+    let mut first_order: Vec<Vec<(usize, crate::uncertainty::linear::LinearBand)>> =
+        vec![Vec::new(); a.verdicts.len()];
+    let mut first_info = None;
+    if screen {
+        let mut evals = Evaluations::default();
+        let slots: Vec<Vec<(usize, (usize, usize))>> = a
+            .verdicts
+            .iter()
+            .zip(&candidates)
+            .map(|(v, c)| {
+                c.iter()
+                    .map(|&pi| {
+                        let w = v.at_points[pi].as_ref().expect("a candidate has a worst");
+                        (pi, evals.add(pi, quantity(v, w)))
+                    })
+                    .collect()
+            })
+            .collect();
+        let linear = BandRequest {
+            method: Method::Linear,
+            ..*bands
+        };
+        let p = run(&evals, &|x| x.to_vec(), &linear, &mut |_, _| {})?;
+        for (fo, slots) in first_order.iter_mut().zip(&slots) {
+            for &(pi, slot) in slots {
+                if let Some(l) = p.outputs[evals.flat(slot)].linear {
+                    fo.push((pi, l));
+                }
             }
-        })?;
+        }
+        first_info = Some(p.info);
+    }
+    // per verdict: the points drawn and how many rivals were left out
+    let widened = |l: &crate::uncertainty::linear::LinearBand| {
+        (
+            l.nominal - RIVAL_WIDENING * (l.nominal - l.low),
+            l.nominal + RIVAL_WIDENING * (l.high - l.nominal),
+        )
+    };
+    let drawn: Vec<(Vec<usize>, usize)> = candidates
+        .iter()
+        .zip(&first_order)
+        .map(|(c, fo)| {
+            let Some(&worst) = c.first() else {
+                return (Vec::new(), 0);
+            };
+            let band_of = |pi: usize| fo.iter().find(|(p, _)| *p == pi).map(|(_, l)| l);
+            let floor = band_of(worst).map_or(f64::INFINITY, |l| widened(l).0);
+            let mut rivals: Vec<(usize, f64)> = c[1..]
+                .iter()
+                .filter_map(|&pi| {
+                    let l = band_of(pi)?;
+                    // an unknown band (NaN ends) may reach anything
+                    let high = if l.high.is_finite() {
+                        widened(l).1
+                    } else {
+                        f64::INFINITY
+                    };
+                    let reaches = high >= floor || high.is_nan() || floor.is_nan();
+                    reaches.then_some((pi, high))
+                })
+                .collect();
+            rivals.sort_by(|x, y| y.1.total_cmp(&x.1));
+            let left_out = rivals.len().saturating_sub(MAX_DRAWN_POINTS - 1);
+            let mut points = vec![worst];
+            points.extend(rivals.iter().take(MAX_DRAWN_POINTS - 1).map(|r| r.0));
+            (points, left_out)
+        })
+        .collect();
+
+    let (info, worst_bands): (BandsInfo, Vec<Option<OutputBand>>) = match bands.method {
+        Method::Linear => {
+            // the highest low end and the highest high end of the points'
+            let per_verdict = drawn
+                .iter()
+                .zip(&first_order)
+                .zip(&a.verdicts)
+                .map(|(((points, _), fo), v)| {
+                    let ls: Vec<_> = fo
+                        .iter()
+                        .filter(|(pi, _)| points.contains(pi))
+                        .map(|(_, l)| *l)
+                        .collect();
+                    let first = *ls.first()?;
+                    let nominal = v.worst.as_ref().map_or(first.nominal, |w| w.value_pa);
+                    let combined = ls.iter().skip(1).fold(first, |m, l| {
+                        crate::uncertainty::linear::LinearBand {
+                            nominal,
+                            u: m.u.max(l.u),
+                            low: m.low.max(l.low),
+                            high: m.high.max(l.high),
+                            nonlinearity: m.nonlinearity.max(l.nonlinearity),
+                            good: m.good && l.good,
+                            missing: m.missing || l.missing,
+                        }
+                    });
+                    Some(OutputBand {
+                        nominal,
+                        monte_carlo: None,
+                        linear: Some(combined),
+                        linear_agrees: None,
+                    })
+                })
+                .collect();
+            (first_info.expect("first order was computed"), per_verdict)
+        }
+        Method::MonteCarlo => {
+            let mut evals = Evaluations::default();
+            // per verdict with a worst: the output slots of its points
+            let slots: Vec<Vec<(usize, usize)>> = a
+                .verdicts
+                .iter()
+                .zip(&drawn)
+                .map(|(v, (points, _))| {
+                    points
+                        .iter()
+                        .map(|&pi| {
+                            let w = v.at_points[pi].as_ref().expect("a drawn point has a worst");
+                            evals.add(pi, quantity(v, w))
+                        })
+                        .collect()
+                })
+                .collect();
+            let flat: Vec<Vec<usize>> = slots
+                .iter()
+                .map(|s| s.iter().map(|&slot| evals.flat(slot)).collect())
+                .collect();
+            let with_worst: Vec<usize> = (0..flat.len()).filter(|&v| !flat[v].is_empty()).collect();
+            // a draw's worst of a verdict: the largest of its points' values
+            let outputs = |x: &[f64]| -> Vec<f64> {
+                with_worst
+                    .iter()
+                    .map(|&v| {
+                        flat[v]
+                            .iter()
+                            .map(|&i| x[i])
+                            .fold(f64::NEG_INFINITY, f64::max)
+                    })
+                    .collect()
+            };
+            let p = run(&evals, &outputs, bands, progress)?;
+            let mut per_verdict = vec![None; a.verdicts.len()];
+            for (&v, band) in with_worst.iter().zip(p.outputs) {
+                per_verdict[v] = Some(band);
+            }
+            (p.info, per_verdict)
+        }
+    };
     let verdicts = a
         .verdicts
         .iter()
-        .zip(&slots)
-        .map(|(v, slot)| verdict(v, slot.map(|(pi, qi)| p.outputs[offsets[pi] + qi])))
+        .zip(worst_bands)
+        .zip(&drawn)
+        .map(|((v, band), (points, left_out))| {
+            let interval = band.and_then(|b| b.interval());
+            let nominal = v.worst.as_ref().map_or(0.0, |w| w.value_pa);
+            VerdictBand {
+                tap: v.tap.clone(),
+                status: match band {
+                    None => Status::of(nominal, Some((nominal, nominal)), v.limit.value_pa),
+                    Some(_) => Status::of(nominal, interval, v.limit.value_pa),
+                },
+                worst_pa: band,
+                margin_db: interval
+                    .filter(|(_, hi)| *hi > 0.0)
+                    .map(|(_, hi)| 20.0 * (v.limit.value_pa / hi).log10()),
+                wholly_above: interval.is_some_and(|(lo, _)| lo > v.limit.value_pa),
+                points_drawn: points.len(),
+                points_left_out: *left_out,
+            }
+        })
         .collect();
-    Ok(VerdictBands {
-        info: p.info,
-        verdicts,
-    })
+    Ok(VerdictBands { info, verdicts })
 }
 
 /// The file an assessment reads: the circuit as written, its envelope and
