@@ -193,6 +193,11 @@ impl AssessReport {
 /// nominal worst and the rivals whose first-order bands reach highest.
 pub const MAX_DRAWN_POINTS: usize = 4;
 
+/// Envelope points whose nominal worst lies more than this many dB below a
+/// verdict's nominal worst are not its rivals: their first-order band would
+/// have to span more than a factor of ten. Saves their first-order sweeps.
+pub const RIVAL_SCREEN_DB: f64 = 20.0;
+
 /// The first-order bands that pick a verdict's rival envelope points are
 /// widened this many times about their nominal values: they are a
 /// linearisation, and the worst over the speeds is not linear in the inputs
@@ -241,11 +246,17 @@ impl Evaluations {
         shaft: Option<&str>,
         speeds: &[f64],
     ) -> Result<Vec<f64>, String> {
-        let mut out = Vec::new();
-        for (circuit, q) in circuits.iter().zip(&self.quantities) {
-            out.extend(limited_worst_values(circuit, shaft, speeds, q)?);
-        }
-        Ok(out)
+        // the points in parallel (serially inside a parallel draw)
+        let pairs: Vec<(&Circuit, &Vec<LimitedQuantity>)> =
+            circuits.iter().zip(&self.quantities).collect();
+        let per_point = crate::parallel::ordered_map(
+            &pairs,
+            pairs.len() > 1,
+            || (),
+            |_, (circuit, q)| limited_worst_values(circuit, shaft, speeds, q),
+            &mut |_| {},
+        )?;
+        Ok(per_point.concat())
     }
 }
 
@@ -301,6 +312,10 @@ pub fn verdict_bands(
                 .collect();
             let value = |pi: usize| v.at_points[pi].as_ref().map_or(0.0, |w| w.value_pa);
             c.sort_by(|&x, &y| value(y).total_cmp(&value(x)));
+            let floor = c
+                .first()
+                .map_or(0.0, |&w| value(w) * 10f64.powf(-RIVAL_SCREEN_DB / 20.0));
+            c.retain(|&pi| value(pi) >= floor);
             c
         })
         .collect();
@@ -406,7 +421,7 @@ pub fn verdict_bands(
     let (info, worst_bands): (BandsInfo, Vec<Option<OutputBand>>) = match bands.method {
         Method::Linear => {
             // the highest low end and the highest high end of the points'
-            let per_verdict = drawn
+            let per_verdict: Vec<Option<OutputBand>> = drawn
                 .iter()
                 .zip(&first_order)
                 .zip(&a.verdicts)
@@ -437,7 +452,17 @@ pub fn verdict_bands(
                     })
                 })
                 .collect();
-            (first_info.expect("first order was computed"), per_verdict)
+            // counted over the verdicts' bands, not the points screened
+            let mut info = first_info.expect("first order was computed");
+            let shown: Vec<&OutputBand> = per_verdict.iter().flatten().collect();
+            info.outputs = shown.len();
+            info.judged = shown.len();
+            info.linear_good = shown
+                .iter()
+                .filter(|b| b.linear.is_some_and(|l| l.good))
+                .count();
+            info.linear_disagrees = 0;
+            (info, per_verdict)
         }
         Method::MonteCarlo => {
             let mut evals = Evaluations::default();
