@@ -7,7 +7,10 @@
 //!   tubes in 4 bores, 5 side branches, an orifice, 2 load valves, 2
 //!   volumes, a gas damper) at 10,000 frequencies: the sparse solve on 1
 //!   and 2 threads (the frequencies spread by `parallel::ordered_map`, as
-//!   `response` does) and the dense LU (`Plan::solve_dense`) beside it.
+//!   `response` does), the sparse solve read in place on 1 thread
+//!   (`Plan::solve_in_place` and one node's pressure: what `response`,
+//!   `sweep` and `assess` run, without a `Solution`'s end flows), and the
+//!   dense LU (`Plan::solve_dense`) beside it.
 //! * `scaling`: generated branched circuits of 30 .. 30,000 elements, the
 //!   sparse solve at enough frequencies for about 300,000 element·frequency
 //!   evaluations each (the dense LU up to 300 elements at fewer
@@ -31,6 +34,13 @@ fn freqs(count: usize) -> Vec<f64> {
 /// on the current rayon pool (one thread: a plain loop), and sums one
 /// pressure so nothing is optimised away.
 fn sweep(plan: &Plan<'_>, freqs: &[f64], dense: bool, parallel: bool) -> f64 {
+    sweep_with(plan, freqs, dense, parallel, false)
+}
+
+/// [`sweep`]; `in_place`: read the pressure from the workspace after
+/// `Plan::solve_in_place`, as `response`, `sweep` and `assess` do, instead
+/// of building every node's pressure and every element's end flows.
+fn sweep_with(plan: &Plan<'_>, freqs: &[f64], dense: bool, parallel: bool, in_place: bool) -> f64 {
     let pump = plan.circuit().pumps[0].node;
     let flow = [(pump, C64::new(1e-5, 0.0))];
     let values = ripline::parallel::ordered_map(
@@ -38,6 +48,10 @@ fn sweep(plan: &Plan<'_>, freqs: &[f64], dense: bool, parallel: bool) -> f64 {
         parallel,
         || plan.workspace(),
         |ws, &f| {
+            if in_place {
+                plan.solve_in_place(f, &flow, ws)?;
+                return Ok(plan.node_pressure(ws, 0).re);
+            }
             let s = if dense {
                 plan.solve_dense(f, &flow, ws)
             } else {
@@ -94,6 +108,9 @@ fn branched_30(c: &mut Criterion) {
             b.iter(|| pool.install(|| black_box(sweep(&plan, &f, false, true))));
         });
     }
+    group.bench_function("sparse in place, 1 thread", |b| {
+        b.iter(|| black_box(sweep_with(&plan, &f, false, false, true)));
+    });
     group.bench_function("dense, 1 thread", |b| {
         b.iter(|| black_box(sweep(&plan, &f, true, false)));
     });
