@@ -705,6 +705,53 @@ fn a_verdicts_band_covers_the_envelope_points_that_can_be_worst() {
     let _ = std::fs::remove_dir_all(dir);
 }
 
+/// Six load cases that change nothing are six envelope points with the same
+/// worst: each is a rival of the first, so 4 are drawn (`MAX_DRAWN_POINTS`)
+/// and 2 counted as left out (JSON `points_drawn`, `points_left_out`). The
+/// largest of equal values is that value, so the first-order band is the
+/// compliance case's own: nominal × (1 ± k·0.1/√3), k = 1.6449 (scipy
+/// `norm.ppf(0.95)`), the flow ± 10 % rectangular.
+#[test]
+fn a_verdict_draws_at_most_four_envelope_points() {
+    let (text, p_rms) = compliance_case(&[1.5]);
+    let cases: String = (0..6)
+        .map(|i| format!("    - {{name: case {i}}}\n"))
+        .collect();
+    let text = text + "envelope:\n  cases:\n" + &cases;
+    let (dir, circuit) = circuit_in_scratch("cap", "six.yaml", &text);
+    let json = dir.join("six.json");
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(["assess", circuit.to_str().unwrap(), "--speeds", "21"])
+        .args(["--bands", "first-order", "--json", json.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let b = &v["result"]["verdict_bands"]["verdicts"][0];
+    assert_eq!(b["points_drawn"], 4, "{b}");
+    assert_eq!(b["points_left_out"], 2, "{b}");
+    let k_u = 1.644_853_626_951_472_2 * 0.1 / 3f64.sqrt();
+    let band = &b["worst_pa"]["linear"];
+    let (lo, hi) = (
+        band["low"].as_f64().unwrap(),
+        band["high"].as_f64().unwrap(),
+    );
+    assert!((lo / p_rms - (1.0 - k_u)).abs() < 1e-6, "{lo} of {p_rms}");
+    assert!((hi / p_rms - (1.0 + k_u)).abs() < 1e-6, "{hi} of {p_rms}");
+    let text = String::from_utf8(o.stdout).unwrap();
+    assert!(
+        text.contains("over 4 envelope points (2 more could be worst and were not drawn)"),
+        "{text}"
+    );
+    let _ = std::fs::remove_dir_all(dir);
+}
+
 /// `assess --bands --plot`: the chart of a point with an rms limit draws
 /// the band of its worst value as an error bar at the worst point, named
 /// by its coverage in the legend; without `--bands` there is none.
