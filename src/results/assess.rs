@@ -358,7 +358,10 @@ pub fn verdict_bands(
             .iter()
             .zip(&candidates)
             .map(|(v, c)| {
+                // Monte Carlo needs first-order bands only to pick rivals
+                let needed = bands.method == Method::Linear || c.len() > 1;
                 c.iter()
+                    .filter(|_| needed)
                     .map(|&pi| {
                         let w = v.at_points[pi].as_ref().expect("a candidate has a worst");
                         (pi, evals.add(pi, quantity(v, w)))
