@@ -358,15 +358,12 @@ pub fn assess(
             for (ki, limit) in tap_limits.limits.iter().enumerate() {
                 // None: cut off at this point, no ripple
                 let here = match tp {
-                    Some(tp) => limited_worsts(&plan, &shaft, &swept, tp, limit.kind)
-                        .map_err(at_point)?
-                        .into_iter()
-                        .fold(None::<(WorstSpeed, Option<usize>)>, |b, (w, o)| match b {
-                            Some(b) if w.value_pa <= b.0.value_pa => Some(b),
-                            _ => Some((w, o)),
-                        })
-                        .filter(|(w, _)| w.value_pa > 0.0)
-                        .map(|(w, o)| worst_point(point, &swept, &w, o)),
+                    Some(tp) => first_highest(
+                        limited_worsts(&plan, &shaft, &swept, tp, limit.kind).map_err(at_point)?,
+                        |(w, _)| w.value_pa,
+                    )
+                    .filter(|(w, _)| w.value_pa > 0.0)
+                    .map(|(w, o)| worst_point(point, &swept, &w, o)),
                     None => None,
                 };
                 limit_worst[li][ki].push(here);
@@ -397,18 +394,10 @@ pub fn assess(
         .collect();
     let verdicts = limits
         .iter()
-        .zip(&limit_worst)
+        .zip(limit_worst)
         .flat_map(|(tl, slots)| {
             tl.limits.iter().zip(slots).map(|(limit, at_points)| {
-                // the first point of the highest value
-                let worst = at_points
-                    .iter()
-                    .flatten()
-                    .fold(None::<&WorstPoint>, |b, w| match b {
-                        Some(b) if w.value_pa <= b.value_pa => Some(b),
-                        _ => Some(w),
-                    })
-                    .cloned();
+                let worst = first_highest(at_points.iter().flatten(), |w| w.value_pa).cloned();
                 let value = worst.as_ref().map_or(0.0, |w| w.value_pa);
                 Verdict {
                     tap: tl.tap.clone(),
@@ -417,7 +406,7 @@ pub fn assess(
                     margin_pa: limit.value_pa - value,
                     pass: value <= limit.value_pa,
                     worst,
-                    at_points: at_points.clone(),
+                    at_points,
                 }
             })
         })
@@ -433,6 +422,15 @@ pub fn assess(
         findings,
         warnings,
         sweeps,
+    })
+}
+
+/// The first of `items` with the highest `value` (`max_by` keeps the
+/// last of equals; the verdicts name the first point and harmonic).
+fn first_highest<T>(items: impl IntoIterator<Item = T>, value: impl Fn(&T) -> f64) -> Option<T> {
+    items.into_iter().fold(None, |best, x| match best {
+        Some(b) if value(&x) <= value(&b) => Some(b),
+        _ => Some(x),
     })
 }
 

@@ -234,6 +234,18 @@ impl Evaluations {
         (at, qi)
     }
 
+    /// The output slots of verdict `v`'s quantity at each of `points` (its
+    /// worst there), added if new.
+    fn add_verdict(&mut self, v: &Verdict, points: &[usize]) -> Vec<(usize, usize)> {
+        points
+            .iter()
+            .map(|&pi| {
+                let w = v.at_points[pi].as_ref().expect("a point with a worst");
+                self.add(pi, quantity(v, w))
+            })
+            .collect()
+    }
+
     /// The flat index of (point slot, quantity) in the outputs.
     fn flat(&self, (at, qi): (usize, usize)) -> usize {
         self.quantities[..at].iter().map(Vec::len).sum::<usize>() + qi
@@ -347,7 +359,12 @@ pub fn verdict_bands(
 
     // First order at every candidate point, when it picks rivals or is
     // what was asked for.
-    let screen = bands.method == Method::Linear || candidates.iter().any(|c| c.len() > 1);
+    // (Monte Carlo needs them only to pick rivals)
+    let needed: Vec<bool> = candidates
+        .iter()
+        .map(|c| bands.method == Method::Linear || c.len() > 1)
+        .collect();
+    let screen = needed.contains(&true);
     let mut first_order: Vec<Vec<(usize, crate::uncertainty::linear::LinearBand)>> =
         vec![Vec::new(); a.verdicts.len()];
     let mut first_info = None;
@@ -357,16 +374,10 @@ pub fn verdict_bands(
             .verdicts
             .iter()
             .zip(&candidates)
-            .map(|(v, c)| {
-                // Monte Carlo needs first-order bands only to pick rivals
-                let needed = bands.method == Method::Linear || c.len() > 1;
-                c.iter()
-                    .filter(|_| needed)
-                    .map(|&pi| {
-                        let w = v.at_points[pi].as_ref().expect("a candidate has a worst");
-                        (pi, evals.add(pi, quantity(v, w)))
-                    })
-                    .collect()
+            .zip(&needed)
+            .map(|((v, c), &needed)| {
+                let c: &[usize] = if needed { c } else { &[] };
+                c.iter().copied().zip(evals.add_verdict(v, c)).collect()
             })
             .collect();
         let linear = BandRequest {
@@ -474,15 +485,7 @@ pub fn verdict_bands(
                 .verdicts
                 .iter()
                 .zip(&drawn)
-                .map(|(v, (points, _))| {
-                    points
-                        .iter()
-                        .map(|&pi| {
-                            let w = v.at_points[pi].as_ref().expect("a drawn point has a worst");
-                            evals.add(pi, quantity(v, w))
-                        })
-                        .collect()
-                })
+                .map(|(v, (points, _))| evals.add_verdict(v, points))
                 .collect();
             let flat: Vec<Vec<usize>> = slots
                 .iter()
