@@ -177,19 +177,29 @@ pub struct Unbounded<E> {
 
 /// The measure of a set of phasors.
 pub fn measure_value(measure: Measure, orders: &[u32], phasors: &[C64], other_ms_pa2: f64) -> f64 {
-    match measure {
-        Measure::Rms => {
+    let period = (measure == Measure::PeakToPeak).then(|| waveform::Period::new(orders));
+    measure_with(measure, period.as_ref(), phasors, other_ms_pa2)
+}
+
+/// [`measure_value`] with the period of the orders' waveform built once
+/// (`period`, for the peak-to-peak: its table of e^{jkθ} costs as much as
+/// several searches of a waveform); the same bits.
+fn measure_with(
+    measure: Measure,
+    period: Option<&waveform::Period>,
+    phasors: &[C64],
+    other_ms_pa2: f64,
+) -> f64 {
+    match (measure, period) {
+        (Measure::Rms, _) => {
             (phasors.iter().map(|p| p.norm_sqr()).sum::<f64>() / 2.0 + other_ms_pa2).sqrt()
         }
-        Measure::PeakToPeak => {
-            let h: Vec<(u32, C64)> = orders
-                .iter()
-                .copied()
-                .zip(phasors.iter().copied())
-                .collect();
-            waveform::peak_to_peak(&h)
+        (Measure::PeakToPeak, Some(period)) => {
+            let e = period.extremes(phasors);
+            e.max.1 - e.min.1
         }
-        Measure::Order(o) => phasors[o].norm(),
+        (Measure::PeakToPeak, None) => unreachable!("a peak-to-peak needs its period"),
+        (Measure::Order(o), _) => phasors[o].norm(),
     }
 }
 
@@ -415,6 +425,8 @@ struct SharedSolves<'s, E> {
     /// Per order: the speed's bits (increasing with a positive speed) →
     /// every point's phasor.
     cache: Vec<BTreeMap<u64, Vec<C64>>>,
+    /// The orders' waveform period, for a peak-to-peak measure.
+    period: Option<waveform::Period>,
 }
 
 impl<E> SharedSolves<'_, E> {
@@ -450,6 +462,16 @@ impl<E> Search<'_, '_, '_, E> {
         interpolate(self.grid.speeds_rev_s, self.grid.other_ms_pa2, n)
     }
 
+    /// The measure of this point's phasors (one per order).
+    fn measure_of(&self, phasors: &[C64], other_ms_pa2: f64) -> f64 {
+        measure_with(
+            self.measure,
+            self.shared.period.as_ref(),
+            phasors,
+            other_ms_pa2,
+        )
+    }
+
     /// Order `o` at speed `n` at this point (solved unless already solved).
     fn order(&mut self, o: usize, n: f64) -> Result<C64, E> {
         let key = n.to_bits();
@@ -474,7 +496,7 @@ impl<E> Search<'_, '_, '_, E> {
         }
         Ok(WorstSpeed {
             speed_rev_s: n,
-            value_pa: measure_value(self.measure, self.grid.orders, &phasors, self.other(n)),
+            value_pa: self.measure_of(&phasors, self.other(n)),
             phasors,
             solves: 0,
         })
@@ -727,6 +749,7 @@ pub fn worst_speeds<E>(
     let mut shared = SharedSolves {
         solve,
         cache: vec![BTreeMap::new(); first.orders.len()],
+        period: (measure == Measure::PeakToPeak).then(|| waveform::Period::new(first.orders)),
     };
     grids
         .iter()
@@ -757,14 +780,7 @@ fn search_point<E>(search: &mut Search<'_, '_, '_, E>) -> Result<WorstSpeed, Unb
         "grid arrays do not match"
     );
     search.values = (0..ns)
-        .map(|si| {
-            measure_value(
-                measure,
-                grid.orders,
-                search.phasors_at(si),
-                search.other(speeds[si]),
-            )
-        })
+        .map(|si| search.measure_of(search.phasors_at(si), search.other(speeds[si])))
         .collect();
     let values = search.values.clone();
     let first = (0..ns).fold(0, |b, i| if values[i] > values[b] { i } else { b });
