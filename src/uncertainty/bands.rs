@@ -286,10 +286,17 @@ pub fn ripple_outputs(circuit: Circuit) -> Result<Vec<f64>, String> {
     for s in shafts(&circuit.pumps) {
         let r = shaft_ripple(&plan, &s, circuit.harmonics, s.speed_rev_s(&circuit.pumps))
             .map_err(|e| e.to_string())?;
+        // one waveform period for the shaft's points (its table of
+        // e^{jkθ} costs more than a waveform's search)
+        let orders: Vec<u32> = r
+            .taps
+            .first()
+            .map_or_else(Vec::new, |t| t.harmonics.iter().map(|h| h.order).collect());
+        let period = crate::analysis::waveform::Period::new(&orders);
         for tap in &r.taps {
             out.extend(tap.harmonics.iter().map(|h| h.pressure.norm()));
             totals.push(tap.rms_pa());
-            totals.push(tap.peak_to_peak_pa());
+            totals.push(tap.peak_to_peak_pa_with(&period));
         }
     }
     out.extend(totals);
