@@ -10,10 +10,51 @@ use num_complex::Complex64 as C64;
 
 /// p(θ) = Σ Re{P_k e^{jkθ}} for (order k, P_k) pairs.
 pub fn evaluate(harmonics: &[(u32, C64)], theta: f64) -> f64 {
-    harmonics
-        .iter()
-        .map(|&(k, p)| (p * C64::from_polar(1.0, f64::from(k) * theta)).re)
-        .sum()
+    let mut turns = Turns::new(theta);
+    harmonics.iter().map(|&(k, p)| (p * turns.at(k)).re).sum()
+}
+
+/// The factors e^{jkθ} of increasing orders k at one angle θ, each the
+/// one before times e^{jΔkθ} (a sine and a cosine when the step Δk
+/// changes, a complex product otherwise): for consecutive orders one sine
+/// and cosine in all instead of one per order. Each product adds a
+/// relative error of a few ulps, so order k is within about k·4ε of
+/// e^{jkθ}, far below what a waveform's value needs (the golden-section
+/// comparisons of [`Period`] allow 64ε per order). An order not above the
+/// one before is computed directly.
+struct Turns {
+    theta: f64,
+    order: u32,
+    factor: C64,
+    step: u32,
+    step_factor: C64,
+}
+
+impl Turns {
+    fn new(theta: f64) -> Self {
+        Turns {
+            theta,
+            order: 0,
+            factor: C64::new(1.0, 0.0),
+            step: 0,
+            step_factor: C64::new(1.0, 0.0),
+        }
+    }
+
+    /// e^{jkθ}, k the next order.
+    fn at(&mut self, k: u32) -> C64 {
+        if k <= self.order {
+            return C64::from_polar(1.0, f64::from(k) * self.theta);
+        }
+        let step = k - self.order;
+        if step != self.step {
+            self.step = step;
+            self.step_factor = C64::from_polar(1.0, f64::from(step) * self.theta);
+        }
+        self.order = k;
+        self.factor *= self.step_factor;
+        self.factor
+    }
 }
 
 /// The highest and lowest points of p(θ) over one period: (θ, p(θ)) each,
@@ -204,11 +245,15 @@ impl Period {
         };
         let (mut cos, mut sin) = (Vec::new(), Vec::new());
         if n * orders.len() <= MAX_TABLE {
-            for &k in orders {
-                for i in 0..n {
-                    let c = C64::from_polar(1.0, f64::from(k) * (i as f64 * step));
-                    cos.push(c.re);
-                    sin.push(c.im);
+            // the factors as `evaluate` forms them at each sample
+            cos = vec![0.0; n * orders.len()];
+            sin = vec![0.0; n * orders.len()];
+            for i in 0..n {
+                let mut turns = Turns::new(i as f64 * step);
+                for (j, &k) in orders.iter().enumerate() {
+                    let c = turns.at(k);
+                    cos[j * n + i] = c.re;
+                    sin[j * n + i] = c.im;
                 }
             }
         }
@@ -237,15 +282,14 @@ impl Period {
     /// p at every sample, exactly as [`evaluate`] computes it there (no
     /// table: each factor computed).
     fn samples(&self, phasors: &[C64]) -> Vec<f64> {
+        let harmonics: Vec<(u32, C64)> = self
+            .orders
+            .iter()
+            .copied()
+            .zip(phasors.iter().copied())
+            .collect();
         (0..self.n)
-            .map(|i| {
-                let theta = i as f64 * self.step;
-                self.orders
-                    .iter()
-                    .zip(phasors)
-                    .map(|(&k, &p)| (p * C64::from_polar(1.0, f64::from(k) * theta)).re)
-                    .sum()
-            })
+            .map(|i| evaluate(&harmonics, i as f64 * self.step))
             .collect()
     }
 
