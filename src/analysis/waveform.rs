@@ -281,15 +281,9 @@ impl Period {
 
     /// p at every sample, exactly as [`evaluate`] computes it there (no
     /// table: each factor computed).
-    fn samples(&self, phasors: &[C64]) -> Vec<f64> {
-        let harmonics: Vec<(u32, C64)> = self
-            .orders
-            .iter()
-            .copied()
-            .zip(phasors.iter().copied())
-            .collect();
+    fn samples(&self, harmonics: &[(u32, C64)]) -> Vec<f64> {
         (0..self.n)
-            .map(|i| evaluate(&harmonics, i as f64 * self.step))
+            .map(|i| evaluate(harmonics, i as f64 * self.step))
             .collect()
     }
 
@@ -346,8 +340,11 @@ impl Period {
             .zip(phasors)
             .map(|(&k, p)| f64::from(k) * p.norm())
             .sum();
+        // the round-off of both sums, their factors' (k·4ε, `Turns`)
+        // included, with a wide margin
+        let max_order = f64::from(self.orders.iter().copied().max().unwrap_or(0));
         let reach = slope * (m / 2) as f64 * self.step
-            + total * 128.0 * f64::EPSILON * (self.orders.len() as f64 + 8.0)
+            + total * 128.0 * f64::EPSILON * (self.orders.len() as f64 + max_order + 8.0)
             + 1e-290;
         let blocks = n / m;
         let mut coarse = vec![0.0; blocks];
@@ -404,7 +401,7 @@ impl Period {
         // the scan does
         let ((i_max, v_max), (i_min, v_min)) = if self.cos.is_empty() {
             let mut best = Best::new();
-            for (i, v) in self.samples(phasors).into_iter().enumerate() {
+            for (i, v) in self.samples(&harmonics).into_iter().enumerate() {
                 best.max(i, v);
                 best.min(i, v);
             }
