@@ -99,6 +99,20 @@ pub struct RippleReport {
     pub silent_orders: Vec<u32>,
 }
 
+impl RippleReport {
+    /// The waveform period of its points' orders (every point has the
+    /// same), shared by their peak-to-peak searches
+    /// ([`TapRipple::peak_to_peak_pa_with`]): its table of e^{jkθ} costs
+    /// more than a waveform's search.
+    pub fn period(&self) -> waveform::Period {
+        let orders: Vec<u32> = self
+            .taps
+            .first()
+            .map_or_else(Vec::new, |t| t.harmonics.iter().map(|h| h.order).collect());
+        waveform::Period::new(&orders)
+    }
+}
+
 /// The measurement points a report covers: the circuit's taps, or every node
 /// when it defines none.
 pub fn report_points(circuit: &Circuit) -> Vec<Tap> {

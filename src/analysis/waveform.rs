@@ -257,12 +257,10 @@ impl Period {
                 }
             }
         }
+        // (n is a multiple of 64, so every order's samples start on the stride)
+        debug_assert_eq!(n % SCREEN_STRIDE, 0);
         let every = |v: &[f64]| -> Vec<f64> { v.iter().step_by(SCREEN_STRIDE).copied().collect() };
-        let (coarse_cos, coarse_sin) = if n % SCREEN_STRIDE == 0 {
-            (every(&cos), every(&sin))
-        } else {
-            (Vec::new(), Vec::new())
-        };
+        let (coarse_cos, coarse_sin) = (every(&cos), every(&sin));
         Period {
             orders: orders.to_vec(),
             n,
@@ -325,15 +323,6 @@ impl Period {
         let (n, m) = (self.n, SCREEN_STRIDE);
         let mut best = Best::new();
         let table = (self.cos.as_slice(), self.sin.as_slice());
-        if self.coarse_cos.is_empty() {
-            let mut v = vec![0.0; n];
-            Self::table_samples(table, n, phasors, 0, &mut v);
-            for (i, v) in v.into_iter().enumerate() {
-                best.max(i, v);
-                best.min(i, v);
-            }
-            return (best.max, best.min);
-        }
         let slope: f64 = self
             .orders
             .iter()

@@ -177,29 +177,31 @@ pub struct Unbounded<E> {
 
 /// The measure of a set of phasors.
 pub fn measure_value(measure: Measure, orders: &[u32], phasors: &[C64], other_ms_pa2: f64) -> f64 {
-    let period = (measure == Measure::PeakToPeak).then(|| waveform::Period::new(orders));
-    measure_with(measure, period.as_ref(), phasors, other_ms_pa2)
+    measure_with(measure, orders, None, phasors, other_ms_pa2)
 }
 
-/// [`measure_value`] with the period of the orders' waveform built once
-/// (`period`, for the peak-to-peak: its table of e^{jkθ} costs as much as
-/// several searches of a waveform); the same bits.
+/// [`measure_value`], a peak-to-peak with `period`, the orders' waveform
+/// period, when one is built already (its table of e^{jkθ} costs as much
+/// as several searches of a waveform); the same bits.
 fn measure_with(
     measure: Measure,
+    orders: &[u32],
     period: Option<&waveform::Period>,
     phasors: &[C64],
     other_ms_pa2: f64,
 ) -> f64 {
-    match (measure, period) {
-        (Measure::Rms, _) => {
+    match measure {
+        Measure::Rms => {
             (phasors.iter().map(|p| p.norm_sqr()).sum::<f64>() / 2.0 + other_ms_pa2).sqrt()
         }
-        (Measure::PeakToPeak, Some(period)) => {
-            let e = period.extremes(phasors);
+        Measure::PeakToPeak => {
+            let e = match period {
+                Some(period) => period.extremes(phasors),
+                None => waveform::Period::new(orders).extremes(phasors),
+            };
             e.max.1 - e.min.1
         }
-        (Measure::PeakToPeak, None) => unreachable!("a peak-to-peak needs its period"),
-        (Measure::Order(o), _) => phasors[o].norm(),
+        Measure::Order(o) => phasors[o].norm(),
     }
 }
 
@@ -466,6 +468,7 @@ impl<E> Search<'_, '_, '_, E> {
     fn measure_of(&self, phasors: &[C64], other_ms_pa2: f64) -> f64 {
         measure_with(
             self.measure,
+            self.grid.orders,
             self.shared.period.as_ref(),
             phasors,
             other_ms_pa2,

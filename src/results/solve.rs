@@ -318,11 +318,7 @@ fn source(
     p_ref: f64,
     with_waveform: bool,
 ) -> SourceRipple {
-    let orders: Vec<u32> = report
-        .taps
-        .first()
-        .map_or_else(Vec::new, |t| t.harmonics.iter().map(|h| h.order).collect());
-    let period = waveform::Period::new(&orders);
+    let period = report.period();
     SourceRipple {
         name: report.pump.clone(),
         pumps: shaft

@@ -286,13 +286,7 @@ pub fn ripple_outputs(circuit: Circuit) -> Result<Vec<f64>, String> {
     for s in shafts(&circuit.pumps) {
         let r = shaft_ripple(&plan, &s, circuit.harmonics, s.speed_rev_s(&circuit.pumps))
             .map_err(|e| e.to_string())?;
-        // one waveform period for the shaft's points (its table of
-        // e^{jkθ} costs more than a waveform's search)
-        let orders: Vec<u32> = r
-            .taps
-            .first()
-            .map_or_else(Vec::new, |t| t.harmonics.iter().map(|h| h.order).collect());
-        let period = crate::analysis::waveform::Period::new(&orders);
+        let period = r.period();
         for tap in &r.taps {
             out.extend(tap.harmonics.iter().map(|h| h.pressure.norm()));
             totals.push(tap.rms_pa());
