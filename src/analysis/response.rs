@@ -255,20 +255,20 @@ pub const HALF_POWER_TOLERANCE: f64 = 1e-10;
 
 /// One refined peak before merging.
 struct Peak {
-    point: usize,
+    /// Its grid peak: an index into the candidates.
+    candidate: usize,
     freq_hz: f64,
     level: f64,
-    quality: Option<f64>,
     unbounded: bool,
 }
 
 /// Finds the resonances in a computed response (see the module docs).
 ///
 /// Each point's grid peaks are refined (a safeguarded parabolic search on
-/// 1/|H|², `worst::refine`, to [`PEAK_TOLERANCE`]; the half-power points by
-/// the Illinois method to [`HALF_POWER_TOLERANCE`]): some 20–30 solves
-/// each, where 60-step golden-section and bisection searches took about
-/// 180.
+/// 1/|H|², `worst::refine`, to [`PEAK_TOLERANCE`]) and merged, highest
+/// first; then the half-power points of the peak that leads each resonance
+/// (the only one whose quality is reported) by the Illinois method to
+/// [`HALF_POWER_TOLERANCE`].
 ///
 /// # Errors
 /// [`SolveError`] from the refining solves (other than a singular matrix at
@@ -304,9 +304,18 @@ pub fn find_resonances(
         }
     }
     let heads: Vec<usize> = (0..candidates.len()).collect();
+    // |H| at a point, or +∞ at an undamped pole.
+    let unit = unit_injection(plan, pump_index);
+    let eval = |point: TapLocation, freq: f64, ws: &mut Workspace| -> Result<f64, SolveError> {
+        match plan.solve_in_place(freq, &unit, ws) {
+            Ok(_) => Ok(solved_pressure(plan, ws, freq, point).norm()),
+            Err(SolveError::Singular { .. }) => Ok(f64::INFINITY),
+            Err(e) => Err(e),
+        }
+    };
     // Each refinement is independent (its own solves), so they run in
     // parallel and are collected in order: the same peaks on any number of
-    // threads. About 25 solves each.
+    // threads. About 10 solves each.
     let refine_settings = super::worst::WorstSettings {
         tolerance_db: 0.0,
         min_bracket: 0.0,
@@ -315,57 +324,32 @@ pub fn find_resonances(
     };
     let peaks = crate::parallel::ordered_map(
         &heads,
-        crate::parallel::pays(plan.unknowns(), 25 * heads.len()),
+        crate::parallel::pays(plan.unknowns(), 10 * heads.len()),
         || plan.workspace(),
         |ws, &c| {
-            let (pi, i, left_valley, right_valley) = candidates[c];
-            let point = &response.points[pi];
+            let (pi, i, _, _) = candidates[c];
+            let location = response.points[pi].location;
             let mag = &mags[pi];
-            // |H| at the point, or +∞ at an undamped pole.
-            let unit = unit_injection(plan, pump_index);
-            let mut eval = |freq: f64, ws: &mut Workspace| -> Result<f64, SolveError> {
-                match plan.solve_in_place(freq, &unit, ws) {
-                    Ok(_) => Ok(solved_pressure(plan, ws, freq, point.location).norm()),
-                    Err(SolveError::Singular { .. }) => Ok(f64::INFINITY),
-                    Err(e) => Err(e),
-                }
-            };
             // The peak between the grid neighbours.
             let (f0, top) = super::worst::refine(
-                |x| eval(x, ws),
+                |x| eval(location, x, ws),
                 (f[i - 1], mag[i - 1]),
                 (f[i + 1], mag[i + 1]),
                 Some((f[i], mag[i])),
                 &refine_settings,
             )
             .map_err(|(_, e)| e)?;
-            let (f0, level, unbounded) = if top.is_finite() && top >= mag[i] {
+            let (freq_hz, level, unbounded) = if top.is_finite() && top >= mag[i] {
                 (f0, top, false)
             } else if top.is_finite() {
                 (f[i], mag[i], false)
             } else {
                 (f0, mag[i], true)
             };
-            let quality = if unbounded {
-                None
-            } else {
-                let target = level / std::f64::consts::SQRT_2;
-                let peak = (f0, level);
-                let lower = half_power(&mut eval, ws, f, mag, i, left_valley, peak, target)?;
-                let upper = half_power(&mut eval, ws, f, mag, i, right_valley, peak, target)?;
-                match (lower, upper) {
-                    (Some(a), Some(b)) => Some(f0 / (b - a)),
-                    (Some(a), None) => Some(f0 / (2.0 * (f0 - a))),
-                    (None, Some(b)) => Some(f0 / (2.0 * (b - f0))),
-                    (None, None) => None,
-                }
-                .filter(|q| q.is_finite() && *q > 0.0)
-            };
             Ok(Peak {
-                point: pi,
-                freq_hz: f0,
+                candidate: c,
+                freq_hz,
                 level,
-                quality,
                 unbounded,
             })
         },
@@ -379,28 +363,69 @@ pub fn find_resonances(
             .partial_cmp(&(a.unbounded, a.level))
             .unwrap_or(std::cmp::Ordering::Equal)
     });
-    let mut resonances: Vec<Resonance> = Vec::new();
-    for p in peaks {
-        let name = &response.points[p.point].name;
-        match resonances
+    // each resonance with the peak that leads it
+    let mut merged: Vec<(Resonance, usize)> = Vec::new();
+    for (k, p) in peaks.iter().enumerate() {
+        let name = &response.points[candidates[p.candidate].0].name;
+        match merged
             .iter_mut()
-            .find(|r| (r.freq_hz - p.freq_hz).abs() <= settings.merge_tolerance * r.freq_hz)
+            .find(|(r, _)| (r.freq_hz - p.freq_hz).abs() <= settings.merge_tolerance * r.freq_hz)
         {
-            Some(r) => {
+            Some((r, _)) => {
                 if !r.seen_at.contains(name) {
                     r.seen_at.push(name.clone());
                 }
             }
-            None => resonances.push(Resonance {
-                freq_hz: p.freq_hz,
-                point: name.clone(),
-                level: p.level,
-                quality: p.quality,
-                unbounded: p.unbounded,
-                seen_at: vec![name.clone()],
-            }),
+            None => merged.push((
+                Resonance {
+                    freq_hz: p.freq_hz,
+                    point: name.clone(),
+                    level: p.level,
+                    quality: None,
+                    unbounded: p.unbounded,
+                    seen_at: vec![name.clone()],
+                },
+                k,
+            )),
         }
     }
+    // The quality of each resonance from the half-power points of the peak
+    // that leads it (about 15 solves each; a peak merged into a higher one
+    // needs none).
+    let leaders: Vec<usize> = merged.iter().map(|(_, k)| *k).collect();
+    let qualities = crate::parallel::ordered_map(
+        &leaders,
+        crate::parallel::pays(plan.unknowns(), 15 * leaders.len()),
+        || plan.workspace(),
+        |ws, &k| {
+            let p = &peaks[k];
+            if p.unbounded {
+                return Ok(None);
+            }
+            let (pi, i, left_valley, right_valley) = candidates[p.candidate];
+            let location = response.points[pi].location;
+            let mut eval = |x: f64, ws: &mut Workspace| eval(location, x, ws);
+            let target = p.level / std::f64::consts::SQRT_2;
+            let peak = (p.freq_hz, p.level);
+            let mag = &mags[pi];
+            let lower = half_power(&mut eval, ws, f, mag, i, left_valley, peak, target)?;
+            let upper = half_power(&mut eval, ws, f, mag, i, right_valley, peak, target)?;
+            let f0 = p.freq_hz;
+            Ok(match (lower, upper) {
+                (Some(a), Some(b)) => Some(f0 / (b - a)),
+                (Some(a), None) => Some(f0 / (2.0 * (f0 - a))),
+                (None, Some(b)) => Some(f0 / (2.0 * (b - f0))),
+                (None, None) => None,
+            }
+            .filter(|q| q.is_finite() && *q > 0.0))
+        },
+        &mut |_| {},
+    )?;
+    let mut resonances: Vec<Resonance> = merged
+        .into_iter()
+        .zip(qualities)
+        .map(|((r, _), quality)| Resonance { quality, ..r })
+        .collect();
     resonances.sort_by(|a, b| a.freq_hz.total_cmp(&b.freq_hz));
     Ok(resonances)
 }
