@@ -496,12 +496,7 @@ pub fn verdict_bands(
             let outputs = |x: &[f64]| -> Vec<f64> {
                 with_worst
                     .iter()
-                    .map(|&v| {
-                        flat[v]
-                            .iter()
-                            .map(|&i| x[i])
-                            .fold(f64::NEG_INFINITY, f64::max)
-                    })
+                    .map(|&v| worst_of_points(flat[v].iter().map(|&i| x[i])))
                     .collect()
             };
             let p = run(&evals, &outputs, bands, progress)?;
@@ -537,6 +532,19 @@ pub fn verdict_bands(
         })
         .collect();
     Ok(VerdictBands { info, verdicts })
+}
+
+/// A draw's worst of a verdict over the envelope points drawn: the largest
+/// of its values there, or NaN (a missing draw) when any point has no value:
+/// the worst of the others could understate it.
+fn worst_of_points(values: impl Iterator<Item = f64>) -> f64 {
+    values.fold(f64::NEG_INFINITY, |m, v| {
+        if v.is_nan() || m.is_nan() {
+            f64::NAN
+        } else {
+            m.max(v)
+        }
+    })
 }
 
 /// The file an assessment reads: the circuit as written, its envelope and
@@ -671,4 +679,21 @@ pub fn assess(
         cautions,
         verdict_bands: None,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::worst_of_points;
+
+    // A draw whose value is missing at one envelope point is missing as a
+    // whole (the largest of the others could understate its worst); with
+    // every value known it is their largest.
+    #[test]
+    fn a_draw_missing_at_one_point_is_missing() {
+        let worst = |v: &[f64]| worst_of_points(v.iter().copied());
+        assert_eq!(worst(&[1.0, 3.0, 2.0]), 3.0);
+        assert!(worst(&[1.0, f64::NAN, 3.0]).is_nan());
+        assert!(worst(&[f64::NAN, 1.0]).is_nan());
+        assert!(worst(&[4.0, 1.0, f64::NAN]).is_nan());
+    }
 }
