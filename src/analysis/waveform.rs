@@ -120,11 +120,11 @@ pub fn extremes_by_scan(harmonics: &[(u32, C64)]) -> Extremes {
 }
 
 /// Golden-section steps of each refinement: the bracket, two sample steps
-/// 4π/(64K) wide for highest order K, shrinks to 0.618⁴⁰ of that, under
-/// 8.4e-10/K, where p(θ) is within ½·max|p''|·(4.2e-10/K)² ≤ 9e-20·Σ|P_k|
-/// of its extreme (|p''| ≤ K²Σ|P_k|): far below the round-off of the sum
-/// itself, so more steps change nothing but the last bits.
-const GOLDEN_STEPS: usize = 40;
+/// 4π/(64K) wide for highest order K, shrinks to 0.618³² of that, under
+/// 4.1e-8/K, where p(θ) is within ½·max|p''|·(2.1e-8/K)² ≤ 2.1e-16·Σ|P_k|
+/// of its extreme (|p''| ≤ K²Σ|P_k|): below the round-off of the sum itself
+/// (a few ε·Σ|P_k|), so more steps change nothing but the last bits.
+const GOLDEN_STEPS: usize = 32;
 
 /// Samples per period: 64 per period of the highest order, at least 1024.
 fn samples(max_order: u32) -> usize {
