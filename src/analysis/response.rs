@@ -315,7 +315,7 @@ pub fn find_resonances(
     };
     // Each refinement is independent (its own solves), so they run in
     // parallel and are collected in order: the same peaks on any number of
-    // threads. About 10 solves each.
+    // threads. About 17 solves each.
     let refine_settings = super::worst::WorstSettings {
         tolerance_db: 0.0,
         min_bracket: 0.0,
@@ -324,7 +324,7 @@ pub fn find_resonances(
     };
     let peaks = crate::parallel::ordered_map(
         &heads,
-        crate::parallel::pays(plan.unknowns(), 10 * heads.len()),
+        crate::parallel::pays(plan.unknowns(), 17 * heads.len()),
         || plan.workspace(),
         |ws, &c| {
             let (pi, i, _, _) = candidates[c];
@@ -390,12 +390,12 @@ pub fn find_resonances(
         }
     }
     // The quality of each resonance from the half-power points of the peak
-    // that leads it (about 15 solves each; a peak merged into a higher one
+    // that leads it (about 18 solves each; a peak merged into a higher one
     // needs none).
     let leaders: Vec<usize> = merged.iter().map(|(_, k)| *k).collect();
     let qualities = crate::parallel::ordered_map(
         &leaders,
-        crate::parallel::pays(plan.unknowns(), 15 * leaders.len()),
+        crate::parallel::pays(plan.unknowns(), 18 * leaders.len()),
         || plan.workspace(),
         |ws, &k| {
             let p = &peaks[k];
