@@ -874,3 +874,83 @@ fn csv_band_columns_agree_with_the_json_and_the_plots_shade_them() {
     assert!(!read("s.svg").contains("<polygon"));
     let _ = std::fs::remove_dir_all(dir);
 }
+
+// A normal standard uncertainty reaches any value, so a value that must
+// stay non-negative is drawn below zero now and then: such draws are made
+// again, and the draws follow the normal truncated to the values the
+// circuit accepts. Harmonic 1 of the source flow with u = 40 % of
+// 1.3 L/min: the pressure of harmonic 1 is proportional to it, so its band
+// over its nominal is 1 + 0.4·z at the quantiles of a standard normal
+// truncated to z ≥ −2.5: z = −1.59016 and 1.64787 at 5 % and 95 %
+// (mpmath 1.3: findroot(ncdf(z) − (q + p(1 − q))), q = ncdf(−2.5)),
+// against −1.64485 and 1.64485 untruncated. The share of draws made again
+// is q/(1 − q) = 0.0062485 (mpmath). Sampling error of the 5 % end with
+// 20,000 draws: 0.4·√(0.05·0.95/M)/pdf ≈ 0.006 (pdf of the truncated
+// normal there ≈ 0.105). A tolerance that reaches below zero in more than
+// 1 % of draws (± 2 L/min: 17.5 %) is refused with exit 2, naming the value.
+#[test]
+fn draws_below_a_values_range_are_made_again_and_too_many_are_refused() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let model = std::fs::read_to_string(root.join("networks/calibration/log_loader.yaml")).unwrap();
+    let with = |tolerance: &str| {
+        model
+            .replace(
+                "{harmonic: 1, amplitude: 1.3 L/min, phase: 0 deg}",
+                &format!("{{harmonic: 1, amplitude: \"1.3 L/min{tolerance}\", phase: 0 deg}}"),
+            )
+            .replace("1.6 GPa ± 10 %", "1.6 GPa")
+    };
+    let (dir, circuit) = circuit_in_scratch("redraw", "normal.yaml", &with(", u = 40 %"));
+    let (csv, json) = (dir.join("bands.csv"), dir.join("bands.json"));
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(["solve", circuit.to_str().unwrap(), "--bands", "monte-carlo"])
+        .args(["--draws", "20000", "--seed", "3"])
+        .args([
+            "--csv",
+            csv.to_str().unwrap(),
+            "--json",
+            json.to_str().unwrap(),
+        ])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let info = &v["result"]["bands"]["info"];
+    assert_eq!(info["draws"].as_u64(), Some(20_000));
+    let redrawn = info["redrawn"].as_f64().unwrap();
+    // binomial: mean 20,000·q/(1 − q) ≈ 125, standard deviation ≈ 11
+    assert!((redrawn - 124.97).abs() < 45.0, "{redrawn}");
+    let table = std::fs::read_to_string(&csv).unwrap();
+    let mut checked = 0;
+    for line in table.lines().skip(1) {
+        let c: Vec<&str> = line.split(',').collect();
+        if c[1] != "1" {
+            continue;
+        }
+        let num = |i: usize| c[i].parse::<f64>().unwrap();
+        let (nominal, low, high) = (num(3), num(5), num(6));
+        assert!((low / nominal - 0.363_935).abs() < 0.018, "{line}");
+        assert!((high / nominal - 1.659_149).abs() < 0.018, "{line}");
+        checked += 1;
+    }
+    assert!(checked > 0);
+    // limits reaching far below zero: refused, nothing written
+    let wide = dir.join("wide.yaml");
+    std::fs::write(&wide, with(" ± 2 L/min")).unwrap();
+    let out = dir.join("wide.csv");
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(["solve", wide.to_str().unwrap(), "--bands", "monte-carlo"])
+        .args(["--draws", "1000", "--csv", out.to_str().unwrap()])
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{stderr}");
+    assert!(
+        stderr.contains("set a value the circuit refuses")
+            && stderr.contains("flow_ripple[0].amplitude"),
+        "{stderr}"
+    );
+    assert!(!out.exists());
+    let _ = std::fs::remove_dir_all(dir);
+}

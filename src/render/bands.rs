@@ -36,6 +36,18 @@ pub fn info_text(i: &BandsInfo, out: &mut impl Write) -> std::io::Result<()> {
             "uncertainty bands: {pct} % coverage intervals to first order (GUM law of propagation, normal coverage factor)"
         )?,
     }
+    if i.redrawn > 0 {
+        writeln!(
+            out,
+            "{} set a value the circuit refuses (e.g. a volume below zero) and {} drawn again: the draws follow the tolerances truncated to the values the circuit accepts",
+            if i.redrawn == 1 {
+                "1 draw".to_string()
+            } else {
+                format!("{} draws", i.redrawn)
+            },
+            if i.redrawn == 1 { "was" } else { "were" },
+        )?;
+    }
     writeln!(out, "uncertain inputs (taken as independent):")?;
     for input in &i.inputs {
         let unit = if input.unit.is_empty() {

@@ -338,7 +338,9 @@ pub fn verdict_bands(
         )));
     }
     let failed = |e: BandError| match e {
-        BandError::NothingUncertain | BandError::Input(_) => Error::Request(e.to_string()),
+        BandError::NothingUncertain | BandError::Input(_) | BandError::Refused { .. } => {
+            Error::Request(e.to_string())
+        }
         other => Error::failed("uncertainty bands of the verdicts".to_string(), other),
     };
     let run = |evals: &Evaluations,

@@ -81,6 +81,10 @@ pub struct BandsInfo {
     pub seed: u64,
     /// Monte Carlo draws made (0 for the first-order method).
     pub draws: usize,
+    /// Draws made again because the circuit refused a drawn value (each
+    /// draw then comes from the inputs' distribution truncated to the
+    /// values the circuit accepts; at most [`MAX_REDRAWN_SHARE`] of all).
+    pub redrawn: usize,
     /// Whether the adaptive procedure found every judged band stable
     /// (`None`: first-order, or a fixed number of draws).
     pub stable: Option<bool>,
@@ -123,7 +127,32 @@ pub enum BandError {
     /// An analysis failed for drawn values.
     #[error("{0}")]
     Analysis(String),
+    /// Too many draws set a value the circuit refuses: the tolerances
+    /// reach too far beyond the values it accepts.
+    #[error(
+        "{:.2} % of {draws} Monte Carlo draws set a value the circuit refuses (more than {:.0} %), so the bands would not follow the tolerances as written: give a smaller tolerance to the value named here; the first refusal: {first}",
+        100.0 * share,
+        100.0 * MAX_REDRAWN_SHARE
+    )]
+    Refused {
+        /// The share of draws refused.
+        share: f64,
+        /// Draws made in all.
+        draws: usize,
+        /// The first refusal (of the lowest draw).
+        first: InputError,
+    },
 }
+
+/// Most draws of a row made again when the circuit refuses a drawn value
+/// ([`BandsInfo::redrawn`]) before the bands are refused.
+pub const MAX_REDRAWS: usize = 100;
+
+/// Largest share of all draws that may be made again because the circuit
+/// refused a drawn value (a normal `u` reaches any value, so a value that
+/// must stay positive is refused now and then; beyond this share the
+/// truncation changes the bands noticeably, and the tolerance is refused).
+pub const MAX_REDRAWN_SHARE: f64 = 0.01;
 
 /// An analysis's outputs for one circuit.
 pub type Evaluate<'a> = dyn Fn(Circuit) -> Result<Vec<f64>, String> + Sync + 'a;
@@ -184,12 +213,17 @@ pub fn propagate_at_points(
         return Err(BandError::NothingUncertain);
     }
     let nominal_values = inputs.nominal();
-    let run = |values: &[f64], why: &str| -> Result<Vec<f64>, BandError> {
-        let circuits = points
+    let circuits = |values: &[f64], why: &str| -> Result<Vec<Circuit>, InputError> {
+        points
             .iter()
             .map(|point| inputs.circuit(template, point, values, why))
-            .collect::<Result<Vec<_>, _>>()?;
+            .collect()
+    };
+    let solve = |circuits: Vec<Circuit>, why: &str| -> Result<Vec<f64>, BandError> {
         evaluate(circuits).map_err(|e| BandError::Analysis(format!("{e} ({why})")))
+    };
+    let run = |values: &[f64], why: &str| -> Result<Vec<f64>, BandError> {
+        solve(circuits(values, why)?, why)
     };
     let f0 = run(&nominal_values, "the nominal values")?;
     // first order: each input at +u, then at −u
@@ -218,17 +252,44 @@ pub fn propagate_at_points(
     let plus = moved;
     let coverage = request.monte_carlo.coverage;
     let lin = linear::bands(&f0, &plus, &minus, coverage);
-    let (mc, draws, stable) = match request.method {
-        Method::Linear => (None, 0, None),
+    let (mc, draws, stable, redrawn) = match request.method {
+        Method::Linear => (None, 0, None, 0),
         Method::MonteCarlo => {
             let seed = request.monte_carlo.seed;
+            // values the circuit refuses (a length or volume drawn below
+            // zero, say) are drawn again: each draw comes from the inputs'
+            // joint distribution truncated to the values the circuit
+            // accepts; the first refusal (lowest draw) is kept for messages
+            let redrawn = std::sync::atomic::AtomicUsize::new(0);
+            let first_refusal: std::sync::Mutex<Option<(usize, InputError)>> =
+                std::sync::Mutex::new(None);
             let eval = |i: usize| -> Result<Vec<f64>, BandError> {
                 let mut rng = draw_rng(seed, i);
-                let values = inputs.draw(&mut rng);
-                run(
-                    &values,
-                    &format!("Monte Carlo draw {} of seed {seed}", i + 1),
-                )
+                let why = format!("Monte Carlo draw {} of seed {seed}", i + 1);
+                let mut attempts = 0;
+                loop {
+                    let values = inputs.draw(&mut rng);
+                    match circuits(&values, &why) {
+                        Ok(c) => {
+                            redrawn.fetch_add(attempts, std::sync::atomic::Ordering::Relaxed);
+                            return solve(c, &why);
+                        }
+                        Err(e) if attempts < MAX_REDRAWS => {
+                            attempts += 1;
+                            let mut first = first_refusal.lock().unwrap_or_else(|p| p.into_inner());
+                            if first.as_ref().is_none_or(|(at, _)| i < *at) {
+                                *first = Some((i, e));
+                            }
+                        }
+                        Err(e) => {
+                            return Err(BandError::Refused {
+                                share: 1.0,
+                                draws: MAX_REDRAWS + 1,
+                                first: e,
+                            });
+                        }
+                    }
+                }
             };
             let bands = monte_carlo::propagate(
                 &f0,
@@ -238,7 +299,20 @@ pub fn propagate_at_points(
                 BandError::Limit,
                 progress,
             )?;
-            (Some(bands.bands), bands.draws, bands.stable)
+            let redrawn = redrawn.into_inner();
+            let share = redrawn as f64 / (redrawn + bands.draws) as f64;
+            if share > MAX_REDRAWN_SHARE {
+                let (_, first) = first_refusal
+                    .into_inner()
+                    .unwrap_or_else(|p| p.into_inner())
+                    .expect("a refusal was counted");
+                return Err(BandError::Refused {
+                    share,
+                    draws: redrawn + bands.draws,
+                    first,
+                });
+            }
+            (Some(bands.bands), bands.draws, bands.stable, redrawn)
         }
     };
     let digits = request.monte_carlo.digits;
@@ -260,6 +334,7 @@ pub fn propagate_at_points(
             coverage,
             seed: request.monte_carlo.seed,
             draws,
+            redrawn,
             stable,
             judged: judged.map_or(f0.len(), |r| r.end.min(f0.len()) - r.start.min(f0.len())),
             linear_good: lin.iter().filter(|l| l.good).count(),
