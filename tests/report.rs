@@ -518,6 +518,23 @@ fn bad_input_exits_2_and_writes_nothing() {
             vec!["report", "tests/no_such_file.yaml", "--out", &out],
             "no_such_file",
         ),
+        // --bands with nothing uncertain, and with no limits to give
+        // verdict bands to (as `assess --bands` refuses them)
+        (
+            vec!["report", good, "--out", &out, "--bands", "first-order"],
+            "no value of the circuit has a tolerance",
+        ),
+        (
+            vec![
+                "report",
+                "networks/calibration/log_loader.yaml",
+                "--out",
+                &out,
+                "--bands",
+                "first-order",
+            ],
+            "no `limits` section",
+        ),
     ] {
         let o = ripline(&args);
         let err = stderr(&o);

@@ -138,6 +138,29 @@ pub fn report(
         .filter(|&i| is_silencer(&circuit.elements[i].kind))
         .collect();
     let points = report_points(circuit);
+    // bands are of the limits' verdicts, from the file's tolerances: a
+    // file with neither is refused before any work, as `assess` refuses it
+    let template = match &request.bands {
+        Some(_) => {
+            let template = crate::io::CircuitTemplate::new(&file.text, &file.file)
+                .map_err(|e| Error::Request(e.to_string()))?;
+            let inputs = crate::uncertainty::Inputs::of(&template)
+                .map_err(|e| Error::Request(e.to_string()))?;
+            if inputs.is_empty() {
+                return Err(Error::Request(format!(
+                    "{name}: {}",
+                    crate::uncertainty::bands::BandError::NothingUncertain
+                )));
+            }
+            if file.limits.is_empty() {
+                return Err(Error::Request(format!(
+                    "{name}: --bands gives the verdicts of the file's `limits` uncertainty bands, and it has no `limits` section"
+                )));
+            }
+            Some(template)
+        }
+        None => None,
+    };
     // every envelope point's circuit first: a point that makes the circuit
     // invalid stops the report before any work
     let mut envelope_points = file
@@ -171,13 +194,11 @@ pub fn report(
     let (mut assessment, no_assessment) = over_envelope(file, &envelope_points, &mut |i, n| {
         progress(done + i * STEP / n.max(1), total);
     })?;
-    if let (Some(bands), Some((a, assess_request))) = (&request.bands, assessment.as_mut())
-        && a.assessment.verdicts.iter().any(|v| v.worst.is_some())
+    if let (Some(bands), Some(template), Some((a, assess_request))) =
+        (&request.bands, &template, assessment.as_mut())
     {
-        let template = crate::io::CircuitTemplate::new(&file.text, &file.file)
-            .map_err(|e| Error::Request(e.to_string()))?;
         a.verdict_bands = Some(super::assess::verdict_bands(
-            &template,
+            template,
             a,
             assess_request,
             bands,
