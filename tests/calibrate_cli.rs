@@ -216,6 +216,15 @@ fn bad_parameters_are_usage_errors() {
             "`material` of `pump tube` is not a numeric value",
         ),
         ("pump tube.rigid=0..1", "has no `rigid` written in the file"),
+        // counts take whole numbers only
+        (
+            "pump.pumping_elements=5..12",
+            "`pumping_elements` of `pump` is a count",
+        ),
+        (
+            "pump.flow_ripple[0].harmonic=1..3",
+            "`flow_ripple[0].harmonic` of `pump` is a count",
+        ),
         (
             "nothing.length=1..2",
             "no element, pump or tap is called `nothing`",

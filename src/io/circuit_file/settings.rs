@@ -231,11 +231,26 @@ impl CircuitTemplate {
                 describe_value(value)
             )
         })?;
-        Ok(Target {
+        let target = Target {
             name: format!("{label}.{rest}"),
             path,
             written,
-        })
+        };
+        // a count (teeth, harmonics, ...) takes whole numbers only: the file
+        // read with a fraction there says so by its type
+        let mut probe = self.document.clone();
+        if let Some(slot) = value_at_mut(&mut probe, &target.path) {
+            *slot = target.setting(target.written.number + 0.5, "").value;
+            if let Err(e) = quantity::allowing_tolerances(|| RawCircuit::deserialize(&probe)) {
+                let e = e.to_string();
+                if e.contains("expected u32") || e.contains("expected u64") {
+                    return Err(format!(
+                        "`{spec}`: `{rest}` of `{label}` is a count (a whole number), which cannot be varied continuously"
+                    ));
+                }
+            }
+        }
+        Ok(target)
     }
 
     /// Every value of the file written with a tolerance, in the order of the
