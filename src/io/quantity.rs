@@ -6,7 +6,7 @@
 //! column.
 //!
 //! In a circuit file a value may carry a **tolerance** (README, "Tolerances
-//! and uncertainty bands"): `1.55 GPa ± 5 %` (or `+-`) gives limits within
+//! and uncertainty bands"): `1.55 GPa ± 5 %` (or `+-`, `+/-`) gives limits within
 //! which the value lies, read as a rectangular distribution; `1.55 GPa, u =
 //! 3 %` gives a standard uncertainty, read as a normal distribution. The
 //! amount is a percentage of the number as written, or a value in a unit of
@@ -100,7 +100,7 @@ pub fn allowing_tolerances<T>(read: impl FnOnce() -> T) -> T {
 /// The value and the tolerance of a text: `("1.55 GPa", Some((spread,
 /// "5 %")))`; `None` when it has no tolerance mark.
 pub fn split_tolerance(text: &str) -> (&str, Option<(Spread, &str)>) {
-    for mark in ["±", "+-"] {
+    for mark in ["±", "+/-", "+-"] {
         if let Some(i) = text.find(mark) {
             return (
                 text[..i].trim(),
@@ -120,7 +120,7 @@ pub fn split_tolerance(text: &str) -> (&str, Option<(Spread, &str)>) {
 }
 
 /// How to write a tolerance, for messages.
-pub const TOLERANCE_HINT: &str = "write a tolerance as `1.55 GPa ± 5 %` (limits, or `+-`) or `1.55 GPa, u = 0.05 GPa` (a standard uncertainty)";
+pub const TOLERANCE_HINT: &str = "write a tolerance as `1.55 GPa ± 5 %` (limits, or `+-`, `+/-`) or `1.55 GPa, u = 0.05 GPa` (a standard uncertainty)";
 
 /// `text` (a value with a unit, or a bare number in SI) as a number in
 /// `unit`, a unit as a file writes it (possibly with a gas pressure's
@@ -422,6 +422,12 @@ mod tests {
             .tolerance
             .unwrap();
         assert!((t.amount - 50.0).abs() < 1e-9 && !t.relative);
+        // `+/-` as `±`
+        let t = written("1.55 GPa +/- 5 %", Some(Dimension::Modulus))
+            .unwrap()
+            .tolerance
+            .unwrap();
+        assert!(t.spread == Spread::Limits && (t.amount - 0.0775).abs() < 1e-15);
         // a standard uncertainty; a bare amount is in the value's unit
         let t = written("0.2 L, u = 0.02", Some(Dimension::Volume))
             .unwrap()
