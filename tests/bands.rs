@@ -954,3 +954,29 @@ fn draws_below_a_values_range_are_made_again_and_too_many_are_refused() {
     assert!(!out.exists());
     let _ = std::fs::remove_dir_all(dir);
 }
+
+// A tolerance on a pump's speed range changes nothing a command computes
+// (the range is what is analysed, not a value of the machine): refused at
+// its line with exit 2, as one in the envelope is.
+#[test]
+fn a_tolerance_on_a_speed_range_is_refused_at_its_line() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let model = std::fs::read_to_string(root.join("networks/calibration/log_loader.yaml")).unwrap();
+    let text = model.replace(
+        "speed_range: [1000 rpm, 2000 rpm]",
+        "speed_range: [\"1000 rpm ± 5 %\", 2000 rpm]",
+    );
+    assert_ne!(text, model);
+    let (dir, circuit) = circuit_in_scratch("speed-range", "range.yaml", &text);
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(["solve", circuit.to_str().unwrap(), "--bands", "first-order"])
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{stderr}");
+    assert!(
+        stderr.contains("range.yaml:26:3: pump.speed_range[0]: a tolerance here is not used"),
+        "{stderr}"
+    );
+    let _ = std::fs::remove_dir_all(dir);
+}
