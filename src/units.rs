@@ -325,6 +325,15 @@ pub enum UnitError {
         /// The offending text.
         text: String,
     },
+    /// A tolerance (`± 5 %`, `u = …`) where none is read: only a circuit's
+    /// own values (fluid, pumps, elements, taps) take one.
+    #[error(
+        "`{text}`: a tolerance is not read here; only a circuit's own values (its fluid, pumps, elements and taps) take one"
+    )]
+    Tolerance {
+        /// The offending text.
+        text: String,
+    },
 }
 
 /// Normalise the spelling of a unit so that `m³`, `m^3` and `m3`, or
@@ -394,6 +403,11 @@ pub fn parse_quantity(text: &str, dimension: Dimension) -> Result<f64, UnitError
         text: text.to_string(),
         example: example(dimension),
     })?;
+    if crate::io::quantity::split_tolerance(text).1.is_some() {
+        return Err(UnitError::Tolerance {
+            text: text.trim().to_string(),
+        });
+    }
     let unit = normalise_unit(unit);
     let found = dimension
         .units()
@@ -544,6 +558,16 @@ mod tests {
         assert!(msg.contains("furlongs") && msg.contains("mm"), "{msg}");
         // Case matters: mPa is not MPa.
         assert!(parse_quantity("2 mpa", Dimension::Pressure).is_err());
+        // a tolerance where none is read is named as such, not as a unit
+        for text in ["2 bar ± 10 %", "2 bar +/- 1 bar", "2 bar, u = 0.1 bar"] {
+            assert!(
+                matches!(
+                    parse_quantity(text, Dimension::Pressure),
+                    Err(UnitError::Tolerance { .. })
+                ),
+                "{text}"
+            );
+        }
     }
 
     #[test]
