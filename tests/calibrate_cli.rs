@@ -196,6 +196,10 @@ fn bad_measurement_files_are_located_errors() {
             &format!("{ok_run}{ok_run}"),
             "m.yaml:4:3: runs[1].name: duplicate run name `r`",
         ),
+        (
+            "  - {name: r, speed: 1400 rpm, records: RECORD, spectra: RECORD, columns: {pump outlet: p_pump}}\n",
+            "m.yaml:3:3: runs[0]: a run takes one data file",
+        ),
     ] {
         let m = measurements(&dir, runs, "");
         let m_s = m.display().to_string();

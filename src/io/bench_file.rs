@@ -635,7 +635,10 @@ impl Checker<'_> {
                 unit_pa,
                 columns,
             },
-            _ => {
+            (Some(_), Some(_)) => {
+                return Err(self.err(cp, "a condition takes one data file: `records` (a time-series CSV) or `spectra` (a spectra CSV), not both"));
+            }
+            (None, None) => {
                 return Err(self.err(cp, "a condition needs its data: either `records` (a time-series CSV) or `spectra` (a spectra CSV)"));
             }
         };

@@ -392,7 +392,13 @@ fn run(
             unit_pa,
             columns,
         },
-        _ => {
+        (Some(_), Some(_)) => {
+            return Err(check.err(
+                rp,
+                "a run takes one data file: `records` (a time-series CSV) or `spectra` (a spectra CSV), not both",
+            ));
+        }
+        (None, None) => {
             return Err(check.err(
                 rp,
                 "a run needs its data: either `records` (a time-series CSV) or `spectra` (a spectra CSV)",
