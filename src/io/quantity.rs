@@ -245,6 +245,11 @@ fn tolerance(
                 "{a} % would let the value reach zero; give less than 100 %"
             )));
         }
+        if number == 0.0 {
+            return Err(bad(format!(
+                "a percentage of zero is zero: give the amount in the value's unit, e.g. `0 {value_unit} ± 1 {value_unit}`"
+            )));
+        }
         (number.abs() * a / 100.0, true)
     } else if a_unit.is_empty() {
         // a bare amount is in the value's own unit
@@ -422,6 +427,9 @@ mod tests {
             .tolerance
             .unwrap();
         assert!((t.amount - 50.0).abs() < 1e-9 && !t.relative);
+        // a percentage of zero
+        let e = written("0 deg ± 10 %", Some(Dimension::Angle)).unwrap_err();
+        assert!(e.contains("a percentage of zero is zero"), "{e}");
         // `+/-` as `±`
         let t = written("1.55 GPa +/- 5 %", Some(Dimension::Modulus))
             .unwrap()
