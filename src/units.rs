@@ -403,11 +403,6 @@ pub fn parse_quantity(text: &str, dimension: Dimension) -> Result<f64, UnitError
         text: text.to_string(),
         example: example(dimension),
     })?;
-    if crate::io::quantity::split_tolerance(text).1.is_some() {
-        return Err(UnitError::Tolerance {
-            text: text.trim().to_string(),
-        });
-    }
     let unit = normalise_unit(unit);
     let found = dimension
         .units()
@@ -416,16 +411,25 @@ pub fn parse_quantity(text: &str, dimension: Dimension) -> Result<f64, UnitError
         .map(|(u, f)| (*f, dimension.unit_offset(u)));
     let (factor, offset) = found
         .or_else(|| unit.is_empty().then_some((1.0, 0.0)))
-        .ok_or_else(|| UnitError::UnknownUnit {
-            unit: unit.clone(),
-            dimension: dimension.name(),
-            accepted: dimension
-                .units()
-                .iter()
-                .filter(|(u, _)| !u.is_empty())
-                .map(|(u, _)| *u)
-                .collect::<Vec<_>>()
-                .join(", "),
+        .ok_or_else(|| {
+            // a tolerance reads as part of the unit: name it as what it is
+            // (looked for only here, off the path of every valid value)
+            if crate::io::quantity::split_tolerance(text).1.is_some() {
+                return UnitError::Tolerance {
+                    text: text.trim().to_string(),
+                };
+            }
+            UnitError::UnknownUnit {
+                unit: unit.clone(),
+                dimension: dimension.name(),
+                accepted: dimension
+                    .units()
+                    .iter()
+                    .filter(|(u, _)| !u.is_empty())
+                    .map(|(u, _)| *u)
+                    .collect::<Vec<_>>()
+                    .join(", "),
+            }
         })?;
     let si = value * factor + offset;
     if !si.is_finite() {
