@@ -340,7 +340,11 @@ impl Line {
         }
         let num = C64::new(m + 2.0 * a2 * c * c, -cross);
         let e2 = C64::new(2.0 * a * c, -2.0 * a * s);
-        let scale = prop.zc.inv() / den;
+        // 1/(Zc·den) with one division (|Zc·den|² stays far from overflow:
+        // |den| ≤ 3 and Zc of any line is below 1e20 Pa·s/m³)
+        let zd = prop.zc * den;
+        let r = 1.0 / zd.norm_sqr();
+        let scale = C64::new(zd.re * r, -zd.im * r);
         let (coth, csch) = (num * scale, e2 * scale);
         Some([[coth, -csch], [-csch, coth]])
     }

@@ -335,8 +335,9 @@ impl Symbolic {
 }
 
 /// Factorises `vals` (laid out by `sym`'s slots) in place in the static
-/// order: afterwards the diagonal slots hold U's diagonal, the upper slots
-/// U and the lower slots L's multipliers (unit diagonal). `mass` (one per
+/// order: afterwards the diagonal slots hold the reciprocals of U's
+/// diagonal (so that the substitutions multiply rather than divide), the
+/// upper slots U and the lower slots L's multipliers (unit diagonal). `mass` (one per
 /// slot, any contents) is scratch for the growth check.
 ///
 /// Returns the smallest over the largest pivot magnitude (|.|², square-
@@ -362,11 +363,13 @@ pub fn factor_static(sym: &Symbolic, vals: &mut [C64], mass: &mut [f64]) -> Opti
         let d2 = d.norm_sqr();
         lo = lo.min(d2);
         hi = hi.max(d2);
+        let r = 1.0 / d2;
+        let inv = C64::new(d.re * r, -d.im * r);
+        vals[k] = inv;
         let (b, e) = (sym.wing_ptr[k] as usize, sym.wing_ptr[k + 1] as usize);
         if b == e {
             continue;
         }
-        let inv = d.conj() / d2;
         let t0 = sym.upd_ptr[k] as usize;
         if e - b == 1 {
             // one later neighbour (every step of a tree): one update
@@ -435,7 +438,7 @@ pub fn solve_static(
             for e in sym.wing_range(k) {
                 s -= vals[n + e] * x[sym.wing_idx[e] as usize];
             }
-            x[k] = s / vals[k];
+            x[k] = s * vals[k];
         }
         return true;
     };
@@ -466,7 +469,7 @@ pub fn solve_static(
             size += abs1(t);
         }
         clean &= size <= MAX_GROWTH * abs1(s);
-        x[k] = s / vals[k];
+        x[k] = s * vals[k];
     }
     clean
 }
@@ -475,7 +478,7 @@ pub fn solve_static(
 pub fn solve_static_adjoint(sym: &Symbolic, vals: &[C64], x: &mut [C64]) {
     let (n, w) = (sym.n, sym.wing_idx.len());
     for k in 0..n {
-        x[k] /= vals[k].conj();
+        x[k] *= vals[k].conj();
         let xk = x[k];
         if xk != ZERO {
             for e in sym.wing_range(k) {
