@@ -980,3 +980,85 @@ fn a_tolerance_on_a_speed_range_is_refused_at_its_line() {
     );
     let _ = std::fs::remove_dir_all(dir);
 }
+
+/// The line (1-based) of the first line of `text` holding `needle`.
+fn line_of(text: &str, needle: &str) -> usize {
+    text.lines().position(|l| l.contains(needle)).unwrap() + 1
+}
+
+// A first-order step or a Monte Carlo draw the circuit refuses at an
+// envelope point is located at the line of the value that carries the
+// tolerance (the point named in words), not at the envelope key the point
+// evaluator first moved it to.
+#[test]
+fn a_refused_draw_at_an_envelope_point_is_located_at_the_uncertain_value() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let model = std::fs::read_to_string(root.join("networks/loader_work_envelope.yaml")).unwrap();
+    let at = "120 bar, 50 °C, lifting";
+    // ± 5 percentage points of 0.3 %: value − u is below zero
+    let air = model.replace("air_content: 0.3 %", "air_content: 0.3 % ± 5 %");
+    assert_ne!(air, model);
+    let (dir, circuit) = circuit_in_scratch("located", "air.yaml", &air);
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(["solve", circuit.to_str().unwrap(), "--bands", "first-order"])
+        .args(["--at", at])
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{stderr}");
+    let expected = format!(
+        "air.yaml:{}:3: fluid.air_content: at envelope point `{at}`: free air content",
+        line_of(&air, "air_content:")
+    );
+    assert!(stderr.contains(&expected), "{stderr}");
+    assert!(!stderr.contains("envelope.pressures"), "{stderr}");
+    // a drawn gas volume below zero, at a point of a load case
+    let gas = model.replace("gas_volume: 0.32 L", "gas_volume: 0.32 L ± 0.5 L");
+    assert_ne!(gas, model);
+    let circuit = dir.join("gas.yaml");
+    std::fs::write(&circuit, &gas).unwrap();
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(["solve", circuit.to_str().unwrap(), "--bands", "monte-carlo"])
+        .args(["--draws", "100", "--at", at])
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{stderr}");
+    let expected = format!(
+        "gas.yaml:{}:5: elements[7].gas_volume: at envelope point `{at}`: must be greater than zero",
+        line_of(&gas, "gas_volume:")
+    );
+    assert!(stderr.contains(&expected), "{stderr}");
+    assert!(!stderr.contains("envelope.cases"), "{stderr}");
+    let _ = std::fs::remove_dir_all(dir);
+}
+
+// In a file without an envelope, a refused step says nothing of envelope
+// points: the bands are said to be the file's.
+#[test]
+fn a_refused_step_in_a_file_without_an_envelope_names_no_envelope_point() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let model = std::fs::read_to_string(root.join("networks/calibration/log_loader.yaml")).unwrap();
+    let text = model.replace("1.6 GPa ± 10 %", "1.6 GPa ± 90 %");
+    assert_ne!(text, model);
+    let (dir, circuit) = circuit_in_scratch("no-envelope", "wide.yaml", &text);
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(["solve", circuit.to_str().unwrap(), "--bands", "first-order"])
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{stderr}");
+    assert!(
+        stderr.starts_with(&format!(
+            "error: uncertainty bands of {}",
+            circuit.display()
+        )),
+        "{stderr}"
+    );
+    assert!(
+        stderr.contains("`fluid.bulk_modulus` at its value − u"),
+        "{stderr}"
+    );
+    assert!(!stderr.contains("envelope point"), "{stderr}");
+    let _ = std::fs::remove_dir_all(dir);
+}

@@ -136,7 +136,12 @@ pub fn over_points<R, Q, B>(
         });
         progress.finish();
         let bands = bands.map_err(|e| {
-            anyhow::Error::new(e).context(format!("bands at envelope point `{}`", point.label()))
+            let context = if *point == OperatingPoint::default() {
+                format!("uncertainty bands of {}", t.file())
+            } else {
+                format!("bands at envelope point `{}`", point.label())
+            };
+            anyhow::Error::new(e).context(context)
         })?;
         store(result, bands);
     }

@@ -851,7 +851,12 @@ fn at_point(
         }
     }
     let text = path.to_string();
-    let message = format!("at envelope point `{}`: {}", point.label(), located.message);
+    // the file's own point (no envelope chosen) is not named as one
+    let message = if *point == OperatingPoint::default() {
+        located.message.clone()
+    } else {
+        format!("at envelope point `{}`: {}", point.label(), located.message)
+    };
     let target = moved
         .iter()
         .filter(|(prefix, _)| {

@@ -187,9 +187,23 @@ impl CircuitTemplate {
                     || located.message.contains(&format!("`{p}`"))
             });
             match hit {
-                Some(s) => located
-                    .message
-                    .push_str(&described(std::slice::from_ref(s))),
+                Some(s) => {
+                    located
+                        .message
+                        .push_str(&described(std::slice::from_ref(s)));
+                    // an error the point evaluator moved to an envelope key,
+                    // whose own key is the set value (or inside it), belongs
+                    // at the set value's line: the point stays named in words
+                    let p = s.path.to_string();
+                    let exact = format!(" (at `{p}` in the circuit)");
+                    let inside = ["`", ".", "["]
+                        .iter()
+                        .any(|end| located.message.contains(&format!("(at `{p}{end}")));
+                    if inside && located.path != p {
+                        let message = located.message.replacen(&exact, "", 1);
+                        return InputError::located(&self.file, &self.text, &s.path, message);
+                    }
+                }
                 None if !settings.is_empty() => located.message.push_str(&described(settings)),
                 None => {}
             }
