@@ -526,6 +526,14 @@ const BAD_FILES: &[(&str, &str)] = &[
         ":29:9: envelope.cases[1].set.valve.to: a load case cannot change an element's `to`",
     ),
     (
+        "envelope_pressure_with_tolerance.yaml",
+        ":23:23: envelope.pressures[1]: `200 bar ± 5 %`: a tolerance is not read here",
+    ),
+    (
+        "envelope_case_sets_a_tolerance.yaml",
+        ":29:9: envelope.cases[1].set.valve.resistance: `5e10 ± 10 %`: a tolerance is not read here",
+    ),
+    (
         "envelope_temperatures_without_grade.yaml",
         ":24:3: envelope.temperatures: the fluid has no temperature model",
     ),

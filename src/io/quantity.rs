@@ -97,6 +97,24 @@ pub fn allowing_tolerances<T>(read: impl FnOnce() -> T) -> T {
     out
 }
 
+/// Deserialises a `T` with tolerances refused in its quantities (for
+/// `#[serde(deserialize_with)]`): a circuit file's values that are not
+/// values of the machine (the envelope's points) take none, in every
+/// command.
+///
+/// # Errors
+/// `T`'s errors; a tolerance is named as not read there.
+pub fn without_tolerances<'de, T, De>(deserializer: De) -> Result<T, De::Error>
+where
+    T: serde::Deserialize<'de>,
+    De: Deserializer<'de>,
+{
+    let before = TOLERANCES_ALLOWED.with(|c| c.replace(false));
+    let out = T::deserialize(deserializer);
+    TOLERANCES_ALLOWED.with(|c| c.set(before));
+    out
+}
+
 /// The value and the tolerance of a text: `("1.55 GPa", Some((spread,
 /// "5 %")))`; `None` when it has no tolerance mark.
 pub fn split_tolerance(text: &str) -> (&str, Option<(Spread, &str)>) {
@@ -160,9 +178,10 @@ pub fn in_unit(text: &str, unit: &str) -> Result<f64, String> {
 /// A message saying why not.
 pub fn checked_tolerance(text: &str, dim: Dimension) -> Result<(), String> {
     if !TOLERANCES_ALLOWED.with(Cell::get) {
-        return Err(format!(
-            "`{text}`: a tolerance is accepted only in circuit files"
-        ));
+        return Err(crate::units::UnitError::Tolerance {
+            text: text.trim().to_string(),
+        }
+        .to_string());
     }
     written(text, Some(dim)).map(|_| ())
 }
@@ -500,7 +519,7 @@ mod tests {
     fn quantities_take_tolerances_only_where_allowed() {
         let text = "v: 1.55 GPa ± 5 %";
         let e = serde_yaml::from_str::<One>(text).unwrap_err().to_string();
-        assert!(e.contains("accepted only in circuit files"), "{e}");
+        assert!(e.contains("a tolerance is not read here"), "{e}");
         let one: One = allowing_tolerances(|| serde_yaml::from_str(text)).unwrap();
         assert_eq!(one.v.si, 1.55e9);
         // and a plain value is unchanged

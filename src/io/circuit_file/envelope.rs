@@ -36,11 +36,14 @@ pub const MAX_POINTS: usize = 1000;
     expecting = "an envelope: a mapping with speed, shaft, pressures, temperatures and cases (each optional)"
 )]
 pub(super) struct RawEnvelope {
+    // the envelope's points are what is analysed, not values of the
+    // machine: a tolerance there is refused in every command
+    #[serde(default, deserialize_with = "q::without_tolerances")]
     speed: Option<[Q<q::ShaftSpeed>; 2]>,
     shaft: Option<String>,
-    #[serde(default)]
+    #[serde(default, deserialize_with = "q::without_tolerances")]
     pressures: Vec<Q<q::Pressure>>,
-    #[serde(default)]
+    #[serde(default, deserialize_with = "q::without_tolerances")]
     temperatures: Vec<Q<q::Temperature>>,
     #[serde(default)]
     cases: Vec<RawCase>,
@@ -269,8 +272,16 @@ impl Checker<'_> {
                     "give the element's keys for this case as a mapping, e.g. `{resistance: 2e10}`",
                 ));
             };
-            for key in keys.keys() {
+            for (key, value) in keys {
                 let key = key.as_str().unwrap_or("");
+                if let Some((inner, text)) = with_tolerance(value, ep.key(key)) {
+                    return Err(self.err(
+                        &inner,
+                        format!(
+                            "`{text}`: a tolerance is not read here; a load case's values make a point of the envelope (what is analysed), not uncertain values of the machine: put the tolerance on the element's own value"
+                        ),
+                    ));
+                }
                 if FIXED_KEYS.contains(&key) {
                     return Err(self.err(
                         &ep.key(key),
@@ -802,6 +813,26 @@ fn closed_end(name: &str, at: &str, checker: &Checker<'_>, path: &KeyPath) -> Re
         (Value::from("at"), Value::from(at)),
     ])))
     .map_err(|err| checker.err(path, err.to_string()))
+}
+
+/// The first text at or inside `value` (at `path`) written with a
+/// tolerance, and its key path.
+fn with_tolerance(value: &Value, path: KeyPath) -> Option<(KeyPath, String)> {
+    match value {
+        Value::String(t) => q::split_tolerance(t)
+            .1
+            .is_some()
+            .then(|| (path, t.trim().to_string())),
+        Value::Sequence(items) => items
+            .iter()
+            .enumerate()
+            .find_map(|(i, v)| with_tolerance(v, path.index(i))),
+        Value::Mapping(m) => m
+            .iter()
+            .find_map(|(k, v)| with_tolerance(v, path.key(k.as_str().unwrap_or_default()))),
+        Value::Tagged(t) => with_tolerance(&t.value, path),
+        _ => None,
+    }
 }
 
 /// The circuit nodes a valve block's ports join (a block joins them
