@@ -242,6 +242,33 @@ fn bad_parameters_are_usage_errors() {
             "from the lower to the higher value",
         ),
         ("fluid.bulk_modulus=1 m..3 m", "`1 m`"),
+        // bounds the circuit refuses at the value's own key, whatever the
+        // other values
+        (
+            "fluid.bulk_modulus=-100GPa..2GPa",
+            "the circuit refuses `fluid.bulk_modulus` at its lower bound `-100GPa`: networks/calibration/log_loader.yaml:17:3: fluid.bulk_modulus: must be greater than zero",
+        ),
+        (
+            "fluid.bulk_modulus=1GPa..200GPa",
+            "at its upper bound `200GPa`: networks/calibration/log_loader.yaml:17:3: fluid.bulk_modulus: 2e11 Pa is outside the plausible range",
+        ),
+        (
+            "pump tube.length=0..5m",
+            "the circuit refuses `pump tube.length` at its lower bound `0`: networks/calibration/log_loader.yaml:43:5: elements[0].length: must be greater than zero",
+        ),
+        (
+            "load.resistance=-1e11..1e11",
+            "at its lower bound `-1e11`: networks/calibration/log_loader.yaml:65:5: elements[3].resistance",
+        ),
+        (
+            "boom hose.loss_factor=-10..0.2",
+            "at its lower bound `-10`: networks/calibration/log_loader.yaml:55:5: elements[1].loss_factor",
+        ),
+        // with the oil's modulus as written, no hose is faster than the oil
+        (
+            "boom hose.wave_speed=600m/s..1500m/s",
+            "at its upper bound `1500m/s`: networks/calibration/log_loader.yaml:54:5: elements[1].wave_speed",
+        ),
         ("fluid.bulk_modulus", "write TARGET=LOW..HIGH"),
     ] {
         refused(&dir, &["calibrate", MODEL, RUNS, "--vary", vary], fragment);

@@ -267,6 +267,23 @@ impl CircuitTemplate {
         Ok(target)
     }
 
+    /// Why the circuit as written, with `settings` (the first sets
+    /// `target`), refuses `target` at its own key: a value outside what
+    /// that key takes (a length not above zero, a value beyond its
+    /// plausible range, or one that disagrees with the other values as set).
+    /// `None` when the circuit takes it, or refuses it only at another key.
+    pub fn refusal(&self, target: &Target, settings: &[Setting]) -> Option<InputError> {
+        let e = self.circuit(&OperatingPoint::default(), settings).err()?;
+        let InputError::Invalid(located) = &e else {
+            return Some(e);
+        };
+        let p = target.path.to_string();
+        let own = located.path == p
+            || located.path.starts_with(&format!("{p}."))
+            || located.path.starts_with(&format!("{p}["));
+        own.then_some(e)
+    }
+
     /// Every value of the file written with a tolerance, in the order of the
     /// file (fluid, pumps, elements, taps).
     ///
