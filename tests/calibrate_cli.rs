@@ -208,6 +208,21 @@ fn bad_measurement_files_are_located_errors() {
         args.extend(VARY);
         refused(&dir, &args, fragment);
     }
+    // the speed tolerance in per cent, as written
+    for (top, fragment) in [
+        (
+            "speed_tolerance: 200 %\n",
+            "m.yaml:1:1: speed_tolerance: 200 % is outside the plausible range 0.01 % .. 20 %: check the value",
+        ),
+        (
+            "speed_tolerance: 0 %\n",
+            "m.yaml:1:1: speed_tolerance: must be greater than zero, found 0 %\n",
+        ),
+    ] {
+        let m = measurements(&dir, ok_run, top);
+        let m_s = m.display().to_string();
+        refused(&dir, &["compare", MODEL, &m_s], fragment);
+    }
     let _ = std::fs::remove_dir_all(dir);
 }
 

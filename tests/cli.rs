@@ -310,6 +310,14 @@ const BAD_FILES: &[(&str, &str)] = &[
         "taps[1].element: no element is called `suction_line`",
     ),
     (
+        "two_tolerances.yaml",
+        ":15:54: elements[0].length: `2.5 m, u = 5 % ± 2 %` has two tolerances; give one",
+    ),
+    (
+        "uncertainty_unquoted_in_flow_mapping.yaml",
+        ":11:41: pump.flow_ripple[0]: unknown field `u = 0.1 L/min`, expected one of `harmonic`, `amplitude`, `phase`; `u = 0.1 L/min` looks like a standard uncertainty cut off from its value: in a `{...}` mapping a comma ends a value, so quote the value with it",
+    ),
+    (
         "unknown_key.yaml",
         ":53:5: elements[0]: unknown field `colour`",
     ),

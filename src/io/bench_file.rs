@@ -362,7 +362,9 @@ impl Checker<'_> {
                 let ep = root.key("extraction");
                 let tol = match e.speed_tolerance {
                     None => 0.05,
-                    Some(t) => self.in_range(&ep.key("speed_tolerance"), t.si, 1e-4, 0.2, "")?,
+                    Some(t) => {
+                        self.percent_in_range(&ep.key("speed_tolerance"), t.si, 1e-4, 0.2)?
+                    }
                 };
                 Extraction {
                     speed_tolerance: tol,

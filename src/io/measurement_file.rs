@@ -191,7 +191,7 @@ pub fn parse_measurements(
     };
     let speed_tolerance = match raw.speed_tolerance {
         None => 0.05,
-        Some(t) => check.in_range(&root.key("speed_tolerance"), t.si, 1e-4, 0.2, "")?,
+        Some(t) => check.percent_in_range(&root.key("speed_tolerance"), t.si, 1e-4, 0.2)?,
     };
     if raw.runs.is_empty() {
         return Err(check.err(&root.key("runs"), "no runs are listed"));

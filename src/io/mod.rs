@@ -248,10 +248,11 @@ pub fn parse_yaml<T: serde::de::DeserializeOwned>(text: &str, file: &str) -> Res
         if let Some(pos) = message.rfind(" at line ") {
             message.truncate(pos);
         }
-        let (path, message) = match message.split_once(": ") {
+        let (path, mut message) = match message.split_once(": ") {
             Some((p, m)) if !p.contains(' ') && !p.is_empty() => (p.to_string(), m.to_string()),
             _ => (String::new(), message),
         };
+        message.push_str(&uncertainty_as_a_key(&message));
         InputError::Invalid(Located {
             file: file.to_string(),
             line: loc.map(|l| l.0),
@@ -260,6 +261,22 @@ pub fn parse_yaml<T: serde::de::DeserializeOwned>(text: &str, file: &str) -> Res
             message,
         })
     })
+}
+
+/// A hint for `unknown field `u = 1 L/min``: in a flow mapping a comma ends
+/// the value, so an unquoted `, u = …` after it is read as a key of its own.
+fn uncertainty_as_a_key(message: &str) -> String {
+    let field = message
+        .strip_prefix("unknown field `")
+        .and_then(|rest| rest.split_once('`'))
+        .map(|(field, _)| field.trim());
+    match field.and_then(|f| f.strip_prefix('u')) {
+        Some(rest) if rest.trim_start().starts_with('=') => format!(
+            "; `{}` looks like a standard uncertainty cut off from its value: in a `{{...}}` mapping a comma ends a value, so quote the value with it, e.g. `amplitude: \"1.3 L/min, u = 0.1 L/min\"`",
+            field.unwrap_or_default()
+        ),
+        _ => String::new(),
+    }
 }
 
 /// The position (line, column 1) of the marker that starts a second YAML

@@ -217,6 +217,14 @@ fn find_unit(unit: &str, dim: Option<Dimension>) -> Option<(Dimension, f64)> {
 /// not a number with a unit).
 pub fn written(text: &str, dim: Option<Dimension>) -> Result<Written, String> {
     let (value, tol) = split_tolerance(text);
+    if let Some((_, amount)) = tol
+        && (split_tolerance(value).1.is_some() || split_tolerance(amount).1.is_some())
+    {
+        return Err(format!(
+            "`{}` has two tolerances; give one: {TOLERANCE_HINT}",
+            text.trim()
+        ));
+    }
     let (number, unit) = split_number(value)
         .ok_or_else(|| format!("`{value}` is not a number followed by a unit"))?;
     let unit = unit.trim().to_string();
@@ -503,6 +511,21 @@ mod tests {
                 "depends on its scale",
             ),
             ("1.55 GPa ± x", Dimension::Modulus, "not a number"),
+            (
+                "1.6 GPa, u = 5 % ± 2 %",
+                Dimension::Modulus,
+                "`1.6 GPa, u = 5 % ± 2 %` has two tolerances",
+            ),
+            (
+                "1.6 GPa ± 2 %, u = 5 %",
+                Dimension::Modulus,
+                "has two tolerances",
+            ),
+            (
+                "1.6 GPa ± 2 % ± 1 %",
+                Dimension::Modulus,
+                "has two tolerances",
+            ),
         ] {
             let e = written(text, Some(dim)).unwrap_err();
             assert!(e.contains(part), "{text}: {e}");

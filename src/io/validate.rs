@@ -49,15 +49,45 @@ impl FileCheck<'_> {
 
     /// A value within [lo, hi] (SI), with a message naming the range.
     pub fn in_range(&self, path: &KeyPath, value: f64, lo: f64, hi: f64, unit: &str) -> Res<f64> {
+        // a number without a unit has no space after it
+        let u = if unit.is_empty() {
+            String::new()
+        } else {
+            format!(" {unit}")
+        };
         let v = format_sig(value, 6);
         if value <= 0.0 && lo > 0.0 {
-            return Err(self.err(path, format!("must be greater than zero, found {v} {unit}")));
+            return Err(self.err(path, format!("must be greater than zero, found {v}{u}")));
         }
         if !(lo..=hi).contains(&value) {
             return Err(self.err(
                 path,
                 format!(
-                    "{v} {unit} is outside the plausible range {lo:e} .. {hi:e} {unit}: check the unit (a bare number is SI)"
+                    "{v}{u} is outside the plausible range {lo:e} .. {hi:e}{u}: check the unit (a bare number is SI)"
+                ),
+            ));
+        }
+        Ok(value)
+    }
+
+    /// A fraction (read from `2 %` or a bare `0.02`) within [lo, hi], with
+    /// a message in per cent, as such values are written.
+    pub fn percent_in_range(&self, path: &KeyPath, value: f64, lo: f64, hi: f64) -> Res<f64> {
+        let pc = |x: f64| format!("{} %", format_sig(100.0 * x, 6));
+        if value <= 0.0 && lo > 0.0 {
+            return Err(self.err(
+                path,
+                format!("must be greater than zero, found {}", pc(value)),
+            ));
+        }
+        if !(lo..=hi).contains(&value) {
+            return Err(self.err(
+                path,
+                format!(
+                    "{} is outside the plausible range {} .. {}: check the value (a bare number is a fraction: 0.02 = 2 %)",
+                    pc(value),
+                    pc(lo),
+                    pc(hi)
                 ),
             ));
         }
