@@ -200,6 +200,11 @@ fn bad_measurement_files_are_located_errors() {
             "  - {name: r, speed: 1400 rpm, records: RECORD, spectra: RECORD, columns: {pump outlet: p_pump}}\n",
             "m.yaml:3:3: runs[0]: a run takes one data file",
         ),
+        // one column read as two taps
+        (
+            "  - {name: r, speed: 1400 rpm, records: RECORD, columns: {pump outlet: p_pump, bulkhead: p_pump}}\n",
+            "runs[0].columns.bulkhead: the column `p_pump` is given to both `pump outlet` and `bulkhead`",
+        ),
     ] {
         let m = measurements(&dir, runs, "");
         let m_s = m.display().to_string();
@@ -208,8 +213,13 @@ fn bad_measurement_files_are_located_errors() {
         args.extend(VARY);
         refused(&dir, &args, fragment);
     }
-    // the speed tolerance in per cent, as written
+    // the speed tolerance in per cent, as written; harmonics the pump has
+    // no source flow at (its table lists 6)
     for (top, fragment) in [
+        (
+            "harmonics: 7\n",
+            "m.yaml:1:1: harmonics: 7 harmonics asked, but the circuit's pump `feed pump` has source flow up to harmonic 6 only",
+        ),
         (
             "speed_tolerance: 200 %\n",
             "m.yaml:1:1: speed_tolerance: 200 % is outside the plausible range 0.01 % .. 20 %: check the value",
@@ -223,6 +233,31 @@ fn bad_measurement_files_are_located_errors() {
         let m_s = m.display().to_string();
         refused(&dir, &["compare", MODEL, &m_s], fragment);
     }
+    // a blank line between the samples of a record read with a sample rate
+    // and no time column (a lost row would shift the later samples)
+    let record = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("networks/calibration/records/run_1400.csv"),
+    )
+    .unwrap();
+    let mut lines: Vec<&str> = record.lines().collect();
+    lines.insert(500, "");
+    std::fs::write(dir.join("blank.csv"), lines.join("\n") + "\n").unwrap();
+    let m = dir.join("m.yaml");
+    std::fs::write(
+        &m,
+        "records: {unit: bar, sample_rate: 6 kHz}\nruns:\n  - {name: r, speed: 1400 rpm, records: blank.csv, columns: {pump outlet: p_pump}}\n",
+    )
+    .unwrap();
+    let m_s = m.display().to_string();
+    let blank = format!(
+        "{}:501: a blank line between the samples",
+        dir.join("blank.csv").display()
+    );
+    refused(&dir, &["compare", MODEL, &m_s], &blank);
+    // blank lines after the last row are no samples lost
+    std::fs::write(dir.join("blank.csv"), record.clone() + "\n\n").unwrap();
+    let o = ripline(&["compare", MODEL, &m_s]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
     let _ = std::fs::remove_dir_all(dir);
 }
 

@@ -217,6 +217,9 @@ pub fn parse_measurements(
         }
         runs.push(run(&check, &rp, r, raw.records.as_ref(), circuit, &base)?);
     }
+    if let Some(asked) = raw.harmonics {
+        harmonics_with_source_flow(&check, asked, &runs, circuit)?;
+    }
     Ok(Measurements {
         file: file.to_string(),
         text: text.to_string(),
@@ -229,6 +232,58 @@ pub fn parse_measurements(
         speed_tolerance,
         runs,
     })
+}
+
+/// Refuses harmonics asked beyond the highest at which a pump on a run's
+/// shaft has source flow: the circuit predicts nothing there.
+fn harmonics_with_source_flow(
+    check: &FileCheck,
+    asked: u32,
+    runs: &[Run],
+    circuit: &CircuitFile,
+) -> Res<()> {
+    let c = &circuit.circuit;
+    let all = shafts(&c.pumps);
+    let mut seen: Vec<usize> = Vec::new();
+    for run in runs {
+        if seen.contains(&run.shaft) {
+            continue;
+        }
+        seen.push(run.shaft);
+        let pumps = &all[run.shaft].pumps;
+        let top = pumps
+            .iter()
+            .filter_map(|&i| (1..=asked).rev().find(|&k| c.pumps[i].has_source_flow(k)))
+            .max()
+            .unwrap_or(0);
+        if top < asked {
+            let names: Vec<String> = pumps
+                .iter()
+                .map(|&i| format!("`{}`", c.pumps[i].name))
+                .collect();
+            let (whose, has) = if names.len() == 1 {
+                (format!("the circuit's pump {}", names[0]), "has")
+            } else {
+                (
+                    format!("the circuit's pumps {} on one shaft", names.join(", ")),
+                    "have",
+                )
+            };
+            let message = if top == 0 {
+                format!(
+                    "{asked} harmonics asked, but {whose} {has} no source flow at any of them (run `{}`): the circuit predicts nothing to compare",
+                    run.name
+                )
+            } else {
+                format!(
+                    "{asked} harmonics asked, but {whose} {has} source flow up to harmonic {top} only, so the circuit predicts nothing above it (run `{}`): give `harmonics: {top}` or fewer, or extend the pump's flow ripple",
+                    run.name
+                )
+            };
+            return Err(check.err(&KeyPath::root().key("harmonics"), message));
+        }
+    }
+    Ok(())
 }
 
 fn run(
@@ -342,6 +397,15 @@ fn run(
             .ok_or_else(|| unknown(path.clone(), &name))?;
         if taps.iter().any(|(i, _)| *i == index) {
             return Err(check.err(&path, format!("tap `{name}` is listed twice")));
+        }
+        if let Some(j) = columns.iter().position(|c| *c == col) {
+            return Err(check.err(
+                &path,
+                format!(
+                    "the column `{col}` is given to both `{}` and `{name}`: a column holds the pressure of one tap",
+                    taps[j].1
+                ),
+            ));
         }
         taps.push((index, name));
         columns.push(col);

@@ -34,6 +34,8 @@ struct Table {
     file: String,
     header: Vec<String>,
     rows: Vec<(u64, Vec<String>)>,
+    /// The first blank line between two data rows (the reader skips it).
+    blank_between_rows: Option<u64>,
 }
 
 impl Table {
@@ -110,7 +112,26 @@ impl Table {
                 "no data rows after the header".into(),
             ));
         }
-        Ok(Table { file, header, rows })
+        // lines skipped between rows (comments or blank lines): the text is
+        // scanned only when there are any
+        let first = rows[0].0;
+        let last = rows[rows.len() - 1].0;
+        let blank_between_rows = if last - first + 1 > rows.len() as u64 {
+            text.lines()
+                .zip(1u64..)
+                .skip(first as usize)
+                .take_while(|(_, n)| *n < last)
+                .find(|(l, _)| l.trim().is_empty())
+                .map(|(_, n)| n)
+        } else {
+            None
+        };
+        Ok(Table {
+            file,
+            header,
+            rows,
+            blank_between_rows,
+        })
     }
 
     fn column(&self, name: &str) -> Result<usize, InputError> {
@@ -226,6 +247,14 @@ pub fn read_record_and_tacho(
         for (ch, &c) in idx.iter().enumerate() {
             channels[ch].push(t.pressure(r, c, unit_pa)?);
         }
+    }
+    if let (None, Some(line)) = (time_column, t.blank_between_rows) {
+        return Err(located(
+            &t.file,
+            Some(line),
+            "",
+            "a blank line between the samples: with a sample rate and no time column each row is the next sample, so a row lost here would shift every later sample in time; remove the line (or give a time column)".into(),
+        ));
     }
     let rate = match time_column {
         None => sample_rate_hz.expect("the bench file checker requires a rate or a time column"),
