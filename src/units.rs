@@ -328,7 +328,7 @@ pub enum UnitError {
     /// A tolerance (`± 5 %`, `u = …`) where none is read: only a circuit's
     /// own values (fluid, pumps, elements, taps) take one.
     #[error(
-        "`{text}`: a tolerance is not read here; only a circuit's own values (its fluid, pumps, elements and taps) take one"
+        "`{text}`: a tolerance is not read here; only the values of the machine in a circuit file take one (its fluid, pumps, elements and taps), not the speeds, pressures and temperatures it is analysed at, its limits or a command's options"
     )]
     Tolerance {
         /// The offending text.

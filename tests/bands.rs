@@ -957,7 +957,7 @@ fn draws_below_a_values_range_are_made_again_and_too_many_are_refused() {
 
 // A tolerance on a pump's speed range changes nothing a command computes
 // (the range is what is analysed, not a value of the machine): refused at
-// its line with exit 2, as one in the envelope is.
+// its line with exit 2 by every command, as one in the envelope is.
 #[test]
 fn a_tolerance_on_a_speed_range_is_refused_at_its_line() {
     let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
@@ -968,16 +968,25 @@ fn a_tolerance_on_a_speed_range_is_refused_at_its_line() {
     );
     assert_ne!(text, model);
     let (dir, circuit) = circuit_in_scratch("speed-range", "range.yaml", &text);
-    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
-        .args(["solve", circuit.to_str().unwrap(), "--bands", "first-order"])
-        .output()
-        .unwrap();
-    let stderr = String::from_utf8_lossy(&o.stderr);
-    assert_eq!(o.status.code(), Some(2), "{stderr}");
-    assert!(
-        stderr.contains("range.yaml:26:3: pump.speed_range[0]: a tolerance here is not used"),
-        "{stderr}"
-    );
+    let path = circuit.to_str().unwrap();
+    for args in [
+        vec!["solve", path, "--bands", "first-order"],
+        vec!["solve", path],
+        vec!["check", path],
+    ] {
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+            .args(&args)
+            .output()
+            .unwrap();
+        let stderr = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {stderr}");
+        assert!(
+            stderr.contains("range.yaml:26:")
+                && stderr.contains("speed_range")
+                && stderr.contains("a tolerance is not read here"),
+            "{args:?}: {stderr}"
+        );
+    }
     let _ = std::fs::remove_dir_all(dir);
 }
 

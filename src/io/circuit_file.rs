@@ -146,6 +146,9 @@ struct RawPump {
     name: Option<String>,
     node: String,
     speed: Option<Q<q::ShaftSpeed>>,
+    // the range of speeds analysed, not a value of the machine: a tolerance
+    // there is refused in every command
+    #[serde(default, deserialize_with = "q::without_tolerances")]
     speed_range: Option<[Q<q::ShaftSpeed>; 2]>,
     pumping_elements: Option<u32>,
     displacement: Option<Q<q::Volume>>,

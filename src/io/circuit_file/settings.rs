@@ -325,19 +325,6 @@ impl CircuitTemplate {
                 }
             }
         }
-        // a pump's speed range is the range analysed, not a value of the
-        // machine
-        if let Some(u) = out
-            .iter()
-            .find(|u| u.target.path.to_string().contains("speed_range"))
-        {
-            return Err(InputError::located(
-                &self.file,
-                &self.text,
-                &u.target.path,
-                "a tolerance here is not used: a speed range is the range of speeds analysed, not an uncertain value of the machine",
-            ));
-        }
         Ok(out)
     }
 
