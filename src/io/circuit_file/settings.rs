@@ -444,10 +444,18 @@ fn described(settings: &[Setting]) -> String {
     format!(" (with {}{more}: {})", parts.join(", "), settings[0].why)
 }
 
+/// A set value for a message, its number to 6 significant digits (the
+/// value itself keeps every digit: `0.6400000000000001 GPa` reads `0.64 GPa`).
 fn describe_value(v: &Value) -> String {
+    let short = |x: f64| crate::units::format_sig(x, 6);
     match v {
-        Value::String(s) => format!("`{s}`"),
-        Value::Number(n) => n.to_string(),
+        Value::String(s) => match s.split_once(' ') {
+            Some((number, unit)) if number.parse::<f64>().is_ok_and(f64::is_finite) => {
+                format!("`{} {unit}`", short(number.parse().unwrap_or_default()))
+            }
+            _ => format!("`{s}`"),
+        },
+        Value::Number(n) => n.as_f64().map_or_else(|| n.to_string(), short),
         Value::Bool(b) => format!("`{b}`"),
         Value::Mapping(_) => "a mapping".into(),
         Value::Sequence(_) => "a list".into(),
@@ -632,9 +640,18 @@ taps:
             .to_string();
         assert!(e.starts_with("t.yaml:21:5: elements[0].length"), "{e}");
         assert!(
-            e.contains("`line.a.length` set to `-1.0 m`: a Monte Carlo draw"),
+            e.contains("`line.a.length` set to `-1 m`: a Monte Carlo draw"),
             "{e}"
         );
+        // a drawn value is shown to 6 significant digits, not every digit
+        let e = t
+            .circuit(
+                &OperatingPoint::default(),
+                &[len.setting(-0.1 - 0.2, "a Monte Carlo draw")],
+            )
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("set to `-0.3 m`"), "{e}");
     }
 
     #[test]
