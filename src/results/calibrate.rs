@@ -121,12 +121,74 @@ pub fn calibrate(
         },
         measurements: measurements_info(m),
         inputs,
-        notices: notices(&calibration),
+        notices: notices(&calibration)
+            .into_iter()
+            .chain(refused_within_reach(
+                &template,
+                &request.parameters,
+                &calibration,
+            ))
+            .collect(),
         calibration,
         before,
         after,
         calibrated_text: text,
     })
+}
+
+/// How many standard uncertainties either side of an estimate a value the
+/// circuit refuses is looked for: 3 u holds all but 0.27 % of a normal
+/// distribution's draws (common practice: the three-sigma range).
+const REACH_U: f64 = 3.0;
+
+/// A notice for each estimate whose uncertainty reaches, within
+/// [`REACH_U`] standard uncertainties, a value the circuit refuses at its
+/// key (a length or a volume at zero, a modulus beyond its range): the
+/// calibrated file writes that uncertainty, and Monte Carlo bands drawn
+/// from it draw such values again (a truncated distribution) or refuse to
+/// run when more than 1 % of the draws are refused.
+fn refused_within_reach(
+    template: &crate::io::CircuitTemplate,
+    parameters: &[Parameter],
+    c: &Calibration,
+) -> Vec<Notice> {
+    let calibrated = c.settings(parameters);
+    let mut out = Vec::new();
+    for (k, (p, e)) in parameters.iter().zip(&c.estimates).enumerate() {
+        let Some(u) = e.uncertainty.filter(|u| *u > 0.0) else {
+            continue;
+        };
+        for (side, v) in [("−", e.value - REACH_U * u), ("+", e.value + REACH_U * u)] {
+            // this value moved, the others at their calibrated values
+            let mut settings = vec![p.target.setting(v, "the calibrated value ± 3 u")];
+            settings.extend(
+                calibrated
+                    .iter()
+                    .enumerate()
+                    .filter(|(j, _)| *j != k)
+                    .map(|(_, s)| s.clone()),
+            );
+            if template.refusal(&p.target, &settings).is_some() {
+                let sig = |x: f64| crate::units::format_sig(x, 6);
+                let unit = if e.unit.is_empty() {
+                    String::new()
+                } else {
+                    format!(" {}", e.unit)
+                };
+                out.push(Notice {
+                    subject: e.name.clone(),
+                    message: format!(
+                        "its uncertainty reaches values the circuit refuses: at the estimate {side} 3 u ({}{unit}; estimate {}{unit}, u = {}{unit}); uncertainty bands from the calibrated file draw such values again and refuse to run when more than 1 % of the draws are refused; the measurements determine it poorly",
+                        sig(v),
+                        sig(e.value),
+                        sig(u)
+                    ),
+                });
+                break;
+            }
+        }
+    }
+    out
 }
 
 fn notices(c: &Calibration) -> Vec<Notice> {
