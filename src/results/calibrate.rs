@@ -178,7 +178,7 @@ fn refused_within_reach(
                 out.push(Notice {
                     subject: e.name.clone(),
                     message: format!(
-                        "its uncertainty reaches values the circuit refuses: at the estimate {side} 3 u ({}{unit}; estimate {}{unit}, u = {}{unit}); uncertainty bands from the calibrated file draw such values again and refuse to run when more than 1 % of the draws are refused; the measurements determine it poorly",
+                        "its uncertainty reaches values the circuit refuses: at the estimate {side} 3 u ({}{unit}; estimate {}{unit}, u = {}{unit}); uncertainty bands from the calibrated file draw such values again and refuse to run when more than 1 % of the draws are refused",
                         sig(v),
                         sig(e.value),
                         sig(u)
