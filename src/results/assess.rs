@@ -337,11 +337,12 @@ pub fn verdict_bands(
             report.subject.file
         )));
     }
-    let failed = |e: BandError| match e {
-        BandError::NothingUncertain | BandError::Input(_) | BandError::Refused { .. } => {
+    let failed = |e: BandError| {
+        if e.is_input() {
             Error::Request(e.to_string())
+        } else {
+            Error::failed("uncertainty bands of the verdicts".to_string(), e)
         }
-        other => Error::failed("uncertainty bands of the verdicts".to_string(), other),
     };
     let run = |evals: &Evaluations,
                outputs: &(dyn Fn(&[f64]) -> Vec<f64> + Sync),

@@ -177,11 +177,10 @@ fn ends<'a>(bands: impl Iterator<Item = &'a OutputBand>) -> (Vec<f64>, Vec<f64>)
 
 /// A propagation's error as an analysis error about `what`.
 fn band_error(e: BandError, what: &str) -> Error {
-    match e {
-        BandError::NothingUncertain | BandError::Input(_) | BandError::Refused { .. } => {
-            Error::Request(e.to_string())
-        }
-        other => Error::failed(format!("uncertainty bands of {what}"), other),
+    if e.is_input() {
+        Error::Request(e.to_string())
+    } else {
+        Error::failed(format!("uncertainty bands of {what}"), e)
     }
 }
 

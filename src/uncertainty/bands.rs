@@ -144,6 +144,18 @@ pub enum BandError {
     },
 }
 
+impl BandError {
+    /// Whether the error lies in the input (nothing uncertain, a circuit the
+    /// file's values make invalid, tolerances reaching too far): a request
+    /// error (exit 2), not a failed analysis.
+    pub fn is_input(&self) -> bool {
+        matches!(
+            self,
+            BandError::NothingUncertain | BandError::Input(_) | BandError::Refused { .. }
+        )
+    }
+}
+
 /// Most draws of a row made again when the circuit refuses a drawn value
 /// ([`BandsInfo::redrawn`]) before the bands are refused.
 pub const MAX_REDRAWS: usize = 100;

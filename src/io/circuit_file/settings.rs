@@ -449,9 +449,9 @@ fn described(settings: &[Setting]) -> String {
 fn describe_value(v: &Value) -> String {
     let short = |x: f64| crate::units::format_sig(x, 6);
     match v {
-        Value::String(s) => match s.split_once(' ') {
-            Some((number, unit)) if number.parse::<f64>().is_ok_and(f64::is_finite) => {
-                format!("`{} {unit}`", short(number.parse().unwrap_or_default()))
+        Value::String(s) => match numeric(v) {
+            Some(w) if w.number.is_finite() && w.tolerance.is_none() => {
+                format!("`{}`", format!("{} {}", short(w.number), w.unit).trim_end())
             }
             _ => format!("`{s}`"),
         },
