@@ -326,27 +326,8 @@ impl Line {
     /// Returns `None` when 1 − E² is exactly zero (Γl = 0, or a lossless
     /// line exactly at a half-wave resonance), where no admittance form exists.
     pub fn admittance(&self, prop: &Propagation) -> Option<Admittance2> {
-        let gl = prop.gamma * self.length_m;
-        let (x, y) = (gl.re, gl.im);
-        let em = (-x).exp_m1(); // e^{−x} − 1, exact near x = 0
-        let a = 1.0 + em;
-        let m = -em * (1.0 + a); // 1 − a² without cancellation
-        let a2 = a * a;
-        let (s, c) = y.sin_cos();
-        let cross = 2.0 * a2 * s * c;
-        let den = C64::new(m + 2.0 * a2 * s * s, cross);
-        if den == C64::new(0.0, 0.0) || !den.is_finite() {
-            return None;
-        }
-        let num = C64::new(m + 2.0 * a2 * c * c, -cross);
-        let e2 = C64::new(2.0 * a * c, -2.0 * a * s);
-        // 1/(Zc·den) with one division (|Zc·den|² stays far from overflow:
-        // |den| ≤ 3 and Zc of any line is below 1e20 Pa·s/m³)
-        let zd = prop.zc * den;
-        let r = 1.0 / zd.norm_sqr();
-        let scale = C64::new(zd.re * r, -zd.im * r);
-        let (coth, csch) = (num * scale, e2 * scale);
-        Some([[coth, -csch], [-csch, coth]])
+        let [terms] = admittance_terms([prop.gamma * self.length_m], [prop.zc]);
+        terms.map(|(coth, csch)| [[coth, -csch], [-csch, coth]])
     }
 
     /// The transfer matrix T = [[cosh Γl, Zc sinh Γl], [sinh Γl / Zc, cosh Γl]].
@@ -377,6 +358,41 @@ impl Line {
     }
 }
 
+/// The two-port admittance terms (coth Γl/Zc, csch Γl/Zc) of N lossy lines
+/// at once from their Γl and Zc, as [`Line::admittance`] forms them (its
+/// documentation gives the formulas); `None` for a lane whose 1 − e^{−2Γl}
+/// is zero or not finite. Each lane's result depends on its own inputs only
+/// (the same bits for N = 1 as beside others); written over arrays so that
+/// the lanes' chains of dependent operations (an exponential, a sine and
+/// cosine, then products and one division) overlap: the plan evaluates its
+/// lines four at a time.
+#[inline(always)]
+pub fn admittance_terms<const N: usize>(gl: [C64; N], zc: [C64; N]) -> [Option<(C64, C64)>; N] {
+    let em = gl.map(|v| (-v.re).exp_m1()); // e^{−x} − 1, exact near x = 0
+    let sc = gl.map(|v| v.im.sin_cos());
+    let mut coth = [C64::new(0.0, 0.0); N];
+    let mut csch = [C64::new(0.0, 0.0); N];
+    let mut bad = [false; N];
+    for l in 0..N {
+        let a = 1.0 + em[l];
+        let m = -em[l] * (1.0 + a); // 1 − a² without cancellation
+        let a2 = a * a;
+        let (s, c) = sc[l];
+        let cross = 2.0 * a2 * s * c;
+        let den = C64::new(m + 2.0 * a2 * s * s, cross);
+        bad[l] = den == C64::new(0.0, 0.0) || !den.is_finite();
+        let num = C64::new(m + 2.0 * a2 * c * c, -cross);
+        let e2 = C64::new(2.0 * a * c, -2.0 * a * s);
+        // 1/(Zc·den) with one division (|Zc·den|² stays far from overflow:
+        // |den| ≤ 3 and Zc of any line is below 1e20 Pa·s/m³)
+        let zd = zc[l] * den;
+        let r = 1.0 / zd.norm_sqr();
+        let scale = C64::new(zd.re * r, -zd.im * r);
+        (coth[l], csch[l]) = (num * scale, e2 * scale);
+    }
+    std::array::from_fn(|l| (!bad[l]).then_some((coth[l], csch[l])))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -394,6 +410,32 @@ mod tests {
             viscoelastic_wall: None,
             mean_flow: MeanFlow::Unknown,
         }
+    }
+
+    // The plan evaluates lines four at a time: each lane must give the bits
+    // `Line::admittance` gives alone (the dense reference path and the
+    // sparse one then share the element values exactly), including a lane
+    // with Γl = 0, which has no admittance form.
+    #[test]
+    fn lines_evaluated_together_give_the_bits_of_each_alone() {
+        let props = oil_line(LineModel::Laminar);
+        let lengths = [0.3, 2.0, 17.0, 450.0];
+        let freqs = [3.0, 225.0, 1800.0, 9000.0];
+        let mut gl = [ONE; 4];
+        let mut zc = [ONE; 4];
+        for l in 0..4 {
+            let prop = props.propagation(2.0 * std::f64::consts::PI * freqs[l]);
+            (gl[l], zc[l]) = (prop.gamma * lengths[l], prop.zc);
+        }
+        gl[3] = C64::new(0.0, 0.0);
+        let together = admittance_terms(gl, zc);
+        for l in 0..4 {
+            let [alone] = admittance_terms([gl[l]], [zc[l]]);
+            let bits =
+                |t: Option<(C64, C64)>| t.map(|(a, b)| [a.re, a.im, b.re, b.im].map(f64::to_bits));
+            assert_eq!(bits(together[l]), bits(alone), "lane {l}");
+        }
+        assert!(together[3].is_none() && together[0].is_some());
     }
 
     #[test]

@@ -109,6 +109,15 @@ enum Stamp {
     Empty,
 }
 
+/// A lossy tube or hose whose two-port is an admittance: element index,
+/// its line in [`Plan::lines`], its length.
+#[derive(Debug, Clone, Copy)]
+struct LossyLine {
+    element: usize,
+    line: usize,
+    length_m: f64,
+}
+
 /// A circuit compiled for repeated per-frequency solves.
 #[derive(Debug, Clone)]
 pub struct Plan<'c> {
@@ -126,6 +135,9 @@ pub struct Plan<'c> {
     /// The distinct (bore radius, kinematic viscosity) pairs: the viscous
     /// factor is evaluated once per pair and frequency.
     bores: Vec<(f64, f64)>,
+    /// The lossy tubes and hoses stamped as admittances, whose two-ports
+    /// are evaluated several at a time ([`crate::line::admittance_terms`]).
+    lossy_lines: Vec<LossyLine>,
     unknowns: usize,
     z_ref: f64,
     /// Order and pattern of the sparse factorisation.
@@ -209,6 +221,27 @@ impl<'c> Plan<'c> {
         }
         let (lines, line_of) = distinct_lines(circuit);
         let (bores, bore_of) = distinct_bores(&lines);
+        let lossy_lines = circuit
+            .elements
+            .iter()
+            .zip(&slots)
+            .zip(&line_of)
+            .enumerate()
+            .filter_map(
+                |(element, ((e, slot), &line))| match (e.kind.line(), slot, line) {
+                    (Some(l), Slot::Admittance { .. }, Some(line))
+                        if !l.properties.is_lossless() =>
+                    {
+                        Some(LossyLine {
+                            element,
+                            line,
+                            length_m: l.length_m,
+                        })
+                    }
+                    _ => None,
+                },
+            )
+            .collect();
 
         let pump_nodes: Vec<Option<usize>> =
             circuit.pumps.iter().map(|p| node_index[p.node]).collect();
@@ -273,6 +306,7 @@ impl<'c> Plan<'c> {
             lines,
             bore_of,
             bores,
+            lossy_lines,
             unknowns: next,
             z_ref: reference_impedance(circuit),
             symbolic,

@@ -15,12 +15,16 @@ use super::dense::DenseWorkspace;
 use super::sparse::{self, PivotedLu, Symbolic};
 use super::{NO_SLOT, Plan, Slot, Stamp};
 use crate::elements::{Behaviour, Connection, NodeId};
-use crate::line::Propagation;
 use crate::line::viscous::one_minus_viscous_factor;
+use crate::line::{Propagation, admittance_terms};
 use num_complex::Complex64 as C64;
 
 const ZERO: C64 = C64 { re: 0.0, im: 0.0 };
 const ONE: C64 = C64 { re: 1.0, im: 0.0 };
+
+/// Lossy lines whose admittances are evaluated together
+/// ([`admittance_terms`]).
+const LANES: usize = 4;
 
 /// Condition number (1-norm estimate) above which a frequency is treated as
 /// singular: fewer than about 3 significant digits would survive (ε·κ > 1e-3).
@@ -427,10 +431,34 @@ impl Plan<'_> {
         {
             *prop = line.propagation_with(omega, bore.map(|b| ws.viscous[b]));
         }
+        // The lossy lines' admittances, LANES at a time (the same bits as
+        // `Line::admittance` of each, whose chains of dependent operations
+        // then overlap; unused lanes get a harmless Γl = 1).
+        let mut is_lossy_line = self.lossy_lines.iter().map(|l| l.element).peekable();
+        for chunk in self.lossy_lines.chunks(LANES) {
+            let mut gl = [ONE; LANES];
+            let mut zc = [ONE; LANES];
+            for (k, l) in chunk.iter().enumerate() {
+                let p = &ws.propagations[l.line];
+                (gl[k], zc[k]) = (p.gamma * l.length_m, p.zc);
+            }
+            let terms = admittance_terms(gl, zc);
+            for (l, t) in chunk.iter().zip(terms) {
+                ws.behaviours[l.element] = match t {
+                    Some((coth, csch)) => Behaviour::Admittance([[coth, -csch], [-csch, coth]]),
+                    None => Behaviour::Nothing,
+                };
+            }
+        }
         for (i, (element, slot)) in self.circuit.elements.iter().zip(&self.slots).enumerate() {
-            let prop = self.line_of[i].map(|l| &ws.propagations[l]);
-            let behaviour = element.kind.behaviour_with(omega, prop);
-            ws.behaviours[i] = behaviour;
+            let behaviour = if is_lossy_line.next_if_eq(&i).is_some() {
+                ws.behaviours[i]
+            } else {
+                let prop = self.line_of[i].map(|l| &ws.propagations[l]);
+                let b = element.kind.behaviour_with(omega, prop);
+                ws.behaviours[i] = b;
+                b
+            };
             let finite = match (*slot, behaviour) {
                 (Slot::Admittance { .. }, Behaviour::Admittance(m))
                 | (Slot::Transfer { .. }, Behaviour::Transfer(m)) => {
