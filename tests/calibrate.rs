@@ -8,7 +8,7 @@
 //! checked against the spread of its errors over seeds.
 
 use ripline::calibrate::compare::compare;
-use ripline::calibrate::fit::{Calibration, Parameter, calibrate};
+use ripline::calibrate::fit::{self, Calibration, Parameter, calibrate};
 use ripline::calibrate::lm::Options;
 use ripline::calibrate::measured::{
     MeasuredRun, Model, RecordSynthesis, read_measured, ripple_at_taps, synthesize_run,
@@ -469,4 +469,25 @@ fn parameters_the_data_cannot_separate_are_named() {
     assert_eq!(names, ["valve.resistance", "second valve.resistance"]);
     assert!(cal.estimates.iter().all(|e| e.uncertainty.is_none()));
     let _ = std::fs::remove_dir_all(dir);
+}
+
+// A bound that could never be a calibrated value is refused before any
+// work, at the value it bounds; a bound valid only with another value
+// moved within its bounds is taken. Physical limits: a bulk modulus is
+// positive; a hose's wave speed cannot exceed the speed of sound in the oil
+// it carries, √(K/ρ) (Korteweg: a compliant wall only slows the wave).
+#[test]
+fn bounds_the_circuit_refuses_whatever_the_others_are_named() {
+    let template = CircuitTemplate::new(&start(), "start.yaml").unwrap();
+    let mut p = parameters(&template);
+    // 1,500 m/s needs K ≥ ρc² ≈ 1.96 GPa: the modulus's upper bound 2.5 GPa
+    // allows it
+    assert!(fit::refused_bound(&template, &p).is_none());
+    p[0].high = 1.2; // √(1.2 GPa / 870 kg/m³) ≈ 1,174 m/s
+    let r = fit::refused_bound(&template, &p).expect("1,500 m/s refused");
+    assert_eq!((r.index, r.upper), (1, true));
+    p[0].low = -100.0;
+    let r = fit::refused_bound(&template, &p).expect("a negative modulus refused");
+    assert_eq!((r.index, r.upper), (0, false));
+    assert!(r.error.to_string().contains("bulk_modulus"), "{}", r.error);
 }

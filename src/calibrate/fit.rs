@@ -50,7 +50,7 @@ use super::lm::{self, Options, Problem, Stop};
 use super::measured::{MeasuredRun, Model, ModelError};
 use crate::C64;
 use crate::io::measurement_file::Phases;
-use crate::io::{Setting, Target};
+use crate::io::{CircuitTemplate, InputError, Setting, Target};
 use crate::uncertainty::stats::chi2_quantile;
 use nalgebra::DMatrix;
 use serde::Serialize;
@@ -156,11 +156,65 @@ pub fn check_parameters(parameters: &[Parameter]) -> Result<(), SetupError> {
                 p.low, p.high
             )));
         }
-        if p.low <= 0.0 && p.high > 0.0 && start > 0.0 && p.low == 0.0 {
-            // a zero lower bound of a positive value: fitted linearly
-        }
     }
     Ok(())
+}
+
+/// Most combinations of the other values' bounds tried before a bound the
+/// circuit refuses is refused (2⁵ for 6 values).
+pub const MAX_CORNERS: usize = 32;
+
+/// A bound of a calibrated value that the circuit refuses at the value's
+/// own key, whatever the other values are within their bounds.
+#[derive(Debug)]
+pub struct RefusedBound {
+    /// The parameter's index.
+    pub index: usize,
+    /// Its upper bound (`false`: its lower one).
+    pub upper: bool,
+    /// The circuit's reason.
+    pub error: InputError,
+}
+
+/// The first bound that could never be a calibrated value: the circuit
+/// refuses it at its value's own key (a length below zero, a modulus beyond
+/// its plausible range) with the other values as written, and with every
+/// corner of their bounds tried (up to [`MAX_CORNERS`]). A bound refused
+/// only together with the others as written (a hose's wave speed above the
+/// oil's, when the oil's modulus is varied too) is taken if some corner of
+/// the others' bounds takes it.
+pub fn refused_bound(template: &CircuitTemplate, parameters: &[Parameter]) -> Option<RefusedBound> {
+    for (index, p) in parameters.iter().enumerate() {
+        let others: Vec<&Parameter> = parameters
+            .iter()
+            .enumerate()
+            .filter(|(j, _)| *j != index)
+            .map(|(_, o)| o)
+            .collect();
+        for (upper, bound) in [(false, p.low), (true, p.high)] {
+            let which = if upper { "upper" } else { "lower" };
+            let first = p.target.setting(bound, &format!("its {which} bound"));
+            let Some(error) = template.refusal(&p.target, std::slice::from_ref(&first)) else {
+                continue;
+            };
+            let taken = (0..(1usize << others.len()).min(MAX_CORNERS)).any(|corner| {
+                let mut settings = vec![first.clone()];
+                settings.extend(others.iter().enumerate().map(|(i, o)| {
+                    let b = if corner >> i & 1 == 0 { o.low } else { o.high };
+                    o.target.setting(b, "a bound of another calibrated value")
+                }));
+                template.refusal(&p.target, &settings).is_none()
+            });
+            if !taken {
+                return Some(RefusedBound {
+                    index,
+                    upper,
+                    error,
+                });
+            }
+        }
+    }
+    None
 }
 
 /// A calibrated value.

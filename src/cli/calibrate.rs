@@ -67,59 +67,6 @@ fn parameter(template: &CircuitTemplate, text: &str) -> anyhow::Result<Parameter
     Ok(Parameter { target, low, high })
 }
 
-/// Most combinations of the other values' bounds tried before a bound the
-/// circuit refuses is refused (2⁵ for 6 values).
-const MAX_CORNERS: usize = 32;
-
-/// Refuses a bound the circuit refuses at its value's own key whatever the
-/// other values are set to within their bounds (a length below zero, a
-/// modulus beyond its plausible range): it could never be a calibrated
-/// value. A bound refused only together with the others' values as written
-/// (a hose's wave speed above the oil's, when the oil's modulus is varied
-/// too) is accepted if some corner of the others' bounds takes it.
-fn check_bounds(
-    template: &CircuitTemplate,
-    vary: &[String],
-    parameters: &[Parameter],
-) -> anyhow::Result<()> {
-    for (k, (text, p)) in vary.iter().zip(parameters).enumerate() {
-        let others: Vec<&Parameter> = parameters
-            .iter()
-            .enumerate()
-            .filter(|(j, _)| *j != k)
-            .map(|(_, o)| o)
-            .collect();
-        let (lo, hi) = text
-            .rsplit_once('=')
-            .and_then(|(_, r)| r.split_once(".."))
-            .unwrap_or_default();
-        for (which, bound, written) in [("lower", p.low, lo), ("upper", p.high, hi)] {
-            let why = format!("the {which} bound of --vary");
-            let first = p.target.setting(bound, &why);
-            let Some(e) = template.refusal(&p.target, std::slice::from_ref(&first)) else {
-                continue;
-            };
-            let taken = (0..(1usize << others.len()).min(MAX_CORNERS)).any(|corner| {
-                let mut settings = vec![first.clone()];
-                settings.extend(others.iter().enumerate().map(|(i, o)| {
-                    let b = if corner >> i & 1 == 0 { o.low } else { o.high };
-                    o.target.setting(b, "a bound of another --vary")
-                }));
-                template.refusal(&p.target, &settings).is_none()
-            });
-            if !taken {
-                return Err(UsageError(format!(
-                    "--vary {text}: the circuit refuses `{}` at its {which} bound `{}`: {e}",
-                    p.target.name,
-                    written.trim()
-                ))
-                .into());
-            }
-        }
-    }
-    Ok(())
-}
-
 pub fn run(args: CalibrateArgs) -> anyhow::Result<()> {
     let (csv, plot) = common::csv_and_plot_paths(args.csv.as_deref(), args.plot.as_deref())?;
     let json = common::json_path(args.json.as_deref())?;
@@ -151,7 +98,26 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<()> {
         .collect::<anyhow::Result<Vec<_>>>()?;
     ripline::calibrate::fit::check_parameters(&parameters)
         .map_err(|e| UsageError(format!("--vary {e}")))?;
-    check_bounds(&template, &args.vary, &parameters)?;
+    if let Some(r) = ripline::calibrate::fit::refused_bound(&template, &parameters) {
+        // the bound as written on the command line
+        let text = &args.vary[r.index];
+        let (lo, hi) = text
+            .rsplit_once('=')
+            .and_then(|(_, r)| r.split_once(".."))
+            .unwrap_or_default();
+        let (which, written) = if r.upper {
+            ("upper", hi)
+        } else {
+            ("lower", lo)
+        };
+        return Err(UsageError(format!(
+            "--vary {text}: the circuit refuses `{}` at its {which} bound `{}`: {}",
+            parameters[r.index].target.name,
+            written.trim(),
+            r.error
+        ))
+        .into());
+    }
     let data = ripline::io::measurement_file::data_paths(&m);
     let inputs: Vec<&Path> = data.iter().map(PathBuf::as_path).collect();
     let targets: Vec<(&str, Option<&Path>)> = vec![
