@@ -255,10 +255,15 @@ fn linear_ticks(lo: f64, hi: f64, target: usize) -> (Vec<f64>, Vec<f64>, LabelFo
 fn linear_format(ticks: &[f64], step: f64) -> LabelFormat {
     let max_abs = ticks.iter().fold(0.0f64, |m, t| m.max(t.abs()));
     let decimals_for = |s: f64| -> usize {
-        // Smallest number of decimals that writes multiples of `s` exactly.
+        // Smallest number of decimals that writes multiples of `s` exactly
+        // (a step below 1e−6 once needed none: it rounded to 0 within an
+        // absolute 1e−6, and 9.68×10¹⁶² was labelled 10×10¹⁶²).
+        if s == 0.0 {
+            return 0;
+        }
         for d in 0..=15usize {
             let scaled = s * 10f64.powi(d as i32);
-            if (scaled - scaled.round()).abs() < 1e-6 * scaled.abs().max(1.0) {
+            if scaled.round() != 0.0 && (scaled - scaled.round()).abs() < 1e-6 * scaled.abs() {
                 return d;
             }
         }
@@ -641,6 +646,19 @@ mod tests {
                 prop_assert_eq!(check_axis(lo, hi, true, target), Ok(()));
             }
         }
+    }
+
+    /// A log axis over a relative span of 5e−8 near 10¹⁶³, which proptest
+    /// found: its linear ticks' step, 1e−8 of the mantissa, needs 8 decimals.
+    #[test]
+    fn a_narrow_log_axis_gets_the_decimals_its_step_needs() {
+        let (lo, hi) = (
+            162.985_919_917_500_13,
+            162.985_919_917_500_13 + 2.339_407_654_312_050_2e-8,
+        );
+        let (plo, phi) = padded(lo, hi, true, 0.05);
+        assert_eq!(check_axis(plo, phi, true, 2), Ok(()));
+        assert_eq!(check_axis(lo, hi, true, 2), Ok(()));
     }
 
     /// The ranges reported in issue 15 and 16, named.
