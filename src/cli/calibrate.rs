@@ -51,8 +51,11 @@ pub struct CalibrateArgs {
 }
 
 /// `TARGET=LOW..HIGH` → the parameter, bounds in the unit the file writes
-/// the value in.
-fn parameter(template: &CircuitTemplate, text: &str) -> anyhow::Result<Parameter> {
+/// the value in, and the bounds as written (for messages).
+fn parameter<'t>(
+    template: &CircuitTemplate,
+    text: &'t str,
+) -> anyhow::Result<(Parameter, [&'t str; 2])> {
     let bad = |m: String| UsageError(format!("--vary {text}: {m}"));
     let (spec, range) = text.rsplit_once('=').ok_or_else(|| {
         bad("write TARGET=LOW..HIGH, e.g. `fluid.bulk_modulus=1.2GPa..2GPa`".into())
@@ -64,7 +67,7 @@ fn parameter(template: &CircuitTemplate, text: &str) -> anyhow::Result<Parameter
     let unit = target.written.unit.clone();
     let low = in_unit(lo, &unit).map_err(bad)?;
     let high = in_unit(hi, &unit).map_err(bad)?;
-    Ok(Parameter { target, low, high })
+    Ok((Parameter { target, low, high }, [lo.trim(), hi.trim()]))
 }
 
 pub fn run(args: CalibrateArgs) -> anyhow::Result<()> {
@@ -91,29 +94,22 @@ pub fn run(args: CalibrateArgs) -> anyhow::Result<()> {
     }
     let (circuit, m) = load(&args.circuit, &args.measurements)?;
     let template = CircuitTemplate::new(&circuit.text, &circuit.file)?;
-    let parameters = args
+    let (parameters, written): (Vec<Parameter>, Vec<[&str; 2]>) = args
         .vary
         .iter()
         .map(|v| parameter(&template, v))
-        .collect::<anyhow::Result<Vec<_>>>()?;
+        .collect::<anyhow::Result<Vec<_>>>()?
+        .into_iter()
+        .unzip();
     ripline::calibrate::fit::check_parameters(&parameters)
         .map_err(|e| UsageError(format!("--vary {e}")))?;
     if let Some(r) = ripline::calibrate::fit::refused_bound(&template, &parameters) {
-        // the bound as written on the command line
-        let text = &args.vary[r.index];
-        let (lo, hi) = text
-            .rsplit_once('=')
-            .and_then(|(_, r)| r.split_once(".."))
-            .unwrap_or_default();
-        let (which, written) = if r.upper {
-            ("upper", hi)
-        } else {
-            ("lower", lo)
-        };
+        let which = if r.upper { "upper" } else { "lower" };
         return Err(UsageError(format!(
-            "--vary {text}: the circuit refuses `{}` at its {which} bound `{}`: {}",
+            "--vary {}: the circuit refuses `{}` at its {which} bound `{}`: {}",
+            args.vary[r.index],
             parameters[r.index].target.name,
-            written.trim(),
+            written[r.index][usize::from(r.upper)],
             r.error
         ))
         .into());

@@ -160,7 +160,10 @@ fn refused_within_reach(
         };
         for (side, v) in [("−", e.value - REACH_U * u), ("+", e.value + REACH_U * u)] {
             // this value moved, the others at their calibrated values
-            let mut settings = vec![p.target.setting(v, "the calibrated value ± 3 u")];
+            let mut settings = vec![
+                p.target
+                    .setting(v, &format!("the calibrated value ± {REACH_U} u")),
+            ];
             settings.extend(
                 calibrated
                     .iter()
@@ -178,7 +181,7 @@ fn refused_within_reach(
                 out.push(Notice {
                     subject: e.name.clone(),
                     message: format!(
-                        "its uncertainty reaches values the circuit refuses: at the estimate {side} 3 u ({}{unit}; estimate {}{unit}, u = {}{unit}); uncertainty bands from the calibrated file draw such values again and refuse to run when more than 1 % of the draws are refused",
+                        "its uncertainty reaches values the circuit refuses: at the estimate {side} {REACH_U} u ({}{unit}; estimate {}{unit}, u = {}{unit}); uncertainty bands from the calibrated file draw such values again and refuse to run when more than 1 % of the draws are refused",
                         sig(v),
                         sig(e.value),
                         sig(u)
