@@ -569,10 +569,13 @@ fn refine_worst(
     worst_speeds(
         &grids,
         measure,
-        &mut |oi, n| {
+        &mut |oi, n, out| {
             at.with(n, |solver| {
                 solver.solve(orders[oi], n).map_err(at_speed(n))?;
-                Ok(points.iter().map(|&pi| solver.pressures[pi]).collect())
+                for (p, &pi) in out.iter_mut().zip(points) {
+                    *p = solver.pressures[pi];
+                }
+                Ok(())
             })
         },
         &WorstSettings::default(),

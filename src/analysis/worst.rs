@@ -52,8 +52,6 @@
 
 use super::waveform;
 use num_complex::Complex64 as C64;
-use std::collections::BTreeMap;
-use std::ops::Bound::Excluded;
 
 /// Crossings whose estimated measure (their refined amplitude with the
 /// other orders interpolated from the grid) lies more than this many dB
@@ -418,26 +416,64 @@ fn refine_among<E>(
     }))
 }
 
+/// A solve of order `i` of a grid at speed `n`, writing every point's
+/// phasor into the slice (one per point, in the order of the grids).
+pub type SolveOrder<'a, E> = dyn FnMut(usize, f64, &mut [C64]) -> Result<(), E> + 'a;
+
 /// Network solves shared by the searches of several points of one grid: a
 /// solve of an order at a speed gives every point's phasor and is kept, so
 /// that another point's search of the same crossing reuses it and starts
 /// from the samples already taken near its peak.
 struct SharedSolves<'s, E> {
-    solve: &'s mut dyn FnMut(usize, f64) -> Result<Vec<C64>, E>,
-    /// Per order: the speed's bits (increasing with a positive speed) →
-    /// every point's phasor.
-    cache: Vec<BTreeMap<u64, Vec<C64>>>,
+    solve: &'s mut SolveOrder<'s, E>,
+    /// Phasors per solve (one per point).
+    points: usize,
+    /// Per order: the speeds solved as their bits (increasing with a
+    /// positive speed), increasing, each with where its phasors start in
+    /// `phasors`.
+    solved: Vec<Vec<(u64, usize)>>,
+    /// Every solve's phasors, `points` per solve, in the order solved.
+    phasors: Vec<C64>,
     /// The orders' waveform period, for a peak-to-peak measure.
     period: Option<waveform::Period>,
 }
 
 impl<E> SharedSolves<'_, E> {
+    /// Every point's phasor of order `o` at speed `n`, if solved.
+    fn get(&self, o: usize, n: f64) -> Option<&[C64]> {
+        let key = n.to_bits();
+        let solved = &self.solved[o];
+        let i = solved.partition_point(|s| s.0 < key);
+        solved
+            .get(i)
+            .filter(|s| s.0 == key)
+            .map(|&(_, at)| &self.phasors[at..at + self.points])
+    }
+
+    /// Solves order `o` at speed `n` (not solved before) and keeps every
+    /// point's phasor.
+    fn solve(&mut self, o: usize, n: f64) -> Result<&[C64], E> {
+        let at = self.phasors.len();
+        self.phasors.resize(at + self.points, C64::new(0.0, 0.0));
+        if let Err(e) = (self.solve)(o, n, &mut self.phasors[at..]) {
+            self.phasors.truncate(at);
+            return Err(e);
+        }
+        let key = n.to_bits();
+        let i = self.solved[o].partition_point(|s| s.0 < key);
+        self.solved[o].insert(i, (key, at));
+        Ok(&self.phasors[at..at + self.points])
+    }
+
     /// The speeds strictly between `lo` and `hi` where order `o` was solved,
     /// with the phasors there.
     fn solved_between(&self, o: usize, lo: f64, hi: f64) -> impl Iterator<Item = (f64, &[C64])> {
-        self.cache[o]
-            .range((Excluded(lo.to_bits()), Excluded(hi.to_bits())))
-            .map(|(k, v)| (f64::from_bits(*k), v.as_slice()))
+        let solved = &self.solved[o];
+        let from = solved.partition_point(|s| s.0 <= lo.to_bits());
+        let to = solved.partition_point(|s| s.0 < hi.to_bits()).max(from);
+        solved[from..to]
+            .iter()
+            .map(|&(k, at)| (f64::from_bits(k), &self.phasors[at..at + self.points]))
     }
 }
 
@@ -477,15 +513,11 @@ impl<E> Search<'_, '_, '_, E> {
 
     /// Order `o` at speed `n` at this point (solved unless already solved).
     fn order(&mut self, o: usize, n: f64) -> Result<C64, E> {
-        let key = n.to_bits();
-        if let Some(v) = self.shared.cache[o].get(&key) {
+        if let Some(v) = self.shared.get(o, n) {
             return Ok(v[self.point]);
         }
         self.solves += 1;
-        let v = (self.shared.solve)(o, n)?;
-        let p = v[self.point];
-        self.shared.cache[o].insert(key, v);
-        Ok(p)
+        Ok(self.shared.solve(o, n)?[self.point])
     }
 
     /// Every order at speed `n` (the one in `known` reused) and the measure.
@@ -550,7 +582,7 @@ impl<E> Search<'_, '_, '_, E> {
             .shared
             .solved_between(0, speeds[lo], speeds[hi])
             .map(|(n, _)| n)
-            .filter(|n| (1..no).all(|o| self.shared.cache[o].contains_key(&n.to_bits())))
+            .filter(|&n| (1..no).all(|o| self.shared.get(o, n).is_some()))
             .collect();
         let mut pts = vec![(speeds[lo], self.values[lo])];
         for n in known {
@@ -714,15 +746,15 @@ pub fn worst_speed<E>(
     solve: &mut dyn FnMut(usize, f64) -> Result<C64, E>,
     settings: &WorstSettings,
 ) -> Result<WorstSpeed, Unbounded<E>> {
-    let mut one = |o: usize, n: f64| solve(o, n).map(|p| vec![p]);
+    let mut one = |o: usize, n: f64, out: &mut [C64]| solve(o, n).map(|p| out[0] = p);
     let mut worst = worst_speeds(&[grid], measure, &mut one, settings)?;
     Ok(worst.remove(0))
 }
 
 /// [`worst_speed`] at several points of one grid (the same speeds and
-/// orders; one [`SpeedGrid`] per point): `solve(i, n)` returns the phasors
-/// of order `grid.orders[i]` at speed `n` at every point, in the order of
-/// `grids`. A solve serves every point: each one is kept, and a point's
+/// orders; one [`SpeedGrid`] per point): `solve(i, n, out)` writes the
+/// phasors of order `grid.orders[i]` at speed `n` at every point into
+/// `out`, in the order of `grids`. A solve serves every point: each one is kept, and a point's
 /// search of a crossing starts from the samples the searches of the points
 /// before it took there (a resonance peaks at nearly the same speed at
 /// every point), so the points after the first cost a few solves each.
@@ -737,7 +769,7 @@ pub fn worst_speed<E>(
 pub fn worst_speeds<E>(
     grids: &[SpeedGrid<'_>],
     measure: Measure,
-    solve: &mut dyn FnMut(usize, f64) -> Result<Vec<C64>, E>,
+    solve: &mut SolveOrder<'_, E>,
     settings: &WorstSettings,
 ) -> Result<Vec<WorstSpeed>, Unbounded<E>> {
     let Some(first) = grids.first() else {
@@ -751,7 +783,9 @@ pub fn worst_speeds<E>(
     );
     let mut shared = SharedSolves {
         solve,
-        cache: vec![BTreeMap::new(); first.orders.len()],
+        points: grids.len(),
+        solved: vec![Vec::new(); first.orders.len()],
+        phasors: Vec::new(),
         period: (measure == Measure::PeakToPeak).then(|| waveform::Period::new(first.orders)),
     };
     grids
