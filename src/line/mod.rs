@@ -282,7 +282,7 @@ fn sqrt(z: C64) -> C64 {
     if x == 0.0 && y == 0.0 {
         return C64::new(0.0, 0.0);
     }
-    let m = x.hypot(y);
+    let m = libm::hypot(x, y);
     if x >= 0.0 {
         let re = (0.5 * (m + x)).sqrt();
         C64::new(re, y / (2.0 * re))
@@ -368,8 +368,8 @@ impl Line {
 /// lines four at a time.
 #[inline(always)]
 pub fn admittance_terms<const N: usize>(gl: [C64; N], zc: [C64; N]) -> [Option<(C64, C64)>; N] {
-    let em = gl.map(|v| (-v.re).exp_m1()); // e^{−x} − 1, exact near x = 0
-    let sc = gl.map(|v| v.im.sin_cos());
+    let em = gl.map(|v| libm::expm1(-v.re)); // e^{−x} − 1, exact near x = 0
+    let sc = gl.map(|v| libm::sincos(v.im));
     let mut coth = [C64::new(0.0, 0.0); N];
     let mut csch = [C64::new(0.0, 0.0); N];
     let mut bad = [false; N];
