@@ -55,13 +55,15 @@ impl Rng {
         ((self.next_u64() >> 11) as f64 + 1.0) * (1.0 / (1u64 << 53) as f64)
     }
 
-    /// A standard normal deviate.
+    /// A standard normal deviate (Box–Muller). The logarithm, sine and
+    /// cosine come from the pure-Rust `libm`, not the platform's C library,
+    /// so that a seed gives the same draws on every platform.
     pub fn normal(&mut self) -> f64 {
         if let Some(v) = self.spare.take() {
             return v;
         }
-        let r = (-2.0 * self.uniform().ln()).sqrt();
-        let (s, c) = (std::f64::consts::TAU * self.uniform()).sin_cos();
+        let r = (-2.0 * libm::log(self.uniform())).sqrt();
+        let (s, c) = libm::sincos(std::f64::consts::TAU * self.uniform());
         self.spare = Some(r * s);
         r * c
     }
