@@ -792,6 +792,15 @@ pub fn worst_speeds<E>(
         .iter()
         .enumerate()
         .map(|(point, &grid)| {
+            // no other sources: nothing to interpolate (the same sums)
+            let grid = if grid.other_ms_pa2.iter().all(|&v| v == 0.0) {
+                SpeedGrid {
+                    other_ms_pa2: &[],
+                    ..grid
+                }
+            } else {
+                grid
+            };
             let mut search = Search {
                 grid,
                 point,
@@ -894,10 +903,12 @@ fn search_point<E>(search: &mut Search<'_, '_, '_, E>) -> Result<WorstSpeed, Unb
         }
     }
     // the highest predicted measure first
-    candidates.sort_by(|a, b| {
-        let predicted = |c: &Candidate| c.with_peak(measure, c.peak);
-        predicted(b).total_cmp(&predicted(a))
-    });
+    let mut ranked: Vec<(f64, Candidate)> = candidates
+        .into_iter()
+        .map(|c| (c.with_peak(measure, c.peak), c))
+        .collect();
+    ranked.sort_by(|a, b| b.0.total_cmp(&a.0));
+    let candidates = ranked.into_iter().map(|(_, c)| c);
 
     // the other orders' squared amplitudes, interpolated at refined peaks
     let squares: Vec<Vec<f64>> = amps
