@@ -754,10 +754,11 @@ pub fn worst_speed<E>(
 /// [`worst_speed`] at several points of one grid (the same speeds and
 /// orders; one [`SpeedGrid`] per point): `solve(i, n, out)` writes the
 /// phasors of order `grid.orders[i]` at speed `n` at every point into
-/// `out`, in the order of `grids`. A solve serves every point: each one is kept, and a point's
-/// search of a crossing starts from the samples the searches of the points
-/// before it took there (a resonance peaks at nearly the same speed at
-/// every point), so the points after the first cost a few solves each.
+/// `out`, in the order of `grids`. A solve serves every point: each one is
+/// kept, and a point's search of a crossing starts from the samples the
+/// searches of the points before it took there (a resonance peaks at nearly
+/// the same speed at every point), so the points after the first cost a few
+/// solves each.
 /// Each [`WorstSpeed::solves`] counts the solves its own search added.
 ///
 /// # Errors
