@@ -451,15 +451,11 @@ impl Plan<'_> {
             }
         }
         for (i, (element, slot)) in self.circuit.elements.iter().zip(&self.slots).enumerate() {
-            let behaviour = if is_lossy_line.next_if_eq(&i).is_some() {
-                ws.behaviours[i]
-            } else {
+            if is_lossy_line.next_if_eq(&i).is_none() {
                 let prop = self.line_of[i].map(|l| &ws.propagations[l]);
-                let b = element.kind.behaviour_with(omega, prop);
-                ws.behaviours[i] = b;
-                b
-            };
-            let finite = match (*slot, behaviour) {
+                ws.behaviours[i] = element.kind.behaviour_with(omega, prop);
+            }
+            let finite = match (slot, &ws.behaviours[i]) {
                 (Slot::Admittance { .. }, Behaviour::Admittance(m))
                 | (Slot::Transfer { .. }, Behaviour::Transfer(m)) => {
                     m.iter().flatten().all(|v| v.is_finite())
