@@ -22,11 +22,17 @@ tests/bench_statistics.rs and src/estimate/uncertainty.rs come from its output.
     bore with a 2 mm steel wall (E = 206 GPa, nu = 0.3; the 16 x 2 mm tube),
     B = 1.6 GPa, rho = 870: thick wall (Lame) 1/B_wall = (2/E)((ro^2 + ri^2)/
     (ro^2 - ri^2) + nu), thin wall (Korteweg) D/(E e); mpmath.sqrt.
+[5] The first six normal deviates of `Rng::new(42)` (src/estimate/rng.rs): the
+    generator transcribed here (SplitMix64 seeding, xoshiro256**, uniforms
+    ((x >> 11) + 1) * 2^-53), the Box-Muller transform of the same doubles
+    with mpmath at 30 digits: sqrt(-2 ln u1) * (cos, sin)(fl(tau * u2)).
 [3] chi-square quantiles: x with mpmath.gammainc(nu/2, 0, x/2, regularized=True)
     = p (mpmath.findroot); the normal quantile sqrt(2)*mpmath.erfinv(2p - 1).
 
 Run:  python3 tests/oracles/stats_refs.py
 """
+import math
+
 import mpmath as mp
 
 mp.mp.dps = 30
@@ -73,3 +79,46 @@ B, rho, E, nu, D, e = mp.mpf("1.6e9"), mp.mpf(870), mp.mpf("206e9"), mp.mpf("0.3
 ri, ro = D / 2, D / 2 + e
 for name, cw in (("thick", 2 / E * ((ro**2 + ri**2) / (ro**2 - ri**2) + nu)), ("thin", D / (E * e))):
     print("[4]", name, "c =", mp.nstr(mp.sqrt(1 / (1 / B + cw) / rho), 16))
+
+# [5]
+M64 = (1 << 64) - 1
+
+
+def splitmix_seed(seed):
+    x, out = seed, []
+    for _ in range(4):
+        x = (x + 0x9E3779B97F4A7C15) & M64
+        z = x
+        z = ((z ^ (z >> 30)) * 0xBF58476D1CE4E5B9) & M64
+        z = ((z ^ (z >> 27)) * 0x94D049BB133111EB) & M64
+        out.append(z ^ (z >> 31))
+    return out
+
+
+def rotl(v, k):
+    return ((v << k) | (v >> (64 - k))) & M64
+
+
+def xoshiro(s):
+    while True:
+        result = (rotl((s[1] * 5) & M64, 7) * 9) & M64
+        t = (s[1] << 17) & M64
+        s[2] ^= s[0]
+        s[3] ^= s[1]
+        s[1] ^= s[2]
+        s[0] ^= s[3]
+        s[2] ^= t
+        s[3] = rotl(s[3], 45)
+        yield result
+
+
+gen = xoshiro(splitmix_seed(42))
+uniform = lambda: ((next(gen) >> 11) + 1) * 2.0**-53
+deviates = []
+for _ in range(3):
+    u1 = uniform()
+    u2 = uniform()
+    r = mp.sqrt(-2 * mp.log(mp.mpf(u1)))
+    angle = mp.mpf(math.tau * u2)  # the double product, as the Rust code forms it
+    deviates += [r * mp.cos(angle), r * mp.sin(angle)]
+print("[5]", ", ".join(mp.nstr(d, 17) for d in deviates))
