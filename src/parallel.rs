@@ -50,11 +50,14 @@ pub fn pays(unknowns: usize, solves: usize) -> bool {
 
 /// Maps `f` over `items` and returns the results in input order.
 ///
-/// With `parallel`, the items are evaluated on rayon's pool, each worker
-/// with a scratch value made by `init` (a network workspace, say) and reused
-/// for the items it takes; without, on the calling thread with one scratch
-/// value (for work too small to pay for the threads). Items go in chunks of
-/// about 1/[`PROGRESS_STEPS`] of the whole; after each chunk, `progress` is
+/// With `parallel`, the items are evaluated on rayon's pool: each chunk is
+/// cut into one contiguous share per thread, evaluated with one scratch
+/// value made by `init` (a network workspace, say); without, on the calling
+/// thread with one scratch value (for work too small to pay for the
+/// threads). One share per thread rather than rayon's finer splitting: each
+/// split made its own scratch value, and the 30-element solve bench ran
+/// 1.56× faster on two threads than on one against 1.92× now (DEVELOPERS.md,
+/// Benchmarks). Items go in chunks of about 1/[`PROGRESS_STEPS`] of the whole; after each chunk, `progress` is
 /// called on the calling thread once per item of it, with the number of
 /// items done (1, 2, … as a serial loop would). A map called from inside
 /// an item of a parallel map runs serially: the outer map already keeps
@@ -89,15 +92,18 @@ where
         }
         return Ok(out);
     }
+    // one contiguous share of each chunk per thread, one scratch value each
+    let share = chunk.div_ceil(rayon::current_num_threads()).max(1);
     for part in items.chunks(chunk) {
-        let results: Vec<Result<R, E>> = part
-            .par_iter()
-            .map_init(&init, |scratch, item| {
+        let results: Vec<Vec<Result<R, E>>> = part
+            .par_chunks(share)
+            .map(|items| {
                 let _item = ItemGuard::enter();
-                f(scratch, item)
+                let mut scratch = init();
+                items.iter().map(|item| f(&mut scratch, item)).collect()
             })
             .collect();
-        for r in results {
+        for r in results.into_iter().flatten() {
             out.push(r?);
             progress(out.len());
         }
