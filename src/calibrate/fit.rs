@@ -197,14 +197,16 @@ pub fn refused_bound(template: &CircuitTemplate, parameters: &[Parameter]) -> Op
             let Some(error) = template.refusal(&p.target, std::slice::from_ref(&first)) else {
                 continue;
             };
-            let taken = (0..(1usize << others.len()).min(MAX_CORNERS)).any(|corner| {
-                let mut settings = vec![first.clone()];
-                settings.extend(others.iter().enumerate().map(|(i, o)| {
-                    let b = if corner >> i & 1 == 0 { o.low } else { o.high };
-                    o.target.setting(b, "a bound of another calibrated value")
-                }));
-                template.refusal(&p.target, &settings).is_none()
-            });
+            // alone, the value was just refused as written
+            let taken = !others.is_empty()
+                && (0..(1usize << others.len()).min(MAX_CORNERS)).any(|corner| {
+                    let mut settings = vec![first.clone()];
+                    settings.extend(others.iter().enumerate().map(|(i, o)| {
+                        let b = if corner >> i & 1 == 0 { o.low } else { o.high };
+                        o.target.setting(b, "a bound of another calibrated value")
+                    }));
+                    template.refusal(&p.target, &settings).is_none()
+                });
             if !taken {
                 return Some(RefusedBound {
                     index,

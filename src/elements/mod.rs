@@ -32,7 +32,7 @@ pub use silencers::{
     PulsationDamper, STANDARD_ATMOSPHERE_PA, STORED_ENERGY_CAUTION, SideBranch,
     loaded_line_admittance, rigid_neck, tanh_gamma_l,
 };
-pub use tube::{Tube, line_behaviour};
+pub use tube::{Tube, line_behaviour, lossy_line_behaviour};
 pub use valves::{
     CheckState, CheckValve, Poppet, PoppetData, ReliefValve, ValveError, ValveOperatingPoint,
 };

@@ -2,7 +2,7 @@
 //! distributed line (tube or hose) shares.
 
 use super::Behaviour;
-use crate::line::{Line, Propagation};
+use crate::line::{Admittance2, Line, Propagation};
 use crate::wall::Wall;
 
 /// A uniform tube: a distributed line between its "from" node (x = 0) and its
@@ -47,7 +47,13 @@ pub fn line_behaviour(line: &Line, prop: &Propagation) -> Behaviour {
     if line.properties.is_lossless() {
         return Behaviour::Transfer(line.transfer(prop));
     }
-    match line.admittance(prop) {
+    lossy_line_behaviour(line.admittance(prop))
+}
+
+/// A lossy line's two-port from its admittance, `None` where it has none
+/// (the plan evaluates its lossy lines several at a time and ends here too).
+pub fn lossy_line_behaviour(admittance: Option<Admittance2>) -> Behaviour {
+    match admittance {
         Some(y) => Behaviour::Admittance(y),
         // Only for Γl = 0 exactly, which a lossy line never has at ω > 0;
         // the network reports it as a singular frequency.

@@ -327,7 +327,7 @@ impl Line {
     /// line exactly at a half-wave resonance), where no admittance form exists.
     pub fn admittance(&self, prop: &Propagation) -> Option<Admittance2> {
         let [terms] = admittance_terms([prop.gamma * self.length_m], [prop.zc]);
-        terms.map(|(coth, csch)| [[coth, -csch], [-csch, coth]])
+        terms.map(admittance_matrix)
     }
 
     /// The transfer matrix T = [[cosh Γl, Zc sinh Γl], [sinh Γl / Zc, cosh Γl]].
@@ -391,6 +391,12 @@ pub fn admittance_terms<const N: usize>(gl: [C64; N], zc: [C64; N]) -> [Option<(
         (coth[l], csch[l]) = (num * scale, e2 * scale);
     }
     std::array::from_fn(|l| (!bad[l]).then_some((coth[l], csch[l])))
+}
+
+/// A line's two-port admittance (1/Zc)[[coth Γl, −csch Γl], [−csch Γl,
+/// coth Γl]] from its terms (coth Γl/Zc, csch Γl/Zc) ([`admittance_terms`]).
+pub fn admittance_matrix((coth, csch): (C64, C64)) -> Admittance2 {
+    [[coth, -csch], [-csch, coth]]
 }
 
 #[cfg(test)]

@@ -14,9 +14,9 @@ use super::condition::{Solves, abs, inverse_norm1_estimate};
 use super::dense::DenseWorkspace;
 use super::sparse::{self, PivotedLu, Symbolic};
 use super::{NO_SLOT, Plan, Slot, Stamp};
-use crate::elements::{Behaviour, Connection, NodeId};
+use crate::elements::{Behaviour, Connection, NodeId, lossy_line_behaviour};
 use crate::line::viscous::one_minus_viscous_factor;
-use crate::line::{Propagation, admittance_terms};
+use crate::line::{Propagation, admittance_matrix, admittance_terms};
 use num_complex::Complex64 as C64;
 
 const ZERO: C64 = C64 { re: 0.0, im: 0.0 };
@@ -444,10 +444,7 @@ impl Plan<'_> {
             }
             let terms = admittance_terms(gl, zc);
             for (l, t) in chunk.iter().zip(terms) {
-                ws.behaviours[l.element] = match t {
-                    Some((coth, csch)) => Behaviour::Admittance([[coth, -csch], [-csch, coth]]),
-                    None => Behaviour::Nothing,
-                };
+                ws.behaviours[l.element] = lossy_line_behaviour(t.map(admittance_matrix));
             }
         }
         for (i, (element, slot)) in self.circuit.elements.iter().zip(&self.slots).enumerate() {
