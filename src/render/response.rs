@@ -5,9 +5,9 @@ use super::heading;
 use super::table::{Align, DIGITS, Quantity, Table, phase, sig};
 use crate::analysis::response::{Coverage, HarmonicBand, Resonance};
 use crate::plot;
+use crate::results::Phasor;
 use crate::results::response::VerdictRef;
 use crate::results::response::{ResonanceVerdict, ResponseResult};
-use std::fmt::Write as _;
 use std::io::Write;
 
 /// Pa per m³/s in one bar per L/min.
@@ -273,55 +273,67 @@ fn load(out: &mut impl Write, r: &ResponseResult) -> std::io::Result<()> {
 ///
 /// # Errors
 /// The CSV writer's error.
-pub fn csv(r: &ResponseResult, out: impl Write) -> Result<(), csv::Error> {
-    let mut w = csv::Writer::from_writer(out);
+pub fn csv(r: &ResponseResult, mut out: impl Write) -> Result<(), csv::Error> {
+    use super::decimal::{push_finite_or_empty, push_shortest};
     let bands = r.uncertainty_bands.as_ref();
-    match bands {
-        Some(_) => w.write_record(RESPONSE_BANDS_HEADER)?,
-        None => w.write_record(RESPONSE_HEADER)?,
+    {
+        let mut w = csv::Writer::from_writer(&mut out);
+        match bands {
+            Some(_) => w.write_record(RESPONSE_BANDS_HEADER)?,
+            None => w.write_record(RESPONSE_HEADER)?,
+        }
+        w.flush()?;
     }
     let load = load_impedance_point(&r.pump.name);
-    let curves = r
+    let curves: Vec<(&str, &[Phasor])> = r
         .points
         .iter()
-        .map(|p| (p.name.as_str(), &p.values_pa_per_m3_s))
-        .chain(std::iter::once((load.as_str(), &r.load_impedance_pa_s_m3)));
-    let number = |x: f64, out: &mut String| {
-        out.clear();
-        if x.is_finite() {
-            // writing into a String cannot fail
-            let _ = write!(out, "{x}");
+        .map(|p| (p.name.as_str(), p.values_pa_per_m3_s.as_slice()))
+        .chain(std::iter::once((
+            load.as_str(),
+            r.load_impedance_pa_s_m3.as_slice(),
+        )))
+        .collect();
+    let names = curves
+        .iter()
+        .map(|(name, _)| super::long_csv::field(name))
+        .collect::<Result<Vec<_>, _>>()?;
+    // the frequencies formatted once for every curve
+    let freqs: Vec<Vec<u8>> = r
+        .freqs_hz
+        .iter()
+        .map(|&f| {
+            let mut text = Vec::new();
+            push_shortest(&mut text, f);
+            text
+        })
+        .collect();
+    let n = freqs.len();
+    let blocks = super::long_csv::rows(curves.len() * n, |row, out| {
+        let (ci, fi) = (row / n, row % n);
+        let Some(v) = curves[ci].1.get(fi) else {
+            return;
+        };
+        out.extend_from_slice(&names[ci]);
+        out.push(b',');
+        out.extend_from_slice(&freqs[fi]);
+        out.push(b',');
+        push_shortest(out, v.amplitude);
+        out.push(b',');
+        push_shortest(out, v.phase_deg);
+        if let Some(b) = bands {
+            let band = b.curves.get(ci);
+            out.push(b',');
+            push_finite_or_empty(out, band.map_or(f64::NAN, |c| c.low[fi]));
+            out.push(b',');
+            push_finite_or_empty(out, band.map_or(f64::NAN, |c| c.high[fi]));
         }
-    };
-    // the frequencies formatted once for every curve, the values into
-    // reused buffers: no allocation per row
-    let freqs: Vec<String> = r.freqs_hz.iter().map(|f| format!("{f}")).collect();
-    let (mut amplitude, mut phase_text) = (String::new(), String::new());
-    let (mut low, mut high) = (String::new(), String::new());
-    for (ci, (name, values)) in curves.enumerate() {
-        let band = bands.and_then(|b| b.curves.get(ci));
-        for (fi, (f, v)) in freqs.iter().zip(values).enumerate() {
-            amplitude.clear();
-            phase_text.clear();
-            let _ = write!(amplitude, "{}", v.amplitude);
-            let _ = write!(phase_text, "{}", v.phase_deg);
-            if bands.is_some() {
-                number(band.map_or(f64::NAN, |c| c.low[fi]), &mut low);
-                number(band.map_or(f64::NAN, |c| c.high[fi]), &mut high);
-                w.write_record([
-                    name,
-                    f.as_str(),
-                    amplitude.as_str(),
-                    phase_text.as_str(),
-                    low.as_str(),
-                    high.as_str(),
-                ])?;
-            } else {
-                w.write_record([name, f.as_str(), amplitude.as_str(), phase_text.as_str()])?;
-            }
-        }
+        out.push(b'\n');
+    });
+    for block in blocks {
+        out.write_all(&block)?;
     }
-    w.flush()?;
+    out.flush()?;
     Ok(())
 }
 
