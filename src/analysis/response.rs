@@ -13,7 +13,9 @@
 //!   threshold, refined between the grid neighbours (methods.md §7.2 refines
 //!   near peaks by golden-section; here a safeguarded parabolic search on
 //!   1/|H|², which lands on a Lorentzian peak in a step or two, to a
-//!   relative 1e-9 in frequency), and given a quality factor
+//!   relative 1e-9 in frequency, for the peaks that can lead a resonance;
+//!   the others only to rank them, see [`find_resonances`]), and given a
+//!   quality factor
 //!   Q = f0/(f2 − f1) from the half-power points |H(f1,2)| = |H(f0)|/√2
 //!   (Illinois root search, to a relative 1e-10). Peaks of several points
 //!   within a relative tolerance of each other are one resonance, reported
@@ -24,10 +26,10 @@
 //!   margin of a band's edge is near (common practice keeps excitation some
 //!   10–20 % away from a resonance).
 
-use super::ripple::{report_points, solved_pressure, tap_pressure};
+use super::ripple::{report_points, solved_pressure};
 use crate::circuit::TapLocation;
 use crate::elements::NodeId;
-use crate::network::{Plan, Solution, SolveError, Workspace};
+use crate::network::{Plan, SolveError, Workspace};
 use num_complex::Complex64 as C64;
 
 /// The response of one measurement point: pressure per unit source flow at
@@ -72,35 +74,28 @@ pub fn default_points(lo_hz: f64, hi_hz: f64) -> usize {
     n.clamp(200, 50_000)
 }
 
-/// Solves the circuit with a unit source flow at the pump's node.
-fn solve_unit(
-    plan: &Plan<'_>,
-    pump_index: usize,
-    freq_hz: f64,
-    ws: &mut Workspace,
-) -> Result<Solution, SolveError> {
-    plan.solve(freq_hz, &unit_injection(plan, pump_index), ws)
-}
-
 /// A unit flow (1 m³/s) into the network at pump `pump_index`'s node.
 fn unit_injection(plan: &Plan<'_>, pump_index: usize) -> [(NodeId, C64); 1] {
     [(plan.circuit().pumps[pump_index].node, C64::new(1.0, 0.0))]
 }
 
-/// The same, but a grid frequency that lands exactly on an undamped
-/// resonance (a lossless circuit) is moved by one part in 10⁹, where the
-/// response is large but finite.
+/// Solves the circuit in place with a unit source flow at the pump's node
+/// (see [`Plan::solve_in_place`]); a grid frequency that lands exactly on
+/// an undamped resonance (a lossless circuit) is moved by one part in 10⁹,
+/// where the response is large but finite. Returns the frequency solved.
 fn solve_unit_nudged(
     plan: &Plan<'_>,
     pump_index: usize,
     freq_hz: f64,
     ws: &mut Workspace,
-) -> Result<Solution, SolveError> {
-    match solve_unit(plan, pump_index, freq_hz, ws) {
+) -> Result<f64, SolveError> {
+    let unit = unit_injection(plan, pump_index);
+    match plan.solve_in_place(freq_hz, &unit, ws) {
         Err(SolveError::Singular { .. }) => {
-            solve_unit(plan, pump_index, freq_hz * (1.0 + 1e-9), ws)
+            let nudged = freq_hz * (1.0 + 1e-9);
+            plan.solve_in_place(nudged, &unit, ws).map(|_| nudged)
         }
-        other => other,
+        other => other.map(|_| freq_hz),
     }
 }
 
@@ -156,10 +151,10 @@ pub fn frequency_response(
         crate::parallel::pays(plan.unknowns(), freqs_hz.len()),
         || plan.workspace(),
         |ws, &f| {
-            let solution = solve_unit_nudged(plan, pump_index, f, ws)?;
+            let solved_hz = solve_unit_nudged(plan, pump_index, f, ws)?;
             let mut values = Vec::with_capacity(taps.len() + 1);
             for tap in &taps {
-                let h = tap_pressure(circuit, &solution, tap.location);
+                let h = solved_pressure(plan, ws, solved_hz, tap.location);
                 if !h.is_finite() {
                     return Err(ResponseError::NotFinite {
                         what: format!("the response at `{}`", tap.name),
@@ -168,7 +163,7 @@ pub fn frequency_response(
                 }
                 values.push(h);
             }
-            let p = solution.node_pressures[pump.node];
+            let p = plan.node_pressure(ws, pump.node);
             let ys = pump
                 .source_impedance
                 .admittance(2.0 * std::f64::consts::PI * f);
@@ -208,6 +203,10 @@ pub struct PeakSettings {
     /// Peaks of different points closer than this fraction of their
     /// frequency are one resonance.
     pub merge_tolerance: f64,
+    /// Refine every peak to [`PEAK_TOLERANCE`], not only those that can
+    /// decide what is reported (the same resonances, with several times
+    /// the solves; for checking the screening).
+    pub refine_every_peak: bool,
 }
 
 impl Default for PeakSettings {
@@ -217,6 +216,7 @@ impl Default for PeakSettings {
         PeakSettings {
             min_prominence_db: 3.0,
             merge_tolerance: 0.02,
+            refine_every_peak: false,
         }
     }
 }
@@ -253,22 +253,43 @@ pub const PEAK_TOLERANCE: f64 = 1e-9;
 /// 2e-10·Q relative.
 pub const HALF_POWER_TOLERANCE: f64 = 1e-10;
 
-/// One refined peak before merging.
+/// Level tolerance (dB) of the first search of every grid peak, which
+/// only ranks the peaks of one resonance: it stops once a parabola through
+/// its best samples predicts less gain than this.
+pub const SCREEN_TOLERANCE_DB: f64 = 0.1;
+
+/// How far (dB) below the highest first-search level of its resonance a
+/// peak may lie and still be refined to [`PEAK_TOLERANCE`] (five times the
+/// first search's tolerance): a peak further below cannot lead it.
+pub const LEADER_SCREEN_DB: f64 = 0.5;
+
+/// One peak before merging: refined, or the estimate of one screened out.
 struct Peak {
     /// Its grid peak: an index into the candidates.
     candidate: usize,
     freq_hz: f64,
     level: f64,
     unbounded: bool,
+    /// The samples either side of the best one: the peak lies between.
+    bracket: (f64, f64),
 }
 
 /// Finds the resonances in a computed response (see the module docs).
 ///
-/// Each point's grid peaks are refined (a safeguarded parabolic search on
-/// 1/|H|², `worst::refine`, to [`PEAK_TOLERANCE`]) and merged, highest
-/// first; then the half-power points of the peak that leads each resonance
-/// (the only one whose quality is reported) by the Illinois method to
-/// [`HALF_POWER_TOLERANCE`].
+/// Each point's grid peaks are searched (a safeguarded parabolic search on
+/// 1/|H|², `worst::refine`) and merged, highest first. Only the peaks that
+/// can decide what is reported are refined to [`PEAK_TOLERANCE`] (most
+/// take no solve before that): each peak is first searched to
+/// [`SCREEN_TOLERANCE_DB`] in level, which ranks the peaks of a resonance;
+/// then, until none is left, every peak within [`LEADER_SCREEN_DB`] of its
+/// resonance's leader, and every peak whose bracket straddles the merge
+/// tolerance of a resonance, continues to [`PEAK_TOLERANCE`]. The result
+/// is that of refining every peak, to the tolerances (the shipped circuits
+/// and generated ones at 300 to 10,000 grid points give the same
+/// resonances, points and quality factors; DEVELOPERS.md, "Benchmarks"), at
+/// about a fifth of the solves. Then the half-power points of the peak that
+/// leads each resonance (the only one whose quality is reported) by the
+/// Illinois method to [`HALF_POWER_TOLERANCE`].
 ///
 /// # Errors
 /// [`SolveError`] from the refining solves (other than a singular matrix at
@@ -303,7 +324,6 @@ pub fn find_resonances(
             candidates.push((pi, i, left_valley, right_valley));
         }
     }
-    let heads: Vec<usize> = (0..candidates.len()).collect();
     // |H| at a point, or +∞ at an undamped pole.
     let unit = unit_injection(plan, pump_index);
     let eval = |point: TapLocation, freq: f64, ws: &mut Workspace| -> Result<f64, SolveError> {
@@ -313,82 +333,157 @@ pub fn find_resonances(
             Err(e) => Err(e),
         }
     };
-    // Each refinement is independent (its own solves), so they run in
+    // A peak's search from its samples (the grid's three at first), to
+    // `settings`; each is independent (its own solves), so they run in
     // parallel and are collected in order: the same peaks on any number of
-    // threads. About 17 solves each.
-    let refine_settings = super::worst::WorstSettings {
-        tolerance_db: 0.0,
+    // threads.
+    let search = |work: Vec<(usize, Vec<(f64, f64)>)>, settings: super::worst::WorstSettings| {
+        crate::parallel::ordered_map(
+            &work,
+            crate::parallel::pays(plan.unknowns(), 8 * work.len()),
+            || plan.workspace(),
+            |ws, (c, samples)| {
+                let (pi, i, _, _) = candidates[*c];
+                let location = response.points[pi].location;
+                let mag = &mags[pi];
+                let mut samples = samples.clone();
+                let (f0, top) =
+                    super::worst::refine(|x| eval(location, x, ws), &mut samples, &settings)
+                        .map_err(|(_, e)| e)?;
+                let (mut freq_hz, level, unbounded) = if top.is_finite() && top >= mag[i] {
+                    (f0, top, false)
+                } else if top.is_finite() {
+                    (f[i], mag[i], false)
+                } else {
+                    (f0, mag[i], true)
+                };
+                if settings.tolerance_db > 0.0 && !unbounded {
+                    // a screening search places its peak at the vertex
+                    // through its best samples, nearer the refined peak
+                    // than the best sample is (the merge compares them)
+                    let ib = samples.partition_point(|p| p.0 < freq_hz);
+                    if ib > 0 && ib + 1 < samples.len() && samples[ib].0 == freq_hz {
+                        let three = [samples[ib - 1], samples[ib], samples[ib + 1]];
+                        if let Some((x, _)) = super::worst::lorentzian_peak(three) {
+                            freq_hz = x;
+                        }
+                    }
+                }
+                let ib = samples.partition_point(|p| p.0 < f0).min(samples.len() - 1);
+                let bracket = (
+                    samples[ib.saturating_sub(1)].0,
+                    samples[(ib + 1).min(samples.len() - 1)].0,
+                );
+                let peak = Peak {
+                    candidate: *c,
+                    freq_hz,
+                    level,
+                    unbounded,
+                    bracket,
+                };
+                Ok((peak, samples))
+            },
+            &mut |_| {},
+        )
+    };
+    let refined = |tolerance_db: f64| super::worst::WorstSettings {
+        tolerance_db,
         min_bracket: 0.0,
         speed_tolerance: PEAK_TOLERANCE,
         max_steps: 100,
     };
-    let peaks = crate::parallel::ordered_map(
-        &heads,
-        crate::parallel::pays(plan.unknowns(), 17 * heads.len()),
-        || plan.workspace(),
-        |ws, &c| {
-            let (pi, i, _, _) = candidates[c];
-            let location = response.points[pi].location;
+    // First every peak to SCREEN_TOLERANCE_DB: a peak sampled well by the
+    // grid takes no solve (the parabola through its samples predicts less
+    // gain), a sharp one a few.
+    let grid_samples = candidates
+        .iter()
+        .enumerate()
+        .map(|(c, &(pi, i, _, _))| {
             let mag = &mags[pi];
-            // The peak between the grid neighbours.
-            let (f0, top) = super::worst::refine(
-                |x| eval(location, x, ws),
-                (f[i - 1], mag[i - 1]),
-                (f[i + 1], mag[i + 1]),
-                Some((f[i], mag[i])),
-                &refine_settings,
+            (
+                c,
+                vec![
+                    (f[i - 1], mag[i - 1]),
+                    (f[i], mag[i]),
+                    (f[i + 1], mag[i + 1]),
+                ],
             )
-            .map_err(|(_, e)| e)?;
-            let (freq_hz, level, unbounded) = if top.is_finite() && top >= mag[i] {
-                (f0, top, false)
-            } else if top.is_finite() {
-                (f[i], mag[i], false)
-            } else {
-                (f0, mag[i], true)
-            };
-            Ok(Peak {
-                candidate: c,
-                freq_hz,
-                level,
-                unbounded,
-            })
-        },
-        &mut |_| {},
-    )?;
-    // Merge: the highest peaks first, so each resonance is reported where it
-    // is highest.
-    let mut peaks = peaks;
-    peaks.sort_by(|a, b| {
-        (b.unbounded, b.level)
-            .partial_cmp(&(a.unbounded, a.level))
-            .unwrap_or(std::cmp::Ordering::Equal)
-    });
-    // each resonance with the peak that leads it
-    let mut merged: Vec<(Resonance, usize)> = Vec::new();
-    for (k, p) in peaks.iter().enumerate() {
-        let name = &response.points[candidates[p.candidate].0].name;
-        match merged
-            .iter_mut()
-            .find(|(r, _)| (r.freq_hz - p.freq_hz).abs() <= settings.merge_tolerance * r.freq_hz)
-        {
-            Some((r, _)) => {
-                if !r.seen_at.contains(name) {
-                    r.seen_at.push(name.clone());
+        })
+        .collect();
+    let first = if settings.refine_every_peak {
+        0.0
+    } else {
+        SCREEN_TOLERANCE_DB
+    };
+    let mut screened = search(grid_samples, refined(first))?;
+    // Then to PEAK_TOLERANCE, continuing from its samples, each peak that
+    // may lead its resonance: within LEADER_SCREEN_DB of the highest of
+    // the peaks merged with it, or unbounded. Refined peaks move a little
+    // and may merge otherwise, so until the merge's leaders and the peaks
+    // near them are all refined (once, as a rule).
+    let screen = 10f64.powf(-LEADER_SCREEN_DB / 20.0);
+    let mut done = vec![settings.refine_every_peak; screened.len()];
+    let groups = loop {
+        let peaks: Vec<&Peak> = screened.iter().map(|(p, _)| p).collect();
+        let groups = peak_groups(&peaks, settings.merge_tolerance);
+        let heads: Vec<f64> = groups.iter().map(|g| peaks[g[0]].freq_hz).collect();
+        let merges = |h: f64, x: f64| (h - x).abs() <= settings.merge_tolerance * h;
+        let mut work = Vec::new();
+        for group in &groups {
+            let head = peaks[group[0]];
+            for &k in group {
+                let p = peaks[k];
+                let near = head.unbounded || p.unbounded || p.level >= screen * head.level;
+                // a peak whose bracket straddles the merge's reach of a
+                // resonance could belong to another one
+                let (lo, hi) = p.bracket;
+                let straddles = heads.iter().any(|&h| merges(h, lo) != merges(h, hi));
+                if (near || straddles) && !done[k] {
+                    work.push(k);
                 }
             }
-            None => merged.push((
-                Resonance {
-                    freq_hz: p.freq_hz,
-                    point: name.clone(),
-                    level: p.level,
-                    quality: None,
-                    unbounded: p.unbounded,
-                    seen_at: vec![name.clone()],
-                },
-                k,
-            )),
         }
-    }
+        if work.is_empty() {
+            break groups;
+        }
+        work.sort_unstable();
+        let work: Vec<(usize, Vec<(f64, f64)>)> = work
+            .into_iter()
+            .map(|k| {
+                done[k] = true;
+                (k, std::mem::take(&mut screened[k].1))
+            })
+            .collect();
+        for (peak, samples) in search(work, refined(0.0))? {
+            let c = peak.candidate;
+            screened[c] = (peak, samples);
+        }
+    };
+    let peaks: Vec<Peak> = screened.into_iter().map(|(p, _)| p).collect();
+    // Merge: the highest peaks first, so each resonance is reported where it
+    // is highest; each resonance with the peak that leads it.
+    let merged: Vec<(Resonance, usize)> = groups
+        .iter()
+        .map(|group| {
+            let head = &peaks[group[0]];
+            let mut seen_at: Vec<String> = Vec::new();
+            for &k in group {
+                let name = &response.points[candidates[peaks[k].candidate].0].name;
+                if !seen_at.contains(name) {
+                    seen_at.push(name.clone());
+                }
+            }
+            let resonance = Resonance {
+                freq_hz: head.freq_hz,
+                point: seen_at[0].clone(),
+                level: head.level,
+                quality: None,
+                unbounded: head.unbounded,
+                seen_at,
+            };
+            (resonance, group[0])
+        })
+        .collect();
     // The quality of each resonance from the half-power points of the peak
     // that leads it (about 18 solves each; a peak merged into a higher one
     // needs none).
@@ -428,6 +523,31 @@ pub fn find_resonances(
         .collect();
     resonances.sort_by(|a, b| a.freq_hz.total_cmp(&b.freq_hz));
     Ok(resonances)
+}
+
+/// The peaks grouped as the merge groups them: highest first (unbounded
+/// ones before all), each joining the first group whose first peak lies
+/// within `merge_tolerance` of it. Indices into `peaks`.
+fn peak_groups(peaks: &[&Peak], merge_tolerance: f64) -> Vec<Vec<usize>> {
+    let mut order: Vec<usize> = (0..peaks.len()).collect();
+    order.sort_by(|&a, &b| {
+        let (a, b) = (peaks[a], peaks[b]);
+        (b.unbounded, b.level)
+            .partial_cmp(&(a.unbounded, a.level))
+            .unwrap_or(std::cmp::Ordering::Equal)
+    });
+    let mut groups: Vec<Vec<usize>> = Vec::new();
+    for k in order {
+        let x = peaks[k].freq_hz;
+        match groups.iter().position(|g| {
+            let head = peaks[g[0]].freq_hz;
+            (head - x).abs() <= merge_tolerance * head
+        }) {
+            Some(g) => groups[g].push(k),
+            None => groups.push(vec![k]),
+        }
+    }
+    groups
 }
 
 /// Walks from peak `i` in direction `dir` (±1) until a higher sample or the
@@ -658,6 +778,58 @@ mod tests {
         }
         let c = crossings(300.0, &bands, 0.25);
         assert!(matches!(c[2].coverage, Coverage::Near { gap, .. } if (gap - 0.2).abs() < 1e-12));
+    }
+
+    /// Reference: the exhaustive search, every grid peak of every point
+    /// refined to PEAK_TOLERANCE (what `find_resonances` did before it
+    /// screened the peaks). The screened search must report the same
+    /// resonances, at the same points, seen at the same points, to the
+    /// tolerances, on generated circuits (a tree and one with loops) at a
+    /// coarse grid (1 % steps, peaks sampled by one or two points) and a
+    /// fine one.
+    #[test]
+    fn screening_reports_what_refining_every_peak_reports() {
+        for (elements, loops) in [(30, 0), (30, 1)] {
+            let text = crate::generated::branched_circuit(elements, loops);
+            let circuit = crate::io::parse_circuit(&text, "generated.yaml").unwrap();
+            let plan = Plan::compile(&circuit).unwrap();
+            for points in [400, 3000] {
+                let freqs = log_grid(10.0, 5000.0, points);
+                let response = frequency_response(&plan, 0, &freqs, &mut |_| {}).unwrap();
+                let screened =
+                    find_resonances(&plan, 0, &response, PeakSettings::default()).unwrap();
+                let every = PeakSettings {
+                    refine_every_peak: true,
+                    ..PeakSettings::default()
+                };
+                let reference = find_resonances(&plan, 0, &response, every).unwrap();
+                let case = format!("branched {elements} {loops}, {points} points");
+                assert!(reference.len() > 20, "{case}: {}", reference.len());
+                assert_eq!(screened.len(), reference.len(), "{case}");
+                for (a, b) in screened.iter().zip(&reference) {
+                    assert_eq!(a.point, b.point, "{case}: {} Hz", b.freq_hz);
+                    let mut seen = (a.seen_at.clone(), b.seen_at.clone());
+                    seen.0.sort();
+                    seen.1.sort();
+                    assert_eq!(seen.0, seen.1, "{case}: {} Hz", b.freq_hz);
+                    assert!(
+                        (a.freq_hz / b.freq_hz - 1.0).abs() < 1e-8,
+                        "{case}: {} against {} Hz",
+                        a.freq_hz,
+                        b.freq_hz
+                    );
+                    assert!(
+                        (a.level / b.level - 1.0).abs() < 1e-8,
+                        "{case}: {} Hz",
+                        b.freq_hz
+                    );
+                    match (a.quality, b.quality) {
+                        (Some(qa), Some(qb)) => assert!((qa / qb - 1.0).abs() < 1e-6, "{case}"),
+                        (qa, qb) => assert_eq!(qa, qb, "{case}"),
+                    }
+                }
+            }
+        }
     }
 
     #[test]

@@ -284,7 +284,7 @@ fn parabola_min(p: [(f64, f64); 3]) -> Option<(f64, f64)> {
 /// f (and in speed, f being proportional to it). Its vertex is the peak;
 /// `None` when the samples do not bound one (the peak is then unbounded, or
 /// the shape is not a resonance's).
-fn lorentzian_peak(p: [(f64, f64); 3]) -> Option<(f64, f64)> {
+pub(crate) fn lorentzian_peak(p: [(f64, f64); 3]) -> Option<(f64, f64)> {
     let (x, g) = parabola_min(p.map(|(x, v)| (x, 1.0 / (v * v))))?;
     (g > 0.0 && x > p[0].0 && x < p[2].0).then(|| (x, 1.0 / g.sqrt()))
 }
@@ -299,36 +299,35 @@ enum Shape {
     Any,
 }
 
-/// The maximum of `f` on [a, b], whose end values are known: a safeguarded
-/// parabolic search (after Brent's method) on g = 1/f², which is a parabola
-/// near a resonance peak (see [`lorentzian_peak`]), so that a resonance is
-/// found in a few steps; a golden-section step is taken instead whenever
-/// the parabola's vertex is outside the bracket or too close to the best
-/// point, or two steps have not halved the bracket. The bracket is always
-/// the best point's two neighbours among the points evaluated. It stops by
-/// the rule of the module documentation. Returns the best point (x, f(x)),
-/// ends included. `response` refines its resonance peaks with it too
+/// The maximum of a resonance peak `f` from its samples `pts` (increasing
+/// in x; the bracket's ends, whose values are known, first and last; at
+/// least two): a safeguarded parabolic search (after Brent's method) on
+/// g = 1/f², which is a parabola near a resonance peak (see
+/// [`lorentzian_peak`]), so that a resonance is found in a few steps; a
+/// golden-section step is taken instead whenever the parabola's vertex is
+/// outside the bracket or too close to the best point, or two steps have
+/// not halved the bracket. The bracket is always the best point's two
+/// neighbours among the points evaluated. It stops by the rule of the
+/// module documentation. Returns the best point (x, f(x)), ends included,
+/// and leaves every sample taken in `pts`, so that a search stopped at a
+/// loose tolerance continues from where it stopped with a tighter one.
+/// `response` refines its resonance peaks with it
 /// (`super::response::find_resonances`, on |H| against frequency).
 pub(crate) fn refine<E>(
     f: impl FnMut(f64) -> Result<f64, E>,
-    a: (f64, f64),
-    b: (f64, f64),
-    start: Option<(f64, f64)>,
+    pts: &mut Vec<(f64, f64)>,
     settings: &WorstSettings,
 ) -> Result<(f64, f64), (f64, E)> {
-    let mut pts = vec![a, b];
-    if let Some(s) = start.filter(|s| s.0 > a.0 && s.0 < b.0) {
-        pts.insert(1, s);
-    }
     refine_among(f, pts, Shape::Resonance, settings)
 }
 
 /// [`refine`] from known samples `pts` (increasing in x, the bracket's ends
-/// first and last, at least two): samples taken earlier inside the bracket
-/// (by another point's search of the same crossing) shorten the search.
+/// first and last, at least two), to which it adds its own: samples taken
+/// earlier inside the bracket (by another point's search of the same
+/// crossing) shorten the search.
 fn refine_among<E>(
     mut f: impl FnMut(f64) -> Result<f64, E>,
-    mut pts: Vec<(f64, f64)>,
+    pts: &mut Vec<(f64, f64)>,
     shape: Shape,
     settings: &WorstSettings,
 ) -> Result<(f64, f64), (f64, E)> {
@@ -347,7 +346,7 @@ fn refine_among<E>(
         } else {
             b.0 - GOLD * (b.0 - a.0)
         };
-        eval(x, &mut pts)?;
+        eval(x, pts)?;
     }
     let mut widths: Vec<f64> = Vec::new();
     // the peak value the last parabolic step predicted, and at which x
@@ -409,11 +408,14 @@ fn refine_among<E>(
         if stalled {
             widths.clear();
         }
-        eval(x, &mut pts)?;
+        eval(x, pts)?;
     }
-    Ok(pts.into_iter().fold((a.0, f64::NEG_INFINITY), |best, p| {
-        if p.1 > best.1 { p } else { best }
-    }))
+    Ok(pts
+        .iter()
+        .copied()
+        .fold((a.0, f64::NEG_INFINITY), |best, p| {
+            if p.1 > best.1 { p } else { best }
+        }))
 }
 
 /// A solve of order `i` of a grid at speed `n`, writing every point's
@@ -609,7 +611,7 @@ impl<E> Search<'_, '_, '_, E> {
                 }
                 Ok(v)
             },
-            pts,
+            &mut pts,
             Shape::Any,
             &settings,
         )
@@ -690,7 +692,7 @@ impl<E> Search<'_, '_, '_, E> {
                 }
                 Ok(magnitude(p))
             },
-            known.iter().map(|&(n, p)| (n, magnitude(p))).collect(),
+            &mut known.iter().map(|&(n, p)| (n, magnitude(p))).collect(),
             Shape::Resonance,
             &settings,
         )?;
