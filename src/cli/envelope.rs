@@ -261,15 +261,14 @@ pub fn csv_over<T>(
     results: &[(OperatingPoint, T)],
     leading: usize,
     speed: impl Fn(&T) -> Option<f64>,
-    write: impl Fn(&T, &mut Vec<u8>) -> Result<(), csv::Error>,
+    write: impl Fn(&T, &mut dyn std::io::Write) -> Result<(), csv::Error>,
 ) -> anyhow::Result<()> {
     let Some(path) = path else {
         return Ok(());
     };
     if results.len() == 1 && results[0].0 == OperatingPoint::default() {
-        let mut bytes = Vec::new();
-        write(&results[0].1, &mut bytes)?;
-        return outputs.bytes(path, &bytes);
+        // straight into the staged file: a long table is not copied again
+        return outputs.csv(path, |file| write(&results[0].1, file));
     }
     let tables = results
         .iter()
