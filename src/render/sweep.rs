@@ -172,40 +172,61 @@ pub fn text(r: &SweepReport, out: &mut impl Write) -> std::io::Result<()> {
 ///
 /// # Errors
 /// The CSV writer's error.
-pub fn csv(r: &SweepReport, out: impl Write) -> Result<(), csv::Error> {
+pub fn csv(r: &SweepReport, mut out: impl Write) -> Result<(), csv::Error> {
+    use super::decimal::{push_finite_or_empty, push_shortest};
     let result = &r.grid;
-    let mut w = csv::Writer::from_writer(out);
-    match r.bands {
-        Some(_) => w.write_record(SWEEP_BANDS_HEADER)?,
-        None => w.write_record(SWEEP_HEADER)?,
-    }
-    let number = |x: f64| {
-        if x.is_finite() {
-            format!("{x}")
-        } else {
-            String::new()
+    {
+        let mut w = csv::Writer::from_writer(&mut out);
+        match r.bands {
+            Some(_) => w.write_record(SWEEP_BANDS_HEADER)?,
+            None => w.write_record(SWEEP_HEADER)?,
         }
+        w.flush()?;
+    }
+    let text = |x: f64| {
+        let mut t = Vec::new();
+        push_shortest(&mut t, x);
+        t
     };
-    for (si, speed) in result.speeds_rev_s.iter().enumerate() {
-        for (pi, point) in result.points.iter().enumerate() {
-            for (oi, order) in result.orders.iter().enumerate() {
-                let mut row = vec![
-                    format!("{}", twelve_digits(speed * 60.0)),
-                    point.clone(),
-                    order.to_string(),
-                    format!("{}", twelve_digits(result.frequency_hz(si, oi))),
-                    format!("{}", result.amplitude_pa(si, pi, oi)),
-                ];
-                if let Some(b) = &r.bands {
-                    let band = b.points.get(pi).and_then(|p| p.amplitudes.get(oi));
-                    row.push(band.map_or(String::new(), |a| number(a.low_pa[si])));
-                    row.push(band.map_or(String::new(), |a| number(a.high_pa[si])));
-                }
-                w.write_record(row)?;
-            }
+    // what repeats over the rows, formatted once
+    let speeds: Vec<Vec<u8>> = result
+        .speeds_rev_s
+        .iter()
+        .map(|&n| text(twelve_digits(n * 60.0)))
+        .collect();
+    let points = result
+        .points
+        .iter()
+        .map(|p| super::long_csv::field(p))
+        .collect::<Result<Vec<_>, _>>()?;
+    let (np, no) = (result.points.len(), result.orders.len());
+    let freqs: Vec<Vec<u8>> = (0..speeds.len() * no)
+        .map(|k| text(twelve_digits(result.frequency_hz(k / no, k % no))))
+        .collect();
+    let blocks = super::long_csv::rows(speeds.len() * np * no, |row, out| {
+        let (si, pi, oi) = (row / (np * no), row / no % np, row % no);
+        out.extend_from_slice(&speeds[si]);
+        out.push(b',');
+        out.extend_from_slice(&points[pi]);
+        out.push(b',');
+        out.extend_from_slice(result.orders[oi].to_string().as_bytes());
+        out.push(b',');
+        out.extend_from_slice(&freqs[si * no + oi]);
+        out.push(b',');
+        push_shortest(out, result.amplitude_pa(si, pi, oi));
+        if let Some(b) = &r.bands {
+            let band = b.points.get(pi).and_then(|p| p.amplitudes.get(oi));
+            out.push(b',');
+            push_finite_or_empty(out, band.map_or(f64::NAN, |a| a.low_pa[si]));
+            out.push(b',');
+            push_finite_or_empty(out, band.map_or(f64::NAN, |a| a.high_pa[si]));
         }
+        out.push(b'\n');
+    });
+    for block in blocks {
+        out.write_all(&block)?;
     }
-    w.flush()?;
+    out.flush()?;
     Ok(())
 }
 
