@@ -263,6 +263,10 @@ pub const SCREEN_TOLERANCE_DB: f64 = 0.1;
 /// first search's tolerance): a peak further below cannot lead it.
 pub const LEADER_SCREEN_DB: f64 = 0.5;
 
+/// A grid peak of one point: (point, grid index, left valley, right
+/// valley), indices into the points and the grid.
+type GridPeak = (usize, usize, usize, usize);
+
 /// One peak before merging: refined, or the estimate of one screened out.
 struct Peak {
     /// Its grid peak: an index into the candidates.
@@ -302,27 +306,41 @@ pub fn find_resonances(
 ) -> Result<Vec<Resonance>, SolveError> {
     let f = &response.freqs_hz;
     let n = f.len();
-    let mags: Vec<Vec<f64>> = response
-        .points
-        .iter()
-        .map(|p| p.values.iter().map(|v| v.norm()).collect())
-        .collect();
-    // The grid peaks prominent enough to refine: (point, grid index, left
-    // and right valley).
-    let mut candidates: Vec<(usize, usize, usize, usize)> = Vec::new();
-    for (pi, mag) in mags.iter().enumerate() {
-        for i in 1..n.saturating_sub(1) {
-            if !(mag[i] > mag[i - 1] && mag[i] >= mag[i + 1]) {
-                continue;
+    // Each point's magnitudes and grid peaks prominent enough to refine:
+    // (point, grid index, left and right valley); the points in parallel.
+    let per_point: Vec<(Vec<f64>, Vec<GridPeak>)> = {
+        use rayon::prelude::*;
+        let point = |pi: usize| {
+            let mag: Vec<f64> = response.points[pi]
+                .values
+                .iter()
+                .map(|v| v.norm())
+                .collect();
+            let valleys = valleys(&mag);
+            let mut found = Vec::new();
+            for i in 1..n.saturating_sub(1) {
+                if !(mag[i] > mag[i - 1] && mag[i] >= mag[i + 1]) {
+                    continue;
+                }
+                let [(left_valley, left_min), (right_valley, right_min)] = valleys[i];
+                let base = left_min.max(right_min);
+                if base > 0.0 && 20.0 * (mag[i] / base).log10() < settings.min_prominence_db {
+                    continue;
+                }
+                found.push((pi, i, left_valley, right_valley));
             }
-            let (left_valley, left_min) = valley(mag, i, -1);
-            let (right_valley, right_min) = valley(mag, i, 1);
-            let base = left_min.max(right_min);
-            if base > 0.0 && 20.0 * (mag[i] / base).log10() < settings.min_prominence_db {
-                continue;
-            }
-            candidates.push((pi, i, left_valley, right_valley));
-        }
+            (mag, found)
+        };
+        (0..response.points.len())
+            .into_par_iter()
+            .map(point)
+            .collect()
+    };
+    let mut mags: Vec<Vec<f64>> = Vec::with_capacity(per_point.len());
+    let mut candidates: Vec<GridPeak> = Vec::new();
+    for (mag, found) in per_point {
+        mags.push(mag);
+        candidates.extend(found);
     }
     // |H| at a point, or +∞ at an undamped pole.
     let unit = unit_injection(plan, pump_index);
@@ -548,6 +566,49 @@ fn peak_groups(peaks: &[&Peak], merge_tolerance: f64) -> Vec<Vec<usize>> {
         }
     }
     groups
+}
+
+/// [`valley`] to the left and to the right of every sample at once, in
+/// O(n) instead of a walk per peak: a stack of the samples not yet passed
+/// by a higher one, each with the lowest sample between it and the one
+/// below it on the stack (ties to the later, the first a walk from the
+/// right meets), and the same from the other end.
+pub(crate) fn valleys(mag: &[f64]) -> Vec<[(usize, f64); 2]> {
+    let n = mag.len();
+    let mut out: Vec<[(usize, f64); 2]> = (0..n).map(|i| [(i, mag[i]); 2]).collect();
+    for side in [0, 1] {
+        let at = |k: usize| if side == 0 { k } else { n - 1 - k };
+        // the lower of two (index, value), ties to the one nearer `i`
+        // (later in this pass's order)
+        let lower = |a: (usize, usize, f64), b: (usize, usize, f64)| {
+            if b.2 < a.2 || (b.2 == a.2 && b.0 > a.0) {
+                b
+            } else {
+                a
+            }
+        };
+        // (pass order, index, value) of a stacked sample, and of the lowest
+        // sample since the one below it
+        type Sample = (usize, usize, f64);
+        let mut stack: Vec<(Sample, Option<Sample>)> = Vec::new();
+        for k in 0..n {
+            let i = at(k);
+            let mut low: Option<(usize, usize, f64)> = None;
+            while let Some(&(top, gap)) = stack.last() {
+                if top.2 > mag[i] {
+                    break;
+                }
+                stack.pop();
+                let merged = gap.map_or(top, |g| lower(g, top));
+                low = Some(low.map_or(merged, |l| lower(merged, l)));
+            }
+            if let Some((_, j, v)) = low.filter(|l| l.2 < mag[i]) {
+                out[i][side] = (j, v);
+            }
+            stack.push(((k, i, mag[i]), low));
+        }
+    }
+    out
 }
 
 /// Walks from peak `i` in direction `dir` (±1) until a higher sample or the
@@ -827,6 +888,31 @@ mod tests {
                         (Some(qa), Some(qb)) => assert!((qa / qb - 1.0).abs() < 1e-6, "{case}"),
                         (qa, qb) => assert_eq!(qa, qb, "{case}"),
                     }
+                }
+            }
+        }
+    }
+
+    /// Reference: the definition, a walk from each sample to the first
+    /// higher one (`valley`), on random sequences with many ties.
+    #[test]
+    fn valleys_match_the_walk() {
+        let mut state = 0x9e37_79b9_7f4a_7c15u64;
+        for len in [1, 2, 3, 10, 200] {
+            for _ in 0..200 {
+                let mag: Vec<f64> = (0..len)
+                    .map(|_| {
+                        // xorshift64 (Marsaglia 2003): few distinct values
+                        state ^= state << 13;
+                        state ^= state >> 7;
+                        state ^= state << 17;
+                        (state % 7) as f64
+                    })
+                    .collect();
+                let all = valleys(&mag);
+                for (i, [left, right]) in all.into_iter().enumerate() {
+                    assert_eq!(left, valley(&mag, i, -1), "{mag:?} at {i}, left");
+                    assert_eq!(right, valley(&mag, i, 1), "{mag:?} at {i}, right");
                 }
             }
         }
