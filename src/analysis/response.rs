@@ -267,7 +267,8 @@ pub const LEADER_SCREEN_DB: f64 = 0.5;
 /// valley), indices into the points and the grid.
 type GridPeak = (usize, usize, usize, usize);
 
-/// One peak before merging: refined, or the estimate of one screened out.
+/// One peak before merging: refined to [`PEAK_TOLERANCE`], or searched to
+/// [`SCREEN_TOLERANCE_DB`] only.
 struct Peak {
     /// Its grid peak: an index into the candidates.
     candidate: usize,

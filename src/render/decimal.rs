@@ -194,15 +194,9 @@ mod tests {
         for k in 0..2000u64 {
             specials.push(((1u64 << 53) - 1000 + k) as f64);
         }
-        // SplitMix64 (Steele, Lea and Flood 2014), seeded
-        let mut state = 0x2545_f491_4f6c_dd1du64;
-        let mut next = || {
-            state = state.wrapping_add(0x9e37_79b9_7f4a_7c15);
-            let mut z = state;
-            z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
-            z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
-            z ^ (z >> 31)
-        };
+        // the crate's seeded generator (xoshiro256**, tests in estimate::rng)
+        let mut rng = crate::estimate::rng::Rng::new(0x2545_f491_4f6c_dd1d);
+        let mut next = || rng.next_u64();
         let mut values = specials;
         for _ in 0..1_000_000 {
             values.push(f64::from_bits(next()));

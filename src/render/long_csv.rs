@@ -6,6 +6,7 @@
 //! crate's writer gives for the same records, on any number of threads.
 
 use rayon::prelude::*;
+use std::io::Write;
 
 /// Rows per block formatted on one thread: large enough that a block costs
 /// far more than handing it to a thread.
@@ -48,6 +49,31 @@ pub fn rows(count: usize, row: impl Fn(usize, &mut Vec<u8>) + Sync) -> Vec<Vec<u
     } else {
         (0..blocks).map(block).collect()
     }
+}
+
+/// [`rows`] written to `out` in order, then flushed.
+///
+/// # Errors
+/// The writer's error.
+pub fn write_rows(
+    out: &mut impl Write,
+    count: usize,
+    row: impl Fn(usize, &mut Vec<u8>) + Sync,
+) -> std::io::Result<()> {
+    for block in rows(count, row) {
+        out.write_all(&block)?;
+    }
+    out.flush()
+}
+
+/// Appends the two columns of a band's ends, `,low,high`, each empty when
+/// it is unknown (`None`) or not finite.
+pub fn push_band_ends(out: &mut Vec<u8>, ends: Option<(f64, f64)>) {
+    let (low, high) = ends.unwrap_or((f64::NAN, f64::NAN));
+    out.push(b',');
+    super::decimal::push_finite_or_empty(out, low);
+    out.push(b',');
+    super::decimal::push_finite_or_empty(out, high);
 }
 
 #[cfg(test)]

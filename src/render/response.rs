@@ -274,7 +274,7 @@ fn load(out: &mut impl Write, r: &ResponseResult) -> std::io::Result<()> {
 /// # Errors
 /// The CSV writer's error.
 pub fn csv(r: &ResponseResult, mut out: impl Write) -> Result<(), csv::Error> {
-    use super::decimal::{push_finite_or_empty, push_shortest};
+    use super::decimal::push_shortest;
     let bands = r.uncertainty_bands.as_ref();
     {
         let mut w = csv::Writer::from_writer(&mut out);
@@ -309,7 +309,7 @@ pub fn csv(r: &ResponseResult, mut out: impl Write) -> Result<(), csv::Error> {
         })
         .collect();
     let n = freqs.len();
-    let blocks = super::long_csv::rows(curves.len() * n, |row, out| {
+    super::long_csv::write_rows(&mut out, curves.len() * n, |row, out| {
         let (ci, fi) = (row / n, row % n);
         let Some(v) = curves[ci].1.get(fi) else {
             return;
@@ -322,18 +322,11 @@ pub fn csv(r: &ResponseResult, mut out: impl Write) -> Result<(), csv::Error> {
         out.push(b',');
         push_shortest(out, v.phase_deg);
         if let Some(b) = bands {
-            let band = b.curves.get(ci);
-            out.push(b',');
-            push_finite_or_empty(out, band.map_or(f64::NAN, |c| c.low[fi]));
-            out.push(b',');
-            push_finite_or_empty(out, band.map_or(f64::NAN, |c| c.high[fi]));
+            let band = b.curves.get(ci).map(|c| (c.low[fi], c.high[fi]));
+            super::long_csv::push_band_ends(out, band);
         }
         out.push(b'\n');
-    });
-    for block in blocks {
-        out.write_all(&block)?;
-    }
-    out.flush()?;
+    })?;
     Ok(())
 }
 

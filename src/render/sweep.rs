@@ -173,7 +173,7 @@ pub fn text(r: &SweepReport, out: &mut impl Write) -> std::io::Result<()> {
 /// # Errors
 /// The CSV writer's error.
 pub fn csv(r: &SweepReport, mut out: impl Write) -> Result<(), csv::Error> {
-    use super::decimal::{push_finite_or_empty, push_shortest};
+    use super::decimal::push_shortest;
     let result = &r.grid;
     {
         let mut w = csv::Writer::from_writer(&mut out);
@@ -203,7 +203,7 @@ pub fn csv(r: &SweepReport, mut out: impl Write) -> Result<(), csv::Error> {
     let freqs: Vec<Vec<u8>> = (0..speeds.len() * no)
         .map(|k| text(twelve_digits(result.frequency_hz(k / no, k % no))))
         .collect();
-    let blocks = super::long_csv::rows(speeds.len() * np * no, |row, out| {
+    super::long_csv::write_rows(&mut out, speeds.len() * np * no, |row, out| {
         let (si, pi, oi) = (row / (np * no), row / no % np, row % no);
         out.extend_from_slice(&speeds[si]);
         out.push(b',');
@@ -216,17 +216,10 @@ pub fn csv(r: &SweepReport, mut out: impl Write) -> Result<(), csv::Error> {
         push_shortest(out, result.amplitude_pa(si, pi, oi));
         if let Some(b) = &r.bands {
             let band = b.points.get(pi).and_then(|p| p.amplitudes.get(oi));
-            out.push(b',');
-            push_finite_or_empty(out, band.map_or(f64::NAN, |a| a.low_pa[si]));
-            out.push(b',');
-            push_finite_or_empty(out, band.map_or(f64::NAN, |a| a.high_pa[si]));
+            super::long_csv::push_band_ends(out, band.map(|a| (a.low_pa[si], a.high_pa[si])));
         }
         out.push(b'\n');
-    });
-    for block in blocks {
-        out.write_all(&block)?;
-    }
-    out.flush()?;
+    })?;
     Ok(())
 }
 
