@@ -357,7 +357,7 @@ pub fn find_resonances(
     // parallel and are collected in order: the same peaks on any number of
     // threads.
     let search = |work: Vec<(usize, Vec<(f64, f64)>)>, settings: super::worst::WorstSettings| {
-        crate::parallel::ordered_map(
+        crate::parallel::ordered_map_quiet(
             &work,
             crate::parallel::pays(plan.unknowns(), 8 * work.len()),
             || plan.workspace(),
@@ -402,7 +402,6 @@ pub fn find_resonances(
                 };
                 Ok((peak, samples))
             },
-            &mut |_| {},
         )
     };
     let refined = |tolerance_db: f64| super::worst::WorstSettings {
@@ -507,7 +506,7 @@ pub fn find_resonances(
     // that leads it (about 18 solves each; a peak merged into a higher one
     // needs none).
     let leaders: Vec<usize> = merged.iter().map(|(_, k)| *k).collect();
-    let qualities = crate::parallel::ordered_map(
+    let qualities = crate::parallel::ordered_map_quiet(
         &leaders,
         crate::parallel::pays(plan.unknowns(), 18 * leaders.len()),
         || plan.workspace(),
@@ -533,7 +532,6 @@ pub fn find_resonances(
             }
             .filter(|q| q.is_finite() && *q > 0.0))
         },
-        &mut |_| {},
     )?;
     let mut resonances: Vec<Resonance> = merged
         .into_iter()
