@@ -59,8 +59,8 @@ pub fn pays(unknowns: usize, solves: usize) -> bool {
 /// 1.56× faster on two threads than on one against 1.92× now (DEVELOPERS.md,
 /// Benchmarks). Items go in chunks of about 1/[`PROGRESS_STEPS`] of the
 /// whole; after each chunk, `progress` is called on the calling thread once
-/// per item of it, with the number of
-/// items done (1, 2, … as a serial loop would). A map called from inside
+/// per item of it, with the number of items done (1, 2, … as a serial loop
+/// would). A map called from inside
 /// an item of a parallel map runs serially: the outer map already keeps
 /// every core busy, and splitting the inner one only adds synchronisation
 /// (the bands' draws each sweep 100 speeds).

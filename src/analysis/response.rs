@@ -376,23 +376,22 @@ pub fn find_resonances(
                 } else {
                     (f0, mag[i], true)
                 };
-                if settings.tolerance_db > 0.0 && !unbounded {
-                    // a screening search places its peak at the vertex
-                    // through its best samples, nearer the refined peak
-                    // than the best sample is (the merge compares them)
-                    let ib = samples.partition_point(|p| p.0 < freq_hz);
-                    if ib > 0 && ib + 1 < samples.len() && samples[ib].0 == freq_hz {
-                        let three = [samples[ib - 1], samples[ib], samples[ib + 1]];
-                        if let Some((x, _)) = super::worst::lorentzian_peak(three) {
-                            freq_hz = x;
-                        }
-                    }
-                }
+                // the best sample's index, and the samples either side
                 let ib = samples.partition_point(|p| p.0 < f0).min(samples.len() - 1);
                 let bracket = (
                     samples[ib.saturating_sub(1)].0,
                     samples[(ib + 1).min(samples.len() - 1)].0,
                 );
+                let interior = ib > 0 && ib + 1 < samples.len() && samples[ib].0 == f0;
+                if settings.tolerance_db > 0.0 && !unbounded && freq_hz == f0 && interior {
+                    // a screening search places its peak at the vertex
+                    // through its best samples, nearer the refined peak
+                    // than the best sample is (the merge compares them)
+                    let three = [samples[ib - 1], samples[ib], samples[ib + 1]];
+                    if let Some((x, _)) = super::worst::lorentzian_peak(three) {
+                        freq_hz = x;
+                    }
+                }
                 let peak = Peak {
                     candidate: *c,
                     freq_hz,
@@ -445,7 +444,7 @@ pub fn find_resonances(
         let peaks: Vec<&Peak> = screened.iter().map(|(p, _)| p).collect();
         let groups = peak_groups(&peaks, settings.merge_tolerance);
         let heads: Vec<f64> = groups.iter().map(|g| peaks[g[0]].freq_hz).collect();
-        let merges = |h: f64, x: f64| (h - x).abs() <= settings.merge_tolerance * h;
+        let tolerance = settings.merge_tolerance;
         let mut work = Vec::new();
         for group in &groups {
             let head = peaks[group[0]];
@@ -455,7 +454,9 @@ pub fn find_resonances(
                 // a peak whose bracket straddles the merge's reach of a
                 // resonance could belong to another one
                 let (lo, hi) = p.bracket;
-                let straddles = heads.iter().any(|&h| merges(h, lo) != merges(h, hi));
+                let straddles = heads
+                    .iter()
+                    .any(|&h| merges(h, lo, tolerance) != merges(h, hi, tolerance));
                 if (near || straddles) && !done[k] {
                     work.push(k);
                 }
@@ -542,6 +543,12 @@ pub fn find_resonances(
     Ok(resonances)
 }
 
+/// Whether a peak at `x_hz` merges into the resonance whose leading peak
+/// is at `head_hz`: within `tolerance` of it, as a fraction of `head_hz`.
+pub(crate) fn merges(head_hz: f64, x_hz: f64, tolerance: f64) -> bool {
+    (head_hz - x_hz).abs() <= tolerance * head_hz
+}
+
 /// The peaks grouped as the merge groups them: highest first (unbounded
 /// ones before all), each joining the first group whose first peak lies
 /// within `merge_tolerance` of it. Indices into `peaks`.
@@ -556,10 +563,10 @@ fn peak_groups(peaks: &[&Peak], merge_tolerance: f64) -> Vec<Vec<usize>> {
     let mut groups: Vec<Vec<usize>> = Vec::new();
     for k in order {
         let x = peaks[k].freq_hz;
-        match groups.iter().position(|g| {
-            let head = peaks[g[0]].freq_hz;
-            (head - x).abs() <= merge_tolerance * head
-        }) {
+        match groups
+            .iter()
+            .position(|g| merges(peaks[g[0]].freq_hz, x, merge_tolerance))
+        {
             Some(g) => groups[g].push(k),
             None => groups.push(vec![k]),
         }

@@ -43,7 +43,7 @@
 
 use super::response::{
     PeakSettings, Resonance, ResponseError, default_points, find_resonances, frequency_response,
-    log_grid, valley,
+    log_grid, merges, valley,
 };
 use super::ripple::{OrderSolver, report_points, shaft_ripple};
 use super::search::golden_section_max;
@@ -611,7 +611,7 @@ pub fn shaft_resonances(
         for r in find_resonances(plan, pump, &response, settings)? {
             if !all
                 .iter()
-                .any(|a| (a.freq_hz - r.freq_hz).abs() <= settings.merge_tolerance * a.freq_hz)
+                .any(|a| merges(a.freq_hz, r.freq_hz, settings.merge_tolerance))
             {
                 all.push(r);
             }

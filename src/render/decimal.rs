@@ -82,6 +82,14 @@ pub fn push_shortest(out: &mut Vec<u8>, x: f64) {
     }
 }
 
+/// `x` as [`push_shortest`] writes it, on its own (a value that repeats
+/// over the rows of a table, formatted once).
+pub fn shortest(x: f64) -> Vec<u8> {
+    let mut text = Vec::new();
+    push_shortest(&mut text, x);
+    text
+}
+
 /// Appends `x` like [`push_shortest`], or nothing when it is not finite (an
 /// empty CSV field).
 pub fn push_finite_or_empty(out: &mut Vec<u8>, x: f64) {

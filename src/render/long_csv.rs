@@ -32,6 +32,17 @@ pub fn field(text: &str) -> Result<Vec<u8>, csv::Error> {
     Ok(bytes)
 }
 
+/// Writes the header record through the `csv` crate's writer.
+///
+/// # Errors
+/// The writer's error.
+pub fn write_header(out: &mut impl Write, header: &[&str]) -> Result<(), csv::Error> {
+    let mut w = csv::Writer::from_writer(out);
+    w.write_record(header)?;
+    w.flush()?;
+    Ok(())
+}
+
 /// Rows `0..count`, each appended by `row` with its line break, formatted
 /// in blocks (in parallel when there are several) and returned in order.
 pub fn rows(count: usize, row: impl Fn(usize, &mut Vec<u8>) + Sync) -> Vec<Vec<u8>> {

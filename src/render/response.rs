@@ -274,16 +274,13 @@ fn load(out: &mut impl Write, r: &ResponseResult) -> std::io::Result<()> {
 /// # Errors
 /// The CSV writer's error.
 pub fn csv(r: &ResponseResult, mut out: impl Write) -> Result<(), csv::Error> {
-    use super::decimal::push_shortest;
+    use super::decimal::{push_shortest, shortest};
     let bands = r.uncertainty_bands.as_ref();
-    {
-        let mut w = csv::Writer::from_writer(&mut out);
-        match bands {
-            Some(_) => w.write_record(RESPONSE_BANDS_HEADER)?,
-            None => w.write_record(RESPONSE_HEADER)?,
-        }
-        w.flush()?;
-    }
+    let header: &[&str] = match bands {
+        Some(_) => &RESPONSE_BANDS_HEADER,
+        None => &RESPONSE_HEADER,
+    };
+    super::long_csv::write_header(&mut out, header)?;
     let load = load_impedance_point(&r.pump.name);
     let curves: Vec<(&str, &[Phasor])> = r
         .points
@@ -299,15 +296,7 @@ pub fn csv(r: &ResponseResult, mut out: impl Write) -> Result<(), csv::Error> {
         .map(|(name, _)| super::long_csv::field(name))
         .collect::<Result<Vec<_>, _>>()?;
     // the frequencies formatted once for every curve
-    let freqs: Vec<Vec<u8>> = r
-        .freqs_hz
-        .iter()
-        .map(|&f| {
-            let mut text = Vec::new();
-            push_shortest(&mut text, f);
-            text
-        })
-        .collect();
+    let freqs: Vec<Vec<u8>> = r.freqs_hz.iter().map(|&f| shortest(f)).collect();
     let n = freqs.len();
     super::long_csv::write_rows(&mut out, curves.len() * n, |row, out| {
         let (ci, fi) = (row / n, row % n);

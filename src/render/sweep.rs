@@ -173,26 +173,18 @@ pub fn text(r: &SweepReport, out: &mut impl Write) -> std::io::Result<()> {
 /// # Errors
 /// The CSV writer's error.
 pub fn csv(r: &SweepReport, mut out: impl Write) -> Result<(), csv::Error> {
-    use super::decimal::push_shortest;
+    use super::decimal::{push_shortest, shortest};
     let result = &r.grid;
-    {
-        let mut w = csv::Writer::from_writer(&mut out);
-        match r.bands {
-            Some(_) => w.write_record(SWEEP_BANDS_HEADER)?,
-            None => w.write_record(SWEEP_HEADER)?,
-        }
-        w.flush()?;
-    }
-    let text = |x: f64| {
-        let mut t = Vec::new();
-        push_shortest(&mut t, x);
-        t
+    let header: &[&str] = match r.bands {
+        Some(_) => &SWEEP_BANDS_HEADER,
+        None => &SWEEP_HEADER,
     };
+    super::long_csv::write_header(&mut out, header)?;
     // what repeats over the rows, formatted once
     let speeds: Vec<Vec<u8>> = result
         .speeds_rev_s
         .iter()
-        .map(|&n| text(twelve_digits(n * 60.0)))
+        .map(|&n| shortest(twelve_digits(n * 60.0)))
         .collect();
     let points = result
         .points
@@ -201,15 +193,16 @@ pub fn csv(r: &SweepReport, mut out: impl Write) -> Result<(), csv::Error> {
         .collect::<Result<Vec<_>, _>>()?;
     let (np, no) = (result.points.len(), result.orders.len());
     let freqs: Vec<Vec<u8>> = (0..speeds.len() * no)
-        .map(|k| text(twelve_digits(result.frequency_hz(k / no, k % no))))
+        .map(|k| shortest(twelve_digits(result.frequency_hz(k / no, k % no))))
         .collect();
+    let orders: Vec<String> = result.orders.iter().map(u32::to_string).collect();
     super::long_csv::write_rows(&mut out, speeds.len() * np * no, |row, out| {
         let (si, pi, oi) = (row / (np * no), row / no % np, row % no);
         out.extend_from_slice(&speeds[si]);
         out.push(b',');
         out.extend_from_slice(&points[pi]);
         out.push(b',');
-        out.extend_from_slice(result.orders[oi].to_string().as_bytes());
+        out.extend_from_slice(orders[oi].as_bytes());
         out.push(b',');
         out.extend_from_slice(&freqs[si * no + oi]);
         out.push(b',');
