@@ -619,8 +619,9 @@ pub(crate) fn valleys(mag: &[f64]) -> Vec<[(usize, f64); 2]> {
 
 /// Walks from peak `i` in direction `dir` (±1) until a higher sample or the
 /// end of the grid; returns the index and value of the lowest sample on
-/// the way (the valley).
-pub(crate) fn valley(mag: &[f64], i: usize, dir: isize) -> (usize, f64) {
+/// the way (the valley): the plain rule that [`valleys`] is tested against.
+#[cfg(test)]
+fn valley(mag: &[f64], i: usize, dir: isize) -> (usize, f64) {
     let (mut best_i, mut best) = (i, mag[i]);
     let mut k = i as isize + dir;
     while k >= 0 && (k as usize) < mag.len() && mag[k as usize] <= mag[i] {

@@ -43,7 +43,7 @@
 
 use super::response::{
     PeakSettings, Resonance, ResponseError, default_points, find_resonances, frequency_response,
-    log_grid, merges, valley,
+    log_grid, merges, valleys,
 };
 use super::ripple::{OrderSolver, report_points, shaft_ripple};
 use super::search::golden_section_max;
@@ -313,6 +313,8 @@ pub struct Peak {
 pub fn peaks(values: &[f64]) -> Vec<Peak> {
     let n = values.len();
     let mut out = Vec::new();
+    // every sample's valleys at once (linear, not a walk per peak)
+    let valleys = valleys(values);
     let mut i = 1;
     while i + 1 < n {
         if values[i] > values[i - 1] {
@@ -322,8 +324,7 @@ pub fn peaks(values: &[f64]) -> Vec<Peak> {
                 j += 1;
             }
             if j + 1 < n && values[j + 1] < values[i] {
-                let (_, left) = valley(values, i, -1);
-                let (_, right) = valley(values, i, 1);
+                let [(_, left), (_, right)] = valleys[i];
                 out.push(Peak {
                     index: (i + j) / 2,
                     rise: values[i] - left.max(right),
