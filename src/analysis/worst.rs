@@ -25,8 +25,9 @@
 //! 5. refines the best candidate once more on the measure itself (the other
 //!    orders move it slightly off the crossing);
 //! 6. refines every maximum of the measure on the grid where every order at
-//!    its largest known amplitude around it could beat the best (several
-//!    orders rising together, or a crossing's skirt).
+//!    its largest known amplitude on one side of it (between it and a grid
+//!    neighbour) could beat the best (several orders rising together, or a
+//!    crossing's skirt).
 //!
 //! [`worst_speeds`] does this for several points of one grid with one set
 //! of solves: a solve gives every point's phasor, so a point's search of a
@@ -964,12 +965,18 @@ fn search_point<E>(search: &mut Search<'_, '_, '_, E>) -> Result<WorstSpeed, Unb
     }
     // Maxima of the measure itself (several orders rising together, or a
     // crossing's skirt), highest first, where every order at its largest
-    // known amplitude around it could beat the best.
+    // known amplitude on one side of it could beat the best: one order
+    // rising and another falling across the maximum do not both count at
+    // their largest.
     let mut maxima = local_maxima(&values);
     maxima.sort_by(|&a, &b| values[b].total_cmp(&values[a]));
     for i in maxima {
         let (lo, hi) = bracket(i);
-        if search.combined_bound(lo, hi) < best.value_pa {
+        if search
+            .combined_bound(lo, i)
+            .max(search.combined_bound(i, hi))
+            < best.value_pa
+        {
             continue;
         }
         search
