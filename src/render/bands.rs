@@ -179,7 +179,20 @@ pub fn response_text(b: &ResponseBands, out: &mut impl Write) -> std::io::Result
             interval(&r.level_pa_per_m3_s, si),
         ]);
     }
-    t.write(out, "  ")
+    t.write(out, "  ")?;
+    for (i, r) in b.resonances.iter().enumerate() {
+        if let Some(m) = r.freq_hz.monte_carlo.filter(|m| m.missing > 0) {
+            writeln!(
+                out,
+                "  resonance {} ({} Hz) is missing from {} of {} draws (merged with a neighbour, or below the prominence threshold there): its bands are over the draws that show it",
+                i + 1,
+                sig(r.nominal_hz, DIGITS),
+                m.missing,
+                b.info.draws
+            )?;
+        }
+    }
+    Ok(())
 }
 
 /// The bands of `sweep`: each point's worst speed and the rms there (the

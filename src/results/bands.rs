@@ -185,7 +185,9 @@ fn band_error(e: BandError, what: &str) -> Error {
 }
 
 /// The bands of one resonance of `response`: in every drawn circuit, the
-/// resonance nearest the nominal one (within a factor 1.5).
+/// resonance paired with the nominal one
+/// ([`crate::uncertainty::bands::matching_resonances`]; the draws without
+/// one are counted in each band's `missing`).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct ResonanceBand {
     /// The nominal resonance frequency, Hz.
