@@ -432,7 +432,7 @@ pub fn response_outputs(
 /// least, a pair costing its distance |ln(f/f0)| (under ln 1.5; farther
 /// ones never pair) and a nominal resonance left without one costing
 /// ln 1.5, by dynamic programming over the two sorted lists (the alignment
-/// of two sequences with gaps). A drawn circuit's resonances move together
+/// of two sequences with gaps; a byte per pair of resonances). A drawn circuit's resonances move together
 /// (a bulk modulus scales every line resonance by the same factor), so
 /// two close resonances shifted by more than half their spacing keep their
 /// own, where the nearest nominal one would swap them; when two merge in a
@@ -455,31 +455,41 @@ pub fn matching_resonances(found_hz: &[f64], nominal_hz: &[f64]) -> Vec<Option<u
         let d = (found_hz[found[j]] / nominal_hz[nominal[i]]).ln().abs();
         (d < gap).then_some(d)
     };
-    // cost[i][j]: the first i nominal and first j found resonances aligned
-    let mut cost = vec![vec![0.0; k + 1]; m + 1];
+    // the cost of aligning the first i nominal and first j found
+    // resonances, row by row, and the step each cell took: a pair, a found
+    // resonance skipped, or a nominal one left without (ties in that order)
+    const PAIR: u8 = 0;
+    const SKIP: u8 = 1;
+    const GAP: u8 = 2;
+    let mut step = vec![GAP; m * (k + 1)];
+    let mut prev = vec![0.0; k + 1];
+    let mut cur = vec![0.0; k + 1];
     for i in 1..=m {
-        cost[i][0] = cost[i - 1][0] + gap;
+        cur[0] = prev[0] + gap;
         for j in 1..=k {
-            let mut c = (cost[i - 1][j] + gap).min(cost[i][j - 1]);
-            if let Some(d) = pair(i - 1, j - 1) {
-                c = c.min(cost[i - 1][j - 1] + d);
+            let (mut c, mut s) = (prev[j] + gap, GAP);
+            if cur[j - 1] <= c {
+                (c, s) = (cur[j - 1], SKIP);
             }
-            cost[i][j] = c;
+            if let Some(d) = pair(i - 1, j - 1).filter(|d| prev[j - 1] + d <= c) {
+                (c, s) = (prev[j - 1] + d, PAIR);
+            }
+            cur[j] = c;
+            step[(i - 1) * (k + 1) + j] = s;
         }
+        std::mem::swap(&mut prev, &mut cur);
     }
-    // back from the end: a pair where it gives the cost, else a gap
+    // back from the end
     let mut matched = vec![None; m];
     let (mut i, mut j) = (m, k);
     while i > 0 {
-        let paired =
-            j > 0 && pair(i - 1, j - 1).is_some_and(|d| cost[i][j] == cost[i - 1][j - 1] + d);
-        if paired {
-            matched[nominal[i - 1]] = Some(found[j - 1]);
-            (i, j) = (i - 1, j - 1);
-        } else if j > 0 && cost[i][j] == cost[i][j - 1] {
-            j -= 1;
-        } else {
-            i -= 1;
+        match step[(i - 1) * (k + 1) + j] {
+            PAIR => {
+                matched[nominal[i - 1]] = Some(found[j - 1]);
+                (i, j) = (i - 1, j - 1);
+            }
+            SKIP => j -= 1,
+            _ => i -= 1,
         }
     }
     matched
