@@ -17,19 +17,24 @@ use ripline::uncertainty::linear::coverage_factor;
 use ripline::uncertainty::monte_carlo::Options;
 use std::path::PathBuf;
 
+/// A 9-element pump at node `a` with one harmonic and no source
+/// compliance (an ideal flow source, a closed end to the lines there).
+const PUMP_AT_A: &str = "\
+pump:
+  node: a
+  speed: 1500 rpm
+  pumping_elements: 9
+  flow_ripple: [{harmonic: 1, amplitude: 1 L/min}]
+  source_impedance: {volume: 0 L}
+";
+
 fn quarter_wave(wave_speed: &str, model: &str) -> String {
     format!(
         "\
 title: quarter-wave test line (invented)
 fluid: {{density: 870 kg/m3, bulk_modulus: 1.6 GPa, viscosity: 32 cSt}}
 line_model: {model}
-pump:
-  node: a
-  speed: 1500 rpm
-  pumping_elements: 9
-  flow_ripple: [{{harmonic: 1, amplitude: 1 L/min}}]
-  source_impedance: {{volume: 0 L}}
-elements:
+{PUMP_AT_A}elements:
   - {{name: line, kind: hose, from: a, to: b, length: 1 m, bore: 25 mm, wave_speed: \"{wave_speed}\", loss_factor: 0}}
   - {{name: tank, kind: tank, at: b}}
 taps:
@@ -362,27 +367,23 @@ fn response_bands_of_the_quarter_wave_line_are_the_image_of_the_wave_speed() {
 /// quantile of a uniform density (1,000 draws).
 #[test]
 fn response_bands_follow_each_resonance_past_its_neighbour() {
-    let text = "\
+    let text = format!(
+        "\
 title: two weakly coupled quarter-wave tubes (invented)
-fluid: {density: \"870 kg/m3 ± 10 %\", bulk_modulus: 1.6 GPa, viscosity: 32 cSt}
+fluid: {{density: \"870 kg/m3 ± 10 %\", bulk_modulus: 1.6 GPa, viscosity: 32 cSt}}
 line_model: lossless
-pump:
-  node: a
-  speed: 1500 rpm
-  pumping_elements: 9
-  flow_ripple: [{harmonic: 1, amplitude: 1 L/min}]
-  source_impedance: {volume: 0 L}
-elements:
-  - {name: first, kind: tube, from: a, to: t1, length: 1 m, bore: 20 mm, wall: 2 mm, material: steel}
-  - {name: link, kind: tube, from: a, to: b, length: 0.3 m, bore: 2 mm, wall: 1 mm, material: steel}
-  - {name: second, kind: tube, from: b, to: t2, length: 1.05 m, bore: 20 mm, wall: 2 mm, material: steel}
-  - {name: tank1, kind: tank, at: t1}
-  - {name: tank2, kind: tank, at: t2}
+{PUMP_AT_A}elements:
+  - {{name: first, kind: tube, from: a, to: t1, length: 1 m, bore: 20 mm, wall: 2 mm, material: steel}}
+  - {{name: link, kind: tube, from: a, to: b, length: 0.3 m, bore: 2 mm, wall: 1 mm, material: steel}}
+  - {{name: second, kind: tube, from: b, to: t2, length: 1.05 m, bore: 20 mm, wall: 2 mm, material: steel}}
+  - {{name: tank1, kind: tank, at: t1}}
+  - {{name: tank2, kind: tank, at: t2}}
 taps:
-  - {name: pump outlet, node: a}
-  - {name: far branch, node: b}
-";
-    let (dir, circuit) = circuit_in_scratch("pair", "pair.yaml", text);
+  - {{name: pump outlet, node: a}}
+  - {{name: far branch, node: b}}
+"
+    );
+    let (dir, circuit) = circuit_in_scratch("pair", "pair.yaml", &text);
     let json = dir.join("r.json");
     let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
         .args(["response", circuit.to_str().unwrap(), "--band", "250..400"])
