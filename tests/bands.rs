@@ -43,11 +43,17 @@ taps:
     )
 }
 
+/// A scratch folder for one test (`tag`), made if missing.
+fn scratch_dir(tag: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("ripline-bands-{tag}-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
 /// A fresh scratch folder for one test (`tag`) holding the circuit `text`
 /// as `name`: the folder and the circuit's path.
 fn circuit_in_scratch(tag: &str, name: &str, text: &str) -> (PathBuf, PathBuf) {
-    let dir = std::env::temp_dir().join(format!("ripline-bands-{tag}-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let dir = scratch_dir(tag);
     let circuit = dir.join(name);
     std::fs::write(&circuit, text).unwrap();
     (dir, circuit)
@@ -428,8 +434,7 @@ taps:
 #[test]
 fn response_bands_count_the_draws_that_lack_a_resonance() {
     let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
-    let dir = std::env::temp_dir().join(format!("ripline-bands-missing-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let dir = scratch_dir("missing");
     let json = dir.join("r.json");
     let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
         .args(["response", "networks/calibration/log_loader.yaml"])
@@ -651,8 +656,7 @@ fn assess_verdicts(
 /// no FAIL, 0 when all pass.
 #[test]
 fn verdicts_with_bands_pass_fail_or_are_uncertain() {
-    let dir = std::env::temp_dir().join(format!("ripline-bands-assess-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let dir = scratch_dir("assess");
     let (text, p_rms) = compliance_case(&[1.15, 1.05, 0.95, 0.85]);
     let bands = ["--bands", "monte-carlo", "--speeds", "21"];
     let (code, rows) = assess_verdicts(&dir, "all", &text, &bands);
@@ -783,8 +787,7 @@ fn a_verdicts_band_covers_the_envelope_points_that_can_be_worst() {
         .replace("bulk_modulus: 1.6 GPa", "bulk_modulus: \"1.6 GPa ± 20 %\"")
         .replace("amplitude: \"1 L/min ± 10 %\"", "amplitude: 1 L/min")
         + "envelope:\n  cases:\n    - {name: open}\n    - name: throttled\n      set:\n        chamber: {volume: 1 mL}\n        restrictor: {resistance: 6.6e8}\n";
-    let dir = std::env::temp_dir().join(format!("ripline-bands-rivals-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let dir = scratch_dir("rivals");
     let bands = ["--bands", "monte-carlo", "--speeds", "21"];
     let (code, rows) = assess_verdicts(&dir, "mc", &text, &bands);
     assert_eq!(code, Some(0), "{rows:?}");

@@ -432,16 +432,16 @@ pub fn response_outputs(
 /// least, a pair costing its distance |ln(f/f0)| (under ln 1.5; farther
 /// ones never pair) and a nominal resonance left without one costing
 /// ln 1.5, by dynamic programming over the two sorted lists (the alignment
-/// of two sequences with gaps; a byte per pair of resonances). A drawn circuit's resonances move together
-/// (a bulk modulus scales every line resonance by the same factor), so
-/// two close resonances shifted by more than half their spacing keep their
-/// own, where the nearest nominal one would swap them; when two merge in a
-/// draw, or one falls below the prominence threshold, the one left without
-/// is missing from that draw (left out of its band and counted) instead of
-/// taking its neighbour's frequency and level.
-/// A resonance that vanishes while another appears next to it, within the
-/// factor 1.5, is paired with the newcomer: the frequencies alone do not
-/// tell them apart.
+/// of two sequences with gaps; a byte per pair of resonances). A drawn
+/// circuit's resonances move together (a bulk modulus scales every line
+/// resonance by the same factor), so two close resonances shifted by more
+/// than half their spacing keep their own, where the nearest nominal one
+/// would swap them; when two merge in a draw, or one falls below the
+/// prominence threshold, the one left without is missing from that draw
+/// (left out of its band and counted) instead of taking its neighbour's
+/// frequency and level. A resonance that vanishes while another appears
+/// next to it, within the factor 1.5, is paired with the newcomer: the
+/// frequencies alone do not tell them apart.
 pub fn matching_resonances(found_hz: &[f64], nominal_hz: &[f64]) -> Vec<Option<usize>> {
     let gap = 1.5f64.ln();
     let by_frequency = |f: &[f64]| {
