@@ -222,9 +222,11 @@ pub fn limit_text(v: &Verdict) -> String {
     format!("{what} ≤ {}", v.limit.written)
 }
 
-fn signed_pressure(pa: f64) -> String {
+/// The margin in pressure as words: "4.5386 bar over", "0.12 bar to spare" (the
+/// sign is in the words; the dB margin beside it carries its own).
+fn margin_pressure(pa: f64) -> String {
     if pa < 0.0 {
-        format!("−{} over", PressureDisplay(-pa))
+        format!("{} over", PressureDisplay(-pa))
     } else {
         format!("{} to spare", PressureDisplay(pa))
     }
@@ -289,7 +291,7 @@ pub fn text(r: &AssessReport, out: &mut impl Write) -> std::io::Result<()> {
                     where_text(w.speed_rev_s, &w.point),
                     w.order,
                     w.frequency_hz,
-                    signed_pressure(v.margin_pa)
+                    margin_pressure(v.margin_pa)
                 )?,
                 _ => writeln!(out, "{head}; no ripple reaches it anywhere in the envelope")?,
             }
