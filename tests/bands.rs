@@ -529,6 +529,82 @@ fn sweep_bands_of_the_worst_speed_are_the_image_of_the_wave_speed() {
     let _ = std::fs::remove_dir_all(dir);
 }
 
+/// A worst speed that jumps between two crossings over the draws is said
+/// with each place's share. The quarter-wave line (c = 1200 m/s, laminar
+/// friction) resonates at c/4L = 300 Hz; a 9-element pump meets it with its
+/// first harmonic at 2000 rpm and with its second at 1000 rpm. The source
+/// flow is in proportion to speed (ripline's model of a pump's source flow
+/// ripple), so with amplitudes a and b written at 1500 rpm the two peaks
+/// are a·(2000/1500)·|Z(300 Hz)| and b·(1000/1500)·|Z(300 Hz)|, the same
+/// impedance: the worst is at 2000 rpm exactly when a > b/2. With
+/// b = 2.08 L/min and a = 1 L/min ± 10 % (rectangular), that is a > 1.04,
+/// whose probability is (1.1 − 1.04)/0.2 = 0.30 (by hand). The other
+/// harmonic adds under 1e-3 of a peak's mean square at either speed (the
+/// second harmonic at 2000 rpm sits on the 600 Hz anti-resonance, the
+/// first at 1000 rpm on |Z| = Zc), which moves the threshold by about 1e-4
+/// and the share by under 0.001. With 1,000 draws the share's sampling
+/// standard deviation is √(0.3·0.7/1000) = 0.0145; the test allows 4.
+#[test]
+fn sweep_bands_say_where_a_jumping_worst_speed_lies() {
+    let text = "\
+title: quarter-wave line fed by two harmonics (invented)
+fluid: {density: 870 kg/m3, bulk_modulus: 1.6 GPa, viscosity: 32 cSt}
+line_model: laminar
+pump:
+  node: a
+  speed: 1500 rpm
+  pumping_elements: 9
+  flow_ripple:
+    - {harmonic: 1, amplitude: \"1 L/min ± 10 %\"}
+    - {harmonic: 2, amplitude: 2.08 L/min}
+  source_impedance: {volume: 0 L}
+elements:
+  - {name: line, kind: hose, from: a, to: b, length: 1 m, bore: 25 mm, wave_speed: 1200 m/s, loss_factor: 0}
+  - {name: tank, kind: tank, at: b}
+taps:
+  - {name: pump outlet, node: a}
+";
+    let (dir, circuit) = circuit_in_scratch("places", "two.yaml", text);
+    let json = dir.join("sweep.json");
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(["sweep", circuit.to_str().unwrap()])
+        .args(["--speed-range", "800..2400", "--speed-step", "10"])
+        .args(["--bands", "monte-carlo", "--draws", "1000"])
+        .args(["--json", json.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8(o.stdout).unwrap();
+    assert!(
+        text.contains("worst speed in more than one place over the draws"),
+        "{text}"
+    );
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(json).unwrap()).unwrap();
+    let places = v["result"]["bands"]["points"][0]["worst_speed_places"]
+        .as_array()
+        .unwrap();
+    assert_eq!(places.len(), 2, "{places:?}");
+    let rpm = |p: &serde_json::Value, key: &str| p[key].as_f64().unwrap() * 60.0;
+    // friction lowers the resonance slightly: within 2 % below each speed
+    for (p, speed) in places.iter().zip([1000.0, 2000.0]) {
+        for key in ["low_rev_s", "high_rev_s"] {
+            let n = rpm(p, key);
+            assert!(n <= speed && n > 0.98 * speed, "{key} {n} rpm near {speed}");
+        }
+    }
+    let share = places[1]["share"].as_f64().unwrap();
+    assert!((share - 0.30).abs() < 4.0 * 0.0145, "{share}");
+    assert_eq!(
+        places[0]["draws"].as_u64().unwrap() + places[1]["draws"].as_u64().unwrap(),
+        1000
+    );
+    // the nominal a = 1 < 1.04: the nominal worst is the 1000 rpm one
+    assert_eq!(places[0]["nominal"], true);
+    assert_eq!(places[1]["nominal"], false);
+    let _ = std::fs::remove_dir_all(dir);
+}
+
 /// `response --bands` and `sweep --bands` on a circuit with nothing
 /// uncertain: exit 2, nothing written, the error says how to add a
 /// tolerance.

@@ -224,5 +224,54 @@ pub fn sweep_text(b: &SweepBands, out: &mut impl Write) -> std::io::Result<()> {
             interval(&p.worst_rms_pa, unit),
         ]);
     }
-    t.write(out, "  ")
+    t.write(out, "  ")?;
+    // a worst speed that jumps between crossings over the draws: where
+    // it lies, so that one interval over both does not hide it
+    let split: Vec<_> = b
+        .points
+        .iter()
+        .filter(|p| {
+            p.worst_speed_places
+                .iter()
+                .filter(|s| s.share >= MIN_PLACE_SHARE)
+                .count()
+                > 1
+        })
+        .collect();
+    if !split.is_empty() {
+        writeln!(
+            out,
+            "worst speed in more than one place over the draws (it passes from one resonance crossing to another; places holding under {:.0} % of the draws not shown):",
+            100.0 * MIN_PLACE_SHARE
+        )?;
+    }
+    for p in split {
+        let places: Vec<String> = p
+            .worst_speed_places
+            .iter()
+            .filter(|s| s.share >= MIN_PLACE_SHARE)
+            .map(|s| {
+                let (low, high) = (
+                    sig(rpm.of(s.low_rev_s), DIGITS),
+                    sig(rpm.of(s.high_rev_s), DIGITS),
+                );
+                let speeds = if low == high {
+                    low
+                } else {
+                    format!("{low} .. {high}")
+                };
+                format!(
+                    "{speeds} rpm in {:.1} %{}",
+                    100.0 * s.share,
+                    if s.nominal { " (the nominal's)" } else { "" }
+                )
+            })
+            .collect();
+        writeln!(out, "  {}: {}", p.point, places.join(", "))?;
+    }
+    Ok(())
 }
+
+/// Places of a worst speed holding fewer draws than this share are left
+/// out of the text (they are in the JSON).
+const MIN_PLACE_SHARE: f64 = 0.01;

@@ -13,7 +13,7 @@ use crate::uncertainty::bands::{
     BandError, BandRequest, BandsInfo, Method, OutputBand, Propagated, propagate, response_outputs,
     ripple_outputs, sweep_outputs,
 };
-use crate::uncertainty::monte_carlo::MAX_STORED;
+use crate::uncertainty::monte_carlo::{MAX_STORED, f32_digits};
 use serde::Serialize;
 
 /// The bands of one harmonic's amplitude (Pa, peak).
@@ -337,8 +337,62 @@ pub struct SweepPointBands {
     pub amplitudes: Vec<OrderCurveBand>,
     /// The true worst speed, rev/s.
     pub worst_speed_rev_s: OutputBand,
+    /// Where the worst speed lies over the Monte Carlo draws
+    /// ([`worst_speed_places`]), increasing; empty for first-order bands.
+    pub worst_speed_places: Vec<SpeedPlace>,
     /// The overall rms there, Pa.
     pub worst_rms_pa: OutputBand,
+}
+
+/// A place where a point's worst speed lies in some of the Monte Carlo
+/// draws: a run of the draws' worst speeds with no gap wider than
+/// [`WORST_SPEED_GAP`] (`uncertainty::stats::places`).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct SpeedPlace {
+    /// The lowest worst speed there, rev/s.
+    pub low_rev_s: f64,
+    /// The highest, rev/s.
+    pub high_rev_s: f64,
+    /// Draws whose worst speed lies there.
+    pub draws: usize,
+    /// Their share of the draws that have one (0..1).
+    pub share: f64,
+    /// Whether it is the place of the nominal worst speed (the nearest to
+    /// it).
+    pub nominal: bool,
+}
+
+/// Draws' worst speeds more than this fraction apart (with none between)
+/// lie in different places. A worst speed that follows a resonance
+/// crossing moves continuously with the inputs, so its draws lie close
+/// together (1,000 draws over a band a few percent wide); when the worst
+/// passes from one crossing to another it jumps, usually by more than a
+/// resonance's width (several percent of the speed). Our choice, between
+/// the two.
+pub const WORST_SPEED_GAP: f64 = 0.02;
+
+/// Where the draws put a point's worst speed: the places of `samples` (the
+/// draws' worst speeds, rev/s) with their shares, the one nearest the
+/// nominal worst speed `nominal_rev_s` marked.
+pub fn worst_speed_places(samples: &[f32], nominal_rev_s: f64) -> Vec<SpeedPlace> {
+    let places = crate::uncertainty::stats::places(samples, WORST_SPEED_GAP);
+    let total: usize = places.iter().map(|p| p.count).sum();
+    let distance = |p: &crate::uncertainty::stats::Place| {
+        (p.low / nominal_rev_s).ln().max(0.0) + (nominal_rev_s / p.high).ln().max(0.0)
+    };
+    let nearest =
+        (0..places.len()).min_by(|&a, &b| distance(&places[a]).total_cmp(&distance(&places[b])));
+    places
+        .iter()
+        .enumerate()
+        .map(|(i, p)| SpeedPlace {
+            low_rev_s: f32_digits(p.low),
+            high_rev_s: f32_digits(p.high),
+            draws: p.count,
+            share: p.count as f64 / total as f64,
+            nominal: Some(i) == nearest,
+        })
+        .collect()
 }
 
 /// The bands of a `sweep`.
@@ -421,6 +475,10 @@ pub fn sweep_bands(
                 })
                 .collect(),
             worst_speed_rev_s: w[0],
+            worst_speed_places: p
+                .judged_samples
+                .get(2 * pi)
+                .map_or_else(Vec::new, |s| worst_speed_places(s, w[0].nominal)),
             worst_rms_pa: w[1],
         })
         .collect();

@@ -107,6 +107,9 @@ pub struct Propagated {
     pub info: BandsInfo,
     /// One per output.
     pub outputs: Vec<OutputBand>,
+    /// The Monte Carlo draws of each judged output, in the judged order
+    /// (`monte_carlo::Bands::judged_samples`; empty for first-order bands).
+    pub judged_samples: Vec<Vec<f32>>,
 }
 
 /// Why bands could not be computed.
@@ -264,8 +267,8 @@ pub fn propagate_at_points(
     let plus = moved;
     let coverage = request.monte_carlo.coverage;
     let lin = linear::bands(&f0, &plus, &minus, coverage);
-    let (mc, draws, stable, redrawn) = match request.method {
-        Method::Linear => (None, 0, None, 0),
+    let (mc, draws, stable, redrawn, judged_samples) = match request.method {
+        Method::Linear => (None, 0, None, 0, Vec::new()),
         Method::MonteCarlo => {
             let seed = request.monte_carlo.seed;
             // values the circuit refuses (a length or volume drawn below
@@ -324,7 +327,13 @@ pub fn propagate_at_points(
                     first,
                 });
             }
-            (Some(bands.bands), bands.draws, bands.stable, redrawn)
+            (
+                Some(bands.bands),
+                bands.draws,
+                bands.stable,
+                redrawn,
+                bands.judged_samples,
+            )
         }
     };
     let digits = request.monte_carlo.digits;
@@ -357,6 +366,7 @@ pub fn propagate_at_points(
                 .count(),
         },
         outputs,
+        judged_samples,
     })
 }
 

@@ -112,6 +112,12 @@ pub struct Bands {
     pub options: Options,
     /// One band per output.
     pub bands: Vec<Band>,
+    /// The draws of each judged output (f32, in draw order; NaN where a
+    /// draw lacks the quantity), for statistics beyond the band: where a
+    /// sweep's worst speed lies over the draws
+    /// ([`super::stats::places`]).
+    #[serde(skip)]
+    pub judged_samples: Vec<Vec<f32>>,
 }
 
 /// The generator of draw `i` under `seed`.
@@ -233,6 +239,7 @@ pub fn propagate<E: Send>(
         stable,
         options: *options,
         bands,
+        judged_samples: values.drain(judged).collect(),
     })
 }
 
@@ -273,7 +280,7 @@ fn stable_output(per_batch: &[Vec<[f64; 4]>], o: usize, u: f64, digits: u32) -> 
 
 /// `x` to the digits its 32-bit samples carry: the shortest decimal that
 /// reads back as the same `f32` (286.34705, not 286.3470458984375).
-fn f32_digits(x: f64) -> f64 {
+pub(crate) fn f32_digits(x: f64) -> f64 {
     if !x.is_finite() {
         return x;
     }

@@ -154,9 +154,73 @@ pub fn quantile(samples: &mut [f64], p: f64) -> f64 {
     }
 }
 
+/// Where samples of a positive quantity gather: runs of the sorted finite
+/// samples in which each is within the factor `1 + gap` of the one before
+/// (a sample further from its neighbour starts a new place), increasing.
+/// A quantity that moves continuously with the inputs gathers in one place;
+/// one that jumps (a sweep's worst speed passing from one resonance
+/// crossing to another) in several, and each place's share of the draws
+/// says how often it holds.
+pub fn places(samples: &[f32], gap: f64) -> Vec<Place> {
+    let mut v: Vec<f64> = samples
+        .iter()
+        .filter(|x| x.is_finite())
+        .map(|&x| f64::from(x))
+        .collect();
+    v.sort_by(f64::total_cmp);
+    let mut out: Vec<Place> = Vec::new();
+    for x in v {
+        match out.last_mut() {
+            Some(p) if x <= p.high * (1.0 + gap) => {
+                p.high = x;
+                p.count += 1;
+            }
+            _ => out.push(Place {
+                low: x,
+                high: x,
+                count: 1,
+            }),
+        }
+    }
+    out
+}
+
+/// One place of [`places`]: its lowest and highest sample and how many.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Place {
+    /// The lowest sample there.
+    pub low: f64,
+    /// The highest.
+    pub high: f64,
+    /// Samples there.
+    pub count: usize,
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    // Samples built in two runs: 300 spread evenly over 1990..2050 (steps
+    // of 0.2, far within 2 % of each other) and 700 over 2450..2500, the
+    // runs 400 apart (20 % of 2050): two places holding exactly 300 and
+    // 700, with their ends; NaN left out; one run alone is one place.
+    #[test]
+    fn places_split_where_the_samples_leave_a_gap() {
+        let mut s: Vec<f32> = (0..300).map(|i| 1990.0 + 0.2 * i as f32).collect();
+        s.extend((0..700).map(|i| 2450.0 + 50.0 * i as f32 / 699.0));
+        s.push(f32::NAN);
+        s.reverse();
+        let p = places(&s, 0.02);
+        assert_eq!(p.len(), 2);
+        assert_eq!((p[0].count, p[1].count), (300, 700));
+        assert_eq!(
+            (p[0].low, p[0].high),
+            (1990.0, f64::from(1990.0f32 + 0.2 * 299.0))
+        );
+        assert_eq!((p[1].low, p[1].high), (2450.0, 2500.0));
+        assert_eq!(places(&s[..700], 0.02).len(), 1);
+        assert!(places(&[f32::NAN], 0.02).is_empty());
+    }
 
     // Values from scipy 1.17.1: scipy.special.erfc(x) and
     // scipy.stats.norm.ppf(p) (tests/oracles/calibrate_refs.py).
