@@ -130,6 +130,47 @@ fn compare_writes_its_table() {
     let _ = std::fs::remove_dir_all(dir);
 }
 
+// The demo's records were made from log_loader_true.yaml with white noise
+// whose level the records' uncertainties state: that circuit agrees with
+// them within their noise at every tap (χ² of the normalised differences
+// below the 99th percentile of χ² with 2 degrees of freedom per row, the
+// law of |δ|²/u² for circular complex normal noise), while the catalogue
+// model misses them at every tap, and `compare` concludes so and points
+// to `calibrate`.
+#[test]
+fn compare_concludes_whether_the_model_agrees_within_the_noise() {
+    let dir = scratch("verdict");
+    for (model, agrees) in [
+        ("networks/calibration/log_loader_true.yaml", true),
+        (MODEL, false),
+    ] {
+        let json = dir.join("compare.json");
+        let json_s = json.display().to_string();
+        let o = ripline(&["compare", model, RUNS, "--json", &json_s]);
+        assert!(o.status.success(), "{}", text(&o.stderr));
+        let out = text(&o.stdout);
+        let v: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+        let taps = v["result"]["comparison"]["taps"].as_array().unwrap();
+        assert_eq!(taps.len(), 3);
+        for t in taps {
+            // 4 runs × 6 harmonics, 2 degrees of freedom each
+            assert_eq!(t["degrees_of_freedom"], 48, "{t}");
+            assert_eq!(t["within_noise"], agrees, "{model}: {t}");
+        }
+        if agrees {
+            assert!(out.contains("conclusion: the model agrees with the measurements within their noise at every tap"), "{out}");
+        } else {
+            assert!(
+                out.contains("misses the measurements beyond their noise at 3 of 3 taps"),
+                "{out}"
+            );
+            assert!(out.contains("`ripline calibrate`"), "{out}");
+        }
+    }
+    let _ = std::fs::remove_dir_all(dir);
+}
+
 // The load valve's resistance barely shows in the demo's records: its
 // estimate (about 2.2e8 Pa·s/m³) carries u ≈ 2e8, so the estimate − 3 u
 // (three standard uncertainties: common practice for the range of nearly

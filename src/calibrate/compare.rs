@@ -72,7 +72,25 @@ pub struct TapAgreement {
     /// The rms of the normalised differences (about 1 when the model agrees
     /// within the measurement's noise), where uncertainties are known.
     pub rms_normalised: Option<f64>,
+    /// χ² of the normalised differences, where uncertainties are known:
+    /// Σ 2·z² with phases compared (for circular complex normal noise
+    /// 2|δ|²/u² is χ² with 2 degrees of freedom), Σ z² for amplitudes only
+    /// (z about standard normal).
+    pub chi_squared: Option<f64>,
+    /// Its degrees of freedom: 2 per row with phases, 1 without.
+    pub degrees_of_freedom: Option<usize>,
+    /// Whether the differences are what the measurement's noise alone
+    /// gives: χ² at most the [`AGREEMENT_QUANTILE`] quantile of χ²(ν)
+    /// (Wilson–Hilferty, `uncertainty::stats::chi2_quantile`), or, when the
+    /// uncertainties are estimated from the records, of the scaled χ² of the
+    /// same mean and variance, as `calibrate`'s misfit test (module docs of
+    /// `calibrate::fit`, "Weights estimated from the data").
+    pub within_noise: Option<bool>,
 }
+
+/// A tap agrees with the model within the noise when its χ² lies below this
+/// quantile of χ²(ν): a model that is right is called wrong at 1 % of taps.
+pub const AGREEMENT_QUANTILE: f64 = 0.99;
 
 /// Measured against predicted over every run.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -145,12 +163,23 @@ pub fn compare(
             rows,
         });
     }
-    let taps = tap_agreement(&runs);
+    // as calibrate's misfit test: the fewest degrees of freedom of any
+    // run's estimated uncertainties
+    let weights_dof = measured
+        .iter()
+        .filter_map(|r| r.uncertainty_dof)
+        .reduce(f64::min);
+    let taps = tap_agreement(&runs, phases, weights_dof);
     Ok(Comparison { phases, runs, taps })
 }
 
 /// Per tap, in order of first appearance.
-fn tap_agreement(runs: &[RunComparison]) -> Vec<TapAgreement> {
+fn tap_agreement(
+    runs: &[RunComparison],
+    phases: Phases,
+    weights_dof: Option<f64>,
+) -> Vec<TapAgreement> {
+    let noise = super::fit::TypeA::of(weights_dof, phases == Phases::Shaft);
     let mut names: Vec<&str> = Vec::new();
     for r in runs.iter().flat_map(|r| &r.rows) {
         if !names.contains(&r.tap.as_str()) {
@@ -170,6 +199,13 @@ fn tap_agreement(runs: &[RunComparison]) -> Vec<TapAgreement> {
                 .collect();
             let db: Vec<f64> = rows.iter().filter_map(|r| r.difference_db).collect();
             let z: Vec<f64> = rows.iter().filter_map(|r| r.normalised).collect();
+            let known = !z.is_empty() && z.len() == rows.len();
+            let per_row = match phases {
+                Phases::Shaft => 2,
+                Phases::Ignore => 1,
+            };
+            let chi_squared = known.then(|| z.iter().map(|x| per_row as f64 * x * x).sum::<f64>());
+            let dof = known.then_some(per_row * z.len());
             TapAgreement {
                 tap: tap.to_string(),
                 rows: rows.len(),
@@ -179,6 +215,11 @@ fn tap_agreement(runs: &[RunComparison]) -> Vec<TapAgreement> {
                     .cloned()
                     .max_by(|a, b| a.abs().total_cmp(&b.abs())),
                 rms_normalised: (z.len() == rows.len()).then(|| rms(&z)).flatten(),
+                chi_squared,
+                degrees_of_freedom: dof,
+                within_noise: chi_squared
+                    .zip(dof)
+                    .map(|(c, n)| c <= noise.quantile(AGREEMENT_QUANTILE, n as f64)),
             }
         })
         .collect()
@@ -195,5 +236,59 @@ mod tests {
         assert_eq!(wrap_deg(180.0), 180.0);
         assert_eq!(wrap_deg(-180.0), 180.0);
         assert_eq!(wrap_deg(725.0), 5.0);
+    }
+
+    // The agreement test holds its stated level when the model is right and
+    // the measurement noise is what u says: measured phasors M = P + u·δ with
+    // δ circular complex normal (E|δ|² = 1), 24 rows a tap. Over 4,000 such
+    // taps the share called beyond the noise is 1 − 0.99 = 1 % within 4
+    // sampling standard deviations (√(0.01·0.99/4000) = 0.16 %); with twice
+    // the noise (a model off by as much as the noise) nearly every tap is.
+    // Amplitudes alone likewise. (χ²(2) for 2|δ|²: the sum of two squared
+    // standard normals; a wrong factor or degrees of freedom fails this.)
+    #[test]
+    fn a_right_model_is_called_wrong_at_the_stated_rate() {
+        let mut rng = crate::estimate::rng::Rng::new(17);
+        let u = 0.3;
+        let p = C64::new(2.0, -1.0);
+        for phases in [Phases::Shaft, Phases::Ignore] {
+            let mut rate = |scale: f64| {
+                let taps = 4000;
+                let wrong = (0..taps)
+                    .filter(|_| {
+                        let rows = (0..24)
+                            .map(|h| {
+                                let m = p + u * scale * rng.complex_normal();
+                                Row {
+                                    tap: "t".into(),
+                                    order: h + 1,
+                                    freq_hz: 100.0,
+                                    measured_pa: m.norm(),
+                                    measured_phase_deg: 0.0,
+                                    measured_u_pa: None,
+                                    predicted_pa: p.norm(),
+                                    predicted_phase_deg: 0.0,
+                                    difference_db: None,
+                                    difference_deg: None,
+                                    normalised: Some(normalised(p, m, u, phases)),
+                                }
+                            })
+                            .collect();
+                        let run = RunComparison {
+                            run: "r".into(),
+                            point: "p".into(),
+                            stated_speed_rev_s: 25.0,
+                            speed_rev_s: 25.0,
+                            rows,
+                        };
+                        tap_agreement(&[run], phases, None)[0].within_noise == Some(false)
+                    })
+                    .count();
+                wrong as f64 / taps as f64
+            };
+            let right = rate(1.0);
+            assert!((right - 0.01).abs() < 4.0 * 0.0016, "{phases:?}: {right}");
+            assert!(rate(2.0) > 0.95, "{phases:?}");
+        }
     }
 }

@@ -574,7 +574,7 @@ pub fn calibrate(
 /// The distribution of one squared weighted residual part under the noise
 /// alone (module doc, "Weights estimated from the data").
 #[derive(Debug, Clone, Copy, PartialEq)]
-struct TypeA {
+pub(crate) struct TypeA {
     /// Its mean.
     mean_square: f64,
     /// Its variance.
@@ -586,7 +586,7 @@ impl TypeA {
     /// χ²(1) part), the two parts of a phasor sharing a weight if `paired`.
     /// At 4 or fewer degrees of freedom the variance is infinite: taken as
     /// that of 5.
-    fn of(dof: Option<f64>, paired: bool) -> Self {
+    pub(crate) fn of(dof: Option<f64>, paired: bool) -> Self {
         match dof {
             None => TypeA {
                 mean_square: 1.0,
@@ -604,15 +604,20 @@ impl TypeA {
         }
     }
 
-    /// The 99.9 % point of the sum of `dof` parts: a χ² with `dof` degrees
+    /// The 99.9 % point of the sum of `dof` parts ([`TypeA::quantile`]).
+    fn chi2_limit(&self, dof: f64) -> f64 {
+        self.quantile(0.999, dof)
+    }
+
+    /// The p-quantile of the sum of `dof` parts: a χ² with `dof` degrees
     /// of freedom for known weights, else the scaled χ² g·χ²(h) of the same
     /// mean and variance (Satterthwaite 1946).
-    fn chi2_limit(&self, dof: f64) -> f64 {
+    pub(crate) fn quantile(&self, p: f64, dof: f64) -> f64 {
         let mean = self.mean_square * dof;
         let var = self.variance * dof;
         let g = var / (2.0 * mean);
         let h = 2.0 * mean * mean / var;
-        g * chi2_quantile(0.999, h)
+        g * chi2_quantile(p, h)
     }
 }
 

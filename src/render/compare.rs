@@ -4,7 +4,7 @@
 
 use super::heading;
 use super::table::{Align, DIGITS, Quantity, Table, phase, sig};
-use crate::calibrate::compare::{Comparison, Row};
+use crate::calibrate::compare::{AGREEMENT_QUANTILE, Comparison, Row, TapAgreement};
 use crate::io::measurement_file::Phases;
 use crate::plot;
 use crate::results::compare::{CompareResult, MeasurementsInfo};
@@ -61,7 +61,18 @@ pub fn text(r: &CompareResult, out: &mut impl Write) -> std::io::Result<()> {
         "{}; amplitudes are peak values; difference = predicted − measured (dB: 20·log10 of their ratio); |P−M|/u about 1 is agreement within the measurement's noise",
         phases_text(r.comparison.phases)
     )?;
-    comparison_text(&r.comparison, out)
+    comparison_text(&r.comparison, out)?;
+    if r.comparison
+        .taps
+        .iter()
+        .any(|a| a.within_noise == Some(false))
+    {
+        writeln!(
+            out,
+            "its predictions are not to be trusted as they stand: `ripline calibrate` adjusts chosen values of the circuit to these measurements and says which of them the data can identify"
+        )?;
+    }
+    Ok(())
 }
 
 /// The per-run tables and the agreement per tap.
@@ -142,7 +153,55 @@ pub fn comparison_text(c: &Comparison, out: &mut impl Write) -> std::io::Result<
             a.rms_normalised.map_or("–".into(), |z| format!("{z:.2}")),
         ]);
     }
-    t.write(out, "  ")
+    t.write(out, "  ")?;
+    if let Some(line) = agreement_conclusion(c) {
+        writeln!(out, "{line}")?;
+    }
+    Ok(())
+}
+
+/// The comparison's conclusion: whether the model agrees with the
+/// measurements within their noise at every tap, and if not, the taps
+/// where it does not, the largest misfit first. `None` when a tap's
+/// measurements carry no uncertainty.
+pub fn agreement_conclusion(c: &Comparison) -> Option<String> {
+    let judged: Option<Vec<(&TapAgreement, bool)>> = c
+        .taps
+        .iter()
+        .map(|a| a.within_noise.map(|w| (a, w)))
+        .collect();
+    let judged = judged.filter(|j| !j.is_empty())?;
+    let mut missed: Vec<&TapAgreement> =
+        judged.iter().filter(|(_, w)| !w).map(|(a, _)| *a).collect();
+    let q = format!("{:.0}th percentile", 100.0 * AGREEMENT_QUANTILE);
+    if missed.is_empty() {
+        return Some(format!(
+            "conclusion: the model agrees with the measurements within their noise at every tap (each tap's χ² below the {q} of χ² with its degrees of freedom)"
+        ));
+    }
+    missed.sort_by(|a, b| {
+        b.rms_normalised
+            .unwrap_or(0.0)
+            .total_cmp(&a.rms_normalised.unwrap_or(0.0))
+    });
+    let names: Vec<String> = missed.iter().map(|a| format!("`{}`", a.tap)).collect();
+    let misfits: Vec<String> = missed
+        .iter()
+        .map(|a| a.rms_normalised.map_or("–".into(), |z| format!("{z:.2}")))
+        .collect();
+    let agreeing = judged.len() - missed.len();
+    Some(format!(
+        "conclusion: the model misses the measurements beyond their noise at {} of {} taps: {} (rms |P−M|/u {}, where about 1 is agreement; χ² above the {q} of χ² with the tap's degrees of freedom){}",
+        missed.len(),
+        judged.len(),
+        names.join(", "),
+        misfits.join(", "),
+        if agreeing > 0 {
+            format!("; within the noise at the other {agreeing}")
+        } else {
+            String::new()
+        }
+    ))
 }
 
 fn measured_cell(r: &Row, unit: super::table::Unit) -> String {
