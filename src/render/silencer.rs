@@ -115,6 +115,27 @@ pub fn text(r: &SilencerResult, out: &mut impl Write) -> std::io::Result<()> {
         }
         table.write(out, "  ")?;
     }
+    if let Some(w) = &r.worst_over_speeds {
+        let unit = Quantity::Pressure.unit_for_all([w.without_pa, w.with_pa]);
+        let change = 20.0 * (w.without_pa / w.with_pa).log10();
+        writeln!(
+            out,
+            "worst overall ripple at point `{}` over the speed range (each found between the speeds to 0.01 dB): {} rms at {:.0} rpm without, {} rms at {:.0} rpm with: {}",
+            r.tap,
+            unit.show(w.without_pa),
+            w.without_speed_rev_s * 60.0,
+            unit.show(w.with_pa),
+            w.with_speed_rev_s * 60.0,
+            if change >= 0.0 {
+                format!("{change:.2} dB lower")
+            } else {
+                format!(
+                    "{:.2} dB higher: the silencer makes the worst ripple worse",
+                    -change
+                )
+            }
+        )?;
+    }
     let (f_tl, tl) = r.largest_tl();
     let (f_il, il) = r.smallest_il();
     writeln!(

@@ -12,7 +12,8 @@ use crate::analysis::silencer::{
     Chain, WithoutReference, circuit_without, insertion_loss_db, pressure_per_unit_flow,
     transmission_loss_db,
 };
-use crate::analysis::tune::speed_conditions;
+use crate::analysis::sweep::CHECKED_STEP;
+use crate::analysis::tune::{Objective, RippleEvaluator, speed_conditions};
 use crate::circuit::TapLocation;
 use crate::elements::PRESSURE_VESSEL_CAUTION;
 use crate::network::Plan;
@@ -92,6 +93,21 @@ pub struct LossRange {
     pub largest: (f64, f64),
 }
 
+/// The decision over the speed range: the worst overall rms ripple at the
+/// point without the silencer and with it, each with its speed (found
+/// between the speeds to 0.01 dB, as `tune`, `sweep` and `assess` find it).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct WorstWithout {
+    /// Without the silencer: the worst overall rms, Pa.
+    pub without_pa: f64,
+    /// Its shaft speed, rev/s.
+    pub without_speed_rev_s: f64,
+    /// With it: the worst overall rms, Pa.
+    pub with_pa: f64,
+    /// Its shaft speed, rev/s.
+    pub with_speed_rev_s: f64,
+}
+
 /// The result of `silencer`.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SilencerResult {
@@ -121,6 +137,9 @@ pub struct SilencerResult {
     pub rms_without_pa: f64,
     /// Overall rms with it, Pa.
     pub rms_with_pa: f64,
+    /// The worst overall ripple at the point over the speed range, without
+    /// and with the silencer (`None` for a single speed).
+    pub worst_over_speeds: Option<WorstWithout>,
     /// Per harmonic over [`RANGE_SPEEDS`] speeds of the range (empty for a
     /// single speed).
     pub over_speeds: Vec<LossRange>,
@@ -327,6 +346,34 @@ pub fn silencer(
             });
         }
     }
+    // The decision: the worst overall ripple at the point over the speed
+    // range, without the silencer and with it, on a start grid no coarser
+    // than the worst-speed search is checked on (sweep::CHECKED_STEP).
+    let worst_over_speeds = if speeds.is_single() {
+        None
+    } else {
+        let (lo, hi) = speeds.rev_s();
+        let count = RANGE_SPEEDS.max((hi / lo).ln().div_euclid(CHECKED_STEP.ln_1p()) as usize + 2);
+        let conditions = speed_conditions((lo, hi), count);
+        let worst = |c: &Circuit, point: TapLocation, what: &str| -> Result<(f64, f64), Error> {
+            let s = RippleEvaluator::new(c, pump_index, point, &conditions, Objective::Worst)
+                .evaluate(c)
+                .map_err(|e| {
+                    Error::failed(format!("the worst ripple over the speed range {what}"), e)
+                })?;
+            let pa = finite(s.objective_pa, "worst ripple over the speed range", lo)?;
+            Ok((pa, s.worst.map_or(lo, |(_, n)| n)))
+        };
+        let (without_pa, without_speed_rev_s) =
+            worst(&without, tap_without, "without the silencer")?;
+        let (with_pa, with_speed_rev_s) = worst(circuit, tap_with, "with the silencer")?;
+        Some(WorstWithout {
+            without_pa,
+            without_speed_rev_s,
+            with_pa,
+            with_speed_rev_s,
+        })
+    };
     let (bands, _) = excited_bands(circuit, pump_index, &speeds);
     let elements = request
         .elements
@@ -373,6 +420,7 @@ pub fn silencer(
         silent_orders,
         rms_without_pa,
         rms_with_pa,
+        worst_over_speeds,
         over_speeds,
         bands,
         freqs_hz: freqs,
