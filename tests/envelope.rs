@@ -353,14 +353,20 @@ fn load_cases_set_values_and_close_elements() {
 // (rebuilt waveform, analysis::waveform) and single-harmonic amplitude
 // taken over all of them. The verdict's value must equal that maximum
 // within 0.01 dB, at the same envelope point and within a grid step of its
-// speed.
+// speed. Where a limit is exceeded (the file's rms and peak-to-peak limits,
+// and the harmonic limit lowered to 1.5 bar here), every brute-force speed
+// over it at any envelope point lies in the speeds `assess` reports over
+// it, and each reported interval ends within one step of its grid (5 rpm)
+// and one of the brute-force grid from a speed over the limit (or at an end
+// of the range).
 #[test]
 fn the_verdict_is_the_worst_of_a_brute_force_grid_of_the_envelope() {
     use ripline::analysis::envelope::{AssessSettings, assess};
     use ripline::analysis::sweep::{SweepSettings, sweep};
     use ripline::analysis::waveform::peak_to_peak;
     use ripline::envelope::LimitKind;
-    let file = ripline::io::parse_circuit_file(ENVELOPE, "envelope.yaml").unwrap();
+    let text = ENVELOPE.replace("harmonic: 150 dB", "harmonic: 1.5 bar");
+    let file = ripline::io::parse_circuit_file(&text, "envelope.yaml").unwrap();
     let points: Vec<_> = file
         .points()
         .into_iter()
@@ -384,9 +390,12 @@ fn the_verdict_is_the_worst_of_a_brute_force_grid_of_the_envelope() {
     let speeds: Vec<f64> = (0..n)
         .map(|i| lo + (hi - lo) * i as f64 / (n - 1) as f64)
         .collect();
+    let mut failed = 0;
     for v in &a.verdicts {
         // (value, point label, speed) of the brute-force maximum
         let mut best = (0.0f64, String::new(), 0.0);
+        // the brute-force speeds over the limit at any envelope point
+        let mut over: Vec<f64> = Vec::new();
         for (point, circuit) in &points {
             let plan = Plan::compile(circuit).unwrap();
             let shaft = ripline::source::Shaft::single(&circuit.pumps, 0);
@@ -415,6 +424,36 @@ fn the_verdict_is_the_worst_of_a_brute_force_grid_of_the_envelope() {
                 if value > best.0 {
                     best = (value, point.label(), speed);
                 }
+                if value > v.limit.value_pa {
+                    over.push(speed);
+                }
+            }
+        }
+        over.sort_by(f64::total_cmp);
+        match &v.over_limit {
+            None => assert!(over.is_empty() && v.pass, "{} {:?}", v.tap, v.limit.kind),
+            Some(o) => {
+                failed += 1;
+                let inside = |s: f64| o.speeds_rev_s.iter().any(|&(a, b)| a <= s && s <= b);
+                assert!(
+                    over.iter().all(|&s| inside(s)),
+                    "{} {:?}",
+                    v.tap,
+                    v.limit.kind
+                );
+                let slack = (hi - lo) / 200.0 + (hi - lo) / (n - 1) as f64 + 1e-9;
+                for &(a, b) in &o.speeds_rev_s {
+                    let within: Vec<f64> =
+                        over.iter().copied().filter(|&s| a <= s && s <= b).collect();
+                    assert!(!within.is_empty(), "{a}..{b} holds no speed over the limit");
+                    assert!(
+                        a == lo || within[0] - a <= slack,
+                        "{a} against {}",
+                        within[0]
+                    );
+                    let top = within[within.len() - 1];
+                    assert!(b == hi || b - top <= slack, "{b} against {top}");
+                }
             }
         }
         let w = v.worst.as_ref().expect("ripple reaches the tap");
@@ -429,6 +468,7 @@ fn the_verdict_is_the_worst_of_a_brute_force_grid_of_the_envelope() {
         );
         assert_eq!(v.pass, w.value_pa <= v.limit.value_pa);
     }
+    assert_eq!(failed, 3);
 }
 
 // `tune` over an envelope: the circuit at every point of the test envelope

@@ -181,6 +181,13 @@ fn the_readme_envelope_demo_holds() {
         "{out}"
     );
     assert!(out.contains("`pump outlet`: 11.2586 bar rms"), "{out}");
+    assert!(
+        out.contains("over the limit at 6 of 27 envelope points, at 900–1110 rpm, 1964–2300 rpm; it holds at every envelope point over 1110–1964 rpm"),
+        "{out}"
+    );
+    assert!(readme.contains(
+        "at 900–1110 rpm and 1964–2300 rpm, and holds\nat every point only over 1110–1964 rpm"
+    ));
     assert!(text(&o.stderr).contains("the damper is bottomed"));
     assert!(readme.contains("(6.54 bar rms at the\nvalve block against a 2 bar limit, margin −10.3 dB; 11.3 bar rms at the pump outlet)"));
 

@@ -95,6 +95,129 @@ pub struct Verdict {
     /// the worst, uncertain inputs may make it the worst.
     #[serde(skip)]
     pub at_points: Vec<Option<WorstPoint>>,
+    /// Where the limit is exceeded (`None` when it is met).
+    pub over_limit: Option<OverLimit>,
+}
+
+/// Where a limit is exceeded over the envelope: what a speed band to keep
+/// out of would have to cover.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct OverLimit {
+    /// Envelope points where the limited quantity exceeds the limit at some
+    /// speed.
+    pub points: usize,
+    /// Speed intervals (rev/s; increasing, disjoint) holding every speed at
+    /// which it exceeds the limit at one envelope point or more: each run of
+    /// grid speeds over the limit widened to the grid speeds either side (the
+    /// limit is crossed between them), and a refined worst over the limit
+    /// between two grid speeds under it by those two. Outside them the limit
+    /// holds at every envelope point, to the grid's resolution.
+    pub speeds_rev_s: Vec<(f64, f64)>,
+}
+
+impl OverLimit {
+    /// The speeds of `range_rev_s` outside every interval over the limit:
+    /// where the limit holds at every envelope point (increasing).
+    pub fn clear_speeds(&self, range_rev_s: (f64, f64)) -> Vec<(f64, f64)> {
+        let (lo, hi) = range_rev_s;
+        let mut out = Vec::new();
+        let mut from = lo;
+        for &(a, b) in &self.speeds_rev_s {
+            if a > from {
+                out.push((from, a.min(hi)));
+            }
+            from = from.max(b);
+        }
+        if from < hi {
+            out.push((from, hi));
+        }
+        out
+    }
+}
+
+/// The limited quantity of `kind` at point `tp` of a sweep at each grid
+/// speed: the overall rms, the peak-to-peak of the waveform of the orders,
+/// or the largest harmonic's peak amplitude.
+fn limited_on_grid(swept: &SweepResult, tp: usize, kind: LimitKind) -> Vec<f64> {
+    let ns = swept.speeds_rev_s.len();
+    let no = swept.orders.len();
+    match kind {
+        LimitKind::Rms => (0..ns).map(|si| swept.rms_pa(si, tp)).collect(),
+        LimitKind::PeakToPeak => {
+            let period = super::waveform::Period::new(&swept.orders);
+            (0..ns)
+                .map(|si| {
+                    let phasors: Vec<_> = (0..no).map(|oi| swept.phasor(si, tp, oi)).collect();
+                    let e = period.extremes(&phasors);
+                    e.max.1 - e.min.1
+                })
+                .collect()
+        }
+        LimitKind::Harmonic => (0..ns)
+            .map(|si| {
+                (0..no)
+                    .map(|oi| swept.amplitude_pa(si, tp, oi))
+                    .fold(0.0, f64::max)
+            })
+            .collect(),
+    }
+}
+
+/// Where `limit` at measurement point `tap` is exceeded over the envelope's
+/// sweeps, given its refined worst at each envelope point (`at_points`).
+fn over_limit(
+    sweeps: &[PointSweep],
+    tap: &str,
+    limit: &Limit,
+    at_points: &[Option<WorstPoint>],
+) -> OverLimit {
+    let mut intervals: Vec<(f64, f64)> = Vec::new();
+    let mut points = 0;
+    for (ps, worst) in sweeps.iter().zip(at_points) {
+        let Some(tp) = ps.sweep.points.iter().position(|p| p == tap) else {
+            continue;
+        };
+        let speeds = &ps.sweep.speeds_rev_s;
+        let last = speeds.len() - 1;
+        let values = limited_on_grid(&ps.sweep, tp, limit.kind);
+        let over = |v: f64| v > limit.value_pa;
+        let before = intervals.len();
+        let mut si = 0;
+        while si <= last {
+            if !over(values[si]) {
+                si += 1;
+                continue;
+            }
+            let start = si;
+            while si < last && over(values[si + 1]) {
+                si += 1;
+            }
+            intervals.push((speeds[start.saturating_sub(1)], speeds[(si + 1).min(last)]));
+            si += 1;
+        }
+        if let Some(w) = worst.as_ref().filter(|w| over(w.value_pa)) {
+            let n = w.speed_rev_s;
+            if !intervals[before..].iter().any(|&(a, b)| a <= n && n <= b) {
+                let j = speeds.partition_point(|&s| s <= n).clamp(1, last);
+                intervals.push((speeds[j - 1], speeds[j]));
+            }
+        }
+        if intervals.len() > before {
+            points += 1;
+        }
+    }
+    intervals.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let mut merged: Vec<(f64, f64)> = Vec::new();
+    for (a, b) in intervals {
+        match merged.last_mut() {
+            Some(m) if a <= m.1 => m.1 = m.1.max(b),
+            _ => merged.push((a, b)),
+        }
+    }
+    OverLimit {
+        points,
+        speeds_rev_s: merged,
+    }
 }
 
 /// What a finding is.
@@ -405,6 +528,8 @@ pub fn assess(
                     margin_db: (value > 0.0).then(|| 20.0 * (limit.value_pa / value).log10()),
                     margin_pa: limit.value_pa - value,
                     pass: value <= limit.value_pa,
+                    over_limit: (value > limit.value_pa)
+                        .then(|| over_limit(&sweeps, &tl.tap, limit, &at_points)),
                     worst,
                     at_points,
                 }

@@ -5,7 +5,7 @@
 //! limit.
 
 use super::heading;
-use crate::analysis::envelope::Verdict;
+use crate::analysis::envelope::{OverLimit, Verdict};
 use crate::envelope::{LimitKind, OperatingPoint};
 use crate::io::csv_envelope::{FileOperatingPoint, envelope_columns};
 use crate::plot;
@@ -222,6 +222,31 @@ pub fn limit_text(v: &Verdict) -> String {
     format!("{what} ≤ {}", v.limit.written)
 }
 
+/// Where a limit is exceeded, in words: "over the limit at 9 of 27
+/// envelope points, at 1967–2300 rpm; it holds at every envelope point over
+/// 900–1967 rpm (speeds to the grid's step)".
+pub fn over_limit_text(o: &OverLimit, range_rev_s: (f64, f64), points: usize) -> String {
+    let rpm = |(a, b): (f64, f64)| {
+        if (a - b).abs() < 1e-9 * b {
+            format!("{:.0} rpm", a * 60.0)
+        } else {
+            format!("{:.0}–{:.0} rpm", a * 60.0, b * 60.0)
+        }
+    };
+    let over: Vec<String> = o.speeds_rev_s.iter().map(|&i| rpm(i)).collect();
+    let clear: Vec<String> = o.clear_speeds(range_rev_s).into_iter().map(rpm).collect();
+    format!(
+        "over the limit at {} of {points} envelope points, at {}; {} (speeds to the grid's step)",
+        o.points,
+        over.join(", "),
+        if clear.is_empty() {
+            "no speed of the range keeps within it at every envelope point".to_string()
+        } else {
+            format!("it holds at every envelope point over {}", clear.join(", "))
+        }
+    )
+}
+
 /// The margin in pressure as words: "4.5386 bar over", "0.12 bar to spare" (the
 /// sign is in the words; the dB margin beside it carries its own).
 fn margin_pressure(pa: f64) -> String {
@@ -294,6 +319,13 @@ pub fn text(r: &AssessReport, out: &mut impl Write) -> std::io::Result<()> {
                     margin_pressure(v.margin_pa)
                 )?,
                 _ => writeln!(out, "{head}; no ripple reaches it anywhere in the envelope")?,
+            }
+            if let Some(o) = &v.over_limit {
+                writeln!(
+                    out,
+                    "         {}",
+                    over_limit_text(o, a.speed_range_rev_s, a.points.len())
+                )?;
             }
             if let Some(b) = r.verdict_bands.as_ref().and_then(|b| b.verdicts.get(i)) {
                 match (b.worst_pa.and_then(|w| w.interval()), b.margin_db) {

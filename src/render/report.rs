@@ -549,7 +549,17 @@ fn verdict_text(a: &AssessReport, i: usize) -> String {
         ),
         _ => format!("{word}: no ripple reaches it anywhere"),
     };
-    format!("{text}{band}")
+    let over = v.over_limit.as_ref().map_or(String::new(), |o| {
+        format!(
+            "; {}",
+            super::assess::over_limit_text(
+                o,
+                a.assessment.speed_range_rev_s,
+                a.assessment.points.len()
+            )
+        )
+    });
+    format!("{text}{band}{over}")
 }
 
 /// `+1.23` or `−0.45` with `decimals` decimals.
