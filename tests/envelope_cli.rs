@@ -188,6 +188,13 @@ fn the_readme_envelope_demo_holds() {
     assert!(readme.contains(
         "at 900–1110 rpm and 1964–2300 rpm, and holds\nat every point only over 1110–1964 rpm"
     ));
+    // each failing verdict names the damper bottomed wherever it fails
+    assert_eq!(
+        out.matches("at each of those points `damper` is bottomed")
+            .count(),
+        3,
+        "{out}"
+    );
     assert!(text(&o.stderr).contains("the damper is bottomed"));
     assert!(readme.contains("(6.54 bar rms at the\nvalve block against a 2 bar limit, margin −10.3 dB; 11.3 bar rms at the pump outlet)"));
 

@@ -27,6 +27,7 @@ use super::sweep::{
 };
 use super::worst::{Measure, WorstSpeed};
 use crate::circuit::Circuit;
+use crate::elements::ElementKind;
 use crate::envelope::{Limit, LimitKind, OperatingPoint, TapLimits};
 use crate::network::{NetworkError, Plan};
 use crate::source::{Shaft, shafts};
@@ -113,6 +114,11 @@ pub struct OverLimit {
     /// between two grid speeds under it by those two. Outside them the limit
     /// holds at every envelope point, to the grid's resolution.
     pub speeds_rev_s: Vec<(f64, f64)>,
+    /// Pulsation dampers bottomed (their precharge above the mean
+    /// pressure, their gas out of the circuit) at every envelope point
+    /// where the limit is exceeded: a cause, and what a precharge below the
+    /// lowest operating pressure would change.
+    pub bottomed_dampers: Vec<String>,
 }
 
 impl OverLimit {
@@ -166,14 +172,15 @@ fn limited_on_grid(swept: &SweepResult, tp: usize, kind: LimitKind) -> Vec<f64> 
 /// Where `limit` at measurement point `tap` is exceeded over the envelope's
 /// sweeps, given its refined worst at each envelope point (`at_points`).
 fn over_limit(
+    points: &[(OperatingPoint, Circuit)],
     sweeps: &[PointSweep],
     tap: &str,
     limit: &Limit,
     at_points: &[Option<WorstPoint>],
 ) -> OverLimit {
     let mut intervals: Vec<(f64, f64)> = Vec::new();
-    let mut points = 0;
-    for (ps, worst) in sweeps.iter().zip(at_points) {
+    let mut exceeded: Vec<&Circuit> = Vec::new();
+    for ((ps, worst), (_, circuit)) in sweeps.iter().zip(at_points).zip(points) {
         let Some(tp) = ps.sweep.points.iter().position(|p| p == tap) else {
             continue;
         };
@@ -203,9 +210,24 @@ fn over_limit(
             }
         }
         if intervals.len() > before {
-            points += 1;
+            exceeded.push(circuit);
         }
     }
+    let bottomed = |c: &Circuit, name: &str| {
+        c.elements
+            .iter()
+            .any(|e| e.name == name && matches!(&e.kind, ElementKind::Damper(d) if d.is_bottomed()))
+    };
+    let bottomed_dampers = exceeded
+        .first()
+        .map(|c| {
+            c.elements
+                .iter()
+                .filter(|e| exceeded.iter().all(|c| bottomed(c, &e.name)))
+                .map(|e| e.name.clone())
+                .collect()
+        })
+        .unwrap_or_default();
     intervals.sort_by(|a, b| a.0.total_cmp(&b.0));
     let mut merged: Vec<(f64, f64)> = Vec::new();
     for (a, b) in intervals {
@@ -215,8 +237,9 @@ fn over_limit(
         }
     }
     OverLimit {
-        points,
+        points: exceeded.len(),
         speeds_rev_s: merged,
+        bottomed_dampers,
     }
 }
 
@@ -529,7 +552,7 @@ pub fn assess(
                     margin_pa: limit.value_pa - value,
                     pass: value <= limit.value_pa,
                     over_limit: (value > limit.value_pa)
-                        .then(|| over_limit(&sweeps, &tl.tap, limit, &at_points)),
+                        .then(|| over_limit(points, &sweeps, &tl.tap, limit, &at_points)),
                     worst,
                     at_points,
                 }

@@ -247,6 +247,26 @@ pub fn over_limit_text(o: &OverLimit, range_rev_s: (f64, f64), points: usize) ->
     )
 }
 
+/// The bottomed dampers of a failing limit as a cause, in words.
+pub fn bottomed_text(o: &OverLimit) -> Option<String> {
+    if o.bottomed_dampers.is_empty() {
+        return None;
+    }
+    let names: Vec<String> = o
+        .bottomed_dampers
+        .iter()
+        .map(|n| format!("`{n}`"))
+        .collect();
+    Some(format!(
+        "at each of those points {} bottomed (precharge above the mean pressure: the gas is out of the circuit and damps nothing); a precharge below the lowest operating pressure keeps the gas in (0.6–0.9 of it is common practice; the maker's instructions govern), and `ripline tune --envelope` sizes it for the whole envelope",
+        if names.len() == 1 {
+            format!("{} is", names[0])
+        } else {
+            format!("{} are", names.join(", "))
+        }
+    ))
+}
+
 /// The margin in pressure as words: "4.5386 bar over", "0.12 bar to spare" (the
 /// sign is in the words; the dB margin beside it carries its own).
 fn margin_pressure(pa: f64) -> String {
@@ -326,6 +346,9 @@ pub fn text(r: &AssessReport, out: &mut impl Write) -> std::io::Result<()> {
                     "         {}",
                     over_limit_text(o, a.speed_range_rev_s, a.points.len())
                 )?;
+                if let Some(cause) = bottomed_text(o) {
+                    writeln!(out, "         {cause}")?;
+                }
             }
             if let Some(b) = r.verdict_bands.as_ref().and_then(|b| b.verdicts.get(i)) {
                 match (b.worst_pa.and_then(|w| w.interval()), b.margin_db) {

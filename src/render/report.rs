@@ -551,12 +551,13 @@ fn verdict_text(a: &AssessReport, i: usize) -> String {
     };
     let over = v.over_limit.as_ref().map_or(String::new(), |o| {
         format!(
-            "; {}",
+            "; {}{}",
             super::assess::over_limit_text(
                 o,
                 a.assessment.speed_range_rev_s,
                 a.assessment.points.len()
-            )
+            ),
+            super::assess::bottomed_text(o).map_or(String::new(), |c| format!("; {c}"))
         )
     });
     format!("{text}{band}{over}")
