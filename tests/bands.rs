@@ -15,7 +15,7 @@ use ripline::io::quantity::Spread;
 use ripline::uncertainty::bands::{BandRequest, Method, propagate, response_outputs};
 use ripline::uncertainty::linear::coverage_factor;
 use ripline::uncertainty::monte_carlo::Options;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 /// A 9-element pump at node `a` with one harmonic and no source
 /// compliance (an ideal flow source, a closed end to the lines there).
@@ -48,6 +48,20 @@ fn scratch_dir(tag: &str) -> PathBuf {
     let dir = std::env::temp_dir().join(format!("ripline-bands-{tag}-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     dir
+}
+
+/// Runs `ripline ARGS --json JSON` from the crate's folder, asserts that it
+/// succeeds, and returns its standard output and the JSON.
+fn ripline_json(args: &[&str], json: &Path) -> (String, serde_json::Value) {
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
+        .args(args)
+        .args(["--json", json.to_str().unwrap()])
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let v = serde_json::from_str(&std::fs::read_to_string(json).unwrap()).unwrap();
+    (String::from_utf8(o.stdout).unwrap(), v)
 }
 
 /// A fresh scratch folder for one test (`tag`) holding the circuit `text`
@@ -309,19 +323,21 @@ fn response_bands_of_the_quarter_wave_line_are_the_image_of_the_wave_speed() {
     );
     let run = |method: &str| {
         let json = dir.join(format!("{method}.json"));
-        let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
-            .args(["response", circuit.to_str().unwrap(), "--band", "100..1000"])
-            .args(["--bands", method, "--json", json.to_str().unwrap()])
-            .output()
-            .unwrap();
-        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
-        let text = String::from_utf8(o.stdout).unwrap();
+        let (text, v) = ripline_json(
+            &[
+                "response",
+                circuit.to_str().unwrap(),
+                "--band",
+                "100..1000",
+                "--bands",
+                method,
+            ],
+            &json,
+        );
         assert!(
             text.contains("uncertainty bands: 90.0 % coverage"),
             "{text}"
         );
-        let v: serde_json::Value =
-            serde_json::from_str(&std::fs::read_to_string(json).unwrap()).unwrap();
         v["result"]["uncertainty_bands"]["resonances"]
             .as_array()
             .unwrap()
@@ -391,15 +407,19 @@ taps:
     );
     let (dir, circuit) = circuit_in_scratch("pair", "pair.yaml", &text);
     let json = dir.join("r.json");
-    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
-        .args(["response", circuit.to_str().unwrap(), "--band", "250..400"])
-        .args(["--bands", "monte-carlo", "--draws", "1000"])
-        .args(["--json", json.to_str().unwrap()])
-        .output()
-        .unwrap();
-    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
-    let v: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let (_, v) = ripline_json(
+        &[
+            "response",
+            circuit.to_str().unwrap(),
+            "--band",
+            "250..400",
+            "--bands",
+            "monte-carlo",
+            "--draws",
+            "1000",
+        ],
+        &json,
+    );
     let r = v["result"]["uncertainty_bands"]["resonances"]
         .as_array()
         .unwrap();
@@ -433,20 +453,19 @@ taps:
 /// 1070 Hz, below the geometric mean of the two, 1221 Hz).
 #[test]
 fn response_bands_count_the_draws_that_lack_a_resonance() {
-    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
     let dir = scratch_dir("missing");
     let json = dir.join("r.json");
-    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
-        .args(["response", "networks/calibration/log_loader.yaml"])
-        .args(["--bands", "monte-carlo", "--draws", "200"])
-        .args(["--json", json.to_str().unwrap()])
-        .current_dir(root)
-        .output()
-        .unwrap();
-    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
-    let text = String::from_utf8(o.stdout).unwrap();
-    let v: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let (text, v) = ripline_json(
+        &[
+            "response",
+            "networks/calibration/log_loader.yaml",
+            "--bands",
+            "monte-carlo",
+            "--draws",
+            "200",
+        ],
+        &json,
+    );
     let r = v["result"]["uncertainty_bands"]["resonances"]
         .as_array()
         .unwrap();
@@ -566,21 +585,25 @@ taps:
 ";
     let (dir, circuit) = circuit_in_scratch("places", "two.yaml", text);
     let json = dir.join("sweep.json");
-    let o = std::process::Command::new(env!("CARGO_BIN_EXE_ripline"))
-        .args(["sweep", circuit.to_str().unwrap()])
-        .args(["--speed-range", "800..2400", "--speed-step", "10"])
-        .args(["--bands", "monte-carlo", "--draws", "1000"])
-        .args(["--json", json.to_str().unwrap()])
-        .output()
-        .unwrap();
-    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
-    let text = String::from_utf8(o.stdout).unwrap();
+    let (text, v) = ripline_json(
+        &[
+            "sweep",
+            circuit.to_str().unwrap(),
+            "--speed-range",
+            "800..2400",
+            "--speed-step",
+            "10",
+            "--bands",
+            "monte-carlo",
+            "--draws",
+            "1000",
+        ],
+        &json,
+    );
     assert!(
         text.contains("worst speed in more than one place over the draws"),
         "{text}"
     );
-    let v: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(json).unwrap()).unwrap();
     let places = v["result"]["bands"]["points"][0]["worst_speed_places"]
         .as_array()
         .unwrap();

@@ -185,6 +185,25 @@ fn tune_sweep_and_a_brute_force_grid_agree_on_the_worst_speed() {
     }
 }
 
+/// The generated branched circuit of `elements` elements and `loops`
+/// loops (an invented scenario).
+fn generated(elements: usize, loops: usize) -> ripline::Circuit {
+    let text = ripline::generated::branched_circuit(elements, loops);
+    ripline::io::parse_circuit(&text, "generated.yaml").unwrap()
+}
+
+/// A sweep of `n` speeds evenly over 1000..2500 rpm at circuit `c`'s
+/// harmonics, with no crossings searched.
+fn even_speeds(c: &ripline::Circuit, n: usize) -> ripline::analysis::sweep::SweepSettings {
+    ripline::analysis::sweep::SweepSettings {
+        speeds_rev_s: (0..n)
+            .map(|i| (1000.0 + 1500.0 * i as f64 / (n - 1) as f64) / 60.0)
+            .collect(),
+        harmonics: c.harmonics,
+        min_rise_db: f64::INFINITY,
+    }
+}
+
 // Generated branched circuits (`ripline::generated::branched_circuit`, an
 // invented scenario: 30 and 60 elements, 24 to 50 tubes, with and without
 // loops, 10 harmonics, 25 to 50 measurement points, dozens of resonance
@@ -196,19 +215,12 @@ fn tune_sweep_and_a_brute_force_grid_agree_on_the_worst_speed() {
 // top of a peak.
 #[test]
 fn the_shared_worst_speed_search_finds_every_points_brute_force_maximum() {
-    use ripline::analysis::sweep::{SweepSettings, sweep};
+    use ripline::analysis::sweep::sweep;
     for (elements, loops) in [(30, 1), (30, 0), (60, 3)] {
-        let text = ripline::generated::branched_circuit(elements, loops);
-        let c = ripline::io::parse_circuit(&text, "generated.yaml").unwrap();
+        let c = generated(elements, loops);
         let plan = Plan::compile(&c).unwrap();
         let shaft = ripline::source::Shaft::single(&c.pumps, 0);
-        let grid = |n: usize| SweepSettings {
-            speeds_rev_s: (0..n)
-                .map(|i| (1000.0 + 1500.0 * i as f64 / (n - 1) as f64) / 60.0)
-                .collect(),
-            harmonics: c.harmonics,
-            min_rise_db: f64::INFINITY,
-        };
+        let grid = |n: usize| even_speeds(&c, n);
         let brute = sweep(&plan, &shaft, &grid(15_001), &mut |_| {}).unwrap();
         let swept = sweep(&plan, &shaft, &grid(100), &mut |_| {}).unwrap();
         assert!(swept.points.len() >= 25);
@@ -233,18 +245,11 @@ fn the_shared_worst_speed_search_finds_every_points_brute_force_maximum() {
 // point (DEVELOPERS.md), is; the 100 speeds of the test above are not.
 #[test]
 fn a_speed_grid_coarser_than_the_checked_ones_is_warned_about() {
-    use ripline::analysis::sweep::{SweepSettings, sweep};
-    let text = ripline::generated::branched_circuit(30, 0);
-    let c = ripline::io::parse_circuit(&text, "generated.yaml").unwrap();
+    use ripline::analysis::sweep::sweep;
+    let c = generated(30, 0);
     let plan = Plan::compile(&c).unwrap();
     let shaft = ripline::source::Shaft::single(&c.pumps, 0);
-    let grid = |n: usize| SweepSettings {
-        speeds_rev_s: (0..n)
-            .map(|i| (1000.0 + 1500.0 * i as f64 / (n - 1) as f64) / 60.0)
-            .collect(),
-        harmonics: c.harmonics,
-        min_rise_db: f64::INFINITY,
-    };
+    let grid = |n: usize| even_speeds(&c, n);
     let warned = |n: usize| {
         sweep(&plan, &shaft, &grid(n), &mut |_| {})
             .unwrap()
