@@ -110,9 +110,11 @@ pub struct OverLimit {
     /// Speed intervals (rev/s; increasing, disjoint) holding every speed at
     /// which it exceeds the limit at one envelope point or more: each run of
     /// grid speeds over the limit widened to the grid speeds either side (the
-    /// limit is crossed between them), and a refined worst over the limit
-    /// between two grid speeds under it by those two. Outside them the limit
-    /// holds at every envelope point, to the grid's resolution.
+    /// limit is crossed between them), and a peak over the limit between
+    /// two grid speeds under it (the point's refined worst, or a refined
+    /// resonance crossing whose one harmonic alone exceeds it) by those two.
+    /// Outside them the limit holds at every envelope point, to the grid's
+    /// resolution.
     pub speeds_rev_s: Vec<(f64, f64)>,
     /// Pulsation dampers bottomed (their precharge above the mean
     /// pressure, their gas out of the circuit) at every envelope point
@@ -202,8 +204,27 @@ fn over_limit(
             intervals.push((speeds[start.saturating_sub(1)], speeds[(si + 1).min(last)]));
             si += 1;
         }
-        if let Some(w) = worst.as_ref().filter(|w| over(w.value_pa)) {
-            let n = w.speed_rev_s;
+        // peaks between grid speeds: the point's refined worst, and each
+        // refined resonance crossing whose one harmonic alone is over the
+        // limit (the rms is at least |P_k|/√2; the peak-to-peak at least
+        // |P_k|, each harmonic's amplitude being at most the waveform's
+        // span by its Fourier integral)
+        let crossing_bound = |amplitude: f64| match limit.kind {
+            LimitKind::Rms => amplitude / std::f64::consts::SQRT_2,
+            LimitKind::PeakToPeak | LimitKind::Harmonic => amplitude,
+        };
+        let peaks = worst
+            .iter()
+            .filter(|w| over(w.value_pa))
+            .map(|w| w.speed_rev_s)
+            .chain(
+                ps.sweep
+                    .crossings
+                    .iter()
+                    .filter(|c| c.point == tp && over(crossing_bound(c.amplitude_pa)))
+                    .map(|c| c.speed_rev_s),
+            );
+        for n in peaks {
             if !intervals[before..].iter().any(|&(a, b)| a <= n && n <= b) {
                 let j = speeds.partition_point(|&s| s <= n).clamp(1, last);
                 intervals.push((speeds[j - 1], speeds[j]));
