@@ -134,9 +134,10 @@ fn compare_writes_its_table() {
 // whose level the records' uncertainties state: that circuit agrees with
 // them within their noise at every tap (χ² of the normalised differences
 // below the 99th percentile of χ² with 2 degrees of freedom per row, the
-// law of |δ|²/u² for circular complex normal noise), while the catalogue
-// model misses them at every tap, and `compare` concludes so and points
-// to `calibrate`.
+// law of 2|δ|²/u² for circular complex normal noise, matched by
+// Satterthwaite's moments since the records' uncertainties are estimated
+// from the records), while the catalogue model misses them at every tap,
+// and `compare` concludes so and points to `calibrate`.
 #[test]
 fn compare_concludes_whether_the_model_agrees_within_the_noise() {
     let dir = scratch("verdict");
