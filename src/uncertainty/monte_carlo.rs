@@ -294,11 +294,7 @@ fn summary(samples: &[f32], coverage: f64) -> (f64, f64, f64, f64) {
 }
 
 fn summary_with_missing(samples: &[f32], coverage: f64) -> (f64, f64, f64, f64, usize) {
-    let mut v: Vec<f64> = samples
-        .iter()
-        .filter(|x| x.is_finite())
-        .map(|&x| f64::from(x))
-        .collect();
+    let mut v = super::stats::finite_samples(samples);
     let missing = samples.len() - v.len();
     if v.is_empty() {
         return (f64::NAN, f64::NAN, f64::NAN, f64::NAN, missing);

@@ -154,6 +154,16 @@ pub fn quantile(samples: &mut [f64], p: f64) -> f64 {
     }
 }
 
+/// The finite ones of stored (f32) draws, as f64, in their order: a draw
+/// that lacks the quantity holds NaN.
+pub fn finite_samples(samples: &[f32]) -> Vec<f64> {
+    samples
+        .iter()
+        .filter(|x| x.is_finite())
+        .map(|&x| f64::from(x))
+        .collect()
+}
+
 /// Where samples of a positive quantity gather: runs of the sorted finite
 /// samples in which each is within the factor `1 + gap` of the one before
 /// (a sample further from its neighbour starts a new place), increasing.
@@ -162,11 +172,7 @@ pub fn quantile(samples: &mut [f64], p: f64) -> f64 {
 /// crossing to another) in several, and each place's share of the draws
 /// says how often it holds.
 pub fn places(samples: &[f32], gap: f64) -> Vec<Place> {
-    let mut v: Vec<f64> = samples
-        .iter()
-        .filter(|x| x.is_finite())
-        .map(|&x| f64::from(x))
-        .collect();
+    let mut v = finite_samples(samples);
     v.sort_by(f64::total_cmp);
     let mut out: Vec<Place> = Vec::new();
     for x in v {
