@@ -353,7 +353,10 @@ pub fn silencer(
         None
     } else {
         let (lo, hi) = speeds.rev_s();
-        let count = RANGE_SPEEDS.max((hi / lo).ln().div_euclid(CHECKED_STEP.ln_1p()) as usize + 2);
+        // n log-spaced speeds lie (hi/lo)^(1/(n − 1)) apart: at most
+        // 1 + CHECKED_STEP once n − 1 ≥ ln(hi/lo)/ln(1 + CHECKED_STEP)
+        let steps = (hi / lo).ln() / CHECKED_STEP.ln_1p();
+        let count = RANGE_SPEEDS.max(steps.floor() as usize + 2);
         let conditions = speed_conditions((lo, hi), count);
         let worst = |c: &Circuit, point: TapLocation, what: &str| -> Result<(f64, f64), Error> {
             let s = RippleEvaluator::new(c, pump_index, point, &conditions, Objective::Worst)
