@@ -227,16 +227,34 @@ pub fn sweep_text(b: &SweepBands, out: &mut impl Write) -> std::io::Result<()> {
     t.write(out, "  ")?;
     // a worst speed that jumps between crossings over the draws: where
     // it lies, so that one interval over both does not hide it
-    let split: Vec<_> = b
+    let split: Vec<(&str, Vec<String>)> = b
         .points
         .iter()
-        .filter(|p| {
-            p.worst_speed_places
+        .map(|p| {
+            let shown: Vec<String> = p
+                .worst_speed_places
                 .iter()
                 .filter(|s| s.share >= MIN_PLACE_SHARE)
-                .count()
-                > 1
+                .map(|s| {
+                    let (low, high) = (
+                        sig(rpm.of(s.low_rev_s), DIGITS),
+                        sig(rpm.of(s.high_rev_s), DIGITS),
+                    );
+                    let speeds = if low == high {
+                        low
+                    } else {
+                        format!("{low} .. {high}")
+                    };
+                    format!(
+                        "{speeds} rpm in {:.1} %{}",
+                        100.0 * s.share,
+                        if s.nominal { " (the nominal's)" } else { "" }
+                    )
+                })
+                .collect();
+            (p.point.as_str(), shown)
         })
+        .filter(|(_, shown)| shown.len() > 1)
         .collect();
     if !split.is_empty() {
         writeln!(
@@ -245,29 +263,8 @@ pub fn sweep_text(b: &SweepBands, out: &mut impl Write) -> std::io::Result<()> {
             100.0 * MIN_PLACE_SHARE
         )?;
     }
-    for p in split {
-        let places: Vec<String> = p
-            .worst_speed_places
-            .iter()
-            .filter(|s| s.share >= MIN_PLACE_SHARE)
-            .map(|s| {
-                let (low, high) = (
-                    sig(rpm.of(s.low_rev_s), DIGITS),
-                    sig(rpm.of(s.high_rev_s), DIGITS),
-                );
-                let speeds = if low == high {
-                    low
-                } else {
-                    format!("{low} .. {high}")
-                };
-                format!(
-                    "{speeds} rpm in {:.1} %{}",
-                    100.0 * s.share,
-                    if s.nominal { " (the nominal's)" } else { "" }
-                )
-            })
-            .collect();
-        writeln!(out, "  {}: {}", p.point, places.join(", "))?;
+    for (point, shown) in split {
+        writeln!(out, "  {point}: {}", shown.join(", "))?;
     }
     Ok(())
 }
